@@ -1,0 +1,47 @@
+#!/usr/bin/env bash
+# `npm start`: install what is missing, start MariaDB (and, inside the server, the fake SMTP server)
+# on loopback, migrate, seed, build and serve the studio. Ctrl-C or SIGTERM stops everything it started.
+set -euo pipefail
+root="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
+cd "$root"
+dev=0
+[ "${1:-}" = "--dev" ] && dev=1
+
+bash scripts/ensure-deps.sh
+export DATA_DIR="${DATA_DIR:-$root/data}"
+export DB_DIR="${DB_DIR:-$DATA_DIR/mariadb}"
+mkdir -p "$DATA_DIR"
+
+started_db=0
+if ! bash scripts/db.sh status 2>/dev/null; then started_db=1; fi
+bash scripts/db.sh start
+
+server_pid=""
+vite_pid=""
+cleanup() {
+  trap - EXIT INT TERM
+  [ -n "$vite_pid" ] && kill -TERM "$vite_pid" 2>/dev/null || true
+  if [ -n "$server_pid" ] && kill -0 "$server_pid" 2>/dev/null; then
+    kill -TERM "$server_pid" 2>/dev/null || true
+    wait "$server_pid" 2>/dev/null || true
+  fi
+  if [ "$started_db" = 1 ]; then bash scripts/db.sh stop || true; fi
+}
+trap cleanup EXIT
+trap 'exit 130' INT
+trap 'exit 143' TERM
+
+if [ "$dev" = 1 ]; then
+  export NODE_ENV=development SERVE_CLIENT=false
+  node --import tsx server/index.ts &
+  server_pid=$!
+  npx vite &
+  vite_pid=$!
+else
+  echo "[start] building the client" >&2
+  npx vite build --logLevel warn
+  export NODE_ENV=production
+  node --import tsx server/index.ts &
+  server_pid=$!
+fi
+wait "$server_pid"

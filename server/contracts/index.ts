@@ -1,0 +1,5 @@
+// The only server folder the client imports: request, response and error shapes of the API.
+export * from './errors';
+export * from './common';
+export * from './auth';
+export * from './teams';

@@ -1,0 +1,53 @@
+import { z } from 'zod';
+import { email, idParam, role } from './common';
+
+export const member = z.object({
+  userId: z.number().int(),
+  email: z.string(),
+  name: z.string(),
+  role,
+  joinedAt: z.string(),
+});
+export type Member = z.infer<typeof member>;
+/** GET /api/teams/:teamId/members */
+export const membersResponse = z.object({ members: z.array(member) });
+
+export const memberParams = z.object({ teamId: idParam, userId: idParam });
+/** PATCH /api/teams/:teamId/members/:userId (admin) */
+export const updateMemberBody = z.object({ role }).strict();
+/** DELETE /api/teams/:teamId/members/:userId (admin) → 204; the last admin cannot be removed or demoted (409) */
+
+export const invitation = z.object({
+  id: z.number().int(),
+  email: z.string(),
+  role,
+  invitedBy: z.string(),
+  createdAt: z.string(),
+  expiresAt: z.string(),
+  acceptedAt: z.string().nullable(),
+});
+export type Invitation = z.infer<typeof invitation>;
+/** GET /api/teams/:teamId/invitations (admin) */
+export const invitationsResponse = z.object({ invitations: z.array(invitation) });
+/** POST /api/teams/:teamId/invitations (admin) → 201 {invitation}; sends the e-mail */
+export const createInvitationBody = z.object({ email, role }).strict();
+export const invitationParams = z.object({ teamId: idParam, invitationId: idParam });
+/** DELETE /api/teams/:teamId/invitations/:invitationId (admin) → 204 (revokes) */
+
+export const outboxMessage = z.object({
+  id: z.number().int(),
+  from: z.string(),
+  to: z.array(z.string()),
+  subject: z.string(),
+  text: z.string(),
+  html: z.string().nullable(),
+  receivedAt: z.string(),
+});
+export type OutboxMessage = z.infer<typeof outboxMessage>;
+/** GET /api/teams/:teamId/outbox (admin): messages the local fake SMTP server captured for this team's members and invitees */
+export const outboxResponse = z.object({ messages: z.array(outboxMessage) });
+
+/** PATCH /api/teams/:teamId/members/:userId → 200 */
+export const memberResponse = z.object({ member });
+/** POST /api/teams/:teamId/invitations → 201 */
+export const invitationResponse = z.object({ invitation });

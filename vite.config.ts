@@ -1,0 +1,66 @@
+import { defineConfig } from 'vitest/config';
+import react from '@vitejs/plugin-react';
+import tailwindcss from '@tailwindcss/vite';
+
+// One config for the client build and for every test project, so aliases and plugins never drift apart.
+export default defineConfig({
+  plugins: [react(), tailwindcss()],
+  publicDir: false,
+  build: {
+    outDir: 'dist',
+    emptyOutDir: true,
+    sourcemap: false,
+    chunkSizeWarningLimit: 900,
+  },
+  server: {
+    host: '127.0.0.1',
+    port: 5173,
+    proxy: { '/api': 'http://127.0.0.1:8420' },
+  },
+  test: {
+    // Projects split by what they need: pure code, a database, a DOM, a real browser.
+    projects: [
+      {
+        extends: true,
+        test: {
+          name: 'unit',
+          include: ['tests/unit/**/*.test.ts', 'tests/reference/**/*.test.ts'],
+          environment: 'node',
+          testTimeout: 120_000,
+        },
+      },
+      {
+        extends: true,
+        test: {
+          name: 'api',
+          include: ['tests/api/**/*.test.ts', 'tests/migrations/**/*.test.ts'],
+          environment: 'node',
+          testTimeout: 120_000,
+          hookTimeout: 120_000,
+          // Each file makes its own database; two at a time fits a two-core machine.
+          maxWorkers: 2,
+        },
+      },
+      {
+        extends: true,
+        test: {
+          name: 'client',
+          include: ['tests/client/**/*.test.{ts,tsx}'],
+          environment: 'jsdom',
+          testTimeout: 30_000,
+        },
+      },
+      {
+        extends: true,
+        test: {
+          name: 'browser',
+          include: ['tests/browser/**/*.test.ts'],
+          environment: 'node',
+          testTimeout: 180_000,
+          hookTimeout: 180_000,
+          fileParallelism: false,
+        },
+      },
+    ],
+  },
+});

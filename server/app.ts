@@ -1,0 +1,159 @@
+import { existsSync } from 'node:fs';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import cookieParser from 'cookie-parser';
+import express, { type Express } from 'express';
+import helmet from 'helmet';
+import { pinoHttp } from 'pino-http';
+import type { Config, Logger } from './config';
+import { createAuthenticator } from './http/middleware/authenticate';
+import { requireKnownBodyType } from './http/middleware/content-type';
+import { apiNotFound, errorHandler } from './http/middleware/error-handler';
+import { originCheck } from './http/middleware/origin-check';
+import { attemptLimiter } from './http/middleware/rate-limit';
+import { requireTeamRoleFactory } from './http/middleware/require-team-role';
+import { authRouter } from './http/routes/auth';
+import { codebookImportBodyParser, codebookImportPath, codebooksRouter } from './http/routes/codebooks';
+import { compareRouter } from './http/routes/compare';
+import { codebookEvaluationsRouter, runResultsRouter } from './http/routes/curves';
+import type { RouteDeps } from './http/routes/deps';
+import { healthRouter } from './http/routes/health';
+import { imageSetsRouter } from './http/routes/image-sets';
+import { imagesRouter } from './http/routes/images';
+import { invitationsRouter } from './http/routes/invitations';
+import { meRouter } from './http/routes/me';
+import { membersRouter } from './http/routes/members';
+import { outboxRouter } from './http/routes/outbox';
+import { reconstructionsRouter } from './http/routes/reconstructions';
+import { runsRouter } from './http/routes/runs';
+import { teamInvitationsRouter } from './http/routes/team-invitations';
+import './http/types';
+import type {
+  AccountsService,
+  CodebooksService,
+  ComparisonService,
+  EvaluationService,
+  HealthService,
+  ImageRecordsService,
+  ImageSetsService,
+  ImageUploadsService,
+  InvitationsService,
+  OutboxService,
+  RunsService,
+  SessionTokens,
+  TeamsService,
+} from './services';
+
+export interface AppDeps {
+  config: Config;
+  logger: Logger;
+  sessions: SessionTokens;
+  services: {
+    accounts: AccountsService;
+    teams: TeamsService;
+    invitations: InvitationsService;
+    outbox: OutboxService;
+    health: HealthService;
+    imageSets: ImageSetsService;
+    imageRecords: ImageRecordsService;
+    imageUploads: ImageUploadsService;
+    runs: RunsService;
+    codebooks: CodebooksService;
+    evaluation: EvaluationService;
+    comparison: ComparisonService;
+  };
+  /** Built client to serve; defaults to dist/ at the repository root. */
+  clientDir?: string;
+}
+
+const defaultClientDir = fileURLToPath(new URL('../dist', import.meta.url));
+
+export function createApp(deps: AppDeps): Express {
+  const { config, logger, services } = deps;
+  const app = express();
+  app.disable('x-powered-by');
+  app.set('query parser', 'simple');
+
+  app.use(
+    helmet({
+      contentSecurityPolicy: {
+        useDefaults: false,
+        directives: {
+          defaultSrc: ["'self'"],
+          scriptSrc: ["'self'"],
+          styleSrc: ["'self'"],
+          fontSrc: ["'self'"],
+          imgSrc: ["'self'", 'data:', 'blob:'],
+          connectSrc: ["'self'"],
+          workerSrc: ["'self'", 'blob:'],
+          objectSrc: ["'none'"],
+          baseUri: ["'self'"],
+          formAction: ["'self'"],
+          frameAncestors: ["'none'"],
+        },
+      },
+    }),
+  );
+  app.use(
+    pinoHttp({
+      logger,
+      // Health probes arrive every few seconds; logging them drowns everything else.
+      autoLogging: { ignore: (req) => req.url === '/api/health' },
+      customLogLevel: (_req, res, err) => (err || res.statusCode >= 500 ? 'error' : res.statusCode >= 400 ? 'warn' : 'info'),
+    }),
+  );
+  app.use(cookieParser());
+  app.use('/api', originCheck(config.publicUrl));
+  // Codebook documents are far larger than any other body; the global parser below skips a body already parsed.
+  app.use(codebookImportPath, codebookImportBodyParser);
+  app.use('/api', requireKnownBodyType, express.json({ limit: '1mb' }));
+
+  const { passport, authenticate } = createAuthenticator({
+    verifyOptions: deps.sessions.verifyOptions,
+    sessionUser: (claims) => services.accounts.sessionUser(claims),
+  });
+  app.use(passport.initialize());
+
+  const limiterOptions = { limit: config.loginRateLimit, windowMs: config.loginRateWindowMs };
+  const routeDeps: RouteDeps = {
+    ...services,
+    authenticate,
+    requireTeamRole: requireTeamRoleFactory(services.teams),
+    sessionTtlSeconds: deps.sessions.ttlSeconds,
+    loginLimiter: attemptLimiter({ ...limiterOptions, message: 'Too many sign-in attempts; wait a few minutes and try again' }),
+    resetLimiter: attemptLimiter({ ...limiterOptions, message: 'Too many reset requests; wait a few minutes and try again' }),
+  };
+
+  app.use('/api/health', healthRouter(routeDeps));
+  app.use('/api/auth', authRouter(routeDeps));
+  app.use('/api/me', meRouter(routeDeps));
+  app.use('/api/invitations', invitationsRouter(routeDeps));
+  app.use('/api/teams/:teamId/members', membersRouter(routeDeps));
+  app.use('/api/teams/:teamId/invitations', teamInvitationsRouter(routeDeps));
+  app.use('/api/teams/:teamId/outbox', outboxRouter(routeDeps));
+  app.use('/api/teams/:teamId/image-sets', imageSetsRouter(routeDeps, config.uploads));
+  app.use('/api/teams/:teamId/images', imagesRouter(routeDeps));
+  app.use('/api/teams/:teamId/runs', runsRouter(routeDeps));
+  app.use('/api/teams/:teamId/codebooks', codebooksRouter(routeDeps));
+  app.use('/api/teams/:teamId/runs', runResultsRouter(routeDeps));
+  app.use('/api/teams/:teamId/codebooks', codebookEvaluationsRouter(routeDeps));
+  app.use('/api/teams/:teamId/codebooks', reconstructionsRouter(routeDeps));
+  app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
+  app.use('/api', apiNotFound);
+
+  if (config.serveClient) {
+    const clientDir = deps.clientDir ?? defaultClientDir;
+    const indexHtml = path.join(clientDir, 'index.html');
+    if (!existsSync(indexHtml)) logger.warn({ clientDir }, 'SERVE_CLIENT is on but the client is not built (npm run build)');
+    // Hashed assets never change under one name; index.html must always be revalidated.
+    app.use('/assets', express.static(path.join(clientDir, 'assets'), { immutable: true, maxAge: '1y', fallthrough: false }));
+    app.use(express.static(clientDir, { index: false, maxAge: 0 }));
+    app.get('/{*splat}', (_req, res, next) => {
+      if (!existsSync(indexHtml)) return next();
+      res.set('Cache-Control', 'no-cache').sendFile(indexHtml);
+    });
+  }
+
+  app.use(errorHandler);
+  return app;
+}

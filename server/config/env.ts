@@ -1,0 +1,181 @@
+import { randomBytes } from 'node:crypto';
+import { chmodSync, existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { availableParallelism } from 'node:os';
+import path from 'node:path';
+import { z } from 'zod';
+
+// Environment strings "true"/"1"/"yes" mean on; anything else explicit means off, absent means the default.
+const flag = (fallback: boolean) =>
+  z
+    .string()
+    .optional()
+    .transform((v) => (v === undefined || v === '' ? fallback : /^(1|true|yes|on)$/i.test(v.trim())));
+
+const port = (fallback: number) => z.coerce.number().int().min(0).max(65535).default(fallback);
+const optionalString = z
+  .string()
+  .optional()
+  .transform((v) => (v === undefined || v === '' ? undefined : v));
+
+const schema = z.object({
+  PORT: port(8420),
+  HOST: z.string().min(1).default('127.0.0.1'),
+  NODE_ENV: z.enum(['development', 'production', 'test']).default('development'),
+  DATA_DIR: z.string().min(1).default('./data'),
+  DB_HOST: z.string().min(1).default('127.0.0.1'),
+  DB_PORT: port(3407),
+  DB_NAME: z.string().min(1).max(64).default('cellwright'),
+  DB_USER: z.string().min(1).default('cellwright'),
+  DB_PASSWORD: z.string().default('cellwright-dev'),
+  JWT_SECRET: optionalString.pipe(z.string().min(32, 'JWT_SECRET must be at least 32 characters').optional()),
+  JWT_TTL_SECONDS: z.coerce.number().int().min(1).default(43_200),
+  // Below cost 10 a stolen hash table is cheap to brute-force (OWASP password storage guidance).
+  BCRYPT_COST: z.coerce.number().int().min(10).max(16).default(12),
+  SMTP_HOST: z.string().min(1).default('127.0.0.1'),
+  SMTP_PORT: port(2526),
+  SMTP_SECURE: flag(false),
+  SMTP_USER: optionalString,
+  SMTP_PASSWORD: optionalString,
+  FAKE_SMTP: flag(true),
+  MAIL_FROM: z.string().min(3).default('Cellwright <no-reply@cellwright.test>'),
+  PUBLIC_URL: optionalString.pipe(z.string().url().optional()),
+  LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).optional(),
+  SEED_DEMO: flag(true),
+  SERVE_CLIENT: optionalString,
+  LOGIN_RATE_LIMIT: z.coerce.number().int().min(1).default(10),
+  JOB_CONCURRENCY: z.coerce.number().int().min(1).default(1),
+  ENGINE_THREADS: z.coerce.number().int().min(1).optional(),
+  UPLOAD_MAX_BYTES: z.coerce.number().int().min(1).default(50 * 1024 * 1024),
+  UPLOAD_MAX_FILES: z.coerce.number().int().min(1).default(200),
+  IMAGE_MAX_PIXELS: z.coerce.number().int().min(1).default(40_000_000),
+  ZIP_MAX_ENTRIES: z.coerce.number().int().min(1).default(2000),
+  ZIP_MAX_TOTAL_BYTES: z.coerce.number().int().min(1).default(1024 * 1024 * 1024),
+});
+
+export interface Config {
+  readonly port: number;
+  readonly host: string;
+  readonly nodeEnv: 'development' | 'production' | 'test';
+  readonly dataDir: string;
+  readonly db: {
+    readonly host: string;
+    readonly port: number;
+    readonly database: string;
+    readonly user: string;
+    readonly password: string;
+  };
+  readonly jwt: { readonly secret: string; readonly ttlSeconds: number };
+  readonly bcryptCost: number;
+  readonly smtp: {
+    readonly host: string;
+    readonly port: number;
+    readonly secure: boolean;
+    readonly user?: string;
+    readonly password?: string;
+    readonly fake: boolean;
+  };
+  readonly mailFrom: string;
+  /** Origin and base of every link the server writes, without a trailing slash. */
+  readonly publicUrl: string;
+  readonly logLevel: string;
+  readonly seedDemo: boolean;
+  readonly serveClient: boolean;
+  /** Sign-in attempts allowed per IP + e-mail within loginRateWindowMs. */
+  readonly loginRateLimit: number;
+  readonly loginRateWindowMs: number;
+  readonly jobConcurrency: number;
+  readonly engineThreads: number;
+  /** Limits of one image upload request: bytes per file (or archive entry), parts, pixels, and what archives may unpack. */
+  readonly uploads: {
+    readonly maxFileBytes: number;
+    readonly maxFiles: number;
+    readonly maxImagePixels: number;
+    readonly zipMaxEntries: number;
+    readonly zipMaxTotalBytes: number;
+  };
+}
+
+export class ConfigError extends Error {
+  constructor(readonly issues: string[]) {
+    super(`Invalid environment:\n  ${issues.join('\n  ')}`);
+    this.name = 'ConfigError';
+  }
+}
+
+/**
+ * The secret survives restarts so sessions do too; it lives beside the data, readable by the owner only.
+ */
+function persistentJwtSecret(dataDir: string): string {
+  const dir = path.join(dataDir, 'secrets');
+  const file = path.join(dir, 'jwt-secret');
+  if (existsSync(file)) {
+    const stored = readFileSync(file, 'utf8').trim();
+    if (stored.length >= 32) return stored;
+  }
+  mkdirSync(dir, { recursive: true, mode: 0o700 });
+  const secret = randomBytes(48).toString('base64url');
+  writeFileSync(file, secret + '\n', { mode: 0o600 });
+  chmodSync(file, 0o600);
+  return secret;
+}
+
+function deepFreeze<T extends object>(value: T): T {
+  for (const child of Object.values(value)) {
+    if (child && typeof child === 'object') deepFreeze(child);
+  }
+  return Object.freeze(value);
+}
+
+/** Parses an environment once; the result is frozen so nothing can change it at run time. */
+export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
+  const parsed = schema.safeParse(source);
+  if (!parsed.success) {
+    throw new ConfigError(parsed.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`));
+  }
+  const e = parsed.data;
+  const dataDir = path.resolve(e.DATA_DIR);
+  const publicUrl = (e.PUBLIC_URL ?? `http://127.0.0.1:${e.PORT}`).replace(/\/+$/, '');
+  const serveClient =
+    e.SERVE_CLIENT === undefined ? e.NODE_ENV === 'production' : /^(1|true|yes|on)$/i.test(e.SERVE_CLIENT);
+  return deepFreeze({
+    port: e.PORT,
+    host: e.HOST,
+    nodeEnv: e.NODE_ENV,
+    dataDir,
+    db: { host: e.DB_HOST, port: e.DB_PORT, database: e.DB_NAME, user: e.DB_USER, password: e.DB_PASSWORD },
+    jwt: { secret: e.JWT_SECRET ?? persistentJwtSecret(dataDir), ttlSeconds: e.JWT_TTL_SECONDS },
+    bcryptCost: e.BCRYPT_COST,
+    smtp: {
+      host: e.SMTP_HOST,
+      port: e.SMTP_PORT,
+      secure: e.SMTP_SECURE,
+      user: e.SMTP_USER,
+      password: e.SMTP_PASSWORD,
+      fake: e.FAKE_SMTP,
+    },
+    mailFrom: e.MAIL_FROM,
+    publicUrl,
+    logLevel: e.LOG_LEVEL ?? (e.NODE_ENV === 'test' ? 'silent' : 'info'),
+    seedDemo: e.SEED_DEMO,
+    serveClient,
+    loginRateLimit: e.LOGIN_RATE_LIMIT,
+    loginRateWindowMs: 15 * 60 * 1000,
+    jobConcurrency: e.JOB_CONCURRENCY,
+    engineThreads: e.ENGINE_THREADS ?? availableParallelism(),
+    uploads: {
+      maxFileBytes: e.UPLOAD_MAX_BYTES,
+      maxFiles: e.UPLOAD_MAX_FILES,
+      maxImagePixels: e.IMAGE_MAX_PIXELS,
+      zipMaxEntries: e.ZIP_MAX_ENTRIES,
+      zipMaxTotalBytes: e.ZIP_MAX_TOTAL_BYTES,
+    },
+  });
+}
+
+let processConfig: Config | undefined;
+
+/** The configuration of this process, parsed from process.env on first use. */
+export function getConfig(): Config {
+  processConfig ??= loadConfig(process.env);
+  return processConfig;
+}

@@ -1,0 +1,3 @@
+export * from './env';
+export * from './logger';
+export * from './version';

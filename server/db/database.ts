@@ -1,0 +1,110 @@
+import knexFactory, { type Knex } from 'knex';
+import { translateDbError } from './errors';
+import { buildKnexConfig, type DbSettings, type KnexLog } from './knex-config';
+import { auditRepository } from './repositories/audit';
+import { baselinesRepository } from './repositories/baselines';
+import { codebooksRepository } from './repositories/codebooks';
+import { evaluationsRepository } from './repositories/evaluations';
+import type { Executor } from './repositories/executor';
+import { imageSetsRepository } from './repositories/image-sets';
+import { imagesRepository } from './repositories/images';
+import { invitationsRepository } from './repositories/invitations';
+import { jobsRepository } from './repositories/jobs';
+import { membershipsRepository } from './repositories/memberships';
+import { outboxRepository } from './repositories/outbox';
+import { passwordResetsRepository } from './repositories/password-resets';
+import { runsRepository } from './repositories/runs';
+import { teamsRepository } from './repositories/teams';
+import { usersRepository } from './repositories/users';
+
+function buildRepositories(db: Executor) {
+  return {
+    users: translated(usersRepository(db)),
+    teams: translated(teamsRepository(db)),
+    memberships: translated(membershipsRepository(db)),
+    invitations: translated(invitationsRepository(db)),
+    passwordResets: translated(passwordResetsRepository(db)),
+    audit: translated(auditRepository(db)),
+    outbox: translated(outboxRepository(db)),
+    imageSets: translated(imageSetsRepository(db)),
+    images: translated(imagesRepository(db)),
+    runs: translated(runsRepository(db)),
+    jobs: translated(jobsRepository(db)),
+    codebooks: translated(codebooksRepository(db)),
+    evaluations: translated(evaluationsRepository(db)),
+    baselines: translated(baselinesRepository(db)),
+  };
+}
+
+export type Repositories = ReturnType<typeof buildRepositories>;
+
+/** Every repository method reports MariaDB failures as AppErrors (duplicate → 409, unreachable → 503). */
+function translated<T extends Record<string, unknown>>(repo: T): T {
+  const out = {} as Record<string, unknown>;
+  for (const [key, value] of Object.entries(repo)) {
+    out[key] =
+      typeof value === 'function'
+        ? async (...args: unknown[]) => {
+            try {
+              return await (value as (...a: unknown[]) => Promise<unknown>)(...args);
+            } catch (err) {
+              throw translateDbError(err);
+            }
+          }
+        : value;
+  }
+  return out as T;
+}
+
+export interface Database {
+  readonly knex: Knex;
+  /** Repositories on the pool: each call is its own statement. */
+  readonly repos: Repositories;
+  /** Runs fn inside one transaction; it commits when fn resolves and rolls back when it throws. */
+  transaction<T>(fn: (repos: Repositories) => Promise<T>): Promise<T>;
+  /** True when the database answers within timeoutMs. */
+  ping(timeoutMs?: number): Promise<boolean>;
+  migrateLatest(): Promise<string[]>;
+  destroy(): Promise<void>;
+}
+
+export function createDatabase(settings: DbSettings, pool?: { min?: number; max?: number }, log?: KnexLog): Database {
+  return wrapKnex(knexFactory(buildKnexConfig(settings, pool, log)));
+}
+
+export function wrapKnex(knex: Knex): Database {
+  return {
+    knex,
+    repos: buildRepositories(knex),
+    async transaction(fn) {
+      try {
+        return await knex.transaction((trx) => fn(buildRepositories(trx)));
+      } catch (err) {
+        throw translateDbError(err);
+      }
+    },
+    async ping(timeoutMs = 2_000) {
+      let timer: NodeJS.Timeout | undefined;
+      try {
+        await Promise.race([
+          knex.raw('SELECT 1'),
+          new Promise((_, reject) => {
+            timer = setTimeout(() => reject(new Error('ping timed out')), timeoutMs);
+          }),
+        ]);
+        return true;
+      } catch {
+        return false;
+      } finally {
+        clearTimeout(timer);
+      }
+    },
+    async migrateLatest() {
+      const [, applied] = (await knex.migrate.latest()) as [number, string[]];
+      return applied;
+    },
+    async destroy() {
+      await knex.destroy();
+    },
+  };
+}

@@ -1,0 +1,22 @@
+import { AppError, conflict, isAppError, isConnectionError, serviceUnavailable } from '../errors';
+
+/** MariaDB error codes that are the caller's fault, as AppErrors; connection loss as 503; the rest unchanged. */
+export function translateDbError(err: unknown): unknown {
+  if (isAppError(err)) return err;
+  if (isConnectionError(err)) return serviceUnavailable();
+  const code = (err as { code?: string } | null)?.code;
+  if (code === 'ER_DUP_ENTRY') return conflict('That record already exists');
+  if (code === 'ER_NO_REFERENCED_ROW_2' || code === 'ER_NO_REFERENCED_ROW') {
+    return new AppError('not_found', 404, 'A referenced record does not exist');
+  }
+  // 1451: a delete blocked by a RESTRICT reference (an image a run used); callers may name the referrer.
+  if (code === 'ER_ROW_IS_REFERENCED_2' || code === 'ER_ROW_IS_REFERENCED') {
+    return conflict('This record is still in use and cannot be deleted', { reason: 'in_use' });
+  }
+  if (code === 'ER_LOCK_DEADLOCK' || code === 'ER_LOCK_WAIT_TIMEOUT') {
+    return new AppError('service_unavailable', 503, 'The database is busy; try again');
+  }
+  return err;
+}
+
+export const isDuplicateEntry = (err: unknown) => (err as { code?: string } | null)?.code === 'ER_DUP_ENTRY';

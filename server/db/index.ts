@@ -1,0 +1,13 @@
+export { createDatabase, wrapKnex, type Database, type Repositories } from './database';
+export { buildKnexConfig, migrationSource, migrationsDirectory, type DbSettings, type KnexLog } from './knex-config';
+export { translateDbError, isDuplicateEntry } from './errors';
+export type { UserRecord } from './repositories/users';
+export type { TeamRecord } from './repositories/teams';
+export type { MembershipRecord } from './repositories/memberships';
+export type { InvitationRecord } from './repositories/invitations';
+export type { PasswordResetRecord } from './repositories/password-resets';
+export type { AuditEntry, AuditRecord } from './repositories/audit';
+export type { CapturedMessage } from './repositories/outbox';
+export type { RunRecord, RunImageRecord } from './repositories/runs';
+export type { JobRecord, NewJob } from './repositories/jobs';
+export type { CodebookRecord, CodebookWithCodewords, NewCodebook } from './repositories/codebooks';

@@ -1,0 +1,2 @@
+export * from './app-error';
+export * from './connection-errors';

@@ -1,0 +1,48 @@
+import express, { Router, type RequestHandler } from 'express';
+import { codebookParams, importCodebookQuery, teamParams } from '../../contracts';
+import { validate, validated } from '../middleware/validate';
+import type { RouteDeps } from './deps';
+
+const listInput = { params: teamParams };
+const oneInput = { params: codebookParams };
+const importInput = { params: teamParams, query: importCodebookQuery };
+
+/**
+ * A codebook document of 2^14 codewords × 768 components runs to tens of megabytes of JSON, far above the API's
+ * 1 MB default. Mounted before the global JSON parser (which then leaves the parsed body alone).
+ */
+export const codebookImportBodyParser: RequestHandler = express.json({ limit: '64mb' });
+export const codebookImportPath = '/api/teams/:teamId/codebooks/import';
+
+function readRoutes(r: Router, d: RouteDeps) {
+  r.get('/', d.authenticate, d.requireTeamRole(), validate(listInput), async (req, res) => {
+    const { params } = validated(req, listInput);
+    res.json({ codebooks: await d.codebooks.list(params.teamId) });
+  });
+
+  r.get('/:codebookId', d.authenticate, d.requireTeamRole(), validate(oneInput), async (req, res) => {
+    const { params } = validated(req, oneInput);
+    res.json({ codebook: await d.codebooks.get(params.teamId, params.codebookId) });
+  });
+}
+
+function transferRoutes(r: Router, d: RouteDeps) {
+  r.get('/:codebookId/export', d.authenticate, d.requireTeamRole('admin', 'engineer'), validate(oneInput), async (req, res) => {
+    const { params } = validated(req, oneInput);
+    const { fileName, body } = await d.codebooks.export(params.teamId, req.user!.id, params.codebookId);
+    res.attachment(fileName).type('application/json').set('Cache-Control', 'no-store').send(body);
+  });
+
+  r.post('/import', d.authenticate, d.requireTeamRole('admin', 'engineer'), validate(importInput), async (req, res) => {
+    const { params, query } = validated(req, importInput);
+    res.status(201).json({ codebook: await d.codebooks.import(params.teamId, req.user!.id, req.body, query.name) });
+  });
+}
+
+/** Mounted at /api/teams/:teamId/codebooks. */
+export function codebooksRouter(d: RouteDeps): Router {
+  const r = Router({ mergeParams: true });
+  readRoutes(r, d);
+  transferRoutes(r, d);
+  return r;
+}

@@ -1,0 +1,20 @@
+import type { Role, User } from '../contracts';
+
+declare global {
+  // eslint-disable-next-line @typescript-eslint/no-namespace
+  namespace Express {
+    // passport puts the signed-in user here.
+    // eslint-disable-next-line @typescript-eslint/no-empty-object-type
+    interface User extends UserShape {}
+    interface Request {
+      /** Set by requireTeamRole: the caller's membership of req.params.teamId. */
+      membership?: { teamId: number; role: Role };
+      /** Set by validate: the parsed body, query and params. */
+      valid?: { body?: unknown; query?: unknown; params?: unknown };
+    }
+  }
+}
+
+type UserShape = User;
+
+export {};

@@ -1,0 +1,89 @@
+// The only file that listens: configuration, migrations, demo seed, fake SMTP, HTTP; orderly shutdown.
+import type { Server } from 'node:http';
+import { createApp } from './app';
+import { compose } from './composition';
+import { ConfigError, createLogger, loadConfig } from './config';
+import { startFakeSmtpServer, type FakeSmtpServer } from './mail/fake-smtp-server';
+import { seedDemo } from './seed/demo';
+
+async function main(): Promise<void> {
+  let config;
+  try {
+    config = loadConfig(process.env);
+  } catch (err) {
+    process.stderr.write(`${err instanceof ConfigError ? err.message : String(err)}\n`);
+    process.exit(2);
+  }
+  const logger = createLogger(config.logLevel);
+  const composition = compose(config, { logger });
+  const { db, services } = composition;
+
+  let smtp: FakeSmtpServer | undefined;
+  let server: Server | undefined;
+  let stopping = false;
+
+  const shutdown = async (signal: string) => {
+    if (stopping) return;
+    stopping = true;
+    logger.info({ signal }, 'shutting down');
+    const force = setTimeout(() => {
+      logger.error('shutdown took too long; exiting');
+      process.exit(1);
+    }, 15_000);
+    force.unref();
+    try {
+      if (server) {
+        const s = server;
+        await new Promise<void>((resolve) => {
+          s.close(() => resolve());
+          s.closeIdleConnections();
+          // Long-lived responses (event streams) would hold close() open; cut them after a grace period.
+          setTimeout(() => s.closeAllConnections(), 5_000).unref();
+        });
+      }
+      await composition.close();
+      if (smtp) await smtp.stop();
+      clearTimeout(force);
+      process.exit(0);
+    } catch (err) {
+      logger.error({ err }, 'shutdown failed');
+      process.exit(1);
+    }
+  };
+  process.on('SIGINT', () => void shutdown('SIGINT'));
+  process.on('SIGTERM', () => void shutdown('SIGTERM'));
+
+  try {
+    const applied = await db.migrateLatest();
+    if (applied.length > 0) logger.info({ applied }, 'migrations applied');
+    if (config.seedDemo && (await db.repos.users.count()) === 0) {
+      const seeded = await seedDemo(db, (p) => services.accounts.hashPassword(p));
+      logger.info({ teamId: seeded.teamId, accounts: seeded.created }, 'demo team seeded');
+    }
+    if (config.smtp.fake) {
+      if (config.nodeEnv === 'production') {
+        logger.warn(
+          'FAKE_SMTP is on: mail is captured, not delivered, and team admins can read it in the outbox (reset links included); set FAKE_SMTP=false and SMTP_HOST for real use',
+        );
+      }
+      smtp = await startFakeSmtpServer({
+        host: config.smtp.host,
+        port: config.smtp.port,
+        logger,
+        store: (message) => db.transaction((tx) => tx.outbox.insert(message)),
+      });
+    }
+    const app = createApp(composition);
+    server = await new Promise<Server>((resolve, reject) => {
+      const s = app.listen(config.port, config.host, (err?: Error) => (err ? reject(err) : resolve(s)));
+    });
+    logger.info({ url: config.publicUrl, host: config.host, port: config.port }, `Cellwright listening on ${config.publicUrl}`);
+  } catch (err) {
+    logger.fatal({ err }, 'startup failed');
+    await composition.close().catch(() => undefined);
+    if (smtp) await smtp.stop().catch(() => undefined);
+    process.exit(1);
+  }
+}
+
+void main();

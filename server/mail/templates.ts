@@ -1,0 +1,46 @@
+export interface MailContent {
+  subject: string;
+  text: string;
+  html: string;
+}
+
+const escapeHtml = (s: string) =>
+  s.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!);
+
+function layout(paragraphs: string[], link: { href: string; label: string }, after: string): string {
+  const body = paragraphs.map((p) => `<p>${escapeHtml(p)}</p>`).join('\n');
+  return `<!doctype html>
+<html><body style="font-family: sans-serif; line-height: 1.5; color: #1b2430">
+${body}
+<p><a href="${escapeHtml(link.href)}">${escapeHtml(link.label)}</a></p>
+<p style="color:#5b6675; font-size: 0.9em">${escapeHtml(after)}</p>
+</body></html>`;
+}
+
+export function invitationMail(input: {
+  teamName: string;
+  inviterName: string;
+  role: string;
+  link: string;
+  expiresAt: Date;
+}): MailContent {
+  const intro = `${input.inviterName} invited you to join the team "${input.teamName}" on Cellwright as ${input.role === 'admin' ? 'an' : 'a'} ${input.role}.`;
+  const expiry = `The link works once and expires on ${input.expiresAt.toISOString().slice(0, 16).replace('T', ' ')} UTC.`;
+  const ignore = 'If you did not expect this invitation, you can ignore this message.';
+  return {
+    subject: `You are invited to ${input.teamName} on Cellwright`,
+    text: `${intro}\n\nAccept the invitation:\n${input.link}\n\n${expiry}\n${ignore}\n`,
+    html: layout([intro], { href: input.link, label: 'Accept the invitation' }, `${expiry} ${ignore}`),
+  };
+}
+
+export function passwordResetMail(input: { name: string; link: string; expiresAt: Date }): MailContent {
+  const intro = `Hello ${input.name}, someone asked to reset the password of your Cellwright account.`;
+  const expiry = 'The link works once and expires in one hour.';
+  const ignore = 'If it was not you, ignore this message: your password stays as it is.';
+  return {
+    subject: 'Reset your Cellwright password',
+    text: `${intro}\n\nChoose a new password:\n${input.link}\n\n${expiry}\n${ignore}\n`,
+    html: layout([intro], { href: input.link, label: 'Choose a new password' }, `${expiry} ${ignore}`),
+  };
+}

@@ -1,0 +1,151 @@
+import type { CodebookDetail, CodebookSummary } from '../contracts';
+import type { CodebookRecord, CodebookWithCodewords, Database } from '../db';
+import { EngineInputError, parseCodebook, serializeCodebook, toCodebookDocument, type Codebook } from '../engine';
+import { notFound, validationFailed } from '../errors';
+import { recordAudit } from './audit';
+
+const trainingOf = (c: CodebookRecord) => (c.metadata.training ?? {}) as { distortion?: number; source?: string };
+
+function toSummary(c: CodebookRecord): CodebookSummary {
+  return {
+    id: c.id,
+    name: c.name,
+    source: c.source,
+    runId: c.runId,
+    origin: c.runName ?? 'imported',
+    bits: c.bits,
+    size: c.size,
+    dimension: c.dimension,
+    patch: c.patch,
+    color: c.color,
+    channels: c.channels,
+    meanBits: c.meanBits,
+    checksum: c.checksum,
+    distortion: Number(trainingOf(c).distortion ?? NaN),
+    createdAt: c.createdAt,
+  };
+}
+
+function rows(codewords: Float32Array, size: number, dimension: number): number[][] {
+  const out: number[][] = [];
+  for (let i = 0; i < size; i += 1) out.push(Array.from(codewords.subarray(i * dimension, (i + 1) * dimension)));
+  return out;
+}
+
+/**
+ * The stored codebook as the engine's in-memory form, re-validated through the export schema (checksum included),
+ * so a damaged row is reported instead of exported.
+ */
+export function engineCodebookOf(c: CodebookWithCodewords): Codebook {
+  return parseCodebook({ ...c.metadata, codewords: rows(c.codewords, c.size, c.dimension) }, `codebook ${c.id}`);
+}
+
+/** `<name>-b<bits>.cellwright.json` with anything but letters, digits, dot, dash and underscore folded to '-'. */
+export function exportFileName(name: string, bits: number): string {
+  const base = name
+    .normalize('NFKD')
+    .replace(/[^A-Za-z0-9._-]+/g, '-')
+    .replace(/^[-.]+|[-.]+$/g, '')
+    .replace(/-{2,}/g, '-')
+    .slice(0, 80);
+  return `${base || 'codebook'}-b${bits}.cellwright.json`;
+}
+
+export function createCodebooksService(deps: { db: Database }) {
+  const { db } = deps;
+
+  async function mustFind(teamId: number, id: number): Promise<CodebookWithCodewords> {
+    const c = await db.repos.codebooks.findForTeam(teamId, id);
+    if (!c) throw notFound('Codebook');
+    return c;
+  }
+
+  function toDetail(c: CodebookWithCodewords): CodebookDetail {
+    return {
+      ...toSummary(c),
+      usage: c.usage,
+      cellDistortion: c.cellDistortion,
+      trace: c.trace,
+      codewords: rows(c.codewords, c.size, c.dimension),
+      training: (c.metadata.training ?? {}) as Record<string, unknown>,
+    };
+  }
+
+  return {
+    async list(teamId: number): Promise<CodebookSummary[]> {
+      return (await db.repos.codebooks.listForTeam(teamId)).map(toSummary);
+    },
+
+    async get(teamId: number, id: number): Promise<CodebookDetail> {
+      return toDetail(await mustFind(teamId, id));
+    },
+
+    /** The codebook document and the file name to offer it under; recorded in the audit trail. */
+    async export(teamId: number, userId: number, id: number): Promise<{ fileName: string; body: string }> {
+      const c = await mustFind(teamId, id);
+      const body = serializeCodebook(engineCodebookOf(c));
+      await recordAudit(db.repos, {
+        teamId,
+        actorUserId: userId,
+        action: 'codebook.exported',
+        targetType: 'codebook',
+        targetId: id,
+        details: { checksum: c.checksum, size: c.size },
+      });
+      return { fileName: exportFileName(c.runName ?? c.name, c.bits), body };
+    },
+
+    /** Validates a codebook document (schema and checksum) and stores it as an imported codebook. */
+    async import(teamId: number, userId: number, document: unknown, name?: string): Promise<CodebookDetail> {
+      let codebook: Codebook;
+      try {
+        codebook = parseCodebook(document, 'codebook');
+      } catch (err) {
+        if (err instanceof EngineInputError) {
+          throw validationFailed(err.message, [{ path: err.field ?? '(root)', message: err.message }]);
+        }
+        throw err;
+      }
+      if (!codebook.patch) {
+        throw validationFailed('This codebook has no patch geometry, so it cannot code images', [
+          { path: 'patch', message: 'expected {width, height, channels, color}: a codebook without a patch cannot code images' },
+        ]);
+      }
+      const patch = codebook.patch;
+      const { codewords: _omit, ...metadata } = toCodebookDocument(codebook);
+      const id = await db.transaction(async (tx) => {
+        const newId = await tx.codebooks.insert({
+          teamId,
+          runId: null,
+          name: name ?? (codebook.training.source.trim().slice(0, 200) || 'imported codebook'),
+          source: 'imported',
+          bits: codebook.bits,
+          size: codebook.size,
+          dimension: codebook.dimension,
+          patch: { width: patch.width, height: patch.height },
+          channels: patch.channels,
+          color: patch.color,
+          meanBits: codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0,
+          codewords: codebook.codewords,
+          usage: Array.from(codebook.usage),
+          cellDistortion: null,
+          trace: codebook.training.trace,
+          metadata,
+          checksum: codebook.checksum,
+        });
+        await recordAudit(tx, {
+          teamId,
+          actorUserId: userId,
+          action: 'codebook.imported',
+          targetType: 'codebook',
+          targetId: newId,
+          details: { checksum: codebook.checksum, size: codebook.size },
+        });
+        return newId;
+      });
+      return toDetail(await mustFind(teamId, id));
+    },
+  };
+}
+
+export type CodebooksService = ReturnType<typeof createCodebooksService>;

@@ -1,0 +1,161 @@
+import type { UploadResult } from '../contracts';
+import type { Database } from '../db';
+import { AppError, badRequest, notFound } from '../errors';
+import { sha256Of, type ContentStore } from '../storage/content-store';
+import { recordAudit } from './audit';
+import { ImageRejected, inspectImage, type InspectedImage } from './uploads/inspect-image';
+import { formatBytes, type Rejection } from './uploads/rejection';
+import { isZipArchive, unpackZip, zipBudget } from './uploads/zip-archive';
+
+export interface UploadLimits {
+  /** Per uploaded file and per archive entry. */
+  maxFileBytes: number;
+  maxImagePixels: number;
+  zipMaxEntries: number;
+  zipMaxTotalBytes: number;
+}
+
+export interface UploadedFile {
+  /** The name the client gave; display only. */
+  name: string;
+  data: Buffer;
+}
+
+interface Accepted extends InspectedImage {
+  label: string;
+  fileName: string;
+  sha256: string;
+  bytes: number;
+}
+
+const fileNameLimit = 255;
+
+/**
+ * A name fit to show: the last path segment of what the client sent (browsers on Windows may send the
+ * full path), without control characters, at most 255 characters.
+ */
+export function displayName(name: string, fallback = 'unnamed'): string {
+  const clean = name.replace(/[\u0000-\u001f\u007f]/g, '').trim();
+  const last = clean.split(/[/\\]/).filter(Boolean).pop() ?? '';
+  return clip(last) || fallback;
+}
+
+/** Keeps the end of an over-long name: the extension and the distinguishing tail matter more than the start. */
+function clip(name: string): string {
+  const chars = [...name];
+  return chars.length <= fileNameLimit ? name : `…${chars.slice(chars.length - fileNameLimit + 1).join('')}`;
+}
+
+export function createImageUploadsService(deps: { db: Database; store: ContentStore; limits: UploadLimits }) {
+  const { db, store, limits } = deps;
+
+  return {
+    /**
+     * Adds images (and the images inside .zip archives) to a set. Each file is decoded in full before it is
+     * stored; bad files are reported by name while the good ones are kept; rows for the new images are written
+     * in one transaction at the end. A file whose bytes the set already holds is reported as a duplicate.
+     * Objects stored before a failed transaction stay unreferenced and harmless (the store is content-addressed).
+     */
+    async upload(teamId: number, actorUserId: number, setId: number, files: UploadedFile[]): Promise<UploadResult> {
+      if (files.length === 0) throw badRequest('No files: send images or .zip archives in the multipart field "files"');
+      if (!(await db.repos.imageSets.find(teamId, setId))) throw notFound('Image set');
+
+      const rejected: Rejection[] = [];
+      const duplicates: UploadResult['duplicates'] = [];
+      const repeats: { file: string; sha256: string }[] = [];
+      const accepted: Accepted[] = [];
+      const seen = new Set<string>();
+
+      const consider = async (label: string, fileName: string, data: Buffer) => {
+        if (data.length > limits.maxFileBytes) {
+          rejected.push({ file: label, message: `${label}: is ${formatBytes(data.length)}, larger than the ${formatBytes(limits.maxFileBytes)} limit per file` });
+          return;
+        }
+        const sha256 = sha256Of(data);
+        if (seen.has(sha256)) {
+          repeats.push({ file: label, sha256 });
+          return;
+        }
+        const existing = (await db.repos.images.idsBySha(setId, [sha256])).get(sha256);
+        if (existing !== undefined) {
+          duplicates.push({ file: label, imageId: existing });
+          return;
+        }
+        let inspected: InspectedImage;
+        try {
+          inspected = await inspectImage(data, label, { maxPixels: limits.maxImagePixels });
+        } catch (err) {
+          if (!(err instanceof ImageRejected)) throw err;
+          rejected.push({ file: label, message: err.message });
+          return;
+        }
+        await store.put(data);
+        await store.putThumbnail(sha256, inspected.thumbnail);
+        seen.add(sha256);
+        accepted.push({ ...inspected, label, fileName, sha256, bytes: data.length });
+      };
+
+      const budget = zipBudget(limits.zipMaxEntries, limits.zipMaxTotalBytes);
+      for (const file of files) {
+        const name = displayName(file.name);
+        if (isZipArchive(file.data)) {
+          const problems = await unpackZip(file.data, name, { maxEntryBytes: limits.maxFileBytes, budget }, (m) =>
+            consider(m.label, clip(m.path), m.data),
+          );
+          rejected.push(...problems);
+        } else {
+          await consider(name, name, file.data);
+        }
+      }
+
+      if (accepted.length === 0 && duplicates.length === 0 && repeats.length === 0) {
+        throw new AppError('bad_request', 400, `None of the ${files.length === 1 ? 'uploaded file' : `${files.length} uploaded files`} could be used`, rejected);
+      }
+
+      const { images, idOf } = await db.transaction(async (tx) => {
+        if (!(await tx.imageSets.lock(teamId, setId))) throw notFound('Image set');
+        // Another upload into the same set may have committed the same bytes since they were checked above.
+        const already = await tx.images.idsBySha(setId, accepted.map((a) => a.sha256));
+        const idOf = new Map(already);
+        const inserted: number[] = [];
+        for (const a of accepted) {
+          const prior = already.get(a.sha256);
+          if (prior !== undefined) {
+            duplicates.push({ file: a.label, imageId: prior });
+            continue;
+          }
+          const id = await tx.images.insert({
+            teamId,
+            setId,
+            fileName: a.fileName,
+            sha256: a.sha256,
+            width: a.width,
+            height: a.height,
+            channels: a.channels,
+            format: a.format,
+            bytes: a.bytes,
+          });
+          idOf.set(a.sha256, id);
+          inserted.push(id);
+        }
+        if (inserted.length > 0) {
+          await tx.imageSets.touch(teamId, setId);
+          await recordAudit(tx, {
+            teamId,
+            actorUserId,
+            action: 'images.uploaded',
+            targetType: 'image_set',
+            targetId: setId,
+            details: { imageIds: inserted, duplicates: duplicates.length + repeats.length, rejected: rejected.length },
+          });
+        }
+        return { images: await tx.images.findMany(teamId, inserted), idOf };
+      });
+
+      for (const r of repeats) duplicates.push({ file: r.file, imageId: idOf.get(r.sha256)! });
+      return { images, rejected, duplicates };
+    },
+  };
+}
+
+export type ImageUploadsService = ReturnType<typeof createImageUploadsService>;

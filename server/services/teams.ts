@@ -1,0 +1,66 @@
+import type { Member, Role } from '../contracts';
+import type { Database } from '../db';
+import { conflict, notFound } from '../errors';
+import { recordAudit } from './audit';
+
+export function createTeamsService(deps: { db: Database }) {
+  /** Throws 409 when the change would leave the team with nobody who can manage it. */
+  async function ensureAnotherAdmin(admins: number[], userId: number) {
+    if (admins.includes(userId) && admins.length <= 1) {
+      throw conflict('A team needs at least one admin; make someone else admin first', { reason: 'last_admin' });
+    }
+  }
+
+  return {
+    async membership(teamId: number, userId: number) {
+      return deps.db.repos.memberships.find(teamId, userId);
+    },
+
+    async listMembers(teamId: number): Promise<Member[]> {
+      return deps.db.repos.memberships.listMembers(teamId);
+    },
+
+    async changeRole(teamId: number, actorUserId: number, userId: number, role: Role): Promise<Member> {
+      await deps.db.transaction(async (tx) => {
+        const admins = await tx.memberships.lockAdmins(teamId);
+        const target = await tx.memberships.find(teamId, userId, { forUpdate: true });
+        if (!target) throw notFound('Member');
+        if (target.role === role) return;
+        if (role !== 'admin') await ensureAnotherAdmin(admins, userId);
+        await tx.memberships.updateRole(teamId, userId, role);
+        await recordAudit(tx, {
+          teamId,
+          actorUserId,
+          action: 'member.role_changed',
+          targetType: 'user',
+          targetId: userId,
+          details: { from: target.role, to: role },
+        });
+      });
+      const members = await deps.db.repos.memberships.listMembers(teamId);
+      const member = members.find((m) => m.userId === userId);
+      if (!member) throw notFound('Member');
+      return member;
+    },
+
+    async removeMember(teamId: number, actorUserId: number, userId: number): Promise<void> {
+      await deps.db.transaction(async (tx) => {
+        const admins = await tx.memberships.lockAdmins(teamId);
+        const target = await tx.memberships.find(teamId, userId, { forUpdate: true });
+        if (!target) throw notFound('Member');
+        await ensureAnotherAdmin(admins, userId);
+        await tx.memberships.remove(teamId, userId);
+        await recordAudit(tx, {
+          teamId,
+          actorUserId,
+          action: 'member.removed',
+          targetType: 'user',
+          targetId: userId,
+          details: { role: target.role },
+        });
+      });
+    },
+  };
+}
+
+export type TeamsService = ReturnType<typeof createTeamsService>;

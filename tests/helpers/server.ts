@@ -1,0 +1,138 @@
+import { spawn, type ChildProcess } from 'node:child_process';
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { createTestDatabase, type TestDatabase } from './db';
+import { getFreePort } from './ports';
+
+const repoRoot = fileURLToPath(new URL('../..', import.meta.url));
+
+export interface StartedServer {
+  url: string;
+  port: number;
+  /** The full environment the process was started with. */
+  env: Record<string, string>;
+  /** The server's database (created empty; the server migrates it). */
+  db: TestDatabase;
+  /** Everything the process wrote to stdout and stderr so far. */
+  output(): string;
+  /** SIGTERM, wait for exit, drop the database, remove DATA_DIR; resolves with the exit status. */
+  stop(): Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
+  /** SIGKILL, as a crash would; keeps the database and DATA_DIR for restart(). */
+  kill(): Promise<void>;
+  /** Starts the process again with the same environment (after kill()). */
+  restart(): Promise<void>;
+}
+
+function waitForExit(child: ChildProcess, timeoutMs: number): Promise<{ code: number | null; signal: NodeJS.Signals | null }> {
+  if (child.exitCode !== null || child.signalCode !== null) {
+    return Promise.resolve({ code: child.exitCode, signal: child.signalCode });
+  }
+  return new Promise((resolve) => {
+    const timer = setTimeout(() => child.kill('SIGKILL'), timeoutMs);
+    child.once('exit', (code, signal) => {
+      clearTimeout(timer);
+      resolve({ code, signal });
+    });
+  });
+}
+
+async function waitForHealth(url: string, child: ChildProcess, output: () => string, timeoutMs: number): Promise<void> {
+  const deadline = Date.now() + timeoutMs;
+  while (Date.now() < deadline) {
+    if (child.exitCode !== null || child.signalCode !== null) {
+      throw new Error(`server exited (${child.exitCode ?? child.signalCode}) before it was healthy:\n${output()}`);
+    }
+    try {
+      const res = await fetch(`${url}/api/health`, { signal: AbortSignal.timeout(2_000) });
+      if (res.status === 200) return;
+    } catch {
+      // not listening yet
+    }
+    await new Promise((r) => setTimeout(r, 150));
+  }
+  child.kill('SIGKILL');
+  throw new Error(`server did not become healthy within ${timeoutMs} ms:\n${output()}`);
+}
+
+/** Spawns `node --import tsx server/index.ts` on a fresh database, free ports and a temporary DATA_DIR. */
+export async function startServer(overrides: Record<string, string> = {}): Promise<StartedServer> {
+  const db = await createTestDatabase({ migrate: false });
+  const dataDir = mkdtempSync(path.join(tmpdir(), 'cellwright-data-'));
+  const port = Number(overrides.PORT ?? (await getFreePort()));
+  const smtpPort = Number(overrides.SMTP_PORT ?? (await getFreePort()));
+  const inherited = Object.fromEntries(
+    Object.entries(process.env).filter((e): e is [string, string] => typeof e[1] === 'string' && !e[0].startsWith('VITEST')),
+  );
+  const env: Record<string, string> = {
+    ...inherited,
+    NODE_ENV: 'production',
+    HOST: '127.0.0.1',
+    BCRYPT_COST: '10',
+    LOG_LEVEL: 'warn',
+    DB_HOST: db.config.host,
+    DB_PORT: String(db.config.port),
+    DB_USER: db.config.user,
+    DB_PASSWORD: db.config.password,
+    DB_NAME: db.name,
+    DATA_DIR: dataDir,
+    SMTP_HOST: '127.0.0.1',
+    FAKE_SMTP: 'true',
+    ...overrides,
+    PORT: String(port),
+    SMTP_PORT: String(smtpPort),
+  };
+  env.PUBLIC_URL ??= `http://127.0.0.1:${port}`;
+  const url = `http://127.0.0.1:${port}`;
+
+  let child!: ChildProcess;
+  let log = '';
+  const output = () => log;
+  const spawnChild = async () => {
+    child = spawn(process.execPath, ['--import', 'tsx', 'server/index.ts'], {
+      cwd: repoRoot,
+      env,
+      stdio: ['ignore', 'pipe', 'pipe'],
+    });
+    const append = (chunk: Buffer) => {
+      log = (log + chunk.toString('utf8')).slice(-200_000);
+    };
+    child.stdout!.on('data', append);
+    child.stderr!.on('data', append);
+    await waitForHealth(url, child, output, 90_000);
+  };
+
+  const cleanup = async () => {
+    await db.destroy();
+    rmSync(dataDir, { recursive: true, force: true });
+  };
+
+  try {
+    await spawnChild();
+  } catch (err) {
+    await cleanup();
+    throw err;
+  }
+
+  return {
+    url,
+    port,
+    env,
+    db,
+    output,
+    async stop() {
+      child.kill('SIGTERM');
+      const status = await waitForExit(child, 20_000);
+      await cleanup();
+      return status;
+    },
+    async kill() {
+      child.kill('SIGKILL');
+      await waitForExit(child, 5_000);
+    },
+    async restart() {
+      await spawnChild();
+    },
+  };
+}

@@ -1,0 +1,57 @@
+import { encode, encodeErrorMapPng, encodePng, ERROR_MAP_GAIN, psnrForJson, psnrFromMse, meanSquaredError } from '../../engine';
+import { intOption, parseOptions, requiredString, stringOption, type OptionSpec } from '../args';
+import { CliInputError } from '../cli-error';
+import type { CliContext } from '../context';
+import { checkOutputFolder, writeOutputsAtomically } from '../files';
+import { loadCodebook, loadImageFile } from '../inputs';
+import { fmt, jsonLine } from '../text-output';
+
+export const ENCODE_HELP = `Usage: cellwright encode --codebook CODEBOOK.json --image IN --out FILE [--recon OUT.png] [--error-map OUT.png] [--json]
+
+Codes one image with a codebook into a compact coded file (format: server/engine/format/FORMAT.md).
+  --recon OUT.png       also write the decoded image (exactly what "cellwright decode" will produce)
+  --error-map OUT.png   also write |original − decoded| × ${ERROR_MAP_GAIN} as a grey image (largest channel error per pixel;
+                        white = an error of 64 levels or more)
+  --threads N           worker threads
+`;
+
+const SPEC: OptionSpec = {
+  codebook: { type: 'string' },
+  image: { type: 'string' },
+  out: { type: 'string' },
+  recon: { type: 'string' },
+  'error-map': { type: 'string' },
+  threads: { type: 'string' },
+  json: { type: 'boolean' },
+};
+
+export async function runEncode(argv: string[], ctx: CliContext): Promise<void> {
+  const values = parseOptions('encode', argv, SPEC);
+  if (values.help) {
+    ctx.stdout.write(ENCODE_HELP);
+    return;
+  }
+  const codebookPath = requiredString(values, 'codebook', 'encode');
+  const imagePath = requiredString(values, 'image', 'encode');
+  const out = requiredString(values, 'out', 'encode');
+  const reconPath = stringOption(values, 'recon');
+  const errorMapPath = stringOption(values, 'error-map');
+  const threads = intOption(values, 'threads', { min: 1, max: 1024 });
+  for (const p of [out, reconPath, errorMapPath]) if (p) await checkOutputFolder(p);
+  const book = await loadCodebook(codebookPath);
+  if (!book.patch) throw new CliInputError(`codebook ${codebookPath} was trained on raw vectors and has no patch geometry, so it cannot code images`);
+  const image = await loadImageFile(imagePath, book.patch.color);
+  const { container, reconstruction } = await encode(book, image, { threads, signal: ctx.signal });
+  const outputs: { path: string; data: Uint8Array }[] = [{ path: out, data: container }];
+  if (reconPath) outputs.push({ path: reconPath, data: await encodePng(reconstruction, image.width, image.height, image.channels) });
+  if (errorMapPath) outputs.push({ path: errorMapPath, data: await encodeErrorMapPng(image.pixels, reconstruction, image.width, image.height, image.channels) });
+  await writeOutputsAtomically(outputs);
+  const pixels = image.width * image.height;
+  const mse = meanSquaredError(image.pixels, reconstruction);
+  const bpp = (container.length * 8) / pixels;
+  if (values.json) {
+    ctx.stdout.write(jsonLine({ command: 'encode', out, width: image.width, height: image.height, bytes: container.length, bppActual: bpp, mse, psnr: psnrForJson(psnrFromMse(mse)) }));
+    return;
+  }
+  ctx.stdout.write(`${imagePath}: ${image.width}×${image.height} → ${container.length} bytes (${fmt.bpp(bpp)} bpp), MSE ${fmt.mse(mse)}, PSNR ${fmt.psnr(psnrFromMse(mse))}\nwrote ${outputs.map((o) => o.path).join(', ')}\n`);
+}

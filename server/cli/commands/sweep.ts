@@ -1,0 +1,121 @@
+import {
+  availableBaselineCodecs, baselines, DEFAULT_QUALITIES, evaluate, imagesToTrainingVectors, MAX_BITS, trainCodebooks, type BaselineCodec,
+  type Codebook, type PatchInfo,
+} from '../../engine';
+import { intListOption, listOption, parseOptions, rangeOption, requiredString, type OptionSpec } from '../args';
+import { CliInputError, CliUsageError } from '../cli-error';
+import type { CliContext } from '../context';
+import { checkOutputFolder, writeOutputsAtomically } from '../files';
+import { loadImageFolder } from '../inputs';
+import { progressBar } from '../progress';
+import { fmt, table } from '../text-output';
+import { imageSettings, trainingSettings } from './train';
+
+export const SWEEP_HELP = `Usage: cellwright sweep --images TRAIN_DIR --heldout DIR --patch WxH --bits A..B --out CURVE.csv [options]
+
+Trains codebooks of 2^A … 2^B codewords on TRAIN_DIR (split init trains every size in one LBG pass), evaluates each on
+the held-out images, optionally adds standard-codec baselines measured the same way, and writes a rate–distortion CSV.
+  --baseline LIST       comma-separated jpeg, webp, avif (avif only where this build encodes it)
+  --qualities LIST      codec qualities to sweep (default ${DEFAULT_QUALITIES.join(',')})
+  --color, --stride, --mean-bits, --sample, --init, --epsilon, --max-iter, --seed, --threads   as for "cellwright train"
+CSV columns: codec, bits, codebook_size, quality, bpp_fixed, bpp_entropy, bpp_actual, mse, psnr_db, ssim
+(empty where a column does not apply; psnr_db is "Infinity" for identical images).
+`;
+
+const SPEC: OptionSpec = {
+  images: { type: 'string' },
+  heldout: { type: 'string' },
+  patch: { type: 'string' },
+  bits: { type: 'string' },
+  baseline: { type: 'string' },
+  qualities: { type: 'string' },
+  stride: { type: 'string' },
+  color: { type: 'string' },
+  'mean-bits': { type: 'string' },
+  sample: { type: 'string' },
+  init: { type: 'string' },
+  epsilon: { type: 'string' },
+  'max-iter': { type: 'string' },
+  seed: { type: 'string' },
+  threads: { type: 'string' },
+  out: { type: 'string' },
+};
+
+export const CURVE_HEADER = ['codec', 'bits', 'codebook_size', 'quality', 'bpp_fixed', 'bpp_entropy', 'bpp_actual', 'mse', 'psnr_db', 'ssim'] as const;
+
+function csvValue(v: number | string | null | undefined): string {
+  if (v === null || v === undefined) return '';
+  if (typeof v === 'string') return v;
+  if (v === Infinity) return 'Infinity';
+  return String(v);
+}
+
+export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
+  const values = parseOptions('sweep', argv, SPEC);
+  if (values.help) {
+    ctx.stdout.write(SWEEP_HELP);
+    return;
+  }
+  const trainDir = requiredString(values, 'images', 'sweep');
+  const heldoutDir = requiredString(values, 'heldout', 'sweep');
+  const out = requiredString(values, 'out', 'sweep');
+  const range = rangeOption(values, 'bits', { min: 0, max: MAX_BITS });
+  if (!range) throw new CliUsageError('"cellwright sweep" needs --bits A..B');
+  const img = imageSettings(values);
+  if (!img.patch) throw new CliUsageError('"cellwright sweep" needs --patch WxH');
+  const settings = trainingSettings(values);
+  const codecs = listOption(values, 'baseline', ['jpeg', 'webp', 'avif'] as const) ?? [];
+  const qualities = intListOption(values, 'qualities', { min: 1, max: 100 }) ?? [...DEFAULT_QUALITIES];
+  if (codecs.includes('avif') && !(await availableBaselineCodecs()).includes('avif')) throw new CliInputError('this build of sharp cannot encode AVIF; drop it from --baseline');
+  await checkOutputFolder(out);
+
+  const patch: PatchInfo = { ...img.patch, channels: img.color === 'rgb' ? 3 : 1, color: img.color };
+  const loading = progressBar(ctx, 'reading images');
+  const trainImages = await loadImageFolder(trainDir, img.color, 'training folder', loading);
+  const heldout = await loadImageFolder(heldoutDir, img.color, 'held-out folder', loading);
+  loading.done();
+  const { vectors, dimension } = imagesToTrainingVectors(trainImages, { patch: img.patch, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing });
+
+  const [lo, hi] = range;
+  const bar = progressBar(ctx, 'training');
+  const books: Codebook[] = [];
+  try {
+    const common = { ...settings, signal: ctx.signal, patch, preprocessing: img.preprocessing, source: trainDir, stride: img.stride, sample: img.sample };
+    if (settings.init === 'split') {
+      // One LBG pass to 2^B yields every smaller power of two on the way.
+      const all = await trainCodebooks(vectors, dimension, { ...common, bits: hi, onProgress: (p) => bar.update(p.fraction, `K=${p.size}`) });
+      books.push(...all.filter((b) => b.bits >= lo));
+    } else {
+      for (let b = lo; b <= hi; b += 1) {
+        const [book] = await trainCodebooks(vectors, dimension, { ...common, bits: b, onProgress: (p) => bar.update((b - lo + p.fraction) / (hi - lo + 1), `K=${p.size}`) });
+        books.push(book);
+      }
+    }
+  } finally {
+    bar.done();
+  }
+
+  const rows: string[][] = [];
+  const shown: (string | number)[][] = [];
+  const evalBar = progressBar(ctx, 'evaluating');
+  try {
+    for (const [i, book] of books.entries()) {
+      const r = (await evaluate(book, heldout, { threads: settings.threads, signal: ctx.signal })).overall;
+      rows.push(['vq', String(book.bits), String(book.size), '', ...[r.bppFixed, r.bppEntropy, r.bppActual, r.mse, r.psnr, r.ssim].map(csvValue)]);
+      shown.push([`vq K=${book.size}`, fmt.bpp(r.bppFixed), fmt.bpp(r.bppEntropy), fmt.bpp(r.bppActual), fmt.mse(r.mse), fmt.psnr(r.psnr), fmt.ssim(r.ssim)]);
+      evalBar.update((i + 1) / books.length, `K=${book.size}`);
+    }
+    if (codecs.length > 0) {
+      const points = await baselines(heldout, { codecs: codecs as BaselineCodec[], qualities, signal: ctx.signal, onPoint: (d, t) => evalBar.update(d / t, 'baselines') });
+      for (const p of points) {
+        rows.push([p.codec, '', '', String(p.quality), '', '', ...[p.bpp, p.mse, p.psnr, p.ssim].map(csvValue)]);
+        shown.push([`${p.codec} q=${p.quality}`, '', '', fmt.bpp(p.bpp), fmt.mse(p.mse), fmt.psnr(p.psnr), fmt.ssim(p.ssim)]);
+      }
+    }
+  } finally {
+    evalBar.done();
+  }
+  const csv = [CURVE_HEADER.join(','), ...rows.map((r) => r.join(','))].join('\n') + '\n';
+  await writeOutputsAtomically([{ path: out, data: csv }]);
+  ctx.stdout.write(table(['point', 'bpp fixed', 'bpp entropy', 'bpp actual', 'MSE', 'PSNR', 'SSIM'], shown) + `wrote ${out}\n`);
+}

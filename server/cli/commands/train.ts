@@ -1,0 +1,186 @@
+import {
+  imagesToTrainingVectors, MAX_BITS, parsePatchShape, serializeCodebook, trainCodebooks, type Codebook, type ColorMode, type PatchInfo,
+  type PreprocessingInfo,
+} from '../../engine';
+import { choiceOption, intOption, numberOption, parseOptions, requiredString, stringOption, type OptionSpec, type ParsedOptions } from '../args';
+import { CliUsageError } from '../cli-error';
+import type { CliContext } from '../context';
+import { checkOutputFolder, writeOutputsAtomically } from '../files';
+import { loadImageFolder, loadVectors } from '../inputs';
+import { progressBar } from '../progress';
+import { fmt, jsonLine, table } from '../text-output';
+
+export const TRAIN_HELP = `Usage: cellwright train (--vectors FILE.npy | --images DIR --patch WxH) --bits B --out CODEBOOK.json [options]
+
+Trains a codebook of 2^B codewords with the generalized Lloyd algorithm and writes it as codebook JSON.
+
+Input (one of):
+  --vectors FILE.npy    training vectors, a float32/float64 little-endian C-order .npy array (N × d; 1-D is N × 1)
+  --images DIR          images in DIR (png, jpg, webp, tif, avif); needs --patch
+Image options:
+  --patch WxH           patch width × height in pixels, each 2..16 (also allowed with --vectors, to record the geometry)
+  --stride S            step between training patches in pixels (default: the patch size, non-overlapping)
+  --color luma|rgb      luma (BT.601, default) or rgb (R,G,B interleaved per pixel)
+  --mean-bits M         mean-removed VQ: code each block mean with M bits (1..8), quantize the residual
+  --sample N            train on at most N vectors, drawn at random (seeded) across images in proportion to area
+Training:
+  --bits B              codebook size 2^B, B from 0 to ${MAX_BITS} (required)
+  --init METHOD         split (LBG, default), kmeans++ or random
+  --epsilon E           stop when the relative drop in distortion is below E (default 1e-4)
+  --max-iter N          at most N Lloyd iterations per codebook size (default 100)
+  --seed N              random seed (default 1)
+  --threads N           worker threads (default: all cores the engine may use)
+Output:
+  --out FILE            codebook JSON to write (written atomically)
+  --json                print one JSON object with the result on stdout
+`;
+
+const SPEC: OptionSpec = {
+  vectors: { type: 'string' },
+  images: { type: 'string' },
+  patch: { type: 'string' },
+  stride: { type: 'string' },
+  color: { type: 'string' },
+  'mean-bits': { type: 'string' },
+  sample: { type: 'string' },
+  bits: { type: 'string' },
+  init: { type: 'string' },
+  epsilon: { type: 'string' },
+  'max-iter': { type: 'string' },
+  seed: { type: 'string' },
+  threads: { type: 'string' },
+  out: { type: 'string' },
+  json: { type: 'boolean' },
+};
+
+export interface TrainingSettings {
+  init: 'split' | 'kmeans++' | 'random';
+  epsilon?: number;
+  maxIterations?: number;
+  seed?: number;
+  threads?: number;
+}
+
+export function trainingSettings(values: ParsedOptions): TrainingSettings {
+  return {
+    init: choiceOption(values, 'init', ['split', 'kmeans++', 'random'] as const) ?? 'split',
+    epsilon: numberOption(values, 'epsilon', { min: 0, max: 1 }),
+    maxIterations: intOption(values, 'max-iter', { min: 0, max: 1_000_000 }),
+    seed: intOption(values, 'seed', { min: 0, max: 2 ** 32 - 1 }),
+    threads: intOption(values, 'threads', { min: 1, max: 1024 }),
+  };
+}
+
+export function imageSettings(values: ParsedOptions) {
+  const patchText = stringOption(values, 'patch');
+  const meanBits = intOption(values, 'mean-bits', { min: 1, max: 8 });
+  return {
+    patch: patchText === undefined ? undefined : parsePatchShape(patchText),
+    color: choiceOption(values, 'color', ['luma', 'rgb'] as const) ?? ('luma' as ColorMode),
+    stride: intOption(values, 'stride', { min: 1, max: 1 << 16 }),
+    sample: intOption(values, 'sample', { min: 1 }),
+    preprocessing: (meanBits === undefined ? { kind: 'none' } : { kind: 'mean-removed', meanBits }) as PreprocessingInfo,
+  };
+}
+
+export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
+  const values = parseOptions('train', argv, SPEC);
+  if (values.help) {
+    ctx.stdout.write(TRAIN_HELP);
+    return;
+  }
+  const vectorsPath = stringOption(values, 'vectors');
+  const imagesDir = stringOption(values, 'images');
+  if ((vectorsPath === undefined) === (imagesDir === undefined)) throw new CliUsageError('"cellwright train" needs exactly one of --vectors and --images');
+  const bits = intOption(values, 'bits', { min: 0, max: MAX_BITS });
+  if (bits === undefined) throw new CliUsageError('"cellwright train" needs --bits');
+  const out = requiredString(values, 'out', 'train');
+  const settings = trainingSettings(values);
+  const img = imageSettings(values);
+  await checkOutputFolder(out);
+
+  let vectors: Float32Array;
+  let dimension: number;
+  let patch: PatchInfo | null = null;
+  let source: string;
+  if (vectorsPath !== undefined) {
+    for (const name of ['stride', 'mean-bits', 'sample'] as const) {
+      if (values[name] !== undefined) throw new CliUsageError(`--${name} applies to --images, not --vectors`);
+    }
+    const npy = await loadVectors(vectorsPath);
+    vectors = npy.data;
+    dimension = npy.cols;
+    source = vectorsPath;
+    if (img.patch) {
+      patch = { ...img.patch, channels: img.color === 'rgb' ? 3 : 1, color: img.color };
+      const want = patch.width * patch.height * patch.channels;
+      if (want !== dimension) throw new CliUsageError(`--patch ${patch.width}x${patch.height} ${patch.color} means ${want} components, ${vectorsPath} has ${dimension}`);
+    } else if (values.color !== undefined) {
+      throw new CliUsageError('--color with --vectors needs --patch');
+    }
+  } else {
+    if (!img.patch) throw new CliUsageError('"cellwright train --images" needs --patch WxH');
+    patch = { ...img.patch, channels: img.color === 'rgb' ? 3 : 1, color: img.color };
+    const loading = progressBar(ctx, 'reading images');
+    const images = await loadImageFolder(imagesDir!, img.color, 'image folder', loading);
+    loading.done();
+    const extracted = imagesToTrainingVectors(images, { patch: img.patch, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing });
+    vectors = extracted.vectors;
+    dimension = extracted.dimension;
+    source = imagesDir!;
+  }
+
+  const started = Date.now();
+  const bar = progressBar(ctx, 'training');
+  let codebooks: Codebook[];
+  try {
+    codebooks = await trainCodebooks(vectors, dimension, {
+      bits,
+      ...settings,
+      signal: ctx.signal,
+      patch,
+      preprocessing: vectorsPath !== undefined ? { kind: 'none' } : img.preprocessing,
+      source,
+      stride: img.stride,
+      sample: img.sample,
+      onProgress: (p) => bar.update(p.fraction, `K=${p.size} it ${p.iteration} D=${p.distortion.toPrecision(5)}`),
+    });
+  } finally {
+    bar.done();
+  }
+  const book = codebooks[codebooks.length - 1];
+  await writeOutputsAtomically([{ path: out, data: serializeCodebook(book) }]);
+  const elapsedMs = Date.now() - started;
+
+  if (values.json) {
+    ctx.stdout.write(
+      jsonLine({
+        command: 'train',
+        out,
+        bits: book.bits,
+        size: book.size,
+        dimension: book.dimension,
+        vectorCount: book.training.vectorCount,
+        iterations: book.training.iterations,
+        distortion: book.training.distortion,
+        init: book.training.init,
+        seed: book.training.seed,
+        epsilon: book.training.epsilon,
+        patch: book.patch,
+        preprocessing: book.preprocessing,
+        checksum: book.checksum,
+        elapsedMs,
+        sizes: codebooks.map((c) => ({ size: c.size, iterations: c.training.iterations, distortion: c.training.distortion })),
+      }),
+    );
+    return;
+  }
+  ctx.stdout.write(
+    `trained ${book.size} codewords of dimension ${book.dimension} on ${book.training.vectorCount} vectors (${book.training.init}, ${(elapsedMs / 1000).toFixed(1)} s)\n` +
+      table(
+        ['size', 'iterations', 'MSE/component'],
+        codebooks.map((c) => [c.size, c.training.iterations, fmt.mse(c.training.distortion)]),
+      ) +
+      `wrote ${out}\n`,
+  );
+}

@@ -1,0 +1,249 @@
+/**
+ * Public API of the Cellwright engine, for the server, job workers and the command line.
+ * Inputs are validated here, once (zod for option objects; the core validates its typed arrays); the modules behind
+ * this file trust what they are given. Everything here is pure TypeScript over sharp, zod, ssim.js and node built-ins.
+ */
+import { readFile } from 'node:fs/promises';
+import { z } from 'zod';
+import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './core';
+import { issuePath, makeCodebook, MAX_BITS, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
+import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
+import { readContainer, writeContainer } from './format/container';
+import { EngineInputError } from './format/engine-input-error';
+import { decodeImage, type ColorMode, type PixelImage } from './io/image';
+import { removeMeans } from './io/mean-removal';
+import { extractTrainingVectors, vectorDimension } from './io/patches';
+import { readNpy, type NpyMatrix } from './io/npy';
+import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
+import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
+
+// ---- re-exports: what callers need, from one place ----
+export { train, assign, assignSync, createRng, shutdownEngineWorkers, threadBudget, EngineError } from './core';
+export type { Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './core';
+export { EngineInputError, type EngineInputErrorCode } from './format/engine-input-error';
+export {
+  CODEBOOK_FORMAT, CODEBOOK_VERSION, MAX_BITS, MAX_SIZE, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
+  serializeCodebook, toCodebookDocument, type Codebook, type CodebookDocument, type PatchInfo, type PreprocessingInfo, type TrainingInfo,
+} from './format/codebook-schema';
+export { codebookJsonSchemaText } from './format/codebook-json-schema';
+export { codewordChecksum } from './format/checksum';
+export { readContainer, readContainerHeader, writeContainer, CONTAINER_VERSION, type ContainerHeader } from './format/container';
+export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
+export { decodeImage, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
+export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
+export { parsePatchShape, checkPatchShape, tile, untile, extractTrainingVectors, vectorDimension, type PatchShape } from './io/patches';
+export { checkMeanBits, quantizeMean, meanLevel, removeMeans, MEAN_BITS_MIN, MEAN_BITS_MAX, type Preprocessing } from './io/mean-removal';
+export { readNpy, writeNpy, type NpyMatrix } from './io/npy';
+export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
+export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
+export { ssimGrey, ssimOfImages } from './metrics/ssim';
+export { bppFixed, entropyBits, indexBits } from './metrics/rate';
+export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
+export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion } from './metrics/evaluate';
+export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
+
+// ---- entry validation ----
+const int = (min: number, max?: number) => (max === undefined ? z.int().min(min) : z.int().min(min).max(max));
+const colorSchema = z.enum(['luma', 'rgb']);
+const patchShapeSchema = z.object({ width: int(2, 16), height: int(2, 16) });
+const preprocessingSchema = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('none') }),
+  z.object({ kind: z.literal('mean-removed'), meanBits: int(1, 8) }),
+]);
+const threadsSchema = int(1, 1024).optional();
+const signalSchema = z.instanceof(AbortSignal).optional();
+
+function check<T>(schema: z.ZodType<T>, value: unknown, what: string): T {
+  const parsed = schema.safeParse(value);
+  if (parsed.success) return parsed.data;
+  const [issue] = parsed.error.issues;
+  const field = issuePath(issue.path);
+  throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${what}: ${field === '(root)' ? '' : `${field}: `}${issue.message}`, field);
+}
+
+// ---- images and vectors ----
+
+export async function loadImage(input: Buffer | string, color: ColorMode, name?: string): Promise<PixelImage> {
+  check(colorSchema, color, 'loadImage');
+  return decodeImage(input, color, name);
+}
+
+export async function loadNpy(path: string): Promise<NpyMatrix> {
+  let bytes: Buffer;
+  try {
+    bytes = await readFile(path);
+  } catch (error) {
+    throw new EngineInputError('ENGINE_INVALID_NPY', `${path}: cannot read file (${(error as NodeJS.ErrnoException).code ?? String(error)})`);
+  }
+  return readNpy(bytes, path);
+}
+
+const extractSchema = z.object({
+  patch: patchShapeSchema,
+  stride: int(1).optional(),
+  sample: int(1).optional(),
+  seed: z.int().optional(),
+  preprocessing: preprocessingSchema.optional(),
+});
+export type TrainingVectorOptions = z.infer<typeof extractSchema>;
+
+/**
+ * Training vectors from images: patches at `stride` (default: patch size), an optional seeded random cap spread over images
+ * by area, and — with mean removal — the quantized block mean subtracted exactly as the encoder will.
+ * @returns vectors: N × d, row-major
+ */
+export function imagesToTrainingVectors(images: PixelImage[], options: TrainingVectorOptions): { vectors: Float32Array; dimension: number; count: number; perImage: number[] } {
+  const o = check(extractSchema, options, 'imagesToTrainingVectors');
+  const rng = createRng(o.seed ?? DEFAULT_SEED);
+  const out = extractTrainingVectors(images, o.patch, { stride: o.stride, sample: o.sample, rng });
+  if (o.preprocessing?.kind === 'mean-removed') removeMeans(out.vectors, out.dimension, o.preprocessing.meanBits);
+  return out;
+}
+
+// ---- training ----
+
+const trainSchema = z
+  .object({
+    bits: int(0, MAX_BITS).optional(),
+    size: int(1, 2 ** MAX_BITS).optional(),
+    init: z.enum(['random', 'kmeans++', 'split']),
+    epsilon: z.number().min(0).max(1).optional(),
+    maxIterations: int(0, 1_000_000).optional(),
+    seed: int(0).optional(),
+    threads: threadsSchema,
+    signal: signalSchema,
+    onProgress: z.function().optional(),
+    onIteration: z.function().optional(),
+    patch: z.object({ width: int(2, 16), height: int(2, 16), channels: z.union([z.literal(1), z.literal(3)]), color: colorSchema }).nullable(),
+    preprocessing: preprocessingSchema,
+    source: z.string(),
+    stride: int(1).optional(),
+    sample: int(1).optional(),
+  })
+  .refine((o) => (o.bits === undefined) !== (o.size === undefined), { message: 'give exactly one of bits and size', path: ['bits'] });
+
+export interface TrainCodebooksOptions {
+  /** Codebook of 2^bits codewords (0..14) — or give `size` for any K. */
+  bits?: number;
+  size?: number;
+  init: 'random' | 'kmeans++' | 'split';
+  epsilon?: number;
+  maxIterations?: number;
+  seed?: number;
+  threads?: number;
+  signal?: AbortSignal;
+  onProgress?: (p: TrainProgress) => void;
+  onIteration?: (s: IterationStat) => void;
+  /** Geometry the vectors came from, or null for raw vectors. */
+  patch: PatchInfo | null;
+  preprocessing: PreprocessingInfo;
+  /** Recorded in the codebook: what it was trained on. */
+  source: string;
+  stride?: number;
+  sample?: number;
+}
+
+/**
+ * Trains codebooks with the generalized Lloyd algorithm. Split init returns every size 1, 2, 4, …, K (each trace holding
+ * the whole LBG path up to that size); random and k-means++ return one codebook.
+ * @param vectors  N × dimension, row-major (already mean-removed when `preprocessing` says so)
+ */
+export async function trainCodebooks(vectors: Float32Array, dimension: number, options: TrainCodebooksOptions): Promise<Codebook[]> {
+  const o = check(trainSchema, options, 'trainCodebooks');
+  if (o.patch && vectorDimension(o.patch, o.patch.channels) !== dimension) {
+    throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', `vectors have ${dimension} components, a ${o.patch.width}×${o.patch.height} ${o.patch.color} patch has ${vectorDimension(o.patch, o.patch.channels)}`);
+  }
+  if (o.patch && o.patch.channels !== (o.patch.color === 'rgb' ? 3 : 1)) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `trainCodebooks: patch.channels does not match color ${o.patch.color}`);
+  }
+  const k = o.size ?? 2 ** o.bits!;
+  const seed = o.seed ?? DEFAULT_SEED;
+  const epsilon = o.epsilon ?? DEFAULT_EPSILON;
+  const result = await train(vectors, dimension, {
+    k,
+    init: o.init,
+    epsilon,
+    maxIterations: o.maxIterations,
+    seed,
+    threads: o.threads,
+    signal: options.signal,
+    onProgress: options.onProgress,
+    onIteration: options.onIteration,
+  });
+  const path: IterationStat[] = [];
+  return result.codebooks.map((book) => {
+    for (const s of book.trace) {
+      const entry: IterationStat = { size: s.size, iteration: s.iteration, distortion: s.distortion, emptyRepaired: s.emptyRepaired, elapsedMs: s.elapsedMs };
+      if (s.redecided !== undefined) entry.redecided = s.redecided;
+      path.push(entry);
+    }
+    const training: TrainingInfo = {
+      source: o.source,
+      vectorCount: result.vectorCount,
+      init: o.init,
+      epsilon,
+      seed,
+      iterations: book.iterations,
+      distortion: book.distortion,
+      trace: [...path],
+      maxIterations: o.maxIterations ?? DEFAULT_MAX_ITERATIONS,
+      ...(o.stride !== undefined ? { stride: o.stride } : {}),
+      ...(o.sample !== undefined ? { sample: o.sample } : {}),
+    };
+    return makeCodebook({ size: book.size, dimension, patch: o.patch, preprocessing: o.preprocessing, codewords: book.codewords, usage: book.usage, training });
+  });
+}
+
+// ---- coding ----
+
+const codingSchema = z.object({ threads: threadsSchema, signal: signalSchema });
+
+/** Codes an image: the container bytes, the indices, and the decoder's output (height × width × channels, 8-bit). */
+export async function encode(codebook: Codebook, image: PixelImage, options: { threads?: number; signal?: AbortSignal } = {}): Promise<{ container: Buffer; encoded: EncodedImage; reconstruction: Uint8Array }> {
+  check(codingSchema, options, 'encode');
+  const encoded = await encodeImage(codebook, image, options);
+  return { container: writeContainer(codebook, encoded), encoded, reconstruction: reconstruct(codebook, encoded) };
+}
+
+/** Decodes container bytes with the codebook they were coded with. */
+export function decode(codebook: Codebook, bytes: Uint8Array): { width: number; height: number; channels: 1 | 3; pixels: Uint8Array } {
+  const encoded = readContainer(codebook, bytes);
+  return { width: encoded.width, height: encoded.height, channels: encoded.header.color === 'rgb' ? 3 : 1, pixels: reconstruct(codebook, encoded) };
+}
+
+// ---- evaluation and baselines ----
+
+const evaluateSchema = z.object({ threads: threadsSchema, signal: signalSchema, keepOutputs: z.boolean().optional(), onImage: z.function().optional() });
+
+export interface EvaluateOptions {
+  threads?: number;
+  signal?: AbortSignal;
+  keepOutputs?: boolean;
+  onImage?: (done: number, total: number) => void;
+}
+
+/** Rate and distortion of a codebook on held-out images (per image and pooled), or on raw vectors (N × d). */
+export async function evaluate(codebook: Codebook, input: PixelImage[], options?: EvaluateOptions): Promise<ImageSetEvaluation>;
+export async function evaluate(codebook: Codebook, input: { vectors: Float32Array; dimension: number }, options?: EvaluateOptions): Promise<VectorSetEvaluation>;
+export async function evaluate(codebook: Codebook, input: PixelImage[] | { vectors: Float32Array; dimension: number }, options: EvaluateOptions = {}): Promise<ImageSetEvaluation | VectorSetEvaluation> {
+  check(evaluateSchema, options, 'evaluate');
+  if (Array.isArray(input)) return evaluateImages(codebook, input, options);
+  return evaluateVectors(codebook, input.vectors, input.dimension, options);
+}
+
+const baselineSchema = z.object({
+  codecs: z.array(z.enum(['jpeg', 'webp', 'avif'])).min(1).optional(),
+  qualities: z.array(int(1, 100)).min(1).optional(),
+  signal: signalSchema,
+  onPoint: z.function().optional(),
+});
+
+/** Rate–distortion points of JPEG, WebP (and AVIF where this sharp build writes it) on the same images, measured the same way. */
+export async function baselines(
+  images: PixelImage[],
+  options: { codecs?: BaselineCodec[]; qualities?: number[]; signal?: AbortSignal; onPoint?: (done: number, total: number) => void } = {},
+): Promise<BaselinePoint[]> {
+  check(baselineSchema, options, 'baselines');
+  return baselineCurve(images, options);
+}
+

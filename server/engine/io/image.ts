@@ -1,0 +1,74 @@
+import sharp from 'sharp';
+import { EngineInputError } from '../format/engine-input-error';
+import { lumaPlane } from './luma';
+
+/** How pixels become vector components: one luma value per pixel, or R, G, B per pixel. */
+export type ColorMode = 'luma' | 'rgb';
+
+export function channelsOf(color: ColorMode): 1 | 3 {
+  return color === 'rgb' ? 3 : 1;
+}
+
+/**
+ * A decoded image on the 0..255 scale.
+ * `pixels` is height × width × channels, row-major, channels interleaved (R, G, B for rgb).
+ * Luma values are BT.601 and unrounded (see luma.ts); rgb values are the decoded 8-bit integers.
+ */
+export interface PixelImage {
+  name: string;
+  width: number;
+  height: number;
+  color: ColorMode;
+  channels: 1 | 3;
+  pixels: Float32Array;
+}
+
+/** Extensions read from an image folder; the formats sharp decodes in every prebuilt binary, plus AVIF through libheif. */
+export const IMAGE_EXTENSIONS = Object.freeze(['.png', '.jpg', '.jpeg', '.webp', '.tif', '.tiff', '.avif']);
+
+/**
+ * Decodes an image file or buffer with sharp.
+ * Alpha is dropped (pixels are taken as stored, not composited) and grey or palette images are expanded to sRGB first,
+ * so every source yields the same three-channel path before luma is taken. EXIF orientation is not applied:
+ * the codec works on the stored raster, exactly as the baselines do.
+ */
+export async function decodeImage(input: Buffer | string, color: ColorMode, name = typeof input === 'string' ? input : 'image'): Promise<PixelImage> {
+  let data: Buffer;
+  let width: number;
+  let height: number;
+  try {
+    const out = await sharp(input, { failOn: 'error' })
+      .removeAlpha()
+      .toColourspace('srgb')
+      .raw({ depth: 'uchar' })
+      .toBuffer({ resolveWithObject: true });
+    data = out.data;
+    width = out.info.width;
+    height = out.info.height;
+    if (out.info.channels !== 3) throw new Error(`unexpected ${out.info.channels} channels after conversion to sRGB`);
+  } catch (error) {
+    const reason = error instanceof Error ? error.message.split('\n')[0] : String(error);
+    throw new EngineInputError('ENGINE_INVALID_IMAGE', `${name}: cannot decode image (${reason})`);
+  }
+  return fromRgb8(name, width, height, data, color);
+}
+
+/** Builds a PixelImage from interleaved 8-bit RGB (height × width × 3). */
+export function fromRgb8(name: string, width: number, height: number, rgb: Uint8Array, color: ColorMode): PixelImage {
+  const count = width * height;
+  if (rgb.length !== count * 3) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${name}: expected ${count * 3} RGB bytes for ${width}×${height}, got ${rgb.length}`);
+  }
+  const pixels = color === 'rgb' ? Float32Array.from(rgb) : lumaPlane(rgb, count);
+  return { name, width, height, color, channels: channelsOf(color), pixels };
+}
+
+/** Pixels clamped to 0..255 and rounded half up: the 8-bit form every PNG, metric and baseline works from. */
+export function toUint8(pixels: ArrayLike<number>): Uint8Array {
+  const out = new Uint8Array(pixels.length);
+  for (let i = 0; i < pixels.length; i += 1) {
+    const v = pixels[i];
+    out[i] = v <= 0 ? 0 : v >= 255 ? 255 : Math.floor(v + 0.5);
+  }
+  return out;
+}

@@ -1,0 +1,38 @@
+/** Squared-error distortion and PSNR on the 0..255 scale. */
+
+/** Sum of squared differences, accumulated in float64. */
+export function sumSquaredError(a: ArrayLike<number>, b: ArrayLike<number>): number {
+  if (a.length !== b.length) throw new RangeError(`length mismatch: ${a.length} vs ${b.length}`);
+  let sum = 0;
+  for (let i = 0; i < a.length; i += 1) {
+    const e = a[i] - b[i];
+    sum += e * e;
+  }
+  return sum;
+}
+
+/** Mean squared error per component (per pixel and channel). */
+export function meanSquaredError(a: ArrayLike<number>, b: ArrayLike<number>): number {
+  return a.length === 0 ? 0 : sumSquaredError(a, b) / a.length;
+}
+
+export const PEAK_8BIT = 255;
+
+/**
+ * PSNR in dB for 8-bit data: 10 · log10(255² / MSE) (common practice).
+ * Identical images (MSE = 0) give +Infinity, never an error; text output shows it as "∞", JSON as null.
+ */
+export function psnrFromMse(mse: number, peak = PEAK_8BIT): number {
+  if (mse === 0) return Infinity;
+  return 10 * Math.log10((peak * peak) / mse);
+}
+
+/** PSNR for JSON: +Infinity has no JSON spelling, so it becomes null (and the docs say so). */
+export function psnrForJson(psnr: number): number | null {
+  return Number.isFinite(psnr) ? psnr : null;
+}
+
+/** PSNR for people: two decimals, or "∞" for identical images. */
+export function formatPsnr(psnr: number): string {
+  return Number.isFinite(psnr) ? `${psnr.toFixed(2)} dB` : '∞';
+}

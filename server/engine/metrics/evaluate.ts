@@ -1,0 +1,198 @@
+import { assign } from '../core';
+import type { Codebook } from '../format/codebook-schema';
+import { encodeImage, reconstruct } from '../format/codec';
+import { writeContainer } from '../format/container';
+import { EngineInputError } from '../format/engine-input-error';
+import type { PixelImage } from '../io/image';
+import { removeMeans } from '../io/mean-removal';
+import { psnrFromMse, sumSquaredError } from './distortion';
+import { bppFixed, entropyBits, histogram } from './rate';
+import { ssimOfImages } from './ssim';
+
+/**
+ * Rate and distortion of a codebook on held-out data.
+ * Images are measured on what the decoder outputs (8-bit, clamped, rounded) against the decoded source
+ * (unrounded BT.601 luma, or 8-bit RGB). Rates, all in bits per pixel:
+ *  - fixed: (ceil(log2 K) + m) / (w·h);
+ *  - entropy: empirical entropy of the index stream (and of the mean codes) over the evaluated set, times blocks, per pixel —
+ *    the rate an ideal entropy coder matched to these statistics would reach;
+ *  - actual: container bytes × 8 / pixels, header included.
+ */
+export interface RateDistortion {
+  pixels: number;
+  blocks: number;
+  mse: number; // per pixel component
+  psnr: number; // dB; Infinity when mse = 0
+  ssim: number | null; // null when the image is smaller than the SSIM window
+  bppFixed: number;
+  bppEntropy: number;
+  bppActual: number;
+  bytes: number;
+}
+
+export interface ImageEvaluation extends RateDistortion {
+  name: string;
+  width: number;
+  height: number;
+  /** Only with `keepOutputs`: decoder output (height × width × channels) and the container bytes. */
+  reconstruction?: Uint8Array;
+  container?: Buffer;
+}
+
+export interface ImageSetEvaluation {
+  kind: 'images';
+  images: ImageEvaluation[];
+  /** Pooled over all images: squared errors and bytes summed, SSIM averaged over images that have one. */
+  overall: RateDistortion & { indexEntropy: number; meanEntropy: number };
+  usage: Uint32Array; // blocks per cell, size K
+  cellDistortion: Float64Array; // total squared error per cell in the vector (residual) domain, size K
+}
+
+export interface VectorSetEvaluation {
+  kind: 'vectors';
+  vectorCount: number;
+  /** Pixels one vector stands for: patch w·h when the codebook has a patch, else its dimension (rates are then per component). */
+  pixelsPerVector: number;
+  mse: number; // per component, unrounded reconstruction
+  bppFixed: number;
+  bppEntropy: number;
+  indexEntropy: number;
+  meanEntropy: number;
+  usage: Uint32Array;
+  cellDistortion: Float64Array;
+}
+
+export interface EvaluateOptions {
+  threads?: number;
+  signal?: AbortSignal;
+  keepOutputs?: boolean;
+  onImage?: (done: number, total: number) => void;
+}
+
+function meanBitsOf(codebook: Codebook): number {
+  return codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
+}
+
+export async function evaluateImages(codebook: Codebook, images: PixelImage[], options: EvaluateOptions = {}): Promise<ImageSetEvaluation> {
+  if (images.length === 0) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'no images to evaluate');
+  if (!codebook.patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook was trained on raw vectors and has no patch geometry, so it cannot code images');
+  const patchPixels = codebook.patch.width * codebook.patch.height;
+  const meanBits = meanBitsOf(codebook);
+  const fixed = bppFixed(codebook.size, meanBits, patchPixels);
+  const usage = new Uint32Array(codebook.size);
+  const cellDistortion = new Float64Array(codebook.size);
+  const meanCounts = new Uint32Array(meanBits > 0 ? 2 ** meanBits : 1);
+  const results: ImageEvaluation[] = [];
+  let sse = 0;
+  let components = 0;
+  let pixels = 0;
+  let blocks = 0;
+  let bytes = 0;
+
+  for (const image of images) {
+    options.signal?.throwIfAborted();
+    const encoded = await encodeImage(codebook, image, options);
+    const recon = reconstruct(codebook, encoded);
+    const container = writeContainer(codebook, encoded);
+    const imageSse = sumSquaredError(image.pixels, recon);
+    const imagePixels = image.width * image.height;
+    const n = encoded.indices.length;
+    const idxHist = histogram(encoded.indices, codebook.size);
+    let imageMeanEntropy = 0;
+    if (encoded.meanCodes) {
+      const mh = histogram(encoded.meanCodes, meanCounts.length);
+      imageMeanEntropy = entropyBits(mh);
+      for (let i = 0; i < mh.length; i += 1) meanCounts[i] += mh[i];
+    }
+    for (let i = 0; i < n; i += 1) cellDistortion[encoded.indices[i]] += encoded.distances[i];
+    for (let i = 0; i < idxHist.length; i += 1) usage[i] += idxHist[i];
+    const mse = imageSse / image.pixels.length;
+    const result: ImageEvaluation = {
+      name: image.name,
+      width: image.width,
+      height: image.height,
+      pixels: imagePixels,
+      blocks: n,
+      mse,
+      psnr: psnrFromMse(mse),
+      ssim: ssimOfImages(image.pixels, recon, image.width, image.height, image.channels),
+      bppFixed: fixed,
+      bppEntropy: ((entropyBits(idxHist) + imageMeanEntropy) * n) / imagePixels,
+      bppActual: (container.length * 8) / imagePixels,
+      bytes: container.length,
+    };
+    if (options.keepOutputs) {
+      result.reconstruction = recon;
+      result.container = container;
+    }
+    results.push(result);
+    sse += imageSse;
+    components += image.pixels.length;
+    pixels += imagePixels;
+    blocks += n;
+    bytes += container.length;
+    options.onImage?.(results.length, images.length);
+  }
+
+  const indexEntropy = entropyBits(usage);
+  const meanEntropy = meanBits > 0 ? entropyBits(meanCounts) : 0;
+  const mse = sse / components;
+  const ssims = results.map((r) => r.ssim).filter((s): s is number => s !== null);
+  return {
+    kind: 'images',
+    images: results,
+    overall: {
+      pixels,
+      blocks,
+      mse,
+      psnr: psnrFromMse(mse),
+      ssim: ssims.length ? ssims.reduce((a, b) => a + b, 0) / ssims.length : null,
+      bppFixed: fixed,
+      bppEntropy: ((indexEntropy + meanEntropy) * blocks) / pixels,
+      bppActual: (bytes * 8) / pixels,
+      bytes,
+      indexEntropy,
+      meanEntropy,
+    },
+    usage,
+    cellDistortion,
+  };
+}
+
+/**
+ * Evaluates raw vectors (N × d, row-major), e.g. from a .npy file. The reconstruction is codeword (+ mean level) without
+ * rounding, so MSE is the quantizer's own distortion per component.
+ */
+export async function evaluateVectors(codebook: Codebook, vectors: Float32Array, dimension: number, options: EvaluateOptions = {}): Promise<VectorSetEvaluation> {
+  if (dimension !== codebook.dimension) {
+    throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', `vectors have ${dimension} components, codebook has ${codebook.dimension}`);
+  }
+  const count = vectors.length / dimension;
+  if (!Number.isInteger(count) || count < 1) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'no vectors to evaluate');
+  const meanBits = meanBitsOf(codebook);
+  const work = meanBits > 0 ? Float32Array.from(vectors) : vectors;
+  const meanCodes = meanBits > 0 ? removeMeans(work, dimension, meanBits) : null;
+  const { indices, distances } = await assign(work, dimension, codebook.codewords, { threads: options.threads, signal: options.signal });
+  const usage = histogram(indices, codebook.size);
+  const cellDistortion = new Float64Array(codebook.size);
+  let sse = 0;
+  for (let i = 0; i < count; i += 1) {
+    cellDistortion[indices[i]] += distances[i];
+    sse += distances[i];
+  }
+  const pixelsPerVector = codebook.patch ? codebook.patch.width * codebook.patch.height : dimension;
+  const indexEntropy = entropyBits(usage);
+  const meanEntropy = meanCodes ? entropyBits(histogram(meanCodes, 2 ** meanBits)) : 0;
+  return {
+    kind: 'vectors',
+    vectorCount: count,
+    pixelsPerVector,
+    mse: sse / (count * dimension),
+    bppFixed: bppFixed(codebook.size, meanBits, pixelsPerVector),
+    bppEntropy: (indexEntropy + meanEntropy) / pixelsPerVector,
+    indexEntropy,
+    meanEntropy,
+    usage,
+    cellDistortion,
+  };
+}

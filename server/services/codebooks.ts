@@ -66,7 +66,8 @@ export function createCodebooksService(deps: { db: Database }) {
       usage: c.usage,
       cellDistortion: c.cellDistortion,
       trace: c.trace,
-      codewords: rows(c.codewords, c.size, c.dimension),
+      // Shortest decimals that read back to the same float32, exactly as the export writes them.
+      codewords: toCodebookDocument(engineCodebookOf(c)).codewords,
       training: (c.metadata.training ?? {}) as Record<string, unknown>,
     };
   }

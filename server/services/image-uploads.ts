@@ -99,10 +99,13 @@ export function createImageUploadsService(deps: { db: Database; store: ContentSt
       for (const file of files) {
         const name = displayName(file.name);
         if (isZipArchive(file.data)) {
-          const problems = await unpackZip(file.data, name, { maxEntryBytes: limits.maxFileBytes, budget }, (m) =>
-            consider(m.label, clip(m.path), m.data),
-          );
+          let members = 0;
+          const problems = await unpackZip(file.data, name, { maxEntryBytes: limits.maxFileBytes, budget }, (m) => {
+            members += 1;
+            return consider(m.label, clip(m.path), m.data);
+          });
           rejected.push(...problems);
+          if (members === 0 && problems.length === 0) rejected.push({ file: name, message: `${name}: the archive holds no files` });
         } else {
           await consider(name, name, file.data);
         }

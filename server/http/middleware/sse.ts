@@ -13,6 +13,13 @@ export const SSE_HEARTBEAT_MS = 15_000;
  * Turns the response into a text/event-stream (WHATWG HTML, "Server-sent events"). `onClose` runs once,
  * whether the client went away or the server ended the stream.
  */
+const openStreams = new Set<EventStream>();
+
+/** Ends every open stream: a stopping server would otherwise wait for clients that never hang up. */
+export function endAllEventStreams(): void {
+  for (const s of [...openStreams]) s.end();
+}
+
 export function openEventStream(req: Request, res: Response, onClose: () => void, heartbeatMs = SSE_HEARTBEAT_MS): EventStream {
   res.status(200);
   res.set({
@@ -32,13 +39,14 @@ export function openEventStream(req: Request, res: Response, onClose: () => void
   const finish = () => {
     if (closed) return;
     closed = true;
+    openStreams.delete(stream);
     clearInterval(heartbeat);
     onClose();
   };
   req.on('close', finish);
   res.on('close', finish);
   res.write('retry: 3000\n\n');
-  return {
+  const stream: EventStream = {
     send(event, data) {
       if (closed) return;
       id += 1;
@@ -53,6 +61,8 @@ export function openEventStream(req: Request, res: Response, onClose: () => void
       return closed;
     },
   };
+  openStreams.add(stream);
+  return stream;
 }
 
 /** A source the stream replays: a first snapshot, then events until it ends or the client leaves. */

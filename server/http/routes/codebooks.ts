@@ -30,7 +30,8 @@ function transferRoutes(r: Router, d: RouteDeps) {
   r.get('/:codebookId/export', d.authenticate, d.requireTeamRole('admin', 'engineer'), validate(oneInput), async (req, res) => {
     const { params } = validated(req, oneInput);
     const { fileName, body } = await d.codebooks.export(params.teamId, req.user!.id, params.codebookId);
-    res.attachment(fileName).type('application/json').set('Cache-Control', 'no-store').send(body);
+    // The name is already folded to [A-Za-z0-9._-], so quoting it is all RFC 6266 asks.
+    res.set({ 'Content-Disposition': `attachment; filename="${fileName}"`, 'Cache-Control': 'no-store' }).type('application/json').send(body);
   });
 
   r.post('/import', d.authenticate, d.requireTeamRole('admin', 'engineer'), validate(importInput), async (req, res) => {

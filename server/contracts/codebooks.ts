@@ -1,0 +1,56 @@
+import { z } from 'zod';
+import { idParam } from './common';
+
+export const codebookParams = z.object({ teamId: idParam, codebookId: idParam });
+
+export const codebookSummary = z.object({
+  id: z.number().int(),
+  name: z.string(),
+  source: z.enum(['trained', 'imported']),
+  runId: z.number().int().nullable(),
+  /** The run's name, or 'imported'. */
+  origin: z.string(),
+  bits: z.number().int(),
+  size: z.number().int(),
+  dimension: z.number().int(),
+  patch: z.object({ width: z.number().int(), height: z.number().int() }),
+  color: z.enum(['luma', 'rgb']),
+  channels: z.number().int(),
+  meanBits: z.number().int(),
+  checksum: z.string(),
+  /** MSE per component on the training vectors. */
+  distortion: z.number(),
+  createdAt: z.string(),
+});
+export type CodebookSummary = z.infer<typeof codebookSummary>;
+
+export const traceEntry = z.object({
+  size: z.number().int(),
+  iteration: z.number().int(),
+  distortion: z.number(),
+  emptyRepaired: z.number().int(),
+  elapsedMs: z.number(),
+  redecided: z.number().int().optional(),
+});
+
+export const codebookDetail = codebookSummary.extend({
+  /** Training vectors per cell (the usage histogram). */
+  usage: z.array(z.number().int()),
+  /** Total squared error per cell on the training vectors (null for imported codebooks, which do not carry it). */
+  cellDistortion: z.array(z.number()).nullable(),
+  trace: z.array(traceEntry),
+  /** size × dimension; components ((row·width)+column)·channels+channel. */
+  codewords: z.array(z.array(z.number())),
+  training: z.record(z.string(), z.unknown()),
+});
+export type CodebookDetail = z.infer<typeof codebookDetail>;
+
+/** GET /api/teams/:teamId/codebooks */
+export const codebooksResponse = z.object({ codebooks: z.array(codebookSummary) });
+/** GET /codebooks/:codebookId; POST /codebooks/import → 201 (source 'imported') */
+export const codebookResponse = z.object({ codebook: codebookDetail });
+/**
+ * GET /codebooks/:codebookId/export → the engine's codebook document (format "cellwright-codebook"), as an attachment.
+ * POST /codebooks/import takes that document as the JSON body; an optional `?name=` names the imported codebook.
+ */
+export const importCodebookQuery = z.object({ name: z.string().trim().min(1).max(200).optional() }).strict();

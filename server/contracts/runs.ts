@@ -1,0 +1,117 @@
+import { z } from 'zod';
+import { idParam } from './common';
+import { job, jobState } from './jobs';
+
+const int = (min: number, max: number) => z.number().int().min(min).max(max);
+const imageIds = z.array(idParam).min(1).max(10_000);
+
+/** b in bits per block: 2^b codewords. */
+export const bitsRange = z
+  .object({ from: int(0, 14), to: int(0, 14) })
+  .strict()
+  .refine((b) => b.from <= b.to, { message: 'from must not exceed to', path: ['from'] });
+
+/**
+ * POST /api/teams/:teamId/runs (engineer, admin). Give exactly one of trainingImageIds / trainingSetId and of
+ * heldOutImageIds / heldOutSetId. With the same set for both, its images are taken by their role; a set named
+ * only on one side contributes all of its images to that side. No default is filled in here: the body is
+ * stored as submitted, and GET returns it in this same shape.
+ */
+export const createRunBody = z
+  .object({
+    name: z.string().trim().min(1).max(120),
+    notes: z.string().max(10_000).optional(),
+    trainingImageIds: imageIds.optional(),
+    trainingSetId: idParam.optional(),
+    heldOutImageIds: imageIds.optional(),
+    heldOutSetId: idParam.optional(),
+    patch: z.object({ width: int(2, 16), height: int(2, 16) }).strict(),
+    color: z.enum(['luma', 'rgb']).optional(),
+    /** 0: no mean removal; 1..8: the block mean is coded with this many bits and removed before quantizing. */
+    meanBits: int(0, 8).optional(),
+    bits: z.union([int(0, 14), bitsRange]),
+    init: z.enum(['random', 'kmeans++', 'split']).optional(),
+    epsilon: z.number().gt(0).max(0.1).optional(),
+    maxIterations: int(1, 1000).optional(),
+    maxVectors: int(100, 2_000_000).optional(),
+    seed: z.number().int().min(0).max(2 ** 31 - 1).optional(),
+  })
+  .strict()
+  .superRefine((b, ctx) => {
+    const one = (a: unknown, c: unknown, names: [string, string]) => {
+      if ((a === undefined) === (c === undefined)) {
+        ctx.addIssue({ code: 'custom', path: [names[0]], message: `give exactly one of ${names[0]} and ${names[1]}` });
+      }
+    };
+    one(b.trainingImageIds, b.trainingSetId, ['trainingImageIds', 'trainingSetId']);
+    one(b.heldOutImageIds, b.heldOutSetId, ['heldOutImageIds', 'heldOutSetId']);
+  });
+export type CreateRunBody = z.infer<typeof createRunBody>;
+
+/** The configuration a run's jobs execute: defaults filled in, sets resolved to image ids. */
+export const normalizedRunConfig = z.object({
+  trainingImageIds: z.array(z.number().int()),
+  heldOutImageIds: z.array(z.number().int()),
+  patch: z.object({ width: z.number().int(), height: z.number().int() }),
+  color: z.enum(['luma', 'rgb']),
+  meanBits: z.number().int(),
+  bits: z.object({ from: z.number().int(), to: z.number().int() }),
+  /** Codebook sizes the run keeps, 2^from … 2^to. */
+  sizes: z.array(z.number().int()),
+  init: z.enum(['random', 'kmeans++', 'split']),
+  epsilon: z.number(),
+  maxIterations: z.number().int(),
+  maxVectors: z.number().int(),
+  seed: z.number().int(),
+});
+export type NormalizedRunConfig = z.infer<typeof normalizedRunConfig>;
+
+export const runParams = z.object({ teamId: idParam, runId: idParam });
+
+/** The point of a run's curve a list shows first: the best PSNR it reached (null until evaluated). */
+export const operatingPoint = z.object({
+  codebookId: z.number().int(),
+  bits: z.number().int(),
+  bpp: z.number(),
+  psnr: z.number().nullable(),
+  mse: z.number(),
+});
+
+export const runSummary = z.object({
+  id: z.number().int(),
+  name: z.string(),
+  notes: z.string().nullable(),
+  state: jobState,
+  error: z.string().nullable(),
+  createdBy: z.object({ id: z.number().int(), name: z.string() }).nullable(),
+  createdAt: z.string(),
+  finishedAt: z.string().nullable(),
+  heldOutHash: z.string(),
+  /** The fraction of the run's jobs done, 0..1. */
+  progress: z.number().min(0).max(1),
+  bestOperatingPoint: operatingPoint.nullable(),
+});
+export type RunSummary = z.infer<typeof runSummary>;
+
+export const runCodebookSummary = z.object({
+  id: z.number().int(),
+  bits: z.number().int(),
+  size: z.number().int(),
+  distortion: z.number(),
+  iterations: z.number().int(),
+  checksum: z.string(),
+});
+
+export const runDetail = runSummary.extend({
+  /** The body as it was posted: POST it again (changed or not) to run again. */
+  config: createRunBody,
+  normalized: normalizedRunConfig,
+  jobs: z.array(job),
+  codebooks: z.array(runCodebookSummary),
+});
+export type RunDetail = z.infer<typeof runDetail>;
+
+/** GET /api/teams/:teamId/runs */
+export const runsResponse = z.object({ runs: z.array(runSummary) });
+/** POST /runs → 201, GET /runs/:runId, POST /runs/:runId/cancel → 200 (409 when the run has already finished) */
+export const runResponse = z.object({ run: runDetail });

@@ -53,7 +53,7 @@ const layers = {
 };
 
 export default tseslint.config(
-  { ignores: ['dist/**', 'node_modules/**', 'data/**', 'test-results/**', '**/*.wasm', 'server/engine/wasm/assembly/**'] },
+  { ignores: ['dist/**', 'node_modules/**', 'data/**', '.tmp/**', 'test-results/**', '**/*.wasm', 'server/engine/wasm/assembly/**'] },
   ...tseslint.configs.recommended,
   {
     plugins: { cellwright: { rules: { layers } } },

@@ -1,7 +1,6 @@
 // node --import tsx scripts/migrate.ts latest | rollback [--all] | status
-import knexFactory from 'knex';
 import { loadConfig } from '../server/config';
-import { buildKnexConfig } from '../server/db';
+import { withMigrator } from '../server/db/migrator';
 
 const usage = 'usage: migrate.ts latest | rollback [--all] | status';
 
@@ -12,27 +11,25 @@ async function run(): Promise<number> {
     return 2;
   }
   const config = loadConfig({ ...process.env, JWT_SECRET: process.env.JWT_SECRET || 'x'.repeat(32) });
-  const knex = knexFactory(buildKnexConfig(config.db, { min: 0, max: 1 }));
   try {
-    if (command === 'latest') {
-      const [, applied] = (await knex.migrate.latest()) as [number, string[]];
-      process.stdout.write(applied.length ? `applied:\n  ${applied.join('\n  ')}\n` : 'already up to date\n');
-    } else if (command === 'rollback') {
-      const all = flags.includes('--all');
-      const [, undone] = (await knex.migrate.rollback(undefined, all)) as [number, string[]];
-      process.stdout.write(undone.length ? `rolled back:\n  ${undone.join('\n  ')}\n` : 'nothing to roll back\n');
-    } else {
-      const [done, pending] = (await knex.migrate.list()) as [{ name: string }[], { file: string }[] | string[]];
-      process.stdout.write(`database ${config.db.database} on ${config.db.host}:${config.db.port}\n`);
-      for (const m of done) process.stdout.write(`  applied  ${typeof m === 'string' ? m : m.name}\n`);
-      for (const m of pending) process.stdout.write(`  pending  ${typeof m === 'string' ? m : m.file}\n`);
-    }
+    await withMigrator(config.db, async (m) => {
+      if (command === 'latest') {
+        const applied = await m.latest();
+        process.stdout.write(applied.length ? `applied:\n  ${applied.join('\n  ')}\n` : 'already up to date\n');
+      } else if (command === 'rollback') {
+        const undone = await m.rollback(flags.includes('--all'));
+        process.stdout.write(undone.length ? `rolled back:\n  ${undone.join('\n  ')}\n` : 'nothing to roll back\n');
+      } else {
+        const { applied, pending } = await m.status();
+        process.stdout.write(`database ${config.db.database} on ${config.db.host}:${config.db.port}\n`);
+        for (const m of applied) process.stdout.write(`  applied  ${m}\n`);
+        for (const m of pending) process.stdout.write(`  pending  ${m}\n`);
+      }
+    });
     return 0;
   } catch (err) {
     process.stderr.write(`migrate ${command} failed: ${(err as Error).message}\n`);
     return 1;
-  } finally {
-    await knex.destroy();
   }
 }
 

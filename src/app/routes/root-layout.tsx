@@ -1,0 +1,10 @@
+import { Outlet, ScrollRestoration } from 'react-router-dom';
+
+export function RootLayout() {
+  return (
+    <>
+      <Outlet />
+      <ScrollRestoration />
+    </>
+  );
+}

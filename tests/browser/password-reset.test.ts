@@ -1,0 +1,91 @@
+import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { startServer, type StartedServer } from '../helpers/server';
+import { launchBrowser, saveScreenshot, type BrowserSession } from './browser';
+
+// Demo accounts from the shared environment contract (server/seed).
+const admin = { email: 'ada@tidewater.test', password: 'harbour-admin-1' };
+const viewer = { email: 'juno@tidewater.test', oldPassword: 'harbour-viewer-1', newPassword: 'low-tide-transect-4' };
+
+describe('resetting a password through the browser', () => {
+  let server: StartedServer;
+  let browser: BrowserSession | undefined;
+
+  beforeAll(async () => {
+    server = await startServer();
+  });
+
+  afterEach(async () => {
+    await browser?.close();
+    browser = undefined;
+  });
+
+  afterAll(async () => {
+    await server?.stop();
+  });
+
+  async function signIn(email: string, password: string) {
+    const { page } = browser!;
+    await page.goto(`${server.url}/sign-in`);
+    await page.getByLabel('E-mail').fill(email);
+    await page.getByLabel('Password').fill(password);
+    await page.getByRole('button', { name: 'Sign in' }).click();
+  }
+
+  it('mails a one-time link that sets a new password and retires the old one', async () => {
+    browser = await launchBrowser();
+    const { page } = browser;
+
+    await page.goto(`${server.url}/sign-in`);
+    await page.getByRole('link', { name: 'Forgot your password?' }).click();
+    await page.waitForURL(/\/forgot-password$/);
+    await page.getByLabel('E-mail').fill(viewer.email);
+    await page.getByRole('button', { name: 'Send reset link' }).click();
+    await expect.poll(() => page.getByRole('status').textContent()).toContain('Check your inbox');
+
+    // The capture server keeps the e-mail; the team admin can read it in the outbox.
+    await signIn(admin.email, admin.password);
+    await page.waitForURL(/\/teams\/\d+$/);
+    await page.getByRole('navigation', { name: 'Team' }).getByRole('link', { name: 'Outbox' }).click();
+    const messages = page.getByRole('region', { name: 'Captured messages' });
+    await expect
+      .poll(async () => {
+        if (await messages.getByText(viewer.email).first().isVisible()) return true;
+        await page.getByRole('button', { name: 'Refresh' }).click();
+        return false;
+      })
+      .toBe(true);
+    await messages.locator('summary').filter({ hasText: viewer.email }).click();
+    const resetUrl = await messages.getByRole('link', { name: /\/reset-password\// }).getAttribute('href');
+    expect(resetUrl).toMatch(new RegExp(`^${server.url}/reset-password/[A-Za-z0-9_-]{20,}$`));
+    await page.getByRole('banner').getByRole('button', { name: /account menu/ }).click();
+    await page.getByRole('button', { name: 'Sign out' }).click();
+    await page.waitForURL(/\/sign-in$/);
+
+    await page.goto(resetUrl!);
+    await page.getByLabel('New password', { exact: true }).fill(viewer.newPassword);
+    await page.getByLabel('Repeat new password').fill(`${viewer.newPassword}x`);
+    await page.getByRole('button', { name: 'Set new password' }).click();
+    expect(await page.getByText('The two passwords differ').isVisible()).toBe(true);
+    await page.getByLabel('Repeat new password').fill(viewer.newPassword);
+    await page.getByRole('button', { name: 'Set new password' }).click();
+    await expect.poll(() => page.getByRole('status').textContent()).toContain('Password changed');
+    await saveScreenshot(page, 'password-changed');
+
+    // The link was single-use.
+    await page.goto(resetUrl!);
+    await page.getByLabel('New password', { exact: true }).fill('another-new-password-5');
+    await page.getByLabel('Repeat new password').fill('another-new-password-5');
+    await page.getByRole('button', { name: 'Set new password' }).click();
+    await expect.poll(() => page.getByRole('alert').isVisible()).toBe(true);
+    expect(await page.getByRole('alert').getByRole('link', { name: 'Request a new link' }).isVisible()).toBe(true);
+    await saveScreenshot(page, 'password-link-spent');
+
+    await signIn(viewer.email, viewer.oldPassword);
+    await expect.poll(() => page.getByRole('alert').isVisible()).toBe(true);
+    expect(new URL(page.url()).pathname).toBe('/sign-in');
+
+    await signIn(viewer.email, viewer.newPassword);
+    await page.waitForURL(/\/teams\/\d+$/);
+    expect(await page.getByRole('banner').textContent()).toContain('Juno Marsh');
+  });
+});

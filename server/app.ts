@@ -11,6 +11,7 @@ import { requireKnownBodyType } from './http/middleware/content-type';
 import { apiNotFound, errorHandler } from './http/middleware/error-handler';
 import { originCheck } from './http/middleware/origin-check';
 import { attemptLimiter } from './http/middleware/rate-limit';
+import { rejectInvalidUtf8 } from './http/middleware/strict-utf8';
 import { requireTeamRoleFactory } from './http/middleware/require-team-role';
 import { authRouter } from './http/routes/auth';
 import { codebookImportBodyParser, codebookImportPath, codebooksRouter } from './http/routes/codebooks';
@@ -106,7 +107,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api', originCheck(config.publicUrl));
   // Codebook documents are far larger than any other body; the global parser below skips a body already parsed.
   app.use(codebookImportPath, codebookImportBodyParser);
-  app.use('/api', requireKnownBodyType, express.json({ limit: '1mb' }));
+  app.use('/api', requireKnownBodyType, express.json({ limit: '1mb', verify: rejectInvalidUtf8 }));
 
   const { passport, authenticate } = createAuthenticator({
     verifyOptions: deps.sessions.verifyOptions,

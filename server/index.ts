@@ -2,9 +2,11 @@
 import type { Server } from 'node:http';
 import { createApp } from './app';
 import { compose } from './composition';
+import { endAllEventStreams } from './http/middleware/sse';
 import { ConfigError, createLogger, loadConfig } from './config';
 import { startFakeSmtpServer, type FakeSmtpServer } from './mail/fake-smtp-server';
 import { seedDemo } from './seed/demo';
+import { demoContentDeps, seedDemoContent } from './seed/demo-content';
 
 async function main(): Promise<void> {
   let config;
@@ -36,6 +38,7 @@ async function main(): Promise<void> {
         const s = server;
         await new Promise<void>((resolve) => {
           s.close(() => resolve());
+          endAllEventStreams();
           s.closeIdleConnections();
           // Long-lived responses (event streams) would hold close() open; cut them after a grace period.
           setTimeout(() => s.closeAllConnections(), 5_000).unref();
@@ -59,6 +62,8 @@ async function main(): Promise<void> {
     if (config.seedDemo && (await db.repos.users.count()) === 0) {
       const seeded = await seedDemo(db, (p) => services.accounts.hashPassword(p));
       logger.info({ teamId: seeded.teamId, accounts: seeded.created }, 'demo team seeded');
+      // The sample sweep is a convenience: if it cannot be made, the accounts still work and the server still starts.
+      await seedDemoContent(demoContentDeps(composition), seeded.teamId).catch((err: unknown) => logger.error({ err }, 'demo content could not be seeded'));
     }
     if (config.smtp.fake) {
       if (config.nodeEnv === 'production') {
@@ -73,6 +78,8 @@ async function main(): Promise<void> {
         store: (message) => db.transaction((tx) => tx.outbox.insert(message)),
       });
     }
+    // After migrations (the queue's tables) and mail (jobs notify their creators when they finish).
+    await composition.jobs.runner.start();
     const app = createApp(composition);
     server = await new Promise<Server>((resolve, reject) => {
       const s = app.listen(config.port, config.host, (err?: Error) => (err ? reject(err) : resolve(s)));

@@ -40,10 +40,12 @@ export function engineCodebookOf(c: CodebookWithCodewords): Codebook {
   return parseCodebook({ ...c.metadata, codewords: rows(c.codewords, c.size, c.dimension) }, `codebook ${c.id}`);
 }
 
-/** `<name>-b<bits>.cellwright.json` with anything but letters, digits, dot, dash and underscore folded to '-'. */
+/** `<name>-b<bits>.cellwright.json` with anything but ASCII letters, digits, dot, dash and underscore folded to '-'. */
 export function exportFileName(name: string, bits: number): string {
   const base = name
     .normalize('NFKD')
+    // Decomposed accents drop their combining marks (U+0300–U+036F), so "é" becomes "e" rather than "-".
+    .replace(/[\u0300-\u036f]/g, '')
     .replace(/[^A-Za-z0-9._-]+/g, '-')
     .replace(/^[-.]+|[-.]+$/g, '')
     .replace(/-{2,}/g, '-')

@@ -1,0 +1,210 @@
+/**
+ * Worker entry point for evaluation work: measuring codebooks on held-out images, the reference codec sweep, and the
+ * reconstruction views. It takes plain data (file paths of stored originals, codebook fields and codewords) and returns
+ * plain data; it never touches the database, HTTP or services, so it can run in any thread of the pool.
+ */
+import {
+  availableBaselineCodecs,
+  baselines,
+  codewordChecksum,
+  DEFAULT_QUALITIES,
+  encode,
+  encodeErrorMapPng,
+  encodePng,
+  evaluate,
+  indexBits,
+  loadImage,
+  meanSquaredError,
+  psnrForJson,
+  psnrFromMse,
+  ssimOfImages,
+  toUint8,
+  type BaselineCodec,
+  type Codebook,
+  type ColorMode,
+  type PatchInfo,
+  type PixelImage,
+  type PreprocessingInfo,
+  type TrainingInfo,
+} from '../../engine';
+
+/** A codebook as the worker receives it; `codewords` is K × dimension, row-major. */
+export interface TaskCodebook {
+  size: number;
+  dimension: number;
+  patch: PatchInfo;
+  preprocessing: PreprocessingInfo;
+  codewords: Float32Array;
+  usage: ArrayLike<number>;
+  training: TrainingInfo;
+  checksum: string;
+}
+
+export interface TaskImage {
+  /** Path of the stored original (content store). */
+  path: string;
+  /** For messages only. */
+  name: string;
+}
+
+/** Metrics with PSNR in JSON form: null when the reconstruction is exact. */
+export interface TaskMetrics {
+  mse: number;
+  psnr: number | null;
+  ssim: number | null;
+  bppFixed: number;
+  bppEntropy: number;
+  bppActual: number;
+  pixels: number;
+  bytes: number;
+}
+
+export interface TaskImageMetrics extends TaskMetrics {
+  width: number;
+  height: number;
+}
+
+export interface EvaluateResult {
+  images: TaskImageMetrics[];
+  overall: TaskMetrics;
+}
+
+export interface BaselineResultPoint {
+  codec: BaselineCodec;
+  quality: number;
+  bpp: number;
+  mse: number;
+  psnr: number | null;
+  ssim: number | null;
+}
+
+export type ReconstructionView = 'original' | 'reconstruction' | 'error';
+
+export interface ReconstructResult {
+  /** PNG of the requested view, or null when only the figures were asked for. */
+  png: Uint8Array | null;
+  width: number;
+  height: number;
+  encodedBytes: number;
+  bpp: number;
+  mse: number;
+  psnr: number | null;
+  ssim: number | null;
+}
+
+export type EvaluateTask =
+  | { op: 'evaluate'; codebook: TaskCodebook; images: TaskImage[] }
+  | { op: 'baselines'; images: TaskImage[]; color: ColorMode; codecs?: BaselineCodec[]; qualities?: number[] }
+  | { op: 'reconstruct'; codebook: TaskCodebook; image: TaskImage; view: ReconstructionView | null };
+
+/** Everything runs on this worker's own thread: the pool already spends one core per task. */
+const ON_THIS_THREAD = { threads: 1 } as const;
+
+function toCodebook(c: TaskCodebook): Codebook {
+  const codewords = c.codewords instanceof Float32Array ? c.codewords : new Float32Array(c.codewords);
+  // A stored codebook whose bytes no longer match its checksum must not be measured as if it were the trained one.
+  if (codewordChecksum(codewords) !== c.checksum) throw new Error('stored codewords do not match their checksum');
+  return {
+    bits: indexBits(c.size),
+    size: c.size,
+    dimension: c.dimension,
+    patch: c.patch,
+    preprocessing: c.preprocessing,
+    codewords,
+    usage: Uint32Array.from(c.usage),
+    training: c.training,
+    checksum: c.checksum,
+  };
+}
+
+async function loadAll(images: TaskImage[], color: ColorMode): Promise<PixelImage[]> {
+  const out: PixelImage[] = [];
+  for (const image of images) out.push(await loadImage(image.path, color, image.name));
+  return out;
+}
+
+/**
+ * Per image and pooled: MSE pooled over pixel components and PSNR from it; SSIM weighted by pixels (so a large image
+ * counts as much as the same pixels cut into small ones); rates are total bits over total pixels.
+ */
+export async function evaluateCodebook(codebook: TaskCodebook, images: TaskImage[]): Promise<EvaluateResult> {
+  const book = toCodebook(codebook);
+  const decoded = await loadAll(images, codebook.patch.color);
+  const result = await evaluate(book, decoded, ON_THIS_THREAD);
+  let weighted = 0;
+  let weight = 0;
+  for (const r of result.images) {
+    if (r.ssim === null) continue;
+    weighted += r.ssim * r.pixels;
+    weight += r.pixels;
+  }
+  const o = result.overall;
+  return {
+    images: result.images.map((r) => ({
+      width: r.width,
+      height: r.height,
+      pixels: r.pixels,
+      bytes: r.bytes,
+      mse: r.mse,
+      psnr: psnrForJson(r.psnr),
+      ssim: r.ssim,
+      bppFixed: r.bppFixed,
+      bppEntropy: r.bppEntropy,
+      bppActual: r.bppActual,
+    })),
+    overall: {
+      pixels: o.pixels,
+      bytes: o.bytes,
+      mse: o.mse,
+      psnr: psnrForJson(o.psnr),
+      ssim: weight > 0 ? weighted / weight : null,
+      bppFixed: o.bppFixed,
+      bppEntropy: o.bppEntropy,
+      bppActual: o.bppActual,
+    },
+  };
+}
+
+/** The reference sweep: every codec this sharp build writes (JPEG, WebP, AVIF when available) at the standard qualities. */
+export async function baselinePoints(images: TaskImage[], color: ColorMode, codecs?: BaselineCodec[], qualities?: number[]): Promise<BaselineResultPoint[]> {
+  const decoded = await loadAll(images, color);
+  const points = await baselines(decoded, { codecs: codecs ?? (await availableBaselineCodecs()), qualities: qualities ?? [...DEFAULT_QUALITIES] });
+  return points.map((p) => ({ codec: p.codec, quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: psnrForJson(p.psnr), ssim: p.ssim }));
+}
+
+/**
+ * One image through the codec, with the same encode and decoder the evaluation used, so the figures and pixels here
+ * are the ones it measured. Views: the source as the codebook sees it (luma rounded to 8 bits), the decoder output,
+ * or the engine's error map (largest absolute channel error × ERROR_MAP_GAIN, black = exact).
+ */
+export async function reconstructImage(codebook: TaskCodebook, image: TaskImage, view: ReconstructionView | null): Promise<ReconstructResult> {
+  const book = toCodebook(codebook);
+  const source = await loadImage(image.path, codebook.patch.color, image.name);
+  const { container, reconstruction } = await encode(book, source, ON_THIS_THREAD);
+  const mse = meanSquaredError(source.pixels, reconstruction);
+  let png: Buffer | null = null;
+  if (view === 'original') png = await encodePng(toUint8(source.pixels), source.width, source.height, source.channels);
+  else if (view === 'reconstruction') png = await encodePng(reconstruction, source.width, source.height, source.channels);
+  else if (view === 'error') png = await encodeErrorMapPng(source.pixels, reconstruction, source.width, source.height, source.channels);
+  return {
+    png: png ? new Uint8Array(png.buffer, png.byteOffset, png.byteLength) : null,
+    width: source.width,
+    height: source.height,
+    encodedBytes: container.length,
+    bpp: (container.length * 8) / (source.width * source.height),
+    mse,
+    psnr: psnrForJson(psnrFromMse(mse)),
+    ssim: ssimOfImages(source.pixels, reconstruction, source.width, source.height, source.channels),
+  };
+}
+
+export default async function run(task: EvaluateTask): Promise<EvaluateResult | BaselineResultPoint[] | ReconstructResult> {
+  switch (task.op) {
+    case 'evaluate':
+      return evaluateCodebook(task.codebook, task.images);
+    case 'baselines':
+      return baselinePoints(task.images, task.color, task.codecs, task.qualities);
+    case 'reconstruct':
+      return reconstructImage(task.codebook, task.image, task.view);
+  }
+}

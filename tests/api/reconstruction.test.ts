@@ -1,0 +1,210 @@
+import sharp from 'sharp';
+import request from 'supertest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { seabedSet } from '../../server/seed/seabed-tiles';
+import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
+
+let t: TestApp;
+let team: Awaited<ReturnType<typeof teamWithRoles>>;
+let outsider: Session;
+let heldOutIds: number[];
+let rgbRun: number;
+let lumaRun: number;
+
+const W = 40;
+const H = 30;
+
+async function pngsOf(seed: number, count: number): Promise<Buffer[]> {
+  return Promise.all(
+    seabedSet(seed, count, W, H).map((tile) => sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toBuffer()),
+  );
+}
+
+async function setWith(s: Session, name: string, files: Buffer[]): Promise<number> {
+  const created = await request(t.app).post(`/api/teams/${s.teamId}/image-sets`).set(bearer(s)).send({ name });
+  expect(created.status).toBe(201);
+  const id = created.body.imageSet.id as number;
+  let upload = request(t.app).post(`/api/teams/${s.teamId}/image-sets/${id}/images`).set(bearer(s));
+  files.forEach((f, i) => (upload = upload.attach('files', f, `${name}-${i}.png`)));
+  expect((await upload).status).toBe(201);
+  return id;
+}
+
+async function finishedRun(s: Session, body: object): Promise<number> {
+  const created = await request(t.app).post(`/api/teams/${s.teamId}/runs`).set(bearer(s)).send(body);
+  expect(created.status).toBe(201);
+  for (;;) {
+    const res = await request(t.app).get(`/api/teams/${s.teamId}/runs/${created.body.run.id}`).set(bearer(s));
+    if (['succeeded', 'failed', 'cancelled'].includes(res.body.run.state)) {
+      expect(res.body.run.error).toBeNull();
+      expect(res.body.run.state).toBe('succeeded');
+      return created.body.run.id;
+    }
+    await new Promise((r) => setTimeout(r, 200));
+  }
+}
+
+/** Keeps a binary response body as one Buffer. */
+function collect(res: request.Response, done: (err: Error | null, body: Buffer) => void) {
+  const chunks: Buffer[] = [];
+  const stream = res as unknown as NodeJS.ReadableStream;
+  stream.on('data', (c: Buffer) => chunks.push(c));
+  stream.on('end', () => done(null, Buffer.concat(chunks)));
+}
+
+/** Decodes a PNG (or any stored original) to 8-bit interleaved pixels with sharp. */
+async function rawOf(input: Buffer | string): Promise<{ data: Buffer; width: number; height: number; channels: number }> {
+  // sharp expands grey files to sRGB on output unless told otherwise; a one-channel file is read as one channel.
+  const { channels } = await sharp(input).metadata();
+  const pipeline = channels === 1 ? sharp(input).extractChannel(0) : sharp(input).removeAlpha();
+  const { data, info } = await pipeline.raw().toBuffer({ resolveWithObject: true });
+  return { data, width: info.width, height: info.height, channels: info.channels };
+}
+
+async function stored(codebookId: number, imageId: number) {
+  return t.db
+    .knex('evaluation_images as m')
+    .join('evaluations as e', 'e.id', 'm.evaluation_id')
+    .where({ 'e.codebook_id': codebookId, 'm.image_id': imageId })
+    .first('m.*');
+}
+
+async function codebookOf(runId: number, bits: number): Promise<number> {
+  return (await t.db.knex('codebooks').where({ run_id: runId, bits }).first()).id;
+}
+
+const originalPath = async (imageId: number) => t.composition.contentStore.path((await t.db.knex('images').where({ id: imageId }).first()).sha256);
+
+beforeAll(async () => {
+  t = await createTestApp();
+  await t.composition.jobs.runner.start();
+  team = await teamWithRoles(t, 'Reconstruction Team');
+  outsider = await signUp(t.app, { teamName: 'Other Team' });
+  const trainingSetId = await setWith(team.engineer, 'training', await pngsOf(31, 3));
+  const heldOutSetId = await setWith(team.engineer, 'held-out', await pngsOf(32, 2));
+  heldOutIds = await t.db.knex('images').where({ set_id: heldOutSetId }).orderBy('id').pluck('id');
+  const common = { trainingSetId, heldOutSetId, bits: { from: 2, to: 4 }, init: 'split', seed: 3 };
+  rgbRun = await finishedRun(team.engineer, { ...common, name: 'colour 2x2', patch: { width: 2, height: 2 }, color: 'rgb' });
+  lumaRun = await finishedRun(team.engineer, { ...common, name: 'luma 4x4 mean-removed', patch: { width: 4, height: 4 }, color: 'luma', meanBits: 5 });
+});
+
+afterAll(async () => {
+  await t?.composition.jobs.runner.stop();
+  await t?.composition.jobs.pool.destroy();
+  await t?.close();
+});
+
+describe('reconstruction PNG', () => {
+  it('decodes to the size of the image, and its MSE against the original is the stored evaluation MSE (rgb)', async () => {
+    const codebookId = await codebookOf(rgbRun, 3);
+    for (const imageId of heldOutIds) {
+      const res = await request(t.app)
+        .get(`/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${imageId}?view=reconstruction`)
+        .set(bearer(team.viewer))
+        .buffer(true)
+        .parse(collect);
+      expect(res.status).toBe(200);
+      expect(res.headers['content-type']).toBe('image/png');
+      const recon = await rawOf(res.body as Buffer);
+      // The original decoded independently by sharp: 8-bit sRGB, alpha-free.
+      const original = await rawOf(await originalPath(imageId));
+      expect([recon.width, recon.height, recon.channels]).toEqual([original.width, original.height, 3]);
+      let sse = 0;
+      for (let i = 0; i < original.data.length; i++) sse += (original.data[i] - recon.data[i]) ** 2;
+      const row = await stored(codebookId, imageId);
+      expect(row.mse).toBeGreaterThan(0);
+      expect(sse / original.data.length).toBeCloseTo(row.mse, 9);
+      expect(Number(res.headers['x-encoded-bytes'])).toBe(row.container_bytes);
+    }
+  });
+
+  it('matches the stored MSE for a mean-removed luma codebook, with luma taken per BT.601', async () => {
+    const codebookId = await codebookOf(lumaRun, 4);
+    const imageId = heldOutIds[0];
+    const res = await request(t.app)
+      .get(`/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${imageId}`)
+      .set(bearer(team.viewer))
+      .buffer(true)
+      .parse(collect);
+    expect(res.status).toBe(200);
+    const recon = await rawOf(res.body as Buffer);
+    const original = await rawOf(await originalPath(imageId));
+    expect([recon.width, recon.height, recon.channels]).toEqual([W, H, 1]);
+    let sse = 0;
+    for (let p = 0; p < W * H; p++) {
+      // Y' = 0.299 R' + 0.587 G' + 0.114 B' (Rec. ITU-R BT.601), unrounded, as the codec measures luma.
+      const y = 0.299 * original.data[3 * p] + 0.587 * original.data[3 * p + 1] + 0.114 * original.data[3 * p + 2];
+      sse += (y - recon.data[p]) ** 2;
+    }
+    const row = await stored(codebookId, imageId);
+    // The codec holds luma in float32; six significant digits is what that precision leaves of the MSE.
+    expect(Math.abs(sse / (W * H) - row.mse) / row.mse).toBeLessThan(1e-5);
+  });
+
+  it('shows the original view exactly as stored and an error map of the documented gain', async () => {
+    const codebookId = await codebookOf(rgbRun, 2);
+    const imageId = heldOutIds[1];
+    const get = (view: string) =>
+      request(t.app)
+        .get(`/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${imageId}?view=${view}`)
+        .set(bearer(team.viewer))
+        .buffer(true)
+        .parse(collect);
+    const original = await rawOf(await originalPath(imageId));
+    const shown = await rawOf((await get('original')).body as Buffer);
+    expect(shown.data.equals(original.data)).toBe(true);
+    const recon = await rawOf((await get('reconstruction')).body as Buffer);
+    const errorMap = await rawOf((await get('error')).body as Buffer);
+    expect(errorMap.channels).toBe(1);
+    for (let p = 0; p < W * H; p++) {
+      let worst = 0;
+      for (let c = 0; c < 3; c++) worst = Math.max(worst, Math.abs(original.data[3 * p + c] - recon.data[3 * p + c]));
+      // The error map as server/engine/io/png.ts documents it: largest channel error × 4, clamped to 255.
+      expect(errorMap.data[p]).toBe(Math.min(255, worst * 4));
+    }
+  });
+
+  it('answers the figures of the evaluation as JSON for view=info', async () => {
+    const codebookId = await codebookOf(rgbRun, 4);
+    const imageId = heldOutIds[0];
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${imageId}?view=info`).set(bearer(team.viewer));
+    expect(res.status).toBe(200);
+    const row = await stored(codebookId, imageId);
+    expect(res.body.encodedBytes).toBe(row.container_bytes);
+    expect(res.body.mse).toBe(row.mse);
+    expect(res.body.psnr).toBe(row.psnr);
+    expect(res.body.ssim).toBe(row.ssim);
+    expect(res.body.bpp).toBe(row.bpp_actual);
+    expect(res.body.lossless).toBe(false);
+  });
+});
+
+describe('reconstruction access and input', () => {
+  it('answers 404 to another team for the codebook, and for an image of another team', async () => {
+    const codebookId = await codebookOf(rgbRun, 2);
+    const path = `/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${heldOutIds[0]}`;
+    expect((await request(t.app).get(path).set(bearer(outsider))).status).toBe(404);
+    const theirSet = await setWith(outsider, 'theirs', await pngsOf(33, 1));
+    const [theirImage] = await t.db.knex('images').where({ set_id: theirSet }).pluck('id');
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${theirImage}`).set(bearer(team.viewer));
+    expect(res.status).toBe(404);
+    expect(res.body.error.code).toBe('not_found');
+    const own = await request(t.app).get(`/api/teams/${outsider.teamId}/codebooks/${codebookId}/reconstruction/${theirImage}`).set(bearer(outsider));
+    expect(own.status).toBe(404);
+  });
+
+  it('refuses an unknown view with 400', async () => {
+    const codebookId = await codebookOf(rgbRun, 2);
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${heldOutIds[0]}?view=sideways`).set(bearer(team.viewer));
+    expect(res.status).toBe(400);
+    expect(res.body.error.code).toBe('validation_failed');
+  });
+
+  it('codes a colour image with a luma codebook through its luma', async () => {
+    const codebookId = await codebookOf(lumaRun, 2);
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${heldOutIds[0]}?view=info`).set(bearer(team.viewer));
+    expect(res.status).toBe(200);
+    expect(res.body.width).toBe(W);
+    expect(res.body.mse).toBeGreaterThan(0);
+  });
+});

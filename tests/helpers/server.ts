@@ -21,6 +21,8 @@ export interface StartedServer {
   stop(): Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
   /** SIGKILL, as a crash would; keeps the database and DATA_DIR for restart(). */
   kill(): Promise<void>;
+  /** SIGTERM, as an orderly stop would; keeps the database and DATA_DIR for restart(). */
+  terminate(): Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
   /** Starts the process again with the same environment (after kill()). */
   restart(): Promise<void>;
 }
@@ -130,6 +132,10 @@ export async function startServer(overrides: Record<string, string> = {}): Promi
     async kill() {
       child.kill('SIGKILL');
       await waitForExit(child, 5_000);
+    },
+    async terminate() {
+      child.kill('SIGTERM');
+      return waitForExit(child, 20_000);
     },
     async restart() {
       await spawnChild();

@@ -1,0 +1,36 @@
+import { Piscina } from 'piscina';
+
+/** Worker-thread pool for the CPU-heavy parts of jobs that are not engine kernels (decoding, evaluation). */
+export interface TaskPool {
+  /**
+   * Runs the default export of a `*.task.ts` module on a pool thread.
+   * @param task  file URL of the task module (`new URL('./tasks/x.task.ts', import.meta.url).href`)
+   */
+  run<I, O>(task: string, input: I, options?: { signal?: AbortSignal }): Promise<O>;
+  destroy(): Promise<void>;
+}
+
+const bootstrap = new URL('./tasks/run-task.mjs', import.meta.url).href;
+
+/**
+ * maxThreads = JOB_CONCURRENCY: each running job uses at most one pool thread at a time, so the pool never
+ * adds more threads than there are jobs; the engine's own kernels draw on its shared thread budget.
+ */
+export function createTaskPool(options: { maxThreads: number; idleTimeoutMs?: number }): TaskPool {
+  const piscina = new Piscina({
+    filename: bootstrap,
+    minThreads: 0,
+    maxThreads: options.maxThreads,
+    idleTimeout: options.idleTimeoutMs ?? 30_000,
+    // The bootstrap registers the TypeScript loader itself; inherited loader flags are not needed.
+    execArgv: [],
+  });
+  return {
+    run<I, O>(task: string, input: I, runOptions: { signal?: AbortSignal } = {}) {
+      return piscina.run({ task, input }, { signal: runOptions.signal ?? null }) as Promise<O>;
+    },
+    async destroy() {
+      await piscina.destroy();
+    },
+  };
+}

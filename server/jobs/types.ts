@@ -1,0 +1,33 @@
+import type { Logger } from '../config';
+import type { JobKind, JobProgress } from '../contracts';
+import type { Database } from '../db';
+import type { ContentStore } from '../storage/content-store';
+import type { JobEventBus } from './events';
+import type { TaskPool } from './pool';
+import type { Job, JobQueue } from './queue';
+
+/** What a handler may use: built once by the composition and shared by every job. */
+export interface JobDeps {
+  db: Database;
+  store: ContentStore;
+  pool: TaskPool;
+  queue: JobQueue;
+  bus: JobEventBus;
+  logger: Logger;
+}
+
+export interface JobContext {
+  /** Aborted on cancellation and on shutdown; pass it to every engine and pool call. */
+  signal: AbortSignal;
+  /** Report as often as you like: every report reaches the event bus, the database gets at most two a second. */
+  progress(progress: JobProgress): void;
+  deps: JobDeps;
+}
+
+/**
+ * Does one job's work. Resolving means success (the runner marks it succeeded, unless the handler already did
+ * through queue.completeWith); throwing means failure, with the error's message as the reason the user sees.
+ */
+export type JobHandler = (job: Job, ctx: JobContext) => Promise<void>;
+
+export type JobHandlers = Record<JobKind, JobHandler>;

@@ -1,0 +1,364 @@
+// The one table of every API route, shared by the hostile-input properties and the access matrix.
+// A route missing here is untested by both: tests/api/hostile/route-table.test.ts checks the table against
+// the routers mounted in server/app.ts.
+import { addMember, type Session } from '../../helpers/api';
+import { codebookDocument, newImage, newInvitation, newInvitationToken, newRun, newSet, pngTile, runBody, type World } from './world';
+
+/**
+ * public: no session needed. session: any signed-in user. member/engineer/admin: the least team role
+ * that may call it (viewer < engineer < admin).
+ */
+export type Access = 'public' | 'session' | 'member' | 'engineer' | 'admin';
+
+export type BodyKind = 'none' | 'json' | 'multipart' | 'event-stream';
+
+export interface RouteCase {
+  name: string;
+  method: 'GET' | 'POST' | 'PATCH' | 'DELETE';
+  /** Express-style template; :teamId and the object ids are filled from the world or from fresh(). */
+  path: string;
+  access: Access;
+  /** Status of a valid call by a caller who may make it. */
+  ok: number;
+  body: BodyKind;
+  /** A valid JSON body (or multipart files). */
+  valid?: (w: World) => unknown;
+  /** A valid query string, without "?". */
+  query?: (w: World) => string;
+  /** Makes a fresh target for calls that consume it (deletes, cancels), before every call. */
+  fresh?: (w: World) => Promise<Record<string, number | string>>;
+  /** Whether the path names an object of the team (so a foreign team's member must get 404 for it). */
+  objectScoped: boolean;
+}
+
+let n = 0;
+const unique = (p: string) => `${p} ${process.pid}-${Date.now()}-${++n}`;
+
+export const routes: RouteCase[] = [
+  { name: 'health', method: 'GET', path: '/api/health', access: 'public', ok: 200, body: 'none', objectScoped: false },
+  {
+    name: 'sign up',
+    method: 'POST',
+    path: '/api/auth/signup',
+    access: 'public',
+    ok: 201,
+    body: 'json',
+    valid: () => ({ email: `s-${process.pid}-${++n}@example.test`, password: 'correct-horse-battery', name: 'Signer', teamName: unique('Team') }),
+    objectScoped: false,
+  },
+  {
+    name: 'sign in',
+    method: 'POST',
+    path: '/api/auth/login',
+    access: 'public',
+    ok: 200,
+    body: 'json',
+    valid: (w) => ({ email: w.viewer.user.email, password: 'correct-horse-battery' }),
+    objectScoped: false,
+  },
+  { name: 'sign out', method: 'POST', path: '/api/auth/logout', access: 'public', ok: 204, body: 'none', objectScoped: false },
+  {
+    name: 'request a password reset',
+    method: 'POST',
+    path: '/api/auth/password-reset',
+    access: 'public',
+    ok: 202,
+    body: 'json',
+    valid: () => ({ email: `nobody-${++n}@example.test` }),
+    objectScoped: false,
+  },
+  {
+    name: 'confirm a password reset',
+    method: 'POST',
+    path: '/api/auth/password-reset/confirm',
+    access: 'public',
+    // Only a mailed token makes it succeed; the table's valid body is well-formed but unknown.
+    ok: 400,
+    body: 'json',
+    valid: () => ({ token: 'x'.repeat(43), password: 'correct-horse-battery' }),
+    objectScoped: false,
+  },
+  { name: 'who am I', method: 'GET', path: '/api/me', access: 'session', ok: 200, body: 'none', objectScoped: false },
+  { name: 'preview an invitation', method: 'GET', path: '/api/invitations/:token', access: 'public', ok: 200, body: 'none', objectScoped: false },
+  {
+    name: 'accept an invitation',
+    method: 'POST',
+    path: '/api/invitations/:token/accept',
+    access: 'public',
+    ok: 200,
+    body: 'json',
+    valid: () => ({ name: 'Invitee', password: 'correct-horse-battery' }),
+    fresh: async (w) => ({ token: await newInvitationToken(w) }),
+    objectScoped: false,
+  },
+  { name: 'list members', method: 'GET', path: '/api/teams/:teamId/members', access: 'member', ok: 200, body: 'none', objectScoped: false },
+  {
+    name: 'change a member role',
+    method: 'PATCH',
+    path: '/api/teams/:teamId/members/:userId',
+    access: 'admin',
+    ok: 200,
+    body: 'json',
+    valid: () => ({ role: 'viewer' }),
+    objectScoped: true,
+  },
+  {
+    name: 'remove a member',
+    method: 'DELETE',
+    path: '/api/teams/:teamId/members/:userId',
+    access: 'admin',
+    ok: 204,
+    body: 'none',
+    fresh: async (w) => ({ userId: (await addMember(w.t, w.admin, 'viewer')).user.id }),
+    objectScoped: true,
+  },
+  { name: 'list invitations', method: 'GET', path: '/api/teams/:teamId/invitations', access: 'admin', ok: 200, body: 'none', objectScoped: false },
+  {
+    name: 'invite',
+    method: 'POST',
+    path: '/api/teams/:teamId/invitations',
+    access: 'admin',
+    ok: 201,
+    body: 'json',
+    valid: () => ({ email: `i-${process.pid}-${++n}@example.test`, role: 'viewer' }),
+    objectScoped: false,
+  },
+  {
+    name: 'revoke an invitation',
+    method: 'DELETE',
+    path: '/api/teams/:teamId/invitations/:invitationId',
+    access: 'admin',
+    ok: 204,
+    body: 'none',
+    fresh: async (w) => ({ invitationId: (await newInvitation(w)).id }),
+    objectScoped: true,
+  },
+  { name: 'read the outbox', method: 'GET', path: '/api/teams/:teamId/outbox', access: 'admin', ok: 200, body: 'none', objectScoped: false },
+  { name: 'list image sets', method: 'GET', path: '/api/teams/:teamId/image-sets', access: 'member', ok: 200, body: 'none', objectScoped: false },
+  {
+    name: 'create an image set',
+    method: 'POST',
+    path: '/api/teams/:teamId/image-sets',
+    access: 'engineer',
+    ok: 201,
+    body: 'json',
+    valid: () => ({ name: unique('Set'), description: 'survey leg' }),
+    objectScoped: false,
+  },
+  { name: 'read an image set', method: 'GET', path: '/api/teams/:teamId/image-sets/:setId', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  {
+    name: 'edit an image set',
+    method: 'PATCH',
+    path: '/api/teams/:teamId/image-sets/:setId',
+    access: 'engineer',
+    ok: 200,
+    body: 'json',
+    valid: () => ({ description: unique('notes') }),
+    objectScoped: true,
+  },
+  {
+    name: 'delete an image set',
+    method: 'DELETE',
+    path: '/api/teams/:teamId/image-sets/:setId',
+    access: 'admin',
+    ok: 204,
+    body: 'none',
+    fresh: async (w) => ({ setId: await newSet(w) }),
+    objectScoped: true,
+  },
+  {
+    name: 'upload images',
+    method: 'POST',
+    path: '/api/teams/:teamId/image-sets/:setId/images',
+    access: 'engineer',
+    ok: 201,
+    body: 'multipart',
+    valid: () => pngTile(7),
+    objectScoped: true,
+  },
+  { name: 'list images', method: 'GET', path: '/api/teams/:teamId/image-sets/:setId/images', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  {
+    name: 'split a set',
+    method: 'POST',
+    path: '/api/teams/:teamId/image-sets/:setId/split',
+    access: 'engineer',
+    ok: 200,
+    body: 'json',
+    valid: () => ({ heldOutFraction: 0.34, seed: 9 }),
+    objectScoped: true,
+  },
+  { name: 'read an image', method: 'GET', path: '/api/teams/:teamId/images/:imageId', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  {
+    name: 'change an image role',
+    method: 'PATCH',
+    path: '/api/teams/:teamId/images/:imageId',
+    access: 'engineer',
+    ok: 200,
+    body: 'json',
+    // Scratch images: the shared set's split must stay as the runs saw it.
+    fresh: async (w) => ({ imageId: await newImage(w, w.setId) }),
+    valid: () => ({ role: 'held-out' }),
+    objectScoped: true,
+  },
+  {
+    name: 'delete an image',
+    method: 'DELETE',
+    path: '/api/teams/:teamId/images/:imageId',
+    access: 'admin',
+    ok: 204,
+    body: 'none',
+    fresh: async (w) => ({ imageId: await newImage(w, await newSet(w)) }),
+    objectScoped: true,
+  },
+  { name: 'thumbnail', method: 'GET', path: '/api/teams/:teamId/images/:imageId/thumbnail', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  { name: 'original', method: 'GET', path: '/api/teams/:teamId/images/:imageId/original', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  { name: 'list runs', method: 'GET', path: '/api/teams/:teamId/runs', access: 'member', ok: 200, body: 'none', objectScoped: false },
+  { name: 'start a run', method: 'POST', path: '/api/teams/:teamId/runs', access: 'engineer', ok: 201, body: 'json', valid: (w) => runBody(w), objectScoped: false },
+  { name: 'read a run', method: 'GET', path: '/api/teams/:teamId/runs/:runId', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  {
+    name: 'cancel a run',
+    method: 'POST',
+    path: '/api/teams/:teamId/runs/:runId/cancel',
+    access: 'engineer',
+    ok: 200,
+    body: 'none',
+    fresh: async (w) => ({ runId: await newRun(w) }),
+    objectScoped: true,
+  },
+  { name: 'run events', method: 'GET', path: '/api/teams/:teamId/runs/:runId/events', access: 'member', ok: 200, body: 'event-stream', objectScoped: true },
+  { name: 'run curve', method: 'GET', path: '/api/teams/:teamId/runs/:runId/curve', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  { name: 'run curve as CSV', method: 'GET', path: '/api/teams/:teamId/runs/:runId/curve', access: 'member', ok: 200, body: 'none', query: () => 'format=csv', objectScoped: true },
+  { name: 'run metrics', method: 'GET', path: '/api/teams/:teamId/runs/:runId/metrics', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  { name: 'list codebooks', method: 'GET', path: '/api/teams/:teamId/codebooks', access: 'member', ok: 200, body: 'none', objectScoped: false },
+  { name: 'read a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  { name: 'export a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/export', access: 'engineer', ok: 200, body: 'none', objectScoped: true },
+  {
+    name: 'import a codebook',
+    method: 'POST',
+    path: '/api/teams/:teamId/codebooks/import',
+    access: 'engineer',
+    ok: 201,
+    body: 'json',
+    valid: () => codebookDocument(++n),
+    objectScoped: false,
+  },
+  {
+    name: 'evaluate a codebook',
+    method: 'POST',
+    path: '/api/teams/:teamId/codebooks/:codebookId/evaluate',
+    access: 'engineer',
+    ok: 202,
+    body: 'json',
+    valid: (w) => ({ heldOutImageIds: w.imageIds.slice(0, 2) }),
+    objectScoped: true,
+  },
+  { name: 'codebook evaluations', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/evaluations', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  {
+    name: 'reconstruction',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: () => 'view=info',
+    objectScoped: true,
+  },
+  {
+    name: 'compare runs',
+    method: 'GET',
+    path: '/api/teams/:teamId/compare',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: (w) => `runs=${w.runIds.join(',')}`,
+    // The run ids in the query are the team's objects.
+    objectScoped: true,
+  },
+];
+
+/** The world's value for each path parameter. */
+export function defaultParams(w: World): Record<string, number | string> {
+  return {
+    teamId: w.teamId,
+    setId: w.setId,
+    imageId: w.imageIds[0],
+    runId: w.runIds[0],
+    codebookId: w.codebookId,
+    userId: w.spare.user.id,
+    invitationId: 0,
+    token: w.invitationToken,
+  };
+}
+
+export function fillPath(template: string, params: Record<string, number | string>): string {
+  return template.replace(/:([A-Za-z]+)/g, (_m, key: string) => {
+    if (!(key in params)) throw new Error(`no value for :${key} in ${template}`);
+    return encodeURIComponent(String(params[key]));
+  });
+}
+
+export interface CallResult {
+  status: number;
+  contentType: string;
+  text: string;
+  json: unknown;
+}
+
+/**
+ * Sends one request with fetch; an event stream is read only up to its headers and then dropped, since
+ * a stream on a queued run never ends by itself.
+ */
+export async function call(
+  w: World,
+  route: Pick<RouteCase, 'method' | 'body'>,
+  url: string,
+  options: { token?: string; cookie?: string; json?: unknown; raw?: Buffer | string; contentType?: string; form?: FormData; headers?: Record<string, string> } = {},
+): Promise<CallResult> {
+  const headers: Record<string, string> = { ...(options.headers ?? {}) };
+  if (options.token) headers.Authorization = `Bearer ${options.token}`;
+  if (options.cookie) headers.Cookie = options.cookie;
+  let body: BodyInit | undefined;
+  if (options.form) body = options.form;
+  else if (options.raw !== undefined) {
+    body = typeof options.raw === 'string' ? options.raw : new Uint8Array(options.raw);
+    headers['Content-Type'] = options.contentType ?? 'application/json';
+  } else if (options.json !== undefined) {
+    body = JSON.stringify(options.json);
+    headers['Content-Type'] = 'application/json';
+  }
+  const controller = new AbortController();
+  const res = await fetch(`${w.base}${url}`, { method: route.method, headers, body, signal: controller.signal });
+  const contentType = res.headers.get('content-type') ?? '';
+  if (contentType.startsWith('text/event-stream')) {
+    controller.abort();
+    return { status: res.status, contentType, text: '', json: null };
+  }
+  const text = await res.text();
+  let json: unknown = null;
+  if (contentType.includes('json')) {
+    try {
+      json = JSON.parse(text);
+    } catch {
+      json = undefined;
+    }
+  }
+  return { status: res.status, contentType, text, json };
+}
+
+/** The API's error shape: `{ error: { code, message, details? } }` with a non-empty message. */
+export function isErrorShape(json: unknown): boolean {
+  if (!json || typeof json !== 'object') return false;
+  const e = (json as { error?: unknown }).error as { code?: unknown; message?: unknown } | undefined;
+  if (!e || typeof e !== 'object') return false;
+  const keys = Object.keys(e).filter((k) => k !== 'details');
+  return typeof e.code === 'string' && typeof e.message === 'string' && e.message.length > 0 && keys.every((k) => k === 'code' || k === 'message');
+}
+
+export async function multipartOf(route: RouteCase, w: World): Promise<FormData> {
+  const form = new FormData();
+  const png = (await route.valid!(w)) as Buffer;
+  form.append('files', new Blob([new Uint8Array(png)], { type: 'image/png' }), 'tile.png');
+  return form;
+}
+
+export type Identity = { label: string; token?: string; session?: Session };

@@ -1,0 +1,189 @@
+// A populated studio for the hostile-input and access tests: two teams, every role, a removed member,
+// images, queued runs and an imported codebook, served by the real app on a loopback port.
+import type { AddressInfo } from 'node:net';
+import type { Server } from 'node:http';
+import jwt from 'jsonwebtoken';
+import sharp from 'sharp';
+import request from 'supertest';
+import { makeCodebook, toCodebookDocument } from '../../../server/engine';
+import { seabedSet } from '../../../server/seed/seabed-tiles';
+import { addMember, bearer, createTestApp, signUp, uniqueEmail, type Session, type TestApp } from '../../helpers/api';
+import { linkToken, waitForMail } from '../../helpers/mailbox';
+
+export interface World {
+  t: TestApp;
+  /** http://127.0.0.1:port of the app listening in this process. */
+  base: string;
+  teamId: number;
+  admin: Session;
+  engineer: Session;
+  viewer: Session;
+  /** Was an engineer of the team, then removed by the admin; the account and its token still exist. */
+  removed: Session;
+  /** A viewer the admin may change the role of. */
+  spare: Session;
+  /** Admin of another team. */
+  outsider: Session;
+  setId: number;
+  imageIds: number[];
+  /** Two queued runs (the job runner is never started here, so they stay queued). */
+  runIds: [number, number];
+  codebookId: number;
+  /** A pending invitation's raw token, as its e-mail carries it. */
+  invitationToken: string;
+  /** Ids of the outsider's own team and set, for the "own team id, foreign object id" probes. */
+  outsiderTeamId: number;
+  /** Signed with the server's key but expired a minute ago (RFC 7519 §4.1.4 exp). */
+  expiredToken: string;
+  /** Well-formed HS256 token for a real user, signed with a key the server does not hold. */
+  foreignKeyToken: string;
+  close(): Promise<void>;
+}
+
+export async function pngTile(seed: number, width = 32, height = 24): Promise<Buffer> {
+  const [tile] = seabedSet(seed, 1, width, height);
+  return sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toBuffer();
+}
+
+/** A valid codebook document: 4 codewords of a 4×4 luma patch. */
+export function codebookDocument(seed = 1): ReturnType<typeof toCodebookDocument> {
+  const size = 4;
+  const dimension = 16;
+  const codewords = new Float32Array(size * dimension);
+  for (let i = 0; i < codewords.length; i += 1) codewords[i] = ((i * 37 + seed * 11) % 256) + 0.5;
+  const codebook = makeCodebook({
+    size,
+    dimension,
+    patch: { width: 4, height: 4, channels: 1, color: 'luma' },
+    preprocessing: { kind: 'none' },
+    codewords,
+    usage: Uint32Array.from([5, 4, 3, 2]),
+    training: { source: 'hand-made', vectorCount: 14, init: 'split', epsilon: 0.001, seed: 1, iterations: 1, distortion: 10, trace: [] },
+  });
+  return toCodebookDocument(codebook);
+}
+
+let setCounter = 0;
+export async function newSet(w: Pick<World, 't' | 'teamId' | 'engineer'>, name = `Scratch ${process.pid}-${++setCounter}`): Promise<number> {
+  const res = await request(w.t.app).post(`/api/teams/${w.teamId}/image-sets`).set(bearer(w.engineer)).send({ name });
+  if (res.status !== 201) throw new Error(`set create failed: ${res.status} ${JSON.stringify(res.body)}`);
+  return res.body.imageSet.id as number;
+}
+
+let imageSeed = 1000;
+export async function newImage(w: Pick<World, 't' | 'teamId' | 'engineer'>, setId: number): Promise<number> {
+  const res = await request(w.t.app)
+    .post(`/api/teams/${w.teamId}/image-sets/${setId}/images`)
+    .set(bearer(w.engineer))
+    .attach('files', await pngTile(++imageSeed), `scratch-${imageSeed}.png`);
+  if (res.status !== 201 || res.body.images.length !== 1) throw new Error(`upload failed: ${res.status} ${JSON.stringify(res.body)}`);
+  return res.body.images[0].id as number;
+}
+
+export function runBody(w: Pick<World, 'setId'>, name = `Run ${++setCounter}`) {
+  return { name, trainingSetId: w.setId, heldOutSetId: w.setId, patch: { width: 4, height: 4 }, bits: { from: 1, to: 2 }, maxIterations: 5, seed: 3 };
+}
+
+export async function newRun(w: Pick<World, 't' | 'teamId' | 'engineer' | 'setId'>): Promise<number> {
+  const res = await request(w.t.app).post(`/api/teams/${w.teamId}/runs`).set(bearer(w.engineer)).send(runBody(w));
+  if (res.status !== 201) throw new Error(`run create failed: ${res.status} ${JSON.stringify(res.body)}`);
+  return res.body.run.id as number;
+}
+
+export async function newInvitation(w: Pick<World, 't' | 'teamId' | 'admin'>): Promise<{ id: number; email: string }> {
+  const email = uniqueEmail('invitee');
+  const res = await request(w.t.app).post(`/api/teams/${w.teamId}/invitations`).set(bearer(w.admin)).send({ email, role: 'viewer' });
+  if (res.status !== 201) throw new Error(`invite failed: ${res.status} ${JSON.stringify(res.body)}`);
+  return { id: res.body.invitation.id as number, email };
+}
+
+/** A new pending invitation's raw token, read from its e-mail. */
+export async function newInvitationToken(w: Pick<World, 't' | 'teamId' | 'admin'>): Promise<string> {
+  const invitation = await newInvitation(w);
+  return linkToken(await waitForMail(w.t.db.knex, invitation.email, { subject: /invited/i }), 'invite').token;
+}
+
+export async function buildWorld(env: Record<string, string> = {}): Promise<World> {
+  const t = await createTestApp(env);
+  const admin = await signUp(t.app, { teamName: 'Reef Survey', email: uniqueEmail('admin') });
+  const teamId = admin.teamId;
+  const engineer = await addMember(t, admin, 'engineer');
+  const viewer = await addMember(t, admin, 'viewer');
+  const removed = await addMember(t, admin, 'engineer');
+  const spare = await addMember(t, admin, 'viewer');
+  const gone = await request(t.app).delete(`/api/teams/${teamId}/members/${removed.user.id}`).set(bearer(admin));
+  if (gone.status !== 204) throw new Error(`member removal failed: ${gone.status}`);
+  const outsider = await signUp(t.app, { teamName: 'Other Lab', email: uniqueEmail('outsider') });
+
+  const partial = { t, teamId, engineer, admin };
+  const setId = await newSet(partial, 'Reef tiles');
+  let upload = request(t.app).post(`/api/teams/${teamId}/image-sets/${setId}/images`).set(bearer(engineer));
+  for (let i = 0; i < 6; i += 1) upload = upload.attach('files', await pngTile(40 + i, 48, 32), `reef-${i}.png`);
+  const uploaded = await upload;
+  if (uploaded.status !== 201) throw new Error(`upload failed: ${uploaded.status} ${JSON.stringify(uploaded.body)}`);
+  const imageIds = (uploaded.body.images as { id: number }[]).map((i) => i.id);
+  const split = await request(t.app).post(`/api/teams/${teamId}/image-sets/${setId}/split`).set(bearer(engineer)).send({ heldOutFraction: 0.34, seed: 9 });
+  if (split.status !== 200) throw new Error(`split failed: ${split.status}`);
+
+  const withSet = { ...partial, setId };
+  const runIds: [number, number] = [await newRun(withSet), await newRun(withSet)];
+  const imported = await request(t.app).post(`/api/teams/${teamId}/codebooks/import`).set(bearer(engineer)).send(codebookDocument());
+  if (imported.status !== 201) throw new Error(`import failed: ${imported.status} ${JSON.stringify(imported.body)}`);
+  const codebookId = imported.body.codebook.id as number;
+
+  const invitationToken = await newInvitationToken({ t, teamId, admin });
+
+  // Mail is sent after the response; let it land so later row counts are steady.
+  await t.composition.services.accounts.settle();
+
+  const secret = t.composition.config.jwt.secret;
+  const now = Math.floor(Date.now() / 1000);
+  const expiredToken = jwt.sign({ sub: String(engineer.user.id), tv: 0, iat: now - 7200, exp: now - 60 }, secret, { algorithm: 'HS256', issuer: 'cellwright' });
+  const foreignKeyToken = jwt.sign({ sub: String(admin.user.id), tv: 0 }, 'another-key-that-the-server-never-saw-0123456789', {
+    algorithm: 'HS256',
+    issuer: 'cellwright',
+    expiresIn: 600,
+  });
+
+  const server: Server = await new Promise((resolve) => {
+    const s = t.app.listen(0, '127.0.0.1', () => resolve(s));
+  });
+  const base = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
+
+  return {
+    t,
+    base,
+    teamId,
+    admin,
+    engineer,
+    viewer,
+    removed,
+    spare,
+    outsider,
+    setId,
+    imageIds,
+    runIds,
+    codebookId,
+    invitationToken,
+    outsiderTeamId: outsider.teamId,
+    expiredToken,
+    foreignKeyToken,
+    async close() {
+      server.closeAllConnections();
+      await new Promise<void>((resolve) => server.close(() => resolve()));
+      await t.close();
+    },
+  };
+}
+
+/** Row counts of every table of the app's database, in one round trip. */
+export async function rowCounts(w: Pick<World, 't'>): Promise<Record<string, number>> {
+  const knex = w.t.db.knex;
+  const tables = (await knex('information_schema.tables').where({ table_schema: w.t.db.name, table_type: 'BASE TABLE' }).select('table_name as name')) as {
+    name: string;
+  }[];
+  const names = tables.map((r) => r.name).sort();
+  const union = names.map(() => 'SELECT ? AS t, COUNT(*) AS n FROM ??').join(' UNION ALL ');
+  const [rows] = (await knex.raw(union, names.flatMap((n) => [n, n]))) as [{ t: string; n: number }[]];
+  return Object.fromEntries(rows.map((r) => [r.t, Number(r.n)]));
+}

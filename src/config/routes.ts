@@ -19,6 +19,8 @@ export const paths = {
   teamRun: '/teams/:teamId/runs/:runId',
   teamImportCodebook: '/teams/:teamId/codebooks/import',
   teamCodebook: '/teams/:teamId/codebooks/:codebookId',
+  teamCodebooks: '/teams/:teamId/codebooks',
+  teamCompare: '/teams/:teamId/compare',
 } as const;
 
 type TeamId = number | string;
@@ -42,6 +44,9 @@ export const href = {
   teamRun: (teamId: TeamId, runId: number | string) => `/teams/${teamId}/runs/${runId}`,
   teamImportCodebook: (teamId: TeamId) => `/teams/${teamId}/codebooks/import`,
   teamCodebook: (teamId: TeamId, codebookId: number | string) => `/teams/${teamId}/codebooks/${codebookId}`,
+  teamCodebooks: (teamId: TeamId) => `/teams/${teamId}/codebooks`,
+  /** `runIds` in order: the first is the reference of every pair. */
+  teamCompare: (teamId: TeamId, runIds?: readonly number[]) => `/teams/${teamId}/compare${runIds && runIds.length > 0 ? `?runs=${runIds.join(',')}` : ''}`,
 } as const;
 
 export type TeamNavEntry = {
@@ -71,7 +76,12 @@ export const teamNavigation: readonly TeamNavSection[] = [
   },
   {
     label: 'Studio',
-    entries: [{ label: 'Image sets', to: href.teamImageSets }],
+    entries: [
+      { label: 'Image sets', to: href.teamImageSets },
+      { label: 'Runs', to: href.teamRuns },
+      { label: 'Compare', to: (teamId) => href.teamCompare(teamId) },
+      { label: 'Codebooks', to: href.teamCodebooks },
+    ],
   },
 ];
 

@@ -36,7 +36,7 @@ export function Component() {
         actions={
           <>
             {runs.data && runs.data.length >= 2 && (
-              <Link to={`${href.teamCompare(team.id)}?runs=${runs.data.slice(0, 2).map((r) => r.id).join(',')}`} className={buttonClass('secondary')}>
+              <Link to={href.teamCompare(team.id, runs.data.slice(0, 2).map((r) => r.id))} className={buttonClass('secondary')}>
                 Compare runs
               </Link>
             )}

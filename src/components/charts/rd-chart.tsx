@@ -43,6 +43,21 @@ export type RdChartProps = {
   className?: string;
 };
 
+/**
+ * Reference codecs are measured up to high qualities (several bpp) while VQ sweeps usually stay below 1 bpp; on the
+ * full range the VQ curves shrink into a corner. The focused view spans the VQ rates with room on the right, and the
+ * quality range of every point inside it. Lines beyond the frame are clipped, not dropped.
+ */
+export function focusedExtents(series: RdSeries[]): { x: [number, number]; y: [number, number] } | null {
+  const vq = series.filter((s) => s.kind === 'vq').flatMap((s) => s.points);
+  const xs = finiteExtent(vq.map((p) => p.x));
+  if (!xs) return null;
+  const right = xs[1] * 1.6;
+  const inside = series.flatMap((s) => s.points).filter((p) => p.x <= right);
+  const ys = finiteExtent(inside.map((p) => p.y));
+  return ys ? { x: [0, right], y: ys } : null;
+}
+
 const margin = { top: 16, right: 20, bottom: 46, left: 64 };
 
 type Located = { series: RdSeries; point: RdPoint; px: number; py: number };
@@ -81,9 +96,13 @@ export function RdChart({
   const located = useMemo<Located[]>(
     () =>
       series.flatMap((s) =>
-        s.points.filter((p) => p.y !== null && Number.isFinite(p.y)).map((p) => ({ series: s, point: p, px: x(p.x), py: y(p.y as number) })),
+        s.points
+          .filter((p) => p.y !== null && Number.isFinite(p.y))
+          .map((p) => ({ series: s, point: p, px: x(p.x), py: y(p.y as number) }))
+          // Points outside a focused frame are clipped from view, so they must not stay focusable either.
+          .filter((p) => p.px >= -1 && p.px <= innerWidth + 1 && p.py >= -1 && p.py <= innerHeight + 1),
       ),
-    [series, x, y],
+    [series, x, y, innerWidth, innerHeight],
   );
 
   const path = line<RdPoint>()

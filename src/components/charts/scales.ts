@@ -84,7 +84,7 @@ export function decadeTicks(scale: ScaleLogarithmic<number, number>): Tick[] {
   const ticks: Tick[] = [];
   for (let e = Math.round(Math.log10(lo)); 10 ** e <= hi * 1.0000001; e += 1) {
     const value = 10 ** e;
-    ticks.push({ value, label: e >= -2 && e <= 4 ? trimNumber(value) : `1e${e}` });
+    ticks.push({ value, label: e >= -2 && e <= 5 ? String(Number(value.toPrecision(1))) : `1e${e}` });
   }
   return ticks;
 }

@@ -43,8 +43,16 @@ export function TraceChart({ title, steps, height = 240, className }: { title: s
     .y((s) => y(s.distortion));
   const yTicks = decadeTicks(y);
   const xTicks = linearTicks(x, Math.max(2, Math.floor(innerWidth / 80)), '').filter((t) => Number.isInteger(t.value));
-  // Labelling every size would collide on a narrow axis; keep roughly one label per 36 px.
-  const labelEvery = Math.max(1, Math.ceil(segments.length / Math.max(1, innerWidth / 36)));
+  // A size label is written only where it clears the previous one, so short early segments do not pile up.
+  const labelled = new Set<number>();
+  let lastLabelX = -Infinity;
+  segments.forEach((segment, i) => {
+    const at = x(segment.steps[0].at);
+    if (at - lastLabelX >= 8 + 7 * String(segment.size).length + 14) {
+      labelled.add(i);
+      lastLabelX = at;
+    }
+  });
 
   return (
     <div ref={ref} className={cx('w-full', className)}>
@@ -79,7 +87,7 @@ export function TraceChart({ title, steps, height = 240, className }: { title: s
             return (
               <g key={`${segment.size}-${segment.start}`} data-size={segment.size}>
                 {i > 0 && <line x1={x(first.at)} x2={x(first.at)} y2={innerHeight} stroke="var(--color-ink-200)" strokeDasharray="2 3" aria-hidden="true" />}
-                {i % labelEvery === 0 && (
+                {labelled.has(i) && (
                   <text x={x(first.at) + 3} y={10} className="num fill-ink-600 text-xs" aria-hidden="true">
                     K={segment.size}
                   </text>

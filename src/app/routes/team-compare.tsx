@@ -1,0 +1,169 @@
+import type { QueryClient } from '@tanstack/react-query';
+import { useState } from 'react';
+import { useNavigate, useSearchParams, type LoaderFunctionArgs } from 'react-router-dom';
+import { compareRate, type CompareRate, type CompareResult } from '../../../server/contracts';
+import { href } from '../../config/routes';
+import { messageOf } from '../../lib/api-client';
+import { focusedExtents, RdChart, type RdSeries } from '../../components/charts/rd-chart';
+import { referenceStyles, seriesStyle } from '../../components/charts/series';
+import { Alert } from '../../components/ui/alert';
+import { SelectField } from '../../components/ui/field';
+import { PageHeader } from '../../components/ui/page-header';
+import { Panel } from '../../components/ui/panel';
+import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
+import { comparisonQueryOptions, isComparable, useComparison } from '../../features/compare/api/get-comparison';
+import { candidateRunsQueryOptions, useCandidateRuns } from '../../features/compare/api/list-candidate-runs';
+import { BdTable } from '../../features/compare/components/bd-table';
+import { ConfigDiff } from '../../features/compare/components/config-diff';
+import { RunPicker } from '../../features/compare/components/run-picker';
+import { requireTeam } from '../session';
+import { useCurrentTeam } from '../use-team';
+
+export { RouteError as ErrorBoundary } from './route-error';
+
+/** The selection lives in the URL (?runs=3,5&rate=actual) so a comparison can be shared as a link. */
+function readSelection(params: URLSearchParams): { runIds: number[]; rate: CompareRate } {
+  const runIds = (params.get('runs') ?? '')
+    .split(',')
+    .map((part) => Number(part.trim()))
+    .filter((id, i, all) => Number.isInteger(id) && id > 0 && all.indexOf(id) === i);
+  const rate = compareRate.safeParse(params.get('rate'));
+  return { runIds, rate: rate.success ? rate.data : 'actual' };
+}
+
+export const clientLoader = (queryClient: QueryClient) => async ({ request, params }: LoaderFunctionArgs) => {
+  const { team } = await requireTeam(queryClient, request, params.teamId);
+  const { runIds, rate } = readSelection(new URL(request.url).searchParams);
+  await Promise.all([
+    queryClient.ensureQueryData(candidateRunsQueryOptions(team.id)),
+    // A bad selection is reported on the page, next to the picker that fixes it, not as a failed page.
+    isComparable(runIds) ? queryClient.prefetchQuery(comparisonQueryOptions(team.id, runIds, rate)) : null,
+  ]);
+  return null;
+};
+
+const rateLabels: Record<CompareRate, string> = { fixed: 'Fixed rate', entropy: 'Entropy rate', actual: 'Actual (container) rate' };
+
+function compareSeries(result: CompareResult): RdSeries[] {
+  const series: RdSeries[] = result.runs.map((run, i) => {
+    const style = seriesStyle(i + 1);
+    return {
+      id: `run-${run.id}`,
+      label: run.name,
+      kind: 'vq',
+      color: style.color,
+      dash: style.dash,
+      points: [...run.points].sort((a, b) => a.bits - b.bits).map((p) => ({ x: p.bpp, y: p.psnr, label: `b = ${p.bits}`, target: String(p.codebookId) })),
+    };
+  });
+  // JPEG is measured per held-out list; runs on the same images share one curve.
+  const seen = new Set<string>();
+  for (const run of result.runs) {
+    if (run.jpeg.length === 0 || seen.has(run.heldOutHash)) continue;
+    seen.add(run.heldOutHash);
+    series.push({
+      id: `jpeg-${run.heldOutHash.slice(0, 8)}`,
+      label: result.heldOutMismatch ? `JPEG (images of ${run.name})` : 'JPEG',
+      kind: 'reference',
+      color: referenceStyles.jpeg.color,
+      dash: referenceStyles.jpeg.dash,
+      marker: referenceStyles.jpeg.marker,
+      points: run.jpeg.map((p) => ({ x: p.bpp, y: p.psnr, label: `quality ${p.quality}` })),
+    });
+  }
+  return series;
+}
+
+export function Component() {
+  const navigate = useNavigate();
+  const { team, teamId } = useCurrentTeam();
+  const [params, setParams] = useSearchParams();
+  const { runIds, rate } = readSelection(params);
+  const candidates = useCandidateRuns(teamId);
+  const comparison = useComparison(teamId, runIds, rate);
+  const [fullRange, setFullRange] = useState(false);
+  if (!team) return null;
+
+  const select = (next: { runIds?: number[]; rate?: CompareRate }) => {
+    const query = new URLSearchParams();
+    const ids = next.runIds ?? runIds;
+    if (ids.length > 0) query.set('runs', ids.join(','));
+    query.set('rate', next.rate ?? rate);
+    setParams(query.toString().replace(/%2C/g, ','), { replace: true });
+  };
+
+  const result = isComparable(runIds) ? comparison.data : undefined;
+  const series = result ? compareSeries(result) : [];
+  const focused = focusedExtents(series);
+
+  return (
+    <>
+      <title>{`Compare · ${team.name} · Cellwright`}</title>
+      <PageHeader
+        eyebrow={team.name}
+        title="Compare runs"
+        description="Curves on common axes, configurations side by side, and Bjøntegaard deltas for every pair. The link of this page holds the selection."
+      />
+      <div className="flex flex-col gap-6">
+        <Panel title="Selection" titleId="compare-selection">
+          {candidates.isPending && <LoadingState label="Loading runs…" />}
+          {candidates.isError && <ErrorState message={messageOf(candidates.error)} onRetry={() => void candidates.refetch()} />}
+          {candidates.data && candidates.data.length < 2 && <EmptyState title="Two runs are needed">A comparison needs at least two runs of this team.</EmptyState>}
+          {candidates.data && candidates.data.length >= 2 && (
+            <div className="flex flex-col gap-4">
+              <RunPicker runs={candidates.data} selected={runIds} onChange={(ids) => select({ runIds: ids })} />
+              <SelectField label="Rate definition" value={rate} onChange={(event) => select({ rate: event.target.value as CompareRate })} containerClassName="w-64">
+                {compareRate.options.map((option) => (
+                  <option key={option} value={option}>
+                    {rateLabels[option]}
+                  </option>
+                ))}
+              </SelectField>
+            </div>
+          )}
+        </Panel>
+
+        {!isComparable(runIds) && <Alert>Choose between two and six runs above; the first one chosen is the reference.</Alert>}
+        {isComparable(runIds) && comparison.isPending && <LoadingState label="Comparing…" />}
+        {isComparable(runIds) && comparison.isError && <ErrorState message={messageOf(comparison.error)} onRetry={() => void comparison.refetch()} />}
+
+        {result && (
+          <>
+            {result.heldOutMismatch && (
+              <Alert tone="error" title="These runs were measured on different held-out images">
+                Their curves are not directly comparable, so BD values between them are left out. Each run is still compared with JPEG on its own images.
+              </Alert>
+            )}
+            <Panel
+              title="Rate–distortion"
+              titleId="compare-rd"
+              description={`PSNR against ${rateLabels[result.rate].toLowerCase()}, common axes`}
+              actions={
+                <label className="flex items-center gap-2 text-sm text-ink-700">
+                  <input type="checkbox" className="size-4 accent-ink-800" checked={fullRange} onChange={(event) => setFullRange(event.target.checked)} />
+                  Full JPEG range
+                </label>
+              }
+            >
+              <RdChart
+                title={`PSNR against ${rateLabels[result.rate].toLowerCase()} for ${result.runs.length} runs`}
+                series={series}
+                yLabel="PSNR"
+                yUnit="dB"
+                xExtent={fullRange ? result.axes.bpp : (focused?.x ?? result.axes.bpp)}
+                yExtent={fullRange ? result.axes.psnr : (focused?.y ?? result.axes.psnr)}
+                onSelectPoint={(point) => point.target && navigate(href.teamCodebook(team.id, Number(point.target)))}
+              />
+            </Panel>
+            <Panel title="Bjøntegaard deltas" titleId="compare-bd" description="Negative BD-rate: fewer bits for the same PSNR. Positive BD-PSNR: higher PSNR at the same rate.">
+              <BdTable result={result} />
+            </Panel>
+            <Panel title="Configurations" titleId="compare-config">
+              <ConfigDiff result={result} />
+            </Panel>
+          </>
+        )}
+      </div>
+    </>
+  );
+}

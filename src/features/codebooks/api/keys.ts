@@ -1,0 +1,12 @@
+type TeamId = number;
+
+export const codebookKeys = {
+  all: ['codebooks'] as const,
+  team: (teamId: TeamId) => [...codebookKeys.all, teamId] as const,
+  list: (teamId: TeamId) => [...codebookKeys.team(teamId), 'list'] as const,
+  codebook: (teamId: TeamId, codebookId: number) => [...codebookKeys.team(teamId), 'codebook', codebookId] as const,
+  detail: (teamId: TeamId, codebookId: number) => [...codebookKeys.codebook(teamId, codebookId), 'detail'] as const,
+  evaluations: (teamId: TeamId, codebookId: number) => [...codebookKeys.codebook(teamId, codebookId), 'evaluations'] as const,
+  reconstructionInfo: (teamId: TeamId, codebookId: number, imageId: number) =>
+    [...codebookKeys.codebook(teamId, codebookId), 'reconstruction', imageId, 'info'] as const,
+};

@@ -1,0 +1,34 @@
+import type { RunDetail } from '../../../../server/contracts';
+
+const initLabels = { random: 'random codewords', 'kmeans++': 'k-means++', split: 'LBG splitting' } as const;
+
+/** The normalized configuration the jobs ran with: what a reader needs to reproduce the run. */
+export function RunConfig({ run }: { run: RunDetail }) {
+  const n = run.normalized;
+  const channels = n.color === 'rgb' ? 3 : 1;
+  const dimension = n.patch.width * n.patch.height * channels;
+  const rows: Array<[string, string]> = [
+    ['Patch', `${n.patch.width}×${n.patch.height} ${n.color}`],
+    ['Vector dimension', String(dimension)],
+    ['Index bits b', n.bits.from === n.bits.to ? String(n.bits.from) : `${n.bits.from} … ${n.bits.to}`],
+    ['Codebook sizes', n.sizes.join(', ')],
+    ['Mean removal', n.meanBits === 0 ? 'none' : `${n.meanBits}-bit block mean`],
+    ['Initialisation', initLabels[n.init]],
+    ['ε (relative)', String(n.epsilon)],
+    ['Max. iterations', String(n.maxIterations)],
+    ['Vector cap', n.maxVectors.toLocaleString('en-GB')],
+    ['Seed', String(n.seed)],
+    ['Training images', String(n.trainingImageIds.length)],
+    ['Held-out images', String(n.heldOutImageIds.length)],
+  ];
+  return (
+    <dl className="grid grid-cols-[auto_1fr] gap-x-4 gap-y-1.5 text-sm">
+      {rows.map(([label, value]) => (
+        <div key={label} className="contents">
+          <dt className="text-ink-600">{label}</dt>
+          <dd className="num text-ink-900">{value}</dd>
+        </div>
+      ))}
+    </dl>
+  );
+}

@@ -18,12 +18,14 @@ export default defineConfig({
     proxy: { '/api': 'http://127.0.0.1:8420' },
   },
   test: {
-    // Projects split by what they need: pure code, a database, a DOM, a real browser.
+    // Projects split by what they need: pure code, a DOM, a database, a real browser. They run one
+    // group after another (groupOrder), so a two-core machine is never asked to run all four at once.
     projects: [
       {
         extends: true,
         test: {
           name: 'unit',
+          sequence: { groupOrder: 0 },
           include: ['tests/unit/**/*.test.ts', 'tests/reference/**/*.test.ts'],
           environment: 'node',
           testTimeout: 120_000,
@@ -33,6 +35,7 @@ export default defineConfig({
         extends: true,
         test: {
           name: 'api',
+          sequence: { groupOrder: 2 },
           include: ['tests/api/**/*.test.ts', 'tests/migrations/**/*.test.ts'],
           environment: 'node',
           testTimeout: 120_000,
@@ -45,6 +48,7 @@ export default defineConfig({
         extends: true,
         test: {
           name: 'client',
+          sequence: { groupOrder: 1 },
           include: ['tests/client/**/*.test.{ts,tsx}'],
           environment: 'jsdom',
           testTimeout: 30_000,
@@ -54,6 +58,7 @@ export default defineConfig({
         extends: true,
         test: {
           name: 'browser',
+          sequence: { groupOrder: 3 },
           include: ['tests/browser/**/*.test.ts'],
           environment: 'node',
           testTimeout: 180_000,

@@ -1,0 +1,222 @@
+// Benchmark of the numeric core (not a test): seconds per Lloyd iteration against
+// ml-kmeans and, where importable, scikit-learn, on real photographs, plus encoding
+// throughput. Run: node --import tsx scripts/bench.ts   (npm run bench)
+import { spawnSync } from 'node:child_process';
+import { existsSync, mkdtempSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import sharp from 'sharp';
+import { kmeansGenerator } from 'ml-kmeans';
+import { assign, createRng, shutdownEngineWorkers, threadBudget, train } from '../server/engine/core/index';
+
+const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
+const imageDir = path.join(root, 'data', 'test-images');
+const N = 100_000;
+const ITERATIONS = 10;
+const ML_ITERATIONS = 3; // ml-kmeans takes seconds per iteration; its figure is per iteration too
+
+/** Process CPU seconds, all threads (workers included). */
+const cpuNow = () => {
+  const u = process.cpuUsage();
+  return (u.user + u.system) / 1e6;
+};
+const median = (xs: number[]) => {
+  const s = [...xs].sort((a, b) => a - b);
+  return s.length % 2 ? s[(s.length - 1) / 2] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
+};
+interface Timing { wall: number; cpu: number; iterations: number }
+
+interface Luma { width: number; height: number; data: Float32Array }
+
+async function loadImages(): Promise<Array<{ name: string; luma: Luma }>> {
+  // Idempotent: returns at once when every image is already there.
+  const r = spawnSync('bash', [path.join(root, 'scripts', 'fetch-test-images.sh')], { stdio: ['ignore', 'ignore', 'inherit'] });
+  if (r.status !== 0 || !existsSync(imageDir)) throw new Error('could not fetch the test images (scripts/fetch-test-images.sh)');
+  const files = readdirSync(imageDir).filter((f) => /\.(png|jpe?g)$/i.test(f)).sort();
+  const out = [];
+  for (const f of files) {
+    const { data, info } = await sharp(path.join(imageDir, f)).removeAlpha().toColourspace('srgb').raw()
+      .toBuffer({ resolveWithObject: true });
+    const luma = new Float32Array(info.width * info.height);
+    const ch = info.channels;
+    for (let p = 0; p < luma.length; p++) {
+      // BT.601 luma (ITU-R BT.601): 0.299 R + 0.587 G + 0.114 B; grey images repeat one channel.
+      luma[p] = ch >= 3 ? 0.299 * data[p * ch] + 0.587 * data[p * ch + 1] + 0.114 * data[p * ch + 2] : data[p * ch];
+    }
+    out.push({ name: f, luma: { width: info.width, height: info.height, data: luma } });
+  }
+  return out;
+}
+
+/** All size × size patches at the given stride, row-major within each patch. */
+function patches(images: Luma[], size: number, stride: number): Float32Array {
+  let count = 0;
+  for (const im of images) {
+    count += (Math.floor((im.width - size) / stride) + 1) * (Math.floor((im.height - size) / stride) + 1);
+  }
+  const d = size * size;
+  const out = new Float32Array(count * d);
+  let o = 0;
+  for (const im of images) {
+    for (let y = 0; y + size <= im.height; y += stride) {
+      for (let x = 0; x + size <= im.width; x += stride) {
+        for (let r = 0; r < size; r++) {
+          for (let c = 0; c < size; c++) out[o++] = im.data[(y + r) * im.width + x + c];
+        }
+      }
+    }
+  }
+  return out;
+}
+
+/** N patches: the smallest stride giving at least N, then a seeded sample of exactly N. */
+function trainingSet(images: Luma[], size: number): { vectors: Float32Array; stride: number } {
+  let stride = size;
+  let all = patches(images, size, stride);
+  while (all.length / (size * size) < N && stride > 1) {
+    stride--;
+    all = patches(images, size, stride);
+  }
+  const d = size * size;
+  const total = all.length / d;
+  const rng = createRng(2026);
+  const order = Uint32Array.from({ length: total }, (_, i) => i);
+  for (let i = 0; i < N; i++) {
+    const j = i + rng.nextInt(total - i);
+    [order[i], order[j]] = [order[j], order[i]];
+  }
+  const vectors = new Float32Array(N * d);
+  for (let i = 0; i < N; i++) vectors.set(all.subarray(order[i] * d, (order[i] + 1) * d), i * d);
+  return { vectors, stride };
+}
+
+function findPython(): string | undefined {
+  for (const candidate of [process.env.PYTHON, 'python3', '/usr/bin/python3'].filter(Boolean) as string[]) {
+    const r = spawnSync(candidate, ['-c', 'import sklearn, numpy'], { stdio: 'ignore' });
+    if (r.status === 0) return candidate;
+  }
+  return undefined;
+}
+
+/** .npy version 1.0 (NumPy format specification), little-endian float32, C order. */
+function npy(data: Float32Array, rows: number, cols: number): Buffer {
+  let header = `{'descr': '<f4', 'fortran_order': False, 'shape': (${rows}, ${cols}), }`;
+  const pad = 64 - ((10 + header.length + 1) % 64);
+  header += ' '.repeat(pad % 64) + '\n';
+  const head = Buffer.alloc(10);
+  head.write('\x93NUMPY', 0, 'latin1');
+  head[6] = 1;
+  head[7] = 0;
+  head.writeUInt16LE(header.length, 8);
+  return Buffer.concat([head, Buffer.from(header, 'latin1'), Buffer.from(data.buffer, data.byteOffset, data.byteLength)]);
+}
+
+function sklearnPerIteration(python: string, vectors: Float32Array, init: Float32Array, d: number, k: number): Timing {
+  const dir = mkdtempSync(path.join(os.tmpdir(), 'cw-bench-'));
+  try {
+    writeFileSync(path.join(dir, 'x.npy'), npy(vectors, vectors.length / d, d));
+    writeFileSync(path.join(dir, 'c.npy'), npy(init, k, d));
+    const script = [
+      'import sys, time, numpy as np',
+      'from sklearn.cluster import KMeans',
+      `x = np.load(sys.argv[1]); c = np.load(sys.argv[2])`,
+      `km = KMeans(n_clusters=${k}, algorithm="lloyd", n_init=1, init=c, tol=0, max_iter=${ITERATIONS})`,
+      't = time.perf_counter(); p = time.process_time(); km.fit(x)',
+      'dt = time.perf_counter() - t; dp = time.process_time() - p',
+      'print(dt / km.n_iter_, dp / km.n_iter_, km.n_iter_)',
+    ].join('\n');
+    const r = spawnSync(python, ['-c', script, path.join(dir, 'x.npy'), path.join(dir, 'c.npy')], { encoding: 'utf8' });
+    if (r.status !== 0) throw new Error(`scikit-learn run failed: ${r.stderr.trim().split('\n').pop()}`);
+    const [wall, cpu, iterations] = r.stdout.trim().split(/\s+/).map(Number);
+    return { wall, cpu, iterations };
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+}
+
+async function main() {
+  const images = await loadImages();
+  const lumas = images.map((i) => i.luma);
+  const python = findPython();
+  console.log(`cellwright engine benchmark — ${images.length} images (${images.map((i) => i.name).join(', ')})`);
+  console.log(`threads: ${threadBudget.total} (os.availableParallelism ${os.availableParallelism()}); N = ${N} vectors; ${ITERATIONS} Lloyd iterations\n`);
+
+  const rows: string[][] = [];
+  let book8: Float32Array | undefined;
+  for (const [size, k] of [[8, 256], [4, 1024]] as const) {
+    const d = size * size;
+    const { vectors, stride } = trainingSet(lumas, size);
+    const start = (await train(vectors, d, { k, init: 'random', seed: 1, maxIterations: 0 })).codebooks[0].codewords;
+
+    // Ours: wall time of each iteration from the trace (median, robust to other load on
+    // the machine) and process CPU time between iterations 1 and the last.
+    const cpuAt: number[] = [];
+    const t0 = performance.now();
+    const ours = await train(vectors, d, {
+      k, init: 'random', initialCodewords: start, epsilon: 0, maxIterations: ITERATIONS,
+      onIteration: () => cpuAt.push(cpuNow()),
+    });
+    const wall = (performance.now() - t0) / 1000;
+    const book = ours.codebooks[0];
+    const mine: Timing = {
+      wall: median(book.trace.slice(1).map((t) => t.elapsedMs / 1000)),
+      cpu: (cpuAt[cpuAt.length - 1] - cpuAt[0]) / (cpuAt.length - 1),
+      iterations: book.iterations,
+    };
+    const redecided = book.trace.reduce((s, t) => s + (t.redecided ?? 0), 0) / book.trace.length;
+    if (size === 8) book8 = book.codewords;
+
+    // ml-kmeans: the generator yields after every iteration, so each one is timed alone.
+    const data = Array.from({ length: N }, (_, v) => Array.from(vectors.subarray(v * d, (v + 1) * d)));
+    const centers = Array.from({ length: k }, (_, j) => Array.from(start.subarray(j * d, (j + 1) * d)));
+    const mlWall: number[] = [];
+    const mlCpu: number[] = [];
+    let tw = performance.now();
+    let tc = cpuNow();
+    for (const _step of kmeansGenerator(data, k, { initialization: centers, maxIterations: ML_ITERATIONS, tolerance: -1 })) {
+      mlWall.push((performance.now() - tw) / 1000);
+      mlCpu.push(cpuNow() - tc);
+      tw = performance.now();
+      tc = cpuNow();
+    }
+    const ml: Timing = { wall: median(mlWall), cpu: median(mlCpu), iterations: mlWall.length };
+
+    let sk: Timing | undefined;
+    if (python) sk = sklearnPerIteration(python, vectors, start, d, k);
+    const fmt = (t: Timing) => `${t.wall.toFixed(4)} s/it wall, ${t.cpu.toFixed(4)} s/it CPU (${t.iterations} its)`;
+    const ratio = (a: Timing, b: Timing) => `${(a.wall / b.wall).toFixed(1)}× wall, ${(a.cpu / b.cpu).toFixed(1)}× CPU`;
+    rows.push([
+      `${size}×${size} (d=${d}), K=${k}, stride ${stride}`,
+      `${fmt(mine)}; run wall ${wall.toFixed(2)} s; ~${Math.round(redecided)} exact re-decisions/pass`,
+      fmt(ml),
+      ratio(ml, mine),
+      sk ? fmt(sk) : 'skipped (python3 with scikit-learn not importable)',
+      sk ? ratio(sk, mine) : '—',
+      `D = ${book.distortion.toFixed(3)}`,
+    ]);
+  }
+  const header = ['case', 'cellwright', 'ml-kmeans', 'speed-up vs ml-kmeans', 'scikit-learn lloyd', 'speed-up vs sklearn', 'MSE/component'];
+  for (const r of rows) {
+    console.log(r.map((c, i) => `${header[i].padEnd(22)} ${c}`).join('\n'));
+    console.log();
+  }
+
+  // Encoding: nearest codeword of every non-overlapping 8×8 block of every image.
+  const blocks = patches(lumas, 8, 8);
+  const pixels = blocks.length;
+  await assign(blocks, 64, book8!); // warm-up: workers started, kernel compiled
+  const reps = 3;
+  const t2 = performance.now();
+  for (let i = 0; i < reps; i++) await assign(blocks, 64, book8!);
+  const secs = (performance.now() - t2) / 1000 / reps;
+  console.log(`encoding 8×8, K=256: ${(pixels / 64).toLocaleString('en')} blocks, ${(pixels / 1e6).toFixed(2)} Mpx in ${secs.toFixed(3)} s → ${(pixels / 1e6 / secs).toFixed(1)} Mpx/s`);
+  console.log('\nnote: the cores are shared with other work on this machine; figures may be noisy.');
+}
+
+main()
+  .catch((err) => {
+    process.stderr.write(`bench: ${err instanceof Error ? err.message : String(err)}\n`);
+    process.exitCode = 1;
+  })
+  .finally(() => shutdownEngineWorkers());

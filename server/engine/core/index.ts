@@ -1,0 +1,174 @@
+// Public API of the numeric core: validation happens here, once; the kernels behind it
+// trust their input.
+import { accumulateCentroids } from './accumulate-centroids';
+import { EngineError, abortError, throwIfAborted } from './errors';
+import { initKmeansPlusPlus, initRandom } from './init';
+import { runLloyd, type LloydContext } from './lloyd';
+import { createRng } from './rng';
+import { splitCodebook } from './split';
+import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook } from './types';
+import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from './validate';
+import { NearestSearch } from '../parallel/nearest-search';
+import { NearestKernel } from '../wasm/kernel';
+
+export type {
+  Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook,
+} from './types';
+export { createRng, type Rng } from './rng';
+export { EngineError, type EngineErrorCode } from './errors';
+export { exactDistance, bruteForceAssign } from './exact-distance';
+export { threadBudget, ThreadBudget, shutdownEngineWorkers, engineWorkerStats } from '../parallel/index';
+
+export const DEFAULT_EPSILON = 1e-4;
+export const DEFAULT_MAX_ITERATIONS = 100;
+export const DEFAULT_SEED = 1;
+export const DEFAULT_SPLIT_DELTA = 0.01;
+/** Largest codebook the engine accepts (2^24; b = 14 needs 2^14). */
+export const MAX_K = 1 << 24;
+
+const INITS: readonly InitMethod[] = ['random', 'kmeans++', 'split'];
+
+/**
+ * Trains codebooks on vectors (N × d, row-major) by the generalized Lloyd algorithm.
+ * Fails with ENGINE_TOO_FEW_VECTORS when N < k and ENGINE_TOO_FEW_DISTINCT_VECTORS when
+ * fewer than k distinct vectors exist, before any work is done.
+ */
+export async function train(vectors: Float32Array, dimension: number, options: TrainOptions): Promise<TrainResult> {
+  const n = checkVectors(vectors, dimension);
+  const d = dimension;
+  if (options === null || typeof options !== 'object') {
+    throw new EngineError('ENGINE_INVALID_INPUT', 'options must be an object');
+  }
+  const k = checkInteger('k', options.k, 1, MAX_K);
+  if (!INITS.includes(options.init)) {
+    throw new EngineError('ENGINE_INVALID_INPUT', `init must be one of ${INITS.join(', ')}`, { init: options.init });
+  }
+  const epsilon = options.epsilon === undefined ? DEFAULT_EPSILON : checkNumber('epsilon', options.epsilon, 0, 1);
+  const maxIterations = options.maxIterations === undefined
+    ? DEFAULT_MAX_ITERATIONS
+    : checkInteger('maxIterations', options.maxIterations, 0, 1_000_000);
+  const seed = options.seed === undefined ? DEFAULT_SEED : checkInteger('seed', options.seed, -(2 ** 53) + 1);
+  const delta = options.splitDelta === undefined
+    ? DEFAULT_SPLIT_DELTA
+    : checkNumber('splitDelta', options.splitDelta, 0, 1, true);
+  if (options.threads !== undefined) checkInteger('threads', options.threads, 1, 1024);
+  if (options.initialCodewords !== undefined) {
+    checkVectors(options.initialCodewords, d, 'initialCodewords');
+    if (options.initialCodewords.length !== k * d) {
+      throw new EngineError('ENGINE_INVALID_INPUT', `initialCodewords must hold k × d = ${k * d} values`, {
+        length: options.initialCodewords.length,
+      });
+    }
+  }
+  if (n < k) {
+    throw new EngineError('ENGINE_TOO_FEW_VECTORS', `${n} training vectors cannot fill ${k} codewords`, { vectors: n, k });
+  }
+  const distinct = countDistinctUpTo(vectors, d, k);
+  if (distinct < k) {
+    throw new EngineError(
+      'ENGINE_TOO_FEW_DISTINCT_VECTORS',
+      `the training set has only ${distinct} distinct vectors, fewer than ${k} codewords`,
+      { distinct, k },
+    );
+  }
+  const { signal } = options;
+  throwIfAborted(signal);
+
+  const split = options.init === 'split' && !options.initialCodewords;
+  const sizes: number[] = [];
+  if (split) {
+    for (let s = 1; s < k; s *= 2) sizes.push(s);
+    sizes.push(k);
+  } else {
+    sizes.push(k);
+  }
+  // Cost of one pass grows with the codebook size, so progress weights sizes by it.
+  const totalWeight = sizes.reduce((s, x) => s + x, 0);
+  let doneWeight = 0;
+
+  const search = await NearestSearch.open(vectors, d, { threads: options.threads, signal, maxK: k });
+  try {
+    const ctx: LloydContext = {
+      vectors, d, n, search, epsilon, maxIterations, signal,
+      onIteration: options.onIteration,
+      progress: options.onProgress
+        ? (size, iteration, distortion) => {
+            const within = maxIterations > 0 ? Math.min(1, iteration / maxIterations) : 1;
+            options.onProgress!({
+              size, targetSize: k, iteration, distortion,
+              fraction: Math.min(1, (doneWeight + size * within) / totalWeight),
+            });
+          }
+        : undefined,
+    };
+    const codebooks: TrainedCodebook[] = [];
+    if (!split) {
+      let start: Float32Array;
+      const rng = createRng(seed);
+      if (options.initialCodewords) start = options.initialCodewords.slice();
+      else if (options.init === 'random') start = initRandom(vectors, d, k, rng);
+      else start = await initKmeansPlusPlus(vectors, d, k, rng, signal);
+      throwIfAborted(signal);
+      codebooks.push(await runLloyd(ctx, start, k));
+    } else {
+      const centroid = new Float32Array(d);
+      accumulateCentroids(vectors, d, new Uint32Array(n), centroid, 1);
+      let book = await runLloyd(ctx, centroid, 1);
+      codebooks.push(book);
+      doneWeight += 1;
+      for (let i = 1; i < sizes.length; i++) {
+        throwIfAborted(signal);
+        const start = splitCodebook(book, d, sizes[i], delta);
+        book = await runLloyd(ctx, start, sizes[i]);
+        codebooks.push(book);
+        doneWeight += sizes[i];
+      }
+    }
+    const last = codebooks[codebooks.length - 1];
+    options.onProgress?.({
+      size: last.size, targetSize: k, iteration: last.iterations, distortion: last.distortion, fraction: 1,
+    });
+    return { dimension: d, vectorCount: n, codebooks };
+  } catch (err) {
+    if (signal?.aborted && !(err instanceof EngineError)) throw abortError(signal);
+    throw err;
+  } finally {
+    search.close();
+  }
+}
+
+function checkCodebook(codewords: Float32Array, d: number): number {
+  return checkVectors(codewords, d, 'codewords');
+}
+
+/** Nearest codeword of each vector (exact; ties to the lowest index) on the budget's threads. */
+export async function assign(
+  vectors: Float32Array, dimension: number, codewords: Float32Array,
+  options: { threads?: number; signal?: AbortSignal } = {},
+): Promise<Assignment> {
+  checkVectors(vectors, dimension);
+  const k = checkCodebook(codewords, dimension);
+  if (options.threads !== undefined) checkInteger('threads', options.threads, 1, 1024);
+  throwIfAborted(options.signal);
+  const search = await NearestSearch.open(vectors, dimension, { ...options, maxK: k });
+  try {
+    await search.run(codewords, k, options.signal);
+    return { indices: search.indices, distances: search.distances };
+  } finally {
+    search.close();
+  }
+}
+
+let syncKernel: NearestKernel | undefined;
+
+/** Same results as assign(), on the calling thread. */
+export function assignSync(vectors: Float32Array, dimension: number, codewords: Float32Array): Assignment {
+  const n = checkVectors(vectors, dimension);
+  const k = checkCodebook(codewords, dimension);
+  syncKernel ??= new NearestKernel();
+  syncKernel.setCodebook(codewords, k, dimension);
+  const indices = new Uint32Array(n);
+  const distances = new Float64Array(n);
+  syncKernel.assignRange(vectors, 0, n, indices, distances);
+  return { indices, distances };
+}

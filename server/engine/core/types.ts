@@ -1,0 +1,78 @@
+export type InitMethod = 'random' | 'kmeans++' | 'split';
+
+export interface IterationStat {
+  size: number;
+  /** 0 is the starting codebook; n is the codebook after the n-th centroid update. */
+  iteration: number;
+  /** Mean squared error per vector component, from exact float64 distances. */
+  distortion: number;
+  /** Empty cells re-seeded before the centroid update that produced this codebook. */
+  emptyRepaired: number;
+  elapsedMs: number;
+  /** Vectors whose nearest codeword was re-decided by the exact search (near-ties). */
+  redecided?: number;
+  /** Vectors searched in full; the others kept their codeword by the bound test. */
+  searched?: number;
+}
+
+export interface TrainProgress {
+  size: number;
+  targetSize: number;
+  iteration: number;
+  distortion: number;
+  /** 0..1 over the whole run, weighting each codebook size by its cost. */
+  fraction: number;
+}
+
+export interface TrainOptions {
+  /** Codebook size (2^b for b in 0..14, or any explicit K ≥ 1). */
+  k: number;
+  init: InitMethod;
+  /** Stop when (D_prev − D)/D < epsilon; default 1e-4. */
+  epsilon?: number;
+  /** Centroid updates per codebook size; default 100. */
+  maxIterations?: number;
+  /** Default 1. */
+  seed?: number;
+  /**
+   * LBG splitting: each codeword c becomes c ± δσ·(1, …, 1), σ the RMS error per component
+   * of its cell. Default 0.01: small enough to start both halves inside the parent cell.
+   */
+  splitDelta?: number;
+  /** K × d, row-major: when given, initialisation is skipped and one codebook is trained. */
+  initialCodewords?: Float32Array;
+  /** Default: what the shared thread budget grants. */
+  threads?: number;
+  /** Checked between iterations (and between chunks of a pass); rejects with an AbortError. */
+  signal?: AbortSignal;
+  onProgress?: (p: TrainProgress) => void;
+  onIteration?: (s: IterationStat) => void;
+}
+
+export interface TrainedCodebook {
+  size: number;
+  /** size × d, row-major. */
+  codewords: Float32Array;
+  /** Training vectors per cell. */
+  usage: Uint32Array;
+  /** Total squared error per cell on the training vectors. */
+  cellDistortion: Float64Array;
+  /** Mean squared error per vector component on the training vectors. */
+  distortion: number;
+  /** Centroid updates performed. */
+  iterations: number;
+  trace: IterationStat[];
+}
+
+export interface TrainResult {
+  dimension: number;
+  vectorCount: number;
+  /** split: sizes 1, 2, 4, … up to k (k last if not a power of two); otherwise one codebook. */
+  codebooks: TrainedCodebook[];
+}
+
+export interface Assignment {
+  indices: Uint32Array;
+  /** Exact squared distance per vector, float64 accumulation. */
+  distances: Float64Array;
+}

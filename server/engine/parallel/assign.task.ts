@@ -1,0 +1,85 @@
+// Worker entry point: runs the nearest-codeword kernel over chunks of a shared vector set.
+// Chunks are claimed with an atomic counter, so any worker may take any chunk; each vector's
+// result depends only on the vector, its own bounds and the codebook, so the output is the
+// same whichever worker computes it and however many there are.
+import { parentPort } from 'node:worker_threads';
+import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
+import type { AccumulateJob, AssignJob, AssignReply, WorkerJob } from './messages';
+
+if (!parentPort) throw new Error('assign.task.ts must run in a worker thread');
+const port = parentPort;
+const kernel = new NearestKernel();
+
+/**
+ * Float64 sums of the vectors of the owned cells, in vector order: the same additions in
+ * the same order as a single-threaded pass, so the centroids are bit-identical.
+ */
+function accumulate(job: AccumulateJob): void {
+  const { d, n, cellStart, cellEnd } = job;
+  const vectors = new Float32Array(job.vectors, job.vectorsByteOffset, n * d);
+  const indices = new Uint32Array(job.indices, 0, n);
+  const sums = new Float64Array(job.sums);
+  sums.fill(0, cellStart * d, cellEnd * d);
+  for (let v = 0; v < n; v++) {
+    const j = indices[v];
+    if (j < cellStart || j >= cellEnd) continue;
+    const so = j * d;
+    const vo = v * d;
+    for (let i = 0; i < d; i++) sums[so + i] += vectors[vo + i];
+  }
+}
+
+port.on('message', (message: WorkerJob) => {
+  if (message.kind === 'accumulate') {
+    try {
+      accumulate(message);
+      port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0 } satisfies AssignReply);
+    } catch (err) {
+      const error = err instanceof Error ? err.message : String(err);
+      port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0, error } satisfies AssignReply);
+    }
+    return;
+  }
+  const job: AssignJob = message;
+  let redecided = 0;
+  let searched = 0;
+  try {
+    const vectors = new Float32Array(job.vectors, job.vectorsByteOffset, job.n * job.d);
+    const codewords = new Float32Array(job.codewords, 0, job.k * job.d);
+    const state: SearchState = {
+      indices: new Uint32Array(job.indices, 0, job.n),
+      distances: new Float64Array(job.distances, 0, job.n),
+      lower: new Float64Array(job.lower, 0, job.n),
+    };
+    const drift: Drift | undefined = job.drift && {
+      moved: new Float64Array(job.drift.moved),
+      max: job.drift.max,
+      argMax: job.drift.argMax,
+      second: job.drift.second,
+    };
+    const control = new Int32Array(job.control);
+    kernel.setCodebook(codewords, job.k, job.d);
+    for (;;) {
+      if (Atomics.load(control, 1) !== 0) break; // cancelled: stop after the current chunk
+      const chunk = Atomics.add(control, 0, 1);
+      const start = chunk * job.chunkSize;
+      if (start >= job.n) break;
+      const end = Math.min(job.n, start + job.chunkSize);
+      if (drift) {
+        const r = kernel.assignBounded(vectors, start, end, state, drift);
+        redecided += r.redecided;
+        searched += r.searched;
+      } else {
+        redecided += kernel.assignRange(vectors, start, end, state.indices, state.distances, state.lower);
+        searched += end - start;
+      }
+    }
+    const reply: AssignReply = { jobId: job.jobId, redecided, searched };
+    port.postMessage(reply);
+  } catch (err) {
+    const reply: AssignReply = {
+      jobId: job.jobId, redecided, searched, error: err instanceof Error ? err.message : String(err),
+    };
+    port.postMessage(reply);
+  }
+});

@@ -1,0 +1,40 @@
+/** One pass of nearest search handed to a worker; every buffer is shared, nothing is copied. */
+export interface AssignJob {
+  jobId: number;
+  vectors: SharedArrayBuffer; // N × d f32 starting at vectorsByteOffset
+  vectorsByteOffset: number;
+  n: number;
+  d: number;
+  codewords: SharedArrayBuffer; // K × d f32, row-major
+  k: number;
+  indices: SharedArrayBuffer; // N u32, written (read too in a bounded pass)
+  distances: SharedArrayBuffer; // N f64, written
+  lower: SharedArrayBuffer; // N f64, lower bounds, written (read too in a bounded pass)
+  control: SharedArrayBuffer; // Int32 [next chunk, cancel flag]
+  chunkSize: number;
+  /** Present for a bounded pass: K f64 codeword moves and their summary. */
+  drift?: { moved: SharedArrayBuffer; max: number; argMax: number; second: number };
+}
+
+/** Centroid sums of the cells [cellStart, cellEnd): each worker owns whole cells. */
+export interface AccumulateJob {
+  jobId: number;
+  kind: 'accumulate';
+  vectors: SharedArrayBuffer; // N × d f32 starting at vectorsByteOffset
+  vectorsByteOffset: number;
+  n: number;
+  d: number;
+  indices: SharedArrayBuffer; // N u32, read
+  sums: SharedArrayBuffer; // K × d f64, rows of the owned cells written
+  cellStart: number;
+  cellEnd: number;
+}
+
+export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob;
+
+export interface AssignReply {
+  jobId: number;
+  redecided: number;
+  searched: number;
+  error?: string;
+}

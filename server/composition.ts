@@ -25,6 +25,7 @@ import { createJobNotifier } from './jobs/notifications';
 import { createTaskPool, type TaskPool } from './jobs/pool';
 import type { JobQueue } from './jobs/queue';
 import { createJobRunner, type JobRunner } from './jobs/runner';
+import { threadBudget } from './engine';
 import type { AppDeps } from './app';
 
 export interface Composition extends AppDeps {
@@ -40,6 +41,8 @@ export interface Composition extends AppDeps {
 /** Builds every repository and service once; the app, the seed and the tests share these instances. */
 export function compose(config: Config, options: { logger?: Logger; db?: Database } = {}): Composition {
   const logger = options.logger ?? createLogger(config.logLevel);
+  // One thread budget for everything the engine runs in this process, sized once from ENGINE_THREADS.
+  threadBudget.configure(config.engineThreads);
   const db =
     options.db ??
     createDatabase(config.db, undefined, {

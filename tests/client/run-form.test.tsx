@@ -4,7 +4,7 @@ import userEvent from '@testing-library/user-event';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import type { Image, ImageSet, RunDetail } from '../../server/contracts';
 import { RunForm } from '../../src/features/run-setup/components/run-form';
-import { emptyRunForm, type RunFormValues } from '../../src/features/run-setup/run-form-schema';
+import { emptyRunForm, fromRunConfig, type RunFormValues } from '../../src/features/run-setup/run-form-schema';
 import { createQueryClient } from '../../src/lib/query-client';
 import { sendJson, setPageOrigin, startHttpServer } from './support/http-server';
 
@@ -224,6 +224,28 @@ describe('new run form', () => {
       maxVectors: 200_000,
       seed: 1,
     });
+  });
+
+  it("copies a stored run's configuration into the form for running it again with changes", () => {
+    const values = fromRunConfig(
+      { name: 'Kelp rgb', trainingImageIds: [1, 2], heldOutSetId: 20, patch: { width: 8, height: 4 }, color: 'rgb', meanBits: 3, bits: { from: 2, to: 5 }, init: 'kmeans++', seed: 42 },
+      'Kelp rgb (changed)',
+    );
+    renderForm(values);
+    expect((screen.getByLabelText('Name') as HTMLInputElement).value).toBe('Kelp rgb (changed)');
+    expect((screen.getByLabelText('Width (px)') as HTMLInputElement).value).toBe('8');
+    expect((screen.getByLabelText('Height (px)') as HTMLInputElement).value).toBe('4');
+    expect((screen.getByRole('radio', { name: /RGB/ }) as HTMLInputElement).checked).toBe(true);
+    expect((screen.getByLabelText('Lowest b') as HTMLInputElement).value).toBe('2');
+    expect((screen.getByLabelText('Highest b') as HTMLInputElement).value).toBe('5');
+    expect((screen.getByLabelText('Initialisation') as HTMLSelectElement).value).toBe('kmeans++');
+    expect((screen.getByLabelText('Held-out set') as HTMLSelectElement).value).toBe('20');
+    expect(within(screen.getByRole('group', { name: 'Chosen training images' })).getByText('2 images chosen')).toBeTruthy();
+    // Options the stored run left out take the server's defaults, shown as such.
+    expect((screen.getByLabelText('Maximum iterations') as HTMLInputElement).value).toBe('100');
+    // d = 8·4·3 = 96; rates (b + 3)/32 for b = 2..5.
+    expect(figure('Vector dimension d')).toBe('96');
+    expect(figure('Fixed rate')).toBe('0.1563 … 0.25 bpp');
   });
 
   it("puts the server's field message beside the field it names", async () => {

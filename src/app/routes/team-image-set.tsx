@@ -61,8 +61,8 @@ export function Component() {
         description={set.data.description ?? `Created ${formatDateTime(set.data.createdAt)}`}
         actions={
           <>
-            {canEdit && counts.training > 0 && counts.heldOut > 0 && (
-              <Link to={href.teamNewRun(team.id)} className={buttonClass('primary')}>
+            {canEdit && counts.total > 0 && (
+              <Link to={`${href.teamNewRun(team.id)}?set=${setId}`} className={buttonClass('primary')}>
                 New run
               </Link>
             )}

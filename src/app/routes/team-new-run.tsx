@@ -1,4 +1,4 @@
-import type { QueryClient } from '@tanstack/react-query';
+import { useQueryClient, type QueryClient } from '@tanstack/react-query';
 import { data, Link, useNavigate, useSearchParams, type LoaderFunctionArgs } from 'react-router-dom';
 import type { ImageSet } from '../../../server/contracts';
 import { href } from '../../config/routes';
@@ -9,6 +9,7 @@ import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states
 import { sourceRunQueryOptions, useSourceRun } from '../../features/run-setup/api/get-run';
 import { imageSetsQueryOptions, useImageSets } from '../../features/run-setup/api/list-image-sets';
 import { setImagesQueryOptions, useImageCatalog } from '../../features/run-setup/api/list-set-images';
+import { runKeys } from '../../features/runs/api/keys';
 import { RunForm } from '../../features/run-setup/components/run-form';
 import { emptyRunForm, fromRunConfig, type RunFormValues } from '../../features/run-setup/run-form-schema';
 import { requireTeam } from '../session';
@@ -16,10 +17,11 @@ import { useCurrentTeam } from '../use-team';
 
 export { RouteError as ErrorBoundary } from './route-error';
 
-function fromParam(search: URLSearchParams): number | null {
-  const value = Number(search.get('from'));
+function idParam(search: URLSearchParams, name: 'from' | 'set'): number | null {
+  const value = Number(search.get(name));
   return Number.isInteger(value) && value > 0 ? value : null;
 }
+const fromParam = (search: URLSearchParams) => idParam(search, 'from');
 
 export const clientLoader = (queryClient: QueryClient) => async ({ request, params }: LoaderFunctionArgs) => {
   const { team } = await requireTeam(queryClient, request, params.teamId);
@@ -33,16 +35,21 @@ export const clientLoader = (queryClient: QueryClient) => async ({ request, para
   return null;
 };
 
-/** A fresh form starts from the first set that already has both training and held-out images. */
-function freshValues(sets: readonly ImageSet[]): RunFormValues {
-  const ready = sets.find((set) => set.counts.training > 0 && set.counts.heldOut > 0) ?? null;
+/**
+ * A fresh form starts from the set it was opened from (`?set=`), or else the first set that already has both
+ * training and held-out images; one set on both sides is divided by its images' marks.
+ */
+function freshValues(sets: readonly ImageSet[], preferred: number | null): RunFormValues {
+  const ready = sets.find((set) => set.id === preferred) ?? sets.find((set) => set.counts.training > 0 && set.counts.heldOut > 0) ?? null;
   return { ...emptyRunForm, trainingSetId: ready?.id ?? null, heldOutSetId: ready?.id ?? null };
 }
 
 export function Component() {
   const navigate = useNavigate();
+  const queryClient = useQueryClient();
   const [search] = useSearchParams();
   const from = fromParam(search);
+  const preferredSet = idParam(search, 'set');
   const { team, teamId } = useCurrentTeam();
   const sets = useImageSets(teamId);
   const catalog = useImageCatalog(teamId, sets.data ?? []);
@@ -97,7 +104,7 @@ export function Component() {
     );
   }
 
-  const defaults = source.data ? fromRunConfig(source.data.config, `${source.data.name} (changed)`) : freshValues(sets.data);
+  const defaults = source.data ? fromRunConfig(source.data.config, `${source.data.name} (changed)`) : freshValues(sets.data, preferredSet);
 
   return (
     <>
@@ -105,12 +112,16 @@ export function Component() {
       {header}
       <RunForm
         // A different source run is a different form, not an edit of this one.
-        key={from ?? 'fresh'}
+        key={from === null ? `fresh-${preferredSet ?? ''}` : `from-${from}`}
         teamId={team.id}
         sets={sets.data}
         catalog={catalog.catalog}
         defaultValues={defaults}
-        onCreated={(run) => navigate(href.teamRun(team.id, run.id))}
+        onCreated={(run) => {
+          // The runs feature's lists gain a run; features cannot reach each other's keys, the page can.
+          void queryClient.invalidateQueries({ queryKey: runKeys.team(team.id) });
+          navigate(href.teamRun(team.id, run.id));
+        }}
       />
     </>
   );

@@ -1,0 +1,18 @@
+import { useMutation, useQueryClient } from '@tanstack/react-query';
+import { runResponse, type CreateRunBody, type RunDetail } from '../../../../server/contracts';
+import { apiRequest } from '../../../lib/api-client';
+import { runSetupKeys } from './keys';
+
+export async function createRun(teamId: number, body: CreateRunBody): Promise<RunDetail> {
+  const answer = await apiRequest(`/teams/${teamId}/runs`, { method: 'POST', body, schema: runResponse });
+  return answer.run;
+}
+
+export function useCreateRun(teamId: number) {
+  const queryClient = useQueryClient();
+  return useMutation({
+    mutationFn: (body: CreateRunBody) => createRun(teamId, body),
+    // A new run changes every runs list (the runs feature's own lists refetch: their answers are no-store and short-lived).
+    onSuccess: () => queryClient.invalidateQueries({ queryKey: runSetupKeys.recentRuns(teamId) }),
+  });
+}

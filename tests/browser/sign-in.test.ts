@@ -48,7 +48,8 @@ describe('signing in through the browser', () => {
     await expect.poll(() => main.getByRole('heading', { level: 1 }).textContent()).toBe(teamName);
     expect(await header.textContent()).toContain(teamName);
     expect(await header.textContent()).toContain(admin.name);
-    expect(await main.getByText('No image sets yet — upload a training set').isVisible()).toBe(true);
+    // The demo seed gives the team its survey tile sets, so home lists them instead of the empty-team first step.
+    await expect.poll(() => main.getByText('Survey tiles · training').first().isVisible()).toBe(true);
 
     const nav = page.getByRole('navigation', { name: 'Team' });
     // Later studio sections join the navigation; the team section and the admin-only Outbox must be there.

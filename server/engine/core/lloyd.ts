@@ -25,7 +25,7 @@ export interface LloydContext {
  * can do that by a hair) the previous codebook is kept and the run stops.
  */
 export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: number): Promise<TrainedCodebook> {
-  const { vectors, d, n, search, signal } = ctx;
+  const { d, n, search, signal } = ctx;
   const trace: IterationStat[] = [];
   const scale = n * d;
   const record = (s: IterationStat) => {

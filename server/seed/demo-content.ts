@@ -100,16 +100,26 @@ export async function seedDemoContent(deps: DemoContentDeps, teamId: number): Pr
 
   const existing = await services.imageSets.list(teamId);
   let createdSets = 0;
-  const setIdOf = async (spec: (typeof demoSets)[keyof typeof demoSets], prefix: string): Promise<number> => {
+  const setIdOf = async (
+    spec: (typeof demoSets)[keyof typeof demoSets],
+    prefix: string,
+    role: 'training' | 'held-out',
+  ): Promise<number> => {
     const found = existing.find((s) => s.name === spec.name);
     if (found) return found.id;
     const set = await services.imageSets.create(teamId, engineer.id, { name: spec.name, description: spec.description });
-    await services.imageUploads.upload(teamId, engineer.id, set.id, await tilePngs(spec.seed, spec.count, prefix));
+    const uploaded = await services.imageUploads.upload(teamId, engineer.id, set.id, await tilePngs(spec.seed, spec.count, prefix));
+    // Uploads arrive as training images; the later survey leg is marked held-out so the set reads as what it is.
+    if (role === 'held-out') {
+      await services.imageSets.update(teamId, set.id, {
+        assignments: uploaded.images.map((image) => ({ imageId: image.id, role })),
+      });
+    }
     createdSets += 1;
     return set.id;
   };
-  const trainingSetId = await setIdOf(demoSets.training, 'leg1');
-  const heldOutSetId = await setIdOf(demoSets.heldOut, 'leg2');
+  const trainingSetId = await setIdOf(demoSets.training, 'leg1', 'training');
+  const heldOutSetId = await setIdOf(demoSets.heldOut, 'leg2', 'held-out');
 
   const runNames = new Set((await db.repos.runs.listForTeam(teamId)).map((r) => r.name));
   let createdRuns = 0;

@@ -24,13 +24,14 @@ if [ "${#sock}" -gt 96 ]; then sock="/tmp/cellwright-db-$DB_PORT.sock"; fi
 say() { echo "[db] $*" >&2; }
 
 ensure() {
-  if command -v mariadbd >/dev/null 2>&1 || [ -x /usr/sbin/mariadbd ]; then return 0; fi
-  say "installing Debian's MariaDB server (mariadb-server-core, mariadb-client-core)"
+  # mariadb-dump (for backups) comes with mariadb-client, not with the -core packages.
+  if { command -v mariadbd >/dev/null 2>&1 || [ -x /usr/sbin/mariadbd ]; } && command -v mariadb-dump >/dev/null 2>&1; then return 0; fi
+  say "installing Debian's MariaDB server (mariadb-server-core, mariadb-client-core, mariadb-client)"
   export DEBIAN_FRONTEND=noninteractive
   local sudo=""
   if [ "$(id -u)" != 0 ]; then sudo="sudo"; fi
   $sudo apt-get update -qq >/dev/null || true
-  $sudo apt-get install -y -qq --no-install-recommends mariadb-server-core mariadb-client-core >/dev/null
+  $sudo apt-get install -y -qq --no-install-recommends mariadb-server-core mariadb-client-core mariadb-client >/dev/null
 }
 
 mariadbd_bin() { command -v mariadbd 2>/dev/null || echo /usr/sbin/mariadbd; }

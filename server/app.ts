@@ -9,6 +9,8 @@ import type { Config, Logger } from './config';
 import { createAuthenticator } from './http/middleware/authenticate';
 import { requireKnownBodyType } from './http/middleware/content-type';
 import { apiNotFound, errorHandler } from './http/middleware/error-handler';
+import { refuseCrossSiteMutations } from './http/middleware/fetch-metadata';
+import { redactedRequest } from './http/middleware/log-redaction';
 import { originCheck } from './http/middleware/origin-check';
 import { attemptLimiter } from './http/middleware/rate-limit';
 import { rejectInvalidUtf8 } from './http/middleware/strict-utf8';
@@ -100,11 +102,13 @@ export function createApp(deps: AppDeps): Express {
       logger,
       // Health probes arrive every few seconds; logging them drowns everything else.
       autoLogging: { ignore: (req) => req.url === '/api/health' },
+      serializers: { req: redactedRequest },
       customLogLevel: (_req, res, err) => (err || res.statusCode >= 500 ? 'error' : res.statusCode >= 400 ? 'warn' : 'info'),
     }),
   );
   app.use(cookieParser());
   app.use('/api', originCheck(config.publicUrl));
+  app.use('/api', refuseCrossSiteMutations);
   // Codebook documents are far larger than any other body; the global parser below skips a body already parsed.
   app.use(codebookImportPath, codebookImportBodyParser);
   app.use('/api', requireKnownBodyType, express.json({ limit: '1mb', verify: rejectInvalidUtf8 }));

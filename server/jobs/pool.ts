@@ -24,6 +24,9 @@ export function createTaskPool(options: { maxThreads: number; idleTimeoutMs?: nu
     idleTimeout: options.idleTimeoutMs ?? 30_000,
     // The bootstrap registers the TypeScript loader itself; inherited loader flags are not needed.
     execArgv: [],
+    // TEST-ONLY: CELLWRIGHT_TEST_TASK_HEAP_MB caps each pool thread's heap, so the fault tests can make a task run
+    // out of memory quickly (tests/api/faults/worker-memory.test.ts). Never set it in production.
+    ...(process.env.CELLWRIGHT_TEST_TASK_HEAP_MB ? { resourceLimits: { maxOldGenerationSizeMb: Number(process.env.CELLWRIGHT_TEST_TASK_HEAP_MB) } } : {}),
   });
   return {
     run<I, O>(task: string, input: I, runOptions: { signal?: AbortSignal } = {}) {

@@ -7,6 +7,12 @@ register();
 const modules = new Map();
 
 export default async function runTask({ task, input }) {
+  // TEST-ONLY: CELLWRIGHT_TEST_TASK_FAULT=oom makes every task allocate until its thread's heap is exhausted
+  // (with CELLWRIGHT_TEST_TASK_HEAP_MB set, that takes milliseconds). Never set it in production.
+  if (process.env.CELLWRIGHT_TEST_TASK_FAULT === 'oom') {
+    const hog = [];
+    for (;;) hog.push(Array.from({ length: 1e5 }, (_, i) => ({ i })));
+  }
   let run = modules.get(task);
   if (!run) {
     const mod = await import(task);

@@ -1,7 +1,7 @@
 import { z } from 'zod';
-import { idParam } from './common';
+import { pathId } from './common';
 
-export const codebookParams = z.object({ teamId: idParam, codebookId: idParam });
+export const codebookParams = z.object({ teamId: pathId, codebookId: pathId });
 
 export const codebookSummary = z.object({
   id: z.number().int(),

@@ -1,8 +1,17 @@
 import { z } from 'zod';
 
-/** Numeric ids in URL params arrive as strings; bound them so nothing odd reaches SQL. */
+/** Ids in request bodies: positive whole numbers within the INT range of the tables. */
 export const idParam = z.coerce.number().int().positive().max(2 ** 31 - 1);
-export const teamParams = z.object({ teamId: idParam });
+/**
+ * Ids in URL paths arrive as strings; only the canonical decimal form names an object, so `0x1`, `1e0`
+ * or ` 1` are refused rather than quietly read as 1.
+ */
+export const pathId = z
+  .string()
+  .regex(/^[1-9][0-9]{0,9}$/, 'Expected a positive whole number')
+  .transform(Number)
+  .pipe(z.number().max(2 ** 31 - 1));
+export const teamParams = z.object({ teamId: pathId });
 
 export const roles = ['admin', 'engineer', 'viewer'] as const;
 export const role = z.enum(roles);

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { idParam } from './common';
+import { idParam, pathId } from './common';
 
 /**
  * Rate–distortion results. Units: bpp in bits per pixel; MSE per pixel component on the 0..255 scale; PSNR in dB,
@@ -71,10 +71,10 @@ export const runMetricsResponse = z.object({
 });
 export type RunMetrics = z.infer<typeof runMetricsResponse>;
 
-export const runResultParams = z.object({ teamId: idParam, runId: idParam });
+export const runResultParams = z.object({ teamId: pathId, runId: pathId });
 export const exportFormatQuery = z.object({ format: z.enum(['json', 'csv']).default('json') }).strict();
 
-export const evaluateCodebookParams = z.object({ teamId: idParam, codebookId: idParam });
+export const evaluateCodebookParams = z.object({ teamId: pathId, codebookId: pathId });
 /** POST /api/teams/:teamId/codebooks/:codebookId/evaluate (imported codebooks) → 202 {job} */
 export const evaluateCodebookBody = z
   .object({
@@ -112,7 +112,7 @@ export const codebookEvaluationsResponse = z.object({
 });
 export type CodebookEvaluations = z.infer<typeof codebookEvaluationsResponse>;
 
-export const reconstructionParams = z.object({ teamId: idParam, codebookId: idParam, imageId: idParam });
+export const reconstructionParams = z.object({ teamId: pathId, codebookId: pathId, imageId: pathId });
 /** `info` answers JSON figures; the other views a PNG with X-Encoded-Bytes. */
 export const reconstructionQuery = z.object({ view: z.enum(['original', 'reconstruction', 'error', 'info']).default('reconstruction') }).strict();
 export type ReconstructionViewName = z.infer<typeof reconstructionQuery>['view'];

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { idParam } from './common';
+import { idParam, pathId } from './common';
 
 /** Training images teach the codebook; held-out images are only ever used to measure it. */
 export const imageRoles = ['training', 'held-out'] as const;
@@ -38,8 +38,8 @@ export type ImageSet = z.infer<typeof imageSet>;
 const setName = z.string().trim().min(1).max(120);
 const setDescription = z.string().trim().max(2000);
 
-export const imageSetParams = z.object({ teamId: idParam, setId: idParam });
-export const imageParams = z.object({ teamId: idParam, imageId: idParam });
+export const imageSetParams = z.object({ teamId: pathId, setId: pathId });
+export const imageParams = z.object({ teamId: pathId, imageId: pathId });
 
 /** POST /api/teams/:teamId/image-sets (engineer, admin) → 201 {imageSet}; 409 when the team has a set of that name */
 export const createImageSetBody = z.object({ name: setName, description: setDescription.optional() }).strict();

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { idParam } from './common';
+import { idParam, pathId } from './common';
 import { job, jobState } from './jobs';
 
 const int = (min: number, max: number) => z.number().int().min(min).max(max);
@@ -66,7 +66,7 @@ export const normalizedRunConfig = z.object({
 });
 export type NormalizedRunConfig = z.infer<typeof normalizedRunConfig>;
 
-export const runParams = z.object({ teamId: idParam, runId: idParam });
+export const runParams = z.object({ teamId: pathId, runId: pathId });
 
 /** The point of a run's curve a list shows first: the best PSNR it reached (null until evaluated). */
 export const operatingPoint = z.object({

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { email, idParam, role } from './common';
+import { email, pathId, role } from './common';
 
 export const member = z.object({
   userId: z.number().int(),
@@ -12,7 +12,7 @@ export type Member = z.infer<typeof member>;
 /** GET /api/teams/:teamId/members */
 export const membersResponse = z.object({ members: z.array(member) });
 
-export const memberParams = z.object({ teamId: idParam, userId: idParam });
+export const memberParams = z.object({ teamId: pathId, userId: pathId });
 /** PATCH /api/teams/:teamId/members/:userId (admin) */
 export const updateMemberBody = z.object({ role }).strict();
 /** DELETE /api/teams/:teamId/members/:userId (admin) → 204; the last admin cannot be removed or demoted (409) */
@@ -31,7 +31,7 @@ export type Invitation = z.infer<typeof invitation>;
 export const invitationsResponse = z.object({ invitations: z.array(invitation) });
 /** POST /api/teams/:teamId/invitations (admin) → 201 {invitation}; sends the e-mail */
 export const createInvitationBody = z.object({ email, role }).strict();
-export const invitationParams = z.object({ teamId: idParam, invitationId: idParam });
+export const invitationParams = z.object({ teamId: pathId, invitationId: pathId });
 /** DELETE /api/teams/:teamId/invitations/:invitationId (admin) → 204 (revokes) */
 
 export const outboxMessage = z.object({

@@ -1,5 +1,5 @@
 import type { RequestHandler } from 'express';
-import { idParam, type Role } from '../../contracts';
+import { pathId, type Role } from '../../contracts';
 import { forbidden, notFound, unauthenticated } from '../../errors';
 
 export interface MembershipLookup {
@@ -14,7 +14,7 @@ export function requireTeamRoleFactory(teams: MembershipLookup) {
   return (...roles: Role[]): RequestHandler =>
     async (req, _res, next) => {
       if (!req.user) return next(unauthenticated());
-      const teamId = idParam.safeParse(req.params.teamId);
+      const teamId = pathId.safeParse(req.params.teamId);
       if (!teamId.success) return next(notFound('Team'));
       const membership = await teams.membership(teamId.data, req.user.id);
       if (!membership) return next(notFound('Team'));

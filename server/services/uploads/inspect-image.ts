@@ -1,4 +1,5 @@
 import sharp, { type Metadata } from 'sharp';
+import { trailingBytes } from './trailing-data';
 
 /** Raster formats the studio accepts; each decodes in every prebuilt sharp (AVIF through libheif). */
 export const imageFormats = ['png', 'jpeg', 'webp', 'tiff', 'avif', 'gif'] as const;
@@ -80,6 +81,12 @@ export async function inspectImage(data: Buffer, label: string, limits: { maxPix
   if (width * height > limits.maxPixels) {
     throw new ImageRejected(
       `${label}: ${width}×${height} is ${width * height} pixels, more than the limit of ${limits.maxPixels} pixels per image`,
+    );
+  }
+  const extra = trailingBytes(format, data);
+  if (extra > 0) {
+    throw new ImageRejected(
+      `${label}: ${extra} bytes follow the end of the ${format.toUpperCase()} image; files with data appended (such as an archive) are refused`,
     );
   }
   const options = { failOn: 'error' as const, limitInputPixels: limits.maxPixels };

@@ -69,7 +69,7 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
   const imageUploads = createImageUploadsService({ db, store: contentStore, limits: config.uploads });
   const bus = createJobEventBus();
   const queue = createMariaDbQueue(db);
-  const pool = createTaskPool({ maxThreads: config.jobConcurrency });
+  const pool = createTaskPool({ maxThreads: config.jobConcurrency, maxHeapMb: config.jobTaskMaxHeapMb });
   const runner = createJobRunner({
     queue,
     bus,

@@ -44,6 +44,8 @@ const schema = z.object({
   SERVE_CLIENT: optionalString,
   LOGIN_RATE_LIMIT: z.coerce.number().int().min(1).default(10),
   JOB_CONCURRENCY: z.coerce.number().int().min(1).default(1),
+  // A task that outgrows this heap fails its job instead of taking the server's memory with it.
+  JOB_TASK_MAX_HEAP_MB: z.coerce.number().int().min(32).default(4096),
   ENGINE_THREADS: z.coerce.number().int().min(1).optional(),
   UPLOAD_MAX_BYTES: z.coerce.number().int().min(1).default(50 * 1024 * 1024),
   UPLOAD_MAX_FILES: z.coerce.number().int().min(1).default(200),
@@ -84,6 +86,8 @@ export interface Config {
   readonly loginRateLimit: number;
   readonly loginRateWindowMs: number;
   readonly jobConcurrency: number;
+  /** Old-generation heap limit of each job pool thread, in MiB. */
+  readonly jobTaskMaxHeapMb: number;
   readonly engineThreads: number;
   /** Limits of one image upload request: bytes per file (or archive entry), parts, pixels, and what archives may unpack. */
   readonly uploads: {
@@ -161,6 +165,7 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     loginRateLimit: e.LOGIN_RATE_LIMIT,
     loginRateWindowMs: 15 * 60 * 1000,
     jobConcurrency: e.JOB_CONCURRENCY,
+    jobTaskMaxHeapMb: e.JOB_TASK_MAX_HEAP_MB,
     engineThreads: e.ENGINE_THREADS ?? availableParallelism(),
     uploads: {
       maxFileBytes: e.UPLOAD_MAX_BYTES,

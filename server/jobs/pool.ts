@@ -16,7 +16,7 @@ const bootstrap = new URL('./tasks/run-task.mjs', import.meta.url).href;
  * maxThreads = JOB_CONCURRENCY: each running job uses at most one pool thread at a time, so the pool never
  * adds more threads than there are jobs; the engine's own kernels draw on its shared thread budget.
  */
-export function createTaskPool(options: { maxThreads: number; idleTimeoutMs?: number }): TaskPool {
+export function createTaskPool(options: { maxThreads: number; maxHeapMb?: number; idleTimeoutMs?: number }): TaskPool {
   const piscina = new Piscina({
     filename: bootstrap,
     minThreads: 0,
@@ -24,9 +24,8 @@ export function createTaskPool(options: { maxThreads: number; idleTimeoutMs?: nu
     idleTimeout: options.idleTimeoutMs ?? 30_000,
     // The bootstrap registers the TypeScript loader itself; inherited loader flags are not needed.
     execArgv: [],
-    // TEST-ONLY: CELLWRIGHT_TEST_TASK_HEAP_MB caps each pool thread's heap, so the fault tests can make a task run
-    // out of memory quickly (tests/api/faults/worker-memory.test.ts). Never set it in production.
-    ...(process.env.CELLWRIGHT_TEST_TASK_HEAP_MB ? { resourceLimits: { maxOldGenerationSizeMb: Number(process.env.CELLWRIGHT_TEST_TASK_HEAP_MB) } } : {}),
+    // A thread that outgrows its heap dies alone: its task rejects, its job fails, the server keeps serving.
+    ...(options.maxHeapMb ? { resourceLimits: { maxOldGenerationSizeMb: options.maxHeapMb } } : {}),
   });
   return {
     run<I, O>(task: string, input: I, runOptions: { signal?: AbortSignal } = {}) {

@@ -8,7 +8,7 @@ const modules = new Map();
 
 export default async function runTask({ task, input }) {
   // TEST-ONLY: CELLWRIGHT_TEST_TASK_FAULT=oom makes every task allocate until its thread's heap is exhausted
-  // (with CELLWRIGHT_TEST_TASK_HEAP_MB set, that takes milliseconds). Never set it in production.
+  // (with a small JOB_TASK_MAX_HEAP_MB, that takes milliseconds). Never set it in production.
   if (process.env.CELLWRIGHT_TEST_TASK_FAULT === 'oom') {
     const hog = [];
     for (;;) hog.push(Array.from({ length: 1e5 }, (_, i) => ({ i })));

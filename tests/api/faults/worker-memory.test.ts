@@ -1,5 +1,5 @@
 // A pool thread that runs out of memory: its job fails with the reason and the server keeps serving.
-// Uses the test-only hooks CELLWRIGHT_TEST_TASK_HEAP_MB (a small heap per pool thread) and
+// Uses the test-only hooks JOB_TASK_MAX_HEAP_MB (a small heap per pool thread) and
 // CELLWRIGHT_TEST_TASK_FAULT=oom (every task allocates until that heap is gone), documented in server/jobs/pool.ts.
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -21,7 +21,7 @@ async function api(method: string, p: string, body?: unknown) {
 }
 
 beforeAll(async () => {
-  server = await startServer({ SEED_DEMO: 'false', CELLWRIGHT_TEST_TASK_HEAP_MB: '48', CELLWRIGHT_TEST_TASK_FAULT: 'oom' });
+  server = await startServer({ SEED_DEMO: 'false', JOB_TASK_MAX_HEAP_MB: '48', CELLWRIGHT_TEST_TASK_FAULT: 'oom' });
   const signup = await fetch(`${server.url}/api/auth/signup`, {
     method: 'POST',
     headers: { 'Content-Type': 'application/json' },

@@ -10,7 +10,7 @@ import { createAuthenticator } from './http/middleware/authenticate';
 import { requireKnownBodyType } from './http/middleware/content-type';
 import { apiNotFound, errorHandler } from './http/middleware/error-handler';
 import { refuseCrossSiteMutations } from './http/middleware/fetch-metadata';
-import { redactedRequest } from './http/middleware/log-redaction';
+import { maskTokensInUrl } from './http/middleware/log-redaction';
 import { originCheck } from './http/middleware/origin-check';
 import { attemptLimiter } from './http/middleware/rate-limit';
 import { rejectInvalidUtf8 } from './http/middleware/strict-utf8';
@@ -31,40 +31,15 @@ import { reconstructionsRouter } from './http/routes/reconstructions';
 import { runsRouter } from './http/routes/runs';
 import { teamInvitationsRouter } from './http/routes/team-invitations';
 import './http/types';
-import type {
-  AccountsService,
-  CodebooksService,
-  ComparisonService,
-  EvaluationService,
-  HealthService,
-  ImageRecordsService,
-  ImageSetsService,
-  ImageUploadsService,
-  InvitationsService,
-  OutboxService,
-  RunsService,
-  SessionTokens,
-  TeamsService,
-} from './services';
+import type { SessionTokens } from './services';
+import type { Services } from './http/routes/deps';
 
 export interface AppDeps {
   config: Config;
   logger: Logger;
   sessions: SessionTokens;
-  services: {
-    accounts: AccountsService;
-    teams: TeamsService;
-    invitations: InvitationsService;
-    outbox: OutboxService;
-    health: HealthService;
-    imageSets: ImageSetsService;
-    imageRecords: ImageRecordsService;
-    imageUploads: ImageUploadsService;
-    runs: RunsService;
-    codebooks: CodebooksService;
-    evaluation: EvaluationService;
-    comparison: ComparisonService;
-  };
+  services: Services;
+
   /** Built client to serve; defaults to dist/ at the repository root. */
   clientDir?: string;
 }
@@ -102,7 +77,12 @@ export function createApp(deps: AppDeps): Express {
       logger,
       // Health probes arrive every few seconds; logging them drowns everything else.
       autoLogging: { ignore: (req) => req.url === '/api/health' },
-      serializers: { req: redactedRequest },
+      // Compact lines: pino-http binds the serialized request to a child logger on every request, whatever the level,
+      // so serializing every header cost each request a JSON.stringify. Tokens in URLs stay masked.
+      serializers: {
+        req: (req: { id?: unknown; method?: string; url?: string }) => ({ id: req.id, method: req.method, url: maskTokensInUrl(req.url) }),
+        res: (res: { statusCode?: number }) => ({ statusCode: res.statusCode }),
+      },
       customLogLevel: (_req, res, err) => (err || res.statusCode >= 500 ? 'error' : res.statusCode >= 400 ? 'warn' : 'info'),
     }),
   );

@@ -2,8 +2,8 @@ import { createHash } from 'node:crypto';
 import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { seabedSet } from '../../server/seed/seabed-tiles';
 import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
+import { seabedPngs, createSetWith, waitForRun as pollRun } from '../helpers/studio';
 import { mailFor, waitForMail } from '../helpers/mailbox';
 
 let t: TestApp;
@@ -17,32 +17,11 @@ const W = 64;
 const H = 48;
 const PATCH = { width: 4, height: 4 };
 
-async function pngsOf(seed: number, count: number): Promise<Buffer[]> {
-  return Promise.all(
-    seabedSet(seed, count, W, H).map((tile) => sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toBuffer()),
-  );
-}
+const pngsOf = (seed: number, count: number) => seabedPngs(seed, count, W, H);
 
-async function setWith(s: Session, name: string, files: Buffer[]): Promise<number> {
-  const created = await request(t.app).post(`/api/teams/${s.teamId}/image-sets`).set(bearer(s)).send({ name });
-  expect(created.status).toBe(201);
-  const id = created.body.imageSet.id as number;
-  let upload = request(t.app).post(`/api/teams/${s.teamId}/image-sets/${id}/images`).set(bearer(s));
-  files.forEach((f, i) => (upload = upload.attach('files', f, `${name}-${i}.png`)));
-  const res = await upload;
-  expect(res.status).toBe(201);
-  expect(res.body.images).toHaveLength(files.length);
-  return id;
-}
+const setWith = (s: Session, name: string, files: Buffer[]) => createSetWith(t.app, s, name, files);
 
-async function waitForRun(s: Session, id: number): Promise<{ state: string; error: string | null }> {
-  for (;;) {
-    const res = await request(t.app).get(`/api/teams/${s.teamId}/runs/${id}`).set(bearer(s));
-    expect(res.status).toBe(200);
-    if (['succeeded', 'failed', 'cancelled'].includes(res.body.run.state)) return res.body.run;
-    await new Promise((r) => setTimeout(r, 200));
-  }
-}
+const waitForRun = (s: Session, id: number) => pollRun(t.app, s, id);
 
 async function waitForJob(jobId: number): Promise<{ state: string; error: string | null }> {
   for (;;) {

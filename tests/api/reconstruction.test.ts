@@ -1,8 +1,8 @@
 import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { seabedSet } from '../../server/seed/seabed-tiles';
 import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
+import { seabedPngs, createSetWith, finishedRun as runToSuccess } from '../helpers/studio';
 
 let t: TestApp;
 let team: Awaited<ReturnType<typeof teamWithRoles>>;
@@ -14,35 +14,11 @@ let lumaRun: number;
 const W = 40;
 const H = 30;
 
-async function pngsOf(seed: number, count: number): Promise<Buffer[]> {
-  return Promise.all(
-    seabedSet(seed, count, W, H).map((tile) => sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toBuffer()),
-  );
-}
+const pngsOf = (seed: number, count: number) => seabedPngs(seed, count, W, H);
 
-async function setWith(s: Session, name: string, files: Buffer[]): Promise<number> {
-  const created = await request(t.app).post(`/api/teams/${s.teamId}/image-sets`).set(bearer(s)).send({ name });
-  expect(created.status).toBe(201);
-  const id = created.body.imageSet.id as number;
-  let upload = request(t.app).post(`/api/teams/${s.teamId}/image-sets/${id}/images`).set(bearer(s));
-  files.forEach((f, i) => (upload = upload.attach('files', f, `${name}-${i}.png`)));
-  expect((await upload).status).toBe(201);
-  return id;
-}
+const setWith = (s: Session, name: string, files: Buffer[]) => createSetWith(t.app, s, name, files);
 
-async function finishedRun(s: Session, body: object): Promise<number> {
-  const created = await request(t.app).post(`/api/teams/${s.teamId}/runs`).set(bearer(s)).send(body);
-  expect(created.status).toBe(201);
-  for (;;) {
-    const res = await request(t.app).get(`/api/teams/${s.teamId}/runs/${created.body.run.id}`).set(bearer(s));
-    if (['succeeded', 'failed', 'cancelled'].includes(res.body.run.state)) {
-      expect(res.body.run.error).toBeNull();
-      expect(res.body.run.state).toBe('succeeded');
-      return created.body.run.id;
-    }
-    await new Promise((r) => setTimeout(r, 200));
-  }
-}
+const finishedRun = (s: Session, body: object) => runToSuccess(t.app, s, body);
 
 /** Keeps a binary response body as one Buffer. */
 function collect(res: request.Response, done: (err: Error | null, body: Buffer) => void) {

@@ -81,7 +81,7 @@ describe('inviting a member through the browser', () => {
     await form.getByLabel('Password', { exact: true }).fill(invitee.password);
     await form.getByLabel('Repeat password').fill('a-different-password');
     await form.getByRole('button', { name: 'Create account and join' }).click();
-    expect(await form.getByText('The two passwords differ').isVisible()).toBe(true);
+    await expect.poll(() => form.getByText('The two passwords differ').isVisible()).toBe(true);
     await saveScreenshot(page, 'accept-invitation');
 
     await form.getByLabel('Repeat password').fill(invitee.password);

@@ -65,7 +65,7 @@ describe('resetting a password through the browser', () => {
     await page.getByLabel('New password', { exact: true }).fill(viewer.newPassword);
     await page.getByLabel('Repeat new password').fill(`${viewer.newPassword}x`);
     await page.getByRole('button', { name: 'Set new password' }).click();
-    expect(await page.getByText('The two passwords differ').isVisible()).toBe(true);
+    await expect.poll(() => page.getByText('The two passwords differ').isVisible()).toBe(true);
     await page.getByLabel('Repeat new password').fill(viewer.newPassword);
     await page.getByRole('button', { name: 'Set new password' }).click();
     await expect.poll(() => page.getByRole('status').textContent()).toContain('Password changed');
@@ -77,7 +77,7 @@ describe('resetting a password through the browser', () => {
     await page.getByLabel('Repeat new password').fill('another-new-password-5');
     await page.getByRole('button', { name: 'Set new password' }).click();
     await expect.poll(() => page.getByRole('alert').isVisible()).toBe(true);
-    expect(await page.getByRole('alert').getByRole('link', { name: 'Request a new link' }).isVisible()).toBe(true);
+    await expect.poll(() => page.getByRole('alert').getByRole('link', { name: 'Request a new link' }).isVisible()).toBe(true);
     await saveScreenshot(page, 'password-link-spent');
 
     await signIn(viewer.email, viewer.oldPassword);

@@ -69,7 +69,7 @@ describe('signing in through the browser', () => {
       expect(tableText).toContain(person.name);
       expect(tableText).toContain(person.email);
     }
-    expect(await page.getByRole('form', { name: 'Invite a member' }).isVisible()).toBe(true);
+    await expect.poll(() => page.getByRole('form', { name: 'Invite a member' }).isVisible()).toBe(true);
     await saveScreenshot(page, 'admin-members');
 
     await header.getByRole('button', { name: /account menu/ }).click();

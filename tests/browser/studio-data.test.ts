@@ -111,7 +111,8 @@ describe('studio data screens in a real browser', () => {
 
     await page.getByRole('navigation', { name: 'Team' }).getByRole('link', { name: 'Image sets' }).click();
     await page.waitForURL(/\/image-sets$/);
-    expect(await main.getByText('Lossy codebooks are not validated for diagnostic medical').isVisible()).toBe(true);
+    // The page arrives as its own chunk after the URL changes: wait for it rather than reading at once.
+    await expect.poll(() => main.getByText('Lossy codebooks are not validated for diagnostic medical').isVisible()).toBe(true);
 
     await main.getByLabel('Name').fill(setName);
     await main.getByLabel('Description').fill('Invented seabed texture tiles from the demo harbour.');
@@ -169,7 +170,7 @@ describe('studio data screens in a real browser', () => {
     await page.waitForURL(/\/runs\/new\?set=\d+$/);
     const form = main.getByRole('form', { name: 'New run' });
     await expect.poll(() => form.isVisible()).toBe(true);
-    expect(await form.getByText('Lossy codebooks are not validated for diagnostic medical').isVisible()).toBe(true);
+    await expect.poll(() => form.getByText('Lossy codebooks are not validated for diagnostic medical').isVisible()).toBe(true);
     await form.getByLabel('Name', { exact: true }).fill('Luma 4×4 sweep, b 1–4');
     await form.getByRole('button', { name: '4×4' }).click();
     await form.getByText('A range', { exact: true }).click();
@@ -223,7 +224,7 @@ describe('studio data screens in a real browser', () => {
     const main = page.getByRole('main');
     const form = main.getByRole('form', { name: 'Import a codebook' });
     await expect.poll(() => form.isVisible()).toBe(true);
-    expect(await main.getByText('Lossy codebooks are not validated for diagnostic medical').isVisible()).toBe(true);
+    await expect.poll(() => main.getByText('Lossy codebooks are not validated for diagnostic medical').isVisible()).toBe(true);
 
     // One changed component no longer matches the SHA-256 checksum; the server names the field.
     const tampered = structuredClone(document);
@@ -289,7 +290,7 @@ describe('studio data screens in a real browser', () => {
     const main = page.getByRole('main');
     const firstStep = main.getByRole('link', { name: 'Upload a training set' });
     await expect.poll(() => firstStep.isVisible()).toBe(true);
-    expect(await main.getByText('No image sets yet — upload a training set').isVisible()).toBe(true);
+    await expect.poll(() => main.getByText('No image sets yet — upload a training set').isVisible()).toBe(true);
     // Without a set there is nothing to run yet, so the home offers no run.
     expect(await main.getByRole('link', { name: 'New run' }).count()).toBe(0);
     await saveScreenshot(page, 'studio-data-empty-home');

@@ -155,7 +155,7 @@ describe('studio results in the browser', () => {
     const transforms = await page.locator('[data-pane] img').evaluateAll((imgs) => imgs.map((i) => (i as HTMLImageElement).style.transform));
     // All three views share one zoom and pan.
     expect(new Set(transforms).size).toBe(1);
-    expect(await page.getByText('Lossy codebooks are not validated for diagnostic medical').first().isVisible()).toBe(true);
+    await expect.poll(() => page.getByText('Lossy codebooks are not validated for diagnostic medical').first().isVisible()).toBe(true);
     await saveScreenshot(page, 'studio-codebook');
 
     const [download] = await Promise.all([page.waitForEvent('download'), page.getByRole('link', { name: 'Export JSON' }).click()]);
@@ -168,7 +168,7 @@ describe('studio results in the browser', () => {
     const bytes = Buffer.alloc(floats.length * 4);
     floats.forEach((v, i) => bytes.writeFloatLE(v, i * 4));
     expect(createHash('sha256').update(bytes).digest('hex')).toBe(document.checksum);
-    expect(await page.getByText(document.checksum).isVisible()).toBe(true);
+    await expect.poll(() => page.getByText(document.checksum).isVisible()).toBe(true);
   });
 
   it('compares the two demo runs and reads a BD-rate', async () => {

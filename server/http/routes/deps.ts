@@ -15,7 +15,8 @@ import type {
 } from '../../services';
 import type { RequireTeamRole } from '../middleware/require-team-role';
 
-export interface RouteDeps {
+/** Every service the HTTP layer calls; built once in server/composition.ts. */
+export interface Services {
   accounts: AccountsService;
   teams: TeamsService;
   invitations: InvitationsService;
@@ -28,6 +29,9 @@ export interface RouteDeps {
   codebooks: CodebooksService;
   evaluation: EvaluationService;
   comparison: ComparisonService;
+}
+
+export interface RouteDeps extends Services {
   authenticate: RequestHandler;
   requireTeamRole: RequireTeamRole;
   sessionTtlSeconds: number;

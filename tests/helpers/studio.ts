@@ -1,0 +1,48 @@
+// Set-up steps the studio API tests share: seabed tiles as PNGs, a set made through the upload route,
+// and a run followed until its jobs are done.
+import type { Express } from 'express';
+import sharp from 'sharp';
+import request from 'supertest';
+import { expect } from 'vitest';
+import { seabedSet } from '../../server/seed/seabed-tiles';
+import { bearer, type Session } from './api';
+
+export function seabedPngs(seed: number, count: number, width: number, height: number): Promise<Buffer[]> {
+  return Promise.all(
+    seabedSet(seed, count, width, height).map((tile) =>
+      sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toBuffer(),
+    ),
+  );
+}
+
+/** Creates a set and uploads every file into it; all of them must be stored. */
+export async function createSetWith(app: Express, s: Session, name: string, files: Buffer[]): Promise<number> {
+  const created = await request(app).post(`/api/teams/${s.teamId}/image-sets`).set(bearer(s)).send({ name });
+  expect(created.status).toBe(201);
+  const id = created.body.imageSet.id as number;
+  let upload = request(app).post(`/api/teams/${s.teamId}/image-sets/${id}/images`).set(bearer(s));
+  files.forEach((f, i) => (upload = upload.attach('files', f, `${name}-${i}.png`)));
+  const res = await upload;
+  expect(res.status).toBe(201);
+  expect(res.body.images).toHaveLength(files.length);
+  return id;
+}
+
+/** Polls the run until it reaches a terminal state. */
+export async function waitForRun(app: Express, s: Session, id: number): Promise<{ state: string; error: string | null }> {
+  for (;;) {
+    const res = await request(app).get(`/api/teams/${s.teamId}/runs/${id}`).set(bearer(s));
+    if (['succeeded', 'failed', 'cancelled'].includes(res.body.run.state)) return res.body.run;
+    await new Promise((r) => setTimeout(r, 200));
+  }
+}
+
+/** Starts a run and waits until it has succeeded. */
+export async function finishedRun(app: Express, s: Session, body: object): Promise<number> {
+  const created = await request(app).post(`/api/teams/${s.teamId}/runs`).set(bearer(s)).send(body);
+  expect(created.status).toBe(201);
+  const run = await waitForRun(app, s, created.body.run.id);
+  expect(run.error).toBeNull();
+  expect(run.state).toBe('succeeded');
+  return created.body.run.id;
+}

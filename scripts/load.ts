@@ -140,6 +140,11 @@ async function buildTeam(base: string) {
   const first = await upload(base, token, teamId, setId, await pngs(5, 24, 160, 120), 'seabed');
   if (first.status !== 201) throw new Error(`seed upload answered ${first.status}`);
   await json(base, 'POST', `/api/teams/${teamId}/image-sets/${setId}/split`, token, { heldOutFraction: 0.25, seed: 1 });
+  // The background run trains on a larger set of its own: on the small one a faster engine finished the sweep before
+  // the read phase ended, and the reads were then partly measured with the engine idle.
+  const bigSetId = (await json(base, 'POST', `/api/teams/${teamId}/image-sets`, token, { name: 'Seabed, large' })).imageSet.id as number;
+  const big = await upload(base, token, teamId, bigSetId, await pngs(9, 24, 320, 240), 'seabed-large');
+  if (big.status !== 201) throw new Error(`large set upload answered ${big.status}`);
   const done = (await json(base, 'POST', `/api/teams/${teamId}/runs`, token, { name: 'Finished sweep', trainingSetId: setId, heldOutSetId: setId, patch: { width: 4, height: 4 }, bits: { from: 1, to: 6 }, maxIterations: 20 })).run.id as number;
   say('training a first run to have curves and codebooks to read');
   const finished = await waitForRun(base, token, teamId, done, (r) => r.state === 'succeeded');
@@ -159,7 +164,7 @@ async function buildTeam(base: string) {
     if (!link) throw new Error(`no invitation mail for ${email}`);
     viewers.push((await json(base, 'POST', `/api/invitations/${link[1]}/accept`, undefined, { name: `Viewer ${i}`, password: PASSWORD })).token as string);
   }
-  return { token, teamId, setId, runId: done, codebookId, imageIds: first.ids, viewers };
+  return { token, teamId, setId, bigSetId, runId: done, codebookId, imageIds: first.ids, viewers };
 }
 
 function row(cells: (string | number)[]): string {
@@ -201,12 +206,14 @@ async function main(): Promise<number> {
 
     // The background load: a large sweep that keeps the engine busy through both phases.
     const bg = (await json(base, 'POST', `/api/teams/${team.teamId}/runs`, team.token, {
-      name: 'Background training', trainingSetId: team.setId, heldOutSetId: team.setId, patch: { width: 4, height: 4 }, color: 'rgb', bits: { from: 8, to: 12 }, epsilon: 0.0000001, maxIterations: 1000,
+      name: 'Background training', trainingSetId: team.bigSetId, heldOutSetId: team.setId, patch: { width: 4, height: 4 }, color: 'rgb', bits: { from: 8, to: 12 }, epsilon: 0.0000001, maxIterations: 1000,
     })).run.id as number;
     await waitForRun(base, team.token, team.teamId, bg, (r) => r.jobs[0]?.state === 'running' && r.jobs[0].progress?.phase === 'training');
     say(`training run ${bg} is running; ${READ_CLIENTS} clients read for ${READ_SECONDS} s`);
     const reads = await autocannon({ url: base, connections: READ_CLIENTS, duration: READ_SECONDS, requests, timeout: 10 });
-    const stillTraining = (await json(base, 'GET', `${t}/runs/${bg}`, team.token)).run.jobs[0]?.state === 'running';
+    const bgAfter = (await json(base, 'GET', `${t}/runs/${bg}`, team.token)).run as { state: string; jobs: { state: string }[] };
+    const stillTraining = bgAfter.jobs[0]?.state === 'running';
+    if (!stillTraining) say(`background run ended the read phase ${bgAfter.state} (training job ${bgAfter.jobs[0]?.state})`);
 
     say(`${UPLOADS} concurrent uploads`);
     const batches = await Promise.all(Array.from({ length: UPLOADS }, (_, i) => pngs(1000 + i, 2, 128, 96)));

@@ -1,6 +1,6 @@
 import type { CodebookDetail, CodebookSummary } from '../contracts';
 import type { CodebookRecord, CodebookWithCodewords, Database } from '../db';
-import { EngineInputError, parseCodebook, serializeCodebook, toCodebookDocument, type Codebook } from '../engine';
+import { codewordChecksum, EngineInputError, parseCodebook, serializeCodebook, toCodebookDocument, type Codebook } from '../engine';
 import { notFound, validationFailed } from '../errors';
 import { recordAudit } from './audit';
 
@@ -53,8 +53,43 @@ export function exportFileName(name: string, bits: number): string {
   return `${base || 'codebook'}-b${bits}.cellwright.json`;
 }
 
+/**
+ * Codewords as the detail view sends them (shortest round-tripping decimals), remembered by content. Finding the
+ * shortest decimal of every value takes several toPrecision calls each and dominated a detail read; the result depends
+ * only on the float32 values and the dimension, and the checksum is a SHA-256 of exactly those values, so an entry can
+ * never go stale. Bounded by the number of values held; the least recently read entry goes first.
+ */
+export function createCodewordRowsMemo(maxValues = 1 << 20) {
+  const entries = new Map<string, number[][]>();
+  let held = 0;
+  return {
+    get(c: CodebookWithCodewords): number[][] {
+      // Re-checked on every read so a damaged row is still reported (by the full path below) rather than served.
+      const key = `${c.dimension}:${c.checksum}`;
+      const hit = codewordChecksum(c.codewords) === c.checksum ? entries.get(key) : undefined;
+      if (hit) {
+        entries.delete(key);
+        entries.set(key, hit);
+        return hit;
+      }
+      const computed = toCodebookDocument(engineCodebookOf(c)).codewords;
+      if (c.codewords.length <= maxValues) {
+        entries.set(key, computed);
+        held += c.codewords.length;
+        for (const [k, v] of entries) {
+          if (held <= maxValues) break;
+          entries.delete(k);
+          held -= v.length * (v[0]?.length ?? 0);
+        }
+      }
+      return computed;
+    },
+  };
+}
+
 export function createCodebooksService(deps: { db: Database }) {
   const { db } = deps;
+  const codewordRows = createCodewordRowsMemo();
 
   async function mustFind(teamId: number, id: number): Promise<CodebookWithCodewords> {
     const c = await db.repos.codebooks.findForTeam(teamId, id);
@@ -69,7 +104,7 @@ export function createCodebooksService(deps: { db: Database }) {
       cellDistortion: c.cellDistortion,
       trace: c.trace,
       // Shortest decimals that read back to the same float32, exactly as the export writes them.
-      codewords: toCodebookDocument(engineCodebookOf(c)).codewords,
+      codewords: codewordRows.get(c),
       training: (c.metadata.training ?? {}) as Record<string, unknown>,
     };
   }

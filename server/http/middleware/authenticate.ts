@@ -1,3 +1,4 @@
+import type { KeyObject } from 'node:crypto';
 import type { Request, RequestHandler } from 'express';
 import { Passport } from 'passport';
 import { ExtractJwt, Strategy as JwtStrategy } from 'passport-jwt';
@@ -8,7 +9,8 @@ import type { SessionClaims } from '../../services';
 export const sessionCookieName = 'cw_session';
 
 export interface AuthenticateDeps {
-  verifyOptions: { secret: string; algorithms: ['HS256'] | string[]; issuer: string };
+  /** `key` is built once (crypto.createSecretKey): a string would be re-derived into a key on every request. */
+  verifyOptions: { key: KeyObject; algorithms: ['HS256'] | string[]; issuer: string };
   sessionUser(claims: Partial<SessionClaims>): Promise<User | null>;
 }
 
@@ -26,7 +28,8 @@ export function createAuthenticator(deps: AuthenticateDeps) {
       {
         // The cookie is what browsers send; the Bearer header serves scripts and the command line.
         jwtFromRequest: ExtractJwt.fromExtractors([fromCookie, ExtractJwt.fromAuthHeaderAsBearerToken()]),
-        secretOrKey: deps.verifyOptions.secret,
+        // jsonwebtoken 9 verifies with a KeyObject as given; the passport-jwt typings only predate that.
+        secretOrKeyProvider: (_req, _raw, done) => done(null, deps.verifyOptions.key as unknown as Buffer),
         algorithms: deps.verifyOptions.algorithms as ['HS256'],
         issuer: deps.verifyOptions.issuer,
       },

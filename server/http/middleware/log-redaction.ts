@@ -7,8 +7,3 @@ const tokenInPath = /^(\/api\/invitations\/|\/invite\/|\/reset-password\/)[^/?#]
 export function maskTokensInUrl(url: string | undefined): string | undefined {
   return url === undefined ? url : url.replace(tokenInPath, '$1[redacted]');
 }
-
-/** pino-http request serializer: the standard fields, with the URL masked. */
-export function redactedRequest<T extends { url?: string }>(req: T): T {
-  return { ...req, url: maskTokensInUrl(req.url) };
-}

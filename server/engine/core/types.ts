@@ -11,7 +11,10 @@ export interface IterationStat {
   elapsedMs: number;
   /** Vectors whose nearest codeword was re-decided by the exact search (near-ties). */
   redecided?: number;
-  /** Vectors searched in full; the others kept their codeword by the bound test. */
+  /**
+   * Vectors whose search went beyond the block of their current codeword; the others had
+   * every other block excluded by the bounds.
+   */
   searched?: number;
 }
 

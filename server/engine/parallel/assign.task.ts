@@ -4,6 +4,7 @@
 // same whichever worker computes it and however many there are.
 import { parentPort } from 'node:worker_threads';
 import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
+import { addRow } from '../core/accumulate-centroids';
 import type { AccumulateJob, AssignJob, AssignReply, WorkerJob } from './messages';
 
 if (!parentPort) throw new Error('assign.task.ts must run in a worker thread');
@@ -23,9 +24,7 @@ function accumulate(job: AccumulateJob): void {
   for (let v = 0; v < n; v++) {
     const j = indices[v];
     if (j < cellStart || j >= cellEnd) continue;
-    const so = j * d;
-    const vo = v * d;
-    for (let i = 0; i < d; i++) sums[so + i] += vectors[vo + i];
+    addRow(sums, j * d, vectors, v * d, d);
   }
 }
 
@@ -49,16 +48,11 @@ port.on('message', (message: WorkerJob) => {
     const state: SearchState = {
       indices: new Uint32Array(job.indices, 0, job.n),
       distances: new Float64Array(job.distances, 0, job.n),
-      lower: new Float64Array(job.lower, 0, job.n),
+      blockLower: new Float32Array(job.blockLower),
     };
-    const drift: Drift | undefined = job.drift && {
-      moved: new Float64Array(job.drift.moved),
-      max: job.drift.max,
-      argMax: job.drift.argMax,
-      second: job.drift.second,
-    };
+    const drift: Drift | undefined = job.drift && { blockMoved: new Float64Array(job.drift.blockMoved) };
     const control = new Int32Array(job.control);
-    kernel.setCodebook(codewords, job.k, job.d);
+    kernel.setCodebook(codewords, job.k, job.d, new Uint32Array(job.order, 0, job.k));
     for (;;) {
       if (Atomics.load(control, 1) !== 0) break; // cancelled: stop after the current chunk
       const chunk = Atomics.add(control, 0, 1);
@@ -70,7 +64,10 @@ port.on('message', (message: WorkerJob) => {
         redecided += r.redecided;
         searched += r.searched;
       } else {
-        redecided += kernel.assignRange(vectors, start, end, state.indices, state.distances, state.lower);
+        redecided += kernel.assignRange(
+          vectors, start, end, state.indices, state.distances, undefined,
+          state.blockLower.length > 0 ? state.blockLower : undefined,
+        );
         searched += end - start;
       }
     }

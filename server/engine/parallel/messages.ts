@@ -7,13 +7,14 @@ export interface AssignJob {
   d: number;
   codewords: SharedArrayBuffer; // K × d f32, row-major
   k: number;
+  order: SharedArrayBuffer; // K u32: the codeword at each position of the block layout
   indices: SharedArrayBuffer; // N u32, written (read too in a bounded pass)
   distances: SharedArrayBuffer; // N f64, written
-  lower: SharedArrayBuffer; // N f64, lower bounds, written (read too in a bounded pass)
+  blockLower: SharedArrayBuffer; // N × ⌈K/16⌉ f32, block bounds, written (read too in a bounded pass)
   control: SharedArrayBuffer; // Int32 [next chunk, cancel flag]
   chunkSize: number;
-  /** Present for a bounded pass: K f64 codeword moves and their summary. */
-  drift?: { moved: SharedArrayBuffer; max: number; argMax: number; second: number };
+  /** Present for a bounded pass: ⌈K/16⌉ f64, the largest codeword move within each block. */
+  drift?: { blockMoved: SharedArrayBuffer };
 }
 
 /** Centroid sums of the cells [cellStart, cellEnd): each worker owns whole cells. */

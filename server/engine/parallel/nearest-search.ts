@@ -10,8 +10,60 @@ import type { AssignJob, AssignReply } from './messages';
 const CHUNK = 2048;
 /** Below this many multiply-adds per pass the hand-off to workers costs more than it saves. */
 const MIN_PARALLEL_WORK = 1 << 22;
+/** Largest block-bound table kept between passes (see run). */
+const MAX_BOUND_BYTES = 256 * 1024 * 1024;
 
 let nextJobId = 1;
+
+/**
+ * Orders codewords so that each block of 16 consecutive positions holds codewords lying
+ * close together: recursive halving (at a multiple of 16) along each subset's principal
+ * direction, found by power iteration. Compact blocks make the per-block bounds tight, so
+ * a vector skips the blocks far from it. Any order gives the same results; this one
+ * depends only on the codebook, so every thread uses the same.
+ */
+export function blockOrder(codewords: Float32Array, k: number, d: number): Uint32Array {
+  const order = Uint32Array.from({ length: k }, (_, j) => j);
+  const mean = new Float64Array(d);
+  const dir = new Float64Array(d);
+  const next = new Float64Array(d);
+  const proj = new Float64Array(k);
+  const split = (from: number, to: number) => {
+    const count = to - from;
+    if (count <= 16) return;
+    mean.fill(0);
+    for (let p = from; p < to; p++) for (let i = 0; i < d; i++) mean[i] += codewords[order[p] * d + i];
+    for (let i = 0; i < d; i++) mean[i] /= count;
+    for (let i = 0; i < d; i++) dir[i] = 1 + i / d;
+    for (let it = 0; it < 8; it++) {
+      next.fill(0);
+      for (let p = from; p < to; p++) {
+        const o = order[p] * d;
+        let t = 0;
+        for (let i = 0; i < d; i++) t += (codewords[o + i] - mean[i]) * dir[i];
+        for (let i = 0; i < d; i++) next[i] += t * (codewords[o + i] - mean[i]);
+      }
+      let norm = 0;
+      for (let i = 0; i < d; i++) norm += next[i] * next[i];
+      if (!(norm > 0)) break;
+      norm = Math.sqrt(norm);
+      for (let i = 0; i < d; i++) dir[i] = next[i] / norm;
+    }
+    for (let p = from; p < to; p++) {
+      const o = order[p] * d;
+      let t = 0;
+      for (let i = 0; i < d; i++) t += codewords[o + i] * dir[i];
+      proj[order[p]] = t;
+    }
+    const part = Array.from(order.subarray(from, to)).sort((a, b) => proj[a] - proj[b] || a - b);
+    order.set(part, from);
+    const half = from + Math.ceil(count / 32) * 16;
+    split(from, half);
+    split(half, to);
+  };
+  split(0, k);
+  return order;
+}
 
 let localKernel: NearestKernel | undefined;
 function sharedLocalKernel(): NearestKernel {
@@ -32,26 +84,26 @@ function toShared(vectors: Float32Array): { buffer: SharedArrayBuffer; byteOffse
 export interface PassStats {
   /** Vectors whose near-tie was re-decided by the exact float64 search. */
   redecided: number;
-  /** Vectors that needed a search (the rest kept their codeword by the bound test). */
+  /** Vectors that searched beyond their current codeword's block (see assignBounded). */
   searched: number;
 }
 
 /**
  * Repeated nearest-codeword passes over one vector set (N × d), on the threads of one
  * lease. The vectors are shared with the workers once; each pass shares only the codebook.
- * Between passes with the same codebook size the search keeps per-vector bounds, so
- * vectors whose codeword provably stays the same skip the search; results are identical
- * to a full search either way. indices/distances hold the latest pass and may be
- * modified by the caller (the search keeps its own copy of its state).
+ * Between passes with the same codebook size the search keeps per-vector bounds for each
+ * block of 16 codewords, so a vector scans only the blocks that could hold a codeword
+ * nearer than its current one; results are identical to a full search either way.
+ * indices/distances hold the latest pass and may be modified by the caller (the search
+ * keeps its own copy of its state).
  */
 export class NearestSearch {
   readonly indices: Uint32Array;
   readonly distances: Float64Array;
   private readonly state: SearchState;
   private previous?: Float32Array;
-  /** Passes to run in full before trying the bound test again (it costs d per vector). */
-  private fullPasses = 0;
-  private backoff = 1;
+  /** Block layout order of the codewords, fixed while the bounds are kept. */
+  private order?: Uint32Array;
   private closed = false;
 
   private constructor(
@@ -61,7 +113,9 @@ export class NearestSearch {
     readonly d: number,
     private readonly lease: ThreadLease,
     private readonly workers: KernelWorker[],
-    private readonly buffers: { indices: SharedArrayBuffer; distances: SharedArrayBuffer; lower: SharedArrayBuffer },
+    private readonly buffers: {
+      indices: SharedArrayBuffer; distances: SharedArrayBuffer; blockLower: SharedArrayBuffer;
+    },
   ) {
     // Shared so that the centroid update can run on the workers too.
     this.indices = new Uint32Array(new SharedArrayBuffer(n * 4));
@@ -69,7 +123,7 @@ export class NearestSearch {
     this.state = {
       indices: new Uint32Array(buffers.indices),
       distances: new Float64Array(buffers.distances),
-      lower: new Float64Array(buffers.lower),
+      blockLower: new Float32Array(buffers.blockLower),
     };
   }
 
@@ -92,7 +146,7 @@ export class NearestSearch {
     return new NearestSearch(vectors, shared, n, d, lease, workers, {
       indices: new SharedArrayBuffer(n * 4),
       distances: new SharedArrayBuffer(n * 8),
-      lower: new SharedArrayBuffer(n * 8),
+      blockLower: new SharedArrayBuffer(0),
     });
   }
 
@@ -101,29 +155,27 @@ export class NearestSearch {
     if (this.closed) throw new Error('NearestSearch is closed');
     if (signal?.aborted) throw abortError(signal);
     const cw = codewords.subarray(0, k * this.d);
-    // Full and bounded passes give the same result, so this only chooses the cheaper one:
-    // while the codewords still move a lot the bound test rarely skips anything.
+    // Full and bounded passes give the same result; a bounded pass needs the bounds of a
+    // completed pass with a codebook of the same size.
     const sameSize = this.previous !== undefined && this.previous.length === cw.length;
-    if (!sameSize) {
-      this.fullPasses = 0;
-      this.backoff = 1;
+    if (!sameSize || !this.order) {
+      const order = blockOrder(cw, k, this.d);
+      this.order = new Uint32Array(new SharedArrayBuffer(k * 4));
+      this.order.set(order);
     }
-    const bounded = sameSize && this.fullPasses === 0;
-    if (this.fullPasses > 0) this.fullPasses--;
-    const drift = bounded ? this.driftFrom(this.previous!, cw, k) : undefined;
+    // Bounds take N × ⌈K/16⌉ float32; beyond MAX_BOUND_BYTES every pass runs in full.
+    const blocks = Math.ceil(k / 16);
+    const boundEntries = this.n * blocks * 4 <= MAX_BOUND_BYTES ? this.n * blocks : 0;
+    const drift = sameSize && boundEntries > 0 ? this.driftFrom(this.previous!, cw, k) : undefined;
     // Until the pass completes the bounds are stale: a failed pass must not be trusted.
     this.previous = undefined;
+    if (this.state.blockLower.length !== boundEntries) {
+      this.buffers.blockLower = new SharedArrayBuffer(boundEntries * 4);
+      this.state.blockLower = new Float32Array(this.buffers.blockLower);
+    }
     const stats = this.workers.length === 0 || this.n * this.d * k < MIN_PARALLEL_WORK
       ? this.runLocal(cw, k, drift)
       : await this.runWorkers(cw, k, drift, signal);
-    if (drift) {
-      if (stats.searched > 0.85 * this.n) {
-        this.fullPasses = this.backoff;
-        this.backoff = Math.min(this.backoff * 2, 8);
-      } else {
-        this.backoff = 1;
-      }
-    }
     this.previous = cw.slice();
     this.indices.set(this.state.indices);
     this.distances.set(this.state.distances);
@@ -132,31 +184,25 @@ export class NearestSearch {
 
   private driftFrom(previous: Float32Array, next: Float32Array, k: number): Drift {
     const d = this.d;
-    const moved = new Float64Array(new SharedArrayBuffer(k * 8));
-    let max = 0;
-    let argMax = 0;
-    let second = 0;
+    const position = new Uint32Array(k);
+    for (let p = 0; p < k; p++) position[this.order![p]] = p;
+    const blockMoved = new Float64Array(new SharedArrayBuffer(Math.ceil(k / 16) * 8));
     for (let j = 0; j < k; j++) {
       // Rounded up so that the bound test stays conservative.
       const m = Math.sqrt(exactDistance(previous, j * d, next, j * d, d)) * (1 + 1e-12);
-      moved[j] = m;
-      if (m > max) {
-        second = max;
-        max = m;
-        argMax = j;
-      } else if (m > second) {
-        second = m;
-      }
+      const b = position[j] >> 4;
+      if (m > blockMoved[b]) blockMoved[b] = m;
     }
-    return { moved, max, argMax, second };
+    return { blockMoved };
   }
 
   private runLocal(codewords: Float32Array, k: number, drift: Drift | undefined): PassStats {
     const kernel = sharedLocalKernel();
-    kernel.setCodebook(codewords, k, this.d);
+    kernel.setCodebook(codewords, k, this.d, this.order);
     if (drift) return kernel.assignBounded(this.vectors, 0, this.n, this.state, drift);
     const redecided = kernel.assignRange(
-      this.vectors, 0, this.n, this.state.indices, this.state.distances, this.state.lower,
+      this.vectors, 0, this.n, this.state.indices, this.state.distances, undefined,
+      this.state.blockLower.length > 0 ? this.state.blockLower : undefined,
     );
     return { redecided, searched: this.n };
   }
@@ -178,14 +224,13 @@ export class NearestSearch {
         d: this.d,
         codewords: cw,
         k,
+        order: this.order!.buffer as SharedArrayBuffer,
         indices: this.buffers.indices,
         distances: this.buffers.distances,
-        lower: this.buffers.lower,
+        blockLower: this.buffers.blockLower,
         control,
         chunkSize: CHUNK,
-        drift: drift && {
-          moved: drift.moved.buffer as SharedArrayBuffer, max: drift.max, argMax: drift.argMax, second: drift.second,
-        },
+        drift: drift && { blockMoved: drift.blockMoved.buffer as SharedArrayBuffer },
       };
       // Every worker is awaited, even after a failure, so none is left running a stale job.
       const replies = await Promise.allSettled(this.workers.map((w) => w.run({ ...job, jobId: nextJobId++ })));

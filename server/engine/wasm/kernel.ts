@@ -2,16 +2,23 @@ import { nearestKernelBase64 } from './nearest-kernel-binary';
 
 interface KernelExports {
   memory: WebAssembly.Memory;
-  resetState(statePtr: number, n: number): void;
+  resetState(statePtr: number, n: number, bminPtr: number, g: number): void;
   prepareRows(xoPtr: number, xPtr: number, n: number, d: number, dp: number, shiftPtr: number): void;
-  scanTile(
-    xPtr: number, n: number, dp: number, ctPtr: number, cnPtr: number, kp: number,
-    statePtr: number, jStart: number, jEnd: number,
+  planBlocks(
+    n: number, d: number, g: number, full: boolean, xoPtr: number, cPtr: number, blowPtr: number, movedPtr: number,
+    curPtr: number, ownPtr: number, upperPtr: number, curDistPtr: number,
+    listPtr: number, listStride: number, countPtr: number, skippedMinPtr: number,
+  ): number;
+  scanBlocks(
+    xPtr: number, dp: number, ctPtr: number, cnPtr: number, statePtr: number,
+    g: number, listPtr: number, listStride: number, countPtr: number, bminPtr: number,
   ): void;
   finishRows(
     xPtr: number, xoPtr: number, n: number, d: number, dp: number, ctPtr: number, cnPtr: number, kp: number,
     cPtr: number, k: number, maxNorm: number, bandPtr: number,
     statePtr: number, idxPtr: number, distPtr: number, lowerPtr: number,
+    g: number, bminPtr: number, blowPtr: number, permPtr: number,
+    haveCur: boolean, curPtr: number, curDistPtr: number, pendingPtr: number,
   ): number;
 }
 
@@ -19,18 +26,17 @@ interface KernelExports {
 export interface SearchState {
   indices: Uint32Array;
   distances: Float64Array;
-  /** Lower bound on the distance (not squared) from the vector to every other codeword. */
-  lower: Float64Array;
+  /**
+   * N × G (G = ⌈K/16⌉ blocks of 16 codewords, G entries per vector): a lower bound on the
+   * distance (not squared) from the vector to every codeword of each block.
+   */
+  blockLower: Float32Array;
 }
 
 /** How far the codewords moved since the pass that produced a SearchState. */
 export interface Drift {
-  /** K entries: distance each codeword moved, rounded up. */
-  moved: Float64Array;
-  max: number;
-  argMax: number;
-  /** Largest move among the codewords other than argMax. */
-  second: number;
+  /** G entries: the largest move within each block of 16 positions (see setCodebook). */
+  blockMoved: Float64Array;
 }
 
 /** Relative slack that keeps float64 rounding of the bounds on the safe side. */
@@ -45,10 +51,10 @@ function kernelModule(): WebAssembly.Module {
 }
 
 const PAGE = 65536;
-/** Vectors handled per pass over the codeword tiles: x rows and their state stay in L2. */
+/** Vectors handled per pass over the codeword blocks: x rows and their state stay in L2. */
 const BATCH = 256;
-/** Bytes of transposed codewords per tile, sized for the L1/L2 data caches. */
-const TILE_BYTES = 32768;
+/** Cap on the per-batch block tables (lists, minima, bounds: batch × G entries each). */
+const BATCH_BLOCK_ENTRIES = 1 << 20;
 
 const align = (n: number, a: number) => Math.ceil(n / a) * a;
 
@@ -66,7 +72,10 @@ export class NearestKernel {
   private dp = 0;
   private kp = 0;
   private maxNorm = 0;
-  private tile = 8;
+  /** Blocks of 16 codewords. */
+  private g = 0;
+  /** Vectors per batch (BATCH unless the codebook is huge). */
+  private batch = BATCH;
   private cnPtr = 0;
   private ctPtr = 0;
   private cPtr = 0;
@@ -79,35 +88,70 @@ export class NearestKernel {
   private idxPtr = 0;
   private distPtr = 0;
   private lowerPtr = 0;
+  private listPtr = 0;
+  private countPtr = 0;
+  private bminPtr = 0;
+  private blowPtr = 0;
+  private permPtr = 0;
+  private movedPtr = 0;
+  private upperPtr = 0;
+  private ownPtr = 0;
+  private curPtr = 0;
+  private curDistPtr = 0;
+  private pendingPtr = 0;
+  private skippedPtr = 0;
+  /** Position of each codeword in the block layout (the inverse of the order). */
+  private position = new Uint32Array(0);
   private codewords: Float32Array = new Float32Array(0);
   private rows = new Uint32Array(0);
+  /** Vectors of the last bounded search that scanned only their own block. */
+  private pruned = 0;
 
   constructor() {
     const instance = new WebAssembly.Instance(kernelModule(), {});
     this.exports = instance.exports as unknown as KernelExports;
   }
 
-  /** Loads a codebook: codewords K × d, row-major. Must precede assignRange. */
-  setCodebook(codewords: Float32Array, k: number, d: number): void {
+  /**
+   * Loads a codebook: codewords K × d, row-major. `order` (K entries, a permutation)
+   * lists the codeword placed at each position of the block layout; block bounds refer to
+   * blocks of 16 consecutive positions. Must precede assignRange.
+   */
+  setCodebook(codewords: Float32Array, k: number, d: number, order?: Uint32Array): void {
     const dp = align(d, 4);
     const kp = align(k, 16);
     this.k = k;
     this.d = d;
     this.dp = dp;
     this.kp = kp;
-    this.tile = Math.max(16, Math.floor(TILE_BYTES / (dp * 4) / 16) * 16);
+    this.g = kp / 16;
+    // Huge codebooks get smaller batches, so the block tables stay a few megabytes.
+    this.batch = Math.max(2, Math.min(BATCH, Math.floor(BATCH_BLOCK_ENTRIES / this.g)));
+    const batch = this.batch;
     this.shiftPtr = 64;
     this.cnPtr = align(this.shiftPtr + d * 8, 64);
     this.ctPtr = align(this.cnPtr + kp * 4, 64);
     this.cPtr = align(this.ctPtr + dp * kp * 4, 64);
     this.xPtr = align(this.cPtr + k * d * 4, 64);
-    this.xoPtr = align(this.xPtr + BATCH * dp * 4, 64);
-    this.bandPtr = align(this.xoPtr + BATCH * d * 4, 64);
+    this.xoPtr = align(this.xPtr + batch * dp * 4, 64);
+    this.bandPtr = align(this.xoPtr + batch * d * 4, 64);
     this.statePtr = align(this.bandPtr + kp * 4, 64);
-    this.idxPtr = align(this.statePtr + BATCH * 48, 64);
-    this.distPtr = align(this.idxPtr + BATCH * 4, 64);
-    this.lowerPtr = align(this.distPtr + BATCH * 8, 64);
-    this.ensureMemory(this.lowerPtr + BATCH * 8);
+    this.idxPtr = align(this.statePtr + batch * 48, 64);
+    this.distPtr = align(this.idxPtr + batch * 4, 64);
+    this.lowerPtr = align(this.distPtr + batch * 8, 64);
+    this.listPtr = align(this.lowerPtr + batch * 8, 64);
+    this.countPtr = align(this.listPtr + this.g * batch * 4, 64);
+    this.bminPtr = align(this.countPtr + this.g * 4, 64);
+    this.blowPtr = align(this.bminPtr + batch * this.g * 4, 64);
+    this.permPtr = align(this.blowPtr + batch * this.g * 4, 64);
+    this.movedPtr = align(this.permPtr + k * 4, 64);
+    this.upperPtr = align(this.movedPtr + this.g * 8, 64);
+    this.ownPtr = align(this.upperPtr + batch * 8, 64);
+    this.curPtr = align(this.ownPtr + batch * 4, 64);
+    this.skippedPtr = align(this.curPtr + batch * 4, 64);
+    this.curDistPtr = align(this.skippedPtr + batch * 8, 64);
+    this.pendingPtr = align(this.curDistPtr + batch * 8, 64);
+    this.ensureMemory(this.pendingPtr + batch * 4);
     this.codewords = codewords;
 
     const buf = this.exports.memory.buffer;
@@ -123,15 +167,23 @@ export class NearestKernel {
     // norms in the error bound small. Rounded to float32 so x − μ is formed from two floats.
     for (let i = 0; i < d; i++) shift[i] = Math.fround(shift[i] / k);
     let maxSq = 0;
-    for (let j = 0; j < k; j++) {
+    const perm = new Uint32Array(buf, this.permPtr, k);
+    if (this.position.length !== k) this.position = new Uint32Array(k);
+    for (let p = 0; p < k; p++) {
+      const j = order ? order[p] : p;
+      perm[p] = j;
+      this.position[j] = p;
+    }
+    for (let p = 0; p < k; p++) {
+      const j = perm[p];
       const base = j * d;
-      // Block layout (see assembly/assign-nearest.ts): block j >> 4, row i, lane j & 15.
-      const at = (j >> 4) * dp * 16 + (j & 15);
+      // Block layout (see assembly/assign-nearest.ts): block p >> 4, row i, lane p & 15.
+      const at = (p >> 4) * dp * 16 + (p & 15);
       for (let i = 0; i < d; i++) ct[at + i * 16] = codewords[base + i] - shift[i];
       // Norm of the stored (rounded) shifted codeword, as the kernel sees it.
       let s = 0;
       for (let i = 0; i < d; i++) s += ct[at + i * 16] * ct[at + i * 16];
-      cn[j] = s;
+      cn[p] = s;
       if (s > maxSq) maxSq = s;
     }
     for (let j = k; j < kp; j++) cn[j] = Infinity;
@@ -139,95 +191,123 @@ export class NearestKernel {
     this.maxNorm = Math.sqrt(maxSq) * (1 + 1e-12);
   }
 
+  /** Blocks of 16 codewords of the loaded codebook: the G of SearchState.blockLower. */
+  get blocks(): number {
+    return this.g;
+  }
+
   /**
    * Assigns vectors [start, end) of `vectors` (N × d, row-major) and writes their nearest
    * codeword and exact squared distance to outIdx/outDist at the same positions (and, when
-   * given, the lower bound on the distance to every other codeword to outLower).
+   * given, the lower bound on the distance to every other codeword to outLower and the
+   * block bounds, N × blocks, to outBlocks).
    * Returns how many vectors needed the exact re-decision.
    */
   assignRange(
     vectors: Float32Array, start: number, end: number, outIdx: Uint32Array, outDist: Float64Array,
-    outLower?: Float64Array,
+    outLower?: Float64Array, outBlocks?: Float32Array,
   ): number {
-    return this.search(vectors, end - start, (i) => start + i, outIdx, outDist, outLower, true);
+    if (this.rows.length < end - start) this.rows = new Uint32Array(end - start);
+    for (let v = start; v < end; v++) this.rows[v - start] = v;
+    return this.search(vectors, end - start, outIdx, outDist, outLower, outBlocks);
   }
 
   /**
-   * Bounded pass (the bound test of G. Hamerly, "Making k-means even faster", SDM 2010):
-   * a vector keeps its codeword a without a search when its exact distance to a is below
-   * its lower bound to every other codeword, lowered by how far those codewords moved.
-   * Either way the distance written is exact, and the choice equals the full search.
-   * Vectors [start, end); state is read and updated in place. Returns the vectors that
-   * needed a full search and how many of those were re-decided exactly.
+   * Bounded pass, with one bound per vector and block of 16 codewords (the grouping of
+   * Y. Ding et al., "Yinyang K-means", ICML 2015; the bound update with the codeword
+   * drift follows G. Hamerly, "Making k-means even faster", SDM 2010): with u the exact
+   * distance from a vector to its current codeword a, only the blocks whose bound,
+   * lowered by the block's largest move, is not above u are scanned, and always a's own
+   * block. Every codeword of a skipped block is provably farther than a, so it can neither
+   * be the nearest nor tie with it, and the scanned set decides exactly as a full search
+   * would; the distance written is exact. Vectors [start, end); state is read and updated
+   * in place. Returns how many vectors searched beyond their own block and how many were
+   * re-decided exactly.
    */
   assignBounded(
     vectors: Float32Array, start: number, end: number, state: SearchState, drift: Drift,
   ): { searched: number; redecided: number } {
-    const { d } = this;
-    const c = this.codewords;
-    if (this.rows.length < end - start) this.rows = new Uint32Array(end - start);
-    const rows = this.rows;
-    let count = 0;
-    for (let v = start; v < end; v++) {
-      const a = state.indices[v];
-      const lower = (state.lower[v] - (a === drift.argMax ? drift.second : drift.max)) * (1 - BOUND_SLACK);
-      let s = 0;
-      const vo = v * d;
-      const co = a * d;
-      for (let i = 0; i < d; i++) {
-        const t = vectors[vo + i] - c[co + i];
-        s += t * t;
-      }
-      if (Math.sqrt(s) * (1 + BOUND_SLACK) < lower) {
-        state.distances[v] = s;
-        state.lower[v] = lower;
-      } else {
-        rows[count++] = v;
-      }
-    }
-    const redecided = this.search(vectors, count, (i) => rows[i], state.indices, state.distances, state.lower);
-    return { searched: count, redecided };
+    const count = end - start;
+    if (this.rows.length < count) this.rows = new Uint32Array(count);
+    for (let v = start; v < end; v++) this.rows[v - start] = v;
+    this.pruned = 0;
+    const redecided = this.search(
+      vectors, count, state.indices, state.distances, undefined, state.blockLower, drift,
+    );
+    return { searched: count - this.pruned, redecided };
   }
 
-  /** Full search of `count` vectors, the i-th being row rowOf(i); results go to that row. */
+  /**
+   * Search of `count` vectors, the i-th being row rows[i]; results go to that row. With a
+   * drift (a bounded pass) each vector scans only the blocks its bounds cannot exclude
+   * given its current codeword outIdx[row]; otherwise every block.
+   */
   private search(
-    vectors: Float32Array, count: number, rowOf: (i: number) => number,
-    outIdx: Uint32Array, outDist: Float64Array, outLower?: Float64Array, contiguous = false,
+    vectors: Float32Array, count: number,
+    outIdx: Uint32Array, outDist: Float64Array, outLower?: Float64Array, outBlocks?: Float32Array,
+    drift?: Drift,
   ): number {
-    const { d, dp, k, kp, tile } = this;
+    const { d, dp, k, kp, g, batch } = this;
     if (k === 0) throw new Error('NearestKernel: setCodebook must be called first');
+    const rows = this.rows;
     const e = this.exports;
     const buf = e.memory.buffer;
-    const xo = new Float32Array(buf, this.xoPtr, BATCH * d);
-    const idx = new Uint32Array(buf, this.idxPtr, BATCH);
-    const dist = new Float64Array(buf, this.distPtr, BATCH);
-    const low = new Float64Array(buf, this.lowerPtr, BATCH);
+    const xo = new Float32Array(buf, this.xoPtr, batch * d);
+    const idx = new Uint32Array(buf, this.idxPtr, batch);
+    const dist = new Float64Array(buf, this.distPtr, batch);
+    const low = new Float64Array(buf, this.lowerPtr, batch);
+    const blow = new Float32Array(buf, this.blowPtr, batch * g);
+    const cur = new Int32Array(buf, this.curPtr, batch);
+    const own = new Int32Array(buf, this.ownPtr, batch);
+    const skippedMin = new Float64Array(buf, this.skippedPtr, batch);
+    const bounded = drift !== undefined && outBlocks !== undefined;
+    if (bounded) new Float64Array(buf, this.movedPtr, g).set(drift.blockMoved);
     let redecided = 0;
-    for (let b = 0; b < count; b += BATCH) {
-      const n = Math.min(BATCH, count - b);
-      if (contiguous) {
-        const first = rowOf(b);
-        xo.set(vectors.subarray(first * d, (first + n) * d));
-      } else {
+    for (let b = 0; b < count; b += batch) {
+      const n = Math.min(batch, count - b);
+      // Rows come in increasing order, mostly in runs: each run is one copy.
+      for (let v = 0; v < n;) {
+        const first = rows[b + v];
+        let run = 1;
+        while (v + run < n && rows[b + v + run] === first + run) run++;
+        xo.set(vectors.subarray(first * d, (first + run) * d), v * d);
+        if (bounded) blow.set(outBlocks.subarray(first * g, (first + run) * g), v * g);
+        v += run;
+      }
+      if (bounded) {
         for (let v = 0; v < n; v++) {
-          const src = rowOf(b + v) * d;
-          xo.set(vectors.subarray(src, src + d), v * d);
+          const a = outIdx[rows[b + v]];
+          cur[v] = a;
+          own[v] = this.position[a] >> 4;
         }
       }
+      this.pruned += e.planBlocks(
+        n, d, g, !bounded, this.xoPtr, this.cPtr, this.blowPtr, this.movedPtr,
+        this.curPtr, this.ownPtr, this.upperPtr, this.curDistPtr, this.listPtr, batch, this.countPtr, this.skippedPtr,
+      );
       e.prepareRows(this.xoPtr, this.xPtr, n, d, dp, this.shiftPtr);
-      e.resetState(this.statePtr, n);
-      for (let j = 0; j < kp; j += tile) {
-        e.scanTile(this.xPtr, n, dp, this.ctPtr, this.cnPtr, kp, this.statePtr, j, Math.min(kp, j + tile));
-      }
+      e.resetState(this.statePtr, n, this.bminPtr, g);
+      e.scanBlocks(this.xPtr, dp, this.ctPtr, this.cnPtr, this.statePtr, g, this.listPtr, batch, this.countPtr, this.bminPtr);
       redecided += e.finishRows(
         this.xPtr, this.xoPtr, n, d, dp, this.ctPtr, this.cnPtr, kp, this.cPtr, k, this.maxNorm, this.bandPtr,
-        this.statePtr, this.idxPtr, this.distPtr, this.lowerPtr,
+        this.statePtr, this.idxPtr, this.distPtr, this.lowerPtr, g, this.bminPtr, this.blowPtr,
+        this.permPtr, bounded, this.curPtr, this.curDistPtr, this.pendingPtr,
       );
       for (let v = 0; v < n; v++) {
-        const r = rowOf(b + v);
+        const r = rows[b + v];
         outIdx[r] = idx[v];
         outDist[r] = dist[v];
-        if (outLower) outLower[r] = Math.sqrt(low[v]) * (1 - BOUND_SLACK);
+        // Codewords of skipped blocks are bounded by those blocks' bounds.
+        if (outLower) outLower[r] = Math.min(Math.sqrt(low[v]) * (1 - BOUND_SLACK), skippedMin[v]);
+      }
+      if (outBlocks) {
+        for (let v = 0; v < n;) {
+          const first = rows[b + v];
+          let run = 1;
+          while (v + run < n && rows[b + v + run] === first + run) run++;
+          outBlocks.set(blow.subarray(v * g, (v + run) * g), first * g);
+          v += run;
+        }
       }
     }
     return redecided;

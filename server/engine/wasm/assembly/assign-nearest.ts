@@ -9,15 +9,24 @@
 //   x      (as above) holds x − μ, the vectors shifted by the codebook mean μ: distances do
 //          not change, and the smaller norms tighten the float32 error bound
 //   xo     n × d f32, the same vectors unshifted, for exact distances
-//   ct     shifted codewords c − μ, zero-padded to kp (a multiple of 16), in blocks of 16
-//          codewords: block b holds dp rows of 16 f32 (component i of codewords 16b..16b+15),
-//          so a scan reads memory strictly in sequence
-//   cn     kp f32, ‖c_j − μ‖² rounded to f32; padding columns hold +Infinity so they never win
+//   perm   k u32: the codeword held at each position of ct and cn (positions group codewords
+//          that lie close together, which tightens the block bounds)
+//   ct     shifted codewords c − μ at their positions, zero-padded to kp (a multiple of 16),
+//          in blocks of 16: block b holds dp rows of 16 f32 (component i of positions
+//          16b..16b+15), so a scan reads memory strictly in sequence
+//   cn     kp f32, ‖c − μ‖² by position, rounded to f32; padding holds +Infinity so it never wins
 //   c      k × d f32, row-major codewords (unshifted), for exact distances
 //   band   kp f32 scratch for the re-decision
 //   state  n × 48 bytes: per-lane best value, second-best value (f32x4) and best index (i32x4)
 //   idx    n u32 output, dist n f64 output
-//   lower  n f64 output: a lower bound on the squared distance to every other codeword
+//   lower  n f64 output: a lower bound on the squared distance to every other codeword of
+//          the scanned blocks (the caller folds in the bounds of the skipped ones)
+//   lists  for each 16-codeword block g, the vectors (batch positions, i32) that scan it:
+//          lists + g × stride × 4, count[g] entries
+//   bmin   n × g f32: per vector and block, the smallest expanded value of the block;
+//          +Infinity marks a block the vector did not scan
+//   blow   n × g f32 in/out: per vector and block, a lower bound on the distance (not
+//          squared) to every codeword of the block; rewritten for the scanned blocks
 
 const U32: f64 = 5.9604644775390625e-8; // 2^-24, unit roundoff of float32
 const U64: f64 = 1.1102230246251565e-16; // 2^-53, unit roundoff of float64
@@ -30,15 +39,23 @@ export function prepareRows(xoPtr: usize, xPtr: usize, n: i32, d: i32, dp: i32, 
   for (let v = 0; v < n; v++) {
     const src = xoPtr + <usize>v * <usize>d * 4;
     const dst = xPtr + <usize>v * <usize>dp * 4;
-    for (let i = 0; i < d; i++) {
+    // Two components at a time in f64x2: promotion, subtraction and demotion round per
+    // lane exactly as the scalar casts do.
+    let i = 0;
+    for (; i + 2 <= d; i += 2) {
+      const x = f64x2.promote_low_f32x4(v128.load64_zero(src + <usize>i * 4));
+      const r = f32x4.demote_f64x2_zero(f64x2.sub(x, v128.load(shiftPtr + <usize>i * 8)));
+      v128.store64_lane(dst + <usize>i * 4, r, 0);
+    }
+    for (; i < d; i++) {
       store<f32>(dst + <usize>i * 4, <f32>(<f64>load<f32>(src + <usize>i * 4) - load<f64>(shiftPtr + <usize>i * 8)));
     }
     for (let i = d; i < dp; i++) store<f32>(dst + <usize>i * 4, 0);
   }
 }
 
-/** Resets the running minima of n vectors before the first codeword tile. */
-export function resetState(statePtr: usize, n: i32): void {
+/** Resets the running minima of n vectors and marks their g blocks as not scanned. */
+export function resetState(statePtr: usize, n: i32, bminPtr: usize, g: i32): void {
   const inf = f32x4.splat(<f32>Infinity);
   const zero = i32x4.splat(0);
   for (let v = 0; v < n; v++) {
@@ -47,77 +64,189 @@ export function resetState(statePtr: usize, n: i32): void {
     v128.store(st, inf, 16);
     v128.store(st, zero, 32);
   }
+  const total = <usize>n * <usize>g;
+  for (let i: usize = 0; i < total; i++) store<f32>(bminPtr + i * 4, <f32>Infinity);
 }
 
 /**
- * Scans codewords [jStart, jEnd) (multiples of 16) for n vectors with the expansion
- * ‖c‖² − 2x·c (‖x‖² is the same for every codeword of one vector, so it is left out).
- * Two vectors share every codeword load (register blocking 2 × 16); each lane sums its dp
- * products in component order, a chain of dp + 1 float32 roundings that finishRows bounds.
+ * Folds the expanded values ‖c‖² − 2x·c of 4 codewords (indices ids) into a vector's
+ * running best value, second-best value and best index (per lane); returns the values.
  */
-export function scanTile(
-  xPtr: usize, n: i32, dp: i32, ctPtr: usize, cnPtr: usize, kp: i32,
-  statePtr: usize, jStart: i32, jEnd: i32,
+// @ts-ignore: decorator
+@inline
+function fold(st: usize, cn: v128, acc: v128, ids: v128): v128 {
+  // pmin/pmax (one instruction each, unlike the NaN-propagating min/max): values here
+  // are never NaN because finishRows sends every vector whose norms could overflow
+  // float32 to the exact search.
+  const val = f32x4.sub(cn, f32x4.add(acc, acc));
+  const m1 = v128.load(st);
+  v128.store(st, f32x4.pmin(v128.load(st, 16), f32x4.pmax(m1, val)), 16);
+  v128.store(st, v128.bitselect(ids, v128.load(st, 32), f32x4.lt(val, m1)), 32);
+  v128.store(st, f32x4.pmin(m1, val));
+  return val;
+}
+
+/** Smallest of four per-lane minima: the block minimum recorded for the block bounds. */
+// @ts-ignore: decorator
+@inline
+function blockMin(a: v128, b: v128, c: v128, d: v128): f32 {
+  const m = f32x4.pmin(f32x4.pmin(a, b), f32x4.pmin(c, d));
+  return min(min(f32x4.extract_lane(m, 0), f32x4.extract_lane(m, 1)), min(f32x4.extract_lane(m, 2), f32x4.extract_lane(m, 3)));
+}
+
+/**
+ * Scans, for every 16-codeword block, the vectors listed for it, with the expansion
+ * ‖c‖² − 2x·c (‖x‖² is the same for every codeword of one vector, so it is left out).
+ * Blocks outside and vectors inside: one block (dp × 64 bytes) stays in the L1 cache while
+ * its vectors stream past, and the running minima live in memory between blocks, leaving
+ * the registers to the inner loop. Two vectors share every codeword load (register
+ * blocking 2 × 16); each lane sums its dp products in component order, a chain of dp + 1
+ * float32 roundings that finishRows bounds. A lane's value depends only on its vector and
+ * codeword, never on which vector it was paired with.
+ */
+export function scanBlocks(
+  xPtr: usize, dp: i32, ctPtr: usize, cnPtr: usize, statePtr: usize,
+  g: i32, listPtr: usize, listStride: i32, countPtr: usize, bminPtr: usize,
 ): void {
   const blockBytes = <usize>dp * 64;
+  const rowBytes = <usize>dp * 4;
   const iota = i32x4(0, 1, 2, 3);
-  for (let v = 0; v < n; v += 2) {
-    const x0 = xPtr + <usize>v * <usize>dp * 4;
-    const x1 = v + 1 < n ? x0 + <usize>dp * 4 : x0;
-    const st0 = statePtr + <usize>v * 48;
-    const st1 = v + 1 < n ? st0 + 48 : st0;
-    let m10 = v128.load(st0), m20 = v128.load(st0, 16), bi0 = v128.load(st0, 32);
-    let m11 = v128.load(st1), m21 = v128.load(st1, 16), bi1 = v128.load(st1, 32);
-    for (let j0 = jStart; j0 < jEnd; j0 += 16) {
+  for (let b = 0; b < g; b++) {
+    const cb = ctPtr + <usize>b * blockBytes;
+    const cnp = cnPtr + <usize>b * 64;
+    const i0 = i32x4.add(i32x4.splat(b << 4), iota);
+    const i1 = i32x4.add(i0, i32x4.splat(4));
+    const i2 = i32x4.add(i0, i32x4.splat(8));
+    const i3 = i32x4.add(i0, i32x4.splat(12));
+    const list = listPtr + <usize>b * <usize>listStride * 4;
+    const count = load<i32>(countPtr + <usize>b * 4);
+    for (let p = 0; p < count; p += 2) {
+      const v0 = load<i32>(list + <usize>p * 4);
+      // An odd last vector is paired with itself; only its own state is written.
+      const v1 = p + 1 < count ? load<i32>(list + <usize>p * 4, 4) : v0;
+      const x0 = xPtr + <usize>v0 * rowBytes;
+      const x1 = xPtr + <usize>v1 * rowBytes;
       let a0 = f32x4.splat(0), a1 = f32x4.splat(0), a2 = f32x4.splat(0), a3 = f32x4.splat(0);
       let b0 = f32x4.splat(0), b1 = f32x4.splat(0), b2 = f32x4.splat(0), b3 = f32x4.splat(0);
-      let cp = ctPtr + <usize>(j0 >> 4) * blockBytes;
+      let cp = cb;
       let o: usize = 0;
-      const oEnd = <usize>dp * 4;
-      while (o < oEnd) {
-        const p = v128.load32_splat(x0 + o);
-        const q = v128.load32_splat(x1 + o);
+      while (o < rowBytes) {
+        const p0 = v128.load32_splat(x0 + o);
+        const q0 = v128.load32_splat(x1 + o);
         const c0 = v128.load(cp), c1 = v128.load(cp, 16), c2 = v128.load(cp, 32), c3 = v128.load(cp, 48);
-        a0 = f32x4.add(a0, f32x4.mul(p, c0));
-        a1 = f32x4.add(a1, f32x4.mul(p, c1));
-        a2 = f32x4.add(a2, f32x4.mul(p, c2));
-        a3 = f32x4.add(a3, f32x4.mul(p, c3));
-        b0 = f32x4.add(b0, f32x4.mul(q, c0));
-        b1 = f32x4.add(b1, f32x4.mul(q, c1));
-        b2 = f32x4.add(b2, f32x4.mul(q, c2));
-        b3 = f32x4.add(b3, f32x4.mul(q, c3));
+        a0 = f32x4.add(a0, f32x4.mul(p0, c0));
+        a1 = f32x4.add(a1, f32x4.mul(p0, c1));
+        a2 = f32x4.add(a2, f32x4.mul(p0, c2));
+        a3 = f32x4.add(a3, f32x4.mul(p0, c3));
+        b0 = f32x4.add(b0, f32x4.mul(q0, c0));
+        b1 = f32x4.add(b1, f32x4.mul(q0, c1));
+        b2 = f32x4.add(b2, f32x4.mul(q0, c2));
+        b3 = f32x4.add(b3, f32x4.mul(q0, c3));
         cp += 64;
         o += 4;
       }
-      // pmin/pmax (one instruction each, unlike the NaN-propagating min/max): values here
-      // are never NaN because finishRows sends every vector whose norms could overflow
-      // float32 to the exact search.
-      const cnp = cnPtr + <usize>j0 * 4;
       const n0 = v128.load(cnp), n1 = v128.load(cnp, 16), n2 = v128.load(cnp, 32), n3 = v128.load(cnp, 48);
-      const i0 = i32x4.add(i32x4.splat(j0), iota);
-      const i1 = i32x4.add(i32x4.splat(j0 + 4), iota);
-      const i2 = i32x4.add(i32x4.splat(j0 + 8), iota);
-      const i3 = i32x4.add(i32x4.splat(j0 + 12), iota);
-      let val = f32x4.sub(n0, f32x4.add(a0, a0));
-      m20 = f32x4.pmin(m20, f32x4.pmax(m10, val)); bi0 = v128.bitselect(i0, bi0, f32x4.lt(val, m10)); m10 = f32x4.pmin(m10, val);
-      val = f32x4.sub(n1, f32x4.add(a1, a1));
-      m20 = f32x4.pmin(m20, f32x4.pmax(m10, val)); bi0 = v128.bitselect(i1, bi0, f32x4.lt(val, m10)); m10 = f32x4.pmin(m10, val);
-      val = f32x4.sub(n2, f32x4.add(a2, a2));
-      m20 = f32x4.pmin(m20, f32x4.pmax(m10, val)); bi0 = v128.bitselect(i2, bi0, f32x4.lt(val, m10)); m10 = f32x4.pmin(m10, val);
-      val = f32x4.sub(n3, f32x4.add(a3, a3));
-      m20 = f32x4.pmin(m20, f32x4.pmax(m10, val)); bi0 = v128.bitselect(i3, bi0, f32x4.lt(val, m10)); m10 = f32x4.pmin(m10, val);
-      val = f32x4.sub(n0, f32x4.add(b0, b0));
-      m21 = f32x4.pmin(m21, f32x4.pmax(m11, val)); bi1 = v128.bitselect(i0, bi1, f32x4.lt(val, m11)); m11 = f32x4.pmin(m11, val);
-      val = f32x4.sub(n1, f32x4.add(b1, b1));
-      m21 = f32x4.pmin(m21, f32x4.pmax(m11, val)); bi1 = v128.bitselect(i1, bi1, f32x4.lt(val, m11)); m11 = f32x4.pmin(m11, val);
-      val = f32x4.sub(n2, f32x4.add(b2, b2));
-      m21 = f32x4.pmin(m21, f32x4.pmax(m11, val)); bi1 = v128.bitselect(i2, bi1, f32x4.lt(val, m11)); m11 = f32x4.pmin(m11, val);
-      val = f32x4.sub(n3, f32x4.add(b3, b3));
-      m21 = f32x4.pmin(m21, f32x4.pmax(m11, val)); bi1 = v128.bitselect(i3, bi1, f32x4.lt(val, m11)); m11 = f32x4.pmin(m11, val);
+      const st0 = statePtr + <usize>v0 * 48;
+      const w0 = fold(st0, n0, a0, i0);
+      const w1 = fold(st0, n1, a1, i1);
+      const w2 = fold(st0, n2, a2, i2);
+      const w3 = fold(st0, n3, a3, i3);
+      store<f32>(bminPtr + (<usize>v0 * <usize>g + <usize>b) * 4, blockMin(w0, w1, w2, w3));
+      if (v1 != v0) {
+        const st1 = statePtr + <usize>v1 * 48;
+        const z0 = fold(st1, n0, b0, i0);
+        const z1 = fold(st1, n1, b1, i1);
+        const z2 = fold(st1, n2, b2, i2);
+        const z3 = fold(st1, n3, b3, i3);
+        store<f32>(bminPtr + (<usize>v1 * <usize>g + <usize>b) * 4, blockMin(z0, z1, z2, z3));
+      }
     }
-    v128.store(st0, m10); v128.store(st0, m20, 16); v128.store(st0, bi0, 32);
-    if (v + 1 < n) { v128.store(st1, m11); v128.store(st1, m21, 16); v128.store(st1, bi1, 32); }
   }
+}
+
+/**
+ * Chooses the blocks each of n vectors scans in a bounded pass. Vector v (batch position,
+ * unshifted copy in xo) has current codeword cur[v], in block own[v]; blow holds its block
+ * bounds from the previous pass and moved (g f64) each block's largest move. With u its
+ * exact distance to cur[v] (rounded up), a block other than own[v] whose lowered bound
+ * exceeds u holds only codewords farther than the current one: it is skipped and its
+ * bound kept, lowered (the float32 step down covers the rounding); every other block is
+ * listed for the scan. skippedMin[v] receives the smallest bound of the skipped blocks
+ * (+Infinity when none), curDist[v] the exact squared distance to cur[v] (exactDistance's
+ * bits). With full set (no bounds yet) every block is listed.
+ * Returns how many vectors scan only their own block.
+ */
+export function planBlocks(
+  n: i32, d: i32, g: i32, full: bool, xoPtr: usize, cPtr: usize, blowPtr: usize, movedPtr: usize,
+  curPtr: usize, ownPtr: usize, upperPtr: usize, curDistPtr: usize,
+  listPtr: usize, listStride: i32, countPtr: usize, skippedMinPtr: usize,
+): i32 {
+  for (let b = 0; b < g; b++) store<i32>(countPtr + <usize>b * 4, 0);
+  if (full) {
+    for (let v = 0; v < n; v++) {
+      for (let b = 0; b < g; b++) {
+        const c = load<i32>(countPtr + <usize>b * 4);
+        store<i32>(listPtr + (<usize>b * <usize>listStride + <usize>c) * 4, v);
+        store<i32>(countPtr + <usize>b * 4, c + 1);
+      }
+      store<f64>(skippedMinPtr + <usize>v * 8, Infinity);
+    }
+    return 0;
+  }
+  // Exact distances to the current codewords, four vectors at a time (independent chains,
+  // each in component order).
+  const rowBytes = <usize>d * 4;
+  for (let v = 0; v < n; v += 4) {
+    const v1 = min(v + 1, n - 1), v2 = min(v + 2, n - 1), v3 = min(v + 3, n - 1);
+    const x0 = xoPtr + <usize>v * rowBytes, x1 = xoPtr + <usize>v1 * rowBytes;
+    const x2 = xoPtr + <usize>v2 * rowBytes, x3 = xoPtr + <usize>v3 * rowBytes;
+    const c0 = cPtr + <usize>load<i32>(curPtr + <usize>v * 4) * rowBytes;
+    const c1 = cPtr + <usize>load<i32>(curPtr + <usize>v1 * 4) * rowBytes;
+    const c2 = cPtr + <usize>load<i32>(curPtr + <usize>v2 * 4) * rowBytes;
+    const c3 = cPtr + <usize>load<i32>(curPtr + <usize>v3 * 4) * rowBytes;
+    let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, s3: f64 = 0;
+    for (let o: usize = 0; o < rowBytes; o += 4) {
+      const t0 = <f64>load<f32>(x0 + o) - <f64>load<f32>(c0 + o);
+      const t1 = <f64>load<f32>(x1 + o) - <f64>load<f32>(c1 + o);
+      const t2 = <f64>load<f32>(x2 + o) - <f64>load<f32>(c2 + o);
+      const t3 = <f64>load<f32>(x3 + o) - <f64>load<f32>(c3 + o);
+      s0 += t0 * t0;
+      s1 += t1 * t1;
+      s2 += t2 * t2;
+      s3 += t3 * t3;
+    }
+    store<f64>(curDistPtr + <usize>v * 8, s0);
+    store<f64>(curDistPtr + <usize>v1 * 8, s1);
+    store<f64>(curDistPtr + <usize>v2 * 8, s2);
+    store<f64>(curDistPtr + <usize>v3 * 8, s3);
+    store<f64>(upperPtr + <usize>v * 8, Math.sqrt(s0) * (1 + 1e-12));
+    store<f64>(upperPtr + <usize>v1 * 8, Math.sqrt(s1) * (1 + 1e-12));
+    store<f64>(upperPtr + <usize>v2 * 8, Math.sqrt(s2) * (1 + 1e-12));
+    store<f64>(upperPtr + <usize>v3 * 8, Math.sqrt(s3) * (1 + 1e-12));
+  }
+  let pruned = 0;
+  for (let v = 0; v < n; v++) {
+    const row = blowPtr + <usize>v * <usize>g * 4;
+    let minSkipped: f64 = Infinity;
+    const u = load<f64>(upperPtr + <usize>v * 8);
+    const own = load<i32>(ownPtr + <usize>v * 4);
+    let listed = 0;
+    for (let b = 0; b < g; b++) {
+      const bound = (<f64>load<f32>(row + <usize>b * 4) - load<f64>(movedPtr + <usize>b * 8)) * (1 - 1e-12);
+      if (b != own && u < bound) {
+        store<f32>(row + <usize>b * 4, <f32>(bound * (1 - 1e-6)));
+        if (bound < minSkipped) minSkipped = bound;
+      } else {
+        const c = load<i32>(countPtr + <usize>b * 4);
+        store<i32>(listPtr + (<usize>b * <usize>listStride + <usize>c) * 4, v);
+        store<i32>(countPtr + <usize>b * 4, c + 1);
+        listed++;
+      }
+    }
+    if (listed == 1) pruned++;
+    store<f64>(skippedMinPtr + <usize>v * 8, minSkipped);
+  }
+  return pruned;
 }
 
 /** Exact squared distance: Σ (x_i − c_i)² over i = 0..d−1 in this order, float64. */
@@ -132,7 +261,7 @@ function exactDistance(x: usize, c: usize, d: i32): f64 {
 
 /**
  * Expanded values of one vector against every codeword into band[0..kp) (same float32
- * summation order as scanTile, so the same error bound holds).
+ * summation order as scanBlocks, so the same error bound holds).
  */
 function scanOne(x: usize, dp: i32, ctPtr: usize, cnPtr: usize, kp: i32, band: usize): void {
   const blockBytes = <usize>dp * 64;
@@ -174,14 +303,16 @@ export function finishRows(
   xPtr: usize, xoPtr: usize, n: i32, d: i32, dp: i32, ctPtr: usize, cnPtr: usize, kp: i32,
   cPtr: usize, k: i32, maxNorm: f64, bandPtr: usize,
   statePtr: usize, idxPtr: usize, distPtr: usize, lowerPtr: usize,
+  g: i32, bminPtr: usize, blowPtr: usize, permPtr: usize,
+  haveCur: bool, curPtr: usize, curDistPtr: usize, pendingPtr: usize,
 ): i32 {
   const m = <f64>(dp + 2);
   const gamma = (m * U32) / (1 - m * U32);
   const gamma64 = (<f64>(d + 2) * U64) / (1 - <f64>(d + 2) * U64);
   let redecided = 0;
+  // First every vector's best position and runner-up; the lanes are read before the
+  // state's first 16 bytes are reused for the two f64 values.
   for (let v = 0; v < n; v++) {
-    const x = xPtr + <usize>v * <usize>dp * 4;
-    const xo = xoPtr + <usize>v * <usize>d * 4;
     const st = statePtr + <usize>v * 48;
     // Reduce the four lanes: best value and its index, then the smallest other value.
     let best = <f64>load<f32>(st);
@@ -199,16 +330,78 @@ export function finishRows(
       const v2 = <f64>load<f32>(st + 16 + <usize>l * 4);
       if (v2 < second) second = v2;
     }
-    let xn: f64 = 0;
-    for (let i = 0; i < dp; i++) {
-      const t = <f64>load<f32>(x + <usize>i * 4);
-      xn += t * t;
+    store<f64>(st, best);
+    store<f64>(st, second, 8);
+    // The scan works on positions; from here on the index is the codeword's own.
+    store<i32>(idxPtr + <usize>v * 4, load<i32>(permPtr + <usize>bidx * 4));
+  }
+  // Exact distances to the chosen codewords. A vector that keeps its codeword already has
+  // it from planBlocks (the same sum in the same order); the others are listed in pending
+  // and summed four at a time: each sum still runs over i = 0..d−1 in order (the bits of
+  // exactDistance), and the four independent chains keep the float64 adder busy instead
+  // of waiting on one chain's latency.
+  let pending = 0;
+  for (let v = 0; v < n; v++) {
+    if (haveCur && load<i32>(idxPtr + <usize>v * 4) == load<i32>(curPtr + <usize>v * 4)) {
+      store<f64>(distPtr + <usize>v * 8, load<f64>(curDistPtr + <usize>v * 8));
+    } else {
+      store<i32>(pendingPtr + <usize>pending * 4, v);
+      pending++;
     }
+  }
+  const rowBytes = <usize>d * 4;
+  for (let p = 0; p < pending; p += 4) {
+    const v0 = load<i32>(pendingPtr + <usize>p * 4);
+    const v1 = load<i32>(pendingPtr + <usize>min(p + 1, pending - 1) * 4);
+    const v2 = load<i32>(pendingPtr + <usize>min(p + 2, pending - 1) * 4);
+    const v3 = load<i32>(pendingPtr + <usize>min(p + 3, pending - 1) * 4);
+    const x0 = xoPtr + <usize>v0 * rowBytes, x1 = xoPtr + <usize>v1 * rowBytes;
+    const x2 = xoPtr + <usize>v2 * rowBytes, x3 = xoPtr + <usize>v3 * rowBytes;
+    const c0 = cPtr + <usize>load<i32>(idxPtr + <usize>v0 * 4) * rowBytes;
+    const c1 = cPtr + <usize>load<i32>(idxPtr + <usize>v1 * 4) * rowBytes;
+    const c2 = cPtr + <usize>load<i32>(idxPtr + <usize>v2 * 4) * rowBytes;
+    const c3 = cPtr + <usize>load<i32>(idxPtr + <usize>v3 * 4) * rowBytes;
+    let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, s3: f64 = 0;
+    for (let o: usize = 0; o < rowBytes; o += 4) {
+      const t0 = <f64>load<f32>(x0 + o) - <f64>load<f32>(c0 + o);
+      const t1 = <f64>load<f32>(x1 + o) - <f64>load<f32>(c1 + o);
+      const t2 = <f64>load<f32>(x2 + o) - <f64>load<f32>(c2 + o);
+      const t3 = <f64>load<f32>(x3 + o) - <f64>load<f32>(c3 + o);
+      s0 += t0 * t0;
+      s1 += t1 * t1;
+      s2 += t2 * t2;
+      s3 += t3 * t3;
+    }
+    // Slots past the end repeat the last vector; writing its value again is harmless.
+    store<f64>(distPtr + <usize>v0 * 8, s0);
+    store<f64>(distPtr + <usize>v1 * 8, s1);
+    store<f64>(distPtr + <usize>v2 * 8, s2);
+    store<f64>(distPtr + <usize>v3 * 8, s3);
+  }
+  for (let v = 0; v < n; v++) {
+    const x = xPtr + <usize>v * <usize>dp * 4;
+    const xo = xoPtr + <usize>v * <usize>d * 4;
+    const st = statePtr + <usize>v * 48;
+    const best = load<f64>(st);
+    const second = load<f64>(st, 8);
+    let bidx = load<i32>(idxPtr + <usize>v * 4);
+    // ‖x'‖² only enters the bounds, so its order is free: four partial sums (dp is a
+    // multiple of 4); the relative factors on the bounds cover its rounding.
+    let q0: f64 = 0, q1: f64 = 0, q2: f64 = 0, q3: f64 = 0;
+    for (let i = 0; i < dp; i += 4) {
+      const t0 = <f64>load<f32>(x + <usize>i * 4), t1 = <f64>load<f32>(x + <usize>i * 4, 4);
+      const t2 = <f64>load<f32>(x + <usize>i * 4, 8), t3 = <f64>load<f32>(x + <usize>i * 4, 12);
+      q0 += t0 * t0;
+      q1 += t1 * t1;
+      q2 += t2 * t2;
+      q3 += t3 * t3;
+    }
+    let xn = (q0 + q1) + (q2 + q3);
     const xn2 = xn;
     xn = Math.sqrt(xn);
     const e = (2 * gamma + 3 * U32) * xn * maxNorm + 3 * U32 * maxNorm * maxNorm
       + 3 * U32 * (xn + maxNorm) * (xn + maxNorm);
-    let dist = exactDistance(xo, cPtr + <usize>bidx * <usize>d * 4, d);
+    let dist = load<f64>(distPtr + <usize>v * 8);
     // Every other codeword's expanded value is at least second − e, so its squared distance
     // is at least that plus ‖x'‖² (the factor covers the float64 rounding of ‖x'‖²).
     let lower = (second - e + xn2) * (1 - 1e-12);
@@ -232,14 +425,16 @@ export function finishRows(
       let sd: f64 = Infinity;
       let outside: f64 = Infinity;
       let bj = 0;
-      for (let j = 0; j < k; j++) {
-        const val = <f64>load<f32>(bandPtr + <usize>j * 4);
+      for (let p = 0; p < k; p++) {
+        const val = <f64>load<f32>(bandPtr + <usize>p * 4);
         if (finite && val > limit) {
           if (val < outside) outside = val;
           continue;
         }
+        const j = load<i32>(permPtr + <usize>p * 4);
         const dj = exactDistance(xo, cPtr + <usize>j * <usize>d * 4, d);
-        if (dj < bd) { sd = bd; bd = dj; bj = j; } else if (dj < sd) { sd = dj; }
+        // Positions are not in index order, so equal distances compare the indices.
+        if (dj < bd || (dj == bd && j < bj)) { sd = bd; bd = dj; bj = j; } else if (dj < sd) { sd = dj; }
       }
       bidx = bj;
       dist = bd;
@@ -247,6 +442,20 @@ export function finishRows(
       lower = Math.min(sd * (1 - 1e-12), outsideLower);
     }
     if (!(lower > 0)) lower = 0;
+    // Block bounds of the scanned blocks: every codeword of block b has an expanded value
+    // of at least bmin − e, so its distance is at least the square root of that plus
+    // ‖x'‖². Stored in float32 after a relative step down larger than its rounding, so
+    // the stored bound never exceeds the proven one. Unsafe vectors keep no bounds.
+    const brow = <usize>v * <usize>g * 4;
+    for (let b = 0; b < g; b++) {
+      const bm = <f64>load<f32>(bminPtr + brow + <usize>b * 4);
+      if (!safe) {
+        store<f32>(blowPtr + brow + <usize>b * 4, 0);
+      } else if (bm < Infinity) {
+        const sq = (bm - e + xn2) * (1 - 1e-12);
+        store<f32>(blowPtr + brow + <usize>b * 4, sq > 0 ? <f32>(Math.sqrt(sq) * (1 - 1e-6)) : 0);
+      }
+    }
     store<f64>(lowerPtr + <usize>v * 8, lower);
     store<u32>(idxPtr + <usize>v * 4, <u32>bidx);
     store<f64>(distPtr + <usize>v * 8, dist);

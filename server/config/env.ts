@@ -49,6 +49,8 @@ const schema = z.object({
   ENGINE_THREADS: z.coerce.number().int().min(1).optional(),
   UPLOAD_MAX_BYTES: z.coerce.number().int().min(1).default(50 * 1024 * 1024),
   UPLOAD_MAX_FILES: z.coerce.number().int().min(1).default(200),
+  // Uploads are held in memory while they are checked: this bounds one request, whatever its file count.
+  UPLOAD_MAX_REQUEST_BYTES: z.coerce.number().int().min(1).default(512 * 1024 * 1024),
   IMAGE_MAX_PIXELS: z.coerce.number().int().min(1).default(40_000_000),
   ZIP_MAX_ENTRIES: z.coerce.number().int().min(1).default(2000),
   ZIP_MAX_TOTAL_BYTES: z.coerce.number().int().min(1).default(1024 * 1024 * 1024),
@@ -93,6 +95,7 @@ export interface Config {
   readonly uploads: {
     readonly maxFileBytes: number;
     readonly maxFiles: number;
+    readonly maxRequestBytes: number;
     readonly maxImagePixels: number;
     readonly zipMaxEntries: number;
     readonly zipMaxTotalBytes: number;
@@ -170,6 +173,7 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     uploads: {
       maxFileBytes: e.UPLOAD_MAX_BYTES,
       maxFiles: e.UPLOAD_MAX_FILES,
+      maxRequestBytes: e.UPLOAD_MAX_REQUEST_BYTES,
       maxImagePixels: e.IMAGE_MAX_PIXELS,
       zipMaxEntries: e.ZIP_MAX_ENTRIES,
       zipMaxTotalBytes: e.ZIP_MAX_TOTAL_BYTES,

@@ -18,6 +18,7 @@ beforeAll(async () => {
   t = await createTestApp({
     UPLOAD_MAX_BYTES: String(4 * MiB),
     UPLOAD_MAX_FILES: '5',
+    UPLOAD_MAX_REQUEST_BYTES: String(12 * MiB),
     IMAGE_MAX_PIXELS: '4000000',
     ZIP_MAX_ENTRIES: '20',
     ZIP_MAX_TOTAL_BYTES: String(8 * MiB),
@@ -206,6 +207,16 @@ describe('image uploads', () => {
     const tooLarge = await upload(setId, [[big, 'huge.raw']]);
     expect(tooLarge.status).toBe(413);
     expect(tooLarge.body.error).toMatchObject({ code: 'payload_too_large', message: 'A file is larger than the 4 MiB limit per file' });
+    expect(await rowsOf(setId)).toHaveLength(0);
+  });
+
+  it('refuses a request larger than the per-request limit before reading it, storing nothing', async () => {
+    const setId = await newSet();
+    // Four files under the 4 MiB per-file limit, 13.6 MiB together: over the 12 MiB request limit.
+    const parts: [Buffer, string][] = [0, 1, 2, 3].map((i) => [noise(1024, 1150, 40 + i), `part-${i}.raw`]);
+    const res = await upload(setId, parts);
+    expect(res.status).toBe(413);
+    expect(res.body.error).toMatchObject({ code: 'payload_too_large', message: 'An upload may carry at most 12 MiB; send the files in several requests' });
     expect(await rowsOf(setId)).toHaveLength(0);
   });
 

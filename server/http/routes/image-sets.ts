@@ -16,6 +16,7 @@ import type { RouteDeps } from './deps';
 export interface UploadRequestLimits {
   maxFileBytes: number;
   maxFiles: number;
+  maxRequestBytes: number;
 }
 
 const createInput = { params: teamParams, body: createImageSetBody };
@@ -51,6 +52,21 @@ function receiveFiles(limits: UploadRequestLimits): RequestHandler {
   return (req, res, next) => {
     if (!req.is('multipart/form-data')) {
       next(new AppError('unsupported_media_type', 415, 'Send the files as multipart/form-data in the field "files"'));
+      return;
+    }
+    // The parts are buffered in memory, so the whole body is bounded before a byte is read: browsers and
+    // command-line clients send Content-Length for multipart forms; a body without one is not accepted.
+    const declared = req.headers['content-length'];
+    if (declared === undefined) {
+      next(new AppError('bad_request', 411, 'Send uploads with a Content-Length header'));
+      return;
+    }
+    if (Number(declared) > limits.maxRequestBytes) {
+      next(
+        new AppError('payload_too_large', 413, `An upload may carry at most ${formatBytes(limits.maxRequestBytes)}; send the files in several requests`, {
+          limit: limits.maxRequestBytes,
+        }),
+      );
       return;
     }
     parse(req, res, (err?: unknown) => next(err ? uploadError(err, limits) : undefined));

@@ -9,7 +9,7 @@ import { checkOutputFolder, writeOutputsAtomically } from '../files';
 import { loadImageFolder } from '../inputs';
 import { progressBar } from '../progress';
 import { fmt, table } from '../text-output';
-import { imageSettings, trainingSettings } from './train';
+import { imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
 
 export const SWEEP_HELP = `Usage: cellwright sweep --images TRAIN_DIR --heldout DIR --patch WxH --bits A..B --out CURVE.csv [options]
 
@@ -29,15 +29,8 @@ const SPEC: OptionSpec = {
   bits: { type: 'string' },
   baseline: { type: 'string' },
   qualities: { type: 'string' },
-  stride: { type: 'string' },
-  color: { type: 'string' },
-  'mean-bits': { type: 'string' },
-  sample: { type: 'string' },
-  init: { type: 'string' },
-  epsilon: { type: 'string' },
-  'max-iter': { type: 'string' },
-  seed: { type: 'string' },
-  threads: { type: 'string' },
+  ...imageOptionSpec,
+  ...trainingOptionSpec,
   out: { type: 'string' },
 };
 

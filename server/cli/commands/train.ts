@@ -35,20 +35,30 @@ Output:
   --json                print one JSON object with the result on stdout
 `;
 
-const SPEC: OptionSpec = {
-  vectors: { type: 'string' },
-  images: { type: 'string' },
-  patch: { type: 'string' },
+/** Options read by imageSettings(); `sweep` accepts the same ones. */
+export const imageOptionSpec: OptionSpec = {
   stride: { type: 'string' },
   color: { type: 'string' },
   'mean-bits': { type: 'string' },
   sample: { type: 'string' },
-  bits: { type: 'string' },
+};
+
+/** Options read by trainingSettings(); `sweep` accepts the same ones. */
+export const trainingOptionSpec: OptionSpec = {
   init: { type: 'string' },
   epsilon: { type: 'string' },
   'max-iter': { type: 'string' },
   seed: { type: 'string' },
   threads: { type: 'string' },
+};
+
+const SPEC: OptionSpec = {
+  vectors: { type: 'string' },
+  images: { type: 'string' },
+  patch: { type: 'string' },
+  bits: { type: 'string' },
+  ...imageOptionSpec,
+  ...trainingOptionSpec,
   out: { type: 'string' },
   json: { type: 'boolean' },
 };

@@ -11,6 +11,7 @@ import { useState } from 'react';
 import { Link } from 'react-router-dom';
 import type { CodebookSummary } from '../../../../server/contracts';
 import { href } from '../../../config/routes';
+import { SortableHeader } from '../../../components/ui/sortable-header';
 import { cx } from '../../../lib/cx';
 import { formatDate } from '../../../lib/format';
 import { fixedRate, formatBpp, formatMse } from '../format';
@@ -52,19 +53,14 @@ export function CodebooksTable({ teamId, codebooks }: { teamId: number; codebook
             {group.headers.map((header) => {
               const sorted = header.column.getIsSorted();
               return (
-                <th
+                <SortableHeader
                   key={header.id}
-                  scope="col"
-                  aria-sort={sorted === 'asc' ? 'ascending' : sorted === 'desc' ? 'descending' : 'none'}
+                  sorted={sorted}
+                  onToggle={header.column.getToggleSortingHandler()}
                   className={cx('py-2 pr-3 font-medium', numeric.has(header.column.id) && 'text-right')}
                 >
-                  <button type="button" onClick={header.column.getToggleSortingHandler()} className="inline-flex items-center gap-1 uppercase hover:text-ink-900">
-                    <table.FlexRender header={header} />
-                    <span aria-hidden="true" className="w-2">
-                      {sorted === 'asc' ? '▴' : sorted === 'desc' ? '▾' : ''}
-                    </span>
-                  </button>
-                </th>
+                  <table.FlexRender header={header} />
+                </SortableHeader>
               );
             })}
           </tr>

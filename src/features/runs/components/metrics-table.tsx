@@ -9,6 +9,7 @@ import {
 } from '@tanstack/react-table';
 import { useMemo, useState } from 'react';
 import type { ImageMetrics } from '../../../../server/contracts';
+import { SortableHeader } from '../../../components/ui/sortable-header';
 import { cx } from '../../../lib/cx';
 import { formatBpp, formatBytes, formatDb, formatMse, formatSsim } from '../format';
 
@@ -50,23 +51,16 @@ export function MetricsTable({ images, caption }: { images: ImageMetrics[]; capt
                 const sorted = header.column.getIsSorted();
                 const numeric = header.column.id !== 'fileName';
                 return (
-                  <th
+                  <SortableHeader
                     key={header.id}
-                    scope="col"
-                    aria-sort={sorted === 'asc' ? 'ascending' : sorted === 'desc' ? 'descending' : 'none'}
+                    sorted={sorted}
+                    onToggle={header.column.getToggleSortingHandler()}
                     className={cx('py-2 pr-3 font-medium', numeric && 'text-right')}
+                    buttonClassName={cx('rounded-sm', numeric && 'flex-row-reverse')}
+                    arrowClassName="text-ink-800"
                   >
-                    <button
-                      type="button"
-                      onClick={header.column.getToggleSortingHandler()}
-                      className={cx('inline-flex items-center gap-1 rounded-sm uppercase hover:text-ink-900', numeric && 'flex-row-reverse')}
-                    >
-                      <table.FlexRender header={header} />
-                      <span aria-hidden="true" className="w-2 text-ink-800">
-                        {sorted === 'asc' ? '▴' : sorted === 'desc' ? '▾' : ''}
-                      </span>
-                    </button>
-                  </th>
+                    <table.FlexRender header={header} />
+                  </SortableHeader>
                 );
               })}
             </tr>

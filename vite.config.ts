@@ -64,6 +64,9 @@ export default defineConfig({
           testTimeout: 180_000,
           hookTimeout: 180_000,
           fileParallelism: false,
+          // A page waits on the server and its own chunks; on a busy two-core machine one second (the
+          // default) is too short for a round trip, so polled expectations get longer before failing.
+          expect: { poll: { timeout: 20_000, interval: 100 } },
         },
       },
     ],

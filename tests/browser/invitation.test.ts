@@ -50,7 +50,7 @@ describe('inviting a member through the browser', () => {
     expect(await dialog.textContent()).toContain('Tomas Reyl changes from Engineer to Viewer');
     await dialog.getByRole('button', { name: 'Change role' }).click();
     await expect.poll(() => dialog.isVisible()).toBe(false);
-    expect(await page.getByLabel('Role of Tomas Reyl').inputValue()).toBe('viewer');
+    await expect.poll(() => page.getByLabel('Role of Tomas Reyl').inputValue()).toBe('viewer');
     await saveScreenshot(page, 'admin-members-after-invite');
 
     await page.getByRole('navigation', { name: 'Team' }).getByRole('link', { name: 'Outbox' }).click();
@@ -89,8 +89,8 @@ describe('inviting a member through the browser', () => {
     await page.waitForURL(`${server.url}${teamPath}`);
     const main = page.getByRole('main');
     await expect.poll(() => main.getByRole('heading', { level: 1 }).textContent()).toBe(teamName);
-    expect(await main.textContent()).toContain('Viewer');
-    expect(await page.getByRole('banner').textContent()).toContain(invitee.name);
+    await expect.poll(() => main.textContent()).toContain('Viewer');
+    await expect.poll(() => page.getByRole('banner').textContent()).toContain(invitee.name);
 
     // The token was single-use: following the link again shows it is spent.
     await page.goto(invitationUrl!);

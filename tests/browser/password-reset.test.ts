@@ -38,8 +38,11 @@ describe('resetting a password through the browser', () => {
     await page.goto(`${server.url}/sign-in`);
     await page.getByRole('link', { name: 'Forgot your password?' }).click();
     await page.waitForURL(/\/forgot-password$/);
-    await page.getByLabel('E-mail').fill(viewer.email);
-    await page.getByRole('button', { name: 'Send reset link' }).click();
+    // The page arrives as its own chunk after the URL changes, while the sign-in form (with its own
+    // E-mail field) may still be on screen: address the reset form itself.
+    const requestForm = page.getByRole('form', { name: 'Request a password reset' });
+    await requestForm.getByLabel('E-mail').fill(viewer.email);
+    await requestForm.getByRole('button', { name: 'Send reset link' }).click();
     await expect.poll(() => page.getByRole('status').textContent()).toContain('Check your inbox');
 
     // The capture server keeps the e-mail; the team admin can read it in the outbox.
@@ -86,6 +89,6 @@ describe('resetting a password through the browser', () => {
 
     await signIn(viewer.email, viewer.newPassword);
     await page.waitForURL(/\/teams\/\d+$/);
-    expect(await page.getByRole('banner').textContent()).toContain('Juno Marsh');
+    await expect.poll(() => page.getByRole('banner').textContent()).toContain('Juno Marsh');
   });
 });

@@ -11,11 +11,13 @@ import { copyFile, mkdir, open, readdir, readFile, rename, rm, writeFile } from 
 import path from 'node:path';
 import { loadConfig, type Config } from '../server/config';
 import { createDatabase } from '../server/db';
+import { contentStoreLock } from '../server/storage/content-store';
 
 const MANIFEST = 'manifest.json';
 const DUMP = 'database.sql';
-// Only the content-addressed folders: they are immutable by hash, so copying them after the dump leaves every
-// row of the dump with its file. secrets/ (the session key) is left out on purpose: a backup must not carry it.
+// Only the content-addressed folders: they are immutable by hash, and the store sweep is held off (by the
+// content store lock) from the dump to the last copy, so every row of the dump finds its file. secrets/ (the
+// session key) is left out on purpose: a backup must not carry it.
 const STORE_FOLDERS = ['objects', 'thumbnails'];
 
 interface ManifestFile {
@@ -107,26 +109,11 @@ export async function backup(config: Config, out: string): Promise<Manifest> {
   // Built beside the target and renamed at the end, so a crash never leaves something that looks like a backup.
   const temp = path.join(path.dirname(target), `.${path.basename(target)}.partial-${randomBytes(4).toString('hex')}`);
   await mkdir(temp);
+  const db = createDatabase(config.db, { min: 0, max: 1 });
   try {
-    const dumpFile = path.join(temp, DUMP);
-    // --single-transaction: one consistent InnoDB snapshot without locking writers; --hex-blob keeps codewords exact.
-    await runTool('mariadb-dump', [...connectionArgs(config), '--single-transaction', '--routines', '--triggers', '--hex-blob', '--skip-dump-date', config.db.database], config, {
-      stdoutTo: dumpFile,
-    });
-    await fsyncPath(dumpFile);
-    const files: ManifestFile[] = [];
-    for (const folder of STORE_FOLDERS) {
-      for (const rel of await filesUnder(path.join(config.dataDir, folder))) {
-        const from = path.join(config.dataDir, folder, rel);
-        const to = path.join(temp, folder, rel);
-        await mkdir(path.dirname(to), { recursive: true });
-        await copyFile(from, to);
-        const { sha256, bytes } = await sha256File(to);
-        // An object is named by its hash: a copy that disagrees was damaged on disk before the backup.
-        if (folder === 'objects' && path.basename(rel) !== sha256) throw new BackupError(`object ${rel} does not match its SHA-256 (${sha256}); the store is damaged`);
-        files.push({ path: path.join(folder, rel).split(path.sep).join('/'), sha256, bytes });
-      }
-    }
+    const held = await db.withNamedLock(contentStoreLock, 120, () => dumpAndCopy(config, temp));
+    if (!held) throw new BackupError('the content store has been busy (a sweep) for two minutes; try again');
+    const { dumpFile, files } = held.value;
     const dump = await sha256File(dumpFile);
     const manifest: Manifest = {
       format: 'cellwright-backup',
@@ -143,7 +130,33 @@ export async function backup(config: Config, out: string): Promise<Manifest> {
   } catch (err) {
     await rm(temp, { recursive: true, force: true });
     throw err;
+  } finally {
+    await db.destroy();
   }
+}
+
+/** The dump, then a copy of every stored file; called while the content store lock is held. */
+async function dumpAndCopy(config: Config, temp: string): Promise<{ dumpFile: string; files: ManifestFile[] }> {
+  const dumpFile = path.join(temp, DUMP);
+  // --single-transaction: one consistent InnoDB snapshot without locking writers; --hex-blob keeps codewords exact.
+  await runTool('mariadb-dump', [...connectionArgs(config), '--single-transaction', '--routines', '--triggers', '--hex-blob', '--skip-dump-date', config.db.database], config, {
+    stdoutTo: dumpFile,
+  });
+  await fsyncPath(dumpFile);
+  const files: ManifestFile[] = [];
+  for (const folder of STORE_FOLDERS) {
+    for (const rel of await filesUnder(path.join(config.dataDir, folder))) {
+      const from = path.join(config.dataDir, folder, rel);
+      const to = path.join(temp, folder, rel);
+      await mkdir(path.dirname(to), { recursive: true });
+      await copyFile(from, to);
+      const { sha256, bytes } = await sha256File(to);
+      // An object is named by its hash: a copy that disagrees was damaged on disk before the backup.
+      if (folder === 'objects' && path.basename(rel) !== sha256) throw new BackupError(`object ${rel} does not match its SHA-256 (${sha256}); the store is damaged`);
+      files.push({ path: path.join(folder, rel).split(path.sep).join('/'), sha256, bytes });
+    }
+  }
+  return { dumpFile, files };
 }
 
 async function readManifest(from: string): Promise<Manifest> {

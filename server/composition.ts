@@ -14,7 +14,9 @@ import {
   createOutboxService,
   createRunsService,
   createSessionTokens,
+  createStoreSweeper,
   createTeamsService,
+  type StoreSweeper,
 } from './services';
 import { createContentStore, type ContentStore } from './storage/content-store';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
@@ -32,6 +34,8 @@ export interface Composition extends AppDeps {
   db: Database;
   /** Originals and thumbnails under DATA_DIR, by SHA-256; jobs read training and held-out images through it. */
   contentStore: ContentStore;
+  /** Frees stored originals no image names any more (scheduled by server/index.ts). */
+  storeSweeper: StoreSweeper;
   /** The durable queue, its in-process event bus, the task pool and the runner (started by server/index.ts, or by a test). */
   jobs: { queue: JobQueue; bus: JobEventBus; pool: TaskPool; runner: JobRunner };
   /** Waits for background mail, then closes SMTP transport and the pool. */
@@ -83,17 +87,20 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
   const codebooks = createCodebooksService({ db });
   const evaluation = createEvaluationService({ db, store: contentStore, runTask: evaluationTaskRunner(pool), jobQueued: () => bus.jobQueued() });
   const comparison = createComparisonService({ db });
+  const storeSweeper = createStoreSweeper({ db, store: contentStore, graceMs: config.storeSweep.graceMs, logger });
   return {
     config,
     logger,
     sessions,
     db,
     contentStore,
+    storeSweeper,
     jobs: { queue, bus, pool, runner },
     services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, comparison },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();
+      await storeSweeper.stop();
       await pool.destroy();
       await accounts.settle();
       mail.close();

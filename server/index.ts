@@ -80,6 +80,8 @@ async function main(): Promise<void> {
     }
     // After migrations (the queue's tables) and mail (jobs notify their creators when they finish).
     await composition.jobs.runner.start();
+    // The first pass waits a little, so a restart loop never spends its start-up walking the store.
+    if (config.storeSweep.intervalMs > 0) composition.storeSweeper.schedule(config.storeSweep.intervalMs, 5 * 60_000);
     const app = createApp(composition);
     server = await new Promise<Server>((resolve, reject) => {
       const s = app.listen(config.port, config.host, (err?: Error) => (err ? reject(err) : resolve(s)));

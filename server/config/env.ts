@@ -54,6 +54,10 @@ const schema = z.object({
   IMAGE_MAX_PIXELS: z.coerce.number().int().min(1).default(40_000_000),
   ZIP_MAX_ENTRIES: z.coerce.number().int().min(1).default(2000),
   ZIP_MAX_TOTAL_BYTES: z.coerce.number().int().min(1).default(1024 * 1024 * 1024),
+  // Stored originals no image names any more are deleted this often (0: never); see services/store-sweep.
+  STORE_SWEEP_INTERVAL_MINUTES: z.coerce.number().int().min(0).default(360),
+  // Bytes put more recently than this are never swept: an upload stores them before committing their row.
+  STORE_SWEEP_GRACE_MINUTES: z.coerce.number().int().min(1).default(60),
 });
 
 export interface Config {
@@ -100,6 +104,8 @@ export interface Config {
     readonly zipMaxEntries: number;
     readonly zipMaxTotalBytes: number;
   };
+  /** The content store sweep: how often (0 = off) and how old an unnamed original must be, in ms. */
+  readonly storeSweep: { readonly intervalMs: number; readonly graceMs: number };
 }
 
 export class ConfigError extends Error {
@@ -178,6 +184,7 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
       zipMaxEntries: e.ZIP_MAX_ENTRIES,
       zipMaxTotalBytes: e.ZIP_MAX_TOTAL_BYTES,
     },
+    storeSweep: { intervalMs: e.STORE_SWEEP_INTERVAL_MINUTES * 60_000, graceMs: e.STORE_SWEEP_GRACE_MINUTES * 60_000 },
   });
 }
 

@@ -62,6 +62,12 @@ export interface Database {
   readonly repos: Repositories;
   /** Runs fn inside one transaction; it commits when fn resolves and rolls back when it throws. */
   transaction<T>(fn: (repos: Repositories) => Promise<T>): Promise<T>;
+  /**
+   * Runs fn while this process holds the MariaDB named lock `name` (scoped to this database), waiting
+   * up to waitSeconds for it; null, without running fn, when another session holds it that long. The
+   * lock goes with its connection, so a process that dies releases it.
+   */
+  withNamedLock<T>(name: string, waitSeconds: number, fn: () => Promise<T>): Promise<{ value: T } | null>;
   /** True when the database answers within timeoutMs. */
   ping(timeoutMs?: number): Promise<boolean>;
   migrateLatest(): Promise<string[]>;
@@ -79,6 +85,24 @@ export function wrapKnex(knex: Knex): Database {
     async transaction(fn) {
       try {
         return await knex.transaction((trx) => fn(buildRepositories(trx)));
+      } catch (err) {
+        throw translateDbError(err);
+      }
+    },
+    async withNamedLock(name, waitSeconds, fn) {
+      // Named locks are server-wide; the database name keeps two databases on one server apart.
+      const lockName = `${String(knex.client.config.connection?.database ?? '')}:${name}`.slice(-64);
+      try {
+        // A transaction pins one pooled connection: the lock lives on it and must be released on it.
+        return await knex.transaction(async (trx) => {
+          const [rows] = (await trx.raw('SELECT GET_LOCK(?, ?) AS got', [lockName, waitSeconds])) as [{ got: number | null }[]];
+          if (Number(rows[0]?.got) !== 1) return null;
+          try {
+            return { value: await fn() };
+          } finally {
+            await trx.raw('SELECT RELEASE_LOCK(?)', [lockName]);
+          }
+        });
       } catch (err) {
         throw translateDbError(err);
       }

@@ -14,3 +14,4 @@ export * from './runs';
 export * from './codebooks';
 export * from './evaluation';
 export * from './comparison';
+export * from './store-sweep';

@@ -1,9 +1,15 @@
 import { createHash, randomBytes } from 'node:crypto';
 import { constants as fsConstants } from 'node:fs';
-import { access, mkdir, open, readFile, rename, rm } from 'node:fs/promises';
+import { access, mkdir, open, readdir, readFile, rename, rm, stat, utimes } from 'node:fs/promises';
 import path from 'node:path';
 
 const sha256Pattern = /^[0-9a-f]{64}$/;
+
+/**
+ * The database named lock (Database.withNamedLock) a store sweep and a backup both hold, so a backup
+ * never copies the store while a sweep is deleting from it.
+ */
+export const contentStoreLock = 'content-store';
 
 /** The media types a stored thumbnail may have, told apart by their leading bytes. */
 export type ThumbnailType = 'image/webp' | 'image/png';
@@ -26,6 +32,25 @@ export interface ContentStore {
   thumbnailPath(sha256: string): string;
   /** The thumbnail's bytes and media type, or null when none was made. */
   readThumbnail(sha256: string): Promise<{ data: Buffer; contentType: ThumbnailType } | null>;
+  /** Every stored original, by fan-out folder, with the time it was last put. */
+  objects(): AsyncGenerator<StoredEntry[]>;
+  /**
+   * Deletes an original (and its thumbnail) last put before `notAfterMs`, unless `inUse` says a record
+   * still names it; the bytes freed, or null when it was kept. Safe against a concurrent put of the same bytes.
+   */
+  discardUnused(sha256: string, options: { notAfterMs: number; inUse: () => Promise<boolean> }): Promise<number | null>;
+  /**
+   * Deletes temporaries (of writes cut short by a crash) and orphaned thumbnails older than `notAfterMs`;
+   * an original a crashed sweep left moved aside goes back in place, for the next sweep to judge again.
+   */
+  removeLeftovers(notAfterMs: number): Promise<{ files: number; bytes: number }>;
+}
+
+export interface StoredEntry {
+  sha256: string;
+  /** When the bytes were last put (written, or found already stored). */
+  mtimeMs: number;
+  bytes: number;
 }
 
 export function sha256Of(buffer: Buffer): string {
@@ -105,7 +130,10 @@ export function createContentStore(dataDir: string): ContentStore {
     async put(buffer) {
       const sha256 = sha256Of(buffer);
       const file = objectPath(sha256);
-      if (await exists(file)) return { sha256, existed: true };
+      // Touching (rather than only testing) an existing object restarts its grace period, so the sweep
+      // cannot delete it between this put and the database row that will name it. If the sweep has just
+      // moved it aside, the touch fails and the bytes are written again.
+      if (await touch(file)) return { sha256, existed: true };
       // Two uploads of the same bytes may race here; both renames install identical content.
       await writeAtomically(file, buffer);
       return { sha256, existed: false };
@@ -133,5 +161,100 @@ export function createContentStore(dataDir: string): ContentStore {
       const contentType = thumbnailTypeOf(data);
       return contentType ? { data, contentType } : null;
     },
+    async *objects() {
+      for (const fan of await listFolder(path.join(root, 'objects'))) {
+        if (!/^[0-9a-f]{2}$/.test(fan)) continue;
+        const dir = path.join(root, 'objects', fan);
+        const entries: StoredEntry[] = [];
+        for (const name of await listFolder(dir)) {
+          if (!sha256Pattern.test(name) || name.slice(0, 2) !== fan) continue;
+          const info = await statOrNull(path.join(dir, name));
+          if (info?.isFile()) entries.push({ sha256: name, mtimeMs: info.mtimeMs, bytes: info.size });
+        }
+        if (entries.length > 0) yield entries;
+      }
+    },
+    async discardUnused(sha256, { notAfterMs, inUse }) {
+      const file = objectPath(sha256);
+      const before = await statOrNull(file);
+      if (!before || before.mtimeMs > notAfterMs || (await inUse())) return null;
+      // Move it aside first: from here on a put of the same bytes writes a fresh copy instead of
+      // relying on this one. A put that came before the move shows in the moved file's time.
+      const aside = path.join(path.dirname(file), `.sweep-${sha256}-${randomBytes(6).toString('hex')}`);
+      try {
+        await rename(file, aside);
+      } catch (err) {
+        if ((err as NodeJS.ErrnoException).code === 'ENOENT') return null;
+        throw err;
+      }
+      const moved = await statOrNull(aside);
+      if (!moved || moved.mtimeMs > notAfterMs || (await inUse())) {
+        // Still wanted after all: put it back (identical bytes if a put has written it again meanwhile).
+        if (moved) await rename(aside, file);
+        return null;
+      }
+      await rm(aside, { force: true });
+      // Only when no newer copy arrived: a thumbnail belongs to whichever copy is in place.
+      if (!(await exists(file))) await rm(thumbnailPath(sha256), { force: true });
+      return moved.size;
+    },
+    async removeLeftovers(notAfterMs) {
+      let files = 0;
+      let bytes = 0;
+      for (const folder of ['objects', 'thumbnails'] as const) {
+        for (const fan of await listFolder(path.join(root, folder))) {
+          const dir = path.join(root, folder, fan);
+          for (const name of await listFolder(dir)) {
+            const file = path.join(dir, name);
+            const temporary = name.startsWith('.tmp-') || name.startsWith('.sweep-');
+            const orphanThumbnail = folder === 'thumbnails' && sha256Pattern.test(name) && !(await exists(objectPath(name)));
+            if (!temporary && !orphanThumbnail) continue;
+            const info = await statOrNull(file);
+            // ctime: a rename (moving aside) renews it, so a sweep still at work elsewhere is left alone.
+            if (!info?.isFile() || Math.max(info.mtimeMs, info.ctimeMs) > notAfterMs) continue;
+            const asideOf = /^\.sweep-([0-9a-f]{64})-/.exec(name)?.[1];
+            if (folder === 'objects' && asideOf && !(await exists(objectPath(asideOf)))) {
+              // Whether a record came to name it cannot be told from here; putting it back loses nothing.
+              await rename(file, objectPath(asideOf));
+              continue;
+            }
+            await rm(file, { force: true });
+            files += 1;
+            bytes += info.size;
+          }
+        }
+      }
+      return { files, bytes };
+    },
   };
+}
+
+/** Sets an existing file's times to now; false when there is no such file. */
+async function touch(file: string): Promise<boolean> {
+  const now = new Date();
+  try {
+    await utimes(file, now, now);
+    return true;
+  } catch (err) {
+    if ((err as NodeJS.ErrnoException).code === 'ENOENT') return false;
+    throw err;
+  }
+}
+
+async function listFolder(dir: string): Promise<string[]> {
+  try {
+    return (await readdir(dir)).sort();
+  } catch (err) {
+    if ((err as NodeJS.ErrnoException).code === 'ENOENT') return [];
+    throw err;
+  }
+}
+
+async function statOrNull(file: string) {
+  try {
+    return await stat(file);
+  } catch (err) {
+    if ((err as NodeJS.ErrnoException).code === 'ENOENT') return null;
+    throw err;
+  }
 }

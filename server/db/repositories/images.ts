@@ -107,6 +107,15 @@ export function imagesRepository(db: Executor) {
     async remove(teamId: number, imageId: number): Promise<boolean> {
       return (await db('images').where({ id: imageId, team_id: teamId }).delete()) > 0;
     },
+    /** Which of these hashes an image row of any team still points at. */
+    async referencedShas(sha256s: string[]): Promise<Set<string>> {
+      const found = new Set<string>();
+      for (const shas of chunks(sha256s)) {
+        const rows = (await db('images').whereIn('sha256', shas).distinct('sha256')) as { sha256: string }[];
+        for (const r of rows) found.add(r.sha256);
+      }
+      return found;
+    },
     /** How many image rows, in any team, still point at this stored object. */
     async countBySha(sha256: string): Promise<number> {
       const row = (await db('images').where({ sha256 }).count({ n: '*' }).first()) as { n: number | string } | undefined;

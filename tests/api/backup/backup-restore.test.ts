@@ -11,6 +11,7 @@ import knexFactory, { type Knex } from 'knex';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildKnexConfig } from '../../../server/db/knex-config';
+import { contentStoreLock } from '../../../server/storage/content-store';
 import { bearer } from '../../helpers/api';
 import { createTestDatabase, dropDatabase, testDbSettings, type TestDatabase } from '../../helpers/db';
 import { buildWorld, type World } from '../hostile/world';
@@ -137,6 +138,21 @@ describe('backup and restore', () => {
     } finally {
       await target.destroy();
     }
+  });
+
+  it('waits while a store sweep holds the store, then completes', async () => {
+    const out = path.join(work, `after-sweep-${randomBytes(3).toString('hex')}`);
+    let made: ReturnType<typeof script> | undefined;
+    // The lock the sweep takes (services/store-sweep), held here on a connection of the server's pool.
+    await w.t.composition.db.withNamedLock(contentStoreLock, 5, async () => {
+      made = script(['backup', '--out', out], envFor(w.t.db.name, w.t.composition.config.dataDir));
+      await new Promise((r) => setTimeout(r, 3_000));
+      expect(existsSync(out)).toBe(false);
+    });
+    const res = await made!;
+    expect(res.stderr).toBe('');
+    expect(res.code).toBe(0);
+    expect(existsSync(path.join(out, 'manifest.json'))).toBe(true);
   });
 
   it('refuses to write over an existing folder', async () => {

@@ -1,4 +1,4 @@
-import { mkdtempSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, renameSync, rmSync, statSync, utimesSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import sharp from 'sharp';
@@ -83,5 +83,98 @@ describe('content store', () => {
     const { sha256 } = await store.put(Buffer.from('x'));
     await expect(store.putThumbnail(sha256, Buffer.from('GIF89a not allowed'))).rejects.toThrow(/PNG or WebP/);
     expect(await store.readThumbnail(sha256)).toBeNull();
+  });
+});
+
+describe('discarding unused originals', () => {
+  const hour = 60 * 60_000;
+  const ageBy = (file: string, ms: number) => {
+    const then = new Date(Date.now() - ms);
+    utimesSync(file, then, then);
+  };
+
+  it('lists every original with its size and when it was last put', async () => {
+    const a = await store.put(Buffer.from('first'));
+    const b = await store.put(Buffer.from('second, longer'));
+    const listed = [];
+    for await (const batch of store.objects()) listed.push(...batch);
+    expect(listed.map((e) => e.sha256).sort()).toEqual([a.sha256, b.sha256].sort());
+    expect(listed.find((e) => e.sha256 === b.sha256)?.bytes).toBe('second, longer'.length);
+  });
+
+  it('renews the time of bytes put again, so a re-upload restarts their grace period', async () => {
+    const { sha256 } = await store.put(Buffer.from('again'));
+    ageBy(store.path(sha256), 2 * hour);
+    expect((await store.put(Buffer.from('again'))).existed).toBe(true);
+    expect(statSync(store.path(sha256)).mtimeMs).toBeGreaterThan(Date.now() - hour);
+  });
+
+  it('deletes an old unnamed original with its thumbnail, and keeps a recent or named one', async () => {
+    const { sha256 } = await store.put(Buffer.from('old and unnamed'));
+    const png = await sharp({ create: { width: 2, height: 2, channels: 3, background: '#000' } }).png().toBuffer();
+    await store.putThumbnail(sha256, png);
+    const cutoff = Date.now() - hour;
+    expect(await store.discardUnused(sha256, { notAfterMs: cutoff, inUse: async () => false })).toBeNull();
+
+    ageBy(store.path(sha256), 2 * hour);
+    expect(await store.discardUnused(sha256, { notAfterMs: cutoff, inUse: async () => true })).toBeNull();
+    expect(existsSync(store.path(sha256))).toBe(true);
+
+    expect(await store.discardUnused(sha256, { notAfterMs: cutoff, inUse: async () => false })).toBe('old and unnamed'.length);
+    expect(existsSync(store.path(sha256))).toBe(false);
+    expect(existsSync(store.thumbnailPath(sha256))).toBe(false);
+    expect(filesUnder(dir).filter((f) => f.includes('.sweep-'))).toEqual([]);
+  });
+
+  it('puts an original back when a record comes to name it while it is being discarded', async () => {
+    const { sha256 } = await store.put(Buffer.from('claimed at the last moment'));
+    ageBy(store.path(sha256), 2 * hour);
+    let asked = 0;
+    const freed = await store.discardUnused(sha256, { notAfterMs: Date.now() - hour, inUse: async () => ++asked > 1 });
+    expect(freed).toBeNull();
+    expect(asked).toBe(2);
+    expect(readFileSync(store.path(sha256), 'utf8')).toBe('claimed at the last moment');
+  });
+
+  it('leaves a copy in place when the same bytes are put while it is being discarded', async () => {
+    const bytes = Buffer.from('uploaded again meanwhile');
+    const { sha256 } = await store.put(bytes);
+    ageBy(store.path(sha256), 2 * hour);
+    let asked = 0;
+    await store.discardUnused(sha256, {
+      notAfterMs: Date.now() - hour,
+      inUse: async () => {
+        // The second question comes after the original was moved aside: an upload arrives just then.
+        if (++asked === 2) expect((await store.put(bytes)).existed).toBe(false);
+        return false;
+      },
+    });
+    expect(asked).toBe(2);
+    expect(await store.read(sha256)).toEqual(bytes);
+  });
+
+  it('clears stale temporaries and orphaned thumbnails, and puts back an original a crashed sweep moved aside', async () => {
+    const { sha256 } = await store.put(Buffer.from('moved aside, then the process died'));
+    const fan = path.dirname(store.path(sha256));
+    const aside = path.join(fan, `.sweep-${sha256}-a1b2c3d4e5f6`);
+    renameSync(store.path(sha256), aside);
+    const temp = path.join(fan, '.tmp-1-000000000000');
+    writeFileSync(temp, 'partial');
+    const orphan = sha256Of(Buffer.from('no original'));
+    const png = await sharp({ create: { width: 2, height: 2, channels: 3, background: '#fff' } }).png().toBuffer();
+    await store.putThumbnail(orphan, png);
+    const fresh = path.join(fan, '.tmp-2-111111111111');
+    writeFileSync(fresh, 'still being written');
+
+    // Cut-off in the future for the first three (as if hours had passed), fresh one touched later still.
+    const later = Date.now() + hour;
+    utimesSync(fresh, new Date(later + hour), new Date(later + hour));
+    const report = await store.removeLeftovers(later);
+    expect(report.files).toBe(2);
+    expect(existsSync(temp)).toBe(false);
+    expect(existsSync(store.thumbnailPath(orphan))).toBe(false);
+    expect(existsSync(fresh)).toBe(true);
+    expect(existsSync(aside)).toBe(false);
+    expect(await store.read(sha256)).toEqual(Buffer.from('moved aside, then the process died'));
   });
 });

@@ -1,0 +1,96 @@
+import type { Logger } from '../config';
+import type { Database } from '../db';
+import { contentStoreLock, type ContentStore } from '../storage/content-store';
+
+export interface SweepReport {
+  /** True when a backup held the store and this pass did nothing. */
+  skipped: boolean;
+  /** Originals looked at. */
+  examined: number;
+  /** Originals no image row names any more, deleted with their thumbnails. */
+  removed: number;
+  /** Temporaries of interrupted writes and orphaned thumbnails deleted. */
+  leftovers: number;
+  bytesFreed: number;
+}
+
+/**
+ * Deleting an image (or a whole set) removes its row; the stored bytes stay, because another set or
+ * team may hold the same content. The sweep frees what no row names any more. Anything put within the
+ * grace period is left alone: an upload stores its bytes first and commits the row afterwards.
+ */
+export function createStoreSweeper(deps: { db: Database; store: ContentStore; graceMs: number; logger?: Logger; now?: () => number }) {
+  const now = deps.now ?? Date.now;
+  let running: Promise<SweepReport> | undefined;
+
+  async function sweepOnce(): Promise<SweepReport> {
+    const notAfterMs = now() - deps.graceMs;
+    const report: SweepReport = { skipped: false, examined: 0, removed: 0, leftovers: 0, bytesFreed: 0 };
+    for await (const batch of deps.store.objects()) {
+      report.examined += batch.length;
+      const old = batch.filter((e) => e.mtimeMs <= notAfterMs);
+      if (old.length === 0) continue;
+      const named = await deps.db.repos.images.referencedShas(old.map((e) => e.sha256));
+      for (const entry of old) {
+        if (named.has(entry.sha256)) continue;
+        // The store asks again at the last moment: an upload may have committed a row since the batch query.
+        const freed = await deps.store.discardUnused(entry.sha256, {
+          notAfterMs,
+          inUse: async () => (await deps.db.repos.images.countBySha(entry.sha256)) > 0,
+        });
+        if (freed !== null) {
+          report.removed += 1;
+          report.bytesFreed += freed;
+        }
+      }
+    }
+    const leftovers = await deps.store.removeLeftovers(notAfterMs);
+    report.leftovers = leftovers.files;
+    report.bytesFreed += leftovers.bytes;
+    return report;
+  }
+
+  /** One pass over the store; a call while a pass runs waits for that pass instead of starting another. */
+  function sweep(): Promise<SweepReport> {
+    running ??= deps.db
+      .withNamedLock(contentStoreLock, 0, sweepOnce)
+      .then((held) => held?.value ?? { skipped: true, examined: 0, removed: 0, leftovers: 0, bytesFreed: 0 })
+      .finally(() => {
+        running = undefined;
+      });
+    return running;
+  }
+
+  let timers: NodeJS.Timeout[] = [];
+  const sweepAndLog = () => {
+    sweep().then(
+      (r) => {
+        if (r.removed > 0 || r.leftovers > 0) deps.logger?.info(r, 'content store swept');
+      },
+      (err: unknown) => deps.logger?.error({ err }, 'content store sweep failed'),
+    );
+  };
+
+  return {
+    sweep,
+    /** A first pass after firstDelayMs, then one every intervalMs; the timers never hold the process open. */
+    schedule(intervalMs: number, firstDelayMs = intervalMs): void {
+      const first = setTimeout(() => {
+        sweepAndLog();
+        const every = setInterval(sweepAndLog, intervalMs);
+        every.unref();
+        timers.push(every);
+      }, firstDelayMs);
+      first.unref();
+      timers.push(first);
+    },
+    /** Stops the schedule and waits for a pass in progress, so the database can close under it. */
+    async stop(): Promise<void> {
+      for (const t of timers) clearTimeout(t);
+      timers = [];
+      await running?.catch(() => undefined);
+    },
+  };
+}
+
+export type StoreSweeper = ReturnType<typeof createStoreSweeper>;

@@ -1,6 +1,8 @@
 import { describe, expect, it } from 'vitest';
 import { createRng } from '../../../server/engine/core/index';
+import { exactDistance } from '../../../server/engine/core/exact-distance';
 import { initKmeansPlusPlus, initRandom } from '../../../server/engine/core/init';
+import type { Rng } from '../../../server/engine/core/rng';
 
 const rowsOf = (a: Float32Array, d: number) =>
   Array.from({ length: a.length / d }, (_, v) => Array.from(a.subarray(v * d, (v + 1) * d)).join(','));
@@ -50,4 +52,53 @@ describe('initKmeansPlusPlus', () => {
     const c = await initKmeansPlusPlus(vectors, 2, 40, createRng(2));
     expect(new Set(rowsOf(c, 2)).size).toBe(40);
   });
+
+  it('picks exactly what the unpruned D² rule picks, on clustered data and on data with repeats', async () => {
+    for (const [seed, d, k] of [[1, 16, 64], [2, 3, 200], [3, 48, 32]] as const) {
+      const vectors = clustered(seed, 3000, d, 12);
+      const pruned = await initKmeansPlusPlus(vectors, d, k, createRng(seed + 10));
+      const literal = literalKmeansPlusPlus(vectors, d, k, createRng(seed + 10));
+      expect(Buffer.from(pruned.buffer).equals(Buffer.from(literal.buffer))).toBe(true);
+    }
+  });
 });
+
+/** Gaussian-ish blobs (sum of uniforms) around a few centres, rounded so that some vectors repeat. */
+function clustered(seed: number, n: number, d: number, blobs: number): Float32Array {
+  const rng = createRng(seed);
+  const centres = Array.from({ length: blobs }, () => Array.from({ length: d }, () => rng.next() * 255));
+  const out = new Float32Array(n * d);
+  for (let v = 0; v < n; v++) {
+    const c = centres[rng.nextInt(blobs)];
+    for (let i = 0; i < d; i++) out[v * d + i] = Math.round(c[i] + (rng.next() + rng.next() + rng.next() - 1.5) * 12);
+  }
+  return out;
+}
+
+/**
+ * The seeding exactly as the paper states it (Arthur & Vassilvitskii 2007, §2.2): every distance to the newest
+ * centre computed, the next one drawn by D² weight, with the same random stream and summation order.
+ */
+function literalKmeansPlusPlus(vectors: Float32Array, d: number, k: number, rng: Rng): Float32Array {
+  const n = vectors.length / d;
+  const out = new Float32Array(k * d);
+  const minDist = new Float64Array(n).fill(Infinity);
+  let pick = rng.nextInt(n);
+  for (let c = 0; c < k; c++) {
+    if (c > 0) {
+      let total = 0;
+      for (let v = 0; v < n; v++) total += minDist[v];
+      const target = rng.next() * total;
+      let acc = 0;
+      for (let v = 0; v < n; v++) {
+        if (minDist[v] === 0) continue;
+        acc += minDist[v];
+        pick = v;
+        if (acc > target) break;
+      }
+    }
+    out.set(vectors.subarray(pick * d, (pick + 1) * d), c * d);
+    for (let v = 0; v < n; v++) minDist[v] = Math.min(minDist[v], exactDistance(vectors, v * d, out, c * d, d));
+  }
+  return out;
+}

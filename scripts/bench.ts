@@ -9,6 +9,7 @@ import { fileURLToPath } from 'node:url';
 import sharp from 'sharp';
 import { kmeansGenerator } from 'ml-kmeans';
 import { assign, createRng, shutdownEngineWorkers, threadBudget, train } from '../server/engine/core/index';
+import { writeNpy } from '../server/engine/io/npy';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const imageDir = path.join(root, 'data', 'test-images');
@@ -99,24 +100,11 @@ function findPython(): string | undefined {
   return undefined;
 }
 
-/** .npy version 1.0 (NumPy format specification), little-endian float32, C order. */
-function npy(data: Float32Array, rows: number, cols: number): Buffer {
-  let header = `{'descr': '<f4', 'fortran_order': False, 'shape': (${rows}, ${cols}), }`;
-  const pad = 64 - ((10 + header.length + 1) % 64);
-  header += ' '.repeat(pad % 64) + '\n';
-  const head = Buffer.alloc(10);
-  head.write('\x93NUMPY', 0, 'latin1');
-  head[6] = 1;
-  head[7] = 0;
-  head.writeUInt16LE(header.length, 8);
-  return Buffer.concat([head, Buffer.from(header, 'latin1'), Buffer.from(data.buffer, data.byteOffset, data.byteLength)]);
-}
-
 function sklearnPerIteration(python: string, vectors: Float32Array, init: Float32Array, d: number, k: number): Timing {
   const dir = mkdtempSync(path.join(os.tmpdir(), 'cw-bench-'));
   try {
-    writeFileSync(path.join(dir, 'x.npy'), npy(vectors, vectors.length / d, d));
-    writeFileSync(path.join(dir, 'c.npy'), npy(init, k, d));
+    writeFileSync(path.join(dir, 'x.npy'), writeNpy(vectors, vectors.length / d, d));
+    writeFileSync(path.join(dir, 'c.npy'), writeNpy(init, k, d));
     const script = [
       'import sys, time, numpy as np',
       'from sklearn.cluster import KMeans',
@@ -217,6 +205,31 @@ async function main() {
   for (let i = 0; i < reps; i++) await assign(blocks, 64, book8!);
   const secs = (performance.now() - t2) / 1000 / reps;
   console.log(`encoding 8×8, K=256: ${(pixels / 64).toLocaleString('en')} blocks, ${(pixels / 1e6).toFixed(2)} Mpx in ${secs.toFixed(3)} s → ${(pixels / 1e6 / secs).toFixed(1)} Mpx/s`);
+
+  // Training memory: each run in a fresh process, peak resident memory above the process's level just before
+  // training (workers already started), as a multiple of the training vectors' own bytes.
+  console.log('\ntraining memory (peak RSS above the level before training, one process per case)');
+  const memDir = mkdtempSync(path.join(os.tmpdir(), 'cw-bench-mem-'));
+  try {
+    for (const [size, k, init] of [[8, 256, 'split'], [4, 1024, 'random'], [4, 4096, 'random']] as const) {
+      const d = size * size;
+      const { vectors } = trainingSet(lumas, size);
+      const file = path.join(memDir, `${size}-${k}.npy`);
+      writeFileSync(file, writeNpy(vectors, N, d));
+      const r = spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-memory.ts'), file, String(k), init, String(ITERATIONS)], {
+        encoding: 'utf8',
+      });
+      if (r.status !== 0) throw new Error(`memory case failed: ${r.stderr.trim().split('\n').pop()}`);
+      const m = JSON.parse(r.stdout.trim().split('\n').pop()!) as { trainingBytes: number; baseline: number; peak: number; seconds: number; codebooks: number };
+      const mb = (b: number) => `${(b / 2 ** 20).toFixed(1)} MiB`;
+      console.log(
+        `  ${size}×${size}, K=${k}, ${init}${init === 'split' ? ` (${m.codebooks} codebooks)` : ''}: training set ${mb(m.trainingBytes)}, ` +
+          `peak extra ${mb(m.peak - m.baseline)} = ${((m.peak - m.baseline) / m.trainingBytes).toFixed(2)}× the training set (${m.seconds.toFixed(1)} s)`,
+      );
+    }
+  } finally {
+    rmSync(memDir, { recursive: true, force: true });
+  }
   console.log('\nnote: the cores are shared with other work on this machine; figures may be noisy.');
 }
 

@@ -18,7 +18,7 @@ import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics
 import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
 
 // ---- re-exports: what callers need, from one place ----
-export { train, assign, assignSync, createRng, shutdownEngineWorkers, threadBudget, EngineError } from './core';
+export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWorkers, threadBudget, EngineError } from './core';
 export type { Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './core';
 export { EngineInputError, type EngineInputErrorCode } from './format/engine-input-error';
 export {

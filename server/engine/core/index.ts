@@ -17,7 +17,7 @@ export type {
 export { createRng, type Rng } from './rng';
 export { EngineError, type EngineErrorCode } from './errors';
 export { exactDistance, bruteForceAssign } from './exact-distance';
-export { threadBudget, ThreadBudget, shutdownEngineWorkers, engineWorkerStats } from '../parallel/index';
+export { threadBudget, ThreadBudget, shutdownEngineWorkers, engineWorkerStats, sharedVectors } from '../parallel/index';
 
 export const DEFAULT_EPSILON = 1e-4;
 export const DEFAULT_MAX_ITERATIONS = 100;

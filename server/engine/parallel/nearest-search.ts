@@ -12,6 +12,11 @@ const CHUNK = 2048;
 const MIN_PARALLEL_WORK = 1 << 22;
 /** Largest block-bound table kept between passes (see run). */
 const MAX_BOUND_BYTES = 256 * 1024 * 1024;
+/**
+ * …and never more than this many times the training vectors' own bytes, so that training memory stays a small
+ * multiple of the training set (blocks ≤ 4d, that is K ≤ 64·d keeps the bounds). Measured by `npm run bench`.
+ */
+const MAX_BOUND_RATIO = 4;
 
 let nextJobId = 1;
 
@@ -69,6 +74,17 @@ let localKernel: NearestKernel | undefined;
 function sharedLocalKernel(): NearestKernel {
   localKernel ??= new NearestKernel();
   return localKernel;
+}
+
+/**
+ * The vectors in shared memory, as the workers read them: the same array when it already is, else one copy.
+ * A caller that trains several times on one set converts it once, so no pass makes a copy of its own.
+ */
+export function sharedVectors(vectors: Float32Array): Float32Array {
+  if (vectors.buffer instanceof SharedArrayBuffer) return vectors;
+  const out = new Float32Array(new SharedArrayBuffer(vectors.byteLength));
+  out.set(vectors);
+  return out;
 }
 
 function toShared(vectors: Float32Array): { buffer: SharedArrayBuffer; byteOffset: number } {
@@ -163,9 +179,10 @@ export class NearestSearch {
       this.order = new Uint32Array(new SharedArrayBuffer(k * 4));
       this.order.set(order);
     }
-    // Bounds take N × ⌈K/16⌉ float32; beyond MAX_BOUND_BYTES every pass runs in full.
+    // Bounds take N × ⌈K/16⌉ float32; beyond MAX_BOUND_BYTES, or MAX_BOUND_RATIO × the vectors, every pass runs in full.
     const blocks = Math.ceil(k / 16);
-    const boundEntries = this.n * blocks * 4 <= MAX_BOUND_BYTES ? this.n * blocks : 0;
+    const boundBytes = this.n * blocks * 4;
+    const boundEntries = boundBytes <= Math.min(MAX_BOUND_BYTES, MAX_BOUND_RATIO * this.n * this.d * 4) ? this.n * blocks : 0;
     const drift = sameSize && boundEntries > 0 ? this.driftFrom(this.previous!, cw, k) : undefined;
     // Until the pass completes the bounds are stale: a failed pass must not be trusted.
     this.previous = undefined;

@@ -1,6 +1,6 @@
 import type { NormalizedRunConfig } from '../../contracts';
 import type { NewCodebook, RunRecord } from '../../db';
-import { makeCodebook, toCodebookDocument, train, type IterationStat, type TrainedCodebook } from '../../engine';
+import { makeCodebook, sharedVectors, toCodebookDocument, train, type IterationStat, type TrainedCodebook } from '../../engine';
 import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
 import type { JobContext, JobHandler } from '../types';
 
@@ -107,7 +107,8 @@ export const trainHandler: JobHandler = async (job, ctx) => {
   const cfg = run.normalized;
   const dimension = cfg.patch.width * cfg.patch.height * (cfg.color === 'rgb' ? 3 : 1);
 
-  const vectors = await loadVectors(run, ctx);
+  // Put in shared memory once, before training: every pass's workers then read this one copy.
+  const vectors = sharedVectors(await loadVectors(run, ctx));
   const vectorCount = vectors.length / dimension;
   ctx.progress({ phase: 'training', fraction: LOADED, message: `${vectorCount} training vectors of ${dimension} components` });
 

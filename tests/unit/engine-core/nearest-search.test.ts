@@ -1,6 +1,7 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { bruteForceAssign, createRng, shutdownEngineWorkers, threadBudget } from '../../../server/engine/core/index';
-import { NearestSearch } from '../../../server/engine/parallel/nearest-search';
+import { NearestSearch, sharedVectors } from '../../../server/engine/parallel/nearest-search';
+import { train } from '../../../server/engine/core/index';
 import { NearestKernel } from '../../../server/engine/wasm/kernel';
 import { accumulateCentroids } from '../../../server/engine/core/accumulate-centroids';
 
@@ -91,5 +92,18 @@ describe('NearestKernel with extreme magnitudes', () => {
     expect(Array.from(idx)).toEqual(Array.from(ref.indices));
     expect(Array.from(dist)).toEqual(Array.from(ref.distances));
     expect(Array.from(idx)).toEqual([1, 0, 2]);
+  });
+
+  it('trains to the same codewords, bit for bit, from vectors already in shared memory', async () => {
+    const rng = createRng(17);
+    const d = 16;
+    const plain = new Float32Array(40_000 * d).map(() => Math.round(rng.normal() * 30));
+    const shared = sharedVectors(plain);
+    expect(shared.buffer).toBeInstanceOf(SharedArrayBuffer);
+    expect(sharedVectors(shared)).toBe(shared);
+    expect(Array.from(shared)).toEqual(Array.from(plain));
+    const options = { k: 64, init: 'kmeans++' as const, seed: 4, maxIterations: 6 };
+    const [a, b] = [await train(plain, d, options), await train(shared, d, options)];
+    expect(Buffer.from(b.codebooks[0].codewords.buffer).equals(Buffer.from(a.codebooks[0].codewords.buffer))).toBe(true);
   });
 });

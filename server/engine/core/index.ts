@@ -107,7 +107,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
       const rng = createRng(seed);
       if (options.initialCodewords) start = options.initialCodewords.slice();
       else if (options.init === 'random') start = initRandom(vectors, d, k, rng);
-      else start = await initKmeansPlusPlus(vectors, d, k, rng, signal);
+      else start = await initKmeansPlusPlus(vectors, d, k, rng, signal, search.seeding(k, signal));
       throwIfAborted(signal);
       codebooks.push(await runLloyd(ctx, start, k));
     } else {

@@ -5,7 +5,8 @@
 import { parentPort } from 'node:worker_threads';
 import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
 import { addRow } from '../core/accumulate-centroids';
-import type { AccumulateJob, AssignJob, AssignReply, WorkerJob } from './messages';
+import { seedUpdateRange } from '../core/init';
+import type { AccumulateJob, AssignJob, AssignReply, SeedJob, WorkerJob } from './messages';
 
 if (!parentPort) throw new Error('assign.task.ts must run in a worker thread');
 const port = parentPort;
@@ -28,10 +29,30 @@ function accumulate(job: AccumulateJob): void {
   }
 }
 
+/** One k-means++ step over the chunks this worker claims; every vector is independent of the others. */
+function seed(job: SeedJob): void {
+  const { d, n, k } = job;
+  const vectors = new Float32Array(job.vectors, job.vectorsByteOffset, n * d);
+  const state = {
+    codewords: new Float32Array(job.codewords, 0, k * d),
+    minDist: new Float64Array(job.minDist, 0, n),
+    nearest: new Uint32Array(job.nearest, 0, n),
+    fromNewest: new Float64Array(job.fromNewest, 0, k),
+  };
+  const control = new Int32Array(job.control);
+  for (;;) {
+    if (Atomics.load(control, 1) !== 0) break;
+    const start = Atomics.add(control, 0, 1) * job.chunkSize;
+    if (start >= n) break;
+    seedUpdateRange(vectors, d, state, job.c, start, Math.min(n, start + job.chunkSize));
+  }
+}
+
 port.on('message', (message: WorkerJob) => {
-  if (message.kind === 'accumulate') {
+  if (message.kind === 'accumulate' || message.kind === 'seed') {
     try {
-      accumulate(message);
+      if (message.kind === 'seed') seed(message);
+      else accumulate(message);
       port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0 } satisfies AssignReply);
     } catch (err) {
       const error = err instanceof Error ? err.message : String(err);

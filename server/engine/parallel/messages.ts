@@ -31,7 +31,26 @@ export interface AccumulateJob {
   cellEnd: number;
 }
 
-export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob;
+/** One k-means++ step (core/init seedUpdateRange) over chunks of the vectors, claimed through `control`. */
+export interface SeedJob {
+  jobId: number;
+  kind: 'seed';
+  vectors: SharedArrayBuffer; // N × d f32 starting at vectorsByteOffset
+  vectorsByteOffset: number;
+  n: number;
+  d: number;
+  k: number;
+  /** The newest codeword's index. */
+  c: number;
+  codewords: SharedArrayBuffer; // K × d f32, read
+  minDist: SharedArrayBuffer; // N f64, read and written
+  nearest: SharedArrayBuffer; // N u32, read and written
+  fromNewest: SharedArrayBuffer; // K f64, read
+  control: SharedArrayBuffer; // Int32 [next chunk, cancel flag]
+  chunkSize: number;
+}
+
+export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedJob;
 
 export interface AssignReply {
   jobId: number;

@@ -2,9 +2,10 @@ import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
 import { abortError } from '../core/errors';
 import { exactDistance } from '../core/exact-distance';
 import { accumulateCentroids } from '../core/accumulate-centroids';
+import { seedUpdateRange, type SeedState, type SeedUpdater } from '../core/init';
 import { threadBudget, type ThreadLease } from './thread-budget';
 import { pool, type KernelWorker } from './worker-pool';
-import type { AssignJob, AssignReply } from './messages';
+import type { AssignJob, AssignReply, SeedJob } from './messages';
 
 /** Vectors per claimed chunk: small enough to balance two to dozens of threads. */
 const CHUNK = 2048;
@@ -310,6 +311,54 @@ export class NearestSearch {
       for (let i = 0; i < d; i++) codewords[j * d + i] = sums[j * d + i] / c;
     }
     return counts;
+  }
+
+  /**
+   * k-means++ seeding state for K codewords in memory shared with the workers, and the step that updates it
+   * (core/init initKmeansPlusPlus). Each step runs on the workers when there are any and the set is large
+   * enough to be worth the hand-off; every vector depends only on itself, so the result is the same either way.
+   */
+  seeding(k: number, signal?: AbortSignal): { state: SeedState; update: SeedUpdater } {
+    const { n, d } = this;
+    const buffers = {
+      codewords: new SharedArrayBuffer(k * d * 4),
+      minDist: new SharedArrayBuffer(n * 8),
+      nearest: new SharedArrayBuffer(n * 4),
+      fromNewest: new SharedArrayBuffer(k * 8),
+    };
+    const state: SeedState = {
+      codewords: new Float32Array(buffers.codewords),
+      minDist: new Float64Array(buffers.minDist),
+      nearest: new Uint32Array(buffers.nearest),
+      fromNewest: new Float64Array(buffers.fromNewest),
+    };
+    // A step is at most N × d multiply-adds: small sets stay on this thread.
+    if (this.workers.length === 0 || n * d < MIN_PARALLEL_WORK / 4 || n <= CHUNK) {
+      return { state, update: (c) => seedUpdateRange(this.vectors, d, state, c, 0, n) };
+    }
+    const control = new SharedArrayBuffer(8);
+    const flags = new Int32Array(control);
+    const update = async (c: number) => {
+      if (this.closed) throw new Error('NearestSearch is closed');
+      Atomics.store(flags, 0, 0);
+      Atomics.store(flags, 1, signal?.aborted ? 1 : 0);
+      const onAbort = () => Atomics.store(flags, 1, 1);
+      signal?.addEventListener('abort', onAbort, { once: true });
+      try {
+        const job: Omit<SeedJob, 'jobId'> = {
+          kind: 'seed', vectors: this.shared!.buffer, vectorsByteOffset: this.shared!.byteOffset, n, d, k, c,
+          ...buffers, control, chunkSize: CHUNK,
+        };
+        // Every worker is awaited, even after a failure, so none is left writing into the state.
+        const replies = await Promise.allSettled(this.workers.map((w) => w.run({ ...job, jobId: nextJobId++ })));
+        const failed = replies.find((r) => r.status === 'rejected');
+        if (failed) throw (failed as PromiseRejectedResult).reason;
+        if (signal?.aborted) throw abortError(signal);
+      } finally {
+        signal?.removeEventListener('abort', onAbort);
+      }
+    };
+    return { state, update };
   }
 
   close(): void {

@@ -1,11 +1,14 @@
-import { describe, expect, it } from 'vitest';
-import { createRng } from '../../../server/engine/core/index';
+import { afterAll, describe, expect, it } from 'vitest';
+import { createRng, shutdownEngineWorkers, threadBudget } from '../../../server/engine/core/index';
+import { NearestSearch } from '../../../server/engine/parallel/nearest-search';
 import { exactDistance } from '../../../server/engine/core/exact-distance';
 import { initKmeansPlusPlus, initRandom } from '../../../server/engine/core/init';
 import type { Rng } from '../../../server/engine/core/rng';
 
 const rowsOf = (a: Float32Array, d: number) =>
   Array.from({ length: a.length / d }, (_, v) => Array.from(a.subarray(v * d, (v + 1) * d)).join(','));
+
+afterAll(() => shutdownEngineWorkers());
 
 describe('initRandom', () => {
   it('picks K distinct training vectors, the same for a seed', () => {
@@ -51,6 +54,28 @@ describe('initKmeansPlusPlus', () => {
     const vectors = new Float32Array(400).map(() => Math.round(rng.next() * 20));
     const c = await initKmeansPlusPlus(vectors, 2, 40, createRng(2));
     expect(new Set(rowsOf(c, 2)).size).toBe(40);
+  });
+
+  it('picks the same on the worker threads as on the calling thread, and as the unpruned rule', async () => {
+    const d = 64;
+    const k = 96;
+    const vectors = clustered(9, 24_000, d, 20);
+    const search = await NearestSearch.open(vectors, d, { threads: threadBudget.total, maxK: k });
+    try {
+      // Large enough that each step goes to the workers (they share the state, not copies of it).
+      const parallel = search.seeding(k);
+      expect(search.threads).toBe(threadBudget.total);
+      expect(parallel.state.minDist.buffer).toBeInstanceOf(SharedArrayBuffer);
+      // A step handed to the workers is awaited; one on this thread returns at once.
+      const step = parallel.update(0);
+      expect(step).toBeInstanceOf(Promise);
+      await step;
+      const onWorkers = await initKmeansPlusPlus(vectors, d, k, createRng(31), undefined, parallel);
+      const literal = literalKmeansPlusPlus(vectors, d, k, createRng(31));
+      expect(Buffer.from(onWorkers.buffer).equals(Buffer.from(literal.buffer))).toBe(true);
+    } finally {
+      search.close();
+    }
   });
 
   it('picks exactly what the unpruned D² rule picks, on clustered data and on data with repeats', async () => {

@@ -2,7 +2,7 @@ import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
 import { abortError } from '../core/errors';
 import { exactDistance } from '../core/exact-distance';
 import { accumulateCentroids } from '../core/accumulate-centroids';
-import { seedUpdateRange, type SeedState, type SeedUpdater } from '../core/init';
+import type { SeedState, SeedUpdater } from '../core/init';
 import { threadBudget, type ThreadLease } from './thread-budget';
 import { pool, type KernelWorker } from './worker-pool';
 import type { AssignJob, AssignReply, SeedJob } from './messages';
@@ -89,12 +89,8 @@ export function sharedVectors(vectors: Float32Array): Float32Array {
 }
 
 function toShared(vectors: Float32Array): { buffer: SharedArrayBuffer; byteOffset: number } {
-  if (vectors.buffer instanceof SharedArrayBuffer) {
-    return { buffer: vectors.buffer, byteOffset: vectors.byteOffset };
-  }
-  const buffer = new SharedArrayBuffer(vectors.byteLength);
-  new Float32Array(buffer).set(vectors);
-  return { buffer, byteOffset: 0 };
+  const shared = sharedVectors(vectors);
+  return { buffer: shared.buffer as SharedArrayBuffer, byteOffset: shared.byteOffset };
 }
 
 /** Outcome of one pass. */
@@ -315,11 +311,14 @@ export class NearestSearch {
 
   /**
    * k-means++ seeding state for K codewords in memory shared with the workers, and the step that updates it
-   * (core/init initKmeansPlusPlus). Each step runs on the workers when there are any and the set is large
-   * enough to be worth the hand-off; every vector depends only on itself, so the result is the same either way.
+   * (core/init initKmeansPlusPlus), or undefined when there are no workers or the set is too small to be
+   * worth the hand-off: the seeding then runs on the calling thread. Every vector depends only on itself, so
+   * the result is the same either way.
    */
-  seeding(k: number, signal?: AbortSignal): { state: SeedState; update: SeedUpdater } {
+  seeding(k: number, signal?: AbortSignal): { state: SeedState; update: SeedUpdater } | undefined {
     const { n, d } = this;
+    // A step is at most N × d multiply-adds: small sets stay on this thread.
+    if (this.workers.length === 0 || n * d < MIN_PARALLEL_WORK / 4 || n <= CHUNK) return undefined;
     const buffers = {
       codewords: new SharedArrayBuffer(k * d * 4),
       minDist: new SharedArrayBuffer(n * 8),
@@ -332,10 +331,6 @@ export class NearestSearch {
       nearest: new Uint32Array(buffers.nearest),
       fromNewest: new Float64Array(buffers.fromNewest),
     };
-    // A step is at most N × d multiply-adds: small sets stay on this thread.
-    if (this.workers.length === 0 || n * d < MIN_PARALLEL_WORK / 4 || n <= CHUNK) {
-      return { state, update: (c) => seedUpdateRange(this.vectors, d, state, c, 0, n) };
-    }
     const control = new SharedArrayBuffer(8);
     const flags = new Int32Array(control);
     const update = async (c: number) => {

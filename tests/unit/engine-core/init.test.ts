@@ -63,7 +63,7 @@ describe('initKmeansPlusPlus', () => {
     const search = await NearestSearch.open(vectors, d, { threads: threadBudget.total, maxK: k });
     try {
       // Large enough that each step goes to the workers (they share the state, not copies of it).
-      const parallel = search.seeding(k);
+      const parallel = search.seeding(k)!;
       expect(search.threads).toBe(threadBudget.total);
       expect(parallel.state.minDist.buffer).toBeInstanceOf(SharedArrayBuffer);
       // A step handed to the workers is awaited; one on this thread returns at once.

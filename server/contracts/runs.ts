@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { MAX_ITERATIONS } from '../engine/format/limits';
 import { idParam, pathId } from './common';
 import { job, jobState } from './jobs';
 
@@ -32,7 +33,7 @@ export const createRunBody = z
     bits: z.union([int(0, 14), bitsRange]),
     init: z.enum(['random', 'kmeans++', 'split']).optional(),
     epsilon: z.number().gt(0).max(0.1).optional(),
-    maxIterations: int(1, 1000).optional(),
+    maxIterations: int(1, MAX_ITERATIONS).optional(),
     maxVectors: int(100, 2_000_000).optional(),
     seed: z.number().int().min(0).max(2 ** 31 - 1).optional(),
   })

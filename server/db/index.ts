@@ -10,4 +10,4 @@ export type { AuditEntry, AuditRecord } from './repositories/audit';
 export type { CapturedMessage } from './repositories/outbox';
 export type { RunRecord, RunImageRecord } from './repositories/runs';
 export type { JobRecord, NewJob } from './repositories/jobs';
-export type { CodebookRecord, CodebookWithCodewords, NewCodebook } from './repositories/codebooks';
+export type { CodebookRecord, CodebookSummaryRecord, CodebookWithCodewords, NewCodebook } from './repositories/codebooks';

@@ -6,7 +6,7 @@
 import { readFile } from 'node:fs/promises';
 import { z } from 'zod';
 import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './core';
-import { issuePath, makeCodebook, MAX_BITS, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
+import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
 import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 import { readContainer, writeContainer } from './format/container';
 import { EngineInputError } from './format/engine-input-error';
@@ -22,7 +22,7 @@ export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWork
 export type { Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './core';
 export { EngineInputError, type EngineInputErrorCode } from './format/engine-input-error';
 export {
-  CODEBOOK_FORMAT, CODEBOOK_VERSION, MAX_BITS, MAX_SIZE, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
+  CODEBOOK_FORMAT, CODEBOOK_VERSION, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
   serializeCodebook, toCodebookDocument, type Codebook, type CodebookDocument, type PatchInfo, type PreprocessingInfo, type TrainingInfo,
 } from './format/codebook-schema';
 export { codebookJsonSchemaText } from './format/codebook-json-schema';
@@ -108,7 +108,8 @@ const trainSchema = z
     size: int(1, 2 ** MAX_BITS).optional(),
     init: z.enum(['random', 'kmeans++', 'split']),
     epsilon: z.number().min(0).max(1).optional(),
-    maxIterations: int(0, 1_000_000).optional(),
+    // The format records the trace of every pass, so training stops at what a document may hold.
+    maxIterations: int(0, MAX_ITERATIONS).optional(),
     seed: int(0).optional(),
     threads: threadsSchema,
     signal: signalSchema,
@@ -116,7 +117,7 @@ const trainSchema = z
     onIteration: z.function().optional(),
     patch: z.object({ width: int(2, 16), height: int(2, 16), channels: z.union([z.literal(1), z.literal(3)]), color: colorSchema }).nullable(),
     preprocessing: preprocessingSchema,
-    source: z.string(),
+    source: z.string().max(MAX_SOURCE_LENGTH),
     stride: int(1).optional(),
     sample: int(1).optional(),
   })

@@ -1,12 +1,10 @@
 import type { CodebookDetail, CodebookSummary } from '../contracts';
-import type { CodebookRecord, CodebookWithCodewords, Database } from '../db';
+import type { CodebookSummaryRecord, CodebookWithCodewords, Database } from '../db';
 import { codewordChecksum, EngineInputError, parseCodebook, serializeCodebook, toCodebookDocument, type Codebook } from '../engine';
 import { notFound, validationFailed } from '../errors';
 import { recordAudit } from './audit';
 
-const trainingOf = (c: CodebookRecord) => (c.metadata.training ?? {}) as { distortion?: number; source?: string };
-
-function toSummary(c: CodebookRecord): CodebookSummary {
+function toSummary(c: CodebookSummaryRecord): CodebookSummary {
   return {
     id: c.id,
     name: c.name,
@@ -21,7 +19,7 @@ function toSummary(c: CodebookRecord): CodebookSummary {
     channels: c.channels,
     meanBits: c.meanBits,
     checksum: c.checksum,
-    distortion: Number(trainingOf(c).distortion ?? NaN),
+    distortion: c.distortion,
     createdAt: c.createdAt,
   };
 }
@@ -98,6 +96,8 @@ export function createCodebooksService(deps: { db: Database }) {
   }
 
   function toDetail(c: CodebookWithCodewords): CodebookDetail {
+    // The trace is sent once, at the top level, not a second time inside training.
+    const { trace: _trace, ...training } = (c.metadata.training ?? {}) as Record<string, unknown>;
     return {
       ...toSummary(c),
       usage: c.usage,
@@ -105,7 +105,7 @@ export function createCodebooksService(deps: { db: Database }) {
       trace: c.trace,
       // Shortest decimals that read back to the same float32, exactly as the export writes them.
       codewords: codewordRows.get(c),
-      training: (c.metadata.training ?? {}) as Record<string, unknown>,
+      training,
     };
   }
 

@@ -142,8 +142,8 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus }) {
         id: c.id,
         bits: c.bits,
         size: c.size,
-        distortion: Number((c.metadata.training as { distortion?: number } | undefined)?.distortion ?? NaN),
-        iterations: Number((c.metadata.training as { iterations?: number } | undefined)?.iterations ?? 0),
+        distortion: c.distortion,
+        iterations: c.iterations,
         checksum: c.checksum,
       })),
     };

@@ -109,10 +109,16 @@ describe('codebook import and export', () => {
     expect(res.body.codebooks.find((c: { id: number }) => c.id === id)).toMatchObject({ origin: 'imported', source: 'imported' });
   });
 
-  it('rejects a viewer with 403 on import and export but lets them read', async () => {
+  it('rejects a viewer with 403 on import but lets them export what they read', async () => {
     expect((await request(t.app).post(importUrl()).set(bearer(team.viewer)).send(handMade())).status).toBe(403);
-    expect((await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${id}/export`).set(bearer(team.viewer))).status).toBe(403);
-    expect((await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${id}`).set(bearer(team.viewer))).status).toBe(200);
+    const detail = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${id}`).set(bearer(team.viewer));
+    expect(detail.status).toBe(200);
+    // One rule: the export holds the codewords the detail already gives a viewer.
+    const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${id}/export`).set(bearer(team.viewer));
+    expect(exported.status).toBe(200);
+    expect(exported.body.codewords).toEqual(detail.body.codebook.codewords);
+    const audit = await t.db.knex('audit_log').where({ action: 'codebook.exported', target_id: String(id), actor_user_id: team.viewer.user.id });
+    expect(audit).toHaveLength(1);
     expect((await request(t.app).post(importUrl()).set(bearer(team.admin)).send(handMade())).status).toBe(201);
   });
 
@@ -126,5 +132,106 @@ describe('codebook import and export', () => {
     }
     const theirs = await request(t.app).get(`/api/teams/${other.teamId}/codebooks`).set(bearer(other));
     expect(theirs.body.codebooks).toEqual([]);
+  });
+});
+
+describe('imported codebook metadata', () => {
+  /** A valid document whose training source and trace are as long as the format allows. */
+  function heavy() {
+    const doc = handMade(4, 4);
+    // bits 2, maxIterations 1000: (2 + 1) sizes × 1001 passes.
+    const trace = Array.from({ length: 3003 }, (_, i) => ({ size: 2 ** Math.floor(i / 1001), iteration: i % 1001, distortion: 1 / (i + 1), emptyRepaired: 0, elapsedMs: 0.25 }));
+    return { ...doc, training: { ...doc.training, source: `survey/${'s'.repeat(4089)}`, maxIterations: 1000, trace } };
+  }
+
+  it('refuses a training source longer than 4096 characters, naming it, and stores nothing', async () => {
+    const before = await importedCount();
+    const doc = heavy();
+    const res = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send({ ...doc, training: { ...doc.training, source: `${doc.training.source}s` } });
+    expect(res.status).toBe(400);
+    expect(res.body.error.details[0]).toMatchObject({ path: 'training.source', message: expect.stringMatching(/at most 4096 characters/) });
+    expect(await importedCount()).toBe(before);
+  });
+
+  it('refuses a trace longer than its sizes and iterations allow, naming it, and stores nothing', async () => {
+    const before = await importedCount();
+    const doc = heavy();
+    const trace = [...doc.training.trace, doc.training.trace[0]];
+    const res = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send({ ...doc, training: { ...doc.training, trace } });
+    expect(res.status).toBe(400);
+    expect(res.body.error.details[0]).toMatchObject({ path: 'training.trace', message: expect.stringMatching(/at most 3003 entries/) });
+    expect(await importedCount()).toBe(before);
+  });
+
+  it('stores the trace and the usage once, and the source once beside the name taken from it', async () => {
+    const doc = heavy();
+    const res = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send(doc);
+    expect(res.status).toBe(201);
+    const row = await t.db.knex('codebooks').where({ id: res.body.codebook.id }).first();
+    const text = (v: unknown) => (typeof v === 'string' ? v : JSON.stringify(v));
+    const stored = [row.metadata, row.trace, row.usage, row.cell_distortion].map(text).join('\n');
+    const count = (needle: string) => stored.split(needle).length - 1;
+    expect(count(doc.training.source)).toBe(1);
+    expect(count('"elapsedMs"')).toBe(doc.training.trace.length);
+    expect(JSON.parse(text(row.trace))).toEqual(doc.training.trace);
+    expect(JSON.parse(text(row.usage))).toEqual(doc.usage);
+    expect(row.name).toBe(doc.training.source.slice(0, 200));
+    // Put back together, it is the same document, and the detail sends the trace once.
+    const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${res.body.codebook.id}/export`).set(bearer(team.engineer));
+    expect(exported.body).toEqual(doc);
+    const detail = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${res.body.codebook.id}`).set(bearer(team.viewer));
+    expect(detail.body.codebook.trace).toEqual(doc.training.trace);
+    expect(detail.body.codebook.training.trace).toBeUndefined();
+    expect(detail.body.codebook.training.source).toBe(doc.training.source);
+  });
+
+  it('lists codebooks without reading their training source, trace, usage or codewords', async () => {
+    const doc = heavy();
+    expect((await request(t.app).post(importUrl()).set(bearer(team.engineer)).send(doc)).status).toBe(201);
+    const statements: string[] = [];
+    const listen = (q: { sql: string }) => statements.push(q.sql);
+    t.db.knex.on('query', listen);
+    let res: request.Response;
+    try {
+      res = await request(t.app).get(`/api/teams/${team.teamId}/codebooks`).set(bearer(team.viewer));
+    } finally {
+      t.db.knex.off('query', listen);
+    }
+    expect(res.status).toBe(200);
+    expect(res.body.codebooks.length).toBeGreaterThan(0);
+    expect(res.body.codebooks[0].distortion).toBe(doc.training.distortion);
+    const reads = statements.filter((sql) => /from `codebooks`/i.test(sql));
+    expect(reads).toHaveLength(1);
+    for (const column of ['metadata', 'trace', 'usage', 'cell_distortion', 'codewords']) expect(reads[0]).not.toContain(`\`${column}\``);
+  });
+});
+
+describe('float32 codeword values', () => {
+  /** The document with one codeword value replaced, its checksum taken over what float32 makes of it. */
+  function withValue(value: number) {
+    const doc = handMade();
+    const codewords = doc.codewords.map((row) => [...row]);
+    codewords[1][2] = value;
+    return { ...doc, codewords, checksum: checksumOf(codewords) };
+  }
+
+  it('refuses a value finite as float64 but infinite as float32 (1e39), naming it, and stores nothing', async () => {
+    const before = await importedCount();
+    const res = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send(withValue(1e39));
+    expect(res.status).toBe(400);
+    expect(res.body.error.details[0]).toMatchObject({ path: 'codewords[1][2]', message: expect.stringMatching(/finite as float32/) });
+    expect(await importedCount()).toBe(before);
+  });
+
+  it('imports the largest finite float32, written 3.4028235e38, and exports it so it imports again', async () => {
+    // 3.4028235e38 is above FLT_MAX = 3.4028234663852886e38 as a float64 and rounds to it as a float32 (IEEE 754).
+    const doc = withValue(3.4028235e38);
+    const first = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send(doc);
+    expect(first.status).toBe(201);
+    const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${first.body.codebook.id}/export`).set(bearer(team.engineer));
+    expect(exported.text).toContain('3.4028235e+38');
+    const again = await request(t.app).post(importUrl()).set(bearer(team.engineer)).set('Content-Type', 'application/json').send(exported.text);
+    expect(again.status).toBe(201);
+    expect(again.body.codebook.checksum).toBe(doc.checksum);
   });
 });

@@ -93,7 +93,7 @@ describe('jobs across a server restart', () => {
     // A stale row for one of the run's sizes, as an earlier attempt might have left: the re-run must replace it.
     await server.db.knex('codebooks').insert({
       team_id: teamId, run_id: runId, bits: 10, size: 1024, dimension: 16, patch_width: 4, patch_height: 4, channels: 1, color: 'luma',
-      mean_bits: 0, codewords: Buffer.alloc(1024 * 16 * 4), usage: '[]', trace: '[]', metadata: '{}', checksum: '0'.repeat(64), source: 'trained', name: 'stale',
+      mean_bits: 0, codewords: Buffer.alloc(1024 * 16 * 4), usage: '[]', trace: '[]', metadata: '{}', distortion: 0, iterations: 0, checksum: '0'.repeat(64), source: 'trained', name: 'stale',
     });
 
     await server.restart();

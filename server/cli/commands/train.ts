@@ -1,5 +1,5 @@
 import {
-  imagesToTrainingVectors, MAX_BITS, parsePatchShape, serializeCodebook, trainCodebooks, type Codebook, type ColorMode, type PatchInfo,
+  imagesToTrainingVectors, MAX_BITS, MAX_ITERATIONS, parsePatchShape, serializeCodebook, trainCodebooks, type Codebook, type ColorMode, type PatchInfo,
   type PreprocessingInfo,
 } from '../../engine';
 import { choiceOption, intOption, numberOption, parseOptions, requiredString, stringOption, type OptionSpec, type ParsedOptions } from '../args';
@@ -27,7 +27,7 @@ Training:
   --bits B              codebook size 2^B, B from 0 to ${MAX_BITS} (required)
   --init METHOD         split (LBG, default), kmeans++ or random
   --epsilon E           stop when the relative drop in distortion is below E (default 1e-4)
-  --max-iter N          at most N Lloyd iterations per codebook size (default 100)
+  --max-iter N          at most N Lloyd iterations per codebook size, 0..${MAX_ITERATIONS} (default 100)
   --seed N              random seed (default 1)
   --threads N           worker threads (default: all cores the engine may use)
 Output:
@@ -75,7 +75,7 @@ export function trainingSettings(values: ParsedOptions): TrainingSettings {
   return {
     init: choiceOption(values, 'init', ['split', 'kmeans++', 'random'] as const) ?? 'split',
     epsilon: numberOption(values, 'epsilon', { min: 0, max: 1 }),
-    maxIterations: intOption(values, 'max-iter', { min: 0, max: 1_000_000 }),
+    maxIterations: intOption(values, 'max-iter', { min: 0, max: MAX_ITERATIONS }),
     seed: intOption(values, 'seed', { min: 0, max: 2 ** 32 - 1 }),
     threads: intOption(values, 'threads', { min: 1, max: 1024 }),
   };

@@ -26,16 +26,44 @@ export interface NewCodebook {
   usage: number[];
   cellDistortion: number[] | null;
   trace: TraceRow[];
-  /** The export document without codewords. */
+  /**
+   * The export document without codewords. Its usage and training.trace are the `usage` and `trace` above and are
+   * stored only there; the rest goes to the metadata column.
+   */
   metadata: Record<string, unknown>;
   checksum: string;
 }
 
-export interface CodebookRecord extends Omit<NewCodebook, 'codewords'> {
+/** What the codebook and run lists show: no document, histogram or trace (an imported one may carry megabytes of them). */
+export interface CodebookSummaryRecord {
   id: number;
+  teamId: number;
+  runId: number | null;
   /** The run's name, or null for an imported codebook. */
   runName: string | null;
+  name: string;
+  source: 'trained' | 'imported';
+  bits: number;
+  size: number;
+  dimension: number;
+  patch: { width: number; height: number };
+  channels: 1 | 3;
+  color: 'luma' | 'rgb';
+  meanBits: number;
+  checksum: string;
+  /** training.distortion: MSE per vector component on the training vectors. */
+  distortion: number;
+  /** training.iterations: Lloyd updates at the final size. */
+  iterations: number;
   createdAt: string;
+}
+
+export interface CodebookRecord extends CodebookSummaryRecord {
+  usage: number[];
+  cellDistortion: number[] | null;
+  trace: TraceRow[];
+  /** The export document without codewords, put back together (usage and training.trace included). */
+  metadata: Record<string, unknown>;
 }
 
 export interface CodebookWithCodewords extends CodebookRecord {
@@ -57,13 +85,18 @@ interface CodebookRow {
   channels: number;
   color: 'luma' | 'rgb';
   mean_bits: number;
-  codewords?: Buffer;
+  checksum: string;
+  distortion: number;
+  iterations: number;
+  created_at: Date;
+}
+
+interface FullCodebookRow extends CodebookRow {
+  codewords: Buffer;
   usage: unknown;
   cell_distortion: unknown;
   trace: unknown;
   metadata: unknown;
-  checksum: string;
-  created_at: Date;
 }
 
 /** float32 little-endian, whatever the host's byte order, so the stored bytes are exactly what the checksum covers. */
@@ -81,13 +114,15 @@ export function bytesToCodewords(bytes: Buffer): Float32Array {
   return out;
 }
 
+// Only what a list shows: never metadata (training source), usage, cell distortion, trace or codewords.
 const summaryColumns = [
   'c.id', 'c.team_id', 'c.run_id', 'r.name as run_name', 'c.name', 'c.source', 'c.bits', 'c.size', 'c.dimension',
-  'c.patch_width', 'c.patch_height', 'c.channels', 'c.color', 'c.mean_bits', 'c.usage', 'c.cell_distortion', 'c.trace',
-  'c.metadata', 'c.checksum', 'c.created_at',
+  'c.patch_width', 'c.patch_height', 'c.channels', 'c.color', 'c.mean_bits', 'c.checksum', 'c.distortion', 'c.iterations',
+  'c.created_at',
 ];
+const fullColumns = [...summaryColumns, 'c.usage', 'c.cell_distortion', 'c.trace', 'c.metadata', 'c.codewords'];
 
-const toRecord = (r: CodebookRow): CodebookRecord => ({
+const toSummaryRecord = (r: CodebookRow): CodebookSummaryRecord => ({
   id: r.id,
   teamId: r.team_id,
   runId: r.run_id,
@@ -101,13 +136,42 @@ const toRecord = (r: CodebookRow): CodebookRecord => ({
   channels: r.channels === 3 ? 3 : 1,
   color: r.color,
   meanBits: r.mean_bits,
-  usage: parseJson<number[]>(r.usage) ?? [],
-  cellDistortion: parseJson<number[]>(r.cell_distortion),
-  trace: parseJson<TraceRow[]>(r.trace) ?? [],
-  metadata: parseJson<Record<string, unknown>>(r.metadata) ?? {},
   checksum: r.checksum,
+  distortion: r.distortion,
+  iterations: r.iterations,
   createdAt: iso(r.created_at),
 });
+
+type Training = Record<string, unknown> & { trace?: unknown };
+
+/** The metadata column: the document without usage and training.trace, which live in their own columns. */
+function storedMetadata(metadata: Record<string, unknown>): Record<string, unknown> {
+  const { usage: _usage, training, ...rest } = metadata;
+  if (!training || typeof training !== 'object') return rest;
+  const { trace: _trace, ...inner } = training as Training;
+  return { ...rest, training: inner };
+}
+
+function toFullRecord(r: FullCodebookRow): CodebookWithCodewords {
+  const usage = parseJson<number[]>(r.usage) ?? [];
+  const trace = parseJson<TraceRow[]>(r.trace) ?? [];
+  const stored = parseJson<Record<string, unknown>>(r.metadata) ?? {};
+  const training = stored.training && typeof stored.training === 'object' ? { ...(stored.training as Training), trace } : undefined;
+  return {
+    ...toSummaryRecord(r),
+    usage,
+    cellDistortion: parseJson<number[]>(r.cell_distortion),
+    trace,
+    metadata: { ...stored, usage, ...(training ? { training } : {}) },
+    codewords: bytesToCodewords(r.codewords),
+  };
+}
+
+const numberIn = (metadata: Record<string, unknown>, key: 'distortion' | 'iterations'): number => {
+  const value = (metadata.training as Training | undefined)?.[key];
+  if (typeof value !== 'number' || !Number.isFinite(value)) throw new Error(`codebook metadata has no finite training.${key}`);
+  return value;
+};
 
 export function codebooksRepository(db: Executor) {
   const base = () => db('codebooks as c').leftJoin('runs as r', 'r.id', 'c.run_id');
@@ -132,7 +196,9 @@ export function codebooksRepository(db: Executor) {
           usage: JSON.stringify(c.usage),
           cell_distortion: c.cellDistortion ? JSON.stringify(c.cellDistortion) : null,
           trace: JSON.stringify(c.trace),
-          metadata: JSON.stringify(c.metadata),
+          metadata: JSON.stringify(storedMetadata(c.metadata)),
+          distortion: numberIn(c.metadata, 'distortion'),
+          iterations: numberIn(c.metadata, 'iterations'),
           checksum: c.checksum,
         }),
       );
@@ -141,27 +207,27 @@ export function codebooksRepository(db: Executor) {
       return Number(await db('codebooks').where({ run_id: runId }).delete());
     },
     async findForTeam(teamId: number, id: number): Promise<CodebookWithCodewords | null> {
-      const row = (await base().where({ 'c.id': id, 'c.team_id': teamId }).first([...summaryColumns, 'c.codewords'])) as CodebookRow | undefined;
-      return row ? { ...toRecord(row), codewords: bytesToCodewords(row.codewords!) } : null;
+      const row = (await base().where({ 'c.id': id, 'c.team_id': teamId }).first(fullColumns)) as FullCodebookRow | undefined;
+      return row ? toFullRecord(row) : null;
     },
     /** For job handlers, which act on an id they were given. */
     async findById(id: number): Promise<CodebookWithCodewords | null> {
-      const row = (await base().where({ 'c.id': id }).first([...summaryColumns, 'c.codewords'])) as CodebookRow | undefined;
-      return row ? { ...toRecord(row), codewords: bytesToCodewords(row.codewords!) } : null;
+      const row = (await base().where({ 'c.id': id }).first(fullColumns)) as FullCodebookRow | undefined;
+      return row ? toFullRecord(row) : null;
     },
-    async listForTeam(teamId: number, limit = 1000): Promise<CodebookRecord[]> {
+    async listForTeam(teamId: number, limit = 1000): Promise<CodebookSummaryRecord[]> {
       const rows = (await base().where({ 'c.team_id': teamId }).orderBy('c.id', 'desc').limit(limit).select(summaryColumns)) as CodebookRow[];
-      return rows.map(toRecord);
+      return rows.map(toSummaryRecord);
     },
     /** A run's codebooks, smallest first. */
-    async listForRun(runId: number): Promise<CodebookRecord[]> {
+    async listForRun(runId: number): Promise<CodebookSummaryRecord[]> {
       const rows = (await base().where({ 'c.run_id': runId }).orderBy('c.size').select(summaryColumns)) as CodebookRow[];
-      return rows.map(toRecord);
+      return rows.map(toSummaryRecord);
     },
     /** Codewords included, for evaluating every codebook of a run. */
     async listForRunWithCodewords(runId: number): Promise<CodebookWithCodewords[]> {
-      const rows = (await base().where({ 'c.run_id': runId }).orderBy('c.size').select([...summaryColumns, 'c.codewords'])) as CodebookRow[];
-      return rows.map((row) => ({ ...toRecord(row), codewords: bytesToCodewords(row.codewords!) }));
+      const rows = (await base().where({ 'c.run_id': runId }).orderBy('c.size').select(fullColumns)) as FullCodebookRow[];
+      return rows.map(toFullRecord);
     },
   };
 }

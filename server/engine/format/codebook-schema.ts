@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { EngineInputError } from './engine-input-error';
 import { codewordChecksum } from './checksum';
+import { FLOAT32_ROUNDING_LIMIT, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, maxTraceLength } from './limits';
 import { indexBits } from './rate-bits';
 
 /**
@@ -10,10 +11,17 @@ import { indexBits } from './rate-bits';
  */
 export const CODEBOOK_FORMAT = 'cellwright-codebook';
 export const CODEBOOK_VERSION = 1;
-export const MAX_BITS = 14;
-export const MAX_SIZE = 2 ** MAX_BITS;
+export { FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH } from './limits';
 
 const finite = () => z.number({ error: 'expected a finite number' });
+/**
+ * A codeword value: finite once rounded to float32, so what is stored (as binary32) is what a re-export writes. Written
+ * as an exclusive range rather than a refinement so the generated JSON Schema carries it too.
+ */
+const float32 = () => {
+  const error = 'expected a number finite as float32 (IEEE 754 binary32: magnitude below 3.4028235677973366e38)';
+  return finite().gt(-FLOAT32_ROUNDING_LIMIT, { error }).lt(FLOAT32_ROUNDING_LIMIT, { error });
+};
 const integer = (min: number, max?: number) => {
   let s = z.int({ error: 'expected an integer' }).min(min, { error: `expected an integer ≥ ${min}` });
   if (max !== undefined) s = s.max(max, { error: `expected an integer ≤ ${max}` });
@@ -39,8 +47,8 @@ export const preprocessingSchema = z.discriminatedUnion(
 );
 
 export const iterationStatSchema = z.strictObject({
-  size: integer(1),
-  iteration: integer(0),
+  size: integer(1, MAX_SIZE),
+  iteration: integer(0, MAX_ITERATIONS),
   distortion: finite().min(0, { error: 'expected a number ≥ 0' }),
   emptyRepaired: integer(0),
   elapsedMs: finite().min(0, { error: 'expected a number ≥ 0' }),
@@ -48,17 +56,24 @@ export const iterationStatSchema = z.strictObject({
 });
 
 export const trainingSchema = z.strictObject({
-  source: z.string({ error: 'expected a string' }).describe('what the codebook was trained on (folder or .npy file name)'),
+  source: z
+    .string({ error: 'expected a string' })
+    .max(MAX_SOURCE_LENGTH, { error: `expected at most ${MAX_SOURCE_LENGTH} characters` })
+    .describe('what the codebook was trained on (folder or .npy file name)'),
   vectorCount: integer(1),
   init: z.enum(['random', 'kmeans++', 'split'], { error: 'expected "random", "kmeans++" or "split"' }),
   epsilon: finite().min(0, { error: 'expected a number ≥ 0' }),
   seed: integer(0).nullable(),
-  iterations: integer(0),
+  iterations: integer(0, MAX_ITERATIONS),
   distortion: finite().min(0, { error: 'expected a number ≥ 0' }).describe('MSE per vector component on the training vectors'),
-  trace: z.array(iterationStatSchema, { error: 'expected an array' }),
+  trace: z
+    .array(iterationStatSchema, { error: 'expected an array' })
+    .max(MAX_TRACE_LENGTH, { error: `expected at most ${MAX_TRACE_LENGTH} entries ((${MAX_BITS} + 1) sizes × (${MAX_ITERATIONS} + 1) passes)` })
+    .describe('one entry per Lloyd pass; at most (bits + 1) × (maxIterations + 1)'),
   stride: integer(1).optional(),
   sample: integer(1).nullable().optional(),
-  maxIterations: integer(1).optional(),
+  // 0 is what `cellwright train --max-iter 0` records: the starting codebook, not iterated.
+  maxIterations: integer(0, MAX_ITERATIONS).optional(),
 });
 
 export const codebookDocumentSchema = z
@@ -70,7 +85,7 @@ export const codebookDocumentSchema = z
     dimension: integer(1).describe('components per codeword'),
     patch: patchSchema.nullable().describe('null when trained from raw vectors without image geometry'),
     preprocessing: preprocessingSchema,
-    codewords: z.array(z.array(finite(), { error: 'expected an array of numbers' }), { error: 'expected an array of codewords' }),
+    codewords: z.array(z.array(float32(), { error: 'expected an array of numbers' }), { error: 'expected an array of codewords' }),
     usage: z.array(integer(0), { error: 'expected an array of counts' }).describe('training vectors per cell'),
     training: trainingSchema,
     checksum: z
@@ -95,6 +110,11 @@ export const codebookDocumentSchema = z
       if (row.length !== doc.dimension) ctx.addIssue({ code: 'custom', path: ['codewords', i], message: `expected ${doc.dimension} numbers (dimension), got ${row.length}` });
     });
     if (doc.usage.length !== doc.size) ctx.addIssue({ code: 'custom', path: ['usage'], message: `expected ${doc.size} counts (size), got ${doc.usage.length}` });
+    const passes = doc.training.maxIterations ?? MAX_ITERATIONS;
+    const most = maxTraceLength(doc.bits, passes);
+    if (doc.training.trace.length > most) {
+      ctx.addIssue({ code: 'custom', path: ['training', 'trace'], message: `expected at most ${most} entries ((bits ${doc.bits} + 1) sizes × (maxIterations ${passes} + 1) passes), got ${doc.training.trace.length}` });
+    }
   });
 
 export type CodebookDocument = z.infer<typeof codebookDocumentSchema>;

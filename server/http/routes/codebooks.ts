@@ -27,7 +27,8 @@ function readRoutes(r: Router, d: RouteDeps) {
 }
 
 function transferRoutes(r: Router, d: RouteDeps) {
-  r.get('/:codebookId/export', d.authenticate, d.requireTeamRole('admin', 'engineer'), validate(oneInput), async (req, res) => {
+  // Any member: the detail route already gives every member the same codewords, so export is no wider a read.
+  r.get('/:codebookId/export', d.authenticate, d.requireTeamRole(), validate(oneInput), async (req, res) => {
     const { params } = validated(req, oneInput);
     const { fileName, body } = await d.codebooks.export(params.teamId, req.user!.id, params.codebookId);
     // The name is already folded to [A-Za-z0-9._-], so quoting it is all RFC 6266 asks.

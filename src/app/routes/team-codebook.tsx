@@ -49,10 +49,10 @@ export function Component() {
   if (!team) return null;
   if (codebook.isPending) return <LoadingState label="Loading the codebook…" />;
   if (codebook.isError) return <ErrorState message={messageOf(codebook.error)} onRetry={() => void codebook.refetch()} />;
-  return <CodebookPage teamId={team.id} teamName={team.name} canExport={team.role !== 'viewer'} codebook={codebook.data} />;
+  return <CodebookPage teamId={team.id} teamName={team.name} codebook={codebook.data} />;
 }
 
-function CodebookPage({ teamId, teamName, canExport, codebook }: { teamId: number; teamName: string; canExport: boolean; codebook: CodebookDetail }) {
+function CodebookPage({ teamId, teamName, codebook }: { teamId: number; teamName: string; codebook: CodebookDetail }) {
   const [order, setOrder] = useState<AtlasOrder>('usage');
   const [gain, setGain] = useState(1);
   const [selected, setSelected] = useState<number | null>(null);
@@ -165,13 +165,10 @@ function CodebookPage({ teamId, teamName, canExport, codebook }: { teamId: numbe
         <Panel title="Export" titleId="codebook-export" description="The codebook document (format cellwright-codebook, version 1) with its SHA-256 checksum">
           <div className="flex flex-col gap-4">
             <div className="flex flex-wrap items-center gap-4">
-              {canExport ? (
-                <a href={codebookExportUrl(teamId, codebook.id)} download className={buttonClass('primary')}>
-                  Export JSON
-                </a>
-              ) : (
-                <p className="text-sm text-ink-600">Engineers and admins of this team can export codebooks.</p>
-              )}
+              {/* Every member may export: the export holds the same codewords this page already shows. */}
+              <a href={codebookExportUrl(teamId, codebook.id)} download className={buttonClass('primary')}>
+                Export JSON
+              </a>
               <p className="text-sm text-ink-700">
                 SHA-256 <span className="num break-all text-ink-900">{codebook.checksum}</span>
               </p>

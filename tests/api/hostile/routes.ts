@@ -231,7 +231,7 @@ export const routes: RouteCase[] = [
   { name: 'run metrics', method: 'GET', path: '/api/teams/:teamId/runs/:runId/metrics', access: 'member', ok: 200, body: 'none', objectScoped: true },
   { name: 'list codebooks', method: 'GET', path: '/api/teams/:teamId/codebooks', access: 'member', ok: 200, body: 'none', objectScoped: false },
   { name: 'read a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId', access: 'member', ok: 200, body: 'none', objectScoped: true },
-  { name: 'export a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/export', access: 'engineer', ok: 200, body: 'none', objectScoped: true },
+  { name: 'export a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/export', access: 'member', ok: 200, body: 'none', objectScoped: true },
   {
     name: 'import a codebook',
     method: 'POST',

@@ -2,7 +2,7 @@ import { readFileSync } from 'node:fs';
 import { createHash } from 'node:crypto';
 import { describe, expect, it } from 'vitest';
 import { codebookJsonSchemaText, CODEBOOK_JSON_SCHEMA_PATH } from '../../../server/engine/format/codebook-json-schema';
-import { makeCodebook, parseCodebookJson, serializeCodebook, shortestFloat32, type Codebook } from '../../../server/engine/format/codebook-schema';
+import { FLOAT32_MAX, makeCodebook, parseCodebookJson, serializeCodebook, shortestFloat32, type Codebook } from '../../../server/engine/format/codebook-schema';
 import { codewordChecksum } from '../../../server/engine/format/checksum';
 
 function sample(): Codebook {
@@ -26,7 +26,7 @@ interface EditableDoc {
   preprocessing: { meanBits: number };
   codewords: (number | string)[][];
   usage: number[];
-  training: { init: string; trace: { distortion: number }[] };
+  training: { init: string; source: string; maxIterations?: number; trace: { size: number; iteration: number; distortion: number; emptyRepaired: number; elapsedMs: number }[] };
   checksum: string;
 }
 
@@ -74,9 +74,45 @@ describe('codebook JSON', () => {
     ['an unknown init', (d: EditableDoc) => (d.training.init = 'magic'), 'training.init: expected "random", "kmeans++" or "split"'],
     ['a negative trace distortion', (d: EditableDoc) => (d.training.trace[0].distortion = -1), 'training.trace[0].distortion: expected a number ≥ 0'],
     ['a malformed checksum', (d: EditableDoc) => (d.checksum = 'abc'), 'checksum: expected 64 lowercase hex digits'],
+    // Finite as float64, infinite as float32 (IEEE 754 binary32 overflows at 2^128 − 2^103 under round to nearest).
+    ['a codeword value beyond float32', (d: EditableDoc) => (d.codewords[1][2] = 1e39), 'codewords[1][2]: expected a number finite as float32'],
+    ['a negative codeword value beyond float32', (d: EditableDoc) => (d.codewords[0][0] = -3.5e38), 'codewords[0][0]: expected a number finite as float32'],
+    ['a source longer than 4096 characters', (d: EditableDoc) => (d.training.source = 'x'.repeat(4097)), 'training.source: expected at most 4096 characters'],
+    ['a maxIterations above 1000', (d: EditableDoc) => (d.training.maxIterations = 1001), 'training.maxIterations: expected an integer ≤ 1000'],
+    [
+      'a trace longer than its sizes and iterations allow',
+      (d: EditableDoc) => {
+        // bits 2 and maxIterations 3: at most (2 + 1) sizes × (3 + 1) passes = 12 entries.
+        d.training.maxIterations = 3;
+        d.training.trace = Array.from({ length: 13 }, (_, i) => ({ size: 1, iteration: i % 4, distortion: 1, emptyRepaired: 0, elapsedMs: 0 }));
+      },
+      'training.trace: expected at most 12 entries ((bits 2 + 1) sizes × (maxIterations 3 + 1) passes), got 13',
+    ],
+    [
+      'a trace longer than any document may hold',
+      (d: EditableDoc) => (d.training.trace = Array.from({ length: 15016 }, () => ({ size: 1, iteration: 0, distortion: 1, emptyRepaired: 0, elapsedMs: 0 }))),
+      'training.trace: expected at most 15015 entries',
+    ],
     ['a checksum of other codewords', (d: EditableDoc) => (d.codewords[0][0] = 0.2), 'checksum: does not match the codewords'],
   ])('rejects %s and names the field', (_what, edit, message) => {
     expect(() => parseCodebookJson(mutated(edit))).toThrow(message);
+  });
+
+  it('accepts a trace at the bound its sizes and iterations allow', () => {
+    const doc = JSON.parse(serializeCodebook(sample()));
+    doc.training.maxIterations = 3;
+    doc.training.trace = Array.from({ length: 12 }, (_, i) => ({ size: 2 ** Math.floor(i / 4), iteration: i % 4, distortion: 1, emptyRepaired: 0, elapsedMs: 0 }));
+    expect(parseCodebookJson(JSON.stringify(doc)).training.trace).toHaveLength(12);
+  });
+
+  it('round-trips the largest finite float32 values, which are written above them as float64', () => {
+    // FLT_MAX = (2 − 2^−23) · 2^127 (IEEE 754 binary32); its shortest decimal 3.4028235e38 exceeds it as a float64.
+    const edge = makeCodebook({ ...sample(), codewords: Float32Array.from([FLOAT32_MAX, -FLOAT32_MAX, 1.4e-45, 0, 1, 2, 3, 4, 5, 6, 7, 8]) });
+    const text = serializeCodebook(edge);
+    expect(text).toContain('[3.4028235e+38,-3.4028235e+38,1e-45,0]');
+    const back = parseCodebookJson(text);
+    expect(back.codewords).toEqual(edge.codewords);
+    expect(back.checksum).toBe(edge.checksum);
   });
 
   it('rejects text that is not JSON as such', () => {

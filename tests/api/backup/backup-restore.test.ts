@@ -2,7 +2,7 @@
 // run and codebook found again, bytes and checksums intact; a damaged backup or a non-empty target is refused.
 import { execFile } from 'node:child_process';
 import { createHash, randomBytes } from 'node:crypto';
-import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { cpSync, existsSync, lstatSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, statSync, symlinkSync, unlinkSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -25,8 +25,11 @@ let runId: number;
 // SHA-256 via node:crypto (FIPS 180-4).
 const sha256 = (b: Buffer) => createHash('sha256').update(b).digest('hex');
 
-function script(args: string[], env: Record<string, string>) {
-  return run(process.execPath, ['--import', 'tsx', path.join(root, 'scripts/backup.ts'), ...args], { cwd: root, env: { ...process.env, ...env }, timeout: 120_000 }).then(
+/** Runs scripts/backup.ts; with `umask`, under that file-mode creation mask (set by the shell that starts node). */
+function script(args: string[], env: Record<string, string>, umask?: string) {
+  const argv = [process.execPath, '--import', 'tsx', path.join(root, 'scripts/backup.ts'), ...args];
+  const [file, fileArgs] = umask === undefined ? [argv[0], argv.slice(1)] : ['/bin/sh', ['-c', `umask ${umask} && exec "$@"`, 'sh', ...argv]];
+  return run(file, fileArgs, { cwd: root, env: { ...process.env, ...env }, timeout: 120_000 }).then(
     (r) => ({ code: 0, stdout: r.stdout, stderr: r.stderr }),
     (e: { code: number; stdout: string; stderr: string }) => ({ code: e.code, stdout: e.stdout, stderr: e.stderr }),
   );
@@ -159,5 +162,117 @@ describe('backup and restore', () => {
     const res = await script(['backup', '--out', work], envFor(w.t.db.name, w.t.composition.config.dataDir));
     expect(res.code).not.toBe(0);
     expect(res.stderr).toMatch(/^backup: error: .* already exists/);
+  });
+
+  it('writes its folders 0700 and its files 0600 whatever the umask', async () => {
+    const out = path.join(work, `private-${randomBytes(3).toString('hex')}`);
+    // umask 000 would leave new folders 0777 and files 0666; 0277 would take the owner's own write bit away.
+    for (const [umask, where] of [['000', out], ['277', `${out}-strict`]] as const) {
+      const made = await script(['backup', '--out', where], envFor(w.t.db.name, w.t.composition.config.dataDir), umask);
+      expect(made.stderr).toBe('');
+      expect(made.code).toBe(0);
+      const modes: Record<string, string> = {};
+      const walk = (dir: string, rel: string) => {
+        modes[rel || '.'] = (statSync(dir).mode & 0o777).toString(8);
+        for (const name of readdirSync(dir)) {
+          const full = path.join(dir, name);
+          if (statSync(full).isDirectory()) walk(full, path.join(rel, name));
+          else modes[path.join(rel, name)] = (statSync(full).mode & 0o777).toString(8);
+        }
+      };
+      walk(where, '');
+      expect(Object.keys(modes)).toEqual(expect.arrayContaining(['.', 'database.sql', 'manifest.json', 'objects']));
+      for (const [rel, mode] of Object.entries(modes)) {
+        const folder = statSync(path.join(where, rel)).isDirectory();
+        expect({ rel, mode }).toEqual({ rel, mode: folder ? '700' : '600' });
+      }
+    }
+  });
+
+  it('refuses a manifest naming anything but the dump and the store files, before touching the target', async () => {
+    const out = path.join(work, `allow-list-${randomBytes(3).toString('hex')}`);
+    expect((await script(['backup', '--out', out], envFor(w.t.db.name, w.t.composition.config.dataDir))).code).toBe(0);
+    const manifest = JSON.parse(readFileSync(path.join(out, 'manifest.json'), 'utf8')) as { database: { dump: { path: string; sha256: string; bytes: number } }; files: { path: string; sha256: string; bytes: number }[] };
+    // A session key an attacker chose, with a checksum that matches it: restoring it would let them sign sessions.
+    const key = Buffer.from('attacker-chosen-session-key-0123456789abcdef\n');
+    mkdirSync(path.join(out, 'secrets'));
+    writeFileSync(path.join(out, 'secrets', 'jwt-secret'), key);
+    const entry = (p: string) => ({ path: p, sha256: sha256(key), bytes: key.length });
+    const cases: [string, typeof manifest][] = [
+      ['secrets/', { ...manifest, files: [...manifest.files, entry('secrets/jwt-secret')] }],
+      ['an absolute path', { ...manifest, files: [...manifest.files, entry(path.join(out, 'secrets', 'jwt-secret'))] }],
+      ['a store folder with a name of its own', { ...manifest, files: [...manifest.files, entry('objects/ab/jwt-secret')] }],
+      ['another file as the dump', { ...manifest, database: { ...manifest.database, dump: entry('secrets/jwt-secret') } }],
+    ];
+    const target = await emptyDatabase();
+    const dataDir = path.join(work, `allow-list-data-${randomBytes(3).toString('hex')}`);
+    try {
+      for (const [what, tampered] of cases) {
+        writeFileSync(path.join(out, 'manifest.json'), JSON.stringify(tampered));
+        const res = await script(['restore', '--from', out], envFor(target.name, dataDir));
+        expect({ what, code: res.code }).toEqual({ what, code: 1 });
+        expect(res.stderr).toMatch(/^backup: error: manifest\.json: .*(is not a file a backup writes|the dump must be database\.sql)/);
+        const tables = (await target.knex('information_schema.tables').where({ table_schema: target.name }).count({ n: '*' })) as { n: number }[];
+        expect(Number(tables[0].n)).toBe(0);
+        expect(existsSync(path.join(dataDir, 'secrets'))).toBe(false);
+        expect(existsSync(path.join(dataDir, 'objects'))).toBe(false);
+      }
+    } finally {
+      await target.destroy();
+    }
+  });
+
+  it('refuses a backup holding a symbolic link, even one to the very bytes the manifest names', async () => {
+    const out = path.join(work, `linked-${randomBytes(3).toString('hex')}`);
+    expect((await script(['backup', '--out', out], envFor(w.t.db.name, w.t.composition.config.dataDir))).code).toBe(0);
+    const manifest = JSON.parse(readFileSync(path.join(out, 'manifest.json'), 'utf8')) as { files: { path: string }[] };
+    const victim = manifest.files.find((f) => f.path.startsWith('objects/'))!.path;
+    const elsewhere = path.join(work, `elsewhere-${randomBytes(3).toString('hex')}`);
+    cpSync(path.join(out, 'objects'), elsewhere, { recursive: true });
+
+    const target = await emptyDatabase();
+    const dataDir = path.join(work, `linked-data-${randomBytes(3).toString('hex')}`);
+    try {
+      // A file that is a link to an identical copy outside the backup, then the whole objects folder as a link.
+      unlinkSync(path.join(out, victim));
+      symlinkSync(path.join(elsewhere, path.relative('objects', victim)), path.join(out, victim));
+      const fileLink = await script(['restore', '--from', out], envFor(target.name, dataDir));
+      expect(fileLink.code).toBe(1);
+      expect(fileLink.stderr).toBe(`backup: error: backup: ${victim} is a symbolic link; a backup holds only plain files and folders\n`);
+
+      rmSync(path.join(out, 'objects'), { recursive: true });
+      symlinkSync(elsewhere, path.join(out, 'objects'));
+      expect(lstatSync(path.join(out, 'objects')).isSymbolicLink()).toBe(true);
+      const folderLink = await script(['restore', '--from', out], envFor(target.name, dataDir));
+      expect(folderLink.code).toBe(1);
+      expect(folderLink.stderr).toBe('backup: error: backup: objects is a symbolic link; a backup holds only plain files and folders\n');
+
+      const tables = (await target.knex('information_schema.tables').where({ table_schema: target.name }).count({ n: '*' })) as { n: number }[];
+      expect(Number(tables[0].n)).toBe(0);
+      expect(existsSync(path.join(dataDir, 'objects'))).toBe(false);
+    } finally {
+      await target.destroy();
+    }
+  });
+
+  it('refuses to restore into a DATA_DIR whose store folder is a link elsewhere, before touching the database', async () => {
+    const out = path.join(work, `into-link-${randomBytes(3).toString('hex')}`);
+    expect((await script(['backup', '--out', out], envFor(w.t.db.name, w.t.composition.config.dataDir))).code).toBe(0);
+    const dataDir = path.join(work, `into-link-data-${randomBytes(3).toString('hex')}`);
+    const elsewhere = path.join(work, `into-link-elsewhere-${randomBytes(3).toString('hex')}`);
+    mkdirSync(dataDir);
+    mkdirSync(elsewhere);
+    symlinkSync(elsewhere, path.join(dataDir, 'objects'));
+    const target = await emptyDatabase();
+    try {
+      const res = await script(['restore', '--from', out], envFor(target.name, dataDir));
+      expect(res.code).toBe(1);
+      expect(res.stderr).toBe('backup: error: DATA_DIR: objects is a symbolic link; a backup holds only plain files and folders\n');
+      const tables = (await target.knex('information_schema.tables').where({ table_schema: target.name }).count({ n: '*' })) as { n: number }[];
+      expect(Number(tables[0].n)).toBe(0);
+      expect(readdirSync(elsewhere)).toEqual([]);
+    } finally {
+      await target.destroy();
+    }
   });
 });

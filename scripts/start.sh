@@ -33,6 +33,8 @@ trap 'exit 143' TERM
 
 if [ "$dev" = 1 ]; then
   export NODE_ENV=development SERVE_CLIENT=false
+  # The browser talks to Vite (vite.config.ts: 127.0.0.1:5173), which proxies /api: that page's origin must be allowed.
+  export ALLOWED_ORIGINS="${ALLOWED_ORIGINS:-http://127.0.0.1:5173}"
   node --import tsx server/index.ts &
   server_pid=$!
   npx vite &

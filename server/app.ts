@@ -87,7 +87,7 @@ export function createApp(deps: AppDeps): Express {
     }),
   );
   app.use(cookieParser());
-  app.use('/api', originCheck(config.publicUrl));
+  app.use('/api', originCheck(config.allowedOrigins));
   app.use('/api', refuseCrossSiteMutations);
   // Codebook documents are far larger than any other body; the global parser below skips a body already parsed.
   app.use(codebookImportPath, codebookImportBodyParser);

@@ -5,7 +5,7 @@ import { compose } from './composition';
 import { endAllEventStreams } from './http/middleware/sse';
 import { ConfigError, createLogger, loadConfig } from './config';
 import { startFakeSmtpServer, type FakeSmtpServer } from './mail/fake-smtp-server';
-import { seedDemo } from './seed/demo';
+import { demoPasswordNotice, replacePublishedDemoPasswords, seedDemo } from './seed/demo';
 import { demoContentDeps, seedDemoContent } from './seed/demo-content';
 
 async function main(): Promise<void> {
@@ -59,11 +59,24 @@ async function main(): Promise<void> {
   try {
     const applied = await db.migrateLatest();
     if (applied.length > 0) logger.info({ applied }, 'migrations applied');
+    const demo = { bindHost: config.host, hashPassword: (p: string) => services.accounts.hashPassword(p) };
+    // Published demo passwords only on loopback: an exposed studio (seeded now or earlier) gets random ones.
+    const givenPasswords = await replacePublishedDemoPasswords(db, demo);
+    let seededTeamId: number | null = null;
     if (config.seedDemo && (await db.repos.users.count()) === 0) {
-      const seeded = await seedDemo(db, (p) => services.accounts.hashPassword(p));
-      logger.info({ teamId: seeded.teamId, accounts: seeded.created }, 'demo team seeded');
+      const seeded = await seedDemo(db, demo);
+      logger.info({ teamId: seeded.teamId, accounts: seeded.created, randomPasswords: seeded.passwords.length > 0 }, 'demo team seeded');
+      givenPasswords.push(...seeded.passwords);
+      seededTeamId = seeded.teamId;
+    }
+    if (givenPasswords.length > 0) {
+      // Straight to stderr, never through the logger: the JSON log on stdout is what gets shipped and kept.
+      process.stderr.write(demoPasswordNotice(givenPasswords, config.host));
+      logger.warn({ accounts: givenPasswords.map((p) => p.email) }, 'demo accounts got random passwords, printed once on stderr');
+    }
+    if (seededTeamId !== null) {
       // The sample sweep is a convenience: if it cannot be made, the accounts still work and the server still starts.
-      await seedDemoContent(demoContentDeps(composition), seeded.teamId).catch((err: unknown) => logger.error({ err }, 'demo content could not be seeded'));
+      await seedDemoContent(demoContentDeps(composition), seededTeamId).catch((err: unknown) => logger.error({ err }, 'demo content could not be seeded'));
     }
     if (config.smtp.fake) {
       if (config.nodeEnv === 'production') {

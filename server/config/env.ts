@@ -17,6 +17,33 @@ const optionalString = z
   .optional()
   .transform((v) => (v === undefined || v === '' ? undefined : v));
 
+/**
+ * A web origin as browsers send it in the Origin header (RFC 6454 §6.2): http(s), host, optional port, nothing
+ * else. Written with a path, query or credentials it is refused rather than cut down, so a typo cannot widen it.
+ */
+const webOrigin = z.string().transform((text, ctx) => {
+  let url: URL;
+  try {
+    url = new URL(text);
+  } catch {
+    ctx.addIssue({ code: 'custom', message: `${JSON.stringify(text)} is not a URL (expected an origin like https://studio.example.test)` });
+    return z.NEVER;
+  }
+  const bare = url.pathname === '/' && !url.search && !url.hash && !url.username && !url.password && !text.endsWith('?') && !text.endsWith('#');
+  if (!['http:', 'https:'].includes(url.protocol) || !bare) {
+    ctx.addIssue({ code: 'custom', message: `${JSON.stringify(text)} is not an origin (expected scheme, host and optional port, like https://studio.example.test)` });
+    return z.NEVER;
+  }
+  return url.origin;
+});
+
+// Comma-separated; blanks around the commas and empty items are ignored.
+const originList = z
+  .string()
+  .optional()
+  .transform((v) => (v ?? '').split(',').map((s) => s.trim()).filter((s) => s !== ''))
+  .pipe(z.array(webOrigin));
+
 const schema = z.object({
   PORT: port(8420),
   HOST: z.string().min(1).default('127.0.0.1'),
@@ -39,6 +66,8 @@ const schema = z.object({
   FAKE_SMTP: flag(true),
   MAIL_FROM: z.string().min(3).default('Cellwright <no-reply@cellwright.test>'),
   PUBLIC_URL: optionalString.pipe(z.string().url().optional()),
+  // Origins besides PUBLIC_URL's from which mutating requests are accepted (a dev server, a second name).
+  ALLOWED_ORIGINS: originList,
   LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).optional(),
   SEED_DEMO: flag(true),
   SERVE_CLIENT: optionalString,
@@ -85,6 +114,8 @@ export interface Config {
   readonly mailFrom: string;
   /** Origin and base of every link the server writes, without a trailing slash. */
   readonly publicUrl: string;
+  /** Origins mutating requests may come from: PUBLIC_URL's, then ALLOWED_ORIGINS, each once. */
+  readonly allowedOrigins: readonly string[];
   readonly logLevel: string;
   readonly seedDemo: boolean;
   readonly serveClient: boolean;
@@ -168,6 +199,7 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     },
     mailFrom: e.MAIL_FROM,
     publicUrl,
+    allowedOrigins: [...new Set([new URL(publicUrl).origin, ...e.ALLOWED_ORIGINS])],
     logLevel: e.LOG_LEVEL ?? (e.NODE_ENV === 'test' ? 'silent' : 'info'),
     seedDemo: e.SEED_DEMO,
     serveClient,

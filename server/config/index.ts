@@ -1,3 +1,4 @@
 export * from './env';
 export * from './logger';
 export * from './version';
+export * from './loopback';

@@ -19,7 +19,7 @@ const counts = async () => {
 
 beforeAll(async () => {
   t = await createTestApp();
-  const seeded = await seedDemo(t.composition.db, (p) => t.composition.services.accounts.hashPassword(p));
+  const seeded = await seedDemo(t.composition.db, { bindHost: '127.0.0.1', hashPassword: (p) => t.composition.services.accounts.hashPassword(p) });
   teamId = seeded.teamId;
   first = await seedDemoContent(demoContentDeps(t.composition), teamId);
   const viewer = demoAccounts.find((a) => a.role === 'viewer')!;

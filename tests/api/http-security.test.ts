@@ -71,19 +71,13 @@ describe('cross-site requests', () => {
     expect(await t.db.knex('users').where({ email }).first()).toBeUndefined();
   });
 
-  it('accepts the configured public origin and the request host as its own origin', async () => {
+  it('accepts the configured public origin', async () => {
     const s = await signUp(t.app);
     const fromPublic = await request(t.app)
       .post('/api/auth/login')
       .set('Origin', t.publicUrl)
       .send({ email: s.user.email, password: testPassword });
     expect(fromPublic.status).toBe(200);
-    const fromHost = await request(t.app)
-      .post('/api/auth/login')
-      .set('Host', 'studio.cellwright.test')
-      .set('Origin', 'http://studio.cellwright.test')
-      .send({ email: s.user.email, password: testPassword });
-    expect(fromHost.status).toBe(200);
   });
 
   it('lets a GET with a foreign Origin through, since it changes nothing', async () => {

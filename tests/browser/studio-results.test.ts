@@ -192,7 +192,7 @@ describe('studio results in the browser', () => {
     expect(new URL(page.url()).searchParams.get('runs')).toBe(ids.join(','));
   });
 
-  it('gives the viewer results to read and no control that changes anything', async () => {
+  it('gives the viewer results to read and to export, and no control that changes anything', async () => {
     const seeded = runs.find((r) => r.name === demoRuns[1])!;
     const viewerApi = await apiAs(server, viewer);
     const { codebooks } = await get<{ codebooks: Array<{ id: number; runId: number | null }> }>(server, viewerApi, '/codebooks');
@@ -215,7 +215,10 @@ describe('studio results in the browser', () => {
 
     await page.goto(`${server.url}/teams/${api.teamId}/codebooks/${codebook.id}`);
     await expect.poll(async () => (await atlasInk(page)).drawn).toBeGreaterThan(0);
-    expect(await page.getByRole('main').getByRole('link', { name: mutating }).count()).toBe(0);
+    // Exporting only reads: a viewer may export the codewords this page already shows them, and change nothing.
+    const changing = /cancel|run again|new run|import|delete|evaluate/i;
+    expect(await page.getByRole('main').getByRole('link', { name: 'Export JSON' }).count()).toBe(1);
+    expect(await page.getByRole('main').getByRole('link', { name: changing }).count()).toBe(0);
     expect(await page.getByRole('main').getByRole('button', { name: mutating }).count()).toBe(0);
 
     await page.goto(`${server.url}/teams/${api.teamId}/codebooks`);

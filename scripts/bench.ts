@@ -10,6 +10,7 @@ import sharp from 'sharp';
 import { kmeansGenerator } from 'ml-kmeans';
 import { assign, createRng, shutdownEngineWorkers, threadBudget, train } from '../server/engine/core/index';
 import { writeNpy } from '../server/engine/io/npy';
+import { seabedSet } from '../server/seed/seabed-tiles';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const imageDir = path.join(root, 'data', 'test-images');
@@ -216,21 +217,50 @@ async function main() {
       const { vectors } = trainingSet(lumas, size);
       const file = path.join(memDir, `${size}-${k}.npy`);
       writeFileSync(file, writeNpy(vectors, N, d));
-      const r = spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-memory.ts'), file, String(k), init, String(ITERATIONS)], {
+      const r = spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-memory.ts'), 'train', file, String(k), init, String(ITERATIONS)], {
         encoding: 'utf8',
       });
       if (r.status !== 0) throw new Error(`memory case failed: ${r.stderr.trim().split('\n').pop()}`);
-      const m = JSON.parse(r.stdout.trim().split('\n').pop()!) as { trainingBytes: number; baseline: number; peak: number; seconds: number; codebooks: number };
-      const mb = (b: number) => `${(b / 2 ** 20).toFixed(1)} MiB`;
+      const m = JSON.parse(r.stdout.trim().split('\n').pop()!) as {
+        trainingBytes: number; baseline: number; peak: number; seconds: number; codebooks: number; estimatedExtra: number;
+      };
       console.log(
-        `  ${size}×${size}, K=${k}, ${init}${init === 'split' ? ` (${m.codebooks} codebooks)` : ''}: training set ${mb(m.trainingBytes)}, ` +
-          `peak extra ${mb(m.peak - m.baseline)} = ${((m.peak - m.baseline) / m.trainingBytes).toFixed(2)}× the training set (${m.seconds.toFixed(1)} s)`,
+        `  ${size}×${size}, K=${k}, ${init}${init === 'split' ? ` (${m.codebooks} codebooks)` : ''}: training set ${mib(m.trainingBytes)}, ` +
+          `peak extra ${mib(m.peak - m.baseline)} = ${((m.peak - m.baseline) / m.trainingBytes).toFixed(2)}× the training set ` +
+          `(estimate ${mib(m.estimatedExtra)}; ${m.seconds.toFixed(1)} s)`,
       );
     }
+    await decodeMemory(memDir);
   } finally {
     rmSync(memDir, { recursive: true, force: true });
   }
   console.log('\nnote: the cores are shared with other work on this machine; figures may be noisy.');
+}
+
+const mib = (b: number) => `${(b / 2 ** 20).toFixed(1)} MiB`;
+
+/**
+ * The training-vector step of a job on twelve 2000×1500 colour images (written here as PNGs): decoded one at a time
+ * by the job's task, against all decoded at once as the task did before. Each in a fresh process.
+ */
+async function decodeMemory(dir: string): Promise<void> {
+  console.log('\ntraining-vector step (peak RSS above the level before it, one process per case; 12 images of 2000×1500 rgb)');
+  const files: string[] = [];
+  for (let i = 0; i < 12; i++) {
+    const [tile] = seabedSet(900 + i, 1, 2000, 1500);
+    const file = path.join(dir, `image-${i}.png`);
+    await sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toFile(file);
+    files.push(file);
+  }
+  for (const mode of ['all', 'stream'] as const) {
+    const r = spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-memory.ts'), 'decode', mode, 'rgb', '200000', ...files], { encoding: 'utf8' });
+    if (r.status !== 0) throw new Error(`decode case failed: ${r.stderr.trim().split('\n').pop()}`);
+    const m = JSON.parse(r.stdout.trim().split('\n').pop()!) as { vectorBytes: number; largestImageBytes: number; allImagesBytes: number; baseline: number; peak: number };
+    console.log(
+      `  ${mode === 'all' ? 'all at once  ' : 'one at a time'}: peak extra ${mib(m.peak - m.baseline)}; vectors ${mib(m.vectorBytes)}, ` +
+        `largest image decoded ${mib(m.largestImageBytes)}, all images decoded ${mib(m.allImagesBytes)}`,
+    );
+  }
 }
 
 main()

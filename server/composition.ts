@@ -12,6 +12,7 @@ import {
   createInvitationsService,
   createMailService,
   createOutboxService,
+  createReconstructionsService,
   createRunsService,
   createSessionTokens,
   createStoreSweeper,
@@ -26,6 +27,7 @@ import { createMariaDbQueue } from './jobs/mariadb-queue';
 import { createJobNotifier } from './jobs/notifications';
 import { createTaskPool, type TaskPool } from './jobs/pool';
 import type { JobQueue } from './jobs/queue';
+import type { JobDeps } from './jobs/types';
 import { createJobRunner, type JobRunner } from './jobs/runner';
 import { threadBudget } from './engine';
 import type { AppDeps } from './app';
@@ -37,7 +39,9 @@ export interface Composition extends AppDeps {
   /** Frees stored originals no image names any more (scheduled by server/index.ts). */
   storeSweeper: StoreSweeper;
   /** The durable queue, its in-process event bus, the task pool and the runner (started by server/index.ts, or by a test). */
-  jobs: { queue: JobQueue; bus: JobEventBus; pool: TaskPool; runner: JobRunner };
+  jobs: { queue: JobQueue; bus: JobEventBus; pool: TaskPool; runner: JobRunner; deps: JobDeps };
+  /** Pool threads of the reconstruction views (RECONSTRUCTION_MAX_CONCURRENT), apart from the jobs' so neither waits for the other. */
+  reconstructionPool: TaskPool;
   /** Waits for background mail, then closes SMTP transport and the pool. */
   close(): Promise<void>;
 }
@@ -74,18 +78,27 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
   const bus = createJobEventBus();
   const queue = createMariaDbQueue(db);
   const pool = createTaskPool({ maxThreads: config.jobConcurrency, maxHeapMb: config.jobTaskMaxHeapMb });
+  const training = { maxBytes: config.trainingMaxBytes, engineThreads: config.engineThreads };
+  const jobDeps: JobDeps = { db, store: contentStore, pool, queue, bus, logger, training };
   const runner = createJobRunner({
     queue,
     bus,
     handlers: jobHandlers,
     concurrency: config.jobConcurrency,
     logger,
-    deps: { db, store: contentStore, pool, queue, bus, logger },
+    deps: jobDeps,
     onFinished: createJobNotifier({ db, mail, publicUrl: config.publicUrl }),
   });
-  const runs = createRunsService({ db, bus });
+  const runs = createRunsService({ db, bus, training });
   const codebooks = createCodebooksService({ db });
   const evaluation = createEvaluationService({ db, store: contentStore, runTask: evaluationTaskRunner(pool), jobQueued: () => bus.jobQueued() });
+  const reconstructionPool = createTaskPool({ maxThreads: config.reconstructions.maxConcurrent, maxHeapMb: config.jobTaskMaxHeapMb });
+  const reconstructions = createReconstructionsService({
+    db,
+    store: contentStore,
+    runTask: evaluationTaskRunner(reconstructionPool),
+    ...config.reconstructions,
+  });
   const comparison = createComparisonService({ db });
   const storeSweeper = createStoreSweeper({ db, store: contentStore, graceMs: config.storeSweep.graceMs, logger });
   return {
@@ -95,13 +108,15 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
     db,
     contentStore,
     storeSweeper,
-    jobs: { queue, bus, pool, runner },
-    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, comparison },
+    jobs: { queue, bus, pool, runner, deps: jobDeps },
+    reconstructionPool,
+    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();
       await storeSweeper.stop();
       await pool.destroy();
+      await reconstructionPool.destroy();
       await accounts.settle();
       mail.close();
       await db.destroy();

@@ -76,6 +76,12 @@ const schema = z.object({
   // A task that outgrows this heap fails its job instead of taking the server's memory with it.
   JOB_TASK_MAX_HEAP_MB: z.coerce.number().int().min(32).default(4096),
   ENGINE_THREADS: z.coerce.number().int().min(1).optional(),
+  // What one training job may hold (vectors, working state, a decoded image); a run estimated above it is refused
+  // when it is created. 2 GiB leaves a 24 GiB machine room for the server, MariaDB and other jobs.
+  TRAINING_MAX_BYTES: z.coerce.number().int().min(1).default(2 * 1024 * 1024 * 1024),
+  // Reconstruction views computed at once (each on a pool thread of its own), and how many more may wait for one.
+  RECONSTRUCTION_MAX_CONCURRENT: z.coerce.number().int().min(1).default(2),
+  RECONSTRUCTION_MAX_QUEUED: z.coerce.number().int().min(0).default(8),
   UPLOAD_MAX_BYTES: z.coerce.number().int().min(1).default(50 * 1024 * 1024),
   UPLOAD_MAX_FILES: z.coerce.number().int().min(1).default(200),
   // Uploads are held in memory while they are checked: this bounds one request, whatever its file count.
@@ -126,6 +132,10 @@ export interface Config {
   /** Old-generation heap limit of each job pool thread, in MiB. */
   readonly jobTaskMaxHeapMb: number;
   readonly engineThreads: number;
+  /** Most bytes one training job may hold, by the estimate made at run creation. */
+  readonly trainingMaxBytes: number;
+  /** Reconstructions computed at once and waiting; requests beyond both get 429. */
+  readonly reconstructions: { readonly maxConcurrent: number; readonly maxQueued: number };
   /** Limits of one image upload request: bytes per file (or archive entry), parts, pixels, and what archives may unpack. */
   readonly uploads: {
     readonly maxFileBytes: number;
@@ -208,6 +218,8 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     jobConcurrency: e.JOB_CONCURRENCY,
     jobTaskMaxHeapMb: e.JOB_TASK_MAX_HEAP_MB,
     engineThreads: e.ENGINE_THREADS ?? availableParallelism(),
+    trainingMaxBytes: e.TRAINING_MAX_BYTES,
+    reconstructions: { maxConcurrent: e.RECONSTRUCTION_MAX_CONCURRENT, maxQueued: e.RECONSTRUCTION_MAX_QUEUED },
     uploads: {
       maxFileBytes: e.UPLOAD_MAX_BYTES,
       maxFiles: e.UPLOAD_MAX_FILES,

@@ -13,6 +13,7 @@ import { jobsRepository } from './repositories/jobs';
 import { membershipsRepository } from './repositories/memberships';
 import { outboxRepository } from './repositories/outbox';
 import { passwordResetsRepository } from './repositories/password-resets';
+import { reconstructionsRepository } from './repositories/reconstructions';
 import { runsRepository } from './repositories/runs';
 import { teamsRepository } from './repositories/teams';
 import { usersRepository } from './repositories/users';
@@ -33,6 +34,7 @@ function buildRepositories(db: Executor) {
     codebooks: translated(codebooksRepository(db)),
     evaluations: translated(evaluationsRepository(db)),
     baselines: translated(baselinesRepository(db)),
+    reconstructions: translated(reconstructionsRepository(db)),
   };
 }
 

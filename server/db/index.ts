@@ -11,3 +11,4 @@ export type { CapturedMessage } from './repositories/outbox';
 export type { RunRecord, RunImageRecord } from './repositories/runs';
 export type { JobRecord, NewJob } from './repositories/jobs';
 export type { CodebookRecord, CodebookSummaryRecord, CodebookWithCodewords, NewCodebook } from './repositories/codebooks';
+export type { ReconstructionRecord } from './repositories/reconstructions';

@@ -10,9 +10,9 @@ import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SOURCE_LENGTH, t
 import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 import { readContainer, writeContainer } from './format/container';
 import { EngineInputError } from './format/engine-input-error';
-import { decodeImage, type ColorMode, type PixelImage } from './io/image';
+import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/image';
 import { removeMeans } from './io/mean-removal';
-import { extractTrainingVectors, vectorDimension } from './io/patches';
+import { extractTrainingVectors, streamTrainingVectors, vectorDimension, type TrainingImageSource } from './io/patches';
 import { readNpy, type NpyMatrix } from './io/npy';
 import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
@@ -29,9 +29,13 @@ export { codebookJsonSchemaText } from './format/codebook-json-schema';
 export { codewordChecksum } from './format/checksum';
 export { readContainer, readContainerHeader, writeContainer, CONTAINER_VERSION, type ContainerHeader } from './format/container';
 export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
-export { decodeImage, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
+export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
-export { parsePatchShape, checkPatchShape, tile, untile, extractTrainingVectors, vectorDimension, type PatchShape } from './io/patches';
+export {
+  parsePatchShape, checkPatchShape, tile, untile, extractTrainingVectors, patchPositions, vectorDimension, type PatchShape, type TrainingImageSource,
+} from './io/patches';
+export { MemoryBudget, formatBytes } from './memory/budget';
+export { trainingMemory, type TrainingMemory, type TrainingMemoryInput } from './memory/training-memory';
 export { checkMeanBits, quantizeMean, meanLevel, removeMeans, MEAN_BITS_MIN, MEAN_BITS_MAX, type Preprocessing } from './io/mean-removal';
 export { readNpy, writeNpy, type NpyMatrix } from './io/npy';
 export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
@@ -96,6 +100,37 @@ export function imagesToTrainingVectors(images: PixelImage[], options: TrainingV
   const o = check(extractSchema, options, 'imagesToTrainingVectors');
   const rng = createRng(o.seed ?? DEFAULT_SEED);
   const out = extractTrainingVectors(images, o.patch, { stride: o.stride, sample: o.sample, rng });
+  if (o.preprocessing?.kind === 'mean-removed') removeMeans(out.vectors, out.dimension, o.preprocessing.meanBits);
+  return out;
+}
+
+const streamSchema = extractSchema.extend({ color: colorSchema, allocate: z.function().optional(), signal: signalSchema });
+export type StreamTrainingVectorOptions = TrainingVectorOptions & {
+  color: ColorMode;
+  /** Makes the N × d output (e.g. charged to a MemoryBudget, in shared memory); default a plain Float32Array. */
+  allocate?: (length: number) => Float32Array;
+  signal?: AbortSignal;
+};
+
+/**
+ * imagesToTrainingVectors with the images decoded one at a time, as `sources` hand them out: the same vectors for the
+ * same images and seed, while at most one decoded image is held (each source's sizes decide the sample beforehand).
+ * @returns vectors: N × d, row-major
+ */
+export async function streamImagesToTrainingVectors(
+  sources: TrainingImageSource[],
+  options: StreamTrainingVectorOptions,
+): Promise<{ vectors: Float32Array; dimension: number; count: number; perImage: number[] }> {
+  const o = check(streamSchema, options, 'streamImagesToTrainingVectors');
+  const rng = createRng(o.seed ?? DEFAULT_SEED);
+  const out = await streamTrainingVectors(sources, o.patch, {
+    channels: channelsOf(o.color),
+    stride: o.stride,
+    sample: o.sample,
+    rng,
+    allocate: options.allocate,
+    signal: options.signal,
+  });
   if (o.preprocessing?.kind === 'mean-removed') removeMeans(out.vectors, out.dimension, o.preprocessing.meanBits);
   return out;
 }

@@ -1,6 +1,7 @@
 import type { Logger } from '../config';
 import type { JobKind, JobProgress } from '../contracts';
 import type { Database } from '../db';
+import type { TrainingLimits } from '../services/training-memory';
 import type { ContentStore } from '../storage/content-store';
 import type { JobEventBus } from './events';
 import type { TaskPool } from './pool';
@@ -14,6 +15,8 @@ export interface JobDeps {
   queue: JobQueue;
   bus: JobEventBus;
   logger: Logger;
+  /** TRAINING_MAX_BYTES and the engine's threads: a training job checks its run against them again before it starts. */
+  training: TrainingLimits;
 }
 
 export interface JobContext {

@@ -46,13 +46,12 @@ export interface DemoContentDeps {
 
 /** The seed's dependencies from the app's composition: the same services, queue, handlers and pool the server runs. */
 export function demoContentDeps(c: Composition): DemoContentDeps {
-  const { queue, bus, pool } = c.jobs;
   return {
     db: c.db,
     services: c.services,
-    queue,
+    queue: c.jobs.queue,
     handlers: jobHandlers,
-    jobDeps: { db: c.db, store: c.contentStore, pool, queue, bus, logger: c.logger },
+    jobDeps: c.jobs.deps,
     logger: c.logger,
   };
 }

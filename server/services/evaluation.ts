@@ -4,8 +4,6 @@ import type {
   EvaluateCodebookBody,
   ImageMetrics,
   JobProgress,
-  ReconstructionInfo,
-  ReconstructionViewName,
   RunCurve,
   RunMetrics,
 } from '../contracts';
@@ -19,7 +17,6 @@ import type {
   BaselineResultPoint,
   EvaluateResult,
   EvaluateTask,
-  ReconstructResult,
   TaskCodebook,
   TaskImage,
 } from '../jobs/tasks/evaluate.task';
@@ -62,7 +59,8 @@ export interface EvaluationJobContext {
  */
 const BASELINE_WEIGHT = 4;
 
-function toTaskCodebook(c: CodebookWithCodewords): TaskCodebook {
+/** A stored codebook as the evaluation tasks take it. */
+export function toTaskCodebook(c: CodebookWithCodewords): TaskCodebook {
   const meta = c.metadata as { training?: TaskCodebook['training']; preprocessing?: TaskCodebook['preprocessing'] };
   return {
     size: c.size,
@@ -123,8 +121,8 @@ const csvPsnr = (psnr: number | null, mse: number) => (psnr === null && mse === 
 export function createEvaluationService(deps: EvaluationDeps) {
   const { db } = deps;
 
-  const taskImages = (images: { sha256: string; fileName: string }[]): TaskImage[] =>
-    images.map((i) => ({ path: deps.store.path(i.sha256), name: i.fileName }));
+  const taskImages = (images: RunImageRecord[]): TaskImage[] =>
+    images.map((i) => ({ path: deps.store.path(i.sha256), name: i.fileName, width: i.width, height: i.height }));
 
   async function runOf(teamId: number, runId: number): Promise<RunRecord> {
     const run = await db.repos.runs.findForTeam(teamId, runId);
@@ -337,46 +335,6 @@ export function createEvaluationService(deps: EvaluationDeps) {
         c.images.map((i) => [c.codebookId, c.bits, c.size, i.imageId, i.fileName, i.width, i.height, i.containerBytes, i.bppFixed, i.bppEntropy, i.bppActual, i.mse, csvPsnr(i.psnr, i.mse), i.ssim]),
       );
       return { fileName: `${fileNameStem(m.run.name)}-metrics.csv`, text: csv(header, rows) };
-    },
-
-    /**
-     * One image of the team through one codebook of the team, coded exactly as the evaluation coded it.
-     * `info` returns the figures; the other views a PNG and the container size.
-     */
-    async reconstruction(
-      teamId: number,
-      codebookId: number,
-      imageId: number,
-      view: ReconstructionViewName,
-    ): Promise<{ kind: 'info'; info: ReconstructionInfo } | { kind: 'png'; png: Buffer; encodedBytes: number }> {
-      const codebook = await db.repos.codebooks.findForTeam(teamId, codebookId);
-      if (!codebook) throw notFound('Codebook');
-      const [image] = await db.repos.runs.teamImages(teamId, [imageId]);
-      if (!image) throw notFound('Image');
-      const result = (await deps.runTask({
-        op: 'reconstruct',
-        codebook: toTaskCodebook(codebook),
-        image: taskImages([image])[0],
-        view: view === 'info' ? null : view,
-      })) as ReconstructResult;
-      if (view === 'info' || !result.png) {
-        return {
-          kind: 'info',
-          info: {
-            codebookId,
-            imageId,
-            width: result.width,
-            height: result.height,
-            encodedBytes: result.encodedBytes,
-            bpp: result.bpp,
-            mse: result.mse,
-            psnr: result.psnr,
-            ssim: result.ssim,
-            lossless: lossless(result.psnr, result.mse),
-          },
-        };
-      }
-      return { kind: 'png', png: Buffer.from(result.png.buffer, result.png.byteOffset, result.png.byteLength), encodedBytes: result.encodedBytes };
     },
   };
 }

@@ -15,3 +15,6 @@ export * from './codebooks';
 export * from './evaluation';
 export * from './comparison';
 export * from './store-sweep';
+export * from './training-memory';
+export * from './reconstructions';
+export * from './compute-slots';

@@ -12,6 +12,7 @@ import { conflict, notFound, validationFailed } from '../errors';
 import type { JobEvent, JobEventBus } from '../jobs/events';
 import { heldOutHash } from '../jobs/held-out-hash';
 import { recordAudit } from './audit';
+import { runTrainingMemory, trainingMemoryExcess, type TrainingLimits } from './training-memory';
 
 // Defaults of the optional run settings; epsilon and the iteration cap are the engine's own defaults.
 const DEFAULTS = { color: 'luma', meanBits: 0, init: 'split', epsilon: 1e-4, maxIterations: 100, maxVectors: 200_000, seed: 1 } as const;
@@ -49,13 +50,7 @@ function runProgress(run: RunRecord, jobs: JobRecord[]): number {
   return Math.min(1, TRAIN_SHARE * jobFraction(train) + (1 - TRAIN_SHARE) * jobFraction(evaluate));
 }
 
-/** Non-overlapping patch positions of an image, as the engine extracts them (an image smaller than the patch gives one). */
-function patchesIn(img: { width: number; height: number }, patch: { width: number; height: number }): number {
-  const along = (size: number, side: number) => (size <= side ? 1 : Math.floor((size - side) / side) + 1);
-  return along(img.width, patch.width) * along(img.height, patch.height);
-}
-
-export function createRunsService(deps: { db: Database; bus: JobEventBus }) {
+export function createRunsService(deps: { db: Database; bus: JobEventBus; training: TrainingLimits }) {
   const { db, bus } = deps;
 
   async function resolveImages(teamId: number, body: CreateRunBody): Promise<{ training: RunImageRecord[]; heldOut: RunImageRecord[] }> {
@@ -116,13 +111,19 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus }) {
       maxVectors: body.maxVectors ?? DEFAULTS.maxVectors,
       seed: body.seed ?? DEFAULTS.seed,
     };
-    const available = training.reduce((n, img) => n + patchesIn(img, cfg.patch), 0);
-    const usable = Math.min(available, cfg.maxVectors);
+    const memory = runTrainingMemory(cfg, training, deps.training);
+    const usable = memory.vectors;
     const largest = 2 ** bits.to;
     if (usable < largest) {
       throw validationFailed('Too few training vectors for the largest codebook', [
         { path: 'bits', message: `the training images give ${usable} vectors of ${cfg.patch.width}×${cfg.patch.height}; b = ${bits.to} needs at least ${largest}` },
       ]);
+    }
+    const excess = trainingMemoryExcess(memory, deps.training.maxBytes);
+    if (excess) {
+      // On the vector cap when the vectors are most of it, else on the images: the field a person would change.
+      const path = memory.vectorBytes >= memory.imageBytes ? 'maxVectors' : body.trainingImageIds ? 'trainingImageIds' : 'trainingSetId';
+      throw validationFailed('Training this run would need more memory than this studio allows', [{ path, ...excess }]);
     }
     return cfg;
   }

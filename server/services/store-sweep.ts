@@ -7,7 +7,7 @@ export interface SweepReport {
   skipped: boolean;
   /** Originals looked at. */
   examined: number;
-  /** Originals no image row names any more, deleted with their thumbnails. */
+  /** Stored objects no row names any more (originals no image names, reconstruction views no reconstruction names), deleted with their thumbnails. */
   removed: number;
   /** Temporaries of interrupted writes and orphaned thumbnails deleted. */
   leftovers: number;
@@ -16,12 +16,15 @@ export interface SweepReport {
 
 /**
  * Deleting an image (or a whole set) removes its row; the stored bytes stay, because another set or
- * team may hold the same content. The sweep frees what no row names any more. Anything put within the
- * grace period is left alone: an upload stores its bytes first and commits the row afterwards.
+ * team may hold the same content. The sweep frees what no row names any more: neither an image nor a kept
+ * reconstruction (whose rows go with their codebook or image). Anything put within the grace period is left
+ * alone: an upload, or a reconstruction, stores its bytes first and commits the row afterwards.
  */
 export function createStoreSweeper(deps: { db: Database; store: ContentStore; graceMs: number; logger?: Logger; now?: () => number }) {
   const now = deps.now ?? Date.now;
   let running: Promise<SweepReport> | undefined;
+
+  const repos = deps.db.repos;
 
   async function sweepOnce(): Promise<SweepReport> {
     const notAfterMs = now() - deps.graceMs;
@@ -30,13 +33,14 @@ export function createStoreSweeper(deps: { db: Database; store: ContentStore; gr
       report.examined += batch.length;
       const old = batch.filter((e) => e.mtimeMs <= notAfterMs);
       if (old.length === 0) continue;
-      const named = await deps.db.repos.images.referencedShas(old.map((e) => e.sha256));
+      const shas = old.map((e) => e.sha256);
+      const [images, reconstructions] = await Promise.all([repos.images.referencedShas(shas), repos.reconstructions.referencedShas(shas)]);
       for (const entry of old) {
-        if (named.has(entry.sha256)) continue;
+        if (images.has(entry.sha256) || reconstructions.has(entry.sha256)) continue;
         // The store asks again at the last moment: an upload may have committed a row since the batch query.
         const freed = await deps.store.discardUnused(entry.sha256, {
           notAfterMs,
-          inUse: async () => (await deps.db.repos.images.countBySha(entry.sha256)) > 0,
+          inUse: async () => (await repos.images.countBySha(entry.sha256)) + (await repos.reconstructions.countBySha(entry.sha256)) > 0,
         });
         if (freed !== null) {
           report.removed += 1;

@@ -1,6 +1,14 @@
+import { rmSync } from 'node:fs';
+import { createServer, type Server } from 'node:http';
+import type { AddressInfo } from 'node:net';
+import type { Express } from 'express';
 import sharp from 'sharp';
 import request from 'supertest';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
+import { createApp } from '../../server/app';
+import { evaluationTaskRunner } from '../../server/jobs/handlers/evaluate';
+import { createReconstructionsService, type EvaluationTaskRunner } from '../../server/services';
+import { sha256Of } from '../../server/storage/content-store';
 import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
 import { seabedPngs, createSetWith, finishedRun as runToSuccess } from '../helpers/studio';
 
@@ -67,6 +75,7 @@ beforeAll(async () => {
 afterAll(async () => {
   await t?.composition.jobs.runner.stop();
   await t?.composition.jobs.pool.destroy();
+  await t?.composition.reconstructionPool.destroy();
   await t?.close();
 });
 
@@ -182,5 +191,156 @@ describe('reconstruction access and input', () => {
     expect(res.status).toBe(200);
     expect(res.body.width).toBe(W);
     expect(res.body.mse).toBeGreaterThan(0);
+  });
+});
+
+const reconstructionUrl = (codebookId: number, imageId: number, view: string) =>
+  `/api/teams/${team.teamId}/codebooks/${codebookId}/reconstruction/${imageId}?view=${view}`;
+
+const getView = (app: Express, codebookId: number, imageId: number, view: string) =>
+  request(app).get(reconstructionUrl(codebookId, imageId, view)).set(bearer(team.viewer)).buffer(true).parse(collect);
+
+const storedReconstruction = (codebookId: number, imageId: number) => t.db.knex('reconstructions').where({ codebook_id: codebookId, image_id: imageId }).first();
+
+/**
+ * The real reconstruction task on the real pool, behind a gate: each call waits until the gate opens (or its signal
+ * aborts) before the pool runs it, so a test can hold computations and see what the service does meanwhile.
+ */
+function gatedRunner() {
+  const real = evaluationTaskRunner(t.composition.reconstructionPool);
+  let open!: () => void;
+  const gate = new Promise<void>((resolve) => (open = resolve));
+  const calls: { signal?: AbortSignal; error?: unknown }[] = [];
+  let active = 0;
+  let maxActive = 0;
+  const runTask: EvaluationTaskRunner = async (task, signal) => {
+    const call: (typeof calls)[number] = { signal };
+    calls.push(call);
+    active += 1;
+    maxActive = Math.max(maxActive, active);
+    try {
+      await Promise.race([gate, new Promise<void>((resolve) => signal?.addEventListener('abort', () => resolve(), { once: true }))]);
+      return await real(task, signal);
+    } catch (err) {
+      call.error = err;
+      throw err;
+    } finally {
+      active -= 1;
+    }
+  };
+  return { runTask, calls, open, maxActive: () => maxActive };
+}
+
+/** The app with its reconstruction service built on `runTask` and these bounds; everything else as composed. */
+function appWith(runTask: EvaluationTaskRunner, limits = { maxConcurrent: 2, maxQueued: 8 }) {
+  const reconstructions = createReconstructionsService({ db: t.composition.db, store: t.composition.contentStore, runTask, ...limits });
+  return { app: createApp({ ...t.composition, services: { ...t.composition.services, reconstructions } }), reconstructions };
+}
+
+// Each test below uses a codebook and image pair no earlier test has asked for, so nothing is stored for it yet.
+describe('reconstructions kept in the content store', () => {
+  it('computes a pair once and serves every later view from the store, byte for byte what it stored', async () => {
+    const codebookId = await codebookOf(lumaRun, 3);
+    const imageId = heldOutIds[0];
+    const service = t.composition.services.reconstructions;
+    const before = service.stats();
+    const first = await getView(t.app, codebookId, imageId, 'reconstruction');
+    expect(first.status).toBe(200);
+    expect(service.stats().computed).toBe(before.computed + 1);
+    const row = await storedReconstruction(codebookId, imageId);
+    // node:crypto SHA-256 (FIPS 180-4) of the bytes served names the stored object.
+    expect(sha256Of(first.body as Buffer)).toBe(row.reconstruction_sha256);
+    for (const view of ['error', 'original', 'reconstruction']) {
+      const again = await getView(t.app, codebookId, imageId, view);
+      expect(again.status).toBe(200);
+      expect(sha256Of(again.body as Buffer)).toBe(row[`${view}_sha256`]);
+      expect(await t.composition.contentStore.has(row[`${view}_sha256`])).toBe(true);
+    }
+    const info = await request(t.app).get(reconstructionUrl(codebookId, imageId, 'info')).set(bearer(team.viewer));
+    expect(info.body).toMatchObject({ codebookId, imageId, mse: row.mse, encodedBytes: row.encoded_bytes });
+    expect(service.stats()).toMatchObject({ computed: before.computed + 1, fromStore: before.fromStore + 4 });
+  });
+
+  it('computes a pair again when a stored view file has gone missing', async () => {
+    const codebookId = await codebookOf(lumaRun, 3);
+    const imageId = heldOutIds[0];
+    const row = await storedReconstruction(codebookId, imageId);
+    rmSync(t.composition.contentStore.path(row.error_sha256));
+    const service = t.composition.services.reconstructions;
+    const before = service.stats().computed;
+    const res = await getView(t.app, codebookId, imageId, 'error');
+    expect(res.status).toBe(200);
+    expect(sha256Of(res.body as Buffer)).toBe(row.error_sha256);
+    expect(service.stats().computed).toBe(before + 1);
+    expect(await t.composition.contentStore.has(row.error_sha256)).toBe(true);
+  });
+
+  it('shares one computation among concurrent requests for the same pair', async () => {
+    const codebookId = await codebookOf(lumaRun, 3);
+    const imageId = heldOutIds[1];
+    const runner = gatedRunner();
+    const { app, reconstructions } = appWith(runner.runTask);
+    const pending = ['reconstruction', 'error', 'info'].map((view) => getView(app, codebookId, imageId, view).then((r) => r));
+    await vi.waitFor(() => expect(reconstructions.stats().requests).toBe(3), { timeout: 10_000 });
+    expect(runner.calls).toHaveLength(1);
+    runner.open();
+    const [recon, error, info] = await Promise.all(pending);
+    expect([recon.status, error.status, info.status]).toEqual([200, 200, 200]);
+    const row = await storedReconstruction(codebookId, imageId);
+    expect(sha256Of(recon.body as Buffer)).toBe(row.reconstruction_sha256);
+    expect(sha256Of(error.body as Buffer)).toBe(row.error_sha256);
+    expect(runner.calls).toHaveLength(1);
+    expect((await getView(app, codebookId, imageId, 'original')).status).toBe(200);
+    expect(runner.calls).toHaveLength(1);
+    expect(reconstructions.stats()).toMatchObject({ computed: 1, fromStore: 1, cancelled: 0 });
+  });
+
+  it('runs at most RECONSTRUCTION_MAX_CONCURRENT at once, queues RECONSTRUCTION_MAX_QUEUED more, and refuses the rest with 429', async () => {
+    const runner = gatedRunner();
+    const { app, reconstructions } = appWith(runner.runTask, { maxConcurrent: 1, maxQueued: 1 });
+    const [lumaB2, rgbB4, lumaB4] = await Promise.all([codebookOf(lumaRun, 2), codebookOf(rgbRun, 4), codebookOf(lumaRun, 4)]);
+    const imageId = heldOutIds[1];
+    const running = getView(app, lumaB2, imageId, 'reconstruction').then((r) => r);
+    await vi.waitFor(() => expect(runner.calls).toHaveLength(1), { timeout: 10_000 });
+    const queued = getView(app, rgbB4, imageId, 'reconstruction').then((r) => r);
+    await vi.waitFor(() => expect(reconstructions.stats().waiting).toBe(1), { timeout: 10_000 });
+    const refused = await request(app).get(reconstructionUrl(lumaB4, imageId, 'info')).set(bearer(team.viewer));
+    expect(refused.status).toBe(429);
+    expect(refused.body.error).toMatchObject({ code: 'rate_limited', details: { running: 1, maxRunning: 1, waiting: 1, maxQueued: 1 } });
+    expect(runner.calls).toHaveLength(1);
+    runner.open();
+    expect((await running).status).toBe(200);
+    expect((await queued).status).toBe(200);
+    expect(runner.calls).toHaveLength(2);
+    expect(runner.maxActive()).toBe(1);
+    expect(await storedReconstruction(lumaB4, imageId)).toBeUndefined();
+  });
+
+  it('aborts the computation when the client disconnects, and stores nothing', async () => {
+    const codebookId = await codebookOf(rgbRun, 2);
+    const imageId = heldOutIds[0];
+    const runner = gatedRunner();
+    const { app, reconstructions } = appWith(runner.runTask);
+    const server: Server = createServer(app);
+    await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', resolve));
+    try {
+      const client = new AbortController();
+      const url = `http://127.0.0.1:${(server.address() as AddressInfo).port}${reconstructionUrl(codebookId, imageId, 'reconstruction')}`;
+      const response = fetch(url, { headers: bearer(team.viewer), signal: client.signal }).catch((err: unknown) => err);
+      await vi.waitFor(() => expect(runner.calls).toHaveLength(1), { timeout: 10_000 });
+      expect(runner.calls[0].signal?.aborted).toBe(false);
+      client.abort();
+      expect(((await response) as Error).name).toBe('AbortError');
+      // The signal the pool task was given aborts, and the pool refuses to go on with it.
+      await vi.waitFor(() => expect(runner.calls[0].error).toBeDefined(), { timeout: 10_000 });
+      expect(runner.calls[0].signal?.aborted).toBe(true);
+      expect((runner.calls[0].error as Error).name).toBe('AbortError');
+      await vi.waitFor(() => expect(reconstructions.stats()).toMatchObject({ computed: 1, cancelled: 1, running: 0, requests: 0 }), { timeout: 10_000 });
+      expect(await storedReconstruction(codebookId, imageId)).toBeUndefined();
+    } finally {
+      runner.open();
+      server.closeAllConnections();
+      await new Promise((resolve) => server.close(resolve));
+    }
   });
 });

@@ -2,6 +2,7 @@ import { existsSync, mkdirSync, utimesSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { codewordChecksum } from '../../server/engine';
 import { createStoreSweeper } from '../../server/services/store-sweep';
 import { contentStoreLock, sha256Of } from '../../server/storage/content-store';
 import { bearer, createTestApp, teamWithRoles, type TestApp } from '../helpers/api';
@@ -19,6 +20,7 @@ beforeAll(async () => {
   b = await teamWithRoles(t, 'Sweep team B');
 });
 afterAll(async () => {
+  await t?.composition.reconstructionPool.destroy();
   await t?.close();
 });
 
@@ -119,6 +121,58 @@ describe('sweeping the content store', () => {
     const after = await sweeper.sweep();
     expect(after.skipped).toBe(false);
     expect(existsSync(t.composition.contentStore.path(image.sha256))).toBe(false);
+  });
+
+  it('keeps the reconstruction views a row names, and frees them once their image or codebook is gone', async () => {
+    // A 2×2 luma codebook of four flat codewords, written as the export format describes (server/engine/format/FORMAT.md).
+    const codewords = [0, 85, 170, 255].map((v) => [v, v, v, v]);
+    const document = {
+      format: 'cellwright-codebook',
+      version: 1,
+      bits: 2,
+      size: 4,
+      dimension: 4,
+      patch: { width: 2, height: 2, channels: 1, color: 'luma' },
+      preprocessing: { kind: 'none' },
+      codewords,
+      usage: [1, 1, 1, 1],
+      training: { source: 'flat levels', vectorCount: 4, init: 'random', epsilon: 0, seed: null, iterations: 0, distortion: 0, trace: [] },
+      checksum: codewordChecksum(new Float32Array(codewords.flat())),
+    };
+    const imported = await request(t.app).post(`/api/teams/${a.teamId}/codebooks/import`).set(bearer(a.engineer)).send(document);
+    expect(imported.status).toBe(201);
+    const codebookId = imported.body.codebook.id as number;
+    const store = t.composition.contentStore;
+    const viewsOf = async (imageId: number) => {
+      const res = await request(t.app).get(`/api/teams/${a.teamId}/codebooks/${codebookId}/reconstruction/${imageId}?view=error`).set(bearer(a.viewer));
+      expect(res.status).toBe(200);
+      const row = await t.db.knex('reconstructions').where({ codebook_id: codebookId, image_id: imageId }).first();
+      return [row.original_sha256, row.reconstruction_sha256, row.error_sha256] as string[];
+    };
+
+    const first = await upload(a, await makeImage('png', { seed: 106, width: 40, height: 24 }), 'seen.png');
+    const second = await upload(a, await makeImage('png', { seed: 107, width: 24, height: 40 }), 'seen-too.png');
+    const firstViews = await viewsOf(first.image.id);
+    const secondViews = await viewsOf(second.image.id);
+    for (const sha of [...firstViews, ...secondViews]) expect(existsSync(store.path(sha))).toBe(true);
+
+    // Named by their rows: kept, however old.
+    await sweeperAhead(2 * hour).sweep();
+    for (const sha of [...firstViews, ...secondViews]) expect(existsSync(store.path(sha))).toBe(true);
+
+    // The image goes: its reconstruction rows go with it, and the next pass frees their files.
+    await request(t.app).delete(`/api/teams/${a.teamId}/images/${first.image.id}`).set(bearer(a.admin)).expect(204);
+    expect(await t.db.knex('reconstructions').where({ image_id: first.image.id })).toEqual([]);
+    await sweeperAhead(2 * hour).sweep();
+    for (const sha of firstViews) expect(existsSync(store.path(sha))).toBe(false);
+    for (const sha of secondViews) expect(existsSync(store.path(sha))).toBe(true);
+
+    // The codebook goes (as a run's do with their run): the same.
+    await t.db.knex('codebooks').where({ id: codebookId }).delete();
+    expect(await t.db.knex('reconstructions').where({ codebook_id: codebookId })).toEqual([]);
+    await sweeperAhead(2 * hour).sweep();
+    for (const sha of secondViews) expect(existsSync(store.path(sha))).toBe(false);
+    expect(existsSync(store.path(second.image.sha256))).toBe(true);
   });
 
   it('runs one pass at a time: a second call while one runs gets the same pass', async () => {

@@ -1,12 +1,12 @@
 import {
-  availableBaselineCodecs, baselines, DEFAULT_QUALITIES, evaluate, imagesToTrainingVectors, MAX_BITS, trainCodebooks, type BaselineCodec,
+  availableBaselineCodecs, baselines, DEFAULT_QUALITIES, evaluate, MAX_BITS, trainCodebooks, type BaselineCodec,
   type Codebook, type PatchInfo,
 } from '../../engine';
 import { intListOption, listOption, parseOptions, rangeOption, requiredString, type OptionSpec } from '../args';
 import { CliInputError, CliUsageError } from '../cli-error';
 import type { CliContext } from '../context';
 import { checkOutputFolder, writeOutputsAtomically } from '../files';
-import { loadImageFolder } from '../inputs';
+import { loadImageFolder, trainingVectorsFromFolder } from '../inputs';
 import { progressBar } from '../progress';
 import { fmt, table } from '../text-output';
 import { imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
@@ -63,13 +63,18 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   await checkOutputFolder(out);
 
   const patch: PatchInfo = { ...img.patch, channels: img.color === 'rgb' ? 3 : 1, color: img.color };
+  const [lo, hi] = range;
   const loading = progressBar(ctx, 'reading images');
-  const trainImages = await loadImageFolder(trainDir, img.color, 'training folder', loading);
+  const { vectors, dimension } = await trainingVectorsFromFolder(
+    ctx,
+    trainDir,
+    'training folder',
+    { patch: img.patch, color: img.color, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing, codebookSize: 2 ** hi, threads: settings.threads },
+    loading,
+  );
   const heldout = await loadImageFolder(heldoutDir, img.color, 'held-out folder', loading);
   loading.done();
-  const { vectors, dimension } = imagesToTrainingVectors(trainImages, { patch: img.patch, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing });
 
-  const [lo, hi] = range;
   const bar = progressBar(ctx, 'training');
   const books: Codebook[] = [];
   try {

@@ -1,12 +1,12 @@
 import {
-  imagesToTrainingVectors, MAX_BITS, MAX_ITERATIONS, parsePatchShape, serializeCodebook, trainCodebooks, type Codebook, type ColorMode, type PatchInfo,
+  MAX_BITS, MAX_ITERATIONS, parsePatchShape, serializeCodebook, trainCodebooks, type Codebook, type ColorMode, type PatchInfo,
   type PreprocessingInfo,
 } from '../../engine';
 import { choiceOption, intOption, numberOption, parseOptions, requiredString, stringOption, type OptionSpec, type ParsedOptions } from '../args';
 import { CliUsageError } from '../cli-error';
 import type { CliContext } from '../context';
 import { checkOutputFolder, writeOutputsAtomically } from '../files';
-import { loadImageFolder, loadVectors } from '../inputs';
+import { loadVectors, trainingVectorsFromFolder } from '../inputs';
 import { progressBar } from '../progress';
 import { fmt, jsonLine, table } from '../text-output';
 
@@ -132,9 +132,14 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
     if (!img.patch) throw new CliUsageError('"cellwright train --images" needs --patch WxH');
     patch = { ...img.patch, channels: img.color === 'rgb' ? 3 : 1, color: img.color };
     const loading = progressBar(ctx, 'reading images');
-    const images = await loadImageFolder(imagesDir!, img.color, 'image folder', loading);
+    const extracted = await trainingVectorsFromFolder(
+      ctx,
+      imagesDir!,
+      'image folder',
+      { patch: img.patch, color: img.color, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing, codebookSize: 2 ** bits, threads: settings.threads },
+      loading,
+    );
     loading.done();
-    const extracted = imagesToTrainingVectors(images, { patch: img.patch, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing });
     vectors = extracted.vectors;
     dimension = extracted.dimension;
     source = imagesDir!;

@@ -2,7 +2,9 @@
 export type EngineErrorCode =
   | 'ENGINE_INVALID_INPUT'
   | 'ENGINE_TOO_FEW_VECTORS'
-  | 'ENGINE_TOO_FEW_DISTINCT_VECTORS';
+  | 'ENGINE_TOO_FEW_DISTINCT_VECTORS'
+  /** An allocation would take a task past its memory budget (memory/budget.ts). */
+  | 'ENGINE_MEMORY_LIMIT';
 
 export class EngineError extends Error {
   readonly code: EngineErrorCode;

@@ -23,6 +23,15 @@ export interface PixelImage {
   pixels: Float32Array;
 }
 
+/**
+ * Bytes decodeImage holds at its peak for a width × height image: sharp's 8-bit RGB output (3 bytes a pixel) and,
+ * made from it, the float32 pixels (4 bytes a pixel and channel). libvips' own working memory during the decode is
+ * not included (it streams most formats and shares sharp's small operation cache).
+ */
+export function decodedImageBytes(width: number, height: number, color: ColorMode): number {
+  return width * height * (3 + 4 * channelsOf(color));
+}
+
 /** Extensions read from an image folder; the formats sharp decodes in every prebuilt binary, plus AVIF through libheif. */
 export const IMAGE_EXTENSIONS = Object.freeze(['.png', '.jpg', '.jpeg', '.webp', '.tif', '.tiff', '.avif']);
 
@@ -51,6 +60,23 @@ export async function decodeImage(input: Buffer | string, color: ColorMode, name
     throw new EngineInputError('ENGINE_INVALID_IMAGE', `${name}: cannot decode image (${reason})`);
   }
   return fromRgb8(name, width, height, data, color);
+}
+
+/**
+ * The stored raster's width and height from the file's header, without decoding its pixels (EXIF orientation not
+ * applied, as decodeImage does not apply it).
+ */
+export async function readImageSize(input: Buffer | string, name = typeof input === 'string' ? input : 'image'): Promise<{ width: number; height: number }> {
+  let width: number | undefined;
+  let height: number | undefined;
+  try {
+    ({ width, height } = await sharp(input, { failOn: 'error' }).metadata());
+  } catch (error) {
+    const reason = error instanceof Error ? error.message.split('\n')[0] : String(error);
+    throw new EngineInputError('ENGINE_INVALID_IMAGE', `${name}: cannot decode image (${reason})`);
+  }
+  if (!width || !height) throw new EngineInputError('ENGINE_INVALID_IMAGE', `${name}: the image header gives no size`);
+  return { width, height };
 }
 
 /** Builds a PixelImage from interleaved 8-bit RGB (height × width × 3). */

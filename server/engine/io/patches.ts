@@ -111,6 +111,11 @@ function positionsAlong(size: number, side: number, stride: number): number {
   return size <= side ? 1 : Math.floor((size - side) / stride) + 1;
 }
 
+/** Patches training takes from a width × height image at `stride` (default: the patch size, non-overlapping). */
+export function patchPositions(width: number, height: number, patch: PatchShape, stride?: number): number {
+  return positionsAlong(width, patch.width, stride ?? patch.width) * positionsAlong(height, patch.height, stride ?? patch.height);
+}
+
 export interface ExtractOptions {
   /** Step between patch origins in pixels on both axes; defaults to the patch size on each axis (non-overlapping). */
   stride?: number;
@@ -172,28 +177,48 @@ function sampleDistinct(n: number, k: number, rng: { nextInt(n: number): number 
   return picked.sort();
 }
 
+/** What the sampler must know of an image before decoding it: its size, and a name for messages. */
+export interface ImageSize {
+  name: string;
+  width: number;
+  height: number;
+}
+
 /**
- * Training vectors from a set of images: patches at every `stride` pixels (edge-replicated where an image is smaller
- * than the patch), optionally a seeded random subset of at most `sample` vectors spread across images by area.
+ * Which patches training takes from each image, decided from the images' sizes alone, before any pixel is decoded:
+ * the per-image quotas and the positions drawn for them. The draws happen here, image by image in order, so the
+ * sample for a seed is the same whether the images are then decoded all at once or one at a time.
  */
-export function extractTrainingVectors(images: PixelImage[], patch: PatchShape, options: ExtractOptions = {}): ExtractedVectors {
+export interface SamplePlan {
+  patch: PatchShape;
+  channels: number;
+  dimension: number;
+  /** Vectors in all, and from each image in the given order. */
+  count: number;
+  perImage: number[];
+  /** Steps between patch origins on each axis. */
+  stepX: number;
+  stepY: number;
+  /** Patch positions along x per image (a position p is at column p mod nx, row ⌊p / nx⌋). */
+  columns: number[];
+  /** Positions taken per image, ascending; null: all of them. */
+  chosen: (Uint32Array | null)[];
+}
+
+export function planTrainingSample(images: ImageSize[], channels: number, patch: PatchShape, options: ExtractOptions = {}): SamplePlan {
   if (images.length === 0) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'no images to extract training vectors from');
   checkPatchShape(patch);
-  const channels = images[0].channels;
-  for (const img of images) {
-    if (img.channels !== channels) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${img.name}: mixed colour modes in one training set`);
-  }
   const stride = options.stride;
   if (stride !== undefined && (!Number.isInteger(stride) || stride < 1)) {
     throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `stride must be a positive integer, got ${stride}`, 'stride');
   }
-  const sx = stride ?? patch.width;
-  const sy = stride ?? patch.height;
-  const grids = images.map((img) => ({ nx: positionsAlong(img.width, patch.width, sx), ny: positionsAlong(img.height, patch.height, sy) }));
-  const counts = grids.map((g) => g.nx * g.ny);
+  const stepX = stride ?? patch.width;
+  const stepY = stride ?? patch.height;
+  const columns = images.map((img) => positionsAlong(img.width, patch.width, stepX));
+  const counts = images.map((img, i) => columns[i] * positionsAlong(img.height, patch.height, stepY));
   const available = counts.reduce((a, b) => a + b, 0);
 
-  let chosen: (Uint32Array | null)[]; // null: every position of that image
+  let chosen: (Uint32Array | null)[];
   if (options.sample === undefined || options.sample >= available) {
     chosen = images.map(() => null);
   } else {
@@ -205,23 +230,97 @@ export function extractTrainingVectors(images: PixelImage[], patch: PatchShape, 
     const quotas = proportionalQuotas(options.sample, images.map((img) => img.width * img.height), counts);
     chosen = quotas.map((q, i) => sampleDistinct(counts[i], q, rng));
   }
-
   const perImage = chosen.map((c, i) => (c === null ? counts[i] : c.length));
-  const count = perImage.reduce((a, b) => a + b, 0);
-  const dimension = vectorDimension(patch, channels);
-  const vectors = new Float32Array(count * dimension);
+  return {
+    patch,
+    channels,
+    dimension: vectorDimension(patch, channels),
+    count: perImage.reduce((a, b) => a + b, 0),
+    perImage,
+    stepX,
+    stepY,
+    columns,
+    chosen,
+  };
+}
+
+/**
+ * Copies the planned patches of image `index` into `out` from `offset` (vectors in the plan's order);
+ * returns the offset after them.
+ */
+export function takePlannedVectors(plan: SamplePlan, index: number, image: PixelImage, out: Float32Array, offset: number): number {
+  const nx = plan.columns[index];
+  const d = plan.dimension;
+  let at = offset;
+  const take = (position: number) => {
+    const px = position % nx;
+    const py = (position - px) / nx;
+    readPatch(image, plan.patch, px * plan.stepX, py * plan.stepY, out, at);
+    at += d;
+  };
+  const list = plan.chosen[index];
+  if (list === null) for (let p = 0; p < plan.perImage[index]; p += 1) take(p);
+  else for (const p of list) take(p);
+  return at;
+}
+
+/**
+ * Training vectors from a set of images: patches at every `stride` pixels (edge-replicated where an image is smaller
+ * than the patch), optionally a seeded random subset of at most `sample` vectors spread across images by area.
+ */
+export function extractTrainingVectors(images: PixelImage[], patch: PatchShape, options: ExtractOptions = {}): ExtractedVectors {
+  if (images.length === 0) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'no images to extract training vectors from');
+  const channels = images[0].channels;
+  for (const img of images) {
+    if (img.channels !== channels) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${img.name}: mixed colour modes in one training set`);
+  }
+  const plan = planTrainingSample(images, channels, patch, options);
+  const vectors = new Float32Array(plan.count * plan.dimension);
   let offset = 0;
   images.forEach((img, i) => {
-    const { nx } = grids[i];
-    const take = (position: number) => {
-      const px = position % nx;
-      const py = (position - px) / nx;
-      readPatch(img, patch, px * sx, py * sy, vectors, offset);
-      offset += dimension;
-    };
-    const list = chosen[i];
-    if (list === null) for (let p = 0; p < counts[i]; p += 1) take(p);
-    else for (const p of list) take(p);
+    offset = takePlannedVectors(plan, i, img, vectors, offset);
   });
-  return { vectors, dimension, count, perImage };
+  return { vectors, dimension: plan.dimension, count: plan.count, perImage: plan.perImage };
+}
+
+/** An image the streaming sampler decodes when its turn comes. */
+export interface TrainingImageSource extends ImageSize {
+  /** Decodes the image; its size must be the one declared (the sample was drawn from it). */
+  decode(): Promise<PixelImage>;
+  /** Called once the sampler has taken this image's vectors and holds its pixels no longer (not after a failed decode). */
+  release?(): void;
+}
+
+export interface StreamOptions extends ExtractOptions {
+  /** Channels every image must have (1 luma, 3 rgb). */
+  channels: number;
+  /** Makes the N × d output; defaults to a plain Float32Array. A caller may charge a budget or use shared memory. */
+  allocate?: (length: number) => Float32Array;
+  signal?: AbortSignal;
+}
+
+/**
+ * The same vectors as extractTrainingVectors for the same images and random sequence, but with the images decoded
+ * one at a time: plan from the sizes (every random draw), allocate the output once, then per image decode → copy its
+ * patches → drop its pixels. Peak memory is the output plus one decoded image, whatever the number of images.
+ */
+export async function streamTrainingVectors(sources: TrainingImageSource[], patch: PatchShape, options: StreamOptions): Promise<ExtractedVectors> {
+  const plan = planTrainingSample(sources, options.channels, patch, options);
+  const vectors = options.allocate ? options.allocate(plan.count * plan.dimension) : new Float32Array(plan.count * plan.dimension);
+  if (vectors.length !== plan.count * plan.dimension) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'allocate returned an array of the wrong length');
+  let offset = 0;
+  for (const [i, source] of sources.entries()) {
+    options.signal?.throwIfAborted();
+    const image = await source.decode();
+    try {
+      if (image.width !== source.width || image.height !== source.height) {
+        throw new EngineInputError('ENGINE_INVALID_IMAGE', `${source.name}: decoded as ${image.width}×${image.height}, but its size was given as ${source.width}×${source.height}`);
+      }
+      if (image.channels !== options.channels) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${source.name}: mixed colour modes in one training set`);
+      offset = takePlannedVectors(plan, i, image, vectors, offset);
+    } finally {
+      source.release?.();
+    }
+  }
+  return { vectors, dimension: plan.dimension, count: plan.count, perImage: plan.perImage };
 }

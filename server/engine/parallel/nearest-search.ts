@@ -22,6 +22,15 @@ const MAX_BOUND_RATIO = 4;
 let nextJobId = 1;
 
 /**
+ * Bytes of the block-bound table a search over N vectors of dimension d keeps with K codewords: N × ⌈K/16⌉
+ * float32, or 0 when that passes MAX_BOUND_BYTES or MAX_BOUND_RATIO × the vectors (every pass then runs in full).
+ */
+export function boundTableBytes(n: number, d: number, k: number): number {
+  const bytes = n * Math.ceil(k / 16) * 4;
+  return bytes <= Math.min(MAX_BOUND_BYTES, MAX_BOUND_RATIO * n * d * 4) ? bytes : 0;
+}
+
+/**
  * Orders codewords so that each block of 16 consecutive positions holds codewords lying
  * close together: recursive halving (at a multiple of 16) along each subset's principal
  * direction, found by power iteration. Compact blocks make the per-block bounds tight, so
@@ -177,9 +186,7 @@ export class NearestSearch {
       this.order.set(order);
     }
     // Bounds take N × ⌈K/16⌉ float32; beyond MAX_BOUND_BYTES, or MAX_BOUND_RATIO × the vectors, every pass runs in full.
-    const blocks = Math.ceil(k / 16);
-    const boundBytes = this.n * blocks * 4;
-    const boundEntries = boundBytes <= Math.min(MAX_BOUND_BYTES, MAX_BOUND_RATIO * this.n * this.d * 4) ? this.n * blocks : 0;
+    const boundEntries = boundTableBytes(this.n, this.d, k) / 4;
     const drift = sameSize && boundEntries > 0 ? this.driftFrom(this.previous!, cw, k) : undefined;
     // Until the pass completes the bounds are stale: a failed pass must not be trusted.
     this.previous = undefined;

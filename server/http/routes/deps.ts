@@ -10,6 +10,7 @@ import type {
   ImageUploadsService,
   InvitationsService,
   OutboxService,
+  ReconstructionsService,
   RunsService,
   TeamsService,
 } from '../../services';
@@ -28,6 +29,7 @@ export interface Services {
   runs: RunsService;
   codebooks: CodebooksService;
   evaluation: EvaluationService;
+  reconstructions: ReconstructionsService;
   comparison: ComparisonService;
 }
 

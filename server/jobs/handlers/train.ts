@@ -1,6 +1,7 @@
 import type { NormalizedRunConfig } from '../../contracts';
-import type { NewCodebook, RunRecord } from '../../db';
+import type { NewCodebook, RunImageRecord, RunRecord } from '../../db';
 import { makeCodebook, sharedVectors, toCodebookDocument, train, type IterationStat, type TrainedCodebook } from '../../engine';
+import { runTrainingMemory, trainingMemoryExcess } from '../../services/training-memory';
 import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
 import type { JobContext, JobHandler } from '../types';
 
@@ -78,14 +79,12 @@ function traceEntry(s: IterationStat): IterationStat {
   return entry;
 }
 
-async function loadVectors(run: RunRecord, ctx: JobContext): Promise<Float32Array> {
-  const { db, store, pool } = ctx.deps;
+async function loadVectors(run: RunRecord, images: RunImageRecord[], ctx: JobContext): Promise<Float32Array> {
+  const { store, pool } = ctx.deps;
   const cfg = run.normalized;
-  const images = await db.repos.runs.imagesOf(run.id, 'training');
-  if (images.length === 0) throw new Error('the run has no training images');
   ctx.progress({ phase: 'loading', fraction: 0, message: `decoding ${images.length} training images` });
   const input: TrainingVectorsInput = {
-    files: images.map((i) => ({ path: store.path(i.sha256), name: i.fileName })),
+    files: images.map((i) => ({ path: store.path(i.sha256), name: i.fileName, width: i.width, height: i.height })),
     color: cfg.color,
     patch: cfg.patch,
     sample: cfg.maxVectors,
@@ -107,8 +106,14 @@ export const trainHandler: JobHandler = async (job, ctx) => {
   const cfg = run.normalized;
   const dimension = cfg.patch.width * cfg.patch.height * (cfg.color === 'rgb' ? 3 : 1);
 
-  // Put in shared memory once, before training: every pass's workers then read this one copy.
-  const vectors = sharedVectors(await loadVectors(run, ctx));
+  const images = await db.repos.runs.imagesOf(run.id, 'training');
+  if (images.length === 0) throw new Error('the run has no training images');
+  // Checked at creation too; again here for a run queued before the cap was lowered.
+  const excess = trainingMemoryExcess(runTrainingMemory(cfg, images, ctx.deps.training), ctx.deps.training.maxBytes);
+  if (excess) throw new Error(excess.message);
+
+  // The task hands the vectors over in shared memory already: every pass's workers read this one copy.
+  const vectors = sharedVectors(await loadVectors(run, images, ctx));
   const vectorCount = vectors.length / dimension;
   ctx.progress({ phase: 'training', fraction: LOADED, message: `${vectorCount} training vectors of ${dimension} components` });
 

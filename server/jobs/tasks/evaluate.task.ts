@@ -7,6 +7,7 @@ import {
   availableBaselineCodecs,
   baselines,
   codewordChecksum,
+  decodedImageBytes,
   DEFAULT_QUALITIES,
   encode,
   encodeErrorMapPng,
@@ -20,6 +21,7 @@ import {
   ssimOfImages,
   toUint8,
   type BaselineCodec,
+  type MemoryBudget,
   type Codebook,
   type ColorMode,
   type PatchInfo,
@@ -27,6 +29,7 @@ import {
   type PreprocessingInfo,
   type TrainingInfo,
 } from '../../engine';
+import { taskMemory, type TaskContext } from './task-context';
 
 /** A codebook as the worker receives it; `codewords` is K × dimension, row-major. */
 export interface TaskCodebook {
@@ -45,6 +48,9 @@ export interface TaskImage {
   path: string;
   /** For messages only. */
   name: string;
+  /** As recorded at upload: what decoding it will hold is charged to the task's memory budget before it is decoded. */
+  width: number;
+  height: number;
 }
 
 /** Metrics with PSNR in JSON form: null when the reconstruction is exact. */
@@ -81,8 +87,8 @@ export interface BaselineResultPoint {
 export type ReconstructionView = 'original' | 'reconstruction' | 'error';
 
 export interface ReconstructResult {
-  /** PNG of the requested view, or null when only the figures were asked for. */
-  png: Uint8Array | null;
+  /** A PNG of every view: computed together, because the coding and SSIM behind them are the cost, not the PNGs. */
+  views: Record<ReconstructionView, Uint8Array>;
   width: number;
   height: number;
   encodedBytes: number;
@@ -95,7 +101,7 @@ export interface ReconstructResult {
 export type EvaluateTask =
   | { op: 'evaluate'; codebook: TaskCodebook; images: TaskImage[] }
   | { op: 'baselines'; images: TaskImage[]; color: ColorMode; codecs?: BaselineCodec[]; qualities?: number[] }
-  | { op: 'reconstruct'; codebook: TaskCodebook; image: TaskImage; view: ReconstructionView | null };
+  | { op: 'reconstruct'; codebook: TaskCodebook; image: TaskImage };
 
 /** Everything runs on this worker's own thread: the pool already spends one core per task. */
 const ON_THIS_THREAD = { threads: 1 } as const;
@@ -117,9 +123,15 @@ function toCodebook(c: TaskCodebook): Codebook {
   };
 }
 
-async function loadAll(images: TaskImage[], color: ColorMode): Promise<PixelImage[]> {
+/** Decodes one image, charging what it holds to the task's budget first (the charge stays for the task's life). */
+function loadCharged(image: TaskImage, color: ColorMode, memory: MemoryBudget): Promise<PixelImage> {
+  memory.charge(decodedImageBytes(image.width, image.height, color), `decoding ${image.name} (${image.width}×${image.height} ${color})`);
+  return loadImage(image.path, color, image.name);
+}
+
+async function loadAll(images: TaskImage[], color: ColorMode, memory: MemoryBudget): Promise<PixelImage[]> {
   const out: PixelImage[] = [];
-  for (const image of images) out.push(await loadImage(image.path, color, image.name));
+  for (const image of images) out.push(await loadCharged(image, color, memory));
   return out;
 }
 
@@ -127,9 +139,9 @@ async function loadAll(images: TaskImage[], color: ColorMode): Promise<PixelImag
  * Per image and pooled: MSE pooled over pixel components and PSNR from it; SSIM weighted by pixels (so a large image
  * counts as much as the same pixels cut into small ones); rates are total bits over total pixels.
  */
-export async function evaluateCodebook(codebook: TaskCodebook, images: TaskImage[]): Promise<EvaluateResult> {
+export async function evaluateCodebook(codebook: TaskCodebook, images: TaskImage[], memory: MemoryBudget): Promise<EvaluateResult> {
   const book = toCodebook(codebook);
-  const decoded = await loadAll(images, codebook.patch.color);
+  const decoded = await loadAll(images, codebook.patch.color, memory);
   const result = await evaluate(book, decoded, ON_THIS_THREAD);
   let weighted = 0;
   let weight = 0;
@@ -166,28 +178,37 @@ export async function evaluateCodebook(codebook: TaskCodebook, images: TaskImage
 }
 
 /** The reference sweep: every codec this sharp build writes (JPEG, WebP, AVIF when available) at the standard qualities. */
-export async function baselinePoints(images: TaskImage[], color: ColorMode, codecs?: BaselineCodec[], qualities?: number[]): Promise<BaselineResultPoint[]> {
-  const decoded = await loadAll(images, color);
+export async function baselinePoints(
+  images: TaskImage[],
+  color: ColorMode,
+  memory: MemoryBudget,
+  codecs?: BaselineCodec[],
+  qualities?: number[],
+): Promise<BaselineResultPoint[]> {
+  const decoded = await loadAll(images, color, memory);
   const points = await baselines(decoded, { codecs: codecs ?? (await availableBaselineCodecs()), qualities: qualities ?? [...DEFAULT_QUALITIES] });
   return points.map((p) => ({ codec: p.codec, quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: psnrForJson(p.psnr), ssim: p.ssim }));
 }
 
+const bytesOf = (png: Buffer) => new Uint8Array(png.buffer, png.byteOffset, png.byteLength);
+
 /**
  * One image through the codec, with the same encode and decoder the evaluation used, so the figures and pixels here
  * are the ones it measured. Views: the source as the codebook sees it (luma rounded to 8 bits), the decoder output,
- * or the engine's error map (largest absolute channel error × ERROR_MAP_GAIN, black = exact).
+ * and the engine's error map (largest absolute channel error × ERROR_MAP_GAIN, black = exact).
  */
-export async function reconstructImage(codebook: TaskCodebook, image: TaskImage, view: ReconstructionView | null): Promise<ReconstructResult> {
+export async function reconstructImage(codebook: TaskCodebook, image: TaskImage, memory: MemoryBudget): Promise<ReconstructResult> {
   const book = toCodebook(codebook);
-  const source = await loadImage(image.path, codebook.patch.color, image.name);
+  const source = await loadCharged(image, codebook.patch.color, memory);
   const { container, reconstruction } = await encode(book, source, ON_THIS_THREAD);
   const mse = meanSquaredError(source.pixels, reconstruction);
-  let png: Buffer | null = null;
-  if (view === 'original') png = await encodePng(toUint8(source.pixels), source.width, source.height, source.channels);
-  else if (view === 'reconstruction') png = await encodePng(reconstruction, source.width, source.height, source.channels);
-  else if (view === 'error') png = await encodeErrorMapPng(source.pixels, reconstruction, source.width, source.height, source.channels);
+  const { width, height, channels } = source;
   return {
-    png: png ? new Uint8Array(png.buffer, png.byteOffset, png.byteLength) : null,
+    views: {
+      original: bytesOf(await encodePng(toUint8(source.pixels), width, height, channels)),
+      reconstruction: bytesOf(await encodePng(reconstruction, width, height, channels)),
+      error: bytesOf(await encodeErrorMapPng(source.pixels, reconstruction, width, height, channels)),
+    },
     width: source.width,
     height: source.height,
     encodedBytes: container.length,
@@ -198,13 +219,14 @@ export async function reconstructImage(codebook: TaskCodebook, image: TaskImage,
   };
 }
 
-export default async function run(task: EvaluateTask): Promise<EvaluateResult | BaselineResultPoint[] | ReconstructResult> {
+export default async function run(task: EvaluateTask, context?: TaskContext): Promise<EvaluateResult | BaselineResultPoint[] | ReconstructResult> {
+  const memory = taskMemory(context);
   switch (task.op) {
     case 'evaluate':
-      return evaluateCodebook(task.codebook, task.images);
+      return evaluateCodebook(task.codebook, task.images, memory);
     case 'baselines':
-      return baselinePoints(task.images, task.color, task.codecs, task.qualities);
+      return baselinePoints(task.images, task.color, memory, task.codecs, task.qualities);
     case 'reconstruct':
-      return reconstructImage(task.codebook, task.image, task.view);
+      return reconstructImage(task.codebook, task.image, memory);
   }
 }

@@ -1,10 +1,13 @@
-// Pool-thread task: decodes a run's training images and extracts its training vectors, off the request loop.
-import { Piscina } from 'piscina';
-import { imagesToTrainingVectors, loadImage, type PixelImage } from '../../engine';
+// Pool-thread task: decodes a run's training images one at a time and samples its training vectors, off the request loop.
+import { decodedImageBytes, loadImage, streamImagesToTrainingVectors, type TrainingImageSource } from '../../engine';
+import { taskMemory, type TaskContext } from './task-context';
 
 export interface TrainingVectorsInput {
-  /** Absolute paths of the originals, and the names error messages should use for them. */
-  files: { path: string; name: string }[];
+  /**
+   * Absolute paths of the originals, the names error messages should use for them, and their sizes as recorded at
+   * upload: the sample is drawn from the sizes before any image is decoded.
+   */
+  files: { path: string; name: string; width: number; height: number }[];
   color: 'luma' | 'rgb';
   patch: { width: number; height: number };
   /** Cap on the number of vectors, drawn at random with `seed` when the images hold more. */
@@ -14,16 +17,39 @@ export interface TrainingVectorsInput {
   meanBits: number;
 }
 
-/** @returns vectors: N × (width·height·channels), row-major */
-export default async function trainingVectors(input: TrainingVectorsInput): Promise<Float32Array> {
-  const images: PixelImage[] = [];
-  for (const file of input.files) images.push(await loadImage(file.path, input.color, file.name));
-  const { vectors } = imagesToTrainingVectors(images, {
+/**
+ * Holds the vectors (charged to the task's budget, in shared memory) and one decoded image at a time (charged while
+ * held): a run of thousands of images needs no more than its largest image on top of its vectors.
+ * @returns vectors: N × (width·height·channels), row-major, in a SharedArrayBuffer — the calling thread gets the
+ *          same memory, not a copy, and training reads it in place
+ */
+export default async function trainingVectors(input: TrainingVectorsInput, context?: TaskContext): Promise<Float32Array> {
+  const memory = taskMemory(context);
+  const sources: TrainingImageSource[] = input.files.map((file) => {
+    const bytes = decodedImageBytes(file.width, file.height, input.color);
+    return {
+      name: file.name,
+      width: file.width,
+      height: file.height,
+      async decode() {
+        memory.charge(bytes, `decoding ${file.name} (${file.width}×${file.height} ${input.color})`);
+        try {
+          return await loadImage(file.path, input.color, file.name);
+        } catch (err) {
+          memory.release(bytes);
+          throw err;
+        }
+      },
+      release: () => memory.release(bytes),
+    };
+  });
+  const { vectors } = await streamImagesToTrainingVectors(sources, {
     patch: input.patch,
+    color: input.color,
     sample: input.sample,
     seed: input.seed,
     preprocessing: input.meanBits > 0 ? { kind: 'mean-removed', meanBits: input.meanBits } : { kind: 'none' },
+    allocate: (length) => memory.float32(length, 'holding the training vectors', { shared: true }),
   });
-  // Moved to the calling thread, not copied: the vectors can be hundreds of megabytes.
-  return Piscina.move(vectors) as Float32Array;
+  return vectors;
 }

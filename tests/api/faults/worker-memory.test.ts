@@ -4,7 +4,7 @@
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { seabedSet } from '../../../server/seed/seabed-tiles';
-import { startServer, type StartedServer } from '../../helpers/server';
+import { signUpOn, startServer, type StartedServer } from '../../helpers/server';
 
 let server: StartedServer;
 let token: string;
@@ -22,12 +22,7 @@ async function api(method: string, p: string, body?: unknown) {
 
 beforeAll(async () => {
   server = await startServer({ SEED_DEMO: 'false', JOB_TASK_MAX_HEAP_MB: '48', CELLWRIGHT_TEST_TASK_FAULT: 'oom' });
-  const signup = await fetch(`${server.url}/api/auth/signup`, {
-    method: 'POST',
-    headers: { 'Content-Type': 'application/json' },
-    body: JSON.stringify({ email: `oom-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'OOM', teamName: 'OOM Team' }),
-  });
-  const account = (await signup.json()) as { token: string; team: { id: number } };
+  const account = await signUpOn(server, { email: `oom-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'OOM', teamName: 'OOM Team' });
   token = account.token;
   teamId = account.team.id;
   setId = (await api('POST', `/api/teams/${teamId}/image-sets`, { name: 'Tiles' })).body.imageSet.id;

@@ -56,12 +56,21 @@ export function createAccountsService(deps: AccountsDeps) {
   // Computed up front so the first sign-in with an unknown address is not the slow one.
   void dummy().catch(() => undefined);
   const background = new Set<Promise<void>>();
+  // The tail of each address's background work: one address's requests run one after another, so the hourly
+  // share of account mail (count, then insert) holds however many arrive at once (one process per database).
+  const perAddress = new Map<string, Promise<void>>();
 
   /** Runs work after the answer has gone, so neither status nor timing tells whether an address has an account. */
-  function inBackground(what: string, work: () => Promise<void>): void {
-    const task = work()
+  function inBackground(what: string, email: string, work: () => Promise<void>): void {
+    const key = email.toLowerCase();
+    const task = (perAddress.get(key) ?? Promise.resolve())
+      .then(work)
       .catch((err: unknown) => deps.logger.error({ err }, `${what} failed`))
-      .finally(() => background.delete(task));
+      .finally(() => {
+        background.delete(task);
+        if (perAddress.get(key) === task) perAddress.delete(key);
+      });
+    perAddress.set(key, task);
     background.add(task);
   }
 
@@ -129,7 +138,7 @@ export function createAccountsService(deps: AccountsDeps) {
   return {
     /** Always accepted: a new address is mailed a link to finish, an existing one a note to its owner. */
     requestSignup(email: string): void {
-      inBackground('sign-up e-mail', () => sendSignupMail(email));
+      inBackground('sign-up e-mail', email, () => sendSignupMail(email));
     },
 
     async previewSignup(token: string): Promise<SignupLinkPreview> {
@@ -222,7 +231,7 @@ export function createAccountsService(deps: AccountsDeps) {
      * whether the address has an account.
      */
     requestPasswordReset(email: string): void {
-      inBackground('password reset e-mail', () => sendResetLink(email));
+      inBackground('password reset e-mail', email, () => sendResetLink(email));
     },
 
     /** Sets the new password and ends every session of the account. */

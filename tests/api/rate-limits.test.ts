@@ -43,6 +43,18 @@ describe('per client address', () => {
     await t.composition.services.accounts.settle();
   });
 
+  it('sends one address at most five account mails an hour, however many clients ask (no mailbox flooding)', async () => {
+    const s = await signUp(t.app);
+    for (let i = 0; i < 4; i += 1) {
+      expect((await post('/api/auth/password-reset', client(), { email: s.user.email })).status).toBe(202);
+      expect((await post('/api/auth/signup', client(), { email: s.user.email })).status).toBe(202);
+    }
+    await t.composition.services.accounts.settle();
+    // The sign-up link that made the account, then four more: the rest were answered 202 and sent nothing.
+    const mails = await t.db.knex('mail_queue').where({ recipient: s.user.email }).whereNull('team_id');
+    expect(mails).toHaveLength(5);
+  });
+
   it('counts failed sign-ins across e-mails, so a password spray is stopped, while other clients go on', async () => {
     const victim = await signUp(t.app);
     const sprayer = client();

@@ -12,7 +12,9 @@ import { fileURLToPath } from 'node:url';
 import { promisify } from 'node:util';
 import autocannon from 'autocannon';
 import sharp from 'sharp';
+import { loadConfig } from '../server/config';
 import { seabedSet } from '../server/seed/seabed-tiles';
+import { readCapturedMail } from './mail';
 
 const TARGET_P99_MS = 200;
 const READ_CLIENTS = Number(process.env.LOAD_CLIENTS ?? 50);
@@ -66,6 +68,7 @@ async function startStack(): Promise<Env> {
     // One engine thread for the background training leaves the other core to the request loop.
     ENGINE_THREADS: '1',
     LOGIN_RATE_LIMIT: '1000',
+    ACCOUNT_RATE_LIMIT: '1000',
   };
   // LOAD_CPU_PROF=DIR writes a V8 CPU profile of the server there when it stops (for finding the hot path).
   const profile = process.env.LOAD_CPU_PROF ? ['--cpu-prof', `--cpu-prof-dir=${path.resolve(process.env.LOAD_CPU_PROF)}`] : [];
@@ -131,9 +134,23 @@ async function waitForRun(base: string, token: string, teamId: number, runId: nu
   throw new Error(`run ${runId} never reached the awaited state`);
 }
 
+/** The newest captured mail for an address whose text holds a `/<kind>/<token>` link, as the operator's `npm run mail` reads it. */
+async function mailedToken(dbEnv: Record<string, string>, to: string, kind: string): Promise<string> {
+  const config = loadConfig({ ...dbEnv, JWT_SECRET: 'x'.repeat(32) });
+  for (let i = 0; i < 150; i += 1) {
+    const messages = await readCapturedMail(config, { to, last: 5 });
+    const link = messages.map((m) => new RegExp(`/${kind}/([A-Za-z0-9_-]+)`).exec(m.text)).findLast(Boolean);
+    if (link) return link[1];
+    await new Promise((r) => setTimeout(r, 200));
+  }
+  throw new Error(`no /${kind}/ mail for ${to}`);
+}
+
 /** A team with an admin and READ_CLIENTS viewers (one session each), a set of tiles, and one finished run. */
-async function buildTeam(base: string) {
-  const admin = await json(base, 'POST', '/api/auth/signup', undefined, { email: 'load-admin@example.test', password: PASSWORD, name: 'Load Admin', teamName: 'Load Team' });
+async function buildTeam(base: string, dbEnv: Record<string, string>) {
+  await json(base, 'POST', '/api/auth/signup', undefined, { email: 'load-admin@example.test' });
+  const signupToken = await mailedToken(dbEnv, 'load-admin@example.test', 'sign-up');
+  const admin = await json(base, 'POST', '/api/auth/signup/complete', undefined, { token: signupToken, password: PASSWORD, name: 'Load Admin', teamName: 'Load Team' });
   const token = admin.token as string;
   const teamId = admin.team.id as number;
   const setId = (await json(base, 'POST', `/api/teams/${teamId}/image-sets`, token, { name: 'Seabed' })).imageSet.id as number;
@@ -156,11 +173,16 @@ async function buildTeam(base: string) {
     const email = `load-viewer-${i}@example.test`;
     await json(base, 'POST', `/api/teams/${teamId}/invitations`, token, { email, role: 'viewer' });
   }
-  const { messages } = (await json(base, 'GET', `/api/teams/${teamId}/outbox`, token)) as { messages: { to: string[]; text: string }[] };
+  // The team's own Outbox shows its invitations, links included, once the queue has delivered them.
+  let messages: { to: string; text: string | null; status: string }[] = [];
+  for (let i = 0; i < 150 && messages.filter((m) => m.status === 'sent').length < READ_CLIENTS; i += 1) {
+    if (i > 0) await new Promise((r) => setTimeout(r, 200));
+    messages = ((await json(base, 'GET', `/api/teams/${teamId}/outbox`, token)) as { messages: typeof messages }).messages;
+  }
   for (let i = 0; i < READ_CLIENTS; i += 1) {
     const email = `load-viewer-${i}@example.test`;
-    const m = messages.find((x) => x.to.includes(email));
-    const link = m && /\/invite\/([A-Za-z0-9_-]+)/.exec(m.text);
+    const m = messages.find((x) => x.to === email);
+    const link = m && /\/invite\/([A-Za-z0-9_-]+)/.exec(m.text ?? '');
     if (!link) throw new Error(`no invitation mail for ${email}`);
     viewers.push((await json(base, 'POST', `/api/invitations/${link[1]}/accept`, undefined, { name: `Viewer ${i}`, password: PASSWORD })).token as string);
   }
@@ -176,7 +198,7 @@ async function main(): Promise<number> {
   try {
     stack = await startStack();
     const { base } = stack;
-    const team = await buildTeam(base);
+    const team = await buildTeam(base, stack.dbEnv);
 
     const t = `/api/teams/${team.teamId}`;
     const paths = [`${t}/runs`, `${t}/runs/${team.runId}/curve`, `${t}/codebooks/${team.codebookId}`, ...team.imageIds.slice(0, 6).map((id) => `${t}/images/${id}/thumbnail`)];

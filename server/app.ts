@@ -12,7 +12,7 @@ import { apiNotFound, errorHandler } from './http/middleware/error-handler';
 import { refuseCrossSiteMutations } from './http/middleware/fetch-metadata';
 import { maskTokensInUrl } from './http/middleware/log-redaction';
 import { originCheck } from './http/middleware/origin-check';
-import { attemptLimiter } from './http/middleware/rate-limit';
+import { addressLimiter } from './http/middleware/rate-limit';
 import { rejectInvalidUtf8 } from './http/middleware/strict-utf8';
 import { requireTeamRoleFactory } from './http/middleware/require-team-role';
 import { authRouter } from './http/routes/auth';
@@ -51,6 +51,9 @@ export function createApp(deps: AppDeps): Express {
   const app = express();
   app.disable('x-powered-by');
   app.set('query parser', 'simple');
+  // Off unless TRUST_PROXY names the proxy: only then do req.ip (rate limits) and req.secure (the cookie's
+  // Secure flag) follow X-Forwarded-For / X-Forwarded-Proto, which any client could otherwise write.
+  app.set('trust proxy', config.trustProxy === false ? false : Array.isArray(config.trustProxy) ? [...config.trustProxy] : config.trustProxy);
 
   app.use(
     helmet({
@@ -93,20 +96,31 @@ export function createApp(deps: AppDeps): Express {
   app.use(codebookImportPath, codebookImportBodyParser);
   app.use('/api', requireKnownBodyType, express.json({ limit: '1mb', verify: rejectInvalidUtf8 }));
 
-  const { passport, authenticate } = createAuthenticator({
+  const { passport, authenticate, identify } = createAuthenticator({
     verifyOptions: deps.sessions.verifyOptions,
     sessionUser: (claims) => services.accounts.sessionUser(claims),
   });
   app.use(passport.initialize());
 
-  const limiterOptions = { limit: config.loginRateLimit, windowMs: config.loginRateWindowMs };
+  const account = { limit: config.accountRateLimit, windowMs: config.accountRateWindowMs };
   const routeDeps: RouteDeps = {
     ...services,
     authenticate,
+    identify,
     requireTeamRole: requireTeamRoleFactory(services.teams),
     sessionTtlSeconds: deps.sessions.ttlSeconds,
-    loginLimiter: attemptLimiter({ ...limiterOptions, message: 'Too many sign-in attempts; wait a few minutes and try again' }),
-    resetLimiter: attemptLimiter({ ...limiterOptions, message: 'Too many reset requests; wait a few minutes and try again' }),
+    limiters: {
+      login: addressLimiter({
+        limit: config.loginRateLimit,
+        windowMs: config.loginRateWindowMs,
+        failuresOnly: true,
+        message: 'Too many failed sign-ins from your network; wait a few minutes and try again',
+      }),
+      signup: addressLimiter({ ...account, message: 'Too many sign-up requests from your network; try again later' }),
+      signupComplete: addressLimiter({ ...account, message: 'Too many sign-up attempts from your network; try again later' }),
+      resetRequest: addressLimiter({ ...account, message: 'Too many reset requests from your network; try again later' }),
+      resetConfirm: addressLimiter({ ...account, message: 'Too many password reset attempts from your network; try again later' }),
+    },
   };
 
   app.use('/api/health', healthRouter(routeDeps));

@@ -10,13 +10,18 @@ import {
   createImageSetsService,
   createImageUploadsService,
   createInvitationsService,
-  createMailService,
+  createLoginThrottle,
+  createMailSender,
+  createMailTransport,
   createOutboxService,
   createReconstructionsService,
+  createPasswordHasher,
   createRunsService,
   createSessionTokens,
   createStoreSweeper,
   createTeamsService,
+  type MailSender,
+  type PasswordHasher,
   type StoreSweeper,
 } from './services';
 import { createContentStore, type ContentStore } from './storage/content-store';
@@ -42,13 +47,25 @@ export interface Composition extends AppDeps {
   jobs: { queue: JobQueue; bus: JobEventBus; pool: TaskPool; runner: JobRunner; deps: JobDeps };
   /** Pool threads of the reconstruction views (RECONSTRUCTION_MAX_CONCURRENT), apart from the jobs' so neither waits for the other. */
   reconstructionPool: TaskPool;
-  /** Waits for background mail, then closes SMTP transport and the pool. */
+  /** Delivers queued mail after commit (started by server/index.ts, or by a test). */
+  mail: MailSender;
+  /** Stops the runner, the sweep and the mail sender, then closes the pools, the SMTP transport and the database. */
   close(): Promise<void>;
 }
 
+export interface ComposeOptions {
+  logger?: Logger;
+  db?: Database;
+  /** The clock of sessions, one-time links, sign-in backoff and mail retries (tests move it by hand). */
+  now?: () => Date;
+  /** Password hashing (tests wrap it to see when it runs). */
+  passwords?: PasswordHasher;
+}
+
 /** Builds every repository and service once; the app, the seed and the tests share these instances. */
-export function compose(config: Config, options: { logger?: Logger; db?: Database } = {}): Composition {
+export function compose(config: Config, options: ComposeOptions = {}): Composition {
   const logger = options.logger ?? createLogger(config.logLevel);
+  const now = options.now ?? (() => new Date());
   // One thread budget for everything the engine runs in this process, sized once from ENGINE_THREADS.
   threadBudget.configure(config.engineThreads);
   const db =
@@ -58,17 +75,20 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
       error: (m) => logger.error({ knex: String(m) }, 'database error'),
     });
   const sessions = createSessionTokens(config.jwt);
-  const mail = createMailService(config);
+  const transport = createMailTransport(config);
+  const mail = createMailSender({ db, transport, logger, now, ...config.mailQueue });
   const accounts = createAccountsService({
     db,
     sessions,
     mail,
+    passwords: options.passwords ?? createPasswordHasher(config.bcryptCost),
+    throttle: createLoginThrottle({ ...config.loginBackoff, now }),
     logger,
-    bcryptCost: config.bcryptCost,
     publicUrl: config.publicUrl,
+    now,
   });
   const teams = createTeamsService({ db });
-  const invitations = createInvitationsService({ db, mail, sessions, accounts, publicUrl: config.publicUrl });
+  const invitations = createInvitationsService({ db, mail, accounts, publicUrl: config.publicUrl, now });
   const outbox = createOutboxService({ db });
   const health = createHealthService({ db, version: appVersion() });
   const contentStore = createContentStore(config.dataDir);
@@ -110,6 +130,7 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
     storeSweeper,
     jobs: { queue, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
+    mail,
     services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
@@ -117,8 +138,10 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
       await storeSweeper.stop();
       await pool.destroy();
       await reconstructionPool.destroy();
-      await accounts.settle();
-      mail.close();
+      // Background requests finish writing their rows; mail still queued is sent by the next start.
+      await accounts.flush();
+      await mail.stop();
+      transport.close();
       await db.destroy();
     },
   };

@@ -81,7 +81,7 @@ async function main(): Promise<void> {
     if (config.smtp.fake) {
       if (config.nodeEnv === 'production') {
         logger.warn(
-          'FAKE_SMTP is on: mail is captured, not delivered, and team admins can read it in the outbox (reset links included); set FAKE_SMTP=false and SMTP_HOST for real use',
+          'FAKE_SMTP is on: mail is captured in the database, not delivered (the operator reads it with `npm run mail`); set FAKE_SMTP=false and SMTP_HOST for real use',
         );
       }
       smtp = await startFakeSmtpServer({
@@ -91,6 +91,8 @@ async function main(): Promise<void> {
         store: (message) => db.transaction((tx) => tx.outbox.insert(message)),
       });
     }
+    // After migrations (its table) and the capture server (its first pass may deliver mail queued before a stop).
+    composition.mail.start();
     // After migrations (the queue's tables) and mail (jobs notify their creators when they finish).
     await composition.jobs.runner.start();
     // The first pass waits a little, so a restart loop never spends its start-up walking the store.

@@ -1,5 +1,6 @@
 import { randomBytes } from 'node:crypto';
 import { chmodSync, existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { isIP } from 'node:net';
 import { availableParallelism } from 'node:os';
 import path from 'node:path';
 import { z } from 'zod';
@@ -44,6 +45,36 @@ const originList = z
   .transform((v) => (v ?? '').split(',').map((s) => s.trim()).filter((s) => s !== ''))
   .pipe(z.array(webOrigin));
 
+/**
+ * Express's 'trust proxy': off, a hop count, or the proxies' addresses/subnets (or the names loopback, linklocal,
+ * uniquelocal). `true` is refused: it would believe any client's X-Forwarded-For, so anyone could pick the
+ * address the rate limits count.
+ */
+const proxyNames = new Set(['loopback', 'linklocal', 'uniquelocal']);
+const trustProxy = z
+  .string()
+  .optional()
+  .transform((v, ctx): false | number | string[] => {
+    const value = (v ?? '').trim();
+    if (value === '' || /^(0|false|no|off)$/i.test(value)) return false;
+    if (/^[1-9][0-9]?$/.test(value)) return Number(value);
+    if (/^(1|true|yes|on)$/i.test(value)) {
+      ctx.addIssue({ code: 'custom', message: 'TRUST_PROXY=true would trust any X-Forwarded-For; give the proxy address (e.g. loopback) or a hop count' });
+      return z.NEVER;
+    }
+    const entries = value.split(',').map((e) => e.trim());
+    for (const entry of entries) {
+      const [address, prefix, extra] = entry.split('/');
+      const okAddress = proxyNames.has(address) ? prefix === undefined : isIP(address) !== 0;
+      const okPrefix = prefix === undefined || (/^\d{1,3}$/.test(prefix) && Number(prefix) <= (isIP(address) === 6 ? 128 : 32));
+      if (!okAddress || !okPrefix || extra !== undefined) {
+        ctx.addIssue({ code: 'custom', message: `TRUST_PROXY entry "${entry}" is not an IP address, a subnet or loopback/linklocal/uniquelocal` });
+        return z.NEVER;
+      }
+    }
+    return entries;
+  });
+
 const schema = z.object({
   PORT: port(8420),
   HOST: z.string().min(1).default('127.0.0.1'),
@@ -71,7 +102,16 @@ const schema = z.object({
   LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).optional(),
   SEED_DEMO: flag(true),
   SERVE_CLIENT: optionalString,
-  LOGIN_RATE_LIMIT: z.coerce.number().int().min(1).default(10),
+  TRUST_PROXY: trustProxy,
+  // Failed sign-ins per client address per 15 minutes, whatever the e-mail (a password spray counts too).
+  LOGIN_RATE_LIMIT: z.coerce.number().int().min(1).default(20),
+  // Per client address per hour, counted separately for sign-up requests, sign-up completions, reset requests
+  // and reset confirmations.
+  ACCOUNT_RATE_LIMIT: z.coerce.number().int().min(1).default(10),
+  // Longest wait one account's consecutive failed sign-ins can impose (the delay doubles up to it).
+  LOGIN_BACKOFF_MAX_SECONDS: z.coerce.number().int().min(1).max(3600).default(60),
+  MAIL_MAX_ATTEMPTS: z.coerce.number().int().min(1).max(50).default(8),
+  MAIL_RETRY_BASE_SECONDS: z.coerce.number().int().min(1).default(30),
   JOB_CONCURRENCY: z.coerce.number().int().min(1).default(1),
   // A task that outgrows this heap fails its job instead of taking the server's memory with it.
   JOB_TASK_MAX_HEAP_MB: z.coerce.number().int().min(32).default(4096),
@@ -125,9 +165,18 @@ export interface Config {
   readonly logLevel: string;
   readonly seedDemo: boolean;
   readonly serveClient: boolean;
-  /** Sign-in attempts allowed per IP + e-mail within loginRateWindowMs. */
+  /** Express 'trust proxy': false (the default), a hop count, or the proxies' addresses and subnets. */
+  readonly trustProxy: false | number | readonly string[];
+  /** Failed sign-ins allowed per client address within loginRateWindowMs, across e-mails. */
   readonly loginRateLimit: number;
   readonly loginRateWindowMs: number;
+  /** Sign-up, sign-up completion, reset and reset-confirm requests allowed per client address within accountRateWindowMs (each counted apart). */
+  readonly accountRateLimit: number;
+  readonly accountRateWindowMs: number;
+  /** Per-account delay after consecutive failed sign-ins: free attempts, then baseMs doubling up to maxMs. */
+  readonly loginBackoff: { readonly freeAttempts: number; readonly baseMs: number; readonly maxMs: number };
+  /** Delivery of queued mail: attempts before giving up, and the first retry delay (doubling, at most an hour). */
+  readonly mailQueue: { readonly maxAttempts: number; readonly retryBaseMs: number; readonly retryMaxMs: number };
   readonly jobConcurrency: number;
   /** Old-generation heap limit of each job pool thread, in MiB. */
   readonly jobTaskMaxHeapMb: number;
@@ -213,8 +262,15 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     logLevel: e.LOG_LEVEL ?? (e.NODE_ENV === 'test' ? 'silent' : 'info'),
     seedDemo: e.SEED_DEMO,
     serveClient,
+    trustProxy: e.TRUST_PROXY,
     loginRateLimit: e.LOGIN_RATE_LIMIT,
     loginRateWindowMs: 15 * 60 * 1000,
+    accountRateLimit: e.ACCOUNT_RATE_LIMIT,
+    accountRateWindowMs: 60 * 60 * 1000,
+    // Five free attempts leave room for typos; then 1 s, 2 s, 4 s … (common practice for progressive delays,
+    // OWASP Authentication Cheat Sheet, "Account Lockout").
+    loginBackoff: { freeAttempts: 5, baseMs: 1000, maxMs: e.LOGIN_BACKOFF_MAX_SECONDS * 1000 },
+    mailQueue: { maxAttempts: e.MAIL_MAX_ATTEMPTS, retryBaseMs: e.MAIL_RETRY_BASE_SECONDS * 1000, retryMaxMs: 60 * 60 * 1000 },
     jobConcurrency: e.JOB_CONCURRENCY,
     jobTaskMaxHeapMb: e.JOB_TASK_MAX_HEAP_MB,
     engineThreads: e.ENGINE_THREADS ?? availableParallelism(),

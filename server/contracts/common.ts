@@ -18,7 +18,18 @@ export const role = z.enum(roles);
 export type Role = z.infer<typeof role>;
 
 export const email = z.string().trim().toLowerCase().max(254).email();
-/** Long enough to matter, short enough that bcrypt (72-byte input) sees all of it. */
-export const password = z.string().min(10, 'Password must be at least 10 characters').max(72);
+/** bcrypt reads at most 72 bytes of its input and ignores the rest (the OpenBSD bcrypt paper; bcryptjs does the same). */
+export const passwordMaxBytes = 72;
+const utf8Length = (s: string) => new TextEncoder().encode(s).length;
+/**
+ * Long enough to matter, short enough that bcrypt sees all of it: the cap is in UTF-8 bytes, not characters,
+ * since a letter outside ASCII takes 2–4 bytes and characters past byte 72 would silently not count.
+ */
+export const password = z
+  .string()
+  .min(10, 'Password must be at least 10 characters')
+  .refine((v) => utf8Length(v) <= passwordMaxBytes, {
+    message: `Password must be at most ${passwordMaxBytes} bytes in UTF-8 (letters outside A–Z count 2–4 bytes each)`,
+  });
 export const personName = z.string().trim().min(1).max(120);
 export const teamName = z.string().trim().min(1).max(120);

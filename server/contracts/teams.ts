@@ -34,17 +34,24 @@ export const createInvitationBody = z.object({ email, role }).strict();
 export const invitationParams = z.object({ teamId: pathId, invitationId: pathId });
 /** DELETE /api/teams/:teamId/invitations/:invitationId (admin) → 204 (revokes) */
 
+/** Mail a team's own actions caused (its invitations, its job notices), with how its delivery went. */
 export const outboxMessage = z.object({
   id: z.number().int(),
-  from: z.string(),
-  to: z.array(z.string()),
+  kind: z.string(),
+  to: z.string(),
   subject: z.string(),
-  text: z.string(),
-  html: z.string().nullable(),
-  receivedAt: z.string(),
+  text: z.string().nullable(),
+  status: z.enum(['queued', 'sent', 'failed']),
+  attempts: z.number().int(),
+  lastError: z.string().nullable(),
+  createdAt: z.string(),
+  sentAt: z.string().nullable(),
 });
 export type OutboxMessage = z.infer<typeof outboxMessage>;
-/** GET /api/teams/:teamId/outbox (admin): messages the local fake SMTP server captured for this team's members and invitees */
+/**
+ * GET /api/teams/:teamId/outbox (admin): the team's own mail, newest first. Account mail (sign-up links,
+ * password resets) belongs to no team and is never listed; the operator reads captured mail with `npm run mail`.
+ */
 export const outboxResponse = z.object({ messages: z.array(outboxMessage) });
 
 /** PATCH /api/teams/:teamId/members/:userId → 200 */

@@ -10,17 +10,29 @@ import { imageSetsRepository } from './repositories/image-sets';
 import { imagesRepository } from './repositories/images';
 import { invitationsRepository } from './repositories/invitations';
 import { jobsRepository } from './repositories/jobs';
+import { mailQueueRepository } from './repositories/mail-queue';
 import { membershipsRepository } from './repositories/memberships';
 import { outboxRepository } from './repositories/outbox';
 import { passwordResetsRepository } from './repositories/password-resets';
 import { reconstructionsRepository } from './repositories/reconstructions';
 import { runsRepository } from './repositories/runs';
+import { sessionsRepository } from './repositories/sessions';
+import { signupLinksRepository } from './repositories/signup-links';
 import { teamsRepository } from './repositories/teams';
 import { usersRepository } from './repositories/users';
 
-function buildRepositories(db: Executor) {
+function buildRepositories(db: Executor, afterCommit: (callback: () => void) => void) {
   return {
+    /**
+     * Runs callback once the surrounding transaction has committed (never when it rolls back); outside a
+     * transaction each statement commits by itself, so the callback runs at once. Callbacks must not throw:
+     * they run after the commit, when the caller's work can no longer be undone.
+     */
+    afterCommit,
     users: translated(usersRepository(db)),
+    sessions: translated(sessionsRepository(db)),
+    signupLinks: translated(signupLinksRepository(db)),
+    mailQueue: translated(mailQueueRepository(db)),
     teams: translated(teamsRepository(db)),
     memberships: translated(membershipsRepository(db)),
     invitations: translated(invitationsRepository(db)),
@@ -83,13 +95,17 @@ export function createDatabase(settings: DbSettings, pool?: { min?: number; max?
 export function wrapKnex(knex: Knex): Database {
   return {
     knex,
-    repos: buildRepositories(knex),
+    repos: buildRepositories(knex, (callback) => callback()),
     async transaction(fn) {
+      const committed: (() => void)[] = [];
+      let result;
       try {
-        return await knex.transaction((trx) => fn(buildRepositories(trx)));
+        result = await knex.transaction((trx) => fn(buildRepositories(trx, (callback) => committed.push(callback))));
       } catch (err) {
         throw translateDbError(err);
       }
+      for (const callback of committed) callback();
+      return result;
     },
     async withNamedLock(name, waitSeconds, fn) {
       // Named locks are server-wide; the database name keeps two databases on one server apart.

@@ -7,6 +7,8 @@ export class AppError extends Error {
     readonly status: number,
     message: string,
     readonly details?: unknown,
+    /** Sent as Retry-After (RFC 9110 §10.2.3) with the answer: how long the client should wait. */
+    readonly retryAfterSeconds?: number,
   ) {
     super(message);
     this.name = 'AppError';
@@ -26,8 +28,8 @@ export const tokenRevoked = (message: string) => new AppError('token_revoked', 4
 export const payloadTooLarge = (message = 'Request body is too large') =>
   new AppError('payload_too_large', 413, message);
 export const unsupportedMediaType = (message: string) => new AppError('unsupported_media_type', 415, message);
-export const rateLimited = (message = 'Too many attempts; try again later') =>
-  new AppError('rate_limited', 429, message);
+export const rateLimited = (message = 'Too many attempts; try again later', retryAfterSeconds?: number) =>
+  new AppError('rate_limited', 429, message, retryAfterSeconds === undefined ? undefined : { retryAfterSeconds }, retryAfterSeconds);
 export const serviceUnavailable = (message = 'The database is unavailable; try again shortly') =>
   new AppError('service_unavailable', 503, message);
 export const internal = (message = 'Something went wrong on our side') => new AppError('internal', 500, message);

@@ -9,6 +9,8 @@ declare global {
     interface Request {
       /** Set by requireTeamRole: the caller's membership of req.params.teamId. */
       membership?: { teamId: number; role: Role };
+      /** Set by authenticate/identify: the id (JWT jti) of the live session the request's token names. */
+      sessionId?: string;
       /** Set by validate: the parsed body, query and params. */
       valid?: { body?: unknown; query?: unknown; params?: unknown };
     }

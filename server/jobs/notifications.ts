@@ -1,6 +1,7 @@
 import type { JobState } from '../contracts';
 import type { Database } from '../db';
 import type { MailContent } from '../mail/templates';
+import type { MailOutbox } from '../services/mail-queue';
 import type { Job } from './queue';
 
 const escapeHtml = (s: string) =>
@@ -25,14 +26,17 @@ ${lines.map((l) => `<p>${escapeHtml(l)}</p>`).join('\n')}
   return { subject, text, html };
 }
 
-/** Tells a job's creator that it finished or failed; cancellation needs no mail, the person did it. */
-export function createJobNotifier(deps: { db: Database; mail: { send(to: string, content: MailContent): Promise<void> }; publicUrl: string }) {
+/**
+ * Tells a job's creator that it finished or failed; cancellation needs no mail, the person did it. The notice is
+ * queued (the team's mail, shown in its Outbox) and delivered by the mail sender, never from the job's slot.
+ */
+export function createJobNotifier(deps: { db: Database; mail: MailOutbox; publicUrl: string }) {
   return async (job: Job, state: JobState, error: string | null): Promise<void> => {
     if ((state !== 'succeeded' && state !== 'failed') || job.createdBy === null) return;
     const user = await deps.db.repos.users.findById(job.createdBy);
     if (!user) return;
     const run = job.runId ? await deps.db.repos.runs.findById(job.runId) : null;
     const link = run ? `${deps.publicUrl}/teams/${job.teamId}/runs/${run.id}` : `${deps.publicUrl}/teams/${job.teamId}/codebooks`;
-    await deps.mail.send(user.email, jobFinishedMail({ job, state, runName: run?.name ?? null, error, link }));
+    await deps.mail.enqueue(deps.db.repos, { teamId: job.teamId, kind: 'job_finished', to: user.email, content: jobFinishedMail({ job, state, runName: run?.name ?? null, error, link }) });
   };
 }

@@ -44,3 +44,26 @@ export function passwordResetMail(input: { name: string; link: string; expiresAt
     html: layout([intro], { href: input.link, label: 'Choose a new password' }, `${expiry} ${ignore}`),
   };
 }
+
+export function signupLinkMail(input: { link: string; expiresAt: Date }): MailContent {
+  const intro = 'Someone (we hope you) asked to create a Cellwright account with this e-mail address.';
+  const expiry = `The link works once and expires on ${input.expiresAt.toISOString().slice(0, 16).replace('T', ' ')} UTC.`;
+  const ignore = 'If it was not you, ignore this message: no account is made without the link.';
+  return {
+    subject: 'Finish creating your Cellwright account',
+    text: `${intro}\n\nChoose your name, password and team:\n${input.link}\n\n${expiry}\n${ignore}\n`,
+    html: layout([intro], { href: input.link, label: 'Finish creating your account' }, `${expiry} ${ignore}`),
+  };
+}
+
+/** The answer to a sign-up for an address that already has an account: the owner learns of it, nobody else does. */
+export function signupExistingMail(input: { name: string; signInLink: string; resetLink: string }): MailContent {
+  const intro = `Hello ${input.name}, someone tried to create a new Cellwright account with this e-mail address, which already has one.`;
+  const help = `Sign in at ${input.signInLink}. Forgot your password? Ask for a reset link at ${input.resetLink}.`;
+  const ignore = 'If it was not you, you can ignore this message: nothing about your account changed.';
+  return {
+    subject: 'You already have a Cellwright account',
+    text: `${intro}\n\n${help}\n\n${ignore}\n`,
+    html: layout([intro, help], { href: input.signInLink, label: 'Sign in' }, ignore),
+  };
+}

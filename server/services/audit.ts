@@ -11,6 +11,7 @@ export type AuditAction =
   | 'invitation.accepted'
   | 'password_reset.requested'
   | 'password_reset.completed'
+  | 'password.changed'
   | 'image_set.created'
   | 'image_set.deleted'
   | 'image_set.split'

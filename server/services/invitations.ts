@@ -1,20 +1,18 @@
-import type { Invitation, InvitationPreview, Role, User } from '../contracts';
+import type { AcceptInvitationBody, AcceptInvitationResponse, Invitation, InvitationPreview, Role, User } from '../contracts';
 import type { Database } from '../db';
-import { conflict, notFound, tokenExpired, tokenRevoked, tokenUsed, validationFailed } from '../errors';
+import { conflict, forbidden, notFound, tokenExpired, tokenRevoked, tokenUsed, unauthenticated, validationFailed } from '../errors';
 import { invitationMail } from '../mail/templates';
-import { publicUser, type AccountsService } from './accounts';
+import { publicUser, type AccountsService, type Caller } from './accounts';
 import { recordAudit } from './audit';
-import type { MailService } from './mail';
+import type { MailOutbox } from './mail-queue';
 import { hashToken, newOneTimeToken } from './one-time-tokens';
-import type { SessionTokens } from './session-tokens';
 
 export const invitationTtlMs = 7 * 24 * 60 * 60 * 1000;
 
 export interface InvitationsDeps {
   db: Database;
-  mail: MailService;
-  sessions: SessionTokens;
-  accounts: Pick<AccountsService, 'hashPassword'>;
+  mail: MailOutbox;
+  accounts: Pick<AccountsService, 'hashPassword' | 'startSession'>;
   publicUrl: string;
   now?: () => Date;
 }
@@ -31,12 +29,23 @@ export function createInvitationsService(deps: InvitationsDeps) {
     }
   }
 
+  /**
+   * An address with an account joins only by that account's own session: the link alone proves nothing about
+   * who holds it (a team's admins can read it in their Outbox), so it never signs anyone in to an existing account.
+   */
+  function ensureCallerIs(existing: { id: number; email: string }, caller: Caller | null): void {
+    if (!caller) throw unauthenticated(`Sign in as ${existing.email} to accept this invitation`);
+    if (caller.user.id !== existing.id) {
+      throw forbidden(`This invitation is for ${existing.email}; you are signed in as ${caller.user.email}. Sign in as the invited address to accept it`);
+    }
+  }
+
   return {
     async list(teamId: number): Promise<Invitation[]> {
       return deps.db.repos.invitations.listForTeam(teamId);
     },
 
-    /** Creates the invitation and sends its link; when the mail cannot be sent nothing is kept. */
+    /** Creates the invitation and queues its mail in the same transaction; the mail leaves after the commit. */
     async create(teamId: number, actor: User, input: { email: string; role: Role }): Promise<Invitation> {
       const { token, hash } = newOneTimeToken();
       const expiresAt = new Date(now().getTime() + invitationTtlMs);
@@ -65,16 +74,12 @@ export function createInvitationsService(deps: InvitationsDeps) {
           targetId: inv.id,
           details: { email: inv.email, role: inv.role },
         });
-        await deps.mail.send(
-          inv.email,
-          invitationMail({
-            teamName: team.name,
-            inviterName: actor.name,
-            role: inv.role,
-            link: `${deps.publicUrl}/invite/${token}`,
-            expiresAt,
-          }),
-        );
+        await deps.mail.enqueue(tx, {
+          teamId,
+          kind: 'invitation',
+          to: inv.email,
+          content: invitationMail({ teamName: team.name, inviterName: actor.name, role: inv.role, link: `${deps.publicUrl}/invite/${token}`, expiresAt }),
+        });
         return inv.id;
       });
       const created = (await deps.db.repos.invitations.listForTeam(teamId)).find((i) => i.id === id);
@@ -110,49 +115,56 @@ export function createInvitationsService(deps: InvitationsDeps) {
     },
 
     /**
-     * Holding the link proves control of the invited address: an existing account joins the team,
-     * otherwise a new account is made from name + password. The row lock makes the link single-use.
+     * An existing account joins by its own session (see ensureCallerIs); a new address gets an account made from
+     * name + password, and only then a session. The row lock makes the link single-use.
      */
-    async accept(token: string, input: { name?: string; password?: string }) {
+    async accept(token: string, input: AcceptInvitationBody, caller: Caller | null): Promise<AcceptInvitationResponse> {
       const tokenHash = hashToken(token);
-      // Hash outside the transaction: bcrypt is slow and row locks should be short.
       const peek = await deps.db.repos.invitations.findByTokenHash(tokenHash);
       if (!peek) throw notFound('Invitation');
       ensureUsable(peek);
       const existingBefore = await deps.db.repos.users.findByEmail(peek.email);
       let passwordHash: string | undefined;
-      if (!existingBefore) {
+      if (existingBefore) ensureCallerIs(existingBefore, caller);
+      else {
         const missing = [
           ...(input.name ? [] : [{ path: 'name', message: 'Your name is needed to create the account' }]),
           ...(input.password ? [] : [{ path: 'password', message: 'Choose a password for the new account' }]),
         ];
         if (missing.length > 0) throw validationFailed('A new account needs a name and a password', missing);
+        // Hash outside the transaction: bcrypt is slow and row locks should be short.
         passwordHash = await deps.accounts.hashPassword(input.password!);
       }
-      const user = await deps.db.transaction(async (tx) => {
+      return deps.db.transaction(async (tx) => {
         const inv = await tx.invitations.findByTokenHash(tokenHash, { forUpdate: true });
         if (!inv) throw notFound('Invitation');
         ensureUsable(inv);
+        const team = await tx.teams.findById(inv.teamId);
+        if (!team) throw notFound('Invitation');
         let account = await tx.users.findByEmail(inv.email);
-        if (!account) {
+        let token: string | undefined;
+        if (account) {
+          ensureCallerIs(account, caller);
+        } else {
           if (!passwordHash) throw conflict('The account changed while accepting; try again');
           account = await tx.users.create({ email: inv.email, name: input.name!, passwordHash });
           await recordAudit(tx, { teamId: null, actorUserId: account.id, action: 'user.signed_up', targetType: 'user', targetId: account.id });
+          token = await deps.accounts.startSession(tx, account);
         }
         const membership = await tx.memberships.find(inv.teamId, account.id);
         if (!membership) await tx.memberships.create({ teamId: inv.teamId, userId: account.id, role: inv.role });
         await tx.invitations.markAccepted(inv.id, account.id, now());
+        const role = membership?.role ?? inv.role;
         await recordAudit(tx, {
           teamId: inv.teamId,
           actorUserId: account.id,
           action: 'invitation.accepted',
           targetType: 'invitation',
           targetId: inv.id,
-          details: { role: membership?.role ?? inv.role },
+          details: { role },
         });
-        return account;
+        return { user: publicUser(account), team: { id: team.id, name: team.name, role }, ...(token ? { token } : {}) };
       });
-      return { user: publicUser(user), token: deps.sessions.issue(user), teamId: peek.teamId };
     },
   };
 }

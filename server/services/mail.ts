@@ -1,14 +1,15 @@
 import nodemailer, { type Transporter } from 'nodemailer';
 import type { Config } from '../config';
-import { AppError } from '../errors';
 import type { MailContent } from '../mail/templates';
 
-export interface MailService {
+/** One SMTP delivery; only the mail sender (services/mail-queue.ts) calls it, never a request or a transaction. */
+export interface MailTransport {
+  /** Resolves once the SMTP server accepted the message; rejects with nodemailer's error (responseCode when the server answered). */
   send(to: string, content: MailContent): Promise<void>;
   close(): void;
 }
 
-export function createMailService(config: Pick<Config, 'smtp' | 'mailFrom'>): MailService {
+export function createMailTransport(config: Pick<Config, 'smtp' | 'mailFrom'>): MailTransport {
   const transport: Transporter = nodemailer.createTransport({
     host: config.smtp.host,
     port: config.smtp.port,
@@ -22,13 +23,7 @@ export function createMailService(config: Pick<Config, 'smtp' | 'mailFrom'>): Ma
   });
   return {
     async send(to, content) {
-      try {
-        await transport.sendMail({ from: config.mailFrom, to, subject: content.subject, text: content.text, html: content.html });
-      } catch (err) {
-        throw new AppError('service_unavailable', 503, 'The e-mail could not be sent; try again shortly', {
-          reason: (err as { code?: string }).code ?? 'smtp_error',
-        });
-      }
+      await transport.sendMail({ from: config.mailFrom, to, subject: content.subject, text: content.text, html: content.html });
     },
     close() {
       transport.close();

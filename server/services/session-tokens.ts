@@ -1,10 +1,13 @@
-import { createSecretKey, type KeyObject } from 'node:crypto';
+import { createSecretKey, randomBytes, type KeyObject } from 'node:crypto';
 import jwt from 'jsonwebtoken';
 
-/** Claims of the session JWT (RFC 7519): sub is the user id, tv the user's token version. */
+/**
+ * Claims of the session JWT (RFC 7519): sub is the user id, jti the id of the server-side session row
+ * (§4.1.7), which is what makes a token revocable before its exp.
+ */
 export interface SessionClaims {
   sub: string;
-  tv: number;
+  jti: string;
 }
 
 export const jwtAlgorithm = 'HS256' as const;
@@ -16,8 +19,12 @@ export function createSessionTokens(options: { secret: string; ttlSeconds: numbe
   const key: KeyObject = createSecretKey(Buffer.from(options.secret, 'utf8'));
   return {
     ttlSeconds: options.ttlSeconds,
-    issue(user: { id: number; tokenVersion: number }): string {
-      const claims: SessionClaims = { sub: String(user.id), tv: user.tokenVersion };
+    /** 16 random bytes (128 bits, base64url): a session id nobody can guess. */
+    newSessionId(): string {
+      return randomBytes(16).toString('base64url');
+    },
+    sign(session: { userId: number; sessionId: string }): string {
+      const claims: SessionClaims = { sub: String(session.userId), jti: session.sessionId };
       return jwt.sign(claims, key, {
         algorithm: jwtAlgorithm,
         expiresIn: options.ttlSeconds,

@@ -37,6 +37,8 @@ export function createRoutes(queryClient: QueryClient): RouteObject[] {
       children: [
         { path: paths.signIn, ...page(queryClient, () => import('./routes/sign-in')) },
         { path: paths.signUp, ...page(queryClient, () => import('./routes/sign-up')) },
+        { path: paths.signUpFinish, ...page(queryClient, () => import('./routes/sign-up-finish')) },
+        { path: paths.accountPassword, ...page(queryClient, () => import('./routes/account-password')) },
         { path: paths.forgotPassword, ...page(queryClient, () => import('./routes/forgot-password')) },
         { path: paths.resetPassword, ...page(queryClient, () => import('./routes/reset-password')) },
         { path: paths.invitation, ...page(queryClient, () => import('./routes/accept-invitation')) },

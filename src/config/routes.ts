@@ -4,6 +4,8 @@ import type { Role } from '../../server/contracts';
 export const paths = {
   signIn: '/sign-in',
   signUp: '/sign-up',
+  signUpFinish: '/sign-up/:token',
+  accountPassword: '/account/password',
   forgotPassword: '/forgot-password',
   resetPassword: '/reset-password/:token',
   invitation: '/invite/:token',
@@ -26,9 +28,17 @@ export const paths = {
 type TeamId = number | string;
 
 export const href = {
-  signIn: (returnTo?: string) =>
-    returnTo && returnTo !== '/' ? `${paths.signIn}?returnTo=${encodeURIComponent(returnTo)}` : paths.signIn,
+  /** `email` fills the address in (an invitation knows which account must sign in). */
+  signIn: (returnTo?: string, email?: string) => {
+    const query = [
+      ...(returnTo && returnTo !== '/' ? [`returnTo=${encodeURIComponent(returnTo)}`] : []),
+      ...(email ? [`email=${encodeURIComponent(email)}`] : []),
+    ];
+    return query.length > 0 ? `${paths.signIn}?${query.join('&')}` : paths.signIn;
+  },
   signUp: () => paths.signUp,
+  signUpFinish: (token: string) => `/sign-up/${encodeURIComponent(token)}`,
+  accountPassword: () => paths.accountPassword,
   forgotPassword: () => paths.forgotPassword,
   resetPassword: (token: string) => `/reset-password/${encodeURIComponent(token)}`,
   invitation: (token: string) => `/invite/${encodeURIComponent(token)}`,

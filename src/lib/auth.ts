@@ -8,13 +8,15 @@ export function isPublicPath(pathname: string): boolean {
 
 /**
  * Accepts only a path on this origin, so a crafted `?returnTo=https://elsewhere` link cannot turn
- * the sign-in page into an open redirect; public pages are not worth returning to.
+ * the sign-in page into an open redirect; public pages are not worth returning to, except an invitation,
+ * which an existing account accepts once signed in.
  */
 export function safeReturnTo(value: string | null | undefined): string | null {
   if (!value || !value.startsWith('/') || value.startsWith('//') || value.includes('\\')) return null;
   try {
     const url = new URL(value, 'http://cellwright.invalid');
-    if (url.origin !== 'http://cellwright.invalid' || isPublicPath(url.pathname)) return null;
+    if (url.origin !== 'http://cellwright.invalid') return null;
+    if (isPublicPath(url.pathname) && !url.pathname.startsWith('/invite/')) return null;
     return `${url.pathname}${url.search}${url.hash}`;
   } catch {
     return null;

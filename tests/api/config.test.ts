@@ -24,7 +24,12 @@ describe('configuration', () => {
     expect(c.smtp).toMatchObject({ host: '127.0.0.1', port: 2526, secure: false, fake: true });
     expect(c.bcryptCost).toBe(12);
     expect(c.jwt.ttlSeconds).toBe(43_200);
-    expect(c.loginRateLimit).toBe(10);
+    expect(c.loginRateLimit).toBe(20);
+    expect(c.accountRateLimit).toBe(10);
+    expect(c.loginBackoff).toEqual({ freeAttempts: 5, baseMs: 1000, maxMs: 60_000 });
+    expect(c.mailQueue).toEqual({ maxAttempts: 8, retryBaseMs: 30_000, retryMaxMs: 3_600_000 });
+    // Off unless named: X-Forwarded-* from any client would otherwise choose req.ip and req.secure.
+    expect(c.trustProxy).toBe(false);
     expect(c.serveClient).toBe(false);
     expect(c.seedDemo).toBe(true);
   });
@@ -69,5 +74,16 @@ describe('configuration', () => {
     expect(c.seedDemo).toBe(false);
     expect(c.publicUrl).toBe('http://127.0.0.1:9000');
     expect(loadConfig({ DATA_DIR: tempDir(), NODE_ENV: 'production', SERVE_CLIENT: 'false' }).serveClient).toBe(false);
+  });
+
+  it('reads TRUST_PROXY as a hop count or the proxies\' addresses, and refuses true or a malformed entry', () => {
+    const dir = tempDir();
+    expect(loadConfig({ DATA_DIR: dir, TRUST_PROXY: 'loopback' }).trustProxy).toEqual(['loopback']);
+    expect(loadConfig({ DATA_DIR: dir, TRUST_PROXY: '1' }).trustProxy).toBe(1);
+    expect(loadConfig({ DATA_DIR: dir, TRUST_PROXY: '10.0.0.0/8, ::1' }).trustProxy).toEqual(['10.0.0.0/8', '::1']);
+    expect(loadConfig({ DATA_DIR: dir, TRUST_PROXY: 'off' }).trustProxy).toBe(false);
+    for (const bad of ['true', '10.0.0.0/33', 'proxy.example', 'loopback/8']) {
+      expect(() => loadConfig({ DATA_DIR: dir, TRUST_PROXY: bad }), bad).toThrow(/TRUST_PROXY/);
+    }
   });
 });

@@ -1,8 +1,9 @@
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { invitationPreview, invitationsResponse, outboxResponse } from '../../server/contracts';
+import { acceptInvitationResponse, invitationPreview, invitationsResponse, outboxResponse } from '../../server/contracts';
 import { bearer, createTestApp, signUp, testPassword, uniqueEmail, type Session, type TestApp } from '../helpers/api';
-import { linkToken, mailFor, waitForMail } from '../helpers/mailbox';
+import { manualClock } from '../helpers/clock';
+import { linkToken, waitForMail } from '../helpers/mailbox';
 
 let t: TestApp;
 let admin: Session;
@@ -63,17 +64,21 @@ describe('invitations', () => {
     expect(login.status).toBe(200);
   });
 
-  it('lets an existing account join by the link, keeping its password', async () => {
+  it('lets an existing account join by the link while signed in as itself, keeping its password and session', async () => {
     const other = await signUp(t.app, { teamName: 'Elsewhere' });
     await invite(other.user.email, 'viewer');
-    const { token } = linkToken(await waitForMail(t.db.knex, other.user.email), 'invite');
+    const { token } = linkToken(await waitForMail(t.db.knex, other.user.email, { subject: /invited/i }), 'invite');
     const preview = await request(t.app).get(`/api/invitations/${token}`);
     expect(preview.body.existingAccount).toBe(true);
-    const accepted = await request(t.app).post(`/api/invitations/${token}/accept`).send({});
+    const anonymous = await request(t.app).post(`/api/invitations/${token}/accept`).send({});
+    expect(anonymous.status).toBe(401);
+    expect(anonymous.body.error.message).toBe(`Sign in as ${other.user.email} to accept this invitation`);
+    const accepted = await request(t.app).post(`/api/invitations/${token}/accept`).set('Cookie', other.cookie).send({});
     expect(accepted.status).toBe(200);
-    expect(accepted.body.user.id).toBe(other.user.id);
+    expect(acceptInvitationResponse.parse(accepted.body)).toEqual({ user: expect.objectContaining({ id: other.user.id }), team: { id: admin.teamId, name: 'Reef Thumbnails', role: 'viewer' } });
     const me = await request(t.app).get('/api/me').set(bearer(other));
     expect(me.body.teams.map((x: { role: string }) => x.role).sort()).toEqual(['admin', 'viewer']);
+    expect((await request(t.app).post('/api/auth/login').send({ email: other.user.email, password: testPassword })).status).toBe(200);
   });
 
   it('refuses a revoked invitation with 410 token_revoked and hides it from the list', async () => {
@@ -134,38 +139,58 @@ describe('invitations', () => {
     expect(res.status).toBe(409);
   });
 
-  it('keeps nothing when the invitation e-mail cannot be sent', async () => {
-    const broken = await createTestApp({ SMTP_PORT: '1' });
+  it('keeps the invitation and its queued mail while SMTP is down, and delivers the mail once SMTP is back', async () => {
+    const clock = manualClock();
+    const broken = await createTestApp({ MAIL_RETRY_BASE_SECONDS: '60' }, { smtp: false, now: clock.now });
     try {
-      const owner = await signUp(broken.app);
+      // An account made directly: signing up needs mail, which is what is down here.
+      const hash = await broken.composition.services.accounts.hashPassword(testPassword);
+      const owner = await broken.composition.db.transaction(async (tx) => {
+        const user = await tx.users.create({ email: uniqueEmail('owner'), name: 'Owner', passwordHash: hash });
+        const team = await tx.teams.create('Offline Lab');
+        await tx.memberships.create({ teamId: team.id, userId: user.id, role: 'admin' });
+        return { user, team };
+      });
+      const token = (await request(broken.app).post('/api/auth/login').send({ email: owner.user.email, password: testPassword })).body.token as string;
       const email = uniqueEmail('unsent');
-      const res = await request(broken.app)
-        .post(`/api/teams/${owner.teamId}/invitations`)
-        .set(bearer(owner))
-        .send({ email, role: 'viewer' });
-      expect(res.status).toBe(503);
-      expect(res.body.error.code).toBe('service_unavailable');
-      expect(await broken.db.knex('invitations').where({ email }).first()).toBeUndefined();
+      const res = await request(broken.app).post(`/api/teams/${owner.team.id}/invitations`).set(bearer({ token })).send({ email, role: 'viewer' });
+      expect(res.status).toBe(201);
+      await broken.composition.mail.drain();
+      const queued = await broken.db.knex('mail_queue').where({ recipient: email }).first();
+      expect(queued).toMatchObject({ status: 'queued', attempts: 1, team_id: owner.team.id, kind: 'invitation' });
+      expect(queued.last_error).toMatch(/ECONNREFUSED/);
+      expect(await broken.db.knex('invitations').where({ email }).first()).toBeDefined();
+
+      await broken.startSmtp();
+      clock.advance(60_000);
+      await broken.composition.mail.drain();
+      const mail = await waitForMail(broken.db.knex, email, { subject: /invited/i });
+      expect(linkToken(mail, 'invite').token).toMatch(/^[A-Za-z0-9_-]{43}$/);
+      expect(await broken.db.knex('mail_queue').where({ recipient: email }).first()).toMatchObject({ status: 'sent', attempts: 2 });
     } finally {
       await broken.close();
     }
   });
 
-  it("lists in the outbox the messages sent to the team's invitees, newest first, for admins", async () => {
+  it("lists in the outbox the team's own invitations with their delivery status, newest first, for admins", async () => {
     const email = uniqueEmail('outbox');
     await invite(email, 'viewer');
-    await waitForMail(t.db.knex, email);
+    await t.composition.services.accounts.settle();
     const res = await request(t.app).get(`/api/teams/${admin.teamId}/outbox`).set(bearer(admin));
     const { messages } = outboxResponse.parse(res.body);
-    expect(messages[0].to).toEqual([email]);
+    expect(messages[0]).toMatchObject({ to: email, kind: 'invitation', status: 'sent', attempts: 1, lastError: null });
+    expect(messages[0].text).toContain('/invite/');
     const ids = messages.map((m) => m.id);
     expect(ids).toEqual([...ids].sort((x, y) => y - x));
-    // Mail for people outside the team stays out of its outbox.
+    // Another team's invitations stay out of this team's outbox, and the other way round.
     const outsider = await signUp(t.app, { teamName: 'Outsiders' });
-    await invite(uniqueEmail('theirs'), 'viewer', outsider);
-    const theirs = await mailFor(t.db.knex, (await t.db.knex('invitations').where({ team_id: outsider.teamId }).first()).email);
-    const ours = (await request(t.app).get(`/api/teams/${admin.teamId}/outbox`).set(bearer(admin))).body.messages as { id: number }[];
-    expect(ours.map((m) => m.id)).not.toContain(theirs[0].id);
+    const theirs = uniqueEmail('theirs');
+    await invite(theirs, 'viewer', outsider);
+    await t.composition.services.accounts.settle();
+    const ours = outboxResponse.parse((await request(t.app).get(`/api/teams/${admin.teamId}/outbox`).set(bearer(admin))).body).messages;
+    expect(ours.map((m) => m.to)).not.toContain(theirs);
+    const outsiders = outboxResponse.parse((await request(t.app).get(`/api/teams/${outsider.teamId}/outbox`).set(bearer(outsider))).body).messages;
+    expect(outsiders.map((m) => m.to)).toEqual([theirs]);
   });
 });
 

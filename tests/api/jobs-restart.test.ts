@@ -5,7 +5,7 @@ import { createMariaDbQueue } from '../../server/jobs/mariadb-queue';
 import { MAX_ATTEMPTS } from '../../server/jobs/queue';
 import { seabedSet } from '../../server/seed/seabed-tiles';
 import { createTestDatabase } from '../helpers/db';
-import { startServer, type StartedServer } from '../helpers/server';
+import { signUpOn, startServer, type StartedServer } from '../helpers/server';
 
 let server: StartedServer;
 let token: string;
@@ -57,12 +57,7 @@ async function codebookSizes(runId: number): Promise<{ size: number; n: number }
 
 beforeAll(async () => {
   server = await startServer({ SEED_DEMO: 'false', JOB_CONCURRENCY: '1' });
-  const signup = await fetch(`${server.url}/api/auth/signup`, {
-    method: 'POST',
-    headers: { 'Content-Type': 'application/json' },
-    body: JSON.stringify({ email: `restart-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'Restart Tester', teamName: 'Restart Team' }),
-  });
-  const account = (await signup.json()) as { token: string; team: { id: number } };
+  const account = await signUpOn(server, { email: `restart-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'Restart Tester', teamName: 'Restart Team' });
   token = account.token;
   teamId = account.team.id;
   setId = (await api('POST', `/api/teams/${teamId}/image-sets`, { name: 'Survey' })).body.imageSet.id;

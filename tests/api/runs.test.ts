@@ -164,9 +164,15 @@ describe('a training run', () => {
     }
   });
 
-  it('mails the creator when its jobs finish', async () => {
+  it("mails the creator when its jobs finish, as the team's own mail in its Outbox", async () => {
     const mail = await waitForMail(t.db.knex, team.engineer.user.email, { subject: /Training finished: Sweep 4x4 luma/ });
     expect(mail.text).toContain(`/teams/${team.teamId}/runs/${runId}`);
+    await t.composition.services.accounts.settle();
+    const outbox = await request(t.app).get(`/api/teams/${team.teamId}/outbox`).set(bearer(team.admin));
+    const notice = (outbox.body.messages as { kind: string; to: string; subject: string; status: string }[]).find(
+      (m) => m.kind === 'job_finished' && m.subject.startsWith('Training finished'),
+    );
+    expect(notice).toMatchObject({ to: team.engineer.user.email, subject: expect.stringMatching(/Training finished: Sweep 4x4 luma/), status: 'sent' });
   });
 
   it('lists the run with its creator and best operating point', async () => {

@@ -55,7 +55,7 @@ describe('inviting a member through the browser', () => {
 
     await page.getByRole('navigation', { name: 'Team' }).getByRole('link', { name: 'Outbox' }).click();
     await page.waitForURL(/\/outbox$/);
-    const messages = page.getByRole('region', { name: 'Captured messages' });
+    const messages = page.getByRole('region', { name: 'Team mail' });
     // The capture server stores the message as it arrives; refresh until it is listed.
     await expect
       .poll(async () => {

@@ -128,7 +128,7 @@ describe('signing in through the browser', () => {
     await page.getByRole('navigation', { name: 'Team' }).getByRole('link', { name: 'Outbox' }).click();
     await page.waitForURL(/\/outbox$/);
     const outboxPath = new URL(page.url()).pathname;
-    await expect.poll(() => page.getByRole('region', { name: 'Captured messages' }).isVisible()).toBe(true);
+    await expect.poll(() => page.getByRole('region', { name: 'Team mail' }).isVisible()).toBe(true);
 
     // The cookie disappears as it would on expiry; the next query answers 401.
     await context.clearCookies();

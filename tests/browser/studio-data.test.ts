@@ -2,6 +2,7 @@ import { crc32 } from 'node:zlib';
 import sharp from 'sharp';
 import type { Page } from 'playwright-core';
 import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { linkToken, waitForMail } from '../helpers/mailbox';
 import { startServer, type StartedServer } from '../helpers/server';
 import { launchBrowser, saveScreenshot, type BrowserSession } from './browser';
 
@@ -281,11 +282,18 @@ describe('studio data screens in a real browser', () => {
     browser = await launchBrowser({ viewport: { width: 1280, height: 720 } });
     const { page } = browser;
     await page.goto(`${server.url}/sign-up`);
-    await page.getByLabel('Your name').fill('Maren Quill');
     await page.getByLabel('Work e-mail').fill('maren@lanternfish.test');
-    await page.getByLabel('Password').fill('lanternfish-lead-1');
-    await page.getByLabel('Team name').fill('Lanternfish Optics');
-    await page.getByRole('button', { name: /create/i }).click();
+    await page.getByRole('button', { name: 'Send sign-up link' }).click();
+    await expect.poll(() => page.getByRole('status').textContent()).toContain('Check your inbox');
+    // The link from the captured mail, as the operator reads it (`npm run mail`).
+    const mail = await waitForMail(server.db.knex, 'maren@lanternfish.test', { subject: /finish creating/i });
+    await page.goto(linkToken(mail, 'sign-up').url);
+    const finish = page.getByRole('form', { name: 'Finish creating your account' });
+    await finish.getByLabel('Your name').fill('Maren Quill');
+    await finish.getByLabel('Password', { exact: true }).fill('lanternfish-lead-1');
+    await finish.getByLabel('Repeat password').fill('lanternfish-lead-1');
+    await finish.getByLabel('Team name').fill('Lanternfish Optics');
+    await finish.getByRole('button', { name: 'Create team' }).click();
     await page.waitForURL(/\/teams\/\d+$/);
     const main = page.getByRole('main');
     const firstStep = main.getByRole('link', { name: 'Upload a training set' });

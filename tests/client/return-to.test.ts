@@ -14,6 +14,11 @@ describe('safeReturnTo', () => {
 
   it('does not return to public pages such as sign-in itself', () => {
     expect(safeReturnTo('/sign-in?returnTo=/teams/1')).toBeNull();
-    expect(safeReturnTo('/invite/abc')).toBeNull();
+    expect(safeReturnTo('/sign-up/abc')).toBeNull();
+    expect(safeReturnTo('/reset-password/abc')).toBeNull();
+  });
+
+  it('returns to an invitation, which an existing account accepts once signed in', () => {
+    expect(safeReturnTo('/invite/abc_DEF-123')).toBe('/invite/abc_DEF-123');
   });
 });

@@ -142,3 +142,23 @@ export async function startServer(overrides: Record<string, string> = {}): Promi
     },
   };
 }
+
+/**
+ * Signs up on a spawned server as a person would: asks for the link, reads it from the mail the server's capture
+ * stored (as the operator's `npm run mail` would) and finishes with name, password and team name.
+ */
+export async function signUpOn(
+  server: Pick<StartedServer, 'url' | 'db'>,
+  account: { email: string; password: string; name: string; teamName: string },
+): Promise<{ token: string; user: { id: number; email: string; name: string }; team: { id: number; name: string; role: string } }> {
+  const { linkToken, mailFor, waitForMail } = await import('./mailbox');
+  const post = (p: string, body: unknown) =>
+    fetch(`${server.url}${p}`, { method: 'POST', headers: { 'Content-Type': 'application/json' }, body: JSON.stringify(body) });
+  const afterId = (await mailFor(server.db.knex, account.email))[0]?.id ?? 0;
+  const asked = await post('/api/auth/signup', { email: account.email });
+  if (asked.status !== 202) throw new Error(`signup answered ${asked.status}: ${await asked.text()}`);
+  const { token } = linkToken(await waitForMail(server.db.knex, account.email, { subject: /finish creating/i, afterId }), 'sign-up');
+  const done = await post('/api/auth/signup/complete', { token, name: account.name, password: account.password, teamName: account.teamName });
+  if (done.status !== 201) throw new Error(`signup completion answered ${done.status}: ${await done.text()}`);
+  return (await done.json()) as Awaited<ReturnType<typeof signUpOn>>;
+}

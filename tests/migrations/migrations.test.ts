@@ -73,6 +73,9 @@ describe('migrations', () => {
     expect(rule('audit_log', 'team_id')).toBe('SET NULL');
     expect(rule('audit_log', 'actor_user_id')).toBe('SET NULL');
     expect(rule('outbox_recipients', 'message_id')).toBe('CASCADE');
+    // A user's sessions go with the user; a team's queued mail with the team (account mail has no team).
+    expect(rule('sessions', 'user_id')).toBe('CASCADE');
+    expect(rule('mail_queue', 'team_id')).toBe('CASCADE');
   });
 
   it('keeps e-mail addresses and one-time token hashes unique', async () => {
@@ -83,7 +86,14 @@ describe('migrations', () => {
     )) as [{ t: string; c: string }[]];
     const unique = rows.map((r) => `${r.t}.${r.c}`);
     expect(unique).toEqual(
-      expect.arrayContaining(['users.email', 'invitations.token_hash', 'password_resets.token_hash', 'memberships.team_id', 'memberships.user_id']),
+      expect.arrayContaining([
+        'users.email',
+        'invitations.token_hash',
+        'password_resets.token_hash',
+        'signup_links.token_hash',
+        'memberships.team_id',
+        'memberships.user_id',
+      ]),
     );
   });
 });

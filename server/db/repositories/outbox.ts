@@ -1,4 +1,3 @@
-import type { OutboxMessage } from '../../contracts';
 import { iso, parseJson } from '../rows';
 import { insertedId, type Executor } from './executor';
 
@@ -12,6 +11,17 @@ export interface CapturedMessage {
   raw: Buffer;
 }
 
+/** A message as the local capture server stored it; read by the operator (npm run mail) and tests, never by a team. */
+export interface StoredMessage {
+  id: number;
+  from: string;
+  to: string[];
+  subject: string;
+  text: string;
+  html: string | null;
+  receivedAt: string;
+}
+
 interface OutboxRow {
   id: number;
   envelope_from: string;
@@ -22,7 +32,7 @@ interface OutboxRow {
   received_at: Date;
 }
 
-const toMessage = (r: OutboxRow): OutboxMessage => ({
+const toMessage = (r: OutboxRow): StoredMessage => ({
   id: r.id,
   from: r.envelope_from,
   to: parseJson<string[]>(r.envelope_to) ?? [],
@@ -53,27 +63,15 @@ export function outboxRepository(db: Executor) {
       if (to.length > 0) await db('outbox_recipients').insert(to.map((address) => ({ message_id: id, address })));
       return id;
     },
-    /** Messages addressed to anyone who is, or was invited to be, in the team; newest first. */
-    async listForTeam(teamId: number, limit = 200): Promise<OutboxMessage[]> {
-      const rows = (await db('outbox_messages as m')
-        .whereExists(function () {
-          this.select(db.raw('1'))
-            .from('outbox_recipients as r')
-            .whereRaw('r.message_id = m.id')
-            .where(function () {
-              this.whereIn(
-                'r.address',
-                db('memberships as ms').join('users as u', 'u.id', 'ms.user_id').where('ms.team_id', teamId).select('u.email'),
-              ).orWhereIn('r.address', db('invitations as i').where('i.team_id', teamId).select('i.email'));
-            });
-        })
-        .orderBy('m.id', 'desc')
-        .limit(limit)
-        .select(listColumns)) as OutboxRow[];
+    /** The newest captured messages, optionally only those for one address; newest first. */
+    async listRecent(options: { to?: string; limit?: number } = {}): Promise<StoredMessage[]> {
+      const q = db('outbox_messages as m');
+      if (options.to) q.whereExists(db('outbox_recipients as r').select(db.raw('1')).whereRaw('r.message_id = m.id').andWhere('r.address', options.to.toLowerCase()));
+      const rows = (await q.orderBy('m.id', 'desc').limit(options.limit ?? 10).select(listColumns)) as OutboxRow[];
       return rows.map(toMessage);
     },
     /** Every message for one address, newest first; used by tests and the demo tools. */
-    async listForAddress(address: string, limit = 50): Promise<OutboxMessage[]> {
+    async listForAddress(address: string, limit = 50): Promise<StoredMessage[]> {
       const rows = (await db('outbox_messages as m')
         .join('outbox_recipients as r', 'r.message_id', 'm.id')
         .where('r.address', address.toLowerCase())

@@ -2,16 +2,16 @@ import type { KeyObject } from 'node:crypto';
 import type { Request, RequestHandler } from 'express';
 import { Passport } from 'passport';
 import { ExtractJwt, Strategy as JwtStrategy } from 'passport-jwt';
-import type { User } from '../../contracts';
 import { unauthenticated } from '../../errors';
-import type { SessionClaims } from '../../services';
+import type { Caller, SessionClaims } from '../../services';
 
 export const sessionCookieName = 'cw_session';
 
 export interface AuthenticateDeps {
   /** `key` is built once (crypto.createSecretKey): a string would be re-derived into a key on every request. */
   verifyOptions: { key: KeyObject; algorithms: ['HS256'] | string[]; issuer: string };
-  sessionUser(claims: Partial<SessionClaims>): Promise<User | null>;
+  /** The caller a verified token names, or null when its session is revoked or expired or its user gone. */
+  sessionUser(claims: Partial<SessionClaims>): Promise<Caller | null>;
 }
 
 const fromCookie = (req: Request): string | null => {
@@ -33,24 +33,32 @@ export function createAuthenticator(deps: AuthenticateDeps) {
         algorithms: deps.verifyOptions.algorithms as ['HS256'],
         issuer: deps.verifyOptions.issuer,
       },
-      (payload: Partial<SessionClaims>, done: (err: unknown, user?: User | false) => void) => {
+      (payload: Partial<SessionClaims>, done: (err: unknown, caller?: Caller | false) => void) => {
         deps
           .sessionUser(payload)
-          .then((user) => done(null, user ?? false))
+          .then((caller) => done(null, caller ?? false))
           .catch((err: unknown) => done(err));
       },
     ),
   );
 
-  /** 401 JSON when the request carries no valid session for an existing user. */
-  const authenticate: RequestHandler = (req, res, next) => {
-    passport.authenticate('jwt', { session: false }, (err: unknown, user: User | false) => {
-      if (err) return next(err);
-      if (!user) return next(unauthenticated());
-      req.user = user;
-      next();
-    })(req, res, next);
-  };
+  /** Sets req.user and req.sessionId from a live session; `required` answers 401 when there is none. */
+  const identifyWith =
+    (required: boolean): RequestHandler =>
+    (req, res, next) => {
+      passport.authenticate('jwt', { session: false }, (err: unknown, caller: Caller | false) => {
+        if (err) return next(err);
+        if (!caller) return required ? next(unauthenticated()) : next();
+        req.user = caller.user;
+        req.sessionId = caller.sessionId;
+        next();
+      })(req, res, next);
+    };
 
-  return { passport, authenticate };
+  /** 401 JSON when the request carries no live session of an existing user. */
+  const authenticate = identifyWith(true);
+  /** The same for routes open to everyone that act differently for a signed-in caller (sign-out, invitations). */
+  const identify = identifyWith(false);
+
+  return { passport, authenticate, identify };
 }

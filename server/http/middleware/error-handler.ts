@@ -61,6 +61,7 @@ export const errorHandler: ErrorRequestHandler = (err, req, res, next) => {
   } else if (appError.status >= 500) {
     req.log?.warn({ err }, appError.message);
   }
+  if (appError.retryAfterSeconds !== undefined) res.set('Retry-After', String(appError.retryAfterSeconds));
   const body: ErrorBody = { error: { code: appError.code, message: appError.message } };
   if (appError.details !== undefined) body.error.details = appError.details;
   res.status(appError.status).json(body);

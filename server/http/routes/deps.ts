@@ -34,9 +34,18 @@ export interface Services {
 }
 
 export interface RouteDeps extends Services {
+  /** 401 without a live session; sets req.user and req.sessionId. */
   authenticate: RequestHandler;
+  /** Sets req.user and req.sessionId when there is a live session, and lets the request through either way. */
+  identify: RequestHandler;
   requireTeamRole: RequireTeamRole;
   sessionTtlSeconds: number;
-  loginLimiter: RequestHandler;
-  resetLimiter: RequestHandler;
+  /** Per client address (see middleware/rate-limit.ts); each counts apart. */
+  limiters: {
+    login: RequestHandler;
+    signup: RequestHandler;
+    signupComplete: RequestHandler;
+    resetRequest: RequestHandler;
+    resetConfirm: RequestHandler;
+  };
 }

@@ -1,34 +1,28 @@
-import { useQueryClient } from '@tanstack/react-query';
+import { useQuery } from '@tanstack/react-query';
 import { Link, useNavigate, useParams } from 'react-router-dom';
 import { rememberTeam } from '../../lib/auth';
 import { meQueryOptions } from '../../features/auth/api/get-me';
+import { useSignOut } from '../../features/auth/api/sign-out';
 import { href } from '../../config/routes';
 import { isApiError, messageOf } from '../../lib/api-client';
 import { AuthLayout } from '../../components/layouts/auth-layout';
 import { LoadingState, ErrorState } from '../../components/ui/states';
 import { useInvitation } from '../../features/invitations/api/get-invitation';
-import { AcceptInvitationPanel } from '../../features/invitations/components/accept-invitation-panel';
+import { AcceptInvitationPanel, type SignedInAs } from '../../features/invitations/components/accept-invitation-panel';
 
 // No loader: an expired or unknown token is an expected outcome shown in the page, not a route error.
 export function Component() {
   const { token = '' } = useParams();
   const navigate = useNavigate();
   const invitation = useInvitation(token);
-  const queryClient = useQueryClient();
+  // Whether this browser is signed in, and as whom: an existing account accepts only as itself.
+  const me = useQuery({ ...meQueryOptions(), meta: { redirectOnUnauthenticated: false } });
+  const signOut = useSignOut();
   // 410 says why a one-time link is spent (accepted, revoked, expired); 404 means it never existed.
   const spent = isApiError(invitation.error) && (invitation.error.status === 410 || invitation.error.status === 404);
-
-  // The accept answer names the user, not the team; land in the team just joined, found by its name.
-  const onAccepted = async () => {
-    const teamName = invitation.data?.teamName;
-    try {
-      const me = await queryClient.fetchQuery(meQueryOptions());
-      const joined = me.teams.find((team) => team.name === teamName);
-      if (joined) rememberTeam(joined.id);
-    } finally {
-      navigate(href.home(), { replace: true });
-    }
-  };
+  const signedInAs: SignedInAs = me.data ? me.data.user.email : me.isError ? null : undefined;
+  const here = href.invitation(token);
+  const signInHref = href.signIn(here, invitation.data?.email);
 
   return (
     <AuthLayout
@@ -56,7 +50,18 @@ export function Component() {
         />
       )}
       {invitation.data && (
-        <AcceptInvitationPanel token={token} preview={invitation.data} onAccepted={() => void onAccepted()} />
+        <AcceptInvitationPanel
+          token={token}
+          preview={invitation.data}
+          signedInAs={signedInAs}
+          signInHref={signInHref}
+          switching={signOut.isPending}
+          onSwitchAccount={() => signOut.mutate(undefined, { onSettled: () => navigate(signInHref) })}
+          onAccepted={({ team }) => {
+            rememberTeam(team.id);
+            navigate(href.team(team.id), { replace: true });
+          }}
+        />
       )}
     </AuthLayout>
   );

@@ -8,10 +8,17 @@ export function Component() {
   const navigate = useNavigate();
   const [params] = useSearchParams();
   const returnTo = safeReturnTo(params.get('returnTo'));
+  const toInvitation = returnTo?.startsWith('/invite/') ?? false;
   return (
     <AuthLayout
       title="Sign in"
-      description={returnTo ? 'Your session has ended. Sign in to continue where you were.' : 'Welcome back to the studio.'}
+      description={
+        toInvitation
+          ? 'Sign in with the invited address; you go back to the invitation to accept it.'
+          : returnTo
+            ? 'Your session has ended. Sign in to continue where you were.'
+            : 'Welcome back to the studio.'
+      }
       aside={
         <>
           New to Cellwright?{' '}
@@ -23,7 +30,7 @@ export function Component() {
       }
     >
       <title>Sign in · Cellwright</title>
-      <SignInForm onSignedIn={() => navigate(returnTo ?? href.home(), { replace: true })} />
+      <SignInForm defaultEmail={params.get('email') ?? ''} onSignedIn={() => navigate(returnTo ?? href.home(), { replace: true })} />
     </AuthLayout>
   );
 }

@@ -1,15 +1,13 @@
-import { Link, useNavigate } from 'react-router-dom';
+import { Link } from 'react-router-dom';
 import { href } from '../../config/routes';
-import { rememberTeam } from '../../lib/auth';
 import { AuthLayout } from '../../components/layouts/auth-layout';
 import { SignUpForm } from '../../features/auth/components/sign-up-form';
 
 export function Component() {
-  const navigate = useNavigate();
   return (
     <AuthLayout
       title="Create a team"
-      description="A team holds image sets, training runs and codebooks. You can invite colleagues once it exists."
+      description="A team holds image sets, training runs and codebooks. Start with your e-mail address; you can invite colleagues once the team exists."
       aside={
         <>
           Already have an account?{' '}
@@ -20,12 +18,7 @@ export function Component() {
       }
     >
       <title>Create a team · Cellwright</title>
-      <SignUpForm
-        onSignedUp={({ team }) => {
-          rememberTeam(team.id);
-          navigate(href.team(team.id), { replace: true });
-        }}
-      />
+      <SignUpForm />
     </AuthLayout>
   );
 }

@@ -30,14 +30,14 @@ export function Component() {
       <PageHeader
         eyebrow={team.name}
         title="Outbox"
-        description="E-mail the server captured for this team instead of delivering it: invitations and password resets. Open a message to follow its links."
+        description="Mail this team's actions caused (its invitations, notices of finished jobs) and whether it was delivered. Open a message to read it."
         actions={
           <Button variant="secondary" size="sm" onClick={() => void outbox.refetch()} pending={outbox.isFetching && !outbox.isPending}>
             Refresh
           </Button>
         }
       />
-      <Panel title="Captured messages" titleId="outbox-messages" description={outbox.data ? plural(outbox.data.messages.length, 'message') : undefined}>
+      <Panel title="Team mail" titleId="outbox-messages" description={outbox.data ? plural(outbox.data.messages.length, 'message') : undefined}>
         {outbox.isPending && <LoadingState label="Loading messages…" />}
         {outbox.isError && <ErrorState message={messageOf(outbox.error)} onRetry={() => void outbox.refetch()} />}
         {outbox.data && <OutboxList messages={outbox.data.messages} />}

@@ -7,7 +7,7 @@ import path from 'node:path';
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { seabedSet } from '../../../server/seed/seabed-tiles';
-import { startServer, type StartedServer } from '../../helpers/server';
+import { signUpOn, startServer, type StartedServer } from '../../helpers/server';
 
 let server: StartedServer;
 let token: string;
@@ -130,12 +130,7 @@ function whenProgress(runId: number, accept: (p: { phase: string; fraction?: num
 
 beforeAll(async () => {
   server = await startServer({ SEED_DEMO: 'false', JOB_CONCURRENCY: '1' });
-  const signup = await fetch(`${server.url}/api/auth/signup`, {
-    method: 'POST',
-    headers: { 'Content-Type': 'application/json' },
-    body: JSON.stringify({ email: `crash-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'Crash Tester', teamName: 'Crash Team' }),
-  });
-  const account = (await signup.json()) as { token: string; team: { id: number } };
+  const account = await signUpOn(server, { email: `crash-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'Crash Tester', teamName: 'Crash Team' });
   token = account.token;
   teamId = account.team.id;
   setId = (await api('POST', `/api/teams/${teamId}/image-sets`, { name: 'Survey' })).body.imageSet.id;

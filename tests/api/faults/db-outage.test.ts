@@ -9,7 +9,7 @@ import { fileURLToPath } from 'node:url';
 import { promisify } from 'node:util';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { getFreePort } from '../../helpers/ports';
-import { startServer, type StartedServer } from '../../helpers/server';
+import { signUpOn, startServer, type StartedServer } from '../../helpers/server';
 
 const run = promisify(execFile);
 const root = fileURLToPath(new URL('../../..', import.meta.url));
@@ -41,12 +41,7 @@ beforeAll(async () => {
       else process.env[k] = v;
     }
   }
-  const signup = await fetch(`${server.url}/api/auth/signup`, {
-    method: 'POST',
-    headers: { 'Content-Type': 'application/json' },
-    body: JSON.stringify({ email: `outage-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'Outage', teamName: 'Outage Team' }),
-  });
-  const account = (await signup.json()) as { token: string; team: { id: number } };
+  const account = await signUpOn(server, { email: `outage-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'Outage', teamName: 'Outage Team' });
   token = account.token;
   teamId = account.team.id;
 });

@@ -6,19 +6,14 @@
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { seabedSet } from '../../../server/seed/seabed-tiles';
-import { startServer } from '../../helpers/server';
+import { signUpOn, startServer } from '../../helpers/server';
 
 type RunBody = { id: number; state: string; error: string | null; jobs: { state: string; error: string | null }[] };
 
 /** A server with its own account, team and a split set of seabed tiles (plus any extra training tiles given). */
 async function studio(env: Record<string, string>, extra: { width: number; height: number }[] = []) {
   const server = await startServer({ SEED_DEMO: 'false', ...env });
-  const signup = await fetch(`${server.url}/api/auth/signup`, {
-    method: 'POST',
-    headers: { 'Content-Type': 'application/json' },
-    body: JSON.stringify({ email: `memory-${process.pid}-${server.port}@example.test`, password: 'correct-horse-battery', name: 'Memory', teamName: 'Memory Team' }),
-  });
-  const account = (await signup.json()) as { token: string; team: { id: number } };
+  const account = await signUpOn(server, { email: `memory-${process.pid}-${server.port}@example.test`, password: 'correct-horse-battery', name: 'Memory', teamName: 'Memory Team' });
   const api = async (method: string, p: string, body?: unknown) => {
     const res = await fetch(`${server.url}${p}`, {
       method,

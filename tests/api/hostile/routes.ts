@@ -2,7 +2,7 @@
 // A route missing here is untested by both: tests/api/hostile/route-table.test.ts checks the table against
 // the routers mounted in server/app.ts.
 import { addMember, type Session } from '../../helpers/api';
-import { codebookDocument, newImage, newInvitation, newInvitationToken, newRun, newSet, pngTile, runBody, type World } from './world';
+import { codebookDocument, newImage, newInvitation, newInvitationToken, newRun, newSet, newSignupToken, pngTile, runBody, type World } from './world';
 
 /**
  * public: no session needed. session: any signed-in user. member/engineer/admin: the least team role
@@ -41,9 +41,30 @@ export const routes: RouteCase[] = [
     method: 'POST',
     path: '/api/auth/signup',
     access: 'public',
-    ok: 201,
+    ok: 202,
     body: 'json',
-    valid: () => ({ email: `s-${process.pid}-${++n}@example.test`, password: 'correct-horse-battery', name: 'Signer', teamName: unique('Team') }),
+    valid: () => ({ email: `s-${process.pid}-${++n}@example.test` }),
+    objectScoped: false,
+  },
+  {
+    name: 'preview a sign-up link',
+    method: 'GET',
+    path: '/api/auth/signup/:token',
+    access: 'public',
+    ok: 200,
+    body: 'none',
+    fresh: async (w) => ({ token: await newSignupToken(w) }),
+    objectScoped: false,
+  },
+  {
+    name: 'finish signing up',
+    method: 'POST',
+    path: '/api/auth/signup/complete',
+    access: 'public',
+    // Only a mailed token makes it succeed; the table's valid body is well-formed but unknown.
+    ok: 400,
+    body: 'json',
+    valid: () => ({ token: 'x'.repeat(43), password: 'correct-horse-battery', name: 'Signer', teamName: unique('Team') }),
     objectScoped: false,
   },
   {
@@ -79,6 +100,18 @@ export const routes: RouteCase[] = [
     objectScoped: false,
   },
   { name: 'who am I', method: 'GET', path: '/api/me', access: 'session', ok: 200, body: 'none', objectScoped: false },
+  {
+    name: 'change my password',
+    method: 'POST',
+    path: '/api/me/password',
+    access: 'session',
+    // Only the caller's current password makes it succeed (and would change the world's passwords); the table's
+    // body is well-formed but names a wrong current password.
+    ok: 400,
+    body: 'json',
+    valid: () => ({ currentPassword: 'not-the-current-password', newPassword: 'another-good-passphrase' }),
+    objectScoped: false,
+  },
   { name: 'preview an invitation', method: 'GET', path: '/api/invitations/:token', access: 'public', ok: 200, body: 'none', objectScoped: false },
   {
     name: 'accept an invitation',

@@ -103,6 +103,15 @@ export async function newInvitationToken(w: Pick<World, 't' | 'teamId' | 'admin'
   return linkToken(await waitForMail(w.t.db.knex, invitation.email, { subject: /invited/i }), 'invite').token;
 }
 
+/** A fresh sign-up link's raw token, read from its e-mail. */
+export async function newSignupToken(w: Pick<World, 't'>): Promise<string> {
+  const email = uniqueEmail('signer');
+  const res = await request(w.t.app).post('/api/auth/signup').send({ email });
+  if (res.status !== 202) throw new Error(`signup failed: ${res.status} ${JSON.stringify(res.body)}`);
+  await w.t.composition.services.accounts.settle();
+  return linkToken(await waitForMail(w.t.db.knex, email, { subject: /finish creating/i }), 'sign-up').token;
+}
+
 export async function buildWorld(env: Record<string, string> = {}): Promise<World> {
   const t = await createTestApp(env);
   const admin = await signUp(t.app, { teamName: 'Reef Survey', email: uniqueEmail('admin') });
@@ -138,8 +147,10 @@ export async function buildWorld(env: Record<string, string> = {}): Promise<Worl
 
   const secret = t.composition.config.jwt.secret;
   const now = Math.floor(Date.now() / 1000);
-  const expiredToken = jwt.sign({ sub: String(engineer.user.id), tv: 0, iat: now - 7200, exp: now - 60 }, secret, { algorithm: 'HS256', issuer: 'cellwright' });
-  const foreignKeyToken = jwt.sign({ sub: String(admin.user.id), tv: 0 }, 'another-key-that-the-server-never-saw-0123456789', {
+  // Both name live sessions, so only the expiry and the key make them fail.
+  const jtiOf = (s: Session) => (jwt.decode(s.token) as { jti: string }).jti;
+  const expiredToken = jwt.sign({ sub: String(engineer.user.id), jti: jtiOf(engineer), iat: now - 7200, exp: now - 60 }, secret, { algorithm: 'HS256', issuer: 'cellwright' });
+  const foreignKeyToken = jwt.sign({ sub: String(admin.user.id), jti: jtiOf(admin) }, 'another-key-that-the-server-never-saw-0123456789', {
     algorithm: 'HS256',
     issuer: 'cellwright',
     expiresIn: 600,
@@ -176,13 +187,17 @@ export async function buildWorld(env: Record<string, string> = {}): Promise<Worl
   };
 }
 
-/** Row counts of every table of the app's database, in one round trip. */
+/**
+ * Row counts of every table of the app's database, in one round trip. The capture server's tables (outbox_*) are
+ * left out: they are the recipients' mailbox, filled after a commit by the mail sender, not by the request at hand;
+ * what a request queues shows in mail_queue.
+ */
 export async function rowCounts(w: Pick<World, 't'>): Promise<Record<string, number>> {
   const knex = w.t.db.knex;
   const tables = (await knex('information_schema.tables').where({ table_schema: w.t.db.name, table_type: 'BASE TABLE' }).select('table_name as name')) as {
     name: string;
   }[];
-  const names = tables.map((r) => r.name).sort();
+  const names = tables.map((r) => r.name).filter((n) => !n.startsWith('outbox_')).sort();
   const union = names.map(() => 'SELECT ? AS t, COUNT(*) AS n FROM ??').join(' UNION ALL ');
   const [rows] = (await knex.raw(union, names.flatMap((n) => [n, n]))) as [{ t: string; n: number }[]];
   return Object.fromEntries(rows.map((r) => [r.t, Number(r.n)]));

@@ -1,19 +1,12 @@
-import { useMutation, useQueryClient } from '@tanstack/react-query';
-import { signupResponse, type SignupBody } from '../../../../server/contracts';
+import { useMutation } from '@tanstack/react-query';
+import { acceptedResponse, type SignupRequestBody } from '../../../../server/contracts';
 import { apiRequest } from '../../../lib/api-client';
-import type { z } from 'zod';
 
-export type SignupResult = z.infer<typeof signupResponse>;
-
-export function signUp(body: SignupBody): Promise<SignupResult> {
-  return apiRequest('/auth/signup', { method: 'POST', body, schema: signupResponse });
+/** Always 202: the server mails a link to a new address, or a note to the owner of an existing one. */
+export function requestSignUp(body: SignupRequestBody): Promise<unknown> {
+  return apiRequest('/auth/signup', { method: 'POST', body, schema: acceptedResponse });
 }
 
-export function useSignUp() {
-  const queryClient = useQueryClient();
-  return useMutation({
-    mutationFn: signUp,
-    meta: { redirectOnUnauthenticated: false },
-    onSuccess: () => queryClient.removeQueries(),
-  });
+export function useRequestSignUp() {
+  return useMutation({ mutationFn: requestSignUp, meta: { redirectOnUnauthenticated: false } });
 }

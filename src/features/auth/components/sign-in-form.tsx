@@ -10,13 +10,13 @@ import { TextField } from '../../../components/ui/field';
 import { useSignIn } from '../api/sign-in';
 import { signInFormSchema, type SignInFormValues } from '../schemas';
 
-export function SignInForm({ onSignedIn }: { onSignedIn: (result: LoginResponse) => void }) {
+export function SignInForm({ onSignedIn, defaultEmail = '' }: { onSignedIn: (result: LoginResponse) => void; defaultEmail?: string }) {
   const signIn = useSignIn();
   const form = useForm<SignInFormValues, unknown, { email: string; password: string }>({
     resolver: zodResolver(signInFormSchema),
     // Errors appear once a field is left, then update as the person types.
     mode: 'onTouched',
-    defaultValues: { email: '', password: '' },
+    defaultValues: { email: defaultEmail, password: '' },
   });
   const { errors } = form.formState;
 

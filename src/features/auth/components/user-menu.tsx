@@ -1,11 +1,13 @@
 import { useEffect, useId, useRef, useState } from 'react';
+import { Link } from 'react-router-dom';
 import type { User } from '../../../../server/contracts';
+import { href } from '../../../config/routes';
 import { initialsOf } from '../../../lib/auth';
 import { messageOf } from '../../../lib/api-client';
 import { cx } from '../../../lib/cx';
 import { useSignOut } from '../api/sign-out';
 
-/** Disclosure menu in the header: who is signed in, and the way out. */
+/** Disclosure menu in the header: who is signed in, their password, and the way out. */
 export function UserMenu({ user, onSignedOut }: { user: User; onSignedOut: () => void }) {
   const [open, setOpen] = useState(false);
   const menuId = useId();
@@ -61,6 +63,13 @@ export function UserMenu({ user, onSignedOut }: { user: User; onSignedOut: () =>
           <p className="truncate text-sm text-ink-600">{user.email}</p>
         </div>
         <div className="my-1 h-px bg-ink-100" />
+        <Link
+          to={href.accountPassword()}
+          onClick={() => setOpen(false)}
+          className="flex h-9 w-full items-center rounded-md px-2.5 text-left text-base text-ink-800 hover:bg-ink-50"
+        >
+          Change password
+        </Link>
         {signOut.isError && <p role="alert" className="px-2.5 py-1 text-sm text-danger-700">{messageOf(signOut.error)}</p>}
         <button
           type="button"

@@ -1,12 +1,12 @@
 import { useMutation, useQueryClient } from '@tanstack/react-query';
-import type { z } from 'zod';
-import { loginResponse, type acceptInvitationBody, type LoginResponse } from '../../../../server/contracts';
+import { acceptInvitationResponse, type AcceptInvitationBody, type AcceptInvitationResponse } from '../../../../server/contracts';
 import { apiRequest } from '../../../lib/api-client';
 
-export type AcceptInvitationBody = z.infer<typeof acceptInvitationBody>;
+export type { AcceptInvitationBody };
 
-export function acceptInvitation(token: string, body: AcceptInvitationBody): Promise<LoginResponse> {
-  return apiRequest(`/invitations/${encodeURIComponent(token)}/accept`, { method: 'POST', body, schema: loginResponse });
+/** An existing account sends an empty body with its session; a new one sends name + password and is signed in. */
+export function acceptInvitation(token: string, body: AcceptInvitationBody): Promise<AcceptInvitationResponse> {
+  return apiRequest(`/invitations/${encodeURIComponent(token)}/accept`, { method: 'POST', body, schema: acceptInvitationResponse });
 }
 
 export function useAcceptInvitation(token: string) {
@@ -14,7 +14,7 @@ export function useAcceptInvitation(token: string) {
   return useMutation({
     mutationFn: (body: AcceptInvitationBody) => acceptInvitation(token, body),
     meta: { redirectOnUnauthenticated: false },
-    // Accepting signs the invitee in, possibly as someone other than whoever used this browser before.
+    // The account has a new team (or a new account is signed in): cached answers are out of date.
     onSuccess: () => queryClient.removeQueries(),
   });
 }

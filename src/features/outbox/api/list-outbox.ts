@@ -14,7 +14,7 @@ export const outboxQueryOptions = (teamId: number) =>
   queryOptions({
     queryKey: outboxKeys.list(teamId),
     queryFn: ({ signal }) => listOutbox(teamId, { signal }),
-    // Messages arrive from other people's actions (invitations, resets); a short staleness keeps the list current.
+    // Delivery status changes after the page loads (mail leaves after its transaction commits); keep the list current.
     staleTime: 5_000,
   });
 

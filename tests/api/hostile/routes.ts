@@ -1,6 +1,23 @@
 // The one table of every API route, shared by the hostile-input properties and the access matrix.
 // A route missing here is untested by both: tests/api/hostile/route-table.test.ts checks the table against
 // the routers mounted in server/app.ts.
+import type { ZodType } from 'zod';
+import {
+  acceptInvitationBody,
+  createImageSetBody,
+  createInvitationBody,
+  createRunBody,
+  evaluateCodebookBody,
+  loginBody,
+  passwordResetConfirmBody,
+  passwordResetRequestBody,
+  signupBody,
+  splitImageSetBody,
+  updateImageBody,
+  updateImageSetBody,
+  updateMemberBody,
+} from '../../../server/contracts';
+import { codebookDocumentSchema } from '../../../server/engine';
 import { addMember, type Session } from '../../helpers/api';
 import { codebookDocument, newImage, newInvitation, newInvitationToken, newRun, newSet, pngTile, runBody, type World } from './world';
 
@@ -23,6 +40,18 @@ export interface RouteCase {
   body: BodyKind;
   /** A valid JSON body (or multipart files). */
   valid?: (w: World) => unknown;
+  /**
+   * The zod schema the JSON body is validated with: the hostile-input test gives every field it names
+   * (optional ones too) each JSON type the field does not accept.
+   */
+  schema?: ZodType;
+  /** The most bytes the route's JSON parser takes, when not the API-wide jsonBodyLimit. */
+  bodyLimit?: number;
+  /**
+   * A successful call ends sessions (sign-out; a password change ends the others): the tests make it with a
+   * session of its own, never with the world's long-lived tokens.
+   */
+  revokesSessions?: boolean;
   /** A valid query string, without "?". */
   query?: (w: World) => string;
   /** Makes a fresh target for calls that consume it (deletes, cancels), before every call. */
@@ -31,8 +60,15 @@ export interface RouteCase {
   objectScoped: boolean;
 }
 
+/**
+ * The API-wide JSON body limit (express.json's '1mb' in server/app.ts, 1 MiB in its byte parser); a body past
+ * a route's limit must be refused whatever the route.
+ */
+export const jsonBodyLimit = 1024 * 1024;
+
+// A counter, not the clock: each test file has a database of its own, and the same run sends the same bodies.
 let n = 0;
-const unique = (p: string) => `${p} ${process.pid}-${Date.now()}-${++n}`;
+const unique = (p: string) => `${p} ${++n}`;
 
 export const routes: RouteCase[] = [
   { name: 'health', method: 'GET', path: '/api/health', access: 'public', ok: 200, body: 'none', objectScoped: false },
@@ -43,7 +79,8 @@ export const routes: RouteCase[] = [
     access: 'public',
     ok: 201,
     body: 'json',
-    valid: () => ({ email: `s-${process.pid}-${++n}@example.test`, password: 'correct-horse-battery', name: 'Signer', teamName: unique('Team') }),
+    valid: () => ({ email: `s-${++n}@example.test`, password: 'correct-horse-battery', name: 'Signer', teamName: unique('Team') }),
+    schema: signupBody,
     objectScoped: false,
   },
   {
@@ -54,9 +91,10 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: (w) => ({ email: w.viewer.user.email, password: 'correct-horse-battery' }),
+    schema: loginBody,
     objectScoped: false,
   },
-  { name: 'sign out', method: 'POST', path: '/api/auth/logout', access: 'public', ok: 204, body: 'none', objectScoped: false },
+  { name: 'sign out', method: 'POST', path: '/api/auth/logout', access: 'public', ok: 204, body: 'none', revokesSessions: true, objectScoped: false },
   {
     name: 'request a password reset',
     method: 'POST',
@@ -65,6 +103,7 @@ export const routes: RouteCase[] = [
     ok: 202,
     body: 'json',
     valid: () => ({ email: `nobody-${++n}@example.test` }),
+    schema: passwordResetRequestBody,
     objectScoped: false,
   },
   {
@@ -76,6 +115,7 @@ export const routes: RouteCase[] = [
     ok: 400,
     body: 'json',
     valid: () => ({ token: 'x'.repeat(43), password: 'correct-horse-battery' }),
+    schema: passwordResetConfirmBody,
     objectScoped: false,
   },
   { name: 'who am I', method: 'GET', path: '/api/me', access: 'session', ok: 200, body: 'none', objectScoped: false },
@@ -88,6 +128,7 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: () => ({ name: 'Invitee', password: 'correct-horse-battery' }),
+    schema: acceptInvitationBody,
     fresh: async (w) => ({ token: await newInvitationToken(w) }),
     objectScoped: false,
   },
@@ -100,6 +141,7 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: () => ({ role: 'viewer' }),
+    schema: updateMemberBody,
     objectScoped: true,
   },
   {
@@ -120,7 +162,8 @@ export const routes: RouteCase[] = [
     access: 'admin',
     ok: 201,
     body: 'json',
-    valid: () => ({ email: `i-${process.pid}-${++n}@example.test`, role: 'viewer' }),
+    valid: () => ({ email: `i-${++n}@example.test`, role: 'viewer' }),
+    schema: createInvitationBody,
     objectScoped: false,
   },
   {
@@ -143,6 +186,7 @@ export const routes: RouteCase[] = [
     ok: 201,
     body: 'json',
     valid: () => ({ name: unique('Set'), description: 'survey leg' }),
+    schema: createImageSetBody,
     objectScoped: false,
   },
   { name: 'read an image set', method: 'GET', path: '/api/teams/:teamId/image-sets/:setId', access: 'member', ok: 200, body: 'none', objectScoped: true },
@@ -154,6 +198,7 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: () => ({ description: unique('notes') }),
+    schema: updateImageSetBody,
     objectScoped: true,
   },
   {
@@ -185,6 +230,7 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: () => ({ heldOutFraction: 0.34, seed: 9 }),
+    schema: splitImageSetBody,
     objectScoped: true,
   },
   { name: 'read an image', method: 'GET', path: '/api/teams/:teamId/images/:imageId', access: 'member', ok: 200, body: 'none', objectScoped: true },
@@ -198,6 +244,7 @@ export const routes: RouteCase[] = [
     // Scratch images: the shared set's split must stay as the runs saw it.
     fresh: async (w) => ({ imageId: await newImage(w, w.setId) }),
     valid: () => ({ role: 'held-out' }),
+    schema: updateImageBody,
     objectScoped: true,
   },
   {
@@ -213,7 +260,17 @@ export const routes: RouteCase[] = [
   { name: 'thumbnail', method: 'GET', path: '/api/teams/:teamId/images/:imageId/thumbnail', access: 'member', ok: 200, body: 'none', objectScoped: true },
   { name: 'original', method: 'GET', path: '/api/teams/:teamId/images/:imageId/original', access: 'member', ok: 200, body: 'none', objectScoped: true },
   { name: 'list runs', method: 'GET', path: '/api/teams/:teamId/runs', access: 'member', ok: 200, body: 'none', objectScoped: false },
-  { name: 'start a run', method: 'POST', path: '/api/teams/:teamId/runs', access: 'engineer', ok: 201, body: 'json', valid: (w) => runBody(w), objectScoped: false },
+  {
+    name: 'start a run',
+    method: 'POST',
+    path: '/api/teams/:teamId/runs',
+    access: 'engineer',
+    ok: 201,
+    body: 'json',
+    valid: (w) => runBody(w),
+    schema: createRunBody,
+    objectScoped: false,
+  },
   { name: 'read a run', method: 'GET', path: '/api/teams/:teamId/runs/:runId', access: 'member', ok: 200, body: 'none', objectScoped: true },
   {
     name: 'cancel a run',
@@ -240,6 +297,9 @@ export const routes: RouteCase[] = [
     ok: 201,
     body: 'json',
     valid: () => codebookDocument(++n),
+    schema: codebookDocumentSchema,
+    // express.json({ limit: '64mb' }) in server/http/routes/codebooks.ts.
+    bodyLimit: 64 * 1024 * 1024,
     objectScoped: false,
   },
   {
@@ -250,6 +310,7 @@ export const routes: RouteCase[] = [
     ok: 202,
     body: 'json',
     valid: (w) => ({ heldOutImageIds: w.imageIds.slice(0, 2) }),
+    schema: evaluateCodebookBody,
     objectScoped: true,
   },
   { name: 'codebook evaluations', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/evaluations', access: 'member', ok: 200, body: 'none', objectScoped: true },

@@ -1,6 +1,25 @@
 // The one table of every API route, shared by the hostile-input properties and the access matrix.
 // A route missing here is untested by both: tests/api/hostile/route-table.test.ts checks the table against
 // the routers mounted in server/app.ts.
+import type { ZodType } from 'zod';
+import {
+  acceptInvitationBody,
+  changePasswordBody,
+  createImageSetBody,
+  createInvitationBody,
+  createRunBody,
+  evaluateCodebookBody,
+  loginBody,
+  passwordResetConfirmBody,
+  passwordResetRequestBody,
+  signupCompleteBody,
+  signupRequestBody,
+  splitImageSetBody,
+  updateImageBody,
+  updateImageSetBody,
+  updateMemberBody,
+} from '../../../server/contracts';
+import { codebookDocumentSchema } from '../../../server/engine';
 import { addMember, type Session } from '../../helpers/api';
 import { codebookDocument, newImage, newInvitation, newInvitationToken, newRun, newSet, newSignupToken, pngTile, runBody, type World } from './world';
 
@@ -23,6 +42,18 @@ export interface RouteCase {
   body: BodyKind;
   /** A valid JSON body (or multipart files). */
   valid?: (w: World) => unknown;
+  /**
+   * The zod schema the JSON body is validated with: the hostile-input test gives every field it names
+   * (optional ones too) each JSON type the field does not accept.
+   */
+  schema?: ZodType;
+  /** The most bytes the route's JSON parser takes, when not the API-wide jsonBodyLimit. */
+  bodyLimit?: number;
+  /**
+   * A successful call ends sessions (sign-out; a password change ends the others): the tests make it with a
+   * session of its own, never with the world's long-lived tokens.
+   */
+  revokesSessions?: boolean;
   /** A valid query string, without "?". */
   query?: (w: World) => string;
   /** Makes a fresh target for calls that consume it (deletes, cancels), before every call. */
@@ -31,8 +62,15 @@ export interface RouteCase {
   objectScoped: boolean;
 }
 
+/**
+ * The API-wide JSON body limit (express.json's '1mb' in server/app.ts, 1 MiB in its byte parser); a body past
+ * a route's limit must be refused whatever the route.
+ */
+export const jsonBodyLimit = 1024 * 1024;
+
+// A counter, not the clock: each test file has a database of its own, and the same run sends the same bodies.
 let n = 0;
-const unique = (p: string) => `${p} ${process.pid}-${Date.now()}-${++n}`;
+const unique = (p: string) => `${p} ${++n}`;
 
 export const routes: RouteCase[] = [
   { name: 'health', method: 'GET', path: '/api/health', access: 'public', ok: 200, body: 'none', objectScoped: false },
@@ -44,6 +82,7 @@ export const routes: RouteCase[] = [
     ok: 202,
     body: 'json',
     valid: () => ({ email: `s-${process.pid}-${++n}@example.test` }),
+    schema: signupRequestBody,
     objectScoped: false,
   },
   {
@@ -65,6 +104,7 @@ export const routes: RouteCase[] = [
     ok: 400,
     body: 'json',
     valid: () => ({ token: 'x'.repeat(43), password: 'correct-horse-battery', name: 'Signer', teamName: unique('Team') }),
+    schema: signupCompleteBody,
     objectScoped: false,
   },
   {
@@ -75,9 +115,10 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: (w) => ({ email: w.viewer.user.email, password: 'correct-horse-battery' }),
+    schema: loginBody,
     objectScoped: false,
   },
-  { name: 'sign out', method: 'POST', path: '/api/auth/logout', access: 'public', ok: 204, body: 'none', objectScoped: false },
+  { name: 'sign out', method: 'POST', path: '/api/auth/logout', access: 'public', ok: 204, body: 'none', revokesSessions: true, objectScoped: false },
   {
     name: 'request a password reset',
     method: 'POST',
@@ -86,6 +127,7 @@ export const routes: RouteCase[] = [
     ok: 202,
     body: 'json',
     valid: () => ({ email: `nobody-${++n}@example.test` }),
+    schema: passwordResetRequestBody,
     objectScoped: false,
   },
   {
@@ -97,6 +139,7 @@ export const routes: RouteCase[] = [
     ok: 400,
     body: 'json',
     valid: () => ({ token: 'x'.repeat(43), password: 'correct-horse-battery' }),
+    schema: passwordResetConfirmBody,
     objectScoped: false,
   },
   { name: 'who am I', method: 'GET', path: '/api/me', access: 'session', ok: 200, body: 'none', objectScoped: false },
@@ -110,6 +153,7 @@ export const routes: RouteCase[] = [
     ok: 400,
     body: 'json',
     valid: () => ({ currentPassword: 'not-the-current-password', newPassword: 'another-good-passphrase' }),
+    schema: changePasswordBody,
     objectScoped: false,
   },
   { name: 'preview an invitation', method: 'GET', path: '/api/invitations/:token', access: 'public', ok: 200, body: 'none', objectScoped: false },
@@ -121,6 +165,7 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: () => ({ name: 'Invitee', password: 'correct-horse-battery' }),
+    schema: acceptInvitationBody,
     fresh: async (w) => ({ token: await newInvitationToken(w) }),
     objectScoped: false,
   },
@@ -133,6 +178,7 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: () => ({ role: 'viewer' }),
+    schema: updateMemberBody,
     objectScoped: true,
   },
   {
@@ -153,7 +199,8 @@ export const routes: RouteCase[] = [
     access: 'admin',
     ok: 201,
     body: 'json',
-    valid: () => ({ email: `i-${process.pid}-${++n}@example.test`, role: 'viewer' }),
+    valid: () => ({ email: `i-${++n}@example.test`, role: 'viewer' }),
+    schema: createInvitationBody,
     objectScoped: false,
   },
   {
@@ -176,6 +223,7 @@ export const routes: RouteCase[] = [
     ok: 201,
     body: 'json',
     valid: () => ({ name: unique('Set'), description: 'survey leg' }),
+    schema: createImageSetBody,
     objectScoped: false,
   },
   { name: 'read an image set', method: 'GET', path: '/api/teams/:teamId/image-sets/:setId', access: 'member', ok: 200, body: 'none', objectScoped: true },
@@ -187,6 +235,7 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: () => ({ description: unique('notes') }),
+    schema: updateImageSetBody,
     objectScoped: true,
   },
   {
@@ -218,6 +267,7 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'json',
     valid: () => ({ heldOutFraction: 0.34, seed: 9 }),
+    schema: splitImageSetBody,
     objectScoped: true,
   },
   { name: 'read an image', method: 'GET', path: '/api/teams/:teamId/images/:imageId', access: 'member', ok: 200, body: 'none', objectScoped: true },
@@ -231,6 +281,7 @@ export const routes: RouteCase[] = [
     // Scratch images: the shared set's split must stay as the runs saw it.
     fresh: async (w) => ({ imageId: await newImage(w, w.setId) }),
     valid: () => ({ role: 'held-out' }),
+    schema: updateImageBody,
     objectScoped: true,
   },
   {
@@ -246,7 +297,17 @@ export const routes: RouteCase[] = [
   { name: 'thumbnail', method: 'GET', path: '/api/teams/:teamId/images/:imageId/thumbnail', access: 'member', ok: 200, body: 'none', objectScoped: true },
   { name: 'original', method: 'GET', path: '/api/teams/:teamId/images/:imageId/original', access: 'member', ok: 200, body: 'none', objectScoped: true },
   { name: 'list runs', method: 'GET', path: '/api/teams/:teamId/runs', access: 'member', ok: 200, body: 'none', objectScoped: false },
-  { name: 'start a run', method: 'POST', path: '/api/teams/:teamId/runs', access: 'engineer', ok: 201, body: 'json', valid: (w) => runBody(w), objectScoped: false },
+  {
+    name: 'start a run',
+    method: 'POST',
+    path: '/api/teams/:teamId/runs',
+    access: 'engineer',
+    ok: 201,
+    body: 'json',
+    valid: (w) => runBody(w),
+    schema: createRunBody,
+    objectScoped: false,
+  },
   { name: 'read a run', method: 'GET', path: '/api/teams/:teamId/runs/:runId', access: 'member', ok: 200, body: 'none', objectScoped: true },
   {
     name: 'cancel a run',
@@ -273,6 +334,9 @@ export const routes: RouteCase[] = [
     ok: 201,
     body: 'json',
     valid: () => codebookDocument(++n),
+    schema: codebookDocumentSchema,
+    // express.json({ limit: '64mb' }) in server/http/routes/codebooks.ts.
+    bodyLimit: 64 * 1024 * 1024,
     objectScoped: false,
   },
   {
@@ -283,6 +347,7 @@ export const routes: RouteCase[] = [
     ok: 202,
     body: 'json',
     valid: (w) => ({ heldOutImageIds: w.imageIds.slice(0, 2) }),
+    schema: evaluateCodebookBody,
     objectScoped: true,
   },
   { name: 'codebook evaluations', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/evaluations', access: 'member', ok: 200, body: 'none', objectScoped: true },

@@ -7,8 +7,9 @@ import sharp from 'sharp';
 import request from 'supertest';
 import { makeCodebook, toCodebookDocument } from '../../../server/engine';
 import { seabedSet } from '../../../server/seed/seabed-tiles';
-import { addMember, bearer, createTestApp, signUp, uniqueEmail, type Session, type TestApp } from '../../helpers/api';
+import { addMember, bearer, createTestApp, signUp, type Session, type TestApp } from '../../helpers/api';
 import { linkToken, waitForMail } from '../../helpers/mailbox';
+import { snapshotter, type Snapshotter } from '../../helpers/snapshot';
 
 export interface World {
   t: TestApp;
@@ -24,6 +25,10 @@ export interface World {
   spare: Session;
   /** Admin of another team. */
   outsider: Session;
+  /** An engineer of that other team: a member of another team who is not its admin. */
+  foreignMember: Session;
+  /** The app's DATA_DIR (content store, secrets). */
+  dataDir: string;
   setId: number;
   imageIds: number[];
   /** Two queued runs (the job runner is never started here, so they stay queued). */
@@ -63,6 +68,11 @@ export function codebookDocument(seed = 1): ReturnType<typeof toCodebookDocument
   return toCodebookDocument(codebook);
 }
 
+// Addresses from a counter, not the clock: every world has a database of its own, and the same run then
+// sends the same bytes (a sign-in body carries the viewer's address).
+let emailCounter = 0;
+const worldEmail = (who: string) => `${who}-${++emailCounter}@reef.example.test`;
+
 let setCounter = 0;
 export async function newSet(w: Pick<World, 't' | 'teamId' | 'engineer'>, name = `Scratch ${process.pid}-${++setCounter}`): Promise<number> {
   const res = await request(w.t.app).post(`/api/teams/${w.teamId}/image-sets`).set(bearer(w.engineer)).send({ name });
@@ -91,7 +101,7 @@ export async function newRun(w: Pick<World, 't' | 'teamId' | 'engineer' | 'setId
 }
 
 export async function newInvitation(w: Pick<World, 't' | 'teamId' | 'admin'>): Promise<{ id: number; email: string }> {
-  const email = uniqueEmail('invitee');
+  const email = worldEmail('invitee');
   const res = await request(w.t.app).post(`/api/teams/${w.teamId}/invitations`).set(bearer(w.admin)).send({ email, role: 'viewer' });
   if (res.status !== 201) throw new Error(`invite failed: ${res.status} ${JSON.stringify(res.body)}`);
   return { id: res.body.invitation.id as number, email };
@@ -105,7 +115,7 @@ export async function newInvitationToken(w: Pick<World, 't' | 'teamId' | 'admin'
 
 /** A fresh sign-up link's raw token, read from its e-mail. */
 export async function newSignupToken(w: Pick<World, 't'>): Promise<string> {
-  const email = uniqueEmail('signer');
+  const email = worldEmail('signer');
   const res = await request(w.t.app).post('/api/auth/signup').send({ email });
   if (res.status !== 202) throw new Error(`signup failed: ${res.status} ${JSON.stringify(res.body)}`);
   await w.t.composition.services.accounts.settle();
@@ -114,15 +124,16 @@ export async function newSignupToken(w: Pick<World, 't'>): Promise<string> {
 
 export async function buildWorld(env: Record<string, string> = {}): Promise<World> {
   const t = await createTestApp(env);
-  const admin = await signUp(t.app, { teamName: 'Reef Survey', email: uniqueEmail('admin') });
+  const admin = await signUp(t.app, { teamName: 'Reef Survey', email: worldEmail('admin') });
   const teamId = admin.teamId;
-  const engineer = await addMember(t, admin, 'engineer');
-  const viewer = await addMember(t, admin, 'viewer');
-  const removed = await addMember(t, admin, 'engineer');
-  const spare = await addMember(t, admin, 'viewer');
+  const engineer = await addMember(t, admin, 'engineer', worldEmail('engineer'));
+  const viewer = await addMember(t, admin, 'viewer', worldEmail('viewer'));
+  const removed = await addMember(t, admin, 'engineer', worldEmail('engineer'));
+  const spare = await addMember(t, admin, 'viewer', worldEmail('viewer'));
   const gone = await request(t.app).delete(`/api/teams/${teamId}/members/${removed.user.id}`).set(bearer(admin));
   if (gone.status !== 204) throw new Error(`member removal failed: ${gone.status}`);
-  const outsider = await signUp(t.app, { teamName: 'Other Lab', email: uniqueEmail('outsider') });
+  const outsider = await signUp(t.app, { teamName: 'Other Lab', email: worldEmail('outsider') });
+  const foreignMember = await addMember(t, outsider, 'engineer', worldEmail('foreign'));
 
   const partial = { t, teamId, engineer, admin };
   const setId = await newSet(partial, 'Reef tiles');
@@ -171,6 +182,8 @@ export async function buildWorld(env: Record<string, string> = {}): Promise<Worl
     removed,
     spare,
     outsider,
+    foreignMember,
+    dataDir: t.composition.config.dataDir,
     setId,
     imageIds,
     runIds,
@@ -185,6 +198,39 @@ export async function buildWorld(env: Record<string, string> = {}): Promise<Worl
       await t.close();
     },
   };
+}
+
+/**
+ * Columns (`table.column`) or tables (`table.*`) that change by design on requests the server refuses,
+ * left out of world snapshots, each with its reason:
+ * - sessions.last_seen_at: authentication notes when a session was last used (at most every 5 minutes), before
+ *   a role check can refuse the request;
+ * - outbox_messages, outbox_recipients: the local capture server's mailbox, filled after a commit by the mail
+ *   sender, not by the request at hand (what a request queues shows in mail_queue).
+ */
+export const volatileColumns: readonly string[] = ['sessions.last_seen_at', 'outbox_messages.*', 'outbox_recipients.*'];
+
+/** Snapshots of every row of the world's database and of its content store (tests/helpers/snapshot.ts). */
+export function worldSnapshotter(w: Pick<World, 't' | 'dataDir'>): Promise<Snapshotter> {
+  return snapshotter({ knex: w.t.db.knex, database: w.t.db.name, dataDir: w.dataDir, volatileColumns });
+}
+
+/**
+ * A new account in the shape of `who`, for calls that end sessions (sign-out, password change), so the
+ * world's long-lived tokens stay valid for every other test.
+ */
+export async function throwawaySession(
+  w: Pick<World, 't' | 'admin' | 'outsider' | 'teamId'>,
+  who: 'admin' | 'engineer' | 'viewer' | 'outsider' | 'foreign member' | 'removed member',
+): Promise<Session> {
+  if (who === 'outsider') return addMember(w.t, w.outsider, 'admin', worldEmail('throwaway'));
+  if (who === 'foreign member') return addMember(w.t, w.outsider, 'engineer', worldEmail('throwaway'));
+  const session = await addMember(w.t, w.admin, who === 'removed member' ? 'engineer' : who, worldEmail('throwaway'));
+  if (who === 'removed member') {
+    const gone = await request(w.t.app).delete(`/api/teams/${w.teamId}/members/${session.user.id}`).set(bearer(w.admin));
+    if (gone.status !== 204) throw new Error(`member removal failed: ${gone.status}`);
+  }
+  return session;
 }
 
 /**

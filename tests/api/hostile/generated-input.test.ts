@@ -84,6 +84,8 @@ async function targetOf(route: RouteCase): Promise<Target> {
   let token = route.access === 'public' ? undefined : w.admin.token;
   if (route.revokesSessions && route.access !== 'public') token = (await throwawaySession(w, 'admin')).token;
   const target = { params: { ...defaultParams(w), ...fresh }, token };
+  // Making a target may queue mail (an invitation); its delivery must not land inside the next probe's window.
+  await w.t.composition.services.accounts.settle();
   targets.set(route, target);
   return target;
 }

@@ -7,16 +7,18 @@ import helmet from 'helmet';
 import { pinoHttp } from 'pino-http';
 import type { Config, Logger } from './config';
 import { createAuthenticator } from './http/middleware/authenticate';
-import { requireKnownBodyType } from './http/middleware/content-type';
+import { requireIdentityEncoding, requireKnownBodyType } from './http/middleware/content-type';
 import { apiNotFound, errorHandler } from './http/middleware/error-handler';
 import { refuseCrossSiteMutations } from './http/middleware/fetch-metadata';
 import { maskTokensInUrl } from './http/middleware/log-redaction';
 import { originCheck } from './http/middleware/origin-check';
+import { createConcurrencyGate } from './http/middleware/concurrency-gate';
 import { attemptLimiter } from './http/middleware/rate-limit';
-import { rejectInvalidUtf8 } from './http/middleware/strict-utf8';
+import { receiveFiles } from './http/middleware/receive-files';
 import { requireTeamRoleFactory } from './http/middleware/require-team-role';
+import { createTeamEventStreams } from './http/middleware/sse';
 import { authRouter } from './http/routes/auth';
-import { codebookImportBodyParser, codebookImportPath, codebooksRouter } from './http/routes/codebooks';
+import { codebooksRouter } from './http/routes/codebooks';
 import { compareRouter } from './http/routes/compare';
 import { codebookEvaluationsRouter, runResultsRouter } from './http/routes/curves';
 import type { RouteDeps } from './http/routes/deps';
@@ -89,9 +91,10 @@ export function createApp(deps: AppDeps): Express {
   app.use(cookieParser());
   app.use('/api', originCheck(config.publicUrl));
   app.use('/api', refuseCrossSiteMutations);
-  // Codebook documents are far larger than any other body; the global parser below skips a body already parsed.
-  app.use(codebookImportPath, codebookImportBodyParser);
-  app.use('/api', requireKnownBodyType, express.json({ limit: '1mb', verify: rejectInvalidUtf8 }));
+  // Only headers are judged here. Bodies are read per route, after authenticate and the role check
+  // (validate() or jsonBody(), with the limits of http/middleware/body.ts), so an anonymous or unauthorised
+  // caller is answered before a byte of a large body is read.
+  app.use('/api', requireKnownBodyType, requireIdentityEncoding);
 
   const { passport, authenticate } = createAuthenticator({
     verifyOptions: deps.sessions.verifyOptions,
@@ -100,6 +103,10 @@ export function createApp(deps: AppDeps): Express {
   app.use(passport.initialize());
 
   const limiterOptions = { limit: config.loginRateLimit, windowMs: config.loginRateWindowMs };
+  const uploadGate = createConcurrencyGate({ total: config.uploads.maxConcurrent, perUser: config.uploads.maxConcurrentPerUser });
+  const eventStreams = createTeamEventStreams({ maxPerUser: config.sseMaxStreamsPerUser, teams: services.teams });
+  // A removed member's (or demoted one's) open streams of the team end at once, not at the next heartbeat.
+  services.teams.onMembershipChange(({ teamId, userId }) => void eventStreams.recheck(teamId, userId));
   const routeDeps: RouteDeps = {
     ...services,
     authenticate,
@@ -107,6 +114,8 @@ export function createApp(deps: AppDeps): Express {
     sessionTtlSeconds: deps.sessions.ttlSeconds,
     loginLimiter: attemptLimiter({ ...limiterOptions, message: 'Too many sign-in attempts; wait a few minutes and try again' }),
     resetLimiter: attemptLimiter({ ...limiterOptions, message: 'Too many reset requests; wait a few minutes and try again' }),
+    receiveFiles: receiveFiles({ limits: config.uploads, gate: uploadGate, scratchFolder: () => services.imageUploads.scratchFolder() }),
+    eventStreams,
   };
 
   app.use('/api/health', healthRouter(routeDeps));
@@ -116,7 +125,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/members', membersRouter(routeDeps));
   app.use('/api/teams/:teamId/invitations', teamInvitationsRouter(routeDeps));
   app.use('/api/teams/:teamId/outbox', outboxRouter(routeDeps));
-  app.use('/api/teams/:teamId/image-sets', imageSetsRouter(routeDeps, config.uploads));
+  app.use('/api/teams/:teamId/image-sets', imageSetsRouter(routeDeps));
   app.use('/api/teams/:teamId/images', imagesRouter(routeDeps));
   app.use('/api/teams/:teamId/runs', runsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', codebooksRouter(routeDeps));

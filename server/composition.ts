@@ -19,6 +19,7 @@ import {
   type StoreSweeper,
 } from './services';
 import { createContentStore, type ContentStore } from './storage/content-store';
+import { createSpool } from './storage/spool';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/handlers/evaluate';
@@ -70,7 +71,9 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
   const contentStore = createContentStore(config.dataDir);
   const imageSets = createImageSetsService({ db });
   const imageRecords = createImageRecordsService({ db, store: contentStore });
-  const imageUploads = createImageUploadsService({ db, store: contentStore, limits: config.uploads });
+  const spool = createSpool(config.dataDir);
+  // Decoding uploads competes with the engine for the same cores: as many at once as it may use threads.
+  const imageUploads = createImageUploadsService({ db, store: contentStore, spool, limits: config.uploads, inspectConcurrency: config.engineThreads });
   const bus = createJobEventBus();
   const queue = createMariaDbQueue(db);
   const pool = createTaskPool({ maxThreads: config.jobConcurrency, maxHeapMb: config.jobTaskMaxHeapMb });
@@ -87,7 +90,7 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
   const codebooks = createCodebooksService({ db });
   const evaluation = createEvaluationService({ db, store: contentStore, runTask: evaluationTaskRunner(pool), jobQueued: () => bus.jobQueued() });
   const comparison = createComparisonService({ db });
-  const storeSweeper = createStoreSweeper({ db, store: contentStore, graceMs: config.storeSweep.graceMs, logger });
+  const storeSweeper = createStoreSweeper({ db, store: contentStore, spool, graceMs: config.storeSweep.graceMs, logger });
   return {
     config,
     logger,

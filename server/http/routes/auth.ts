@@ -1,5 +1,6 @@
 import { Router } from 'express';
 import { loginBody, passwordResetConfirmBody, passwordResetRequestBody, signupBody } from '../../contracts';
+import { jsonBody } from '../middleware/body';
 import { validate, validated } from '../middleware/validate';
 import type { RouteDeps } from './deps';
 import { clearSessionCookie, setSessionCookie } from './session-cookie';
@@ -11,6 +12,8 @@ const resetConfirmInput = { body: passwordResetConfirmBody };
 
 export function authRouter(d: RouteDeps): Router {
   const r = Router();
+  // Anonymous routes, with the small limit; read up front because the attempt limiters key on the e-mail in it.
+  r.use(jsonBody('anonymous'));
 
   r.post('/signup', validate(signupInput), async (req, res) => {
     const result = await d.accounts.signup(validated(req, signupInput).body);

@@ -1,3 +1,5 @@
+import { readFile } from 'node:fs/promises';
+
 /**
  * Bytes after the end of the image are how polyglot files work (a PNG that is also a zip archive, a
  * JPEG that is also a script): decoders stop at the image's end marker and never see them. The store
@@ -59,4 +61,12 @@ function webpTrailing(data: Buffer): number {
   const size = data.readUInt32LE(4) + 8;
   const padded = size + (size % 2);
   return data.length > padded ? data.length - padded : 0;
+}
+
+/**
+ * trailingBytes for a file on disk. The walkers above take the bytes in memory, so the file is read whole —
+ * at most the per-file upload limit, and the upload service inspects only a few files at once.
+ */
+export async function trailingBytesInFile(format: string, file: string): Promise<number> {
+  return trailingBytes(format, await readFile(file));
 }

@@ -18,7 +18,7 @@ export interface RawRequest {
   readonly answered: boolean;
   /** Bytes of body handed to the socket so far. */
   readonly sent: number;
-  /** The whole answer; rejects only on a connection error before any answer. */
+  /** The whole answer; rejects on a connection error before any answer (or when the test aborts first). */
   readonly response: Promise<Answer>;
 }
 
@@ -45,14 +45,11 @@ export function openRequest(base: string, method: string, path: string, headers:
           json = undefined;
         }
         resolve({ status: res.statusCode ?? 0, text, json });
-        req.destroy();
       });
     });
     req.on('error', (err: NodeJS.ErrnoException) => {
-      // A server that answers and closes while the body is still coming makes the rest of the write fail; the answer counts.
-      if (answered) return;
-      if (err.code === 'EPIPE' || err.code === 'ECONNRESET') return;
-      reject(err);
+      // Once the answer is in, a write that fails only means the server stopped listening to the rest.
+      if (!answered) reject(err);
     });
   });
   response.catch(() => undefined);
@@ -97,5 +94,6 @@ export async function sendUntilAnswered(
   const sentWhenAnswered = r.sent;
   if (!r.answered) r.end();
   const answer = await r.response;
+  r.abort();
   return { ...answer, sentWhenAnswered };
 }

@@ -1,6 +1,7 @@
 // Bodies are read only once the server knows who sends them, within the limit of the route, and never
 // inflated: an anonymous, outside or under-privileged caller is answered before a large body is through,
 // and a compressed body is refused from its header alone.
+import net from 'node:net';
 import { gzipSync, deflateSync } from 'node:zlib';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { sendUntilAnswered } from '../../helpers/raw-request';
@@ -55,6 +56,37 @@ describe('a large body from a caller who may not send it', () => {
     const answer = await sendUntilAnswered(w.base, 'POST', `/api/teams/${w.teamId}/image-sets`, { 'Content-Type': 'application/json' }, body);
     expectError(answer, 401, 'unauthenticated');
   });
+});
+
+it('keeps the connection open after an early answer until the rest of the body is through, so the answer is not lost', async () => {
+  // Raw TCP, as a client that asked for Connection: close and keeps sending after the answer. Were the server to
+  // close right after answering, the bytes still coming would meet a closed socket and the connection would be
+  // reset (RFC 9112 §9.6), the answer with it if the client had not read it yet.
+  const total = 16 * MiB;
+  const url = new URL(w.base);
+  const socket = net.connect(Number(url.port), url.hostname);
+  let failure: string | null = null;
+  socket.on('error', (err: NodeJS.ErrnoException) => (failure ??= err.code ?? err.message));
+  const closed = new Promise<void>((resolve) => socket.on('close', () => resolve()));
+  let received = '';
+  const answered = new Promise<void>((resolve) =>
+    socket.on('data', (c: Buffer) => {
+      received += c.toString('latin1');
+      const length = /content-length: (\d+)/i.exec(received)?.[1];
+      const bodyStart = received.indexOf('\r\n\r\n');
+      if (length && bodyStart >= 0 && received.length - bodyStart - 4 >= Number(length)) resolve();
+    }),
+  );
+  const write = (chunk: Buffer | string) => new Promise<void>((resolve) => socket.write(chunk, () => resolve()));
+  await write(`POST ${importUrl()} HTTP/1.1\r\nHost: ${url.host}\r\nContent-Type: application/json\r\nContent-Length: ${total}\r\nConnection: close\r\n\r\n`);
+  await write(bigImport.head);
+  await answered;
+  expect(received).toMatch(/^HTTP\/1\.1 401 /);
+  expect(JSON.parse(received.slice(received.indexOf('\r\n\r\n') + 4))).toMatchObject({ error: { code: 'unauthenticated' } });
+  for (let sent = bigImport.head.length; sent < total && !failure; sent += MiB) await write(bigImport.filler.subarray(0, Math.min(MiB, total - sent)));
+  socket.end();
+  await closed;
+  expect(failure).toBeNull();
 });
 
 describe('compressed bodies', () => {

@@ -72,8 +72,7 @@ export function compose(config: Config, options: { logger?: Logger; db?: Databas
   const imageSets = createImageSetsService({ db });
   const imageRecords = createImageRecordsService({ db, store: contentStore });
   const spool = createSpool(config.dataDir);
-  // Decoding uploads competes with the engine for the same cores: as many at once as it may use threads.
-  const imageUploads = createImageUploadsService({ db, store: contentStore, spool, limits: config.uploads, inspectConcurrency: config.engineThreads });
+  const imageUploads = createImageUploadsService({ db, store: contentStore, spool, limits: config.uploads });
   const bus = createJobEventBus();
   const queue = createMariaDbQueue(db);
   const pool = createTaskPool({ maxThreads: config.jobConcurrency, maxHeapMb: config.jobTaskMaxHeapMb });

@@ -51,12 +51,15 @@ function clip(name: string): string {
 }
 
 /**
- * `inspectConcurrency` bounds how many files are decoded at once in the whole process, whatever the number of
- * uploads in progress: each decode reads its file and holds a decoder's working set.
+ * Files decoded at once in the whole process, whatever the number of uploads in progress: each decode holds a
+ * decoder's working set and the file's bytes for the trailing-data check, and libvips already runs each image
+ * on a pool of threads (sharp.concurrency, one per core by default), so more at once would add memory, not speed.
  */
-export function createImageUploadsService(deps: { db: Database; store: ContentStore; spool: Spool; limits: UploadLimits; inspectConcurrency: number }) {
+const inspectionsAtOnce = 2;
+
+export function createImageUploadsService(deps: { db: Database; store: ContentStore; spool: Spool; limits: UploadLimits }) {
   const { db, store, limits } = deps;
-  const inspections = createSlots(deps.inspectConcurrency);
+  const inspections = createSlots(inspectionsAtOnce);
 
   return {
     /** A private folder for one upload's files, under DATA_DIR; upload() removes it. */

@@ -1,7 +1,4 @@
-/**
- * At most `count` tasks at once; the rest wait their turn in arrival order. Decoding an upload is CPU work
- * with a working set of its own, so running more of them than there are cores adds memory, not speed.
- */
+/** At most `count` tasks at once; the rest wait their turn in arrival order. */
 export function createSlots(count: number) {
   let free = Math.max(1, count);
   const waiting: (() => void)[] = [];

@@ -5,8 +5,6 @@
 export interface ConcurrencyGate {
   /** A release function (safe to call more than once), or null when the user or the whole server is at its limit. */
   acquire(userId: number): (() => void) | null;
-  /** In progress now: in all, or for one user. */
-  active(userId?: number): number;
 }
 
 export function createConcurrencyGate(limits: { total?: number; perUser: number }): ConcurrencyGate {
@@ -28,9 +26,6 @@ export function createConcurrencyGate(limits: { total?: number; perUser: number 
         if (left > 0) perUser.set(userId, left);
         else perUser.delete(userId);
       };
-    },
-    active(userId) {
-      return userId === undefined ? all : (perUser.get(userId) ?? 0);
     },
   };
 }

@@ -13,10 +13,6 @@ export interface EventStream {
 /** Every 15 s a comment line, so proxies and browsers keep an idle stream open (the WHATWG HTML SSE section advises this). */
 export const SSE_HEARTBEAT_MS = 15_000;
 
-/**
- * Turns the response into a text/event-stream (WHATWG HTML, "Server-sent events"). `onClose` runs once,
- * whether the client went away or the server ended the stream.
- */
 const openStreams = new Set<EventStream>();
 
 /** Ends every open stream: a stopping server would otherwise wait for clients that never hang up. */
@@ -25,8 +21,9 @@ export function endAllEventStreams(): void {
 }
 
 /**
- * `onHeartbeat` runs with every heartbeat while the stream is open (the registry below re-checks the
- * caller's membership there).
+ * Turns the response into a text/event-stream (WHATWG HTML, "Server-sent events"). `onClose` runs once,
+ * whether the client went away or the server ended the stream; `onHeartbeat` runs with every heartbeat while
+ * the stream is open (createTeamEventStreams re-checks the reader's membership there).
  */
 export function openEventStream(req: Request, res: Response, onClose: () => void, heartbeatMs = SSE_HEARTBEAT_MS, onHeartbeat?: () => void): EventStream {
   res.status(200);
@@ -145,10 +142,6 @@ export function createTeamEventStreams(deps: { maxPerUser: number; teams: Member
     /** Ends the user's streams of the team that the membership no longer allows; resolves once checked. */
     async recheck(teamId: number, userId: number): Promise<void> {
       await Promise.all([...open].filter((e) => e.teamId === teamId && e.userId === userId).map(check));
-    },
-    /** Open streams (for tests and diagnostics). */
-    count(userId?: number): number {
-      return gate.active(userId);
     },
   };
 }

@@ -69,6 +69,9 @@ async function startStack(): Promise<Env> {
     ENGINE_THREADS: '1',
     LOGIN_RATE_LIMIT: '1000',
     ACCOUNT_RATE_LIMIT: '1000',
+    // The upload phase sends UPLOADS at once with one account; the caps would otherwise turn most away with 429.
+    UPLOAD_MAX_CONCURRENT: String(UPLOADS),
+    UPLOAD_MAX_CONCURRENT_PER_USER: String(UPLOADS),
   };
   // LOAD_CPU_PROF=DIR writes a V8 CPU profile of the server there when it stops (for finding the hot path).
   const profile = process.env.LOAD_CPU_PROF ? ['--cpu-prof', `--cpu-prof-dir=${path.resolve(process.env.LOAD_CPU_PROF)}`] : [];

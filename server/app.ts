@@ -7,16 +7,18 @@ import helmet from 'helmet';
 import { pinoHttp } from 'pino-http';
 import type { Config, Logger } from './config';
 import { createAuthenticator } from './http/middleware/authenticate';
-import { requireKnownBodyType } from './http/middleware/content-type';
+import { requireIdentityEncoding, requireKnownBodyType } from './http/middleware/content-type';
 import { apiNotFound, errorHandler } from './http/middleware/error-handler';
 import { refuseCrossSiteMutations } from './http/middleware/fetch-metadata';
 import { maskTokensInUrl } from './http/middleware/log-redaction';
 import { originCheck } from './http/middleware/origin-check';
+import { createConcurrencyGate } from './http/middleware/concurrency-gate';
 import { addressLimiter } from './http/middleware/rate-limit';
-import { rejectInvalidUtf8 } from './http/middleware/strict-utf8';
+import { receiveFiles } from './http/middleware/receive-files';
 import { requireTeamRoleFactory } from './http/middleware/require-team-role';
+import { createTeamEventStreams } from './http/middleware/sse';
 import { authRouter } from './http/routes/auth';
-import { codebookImportBodyParser, codebookImportPath, codebooksRouter } from './http/routes/codebooks';
+import { codebooksRouter } from './http/routes/codebooks';
 import { compareRouter } from './http/routes/compare';
 import { codebookEvaluationsRouter, runResultsRouter } from './http/routes/curves';
 import type { RouteDeps } from './http/routes/deps';
@@ -92,9 +94,10 @@ export function createApp(deps: AppDeps): Express {
   app.use(cookieParser());
   app.use('/api', originCheck(config.allowedOrigins));
   app.use('/api', refuseCrossSiteMutations);
-  // Codebook documents are far larger than any other body; the global parser below skips a body already parsed.
-  app.use(codebookImportPath, codebookImportBodyParser);
-  app.use('/api', requireKnownBodyType, express.json({ limit: '1mb', verify: rejectInvalidUtf8 }));
+  // Only headers are judged here. Bodies are read per route, after authenticate and the role check
+  // (validate() or jsonBody(), with the limits of http/middleware/body.ts), so an anonymous or unauthorised
+  // caller is answered before a byte of a large body is read.
+  app.use('/api', requireKnownBodyType, requireIdentityEncoding);
 
   const { passport, authenticate, identify } = createAuthenticator({
     verifyOptions: deps.sessions.verifyOptions,
@@ -103,6 +106,10 @@ export function createApp(deps: AppDeps): Express {
   app.use(passport.initialize());
 
   const account = { limit: config.accountRateLimit, windowMs: config.accountRateWindowMs };
+  const uploadGate = createConcurrencyGate({ total: config.uploads.maxConcurrent, perUser: config.uploads.maxConcurrentPerUser });
+  const eventStreams = createTeamEventStreams({ maxPerUser: config.sseMaxStreamsPerUser, teams: services.teams });
+  // A removed member's (or demoted one's) open streams of the team end at once, not at the next heartbeat.
+  services.teams.onMembershipChange(({ teamId, userId }) => void eventStreams.recheck(teamId, userId));
   const routeDeps: RouteDeps = {
     ...services,
     authenticate,
@@ -121,6 +128,8 @@ export function createApp(deps: AppDeps): Express {
       resetRequest: addressLimiter({ ...account, message: 'Too many reset requests from your network; try again later' }),
       resetConfirm: addressLimiter({ ...account, message: 'Too many password reset attempts from your network; try again later' }),
     },
+    receiveFiles: receiveFiles({ limits: config.uploads, gate: uploadGate, scratchFolder: () => services.imageUploads.scratchFolder() }),
+    eventStreams,
   };
 
   app.use('/api/health', healthRouter(routeDeps));
@@ -130,7 +139,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/members', membersRouter(routeDeps));
   app.use('/api/teams/:teamId/invitations', teamInvitationsRouter(routeDeps));
   app.use('/api/teams/:teamId/outbox', outboxRouter(routeDeps));
-  app.use('/api/teams/:teamId/image-sets', imageSetsRouter(routeDeps, config.uploads));
+  app.use('/api/teams/:teamId/image-sets', imageSetsRouter(routeDeps));
   app.use('/api/teams/:teamId/images', imagesRouter(routeDeps));
   app.use('/api/teams/:teamId/runs', runsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', codebooksRouter(routeDeps));

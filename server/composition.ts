@@ -25,6 +25,7 @@ import {
   type StoreSweeper,
 } from './services';
 import { createContentStore, type ContentStore } from './storage/content-store';
+import { createSpool } from './storage/spool';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/handlers/evaluate';
@@ -94,7 +95,8 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const contentStore = createContentStore(config.dataDir);
   const imageSets = createImageSetsService({ db });
   const imageRecords = createImageRecordsService({ db, store: contentStore });
-  const imageUploads = createImageUploadsService({ db, store: contentStore, limits: config.uploads });
+  const spool = createSpool(config.dataDir);
+  const imageUploads = createImageUploadsService({ db, store: contentStore, spool, limits: config.uploads });
   const bus = createJobEventBus();
   const queue = createMariaDbQueue(db);
   const pool = createTaskPool({ maxThreads: config.jobConcurrency, maxHeapMb: config.jobTaskMaxHeapMb });
@@ -120,7 +122,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     ...config.reconstructions,
   });
   const comparison = createComparisonService({ db });
-  const storeSweeper = createStoreSweeper({ db, store: contentStore, graceMs: config.storeSweep.graceMs, logger });
+  const storeSweeper = createStoreSweeper({ db, store: contentStore, spool, graceMs: config.storeSweep.graceMs, logger });
   return {
     config,
     logger,

@@ -124,8 +124,14 @@ const schema = z.object({
   RECONSTRUCTION_MAX_QUEUED: z.coerce.number().int().min(0).default(8),
   UPLOAD_MAX_BYTES: z.coerce.number().int().min(1).default(50 * 1024 * 1024),
   UPLOAD_MAX_FILES: z.coerce.number().int().min(1).default(200),
-  // Uploads are held in memory while they are checked: this bounds one request, whatever its file count.
+  // Bounds one request, whatever its file count: what one upload may put in DATA_DIR/tmp while it is checked.
   UPLOAD_MAX_REQUEST_BYTES: z.coerce.number().int().min(1).default(512 * 1024 * 1024),
+  // Uploads in progress at once, in all and per user (the studio's page sends two at a time); more get 429.
+  UPLOAD_MAX_CONCURRENT: z.coerce.number().int().min(1).default(8),
+  UPLOAD_MAX_CONCURRENT_PER_USER: z.coerce.number().int().min(1).default(4),
+  // Open run event streams per user; browsers hold about six HTTP/1.1 connections per host (from memory), so a
+  // person rarely needs more than a few.
+  SSE_MAX_STREAMS_PER_USER: z.coerce.number().int().min(1).default(8),
   IMAGE_MAX_PIXELS: z.coerce.number().int().min(1).default(40_000_000),
   ZIP_MAX_ENTRIES: z.coerce.number().int().min(1).default(2000),
   ZIP_MAX_TOTAL_BYTES: z.coerce.number().int().min(1).default(1024 * 1024 * 1024),
@@ -185,15 +191,22 @@ export interface Config {
   readonly trainingMaxBytes: number;
   /** Reconstructions computed at once and waiting; requests beyond both get 429. */
   readonly reconstructions: { readonly maxConcurrent: number; readonly maxQueued: number };
-  /** Limits of one image upload request: bytes per file (or archive entry), parts, pixels, and what archives may unpack. */
+  /**
+   * Limits of image uploads: bytes per file (or archive entry), parts, bytes per request, pixels, what archives
+   * may unpack, and how many uploads may be in progress at once (in all and per user).
+   */
   readonly uploads: {
     readonly maxFileBytes: number;
     readonly maxFiles: number;
     readonly maxRequestBytes: number;
+    readonly maxConcurrent: number;
+    readonly maxConcurrentPerUser: number;
     readonly maxImagePixels: number;
     readonly zipMaxEntries: number;
     readonly zipMaxTotalBytes: number;
   };
+  /** Open server-sent event streams allowed per user. */
+  readonly sseMaxStreamsPerUser: number;
   /** The content store sweep: how often (0 = off) and how old an unnamed original must be, in ms. */
   readonly storeSweep: { readonly intervalMs: number; readonly graceMs: number };
 }
@@ -280,10 +293,13 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
       maxFileBytes: e.UPLOAD_MAX_BYTES,
       maxFiles: e.UPLOAD_MAX_FILES,
       maxRequestBytes: e.UPLOAD_MAX_REQUEST_BYTES,
+      maxConcurrent: e.UPLOAD_MAX_CONCURRENT,
+      maxConcurrentPerUser: e.UPLOAD_MAX_CONCURRENT_PER_USER,
       maxImagePixels: e.IMAGE_MAX_PIXELS,
       zipMaxEntries: e.ZIP_MAX_ENTRIES,
       zipMaxTotalBytes: e.ZIP_MAX_TOTAL_BYTES,
     },
+    sseMaxStreamsPerUser: e.SSE_MAX_STREAMS_PER_USER,
     storeSweep: { intervalMs: e.STORE_SWEEP_INTERVAL_MINUTES * 60_000, graceMs: e.STORE_SWEEP_GRACE_MINUTES * 60_000 },
   });
 }

@@ -1,4 +1,5 @@
 import type { Role, User } from '../contracts';
+import type { ReceivedUpload } from './middleware/receive-files';
 
 declare global {
   // eslint-disable-next-line @typescript-eslint/no-namespace
@@ -13,6 +14,8 @@ declare global {
       sessionId?: string;
       /** Set by validate: the parsed body, query and params. */
       valid?: { body?: unknown; query?: unknown; params?: unknown };
+      /** Set by receiveFiles: the uploaded parts, on disk. */
+      upload?: ReceivedUpload;
     }
   }
 }

@@ -107,7 +107,7 @@ export async function seedDemoContent(deps: DemoContentDeps, teamId: number): Pr
     const found = existing.find((s) => s.name === spec.name);
     if (found) return found.id;
     const set = await services.imageSets.create(teamId, engineer.id, { name: spec.name, description: spec.description });
-    const uploaded = await services.imageUploads.upload(teamId, engineer.id, set.id, await tilePngs(spec.seed, spec.count, prefix));
+    const uploaded = await services.imageUploads.uploadBuffers(teamId, engineer.id, set.id, await tilePngs(spec.seed, spec.count, prefix));
     // Uploads arrive as training images; the later survey leg is marked held-out so the set reads as what it is.
     if (role === 'held-out') {
       await services.imageSets.update(teamId, set.id, {

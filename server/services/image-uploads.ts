@@ -1,11 +1,14 @@
 import type { UploadResult } from '../contracts';
 import type { Database } from '../db';
 import { AppError, badRequest, notFound } from '../errors';
-import { sha256Of, type ContentStore } from '../storage/content-store';
+import type { ContentStore } from '../storage/content-store';
+import { Readable } from 'node:stream';
+import type { ScratchFolder, Spool, SpooledFile } from '../storage/spool';
 import { recordAudit } from './audit';
 import { ImageRejected, inspectImage, type InspectedImage } from './uploads/inspect-image';
 import { formatBytes, type Rejection } from './uploads/rejection';
-import { isZipArchive, unpackZip, zipBudget } from './uploads/zip-archive';
+import { createSlots } from './uploads/slots';
+import { isZipFile, unpackZip, zipBudget } from './uploads/zip-archive';
 
 export interface UploadLimits {
   /** Per uploaded file and per archive entry. */
@@ -18,7 +21,8 @@ export interface UploadLimits {
 export interface UploadedFile {
   /** The name the client gave; display only. */
   name: string;
-  data: Buffer;
+  /** The part as received, in the request's scratch folder. */
+  file: SpooledFile;
 }
 
 interface Accepted extends InspectedImage {
@@ -46,17 +50,54 @@ function clip(name: string): string {
   return chars.length <= fileNameLimit ? name : `…${chars.slice(chars.length - fileNameLimit + 1).join('')}`;
 }
 
-export function createImageUploadsService(deps: { db: Database; store: ContentStore; limits: UploadLimits }) {
+/**
+ * Files decoded at once in the whole process, whatever the number of uploads in progress: each decode holds a
+ * decoder's working set and the file's bytes for the trailing-data check, and libvips already runs each image
+ * on a pool of threads (sharp.concurrency, one per core by default), so more at once would add memory, not speed.
+ */
+const inspectionsAtOnce = 2;
+
+export function createImageUploadsService(deps: { db: Database; store: ContentStore; spool: Spool; limits: UploadLimits }) {
   const { db, store, limits } = deps;
+  const inspections = createSlots(inspectionsAtOnce);
 
   return {
+    /** A private folder for one upload's files, under DATA_DIR; upload() removes it. */
+    scratchFolder(): Promise<ScratchFolder> {
+      return deps.spool.folder();
+    },
+
     /**
-     * Adds images (and the images inside .zip archives) to a set. Each file is decoded in full before it is
-     * stored; bad files are reported by name while the good ones are kept; rows for the new images are written
-     * in one transaction at the end. A file whose bytes the set already holds is reported as a duplicate.
-     * Objects stored before a failed transaction stay unreferenced and harmless (the store is content-addressed).
+     * Adds images (and the images inside .zip archives) to a set. Each file is decoded in full, from disk,
+     * before it is stored; bad files are reported by name while the good ones are kept; rows for the new images
+     * are written in one transaction at the end. A file whose bytes the set already holds is reported as a
+     * duplicate. Objects stored before a failed transaction stay unreferenced and harmless (the store is
+     * content-addressed). The scratch folder holding the files (and archive entries as they are unpacked) is
+     * the caller's; it is removed here once the upload is decided, whatever the outcome.
      */
-    async upload(teamId: number, actorUserId: number, setId: number, files: UploadedFile[]): Promise<UploadResult> {
+    async upload(teamId: number, actorUserId: number, setId: number, files: UploadedFile[], scratch: ScratchFolder): Promise<UploadResult> {
+      try {
+        return await addFiles(teamId, actorUserId, setId, files, scratch);
+      } finally {
+        await scratch.remove();
+      }
+    },
+
+    /** upload() for files already in memory (the demo seed): they are spooled to a scratch folder first. */
+    async uploadBuffers(teamId: number, actorUserId: number, setId: number, buffers: { name: string; data: Buffer }[]): Promise<UploadResult> {
+      const scratch = await deps.spool.folder();
+      const files: UploadedFile[] = [];
+      try {
+        for (const b of buffers) files.push({ name: b.name, file: await scratch.write(Readable.from([b.data])) });
+      } catch (err) {
+        await scratch.remove();
+        throw err;
+      }
+      return this.upload(teamId, actorUserId, setId, files, scratch);
+    },
+  };
+
+  async function addFiles(teamId: number, actorUserId: number, setId: number, files: UploadedFile[], scratch: ScratchFolder): Promise<UploadResult> {
       if (files.length === 0) throw badRequest('No files: send images or .zip archives in the multipart field "files"');
       if (!(await db.repos.imageSets.find(teamId, setId))) throw notFound('Image set');
 
@@ -66,12 +107,12 @@ export function createImageUploadsService(deps: { db: Database; store: ContentSt
       const accepted: Accepted[] = [];
       const seen = new Set<string>();
 
-      const consider = async (label: string, fileName: string, data: Buffer) => {
-        if (data.length > limits.maxFileBytes) {
-          rejected.push({ file: label, message: `${label}: is ${formatBytes(data.length)}, larger than the ${formatBytes(limits.maxFileBytes)} limit per file` });
+      const consider = async (label: string, fileName: string, file: SpooledFile) => {
+        if (file.bytes > limits.maxFileBytes) {
+          rejected.push({ file: label, message: `${label}: is ${formatBytes(file.bytes)}, larger than the ${formatBytes(limits.maxFileBytes)} limit per file` });
           return;
         }
-        const sha256 = sha256Of(data);
+        const { sha256 } = file;
         if (seen.has(sha256)) {
           repeats.push({ file: label, sha256 });
           return;
@@ -83,31 +124,32 @@ export function createImageUploadsService(deps: { db: Database; store: ContentSt
         }
         let inspected: InspectedImage;
         try {
-          inspected = await inspectImage(data, label, { maxPixels: limits.maxImagePixels });
+          inspected = await inspections.run(() => inspectImage(file, label, { maxPixels: limits.maxImagePixels }));
         } catch (err) {
           if (!(err instanceof ImageRejected)) throw err;
           rejected.push({ file: label, message: err.message });
           return;
         }
-        await store.put(data);
+        await store.putFile(file);
         await store.putThumbnail(sha256, inspected.thumbnail);
         seen.add(sha256);
-        accepted.push({ ...inspected, label, fileName, sha256, bytes: data.length });
+        accepted.push({ ...inspected, label, fileName, sha256, bytes: file.bytes });
       };
 
       const budget = zipBudget(limits.zipMaxEntries, limits.zipMaxTotalBytes);
       for (const file of files) {
         const name = displayName(file.name);
-        if (isZipArchive(file.data)) {
+        if (await isZipFile(file.file.path)) {
           let members = 0;
-          const problems = await unpackZip(file.data, name, { maxEntryBytes: limits.maxFileBytes, budget }, (m) => {
+          const unpack = { maxEntryBytes: limits.maxFileBytes, budget, extract: scratch.write };
+          const problems = await unpackZip(file.file.path, name, unpack, (m) => {
             members += 1;
-            return consider(m.label, clip(m.path), m.data);
+            return consider(m.label, clip(m.path), m.file);
           });
           rejected.push(...problems);
           if (members === 0 && problems.length === 0) rejected.push({ file: name, message: `${name}: the archive holds no files` });
         } else {
-          await consider(name, name, file.data);
+          await consider(name, name, file.file);
         }
       }
 
@@ -157,8 +199,7 @@ export function createImageUploadsService(deps: { db: Database; store: ContentSt
 
       for (const r of repeats) duplicates.push({ file: r.file, imageId: idOf.get(r.sha256)! });
       return { images, rejected, duplicates };
-    },
-  };
+  }
 }
 
 export type ImageUploadsService = ReturnType<typeof createImageUploadsService>;

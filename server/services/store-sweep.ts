@@ -1,6 +1,7 @@
 import type { Logger } from '../config';
 import type { Database } from '../db';
 import { contentStoreLock, type ContentStore } from '../storage/content-store';
+import type { Spool } from '../storage/spool';
 
 export interface SweepReport {
   /** True when a backup held the store and this pass did nothing. */
@@ -9,7 +10,7 @@ export interface SweepReport {
   examined: number;
   /** Stored objects no row names any more (originals no image names, reconstruction views no reconstruction names), deleted with their thumbnails. */
   removed: number;
-  /** Temporaries of interrupted writes and orphaned thumbnails deleted. */
+  /** Temporaries of interrupted writes and uploads, and orphaned thumbnails, deleted. */
   leftovers: number;
   bytesFreed: number;
 }
@@ -20,7 +21,7 @@ export interface SweepReport {
  * reconstruction (whose rows go with their codebook or image). Anything put within the grace period is left
  * alone: an upload, or a reconstruction, stores its bytes first and commits the row afterwards.
  */
-export function createStoreSweeper(deps: { db: Database; store: ContentStore; graceMs: number; logger?: Logger; now?: () => number }) {
+export function createStoreSweeper(deps: { db: Database; store: ContentStore; spool?: Spool; graceMs: number; logger?: Logger; now?: () => number }) {
   const now = deps.now ?? Date.now;
   let running: Promise<SweepReport> | undefined;
 
@@ -49,8 +50,10 @@ export function createStoreSweeper(deps: { db: Database; store: ContentStore; gr
       }
     }
     const leftovers = await deps.store.removeLeftovers(notAfterMs);
-    report.leftovers = leftovers.files;
-    report.bytesFreed += leftovers.bytes;
+    // Scratch folders of uploads cut short by a killed process (a live upload's folder is never this old).
+    const scratch = (await deps.spool?.removeLeftovers(notAfterMs)) ?? { files: 0, bytes: 0 };
+    report.leftovers = leftovers.files + scratch.files;
+    report.bytesFreed += leftovers.bytes + scratch.bytes;
     return report;
   }
 

@@ -1,7 +1,8 @@
 import { createHash, randomBytes } from 'node:crypto';
 import { constants as fsConstants } from 'node:fs';
-import { access, mkdir, open, readdir, readFile, rename, rm, stat, utimes } from 'node:fs/promises';
+import { access, chmod, copyFile, mkdir, open, readdir, readFile, rename, rm, stat, utimes } from 'node:fs/promises';
 import path from 'node:path';
+import type { SpooledFile } from './spool';
 
 const sha256Pattern = /^[0-9a-f]{64}$/;
 
@@ -23,6 +24,11 @@ export interface StoredObject {
 export interface ContentStore {
   /** Stores bytes under their SHA-256; the same content is kept once however often it is put. */
   put(buffer: Buffer): Promise<StoredObject>;
+  /**
+   * Stores a spooled file under the SHA-256 its spool computed, moving it into place (the file is gone from
+   * the scratch folder afterwards unless the same bytes were already stored).
+   */
+  putFile(file: SpooledFile): Promise<StoredObject>;
   /** Absolute path of an original; the file exists only if has() says so. */
   path(sha256: string): string;
   read(sha256: string): Promise<Buffer>;
@@ -116,6 +122,42 @@ async function writeAtomically(file: string, data: Buffer): Promise<void> {
   }
 }
 
+/** fsyncs a file (or folder) by path. */
+async function syncPath(target: string, flags = 'r'): Promise<void> {
+  const handle = await open(target, flags);
+  try {
+    await handle.sync();
+  } finally {
+    await handle.close();
+  }
+}
+
+/**
+ * Moves a finished file into place as writeAtomically does: durable before the rename, the rename durable after.
+ * A spool on another file system (EXDEV) is copied to a temporary beside the destination first.
+ */
+async function installAtomically(source: string, file: string): Promise<void> {
+  const dir = path.dirname(file);
+  await mkdir(dir, { recursive: true });
+  await chmod(source, 0o640);
+  await syncPath(source);
+  try {
+    await rename(source, file);
+  } catch (err) {
+    if ((err as NodeJS.ErrnoException).code !== 'EXDEV') throw err;
+    const temp = path.join(dir, `.tmp-${process.pid}-${randomBytes(6).toString('hex')}`);
+    try {
+      await copyFile(source, temp);
+      await syncPath(temp);
+      await rename(temp, file);
+    } catch (copyErr) {
+      await rm(temp, { force: true });
+      throw copyErr;
+    }
+  }
+  await syncPath(dir);
+}
+
 /**
  * Content-addressed files under dataDir: originals at objects/<first two hex>/<sha256> and thumbnails at
  * thumbnails/<first two hex>/<sha256>, with no extension and never a name a client chose. The two-level
@@ -136,6 +178,14 @@ export function createContentStore(dataDir: string): ContentStore {
       if (await touch(file)) return { sha256, existed: true };
       // Two uploads of the same bytes may race here; both renames install identical content.
       await writeAtomically(file, buffer);
+      return { sha256, existed: false };
+    },
+    async putFile(spooled) {
+      const { sha256 } = spooled;
+      const file = objectPath(sha256);
+      // As in put: an existing object's time is renewed, or the bytes are written again if the sweep has moved it.
+      if (await touch(file)) return { sha256, existed: true };
+      await installAtomically(spooled.path, file);
       return { sha256, existed: false };
     },
     path: objectPath,

@@ -64,8 +64,30 @@ export const errorHandler: ErrorRequestHandler = (err, req, res, next) => {
   if (appError.retryAfterSeconds !== undefined) res.set('Retry-After', String(appError.retryAfterSeconds));
   const body: ErrorBody = { error: { code: appError.code, message: appError.message } };
   if (appError.details !== undefined) body.error.details = appError.details;
-  res.status(appError.status).json(body);
+  if (req.complete) res.status(appError.status).json(body);
+  else answerBeforeBody(req, res, appError.status, body);
 };
+
+/**
+ * A refusal decided before the body was read (no session, wrong role, too many uploads…) is sent at once, but the
+ * response ends only once the rest of the body has arrived, read and thrown away. A server that closes the
+ * connection while the client is still sending makes the client's TCP stack reset it, and the answer already
+ * sent is lost with it (RFC 9112 §9.6 asks servers to close gradually for this reason); Node closes right after
+ * the response ends when the client asked for `Connection: close`. With Content-Length the client has the whole
+ * answer as soon as it arrives and may stop sending; nothing of the body is kept.
+ */
+function answerBeforeBody(req: Parameters<ErrorRequestHandler>[1], res: Parameters<ErrorRequestHandler>[2], status: number, body: ErrorBody): void {
+  const payload = Buffer.from(JSON.stringify(body));
+  res.status(status).set({ 'Content-Type': 'application/json; charset=utf-8', 'Content-Length': String(payload.length) });
+  res.write(payload);
+  const end = () => {
+    if (!res.writableEnded) res.end();
+  };
+  if (req.destroyed) return end();
+  req.once('end', end);
+  req.once('close', end);
+  req.resume();
+}
 
 /** Unknown /api paths answer JSON, never the SPA's HTML. */
 export const apiNotFound: RequestHandler = (_req, _res, next) => {

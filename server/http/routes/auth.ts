@@ -7,6 +7,7 @@ import {
   signupLinkParams,
   signupRequestBody,
 } from '../../contracts';
+import { jsonBody } from '../middleware/body';
 import { validate, validated } from '../middleware/validate';
 import type { RouteDeps } from './deps';
 import { clearSessionCookie, setSessionCookie } from './session-cookie';
@@ -21,6 +22,8 @@ const resetConfirmInput = { body: passwordResetConfirmBody };
 /** Limiters run before validation, so a flood of malformed bodies is counted too. */
 export function authRouter(d: RouteDeps): Router {
   const r = Router();
+  // Anonymous routes, with the small limit; read up front because the attempt limiters key on the e-mail in it.
+  r.use(jsonBody('anonymous'));
 
   // The same 202 whether or not the address has an account; the mail says what to do next.
   r.post('/signup', d.limiters.signup, validate(signupInput), (req, res) => {

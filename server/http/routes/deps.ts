@@ -15,6 +15,7 @@ import type {
   TeamsService,
 } from '../../services';
 import type { RequireTeamRole } from '../middleware/require-team-role';
+import type { TeamEventStreams } from '../middleware/sse';
 
 /** Every service the HTTP layer calls; built once in server/composition.ts. */
 export interface Services {
@@ -48,4 +49,8 @@ export interface RouteDeps extends Services {
     resetRequest: RequestHandler;
     resetConfirm: RequestHandler;
   };
+  /** Receives an upload's files to disk, within the upload limits and concurrency caps (middleware/receive-files). */
+  receiveFiles: RequestHandler;
+  /** Run event streams: the per-user cap and the membership re-check (middleware/sse). */
+  eventStreams: TeamEventStreams;
 }

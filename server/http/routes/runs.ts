@@ -1,6 +1,5 @@
 import { Router } from 'express';
 import { createRunBody, runParams, teamParams } from '../../contracts';
-import { streamSource } from '../middleware/sse';
 import { validate, validated } from '../middleware/validate';
 import type { RouteDeps } from './deps';
 
@@ -19,9 +18,10 @@ function readRoutes(r: Router, d: RouteDeps) {
     res.set('Cache-Control', 'no-store').json({ run: await d.runs.get(params.teamId, params.runId) });
   });
 
-  r.get('/:runId/events', d.authenticate, d.requireTeamRole(), validate(oneInput), async (req, res) => {
+  // Every member may watch; the stream ends when the reader stops being one (see eventStreams).
+  r.get('/:runId/events', d.authenticate, d.requireTeamRole(), validate(oneInput), d.eventStreams.reserve, async (req, res) => {
     const { params } = validated(req, oneInput);
-    streamSource(req, res, await d.runs.watch(params.teamId, params.runId));
+    d.eventStreams.serve(req, res, await d.runs.watch(params.teamId, params.runId));
   });
 }
 

@@ -1,5 +1,5 @@
 import sharp, { type Metadata } from 'sharp';
-import { trailingBytes } from './trailing-data';
+import { trailingBytesInFile } from './trailing-data';
 
 /** Raster formats the studio accepts; each decodes in every prebuilt sharp (AVIF through libheif). */
 export const imageFormats = ['png', 'jpeg', 'webp', 'tiff', 'avif', 'gif'] as const;
@@ -43,7 +43,7 @@ export class ImageRejected extends Error {
   }
 }
 
-const reasonOf = (err: unknown) => (err instanceof Error ? err.message.split('\n')[0].trim().replace(/:$/, '') : String(err));
+const firstLine = (err: unknown) => (err instanceof Error ? err.message.split('\n')[0].trim().replace(/:$/, '') : String(err));
 
 function formatOf(meta: Metadata): ImageFormat | null {
   // sharp reports AVIF as HEIF with AV1 compression; HEIC (HEVC) is a different, unsupported codec.
@@ -57,13 +57,15 @@ const acceptedList = 'PNG, JPEG, WebP, TIFF, AVIF or GIF';
  * Decodes the whole image before anything is stored: the header alone says nothing about a truncated
  * or corrupt body, so the pixels are decoded in full (stats() reads every pixel without keeping them).
  * failOn 'error' also aborts on truncation; the pixel limit is checked from the header first so the
- * message can say how big the image claims to be.
+ * message can say how big the image claims to be. The file is read from disk by libvips as it decodes.
  */
-export async function inspectImage(data: Buffer, label: string, limits: { maxPixels: number }): Promise<InspectedImage> {
-  if (data.length === 0) throw new ImageRejected(`${label}: the file is empty`);
+export async function inspectImage(file: { path: string; bytes: number }, label: string, limits: { maxPixels: number }): Promise<InspectedImage> {
+  if (file.bytes === 0) throw new ImageRejected(`${label}: the file is empty`);
+  // Some decoders name the file they read; the client knows it by its label, and server paths stay private.
+  const reasonOf = (err: unknown) => firstLine(err).split(file.path).join(label);
   let meta: Metadata;
   try {
-    meta = await sharp(data, { failOn: 'error', limitInputPixels: false }).metadata();
+    meta = await sharp(file.path, { failOn: 'error', limitInputPixels: false }).metadata();
   } catch (err) {
     const reason = reasonOf(err);
     if (/unsupported image format/i.test(reason)) {
@@ -83,7 +85,7 @@ export async function inspectImage(data: Buffer, label: string, limits: { maxPix
       `${label}: ${width}×${height} is ${width * height} pixels, more than the limit of ${limits.maxPixels} pixels per image`,
     );
   }
-  const extra = trailingBytes(format, data);
+  const extra = await trailingBytesInFile(format, file.path);
   if (extra > 0) {
     throw new ImageRejected(
       `${label}: ${extra} bytes follow the end of the ${format.toUpperCase()} image; files with data appended (such as an archive) are refused`,
@@ -91,13 +93,13 @@ export async function inspectImage(data: Buffer, label: string, limits: { maxPix
   }
   const options = { failOn: 'error' as const, limitInputPixels: limits.maxPixels };
   try {
-    await sharp(data, options).stats();
+    await sharp(file.path, options).stats();
   } catch (err) {
     throw new ImageRejected(`${label}: the ${format.toUpperCase()} data is damaged or truncated and does not decode (${reasonOf(err)})`);
   }
   let thumbnail: Buffer;
   try {
-    thumbnail = await makeThumbnail(data, limits.maxPixels);
+    thumbnail = await makeThumbnail(file.path, limits.maxPixels);
   } catch (err) {
     throw new ImageRejected(`${label}: the image decodes but no thumbnail can be made of it (${reasonOf(err)})`);
   }

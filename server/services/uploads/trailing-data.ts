@@ -1,3 +1,5 @@
+import { readFile } from 'node:fs/promises';
+
 /**
  * Bytes after the end of the image are how polyglot files work (a PNG that is also a zip archive, a JPEG that is
  * also a script): decoders stop where the image ends and never see them. The store keeps originals byte for byte,
@@ -281,4 +283,12 @@ function tiffTrailing(data: Buffer): number {
   // TIFF 6.0 keeps values on word boundaries, so a writer may leave one pad byte after the last of them.
   const extra = data.length - end;
   return extra === 1 && data[end] === 0 ? 0 : extra;
+}
+
+/**
+ * trailingBytes for a file on disk. The walkers above take the bytes in memory, so the file is read whole —
+ * at most the per-file upload limit, and the upload service inspects only a few files at once.
+ */
+export async function trailingBytesInFile(format: string, file: string): Promise<number> {
+  return trailingBytes(format, await readFile(file));
 }

@@ -1,9 +1,24 @@
+import { open, rm } from 'node:fs/promises';
+import type { Readable } from 'node:stream';
 import yauzl, { type Entry, type ZipFile } from 'yauzl';
+import type { SpooledFile } from '../../storage/spool';
 import { formatBytes, type Rejection } from './rejection';
 
 /** A local file header starts every zip that holds at least one file (APPNOTE.TXT 4.3.7). */
 export function isZipArchive(data: Buffer): boolean {
   return data.length >= 4 && data[0] === 0x50 && data[1] === 0x4b && data[2] === 0x03 && data[3] === 0x04;
+}
+
+/** isZipArchive for a file on disk, reading its first four bytes only. */
+export async function isZipFile(file: string): Promise<boolean> {
+  const handle = await open(file, 'r');
+  try {
+    const head = Buffer.alloc(4);
+    const { bytesRead } = await handle.read(head, 0, 4, 0);
+    return isZipArchive(head.subarray(0, bytesRead));
+  } finally {
+    await handle.close();
+  }
 }
 
 /**
@@ -26,7 +41,15 @@ export interface ZipMember {
   label: string;
   /** The path inside the archive, for display. */
   path: string;
-  data: Buffer;
+  /** The unpacked entry, in the caller's scratch folder; deleted after onEntry unless onEntry moved it. */
+  file: SpooledFile;
+}
+
+export interface UnpackOptions {
+  maxEntryBytes: number;
+  budget: ZipBudget;
+  /** Writes an entry's bytes to a file (ScratchFolder.write), so no entry is ever held in memory whole. */
+  extract(source: Readable, options: { maxBytes: number }): Promise<SpooledFile>;
 }
 
 /**
@@ -52,11 +75,8 @@ function skipped(name: string): boolean {
 
 const reasonOf = (err: unknown) => (err instanceof Error ? err.message.split('\n')[0] : String(err));
 
-async function readAll(zip: ZipFile, entry: Entry): Promise<Buffer> {
-  const stream = await zip.openReadStreamPromise(entry);
-  const chunks: Buffer[] = [];
-  for await (const chunk of stream) chunks.push(chunk as Buffer);
-  return Buffer.concat(chunks);
+async function extractEntry(zip: ZipFile, entry: Entry, options: UnpackOptions): Promise<SpooledFile> {
+  return options.extract(await zip.openReadStreamPromise(entry), { maxBytes: options.maxEntryBytes });
 }
 
 interface Candidate {
@@ -96,21 +116,25 @@ async function listEntries(zip: ZipFile, archiveName: string, budget: ZipBudget)
 }
 
 /**
- * Unpacks a zip held in memory and hands each file entry to onEntry, one at a time, so at most one
- * unpacked entry is held at once. Unsafe paths, oversized, encrypted, nested or unreadable entries are
- * rejected by name and the rest are still handed on; an archive over the entry or byte budget is refused
- * before any of it is unpacked. Sizes are checked against what the archive declares as the bytes stream
- * in (validateEntrySizes), so a lying header cannot slip past the budget.
+ * Unpacks a zip (a file on disk, or bytes in memory) and hands each file entry to onEntry, one at a time,
+ * as a file of its own, so at most one unpacked entry exists at once and none is held in memory. Unsafe
+ * paths, oversized, encrypted, nested or unreadable entries are rejected by name and the rest are still
+ * handed on; an archive over the entry or byte budget is refused before any of it is unpacked. Sizes are
+ * checked against what the archive declares as the bytes stream in (validateEntrySizes), so a lying
+ * header cannot slip past the budget.
  */
 export async function unpackZip(
-  archive: Buffer,
+  archive: string | Buffer,
   archiveName: string,
-  options: { maxEntryBytes: number; budget: ZipBudget },
+  options: UnpackOptions,
   onEntry: (member: ZipMember) => Promise<void>,
 ): Promise<Rejection[]> {
   let zip: ZipFile;
+  // autoClose off: the whole directory is listed before any entry is read, and yauzl would otherwise close
+  // the file after the last directory entry; the finally below closes it.
+  const zipOptions = { lazyEntries: true, decodeStrings: false, validateEntrySizes: true, autoClose: false };
   try {
-    zip = await yauzl.fromBufferPromise(archive, { lazyEntries: true, decodeStrings: false, validateEntrySizes: true });
+    zip = typeof archive === 'string' ? await yauzl.openPromise(archive, zipOptions) : await yauzl.fromBufferPromise(archive, zipOptions);
   } catch (err) {
     return [{ file: archiveName, message: `${archiveName}: not a readable zip archive (${reasonOf(err)})` }];
   }
@@ -135,19 +159,20 @@ export async function unpackZip(
         reject(`is ${formatBytes(entry.uncompressedSize)}, larger than the ${formatBytes(options.maxEntryBytes)} limit per file`);
         continue;
       }
-      let data: Buffer;
+      let file: SpooledFile;
       try {
-        data = await readAll(zip, entry);
+        file = await extractEntry(zip, entry, options);
       } catch (err) {
         reject(`cannot be unpacked (${reasonOf(err)})`);
         continue;
       }
-      budget.bytesLeft -= data.length;
-      if (isZipArchive(data)) {
-        reject('is itself a zip archive; archives inside archives are not unpacked');
-        continue;
+      try {
+        budget.bytesLeft -= file.bytes;
+        if (await isZipFile(file.path)) reject('is itself a zip archive; archives inside archives are not unpacked');
+        else await onEntry({ label, path, file });
+      } finally {
+        await rm(file.path, { force: true });
       }
-      await onEntry({ label, path, data });
     }
     return rejected;
   } finally {

@@ -1,18 +1,35 @@
 import { execFileSync } from 'node:child_process';
-import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
-import { describe, expect, it } from 'vitest';
-import { isZipArchive, unpackZip, unsafeEntryPath, zipBudget, type ZipMember } from '../../../server/services/uploads/zip-archive';
+import { afterAll, describe, expect, it } from 'vitest';
+import { isZipArchive, isZipFile, unpackZip, unsafeEntryPath, zipBudget } from '../../../server/services/uploads/zip-archive';
+import { createSpool } from '../../../server/storage/spool';
 import { writeZip } from './support/zip-writer';
 
 const MiB = 1024 * 1024;
 
+const spoolDir = mkdtempSync(path.join(tmpdir(), 'cellwright-zip-spool-'));
+afterAll(() => rmSync(spoolDir, { recursive: true, force: true }));
+
+interface Unpacked {
+  label: string;
+  path: string;
+  data: Buffer;
+}
+
+/** Unpacks from a file, as uploads do, reading each entry while onEntry holds it; nothing is left in the scratch folder. */
 async function unpack(archive: Buffer, budget = zipBudget(100, 64 * MiB), maxEntryBytes = 16 * MiB) {
-  const members: ZipMember[] = [];
-  const rejected = await unpackZip(archive, 'tiles.zip', { maxEntryBytes, budget }, async (m) => {
-    members.push(m);
+  const scratch = await createSpool(spoolDir).folder();
+  const file = path.join(scratch.path, 'archive.zip');
+  writeFileSync(file, archive);
+  const members: Unpacked[] = [];
+  const rejected = await unpackZip(file, 'tiles.zip', { maxEntryBytes, budget, extract: scratch.write }, async (m) => {
+    members.push({ label: m.label, path: m.path, data: readFileSync(m.file.path) });
   });
+  // Every unpacked entry is deleted once handed on; only the archive itself remains.
+  expect(readdirSync(scratch.path)).toEqual(['archive.zip']);
+  await scratch.remove();
   return { members, rejected };
 }
 
@@ -22,6 +39,14 @@ describe('zip archives', () => {
     expect(isZipArchive(writeZip([{ name: 'a.png', data: Buffer.from('x') }]))).toBe(true);
     expect(isZipArchive(Buffer.from('PK\x05\x06'))).toBe(false);
     expect(isZipArchive(Buffer.from('\x89PNG\r\n\x1a\n'))).toBe(false);
+  });
+
+  it('recognises an archive on disk by its first four bytes', async () => {
+    const dir = mkdtempSync(path.join(spoolDir, 'head-'));
+    writeFileSync(path.join(dir, 'a'), writeZip([{ name: 'a.png', data: Buffer.from('x') }]));
+    writeFileSync(path.join(dir, 'b'), 'PK');
+    expect(await isZipFile(path.join(dir, 'a'))).toBe(true);
+    expect(await isZipFile(path.join(dir, 'b'))).toBe(false);
   });
 
   it('unpacks an archive written by Info-ZIP zip, folders included, skipping folder and dot entries', async () => {

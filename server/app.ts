@@ -107,9 +107,15 @@ export function createApp(deps: AppDeps): Express {
 
   const account = { limit: config.accountRateLimit, windowMs: config.accountRateWindowMs };
   const uploadGate = createConcurrencyGate({ total: config.uploads.maxConcurrent, perUser: config.uploads.maxConcurrentPerUser });
-  const eventStreams = createTeamEventStreams({ maxPerUser: config.sseMaxStreamsPerUser, teams: services.teams });
+  const eventStreams = createTeamEventStreams({
+    maxPerUser: config.sseMaxStreamsPerUser,
+    teams: services.teams,
+    sessionIsLive: (userId, sessionId) => services.accounts.sessionIsLive(userId, sessionId),
+  });
   // A removed member's (or demoted one's) open streams of the team end at once, not at the next heartbeat.
   services.teams.onMembershipChange(({ teamId, userId }) => void eventStreams.recheck(teamId, userId));
+  // So do the streams of a session that has ended (signed out, or its password changed or reset).
+  services.accounts.onSessionsEnded((userId) => void eventStreams.recheckUser(userId));
   const routeDeps: RouteDeps = {
     ...services,
     authenticate,

@@ -56,6 +56,18 @@ export function createAccountsService(deps: AccountsDeps) {
   // Computed up front so the first sign-in with an unknown address is not the slow one.
   void dummy().catch(() => undefined);
   const background = new Set<Promise<void>>();
+  // Told after sessions of a user end (sign-out, password change, reset) has committed, so long-lived responses
+  // opened with them (event streams) re-check at once instead of at their next heartbeat.
+  const sessionListeners = new Set<(userId: number) => void>();
+  const sessionsEnded = (userId: number) => {
+    for (const listener of sessionListeners) {
+      try {
+        listener(userId);
+      } catch (err) {
+        deps.logger.error({ err }, 'a session listener failed');
+      }
+    }
+  };
   // The tail of each address's background work: one address's requests run one after another, so the hourly
   // share of account mail (count, then insert) holds however many arrive at once (one process per database).
   const perAddress = new Map<string, Promise<void>>();
@@ -197,9 +209,20 @@ export function createAccountsService(deps: AccountsDeps) {
       return { user: publicUser(live.user), sessionId: claims.jti };
     },
 
+    /** Whether the session is still live (a long-lived response re-checks it: sign-out and password changes end it). */
+    async sessionIsLive(userId: number, sessionId: string): Promise<boolean> {
+      return (await deps.db.repos.sessions.findLive(sessionId, userId, now())) !== null;
+    },
+
     /** Ends the session the request's token names (cookie or Bearer); a missing or dead one is no error. */
-    async logout(sessionId: string | undefined): Promise<void> {
-      if (sessionId) await deps.db.repos.sessions.revoke(sessionId, now());
+    async logout(caller: { userId: number; sessionId: string } | undefined): Promise<void> {
+      if (!caller) return;
+      if (await deps.db.repos.sessions.revoke(caller.sessionId, now())) sessionsEnded(caller.userId);
+    },
+
+    onSessionsEnded(listener: (userId: number) => void): () => void {
+      sessionListeners.add(listener);
+      return () => sessionListeners.delete(listener);
     },
 
     async me(user: User): Promise<MeResponse> {
@@ -224,6 +247,7 @@ export function createAccountsService(deps: AccountsDeps) {
         await tx.passwordResets.spendAllForUser(record.id, now());
         await recordAudit(tx, { teamId: null, actorUserId: record.id, action: 'password.changed', targetType: 'user', targetId: record.id });
       });
+      sessionsEnded(record.id);
     },
 
     /**
@@ -240,14 +264,16 @@ export function createAccountsService(deps: AccountsDeps) {
       // The token is checked before the slow hash, so a made-up token costs no bcrypt.
       ensureLinkUsable(await deps.db.repos.passwordResets.findByTokenHash(tokenHash), now(), 'password reset');
       const passwordHash = await deps.passwords.hash(password);
-      await deps.db.transaction(async (tx) => {
+      const userId = await deps.db.transaction(async (tx) => {
         const reset = await tx.passwordResets.findByTokenHash(tokenHash, { forUpdate: true });
         ensureLinkUsable(reset, now(), 'password reset');
         await tx.users.setPassword(reset.userId, passwordHash);
         await tx.passwordResets.spendAllForUser(reset.userId, now());
         await tx.sessions.revokeAllForUser(reset.userId, now());
         await recordAudit(tx, { teamId: null, actorUserId: reset.userId, action: 'password_reset.completed', targetType: 'user', targetId: reset.userId });
+        return reset.userId;
       });
+      sessionsEnded(userId);
     },
 
     /** Resolves when every background request has written its rows and queued its mail. */

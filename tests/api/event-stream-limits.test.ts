@@ -1,8 +1,9 @@
-// Run event streams are capped per user, and a member's streams of a team end when the member is removed.
+// Run event streams are capped per user, and a member's streams of a team end when the member is removed or the
+// session that opened them ends (sign-out, password change).
 // The runs here stay queued (the job runner is not started), so a stream never ends by itself.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { addMember, bearer, type Session } from '../helpers/api';
+import { addMember, bearer, testPassword, type Session } from '../helpers/api';
 import { buildWorld, type World } from './hostile/world';
 
 let w: World;
@@ -103,5 +104,37 @@ describe('run event streams', () => {
     expect(ended).toBe(false);
     streams.abort();
     later.abort();
+  });
+
+  it('ends the streams a session opened when that session signs out, and refuses the token after', async () => {
+    const member = await addMember(w.t, w.admin, 'viewer');
+    const stream = await openStream(member);
+    expect(stream.status).toBe(200);
+    const out = await request(w.t.app).post('/api/auth/logout').set(bearer(member));
+    expect(out.status).toBe(204);
+    // Ends without the test closing it.
+    await stream.ended;
+    expect((await openStream(member)).status).toBe(401);
+  });
+
+  it("ends a user's other sessions' streams on a password change and keeps the changing session's", async () => {
+    const member = await addMember(w.t, w.admin, 'viewer');
+    const login = await request(w.t.app).post('/api/auth/login').send({ email: member.user.email, password: testPassword });
+    expect(login.status).toBe(200);
+    const other = { ...member, token: login.body.token as string };
+    const otherStream = await openStream(other);
+    const ownStream = await openStream(member, w.runIds[1]);
+    expect([otherStream.status, ownStream.status]).toEqual([200, 200]);
+    let ownEnded = false;
+    void ownStream.ended.then(() => (ownEnded = true));
+    const changed = await request(w.t.app)
+      .post('/api/me/password')
+      .set(bearer(member))
+      .send({ currentPassword: testPassword, newPassword: 'a-new-harbour-passphrase' });
+    expect(changed.status).toBe(204);
+    await otherStream.ended;
+    // The re-check that ended the other stream has run; the caller's own stream is still open.
+    expect(ownEnded).toBe(false);
+    ownStream.abort();
   });
 });

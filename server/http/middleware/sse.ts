@@ -101,24 +101,34 @@ export function streamSource(req: Request, res: Response, source: WatchedSource,
  * opens), and each ends as soon as its reader may no longer read the team — re-checked when told a membership
  * changed (recheck) and at every heartbeat, for changes made where no signal reaches this process.
  */
-export function createTeamEventStreams(deps: { maxPerUser: number; teams: MembershipLookup }) {
+export function createTeamEventStreams(deps: {
+  maxPerUser: number;
+  teams: MembershipLookup;
+  /** Whether the session that opened a stream is still live; a signed-out or replaced session's streams end. */
+  sessionIsLive(userId: number, sessionId: string): Promise<boolean>;
+}) {
   const gate = createConcurrencyGate({ perUser: deps.maxPerUser });
   interface Open {
     teamId: number;
     userId: number;
     roles: readonly Role[];
+    sessionId: string | undefined;
     stream: EventStream;
   }
   const open = new Set<Open>();
 
   async function check(entry: Open): Promise<void> {
     let membership: { role: Role } | null;
+    let live: boolean;
     try {
-      membership = await deps.teams.membership(entry.teamId, entry.userId);
+      [membership, live] = await Promise.all([
+        deps.teams.membership(entry.teamId, entry.userId),
+        entry.sessionId === undefined ? true : deps.sessionIsLive(entry.userId, entry.sessionId),
+      ]);
     } catch {
       return; // the database is out of reach: keep the stream, the next heartbeat asks again
     }
-    const allowed = membership !== null && (entry.roles.length === 0 || entry.roles.includes(membership.role));
+    const allowed = live && membership !== null && (entry.roles.length === 0 || entry.roles.includes(membership.role));
     if (!allowed) entry.stream.end();
   }
 
@@ -134,10 +144,14 @@ export function createTeamEventStreams(deps: { maxPerUser: number; teams: Member
     reserve,
     /** streamSource for the caller's team (req.membership), kept only while the caller holds one of `roles` (any, if none). */
     serve(req: Request, res: Response, source: WatchedSource, roles: readonly Role[] = []): void {
-      const entry = { teamId: req.membership!.teamId, userId: req.user!.id, roles } as Open;
+      const entry = { teamId: req.membership!.teamId, userId: req.user!.id, roles, sessionId: req.sessionId } as Open;
       res.once('close', () => open.delete(entry));
       entry.stream = streamSource(req, res, source, () => void check(entry));
       if (!entry.stream.closed) open.add(entry);
+    },
+    /** Ends the user's streams whose session has ended; resolves once checked. */
+    async recheckUser(userId: number): Promise<void> {
+      await Promise.all([...open].filter((e) => e.userId === userId).map(check));
     },
     /** Ends the user's streams of the team that the membership no longer allows; resolves once checked. */
     async recheck(teamId: number, userId: number): Promise<void> {

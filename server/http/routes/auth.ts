@@ -49,7 +49,7 @@ export function authRouter(d: RouteDeps): Router {
 
   // Ends the session the token names (cookie or Bearer) on the server, not only in this browser.
   r.post('/logout', d.identify, async (req, res) => {
-    await d.accounts.logout(req.sessionId);
+    await d.accounts.logout(req.user && req.sessionId ? { userId: req.user.id, sessionId: req.sessionId } : undefined);
     clearSessionCookie(req, res);
     res.status(204).end();
   });

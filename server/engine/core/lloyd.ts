@@ -20,7 +20,8 @@ export interface LloydContext {
 /**
  * Generalized Lloyd iteration from `codewords` (K × d, row-major; modified in place):
  * nearest-codeword partition, empty-cell repair, centroid update, repeated until the
- * relative drop (D_prev − D)/D falls below epsilon or maxIterations updates are done.
+ * relative drop (D_prev − D)/D falls below epsilon, the distortion stops dropping at all (a fixed point, even with
+ * epsilon 0), or maxIterations updates are done.
  * If an update raises the distortion (float32 rounding of the centroids at convergence
  * can do that by a hair) the previous codebook is kept and the run stops.
  */
@@ -68,7 +69,10 @@ export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: nu
     const drop = (distortion - nextDistortion) / nextDistortion;
     stats = next;
     distortion = nextDistortion;
-    if (!(drop >= ctx.epsilon)) break;
+    // A pass that did not lower the distortion is a fixed point: with unchanged assignments the next update would
+    // give the same centroids again. It ends training whatever epsilon is (epsilon 0 would otherwise run every
+    // allowed pass); a positive drop below epsilon ends it as before.
+    if (!(drop > 0 && drop >= ctx.epsilon)) break;
   }
   return {
     size: k,

@@ -49,6 +49,21 @@ describe('train', () => {
     }
   });
 
+  it('ends training at a fixed point even with epsilon 0', async () => {
+    // A zero drop in distortion means the codebook no longer changes; epsilon 0 must not run every allowed pass.
+    const one = await train(gaussian(500, 2, 4), 2, { k: 1, init: 'split', epsilon: 0, maxIterations: 1000 });
+    expect(one.codebooks[0].iterations).toBeLessThanOrEqual(2);
+    const sweep = await train(gaussian(400, 2, 5), 2, { k: 8, init: 'split', epsilon: 0, maxIterations: 1000 });
+    for (const book of sweep.codebooks) {
+      expect(book.iterations).toBeLessThan(1000);
+      // The last pass is where the distortion stopped dropping: nothing after a zero drop.
+      const own = book.trace.filter((s) => s.size === book.size);
+      const last = own.at(-1)!;
+      const before = own.at(-2);
+      if (before) expect(last.distortion).toBeGreaterThanOrEqual(before.distortion);
+    }
+  });
+
   it('keeps every LBG size with K last when K is not a power of two', async () => {
     const result = await train(gaussian(3000, 3, 3), 3, { k: 12, init: 'split' });
     expect(result.codebooks.map((b) => b.size)).toEqual([1, 2, 4, 8, 12]);

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { COLOR_MODES } from '../engine/vocabulary';
 import { pathId } from './common';
 
 export const codebookParams = z.object({ teamId: pathId, codebookId: pathId });
@@ -14,7 +15,7 @@ export const codebookSummary = z.object({
   size: z.number().int(),
   dimension: z.number().int(),
   patch: z.object({ width: z.number().int(), height: z.number().int() }),
-  color: z.enum(['luma', 'rgb']),
+  color: z.enum(COLOR_MODES),
   channels: z.number().int(),
   meanBits: z.number().int(),
   checksum: z.string(),

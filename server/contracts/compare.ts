@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { COLOR_MODES } from '../engine/vocabulary';
 import { baselinePoint } from './evaluation';
 
 export const compareRate = z.enum(['fixed', 'entropy', 'actual']);
@@ -41,7 +42,7 @@ export const compareRun = z.object({
   name: z.string(),
   state: z.string(),
   heldOutHash: z.string(),
-  color: z.enum(['luma', 'rgb']),
+  color: z.enum(COLOR_MODES),
   config: flatConfig,
   points: z.array(comparePoint),
   jpeg: z.array(baselinePoint),

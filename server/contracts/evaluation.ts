@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { COLOR_MODES } from '../engine/vocabulary';
 import { idParam, pathId } from './common';
 
 /**
@@ -48,7 +49,7 @@ export const runRef = z.object({ id: z.number().int(), name: z.string(), state: 
 export const runCurveResponse = z.object({
   run: runRef,
   heldOutHash: z.string(),
-  color: z.enum(['luma', 'rgb']).nullable(),
+  color: z.enum(COLOR_MODES).nullable(),
   points: z.array(curvePoint),
   baselines: baselineCurves,
 });

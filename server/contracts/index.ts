@@ -1,6 +1,7 @@
 // The only server folder the client imports: request, response and error shapes of the API.
 export * from './errors';
 export * from './common';
+export * from './vocabulary';
 export * from './auth';
 export * from './teams';
 export * from './jobs';

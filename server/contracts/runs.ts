@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { MAX_ITERATIONS } from '../engine/format/limits';
+import { BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SIDE, SEED, VECTOR_CAP } from '../engine/vocabulary';
 import { idParam, pathId } from './common';
 import { job, jobState } from './jobs';
 
@@ -8,7 +8,7 @@ const imageIds = z.array(idParam).min(1).max(10_000);
 
 /** b in bits per block: 2^b codewords. */
 export const bitsRange = z
-  .object({ from: int(0, 14), to: int(0, 14) })
+  .object({ from: int(BITS.min, BITS.max), to: int(BITS.min, BITS.max) })
   .strict()
   .refine((b) => b.from <= b.to, { message: 'from must not exceed to', path: ['from'] });
 
@@ -26,16 +26,16 @@ export const createRunBody = z
     trainingSetId: idParam.optional(),
     heldOutImageIds: imageIds.optional(),
     heldOutSetId: idParam.optional(),
-    patch: z.object({ width: int(2, 16), height: int(2, 16) }).strict(),
-    color: z.enum(['luma', 'rgb']).optional(),
+    patch: z.object({ width: int(PATCH_SIDE.min, PATCH_SIDE.max), height: int(PATCH_SIDE.min, PATCH_SIDE.max) }).strict(),
+    color: z.enum(COLOR_MODES).optional(),
     /** 0: no mean removal; 1..8: the block mean is coded with this many bits and removed before quantizing. */
-    meanBits: int(0, 8).optional(),
-    bits: z.union([int(0, 14), bitsRange]),
-    init: z.enum(['random', 'kmeans++', 'split']).optional(),
-    epsilon: z.number().gt(0).max(0.1).optional(),
-    maxIterations: int(1, MAX_ITERATIONS).optional(),
-    maxVectors: int(100, 2_000_000).optional(),
-    seed: z.number().int().min(0).max(2 ** 31 - 1).optional(),
+    meanBits: int(MEAN_BITS.min, MEAN_BITS.max).optional(),
+    bits: z.union([int(BITS.min, BITS.max), bitsRange]),
+    init: initMethodSchema.optional(),
+    epsilon: z.number().gt(EPSILON.min).max(EPSILON.runMax).optional(),
+    maxIterations: int(ITERATIONS.runMin, ITERATIONS.max).optional(),
+    maxVectors: int(VECTOR_CAP.min, VECTOR_CAP.max).optional(),
+    seed: int(SEED.min, SEED.max).optional(),
   })
   .strict()
   .superRefine((b, ctx) => {
@@ -54,12 +54,12 @@ export const normalizedRunConfig = z.object({
   trainingImageIds: z.array(z.number().int()),
   heldOutImageIds: z.array(z.number().int()),
   patch: z.object({ width: z.number().int(), height: z.number().int() }),
-  color: z.enum(['luma', 'rgb']),
+  color: z.enum(COLOR_MODES),
   meanBits: z.number().int(),
   bits: z.object({ from: z.number().int(), to: z.number().int() }),
   /** Codebook sizes the run keeps, 2^from … 2^to. */
   sizes: z.array(z.number().int()),
-  init: z.enum(['random', 'kmeans++', 'split']),
+  init: initMethodSchema,
   epsilon: z.number(),
   maxIterations: z.number().int(),
   maxVectors: z.number().int(),

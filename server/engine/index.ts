@@ -16,10 +16,12 @@ import { extractTrainingVectors, streamTrainingVectors, vectorDimension, type Tr
 import { readNpy, type NpyMatrix } from './io/npy';
 import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
+import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SIDE, SEED, type InitMethod } from './vocabulary';
 
 // ---- re-exports: what callers need, from one place ----
+export * from './vocabulary';
 export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWorkers, threadBudget, EngineError } from './core';
-export type { Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './core';
+export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './core';
 export { EngineInputError, type EngineInputErrorCode } from './format/engine-input-error';
 export {
   CODEBOOK_FORMAT, CODEBOOK_VERSION, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
@@ -48,11 +50,11 @@ export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics
 
 // ---- entry validation ----
 const int = (min: number, max?: number) => (max === undefined ? z.int().min(min) : z.int().min(min).max(max));
-const colorSchema = z.enum(['luma', 'rgb']);
-const patchShapeSchema = z.object({ width: int(2, 16), height: int(2, 16) });
+const colorSchema = z.enum(COLOR_MODES);
+const patchShapeSchema = z.object({ width: int(PATCH_SIDE.min, PATCH_SIDE.max), height: int(PATCH_SIDE.min, PATCH_SIDE.max) });
 const preprocessingSchema = z.discriminatedUnion('kind', [
   z.object({ kind: z.literal('none') }),
-  z.object({ kind: z.literal('mean-removed'), meanBits: int(1, 8) }),
+  z.object({ kind: z.literal('mean-removed'), meanBits: int(1, MEAN_BITS.max) }),
 ]);
 const threadsSchema = int(1, 1024).optional();
 const signalSchema = z.instanceof(AbortSignal).optional();
@@ -85,8 +87,9 @@ export async function loadNpy(path: string): Promise<NpyMatrix> {
 const extractSchema = z.object({
   patch: patchShapeSchema,
   stride: int(1).optional(),
+  // Any cap of at least one vector: the vocabulary's VECTOR_CAP is the studio's and the CLI's policy on top.
   sample: int(1).optional(),
-  seed: z.int().optional(),
+  seed: int(SEED.min, SEED.max).optional(),
   preprocessing: preprocessingSchema.optional(),
 });
 export type TrainingVectorOptions = z.infer<typeof extractSchema>;
@@ -141,16 +144,16 @@ const trainSchema = z
   .object({
     bits: int(0, MAX_BITS).optional(),
     size: int(1, 2 ** MAX_BITS).optional(),
-    init: z.enum(['random', 'kmeans++', 'split']),
-    epsilon: z.number().min(0).max(1).optional(),
+    init: initMethodSchema,
+    epsilon: z.number().min(EPSILON.min).max(EPSILON.max).optional(),
     // The format records the trace of every pass, so training stops at what a document may hold.
-    maxIterations: int(0, MAX_ITERATIONS).optional(),
-    seed: int(0).optional(),
+    maxIterations: int(ITERATIONS.min, MAX_ITERATIONS).optional(),
+    seed: int(SEED.min, SEED.max).optional(),
     threads: threadsSchema,
     signal: signalSchema,
     onProgress: z.function().optional(),
     onIteration: z.function().optional(),
-    patch: z.object({ width: int(2, 16), height: int(2, 16), channels: z.union([z.literal(1), z.literal(3)]), color: colorSchema }).nullable(),
+    patch: z.object({ width: int(PATCH_SIDE.min, PATCH_SIDE.max), height: int(PATCH_SIDE.min, PATCH_SIDE.max), channels: z.union([z.literal(1), z.literal(3)]), color: colorSchema }).nullable(),
     preprocessing: preprocessingSchema,
     source: z.string().max(MAX_SOURCE_LENGTH),
     stride: int(1).optional(),
@@ -162,7 +165,7 @@ export interface TrainCodebooksOptions {
   /** Codebook of 2^bits codewords (0..14) — or give `size` for any K. */
   bits?: number;
   size?: number;
-  init: 'random' | 'kmeans++' | 'split';
+  init: InitMethod;
   epsilon?: number;
   maxIterations?: number;
   seed?: number;

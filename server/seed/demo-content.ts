@@ -1,5 +1,5 @@
 import sharp from 'sharp';
-import type { CreateRunBody } from '../contracts';
+import { INIT, type CreateRunBody } from '../contracts';
 import type { Database } from '../db';
 import type { Composition } from '../composition';
 import type { Logger } from '../config';
@@ -28,7 +28,7 @@ const TILE_HEIGHT = 72;
 export const demoRunNames = ['Luma 4×4 sweep', 'Luma 4×4 mean-removed sweep'] as const;
 
 function demoRuns(trainingSetId: number, heldOutSetId: number): CreateRunBody[] {
-  const common = { trainingSetId, heldOutSetId, patch: { width: 4, height: 4 }, color: 'luma' as const, bits: { from: 1, to: 6 }, init: 'split' as const, seed: 11 };
+  const common = { trainingSetId, heldOutSetId, patch: { width: 4, height: 4 }, color: 'luma' as const, bits: { from: 1, to: 6 }, init: INIT.split, seed: 11 };
   return [
     { ...common, name: demoRunNames[0], notes: 'Baseline: plain 4×4 luma blocks, 1 to 6 index bits.', meanBits: 0 },
     { ...common, name: demoRunNames[1], notes: 'Same blocks with the block mean coded in 4 bits and removed first.', meanBits: 4 },

@@ -1,4 +1,5 @@
 import {
+  RUN_DEFAULTS as DEFAULTS,
   terminalJobStates,
   type CreateRunBody,
   type JobState,
@@ -14,8 +15,7 @@ import { heldOutHash } from '../jobs/held-out-hash';
 import { recordAudit } from './audit';
 import { runTrainingMemory, trainingMemoryExcess, type TrainingLimits } from './training-memory';
 
-// Defaults of the optional run settings; epsilon and the iteration cap are the engine's own defaults.
-const DEFAULTS = { color: 'luma', meanBits: 0, init: 'split', epsilon: 1e-4, maxIterations: 100, maxVectors: 200_000, seed: 1 } as const;
+// Defaults of the optional run settings are the run vocabulary's (server/engine/vocabulary.ts), as the engine's are.
 
 // A run's progress bar: training is most of the time, measuring the held-out images the rest.
 const TRAIN_SHARE = 0.8;

@@ -2,7 +2,7 @@ import { QueryClientProvider } from '@tanstack/react-query';
 import { cleanup, fireEvent, render, screen, within } from '@testing-library/react';
 import userEvent from '@testing-library/user-event';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import type { Image, ImageSet, RunDetail } from '../../server/contracts';
+import { INIT_LABELS, INIT_METHODS, SETTING_LABELS, type Image, type ImageSet, type RunDetail } from '../../server/contracts';
 import { RunForm } from '../../src/features/run-setup/components/run-form';
 import { emptyRunForm, fromRunConfig, type RunFormValues } from '../../src/features/run-setup/run-form-schema';
 import { createQueryClient } from '../../src/lib/query-client';
@@ -178,6 +178,15 @@ describe('new run form', () => {
     await user.click(screen.getByRole('button', { name: 'Start run' }));
     expect(screen.getByLabelText('Held-out set').getAttribute('aria-invalid')).toBe('true');
     expect(server.requests).toHaveLength(0);
+  });
+
+  it('offers exactly the vocabulary\'s init methods, by their labels, the default selected', () => {
+    renderForm();
+    const select = screen.getByLabelText(SETTING_LABELS.init) as HTMLSelectElement;
+    const options = [...select.options];
+    expect(options.map((o) => o.value)).toEqual([...INIT_METHODS]);
+    options.forEach((o, i) => expect(o.textContent).toContain(INIT_LABELS[INIT_METHODS[i]]));
+    expect(select.value).toBe(emptyRunForm.init);
   });
 
   it('explains out-of-range values with the bounds of the shared contract', async () => {

@@ -1,5 +1,5 @@
 import {
-  availableBaselineCodecs, baselines, DEFAULT_QUALITIES, evaluate, MAX_BITS, trainCodebooks, type BaselineCodec,
+  availableBaselineCodecs, baselines, DEFAULT_QUALITIES, evaluate, MAX_BITS, trainCodebooks, trainsEverySize, type BaselineCodec,
   type Codebook, type PatchInfo,
 } from '../../engine';
 import { intListOption, listOption, parseOptions, rangeOption, requiredString, type OptionSpec } from '../args';
@@ -17,7 +17,7 @@ Trains codebooks of 2^A … 2^B codewords on TRAIN_DIR (split init trains every 
 the held-out images, optionally adds standard-codec baselines measured the same way, and writes a rate–distortion CSV.
   --baseline LIST       comma-separated jpeg, webp, avif (avif only where this build encodes it)
   --qualities LIST      codec qualities to sweep (default ${DEFAULT_QUALITIES.join(',')})
-  --color, --stride, --mean-bits, --sample, --init, --epsilon, --max-iter, --seed, --threads   as for "cellwright train"
+  --color, --stride, --mean-bits, --max-vectors, --init, --epsilon, --max-iterations, --seed, --threads   as for "cellwright train"
 CSV columns: codec, bits, codebook_size, quality, bpp_fixed, bpp_entropy, bpp_actual, mse, psnr_db, ssim
 (empty where a column does not apply; psnr_db is "Infinity" for identical images).
 `;
@@ -79,7 +79,7 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   const books: Codebook[] = [];
   try {
     const common = { ...settings, signal: ctx.signal, patch, preprocessing: img.preprocessing, source: trainDir, stride: img.stride, sample: img.sample };
-    if (settings.init === 'split') {
+    if (trainsEverySize(settings.init)) {
       // One LBG pass to 2^B yields every smaller power of two on the way.
       const all = await trainCodebooks(vectors, dimension, { ...common, bits: hi, onProgress: (p) => bar.update(p.fraction, `K=${p.size}`) });
       books.push(...all.filter((b) => b.bits >= lo));

@@ -1,5 +1,5 @@
 import {
-  MAX_BITS, MAX_ITERATIONS, parsePatchShape, serializeCodebook, trainCodebooks, type Codebook, type ColorMode, type PatchInfo,
+  BITS, EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, type InitMethod, serializeCodebook, trainCodebooks, type Codebook, type ColorMode, type PatchInfo,
   type PreprocessingInfo,
 } from '../../engine';
 import { choiceOption, intOption, numberOption, parseOptions, requiredString, stringOption, type OptionSpec, type ParsedOptions } from '../args';
@@ -18,17 +18,20 @@ Input (one of):
   --vectors FILE.npy    training vectors, a float32/float64 little-endian C-order .npy array (N × d; 1-D is N × 1)
   --images DIR          images in DIR (png, jpg, webp, tif, avif); needs --patch
 Image options:
-  --patch WxH           patch width × height in pixels, each 2..16 (also allowed with --vectors, to record the geometry)
+  --patch WxH           patch width × height in pixels, each ${PATCH_SIDE.min}..${PATCH_SIDE.max} (also allowed with --vectors, to record the geometry)
   --stride S            step between training patches in pixels (default: the patch size, non-overlapping)
   --color luma|rgb      luma (BT.601, default) or rgb (R,G,B interleaved per pixel)
-  --mean-bits M         mean-removed VQ: code each block mean with M bits (1..8), quantize the residual
-  --sample N            train on at most N vectors, drawn at random (seeded) across images in proportion to area
+  --mean-bits M         mean-removed VQ: code each block mean with M bits (1..${MEAN_BITS.max}), quantize the residual
+  --max-vectors N       vector cap: train on at most N vectors (${VECTOR_CAP.min}..${VECTOR_CAP.max}), drawn at random (seeded)
+                        across images in proportion to area (--sample N is the same option, its older name)
 Training:
-  --bits B              codebook size 2^B, B from 0 to ${MAX_BITS} (required)
-  --init METHOD         split (LBG, default), kmeans++ or random
-  --epsilon E           stop when the relative drop in distortion is below E (default 1e-4)
-  --max-iter N          at most N Lloyd iterations per codebook size, 0..${MAX_ITERATIONS} (default 100)
-  --seed N              random seed (default 1)
+  --bits B              codebook size 2^B, B from ${BITS.min} to ${BITS.max} (required)
+  --init METHOD         ${INIT_METHODS.map((m) => `${m}: ${INIT_LABELS[m]}${m === RUN_DEFAULTS.init ? ' (default)' : ''}, ${INIT_HINTS[m]}`).join('\n                        ')}
+  --epsilon E           stop when the relative drop in distortion is below E, ${EPSILON.min}..${EPSILON.max} (default ${RUN_DEFAULTS.epsilon});
+                        training also stops when the distortion no longer drops
+  --max-iterations N    at most N Lloyd iterations per codebook size, ${ITERATIONS.min}..${ITERATIONS.max} (default ${RUN_DEFAULTS.maxIterations});
+                        --max-iter N is the same option, its older name
+  --seed N              random seed, ${SEED.min}..${SEED.max} (default ${RUN_DEFAULTS.seed})
   --threads N           worker threads (default: all cores the engine may use)
 Output:
   --out FILE            codebook JSON to write (written atomically)
@@ -40,6 +43,7 @@ export const imageOptionSpec: OptionSpec = {
   stride: { type: 'string' },
   color: { type: 'string' },
   'mean-bits': { type: 'string' },
+  'max-vectors': { type: 'string' },
   sample: { type: 'string' },
 };
 
@@ -47,6 +51,7 @@ export const imageOptionSpec: OptionSpec = {
 export const trainingOptionSpec: OptionSpec = {
   init: { type: 'string' },
   epsilon: { type: 'string' },
+  'max-iterations': { type: 'string' },
   'max-iter': { type: 'string' },
   seed: { type: 'string' },
   threads: { type: 'string' },
@@ -64,31 +69,37 @@ const SPEC: OptionSpec = {
 };
 
 export interface TrainingSettings {
-  init: 'split' | 'kmeans++' | 'random';
+  init: InitMethod;
   epsilon?: number;
   maxIterations?: number;
   seed?: number;
   threads?: number;
 }
 
+/** The option to read of a name and its older alias; giving both is refused rather than one silently winning. */
+function aliased(values: ParsedOptions, name: string, alias: string): string {
+  if (values[name] !== undefined && values[alias] !== undefined) throw new CliUsageError(`--${alias} is the older name of --${name}; give one of them`);
+  return values[alias] !== undefined ? alias : name;
+}
+
 export function trainingSettings(values: ParsedOptions): TrainingSettings {
   return {
-    init: choiceOption(values, 'init', ['split', 'kmeans++', 'random'] as const) ?? 'split',
-    epsilon: numberOption(values, 'epsilon', { min: 0, max: 1 }),
-    maxIterations: intOption(values, 'max-iter', { min: 0, max: MAX_ITERATIONS }),
-    seed: intOption(values, 'seed', { min: 0, max: 2 ** 32 - 1 }),
+    init: choiceOption(values, 'init', INIT_METHODS) ?? RUN_DEFAULTS.init,
+    epsilon: numberOption(values, 'epsilon', EPSILON),
+    maxIterations: intOption(values, aliased(values, 'max-iterations', 'max-iter'), ITERATIONS),
+    seed: intOption(values, 'seed', SEED),
     threads: intOption(values, 'threads', { min: 1, max: 1024 }),
   };
 }
 
 export function imageSettings(values: ParsedOptions) {
   const patchText = stringOption(values, 'patch');
-  const meanBits = intOption(values, 'mean-bits', { min: 1, max: 8 });
+  const meanBits = intOption(values, 'mean-bits', { min: 1, max: MEAN_BITS.max });
   return {
     patch: patchText === undefined ? undefined : parsePatchShape(patchText),
     color: choiceOption(values, 'color', ['luma', 'rgb'] as const) ?? ('luma' as ColorMode),
     stride: intOption(values, 'stride', { min: 1, max: 1 << 16 }),
-    sample: intOption(values, 'sample', { min: 1 }),
+    sample: intOption(values, aliased(values, 'max-vectors', 'sample'), VECTOR_CAP),
     preprocessing: (meanBits === undefined ? { kind: 'none' } : { kind: 'mean-removed', meanBits }) as PreprocessingInfo,
   };
 }
@@ -102,7 +113,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
   const vectorsPath = stringOption(values, 'vectors');
   const imagesDir = stringOption(values, 'images');
   if ((vectorsPath === undefined) === (imagesDir === undefined)) throw new CliUsageError('"cellwright train" needs exactly one of --vectors and --images');
-  const bits = intOption(values, 'bits', { min: 0, max: MAX_BITS });
+  const bits = intOption(values, 'bits', BITS);
   if (bits === undefined) throw new CliUsageError('"cellwright train" needs --bits');
   const out = requiredString(values, 'out', 'train');
   const settings = trainingSettings(values);

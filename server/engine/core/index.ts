@@ -10,6 +10,7 @@ import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook
 import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from './validate';
 import { NearestSearch } from '../parallel/nearest-search';
 import { NearestKernel } from '../wasm/kernel';
+import { INIT, INIT_METHODS, RUN_DEFAULTS, SEED } from '../vocabulary';
 
 export type {
   Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook,
@@ -19,14 +20,14 @@ export { EngineError, type EngineErrorCode } from './errors';
 export { exactDistance, bruteForceAssign } from './exact-distance';
 export { threadBudget, ThreadBudget, shutdownEngineWorkers, engineWorkerStats, sharedVectors } from '../parallel/index';
 
-export const DEFAULT_EPSILON = 1e-4;
-export const DEFAULT_MAX_ITERATIONS = 100;
-export const DEFAULT_SEED = 1;
+export const DEFAULT_EPSILON = RUN_DEFAULTS.epsilon;
+export const DEFAULT_MAX_ITERATIONS = RUN_DEFAULTS.maxIterations;
+export const DEFAULT_SEED = RUN_DEFAULTS.seed;
 export const DEFAULT_SPLIT_DELTA = 0.01;
 /** Largest codebook the engine accepts (2^24; b = 14 needs 2^14). */
 export const MAX_K = 1 << 24;
 
-const INITS: readonly InitMethod[] = ['random', 'kmeans++', 'split'];
+const INITS: readonly InitMethod[] = INIT_METHODS;
 
 /**
  * Trains codebooks on vectors (N × d, row-major) by the generalized Lloyd algorithm.
@@ -47,7 +48,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
   const maxIterations = options.maxIterations === undefined
     ? DEFAULT_MAX_ITERATIONS
     : checkInteger('maxIterations', options.maxIterations, 0, 1_000_000);
-  const seed = options.seed === undefined ? DEFAULT_SEED : checkInteger('seed', options.seed, -(2 ** 53) + 1);
+  const seed = options.seed === undefined ? DEFAULT_SEED : checkInteger('seed', options.seed, SEED.min, SEED.max);
   const delta = options.splitDelta === undefined
     ? DEFAULT_SPLIT_DELTA
     : checkNumber('splitDelta', options.splitDelta, 0, 1, true);
@@ -74,7 +75,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
   const { signal } = options;
   throwIfAborted(signal);
 
-  const split = options.init === 'split' && !options.initialCodewords;
+  const split = options.init === INIT.split && !options.initialCodewords;
   const sizes: number[] = [];
   if (split) {
     for (let s = 1; s < k; s *= 2) sizes.push(s);
@@ -106,7 +107,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
       let start: Float32Array;
       const rng = createRng(seed);
       if (options.initialCodewords) start = options.initialCodewords.slice();
-      else if (options.init === 'random') start = initRandom(vectors, d, k, rng);
+      else if (options.init === INIT.random) start = initRandom(vectors, d, k, rng);
       else start = await initKmeansPlusPlus(vectors, d, k, rng, signal, search.seeding(k, signal));
       throwIfAborted(signal);
       codebooks.push(await runLloyd(ctx, start, k));

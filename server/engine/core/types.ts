@@ -1,4 +1,6 @@
-export type InitMethod = 'random' | 'kmeans++' | 'split';
+import type { InitMethod } from '../vocabulary';
+
+export type { InitMethod };
 
 export interface IterationStat {
   size: number;

@@ -1,6 +1,7 @@
 import { z } from 'zod';
 import { EngineInputError } from './engine-input-error';
 import { codewordChecksum } from './checksum';
+import { initMethodSchema } from '../vocabulary';
 import { FLOAT32_ROUNDING_LIMIT, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, maxTraceLength } from './limits';
 import { indexBits } from './rate-bits';
 
@@ -61,7 +62,7 @@ export const trainingSchema = z.strictObject({
     .max(MAX_SOURCE_LENGTH, { error: `expected at most ${MAX_SOURCE_LENGTH} characters` })
     .describe('what the codebook was trained on (folder or .npy file name)'),
   vectorCount: integer(1),
-  init: z.enum(['random', 'kmeans++', 'split'], { error: 'expected "random", "kmeans++" or "split"' }),
+  init: initMethodSchema,
   epsilon: finite().min(0, { error: 'expected a number ≥ 0' }),
   seed: integer(0).nullable(),
   iterations: integer(0, MAX_ITERATIONS),

@@ -1,17 +1,15 @@
 /**
- * Limits of what a codebook document may record. Plain constants with no imports, so the HTTP contracts (and with
- * them the client) can share them with the format without pulling in the engine.
+ * Limits of what a codebook document may record. The bits and iteration limits are the run vocabulary's
+ * (../vocabulary.ts), named here as the format uses them.
  */
+import { BITS, ITERATIONS } from '../vocabulary';
 
 /** Index bits of the largest codebook, and its size. */
-export const MAX_BITS = 14;
+export const MAX_BITS = BITS.max;
 export const MAX_SIZE = 2 ** MAX_BITS;
 
-/**
- * Lloyd iterations per codebook size a training may run and a document may record. Lloyd passes converge in tens of
- * iterations on image patches (the default is 100); the run form has allowed at most 1000 since it was written.
- */
-export const MAX_ITERATIONS = 1000;
+/** Lloyd iterations per codebook size a training may run and a document may record. */
+export const MAX_ITERATIONS = ITERATIONS.max;
 
 /**
  * Entries of a training trace: one per Lloyd pass, that is iteration 0 (the starting codebook) and at most

@@ -1,9 +1,10 @@
 import sharp from 'sharp';
 import { EngineInputError } from '../format/engine-input-error';
 import { lumaPlane } from './luma';
+import type { ColorMode } from '../vocabulary';
 
-/** How pixels become vector components: one luma value per pixel, or R, G, B per pixel. */
-export type ColorMode = 'luma' | 'rgb';
+/** How pixels become vector components: one luma value per pixel, or R, G, B per pixel (the vocabulary's modes). */
+export type { ColorMode };
 
 export function channelsOf(color: ColorMode): 1 | 3 {
   return color === 'rgb' ? 3 : 1;

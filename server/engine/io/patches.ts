@@ -1,5 +1,6 @@
 import { EngineInputError } from '../format/engine-input-error';
 import type { PixelImage } from './image';
+import { positionsAlong } from '../vocabulary';
 
 /**
  * A patch is `width` × `height` pixels. Its vector has width·height·channels components in this order:
@@ -106,15 +107,8 @@ export function untile<T extends Float32Array | Uint8Array>(
   return out;
 }
 
-/** Patch positions along one axis for training extraction: 0, s, 2s, … while the patch fits; one position if it never fits. */
-function positionsAlong(size: number, side: number, stride: number): number {
-  return size <= side ? 1 : Math.floor((size - side) / stride) + 1;
-}
-
-/** Patches training takes from a width × height image at `stride` (default: the patch size, non-overlapping). */
-export function patchPositions(width: number, height: number, patch: PatchShape, stride?: number): number {
-  return positionsAlong(width, patch.width, stride ?? patch.width) * positionsAlong(height, patch.height, stride ?? patch.height);
-}
+// The patches-per-image rule is the run vocabulary's, shared with the studio's estimate and the run form.
+export { patchPositions } from '../vocabulary';
 
 export interface ExtractOptions {
   /** Step between patch origins in pixels on both axes; defaults to the patch size on each axis (non-overlapping). */

@@ -1,6 +1,6 @@
 import type { NormalizedRunConfig } from '../../contracts';
 import type { NewCodebook, RunImageRecord, RunRecord } from '../../db';
-import { makeCodebook, sharedVectors, toCodebookDocument, train, type IterationStat, type TrainedCodebook } from '../../engine';
+import { makeCodebook, sharedVectors, toCodebookDocument, train, trainsEverySize, type IterationStat, type TrainedCodebook } from '../../engine';
 import { runTrainingMemory, trainingMemoryExcess } from '../../services/training-memory';
 import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
 import type { JobContext, JobHandler } from '../types';
@@ -22,7 +22,7 @@ interface Pass {
  * random and k-means++ start each size afresh, one pass per kept size.
  */
 export function trainingPasses(cfg: Pick<NormalizedRunConfig, 'init' | 'sizes'>): Pass[] {
-  if (cfg.init === 'split') return [{ k: Math.max(...cfg.sizes), keep: new Set(cfg.sizes) }];
+  if (trainsEverySize(cfg.init)) return [{ k: Math.max(...cfg.sizes), keep: new Set(cfg.sizes) }];
   return cfg.sizes.map((k) => ({ k, keep: new Set([k]) }));
 }
 

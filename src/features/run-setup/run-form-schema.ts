@@ -1,6 +1,6 @@
 import { z } from 'zod';
-import { createRunBody, type CreateRunBody } from '../../../server/contracts';
-import { planRun, serverDefaults, type ImageCatalog, type PlanInput } from './run-plan';
+import { COLOR_MODES, createRunBody, initMethodSchema, RUN_DEFAULTS, SETTING_LABELS, type ColorMode, type CreateRunBody, type InitMethod } from '../../../server/contracts';
+import { planRun, type ImageCatalog, type PlanInput } from './run-plan';
 
 export type RunFormValues = {
   name: string;
@@ -12,13 +12,13 @@ export type RunFormValues = {
   heldOutSetId: number | null;
   heldOutImageIds: number[];
   patch: { width: number; height: number };
-  color: 'luma' | 'rgb';
+  color: ColorMode;
   meanBits: number;
   bitsMode: 'single' | 'range';
   bits: number;
   bitsFrom: number;
   bitsTo: number;
-  init: 'random' | 'kmeans++' | 'split';
+  init: InitMethod;
   epsilon: number;
   maxIterations: number;
   maxVectors: number;
@@ -35,17 +35,17 @@ export const emptyRunForm: RunFormValues = {
   heldOutSetId: null,
   heldOutImageIds: [],
   patch: { width: 4, height: 4 },
-  color: serverDefaults.color,
-  meanBits: serverDefaults.meanBits,
+  color: RUN_DEFAULTS.color,
+  meanBits: RUN_DEFAULTS.meanBits,
   bitsMode: 'single',
   bits: 8,
   bitsFrom: 1,
   bitsTo: 8,
-  init: serverDefaults.init,
-  epsilon: serverDefaults.epsilon,
-  maxIterations: serverDefaults.maxIterations,
-  maxVectors: serverDefaults.maxVectors,
-  seed: serverDefaults.seed,
+  init: RUN_DEFAULTS.init,
+  epsilon: RUN_DEFAULTS.epsilon,
+  maxIterations: RUN_DEFAULTS.maxIterations,
+  maxVectors: RUN_DEFAULTS.maxVectors,
+  seed: RUN_DEFAULTS.seed,
 };
 
 /** The POST body the form's values stand for; every option is sent, so the run records exactly what was chosen. */
@@ -82,17 +82,17 @@ export function fromRunConfig(config: CreateRunBody, name: string): RunFormValue
     heldOutSetId: config.heldOutSetId ?? null,
     heldOutImageIds: config.heldOutImageIds ?? [],
     patch: { ...config.patch },
-    color: config.color ?? serverDefaults.color,
-    meanBits: config.meanBits ?? serverDefaults.meanBits,
+    color: config.color ?? RUN_DEFAULTS.color,
+    meanBits: config.meanBits ?? RUN_DEFAULTS.meanBits,
     bitsMode: range ? 'range' : 'single',
     bits: range ? range.to : (config.bits as number),
     bitsFrom: range ? range.from : Math.min(1, config.bits as number),
     bitsTo: range ? range.to : (config.bits as number),
-    init: config.init ?? serverDefaults.init,
-    epsilon: config.epsilon ?? serverDefaults.epsilon,
-    maxIterations: config.maxIterations ?? serverDefaults.maxIterations,
-    maxVectors: config.maxVectors ?? serverDefaults.maxVectors,
-    seed: config.seed ?? serverDefaults.seed,
+    init: config.init ?? RUN_DEFAULTS.init,
+    epsilon: config.epsilon ?? RUN_DEFAULTS.epsilon,
+    maxIterations: config.maxIterations ?? RUN_DEFAULTS.maxIterations,
+    maxVectors: config.maxVectors ?? RUN_DEFAULTS.maxVectors,
+    seed: config.seed ?? RUN_DEFAULTS.seed,
   };
 }
 
@@ -171,16 +171,16 @@ const formFields = z.object({
   heldOutSetId: z.number().nullable(),
   heldOutImageIds: z.array(z.number()),
   patch: z.object({ width: num('patch width'), height: num('patch height') }),
-  color: z.enum(['luma', 'rgb']),
+  color: z.enum(COLOR_MODES),
   meanBits: num('mean bits'),
   bitsMode: z.enum(['single', 'range']),
   bits: num('b'),
   bitsFrom: num('the lowest b'),
   bitsTo: num('the highest b'),
-  init: z.enum(['random', 'kmeans++', 'split']),
+  init: initMethodSchema,
   epsilon: num('ε'),
   maxIterations: num('maximum iterations'),
-  maxVectors: num('the vector cap'),
+  maxVectors: num(`the ${SETTING_LABELS.maxVectors.toLowerCase()}`),
   seed: num('the seed'),
 });
 

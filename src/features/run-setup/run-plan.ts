@@ -1,4 +1,4 @@
-import type { Image } from '../../../server/contracts';
+import { BITS, PATCH_SIDE, patchPositions, RUN_DEFAULTS, type ColorMode, type Image } from '../../../server/contracts';
 import { groupDigits } from './format';
 
 /** What the form knows about the team's images: every set's images, by set id. */
@@ -10,7 +10,7 @@ export type PlanInput = {
   training: ImageSource;
   heldOut: ImageSource;
   patch: { width: number; height: number };
-  color: 'luma' | 'rgb';
+  color: ColorMode;
   meanBits: number;
   bits: { from: number; to: number };
   maxVectors: number;
@@ -44,20 +44,12 @@ export type RunPlan = {
   problems: PlanProblem[];
 };
 
-/** Defaults the server fills in for fields left out of the body (server/services/runs.ts). */
-export const serverDefaults = { color: 'luma', meanBits: 0, init: 'split', epsilon: 1e-4, maxIterations: 100, maxVectors: 200_000, seed: 1 } as const;
-
 /**
- * Patches of one image along one side with stride equal to the patch side: the remainder at the far edge is not
- * tiled, and an image smaller than the patch still gives one (padded) patch — the server's count, so the estimate
- * and the server's "too few vectors" check agree.
+ * Patches of one image, by the run vocabulary's rule (stride = patch side) — the server's count, so the estimate and
+ * the server's "too few vectors" check agree.
  */
-function along(size: number, side: number): number {
-  return size <= side ? 1 : Math.floor((size - side) / side) + 1;
-}
-
 export function patchesIn(image: { width: number; height: number }, patch: { width: number; height: number }): number {
-  return along(image.width, patch.width) * along(image.height, patch.height);
+  return patchPositions(image.width, image.height, patch);
 }
 
 function allImages(catalog: ImageCatalog): Map<number, Image> {
@@ -83,8 +75,8 @@ export function resolveImages(training: ImageSource, heldOut: ImageSource, catal
   return { training: pick(training), heldOut: pick(heldOut) };
 }
 
-const validBits = (b: number) => Number.isInteger(b) && b >= 0 && b <= 14;
-const validSide = (s: number) => Number.isInteger(s) && s >= 2 && s <= 16;
+const validBits = (b: number) => Number.isInteger(b) && b >= BITS.min && b <= BITS.max;
+const validSide = (s: number) => Number.isInteger(s) && s >= PATCH_SIDE.min && s <= PATCH_SIDE.max;
 
 export function planRun(input: PlanInput, catalog: ImageCatalog): RunPlan {
   const channels = input.color === 'rgb' ? 3 : 1;
@@ -103,7 +95,7 @@ export function planRun(input: PlanInput, catalog: ImageCatalog): RunPlan {
 
   const { training, heldOut } = resolveImages(input.training, input.heldOut, catalog);
   const availableVectors = geometryKnown ? training.reduce((n, image) => n + patchesIn(image, input.patch), 0) : 0;
-  const cap = Number.isInteger(input.maxVectors) && input.maxVectors > 0 ? input.maxVectors : serverDefaults.maxVectors;
+  const cap = Number.isInteger(input.maxVectors) && input.maxVectors > 0 ? input.maxVectors : RUN_DEFAULTS.maxVectors;
   const trainingVectors = Math.min(availableVectors, cap);
 
   const problems: PlanProblem[] = [];

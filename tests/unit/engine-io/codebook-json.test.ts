@@ -71,7 +71,7 @@ describe('codebook JSON', () => {
     ['a wrong format tag', (d: EditableDoc) => (d.format = 'something-else'), 'format: expected "cellwright-codebook"'],
     ['a later version', (d: EditableDoc) => (d.version = 2), 'version: expected 1'],
     ['mean bits out of range', (d: EditableDoc) => (d.preprocessing.meanBits = 9), 'preprocessing.meanBits: expected an integer ≤ 8'],
-    ['an unknown init', (d: EditableDoc) => (d.training.init = 'magic'), 'training.init: expected "random", "kmeans++" or "split"'],
+    ['an unknown init', (d: EditableDoc) => (d.training.init = 'magic'), 'training.init: expected "split", "kmeans++" or "random"'],
     ['a negative trace distortion', (d: EditableDoc) => (d.training.trace[0].distortion = -1), 'training.trace[0].distortion: expected a number ≥ 0'],
     ['a malformed checksum', (d: EditableDoc) => (d.checksum = 'abc'), 'checksum: expected 64 lowercase hex digits'],
     // Finite as float64, infinite as float32 (IEEE 754 binary32 overflows at 2^128 − 2^103 under round to nearest).

@@ -1,7 +1,7 @@
 import { zodResolver } from '@hookform/resolvers/zod';
 import { useMemo, useRef, type ReactNode } from 'react';
 import { useForm, type Resolver } from 'react-hook-form';
-import type { CreateRunBody, ImageSet, RunDetail } from '../../../../server/contracts';
+import { EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, SETTING_LABELS, type CreateRunBody, type ImageSet, type RunDetail } from '../../../../server/contracts';
 import { isApiError, messageOf } from '../../../lib/api-client';
 import { plural } from '../../../lib/format';
 import { Alert } from '../../../components/ui/alert';
@@ -227,16 +227,16 @@ export function RunForm({
         </Section>
 
         <Section title="Training" description="Generalized Lloyd iterations until the relative drop in distortion is below ε.">
-          <SelectField label="Initialisation" error={errors.init?.message} {...form.register('init')}>
-            <option value="split">LBG splitting (grows 1, 2, 4, … codewords)</option>
-            <option value="kmeans++">k-means++ seeding</option>
-            <option value="random">Random training vectors</option>
+          <SelectField label={SETTING_LABELS.init} error={errors.init?.message} {...form.register('init')}>
+            {INIT_METHODS.map((m) => (
+              <option key={m} value={m}>{`${INIT_LABELS[m]} (${INIT_HINTS[m]})`}</option>
+            ))}
           </SelectField>
           <div className="grid gap-4 sm:grid-cols-2 xl:grid-cols-4">
-            {numberField('epsilon', 'ε (stop threshold)', 'Above 0, at most 0.1.', 'any')}
-            {numberField('maxIterations', 'Maximum iterations', 'Per codebook size.')}
-            {numberField('maxVectors', 'Vector cap', 'Training vectors at most.')}
-            {numberField('seed', 'Seed', 'Same seed, same codebook.')}
+            {numberField('epsilon', SETTING_LABELS.epsilon, `Above ${EPSILON.min}, at most ${EPSILON.runMax}.`, 'any')}
+            {numberField('maxIterations', SETTING_LABELS.maxIterations, 'Per codebook size.')}
+            {numberField('maxVectors', SETTING_LABELS.maxVectors, 'Training vectors at most.')}
+            {numberField('seed', SETTING_LABELS.seed, 'Same seed, same codebook.')}
           </div>
         </Section>
       </div>

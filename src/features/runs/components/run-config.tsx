@@ -1,6 +1,4 @@
-import type { RunDetail } from '../../../../server/contracts';
-
-const initLabels = { random: 'random codewords', 'kmeans++': 'k-means++', split: 'LBG splitting' } as const;
+import { INIT_LABELS, SETTING_LABELS, type RunDetail } from '../../../../server/contracts';
 
 /** The normalized configuration the jobs ran with: what a reader needs to reproduce the run. */
 export function RunConfig({ run }: { run: RunDetail }) {
@@ -13,11 +11,11 @@ export function RunConfig({ run }: { run: RunDetail }) {
     ['Index bits b', n.bits.from === n.bits.to ? String(n.bits.from) : `${n.bits.from} … ${n.bits.to}`],
     ['Codebook sizes', n.sizes.join(', ')],
     ['Mean removal', n.meanBits === 0 ? 'none' : `${n.meanBits}-bit block mean`],
-    ['Initialisation', initLabels[n.init]],
-    ['ε (relative)', String(n.epsilon)],
-    ['Max. iterations', String(n.maxIterations)],
-    ['Vector cap', n.maxVectors.toLocaleString('en-GB')],
-    ['Seed', String(n.seed)],
+    [SETTING_LABELS.init, INIT_LABELS[n.init]],
+    [SETTING_LABELS.epsilon, String(n.epsilon)],
+    [SETTING_LABELS.maxIterations, String(n.maxIterations)],
+    [SETTING_LABELS.maxVectors, n.maxVectors.toLocaleString('en-GB')],
+    [SETTING_LABELS.seed, String(n.seed)],
     ['Training images', String(n.trainingImageIds.length)],
     ['Held-out images', String(n.heldOutImageIds.length)],
   ];

@@ -1,5 +1,5 @@
 import { useState } from 'react';
-import type { RunDetail } from '../../../../server/contracts';
+import { trainsEverySize, type RunDetail } from '../../../../server/contracts';
 import { TraceChart, type TraceStep } from '../../../components/charts/trace-chart';
 import { SelectField } from '../../../components/ui/field';
 import { ErrorState, LoadingState } from '../../../components/ui/states';
@@ -23,7 +23,7 @@ export function TracePanel({ teamId, run, liveSteps }: { teamId: number; run: Ru
 
   return (
     <div className="flex flex-col gap-3">
-      {run.normalized.init !== 'split' && run.codebooks.length > 1 && (
+      {!trainsEverySize(run.normalized.init) && run.codebooks.length > 1 && (
         <SelectField
           label="Codebook"
           containerClassName="max-w-56"

@@ -1,0 +1,104 @@
+/**
+ * The run vocabulary: the names, labels, limits and defaults of a training run, written once. The engine, the HTTP
+ * contracts (and through them the client), the command line and the codebook format all import these. This module
+ * depends on zod alone, so the contracts can share it without pulling in the engine (sharp, workers).
+ */
+import { z } from 'zod';
+
+// ---- codebook initialisation ----
+
+/** Init identifiers as the API, the CLI and the codebook format write them. */
+export const INIT = { split: 'split', kmeansPlusPlus: 'kmeans++', random: 'random' } as const;
+/** Every init, the default first: the order the run form and the CLI help offer them in. */
+export const INIT_METHODS = [INIT.split, INIT.kmeansPlusPlus, INIT.random] as const;
+export type InitMethod = (typeof INIT_METHODS)[number];
+
+/** What each init is called wherever a person reads it (run form, run page, compare page, CLI help). */
+export const INIT_LABELS: Record<InitMethod, string> = {
+  split: 'LBG splitting',
+  'kmeans++': 'k-means++ seeding',
+  // It starts from K training vectors drawn at random, not from random values.
+  random: 'Random training vectors',
+};
+/** One line on what each init does, for the run form's options and the CLI help. */
+export const INIT_HINTS: Record<InitMethod, string> = {
+  split: 'grows 1, 2, 4, … codewords, keeping every size',
+  'kmeans++': 'spreads the starting codewords by distance',
+  random: 'starts from K training vectors drawn at random',
+};
+
+const quoted = INIT_METHODS.map((m) => `"${m}"`);
+export const initMethodSchema = z.enum(INIT_METHODS, { error: `expected ${quoted.slice(0, -1).join(', ')} or ${quoted.at(-1)}` });
+
+/** Split init trains every size 1, 2, 4, … up to K in one pass; the others train K alone. */
+export const trainsEverySize = (init: InitMethod): boolean => init === INIT.split;
+
+// ---- colour ----
+export const COLOR_MODES = ['luma', 'rgb'] as const;
+export type ColorMode = (typeof COLOR_MODES)[number];
+
+// ---- limits (inclusive unless said otherwise) ----
+
+/** Index bits b per block: codebooks of 2^b codewords. 14 keeps the largest codebook (2^14) searchable in the studio. */
+export const BITS = { min: 0, max: 14 } as const;
+/** Patch width and height in pixels. */
+export const PATCH_SIDE = { min: 2, max: 16 } as const;
+/** Bits of the coded block mean; 0 means no mean removal. */
+export const MEAN_BITS = { min: 0, max: 8 } as const;
+/**
+ * Seeds, for the API, the CLI and the engine alike. 0 … 2^31 − 1: every run stored so far holds a seed in it, and
+ * it fits a signed 32-bit integer wherever a seed is written down again (a database INT, a C int32_t in firmware
+ * tooling, a Java int). The generator mixes in all of a seed's bits, so a wider range would add nothing.
+ */
+export const SEED = { min: 0, max: 2 ** 31 - 1 } as const;
+/**
+ * Training vectors at most (the "vector cap", field `maxVectors`, CLI --max-vectors): below 100 no codebook is worth
+ * training; 2,000,000 bounds the memory one training holds (TRAINING_MAX_BYTES checks the rest).
+ */
+export const VECTOR_CAP = { min: 100, max: 2_000_000 } as const;
+/**
+ * Lloyd iterations per codebook size ("maximum iterations", field `maxIterations`, CLI --max-iterations). 0 trains
+ * no pass beyond the starting codebook, which the CLI and the engine allow; a studio run iterates at least once.
+ * The format records a trace entry per pass, and 1000 bounds it; Lloyd passes converge in tens of iterations.
+ */
+export const ITERATIONS = { min: 0, runMin: 1, max: 1000 } as const;
+/**
+ * ε, the relative drop in distortion below which training stops. The engine and CLI take 0 … 1 (0: until the
+ * distortion stops dropping); a studio run takes above 0, at most 0.1.
+ */
+export const EPSILON = { min: 0, max: 1, runMax: 0.1 } as const;
+
+// ---- defaults of every optional run setting ----
+export const RUN_DEFAULTS = {
+  color: 'luma',
+  meanBits: 0,
+  init: INIT.split,
+  epsilon: 1e-4,
+  maxIterations: 100,
+  maxVectors: 200_000,
+  seed: 1,
+} as const satisfies { color: ColorMode; init: InitMethod; [key: string]: unknown };
+
+// ---- what a person reads for each setting ----
+export const SETTING_LABELS = {
+  init: 'Initialisation',
+  epsilon: 'ε (stop threshold)',
+  maxIterations: 'Maximum iterations',
+  maxVectors: 'Vector cap',
+  seed: 'Seed',
+} as const;
+
+// ---- the patches-per-image rule ----
+
+/**
+ * Patch positions along one side of `size` pixels: origins every `stride` pixels while a whole patch fits; the
+ * remainder at the far edge is not tiled, and a side no longer than the patch still gives one (padded) patch.
+ */
+export function positionsAlong(size: number, side: number, stride: number): number {
+  return size <= side ? 1 : Math.floor((size - side) / stride) + 1;
+}
+
+/** Patches training takes from one image; stride defaults to the patch size (non-overlapping). */
+export function patchPositions(width: number, height: number, patch: { width: number; height: number }, stride?: number): number {
+  return positionsAlong(width, patch.width, stride ?? patch.width) * positionsAlong(height, patch.height, stride ?? patch.height);
+}

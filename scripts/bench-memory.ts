@@ -7,6 +7,7 @@
 import { readFileSync } from 'node:fs';
 import { sharedVectors, shutdownEngineWorkers, threadBudget, train } from '../server/engine/core/index';
 import type { InitMethod } from '../server/engine/core/types';
+import { INIT } from '../server/engine/vocabulary';
 import { decodedImageBytes, imagesToTrainingVectors, loadImage, readImageSize, trainingMemory, type ColorMode } from '../server/engine/index';
 import { readNpy } from '../server/engine/io/npy';
 import trainingVectors from '../server/jobs/tasks/training-vectors.task';
@@ -39,7 +40,7 @@ async function trainCase([file, kText, init, iterationsText]: string[]): Promise
   const k = Number(kText);
   // Workers started and kernels compiled first (a pass big enough to go to the workers): their fixed cost is
   // not training memory.
-  await train(vectors.subarray(0, Math.min(matrix.rows, 65_536) * d), d, { k: 64, init: 'random', seed: 1, maxIterations: 2 });
+  await train(vectors.subarray(0, Math.min(matrix.rows, 65_536) * d), d, { k: 64, init: INIT.random, seed: 1, maxIterations: 2 });
   global.gc?.();
   const tracker = peakTracker();
   const t0 = performance.now();

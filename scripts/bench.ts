@@ -10,6 +10,7 @@ import sharp from 'sharp';
 import { kmeansGenerator } from 'ml-kmeans';
 import { assign, createRng, shutdownEngineWorkers, threadBudget, train } from '../server/engine/core/index';
 import { writeNpy } from '../server/engine/io/npy';
+import { INIT, trainsEverySize } from '../server/engine/vocabulary';
 import { seabedSet } from '../server/seed/seabed-tiles';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
@@ -136,14 +137,14 @@ async function main() {
   for (const [size, k] of [[8, 256], [4, 1024]] as const) {
     const d = size * size;
     const { vectors, stride } = trainingSet(lumas, size);
-    const start = (await train(vectors, d, { k, init: 'random', seed: 1, maxIterations: 0 })).codebooks[0].codewords;
+    const start = (await train(vectors, d, { k, init: INIT.random, seed: 1, maxIterations: 0 })).codebooks[0].codewords;
 
     // Ours: wall time of each iteration from the trace (median, robust to other load on
     // the machine) and process CPU time between iterations 1 and the last.
     const cpuAt: number[] = [];
     const t0 = performance.now();
     const ours = await train(vectors, d, {
-      k, init: 'random', initialCodewords: start, epsilon: 0, maxIterations: ITERATIONS,
+      k, init: INIT.random, initialCodewords: start, epsilon: 0, maxIterations: ITERATIONS,
       onIteration: () => cpuAt.push(cpuNow()),
     });
     const wall = (performance.now() - t0) / 1000;
@@ -173,7 +174,7 @@ async function main() {
 
     // k-means++ seeding alone (maxIterations 0): K draws over all N vectors, with triangle-inequality pruning.
     const ts = performance.now();
-    await train(vectors, d, { k, init: 'kmeans++', seed: 1, maxIterations: 0 });
+    await train(vectors, d, { k, init: INIT.kmeansPlusPlus, seed: 1, maxIterations: 0 });
     const seeding = (performance.now() - ts) / 1000;
 
     let sk: Timing | undefined;
@@ -212,7 +213,7 @@ async function main() {
   console.log('\ntraining memory (peak RSS above the level before training, one process per case)');
   const memDir = mkdtempSync(path.join(os.tmpdir(), 'cw-bench-mem-'));
   try {
-    for (const [size, k, init] of [[8, 256, 'split'], [4, 1024, 'random'], [4, 4096, 'random']] as const) {
+    for (const [size, k, init] of [[8, 256, INIT.split], [4, 1024, INIT.random], [4, 4096, INIT.random]] as const) {
       const d = size * size;
       const { vectors } = trainingSet(lumas, size);
       const file = path.join(memDir, `${size}-${k}.npy`);
@@ -225,7 +226,7 @@ async function main() {
         trainingBytes: number; baseline: number; peak: number; seconds: number; codebooks: number; estimatedExtra: number;
       };
       console.log(
-        `  ${size}×${size}, K=${k}, ${init}${init === 'split' ? ` (${m.codebooks} codebooks)` : ''}: training set ${mib(m.trainingBytes)}, ` +
+        `  ${size}×${size}, K=${k}, ${init}${trainsEverySize(init) ? ` (${m.codebooks} codebooks)` : ''}: training set ${mib(m.trainingBytes)}, ` +
           `peak extra ${mib(m.peak - m.baseline)} = ${((m.peak - m.baseline) / m.trainingBytes).toFixed(2)}× the training set ` +
           `(estimate ${mib(m.estimatedExtra)}; ${m.seconds.toFixed(1)} s)`,
       );

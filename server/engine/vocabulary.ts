@@ -86,7 +86,23 @@ export const SETTING_LABELS = {
   maxIterations: 'Maximum iterations',
   maxVectors: 'Vector cap',
   seed: 'Seed',
+  patch: 'Patch',
+  color: 'Colour',
+  meanBits: 'Mean removal',
+  bits: 'Index bits b',
+  sizes: 'Codebook sizes',
+  trainingImageIds: 'Training images',
+  heldOutImageIds: 'Held-out images',
 } as const;
+
+/** Labels of a run configuration's keys flattened with dots (the compare page's rows), as the run page names them. */
+export const CONFIG_KEY_LABELS: Record<string, string> = {
+  ...SETTING_LABELS,
+  'patch.width': 'Patch width',
+  'patch.height': 'Patch height',
+  'bits.from': 'Lowest b',
+  'bits.to': 'Highest b',
+};
 
 // ---- the patches-per-image rule ----
 

@@ -1,7 +1,13 @@
-import type { CompareResult } from '../../../../server/contracts';
+import { CONFIG_KEY_LABELS, INIT_LABELS, INIT_METHODS, type CompareResult } from '../../../../server/contracts';
 import { cx } from '../../../lib/cx';
 
-const show = (value: string | number | boolean | null | undefined) => (value === null || value === undefined ? '—' : String(value));
+const isInit = (value: unknown): value is (typeof INIT_METHODS)[number] => (INIT_METHODS as readonly unknown[]).includes(value);
+
+/** A setting's value as the run page shows it: init methods by their labels. */
+function show(key: string, value: string | number | boolean | null | undefined): string {
+  if (value === null || value === undefined) return '—';
+  return key === 'init' && isInit(value) ? INIT_LABELS[value] : String(value);
+}
 
 /** Configurations side by side; rows whose values differ are marked with a bar and a word, not only a tint. */
 export function ConfigDiff({ result }: { result: CompareResult }) {
@@ -27,12 +33,12 @@ export function ConfigDiff({ result }: { result: CompareResult }) {
             return (
               <tr key={key} className={cx('border-b border-ink-100 last:border-b-0', differs && 'bg-ember-50/70')}>
                 <th scope="row" className={cx('relative py-1.5 pr-3 pl-3 font-normal text-ink-700', differs && 'before:absolute before:top-1 before:bottom-1 before:left-0 before:w-[3px] before:rounded-full before:bg-ember-500')}>
-                  <span className="num">{key}</span>
+                  <span>{CONFIG_KEY_LABELS[key] ?? key}</span>
                   {differs && <span className="ml-2 text-xs font-medium text-ember-800">differs</span>}
                 </th>
                 {result.runs.map((run) => (
                   <td key={run.id} className={cx('num py-1.5 pr-3', differs ? 'font-medium text-ink-950' : 'text-ink-700')}>
-                    {show(run.config[key])}
+                    {show(key, run.config[key])}
                   </td>
                 ))}
               </tr>

@@ -6,18 +6,18 @@ export function RunConfig({ run }: { run: RunDetail }) {
   const channels = n.color === 'rgb' ? 3 : 1;
   const dimension = n.patch.width * n.patch.height * channels;
   const rows: Array<[string, string]> = [
-    ['Patch', `${n.patch.width}×${n.patch.height} ${n.color}`],
+    [SETTING_LABELS.patch, `${n.patch.width}×${n.patch.height} ${n.color}`],
     ['Vector dimension', String(dimension)],
-    ['Index bits b', n.bits.from === n.bits.to ? String(n.bits.from) : `${n.bits.from} … ${n.bits.to}`],
-    ['Codebook sizes', n.sizes.join(', ')],
-    ['Mean removal', n.meanBits === 0 ? 'none' : `${n.meanBits}-bit block mean`],
+    [SETTING_LABELS.bits, n.bits.from === n.bits.to ? String(n.bits.from) : `${n.bits.from} … ${n.bits.to}`],
+    [SETTING_LABELS.sizes, n.sizes.join(', ')],
+    [SETTING_LABELS.meanBits, n.meanBits === 0 ? 'none' : `${n.meanBits}-bit block mean`],
     [SETTING_LABELS.init, INIT_LABELS[n.init]],
     [SETTING_LABELS.epsilon, String(n.epsilon)],
     [SETTING_LABELS.maxIterations, String(n.maxIterations)],
     [SETTING_LABELS.maxVectors, n.maxVectors.toLocaleString('en-GB')],
     [SETTING_LABELS.seed, String(n.seed)],
-    ['Training images', String(n.trainingImageIds.length)],
-    ['Held-out images', String(n.heldOutImageIds.length)],
+    [SETTING_LABELS.trainingImageIds, String(n.trainingImageIds.length)],
+    [SETTING_LABELS.heldOutImageIds, String(n.heldOutImageIds.length)],
   ];
   return (
     <dl className="grid grid-cols-[auto_1fr] gap-x-4 gap-y-1.5 text-sm">

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { SEED } from '../engine/vocabulary';
 import { idParam, pathId } from './common';
 
 /** Training images teach the codebook; held-out images are only ever used to measure it. */
@@ -68,7 +69,8 @@ export const updateImageSetBody = z
 export const splitImageSetBody = z
   .object({
     heldOutFraction: z.number().gt(0, 'heldOutFraction must be above 0').lt(1, 'heldOutFraction must be below 1'),
-    seed: z.number().int().min(0).max(2 ** 32 - 1),
+    // The run vocabulary's one seed range, as for runs and the CLI.
+    seed: z.number().int().min(SEED.min).max(SEED.max),
   })
   .strict();
 

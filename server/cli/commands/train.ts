@@ -1,5 +1,5 @@
 import {
-  BITS, EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, type InitMethod, serializeCodebook, trainCodebooks, type Codebook, type ColorMode, type PatchInfo,
+  BITS, COLOR_MODES, EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, type InitMethod, serializeCodebook, trainCodebooks, type Codebook, type PatchInfo,
   type PreprocessingInfo,
 } from '../../engine';
 import { choiceOption, intOption, numberOption, parseOptions, requiredString, stringOption, type OptionSpec, type ParsedOptions } from '../args';
@@ -97,7 +97,7 @@ export function imageSettings(values: ParsedOptions) {
   const meanBits = intOption(values, 'mean-bits', { min: 1, max: MEAN_BITS.max });
   return {
     patch: patchText === undefined ? undefined : parsePatchShape(patchText),
-    color: choiceOption(values, 'color', ['luma', 'rgb'] as const) ?? ('luma' as ColorMode),
+    color: choiceOption(values, 'color', COLOR_MODES) ?? RUN_DEFAULTS.color,
     stride: intOption(values, 'stride', { min: 1, max: 1 << 16 }),
     sample: intOption(values, aliased(values, 'max-vectors', 'sample'), VECTOR_CAP),
     preprocessing: (meanBits === undefined ? { kind: 'none' } : { kind: 'mean-removed', meanBits }) as PreprocessingInfo,

@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import { EngineInputError } from './engine-input-error';
 import { codewordChecksum } from './checksum';
-import { initMethodSchema } from '../vocabulary';
+import { COLOR_MODES, initMethodSchema, MEAN_BITS } from '../vocabulary';
 import { FLOAT32_ROUNDING_LIMIT, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, maxTraceLength } from './limits';
 import { indexBits } from './rate-bits';
 
@@ -34,7 +34,7 @@ export const patchSchema = z
     width: integer(2, 16).describe('patch width in pixels'),
     height: integer(2, 16).describe('patch height in pixels'),
     channels: z.union([z.literal(1), z.literal(3)], { error: 'expected 1 (luma) or 3 (rgb)' }),
-    color: z.enum(['luma', 'rgb'], { error: 'expected "luma" or "rgb"' }),
+    color: z.enum(COLOR_MODES, { error: 'expected "luma" or "rgb"' }),
   })
   .describe('Patch geometry; vector component ((row·width)+column)·channels+channel, channels R,G,B interleaved per pixel');
 
@@ -42,7 +42,7 @@ export const preprocessingSchema = z.discriminatedUnion(
   'kind',
   [
     z.strictObject({ kind: z.literal('none') }),
-    z.strictObject({ kind: z.literal('mean-removed'), meanBits: integer(1, 8).describe('bits of the uniform scalar quantizer for block means') }),
+    z.strictObject({ kind: z.literal('mean-removed'), meanBits: integer(1, MEAN_BITS.max).describe('bits of the uniform scalar quantizer for block means') }),
   ],
   { error: 'expected {"kind":"none"} or {"kind":"mean-removed","meanBits":1..8}' },
 );

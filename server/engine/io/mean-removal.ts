@@ -1,4 +1,5 @@
 import { EngineInputError } from '../format/engine-input-error';
+import { MEAN_BITS } from '../vocabulary';
 
 /**
  * Mean-removed VQ: each block's mean over all its components is coded by a uniform scalar quantizer with m bits,
@@ -10,8 +11,9 @@ import { EngineInputError } from '../format/engine-input-error';
  */
 export type Preprocessing = { kind: 'none' } | { kind: 'mean-removed'; meanBits: number };
 
+// Coded mean bits: at least 1 (0 in a run means no mean removal), at most the vocabulary's limit.
 export const MEAN_BITS_MIN = 1;
-export const MEAN_BITS_MAX = 8;
+export const MEAN_BITS_MAX = MEAN_BITS.max;
 
 export function checkMeanBits(bits: number): number {
   if (!Number.isInteger(bits) || bits < MEAN_BITS_MIN || bits > MEAN_BITS_MAX) {

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { TRAIN_HELP } from '../../../server/cli/commands/train';
 import { main } from '../../../server/cli/main';
 import type { CliContext } from '../../../server/cli/context';
-import { createRunBody, normalizedRunConfig } from '../../../server/contracts';
+import { createRunBody, normalizedRunConfig, splitImageSetBody } from '../../../server/contracts';
 import { codebookDocumentSchema } from '../../../server/engine';
 import {
   BITS, EPSILON, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, patchPositions,
@@ -50,6 +50,12 @@ describe('the run vocabulary', () => {
     expect([ok({ epsilon: EPSILON.runMax }), ok({ epsilon: EPSILON.runMax * 1.01 }), ok({ epsilon: 0 })]).toEqual([true, false, false]);
     expect([ok({ bits: BITS.max }), ok({ bits: BITS.max + 1 }), ok({ meanBits: MEAN_BITS.max + 1 })]).toEqual([true, false, false]);
     expect(ok({ patch: { width: PATCH_SIDE.max + 1, height: 4 } })).toBe(false);
+  });
+
+  it('gives an image-set split the same seed range as a run', () => {
+    // The split took seeds up to 2^32 − 1 while runs stopped at 2^31 − 1.
+    const split = (seed: number) => splitImageSetBody.safeParse({ heldOutFraction: 0.25, seed }).success;
+    expect([split(SEED.min), split(SEED.max), split(SEED.max + 1)]).toEqual([true, true, false]);
   });
 
   it('gives the CLI the same seed range as the API', async () => {

@@ -1,7 +1,7 @@
 import { zodResolver } from '@hookform/resolvers/zod';
 import { useForm } from 'react-hook-form';
 import { z } from 'zod';
-import { splitImageSetBody } from '../../../../server/contracts';
+import { SEED, splitImageSetBody } from '../../../../server/contracts';
 import { messageOf } from '../../../lib/api-client';
 import { Alert } from '../../../components/ui/alert';
 import { Button } from '../../../components/ui/button';
@@ -12,7 +12,7 @@ import { useSplitImageSet } from '../api/split-image-set';
 const splitFormSchema = z
   .object({
     percent: z.coerce.number<string>({ error: 'Enter a percentage' }).min(1, 'At least 1 %').max(99, 'At most 99 %'),
-    seed: z.coerce.number<string>({ error: 'Enter a whole number' }).int('Enter a whole number').min(0, 'Seed must be 0 or more').max(2 ** 32 - 1, 'Seed is too large'),
+    seed: z.coerce.number<string>({ error: 'Enter a whole number' }).int('Enter a whole number').min(SEED.min, `Seed must be ${SEED.min} or more`).max(SEED.max, `Seed must be at most ${SEED.max}`),
   })
   .transform((v) => splitImageSetBody.parse({ heldOutFraction: v.percent / 100, seed: v.seed }));
 

@@ -125,7 +125,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
   let patch: PatchInfo | null = null;
   let source: string;
   if (vectorsPath !== undefined) {
-    for (const name of ['stride', 'mean-bits', 'sample'] as const) {
+    for (const name of ['stride', 'mean-bits', 'max-vectors', 'sample'] as const) {
       if (values[name] !== undefined) throw new CliUsageError(`--${name} applies to --images, not --vectors`);
     }
     const npy = await loadVectors(vectorsPath);

@@ -72,6 +72,8 @@ describe('the run vocabulary', () => {
     expect(both.stderr).toContain('--sample is the older name of --max-vectors');
     const low = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--sample', String(VECTOR_CAP.min - 1));
     expect(low.stderr).toContain(`--sample must be an integer from ${VECTOR_CAP.min} to ${VECTOR_CAP.max}`);
+    const onVectors = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--max-vectors', '500');
+    expect(onVectors.stderr).toContain('--max-vectors applies to --images, not --vectors');
     const iterations = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--max-iterations', String(ITERATIONS.max + 1));
     expect(iterations.stderr).toContain(`--max-iterations must be an integer from ${ITERATIONS.min} to ${ITERATIONS.max}`);
   });

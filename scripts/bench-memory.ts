@@ -5,7 +5,7 @@
 //   node --import tsx scripts/bench-memory.ts decode stream|all COLOR SAMPLE IMAGE…
 //     the training-vector step of a job: images decoded one at a time (the job's task) or all at once (before)
 import { readFileSync } from 'node:fs';
-import { sharedVectors, shutdownEngineWorkers, threadBudget, train } from '../server/engine/core/index';
+import { sharedVectors, shutdownEngineWorkers, threadBudget, train } from '../server/engine/training/index';
 import type { InitMethod } from '../server/engine/core/types';
 import { INIT } from '../server/engine/vocabulary';
 import { decodedImageBytes, imagesToTrainingVectors, loadImage, readImageSize, trainingMemory, type ColorMode } from '../server/engine/index';

@@ -8,7 +8,7 @@ import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import sharp from 'sharp';
 import { kmeansGenerator } from 'ml-kmeans';
-import { assign, createRng, shutdownEngineWorkers, threadBudget, train } from '../server/engine/core/index';
+import { assign, createRng, shutdownEngineWorkers, threadBudget, train } from '../server/engine/training/index';
 import { writeNpy } from '../server/engine/io/npy';
 import { INIT, trainsEverySize } from '../server/engine/vocabulary';
 import { seabedSet } from '../server/seed/seabed-tiles';

@@ -5,11 +5,11 @@
  */
 import { readFile } from 'node:fs/promises';
 import { z } from 'zod';
-import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './core';
+import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './training';
 import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
 import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 import { readContainer, writeContainer } from './format/container';
-import { EngineInputError } from './format/engine-input-error';
+import { EngineInputError } from './input-error';
 import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/image';
 import { removeMeans } from './io/mean-removal';
 import { extractTrainingVectors, streamTrainingVectors, vectorDimension, type TrainingImageSource } from './io/patches';
@@ -20,9 +20,9 @@ import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SI
 
 // ---- re-exports: what callers need, from one place ----
 export * from './vocabulary';
-export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWorkers, threadBudget, EngineError } from './core';
-export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './core';
-export { EngineInputError, type EngineInputErrorCode } from './format/engine-input-error';
+export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWorkers, threadBudget, EngineError } from './training';
+export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './training';
+export { EngineInputError, type EngineInputErrorCode } from './input-error';
 export {
   CODEBOOK_FORMAT, CODEBOOK_VERSION, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
   serializeCodebook, toCodebookDocument, type Codebook, type CodebookDocument, type PatchInfo, type PreprocessingInfo, type TrainingInfo,

@@ -1,6 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { kmeans } from 'ml-kmeans';
-import { assign, assignSync, createRng, shutdownEngineWorkers } from '../../server/engine/core/index';
+import { assign, assignSync, createRng, shutdownEngineWorkers } from '../../server/engine/training/index';
 
 // Exactness of the nearest search: the fast float32 expansion ‖x‖² − 2x·c + ‖c‖² must
 // never decide a near-tie. The reference is a float64 brute-force search written here

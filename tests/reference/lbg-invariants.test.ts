@@ -1,7 +1,7 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import {
   createRng, shutdownEngineWorkers, threadBudget, train, type TrainResult,
-} from '../../server/engine/core/index';
+} from '../../server/engine/training/index';
 
 // Invariants of the generalized Lloyd algorithm and LBG splitting (Linde, Buzo & Gray,
 // "An algorithm for vector quantizer design", IEEE Trans. Communications COM-28, 1980):

@@ -1,5 +1,5 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { createRng, shutdownEngineWorkers, train } from '../../server/engine/core/index';
+import { createRng, shutdownEngineWorkers, train } from '../../server/engine/training/index';
 
 // Optimal (minimum mean-squared-error) scalar quantizers of a unit-variance Gaussian,
 // from J. Max, "Quantizing for minimum distortion", IRE Transactions on Information

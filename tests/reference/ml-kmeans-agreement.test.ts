@@ -1,6 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { kmeans } from 'ml-kmeans';
-import { assign, createRng, shutdownEngineWorkers, train } from '../../server/engine/core/index';
+import { assign, createRng, shutdownEngineWorkers, train } from '../../server/engine/training/index';
 
 // Agreement with an independent general-purpose implementation: the `ml-kmeans` package
 // (v7, npm), plain Lloyd iterations in float64 with nearest search by strict "<" (lowest

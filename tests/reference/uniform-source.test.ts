@@ -1,5 +1,5 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { createRng, shutdownEngineWorkers, train } from '../../server/engine/core/index';
+import { createRng, shutdownEngineWorkers, train } from '../../server/engine/training/index';
 
 // A K-level quantizer of U(0,1) with equal cells of width 1/K has MSE 1/(12K²) and is the
 // Lloyd optimum for this source (common practice; textbook result, e.g. Gersho & Gray,

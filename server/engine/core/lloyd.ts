@@ -1,14 +1,13 @@
 import { cellStatistics } from './accumulate-centroids';
 import { abortError } from './errors';
 import { repairEmptyCells } from './repair-empty-cells';
-import type { IterationStat, TrainedCodebook } from './types';
-import type { NearestSearch } from '../parallel/nearest-search';
+import type { IterationStat, PassSearch, TrainedCodebook } from './types';
 
 export interface LloydContext {
   vectors: Float32Array; // N × d
   d: number;
   n: number;
-  search: NearestSearch;
+  search: PassSearch;
   epsilon: number;
   maxIterations: number;
   signal?: AbortSignal;

@@ -81,3 +81,22 @@ export interface Assignment {
   /** Exact squared distance per vector, float64 accumulation. */
   distances: Float64Array;
 }
+
+/** What one nearest-codeword pass reports. */
+export interface PassStats {
+  /** Vectors whose near-tie was re-decided by the exact float64 search. */
+  redecided: number;
+  /** Vectors that searched beyond their current codeword's block (see assignBounded). */
+  searched: number;
+}
+
+/**
+ * What a Lloyd pass needs of a nearest-codeword search. training/ passes in the parallel, WebAssembly-backed one
+ * (parallel/nearest-search.ts), so core — the bottom layer — never imports it.
+ */
+export interface PassSearch {
+  readonly indices: Uint32Array; // N
+  readonly distances: Float64Array; // N
+  run(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<PassStats>;
+  accumulate(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<Uint32Array>;
+}

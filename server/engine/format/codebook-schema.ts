@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { EngineInputError } from './engine-input-error';
+import { EngineInputError } from '../input-error';
 import { codewordChecksum } from './checksum';
 import { COLOR_MODES, initMethodSchema, MEAN_BITS } from '../vocabulary';
 import { FLOAT32_ROUNDING_LIMIT, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, maxTraceLength } from './limits';

@@ -1,5 +1,5 @@
-import { assign } from '../core';
-import { EngineInputError } from './engine-input-error';
+import { assign } from '../training';
+import { EngineInputError } from '../input-error';
 import type { Codebook } from './codebook-schema';
 import type { PixelImage } from '../io/image';
 import { blockGrid, tile, untile } from '../io/patches';

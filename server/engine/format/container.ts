@@ -1,5 +1,5 @@
 import { brotliCompressSync, brotliDecompressSync, constants as zc, crc32, deflateRawSync, inflateRawSync } from 'node:zlib';
-import { EngineInputError } from './engine-input-error';
+import { EngineInputError } from '../input-error';
 import type { Codebook } from './codebook-schema';
 import type { EncodedImage } from './codec';
 import { packBits, packedLength, unpackBits } from './bit-packing';

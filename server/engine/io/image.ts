@@ -1,5 +1,5 @@
 import sharp from 'sharp';
-import { EngineInputError } from '../format/engine-input-error';
+import { EngineInputError } from '../input-error';
 import { lumaPlane } from './luma';
 import type { ColorMode } from '../vocabulary';
 

@@ -1,4 +1,4 @@
-import { EngineInputError } from '../format/engine-input-error';
+import { EngineInputError } from '../input-error';
 import { MEAN_BITS } from '../vocabulary';
 
 /**

@@ -1,4 +1,4 @@
-import { EngineInputError } from '../format/engine-input-error';
+import { EngineInputError } from '../input-error';
 
 /**
  * Reader for NumPy .npy files as specified in NEP 1 ("A simple file format for NumPy arrays"):

@@ -1,4 +1,4 @@
-import { EngineInputError } from '../format/engine-input-error';
+import { EngineInputError } from '../input-error';
 import type { PixelImage } from './image';
 import { positionsAlong } from '../vocabulary';
 

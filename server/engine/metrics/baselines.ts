@@ -1,5 +1,5 @@
 import sharp from 'sharp';
-import { EngineInputError } from '../format/engine-input-error';
+import { EngineInputError } from '../input-error';
 import { toUint8, type PixelImage } from '../io/image';
 import { lumaPlane } from '../io/luma';
 import { psnrFromMse, sumSquaredError } from './distortion';

@@ -1,8 +1,8 @@
-import { assign } from '../core';
+import { assign } from '../training';
 import type { Codebook } from '../format/codebook-schema';
 import { encodeImage, reconstruct } from '../format/codec';
 import { writeContainer } from '../format/container';
-import { EngineInputError } from '../format/engine-input-error';
+import { EngineInputError } from '../input-error';
 import type { PixelImage } from '../io/image';
 import { removeMeans } from '../io/mean-removal';
 import { psnrFromMse, sumSquaredError } from './distortion';

@@ -1,4 +1,5 @@
 import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
+import type { PassSearch, PassStats } from '../core/types';
 import { abortError } from '../core/errors';
 import { exactDistance } from '../core/exact-distance';
 import { accumulateCentroids } from '../core/accumulate-centroids';
@@ -103,12 +104,7 @@ function toShared(vectors: Float32Array): { buffer: SharedArrayBuffer; byteOffse
 }
 
 /** Outcome of one pass. */
-export interface PassStats {
-  /** Vectors whose near-tie was re-decided by the exact float64 search. */
-  redecided: number;
-  /** Vectors that searched beyond their current codeword's block (see assignBounded). */
-  searched: number;
-}
+export type { PassStats };
 
 /**
  * Repeated nearest-codeword passes over one vector set (N × d), on the threads of one
@@ -119,7 +115,7 @@ export interface PassStats {
  * indices/distances hold the latest pass and may be modified by the caller (the search
  * keeps its own copy of its state).
  */
-export class NearestSearch {
+export class NearestSearch implements PassSearch {
   readonly indices: Uint32Array;
   readonly distances: Float64Array;
   private readonly state: SearchState;

@@ -1,7 +1,7 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import {
   createRng, engineWorkerStats, shutdownEngineWorkers, threadBudget, train, assign,
-} from '../../../server/engine/core/index';
+} from '../../../server/engine/training/index';
 
 afterAll(() => shutdownEngineWorkers());
 

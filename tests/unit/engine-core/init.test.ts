@@ -1,5 +1,5 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { createRng, shutdownEngineWorkers, threadBudget } from '../../../server/engine/core/index';
+import { createRng, shutdownEngineWorkers, threadBudget } from '../../../server/engine/training/index';
 import { NearestSearch } from '../../../server/engine/parallel/nearest-search';
 import { exactDistance } from '../../../server/engine/core/exact-distance';
 import { initKmeansPlusPlus, initRandom } from '../../../server/engine/core/init';

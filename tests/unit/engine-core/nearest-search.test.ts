@@ -1,7 +1,7 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { bruteForceAssign, createRng, shutdownEngineWorkers, threadBudget } from '../../../server/engine/core/index';
+import { bruteForceAssign, createRng, shutdownEngineWorkers, threadBudget } from '../../../server/engine/training/index';
 import { NearestSearch, sharedVectors } from '../../../server/engine/parallel/nearest-search';
-import { train } from '../../../server/engine/core/index';
+import { train } from '../../../server/engine/training/index';
 import { NearestKernel } from '../../../server/engine/wasm/kernel';
 import { accumulateCentroids } from '../../../server/engine/core/accumulate-centroids';
 

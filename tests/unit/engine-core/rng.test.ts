@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { createRng } from '../../../server/engine/core/index';
+import { createRng } from '../../../server/engine/training/index';
 
 describe('createRng', () => {
   it('repeats its stream for a seed and differs between seeds', () => {

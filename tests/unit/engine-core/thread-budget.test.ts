@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import os from 'node:os';
-import { ThreadBudget, threadBudget } from '../../../server/engine/core/index';
+import { ThreadBudget, threadBudget } from '../../../server/engine/training/index';
 
 describe('ThreadBudget', () => {
   it('is sized to the available cores by default', () => {

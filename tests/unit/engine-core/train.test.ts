@@ -1,5 +1,5 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { EngineError, createRng, shutdownEngineWorkers, train, type TrainProgress } from '../../../server/engine/core/index';
+import { EngineError, createRng, shutdownEngineWorkers, train, type TrainProgress } from '../../../server/engine/training/index';
 
 afterAll(() => shutdownEngineWorkers());
 

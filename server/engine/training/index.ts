@@ -1,23 +1,23 @@
-// Public API of the numeric core: validation happens here, once; the kernels behind it
-// trust their input.
-import { accumulateCentroids } from './accumulate-centroids';
-import { EngineError, abortError, throwIfAborted } from './errors';
-import { initKmeansPlusPlus, initRandom } from './init';
-import { runLloyd, type LloydContext } from './lloyd';
-import { createRng } from './rng';
-import { splitCodebook } from './split';
-import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook } from './types';
-import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from './validate';
+// Training and assignment: validation happens here, once, at the numeric entry; the kernels of core/ behind it
+// trust their input. This layer wires the kernels to the nearest search (parallel/, wasm/), which core never imports.
+import { accumulateCentroids } from '../core/accumulate-centroids';
+import { EngineError, abortError, throwIfAborted } from '../core/errors';
+import { initKmeansPlusPlus, initRandom } from '../core/init';
+import { runLloyd, type LloydContext } from '../core/lloyd';
+import { createRng } from '../core/rng';
+import { splitCodebook } from '../core/split';
+import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook } from '../core/types';
+import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from '../core/validate';
 import { NearestSearch } from '../parallel/nearest-search';
 import { NearestKernel } from '../wasm/kernel';
 import { INIT, INIT_METHODS, RUN_DEFAULTS, SEED } from '../vocabulary';
 
 export type {
   Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook,
-} from './types';
-export { createRng, type Rng } from './rng';
-export { EngineError, type EngineErrorCode } from './errors';
-export { exactDistance, bruteForceAssign } from './exact-distance';
+} from '../core/types';
+export { createRng, type Rng } from '../core/rng';
+export { EngineError, type EngineErrorCode } from '../core/errors';
+export { exactDistance, bruteForceAssign } from '../core/exact-distance';
 export { threadBudget, ThreadBudget, shutdownEngineWorkers, engineWorkerStats, sharedVectors } from '../parallel/index';
 
 export const DEFAULT_EPSILON = RUN_DEFAULTS.epsilon;

@@ -1,0 +1,46 @@
+// The lint's own layering rules, run through ESLint with the project's configuration on made-up sources placed at
+// real paths (the rules read the files they import from disk).
+import path from 'node:path';
+import { ESLint } from 'eslint';
+import { describe, expect, it } from 'vitest';
+
+const root = path.resolve(__dirname, '../../..');
+const eslint = new ESLint({ cwd: root });
+
+async function messages(file: string, source: string): Promise<string[]> {
+  const [result] = await eslint.lintText(source, { filePath: path.join(root, file) });
+  return result.messages.map((m) => `${m.ruleId}: ${m.message}`);
+}
+
+describe('engine layers', () => {
+  it('refuses a core kernel that imports the parallel search', async () => {
+    const found = await messages('server/engine/core/lloyd.ts', "import { NearestSearch } from '../parallel/nearest-search';\nexport const s = NearestSearch;\n");
+    expect(found.some((m) => m.startsWith('cellwright/layers') && m.includes('core never imports parallel'))).toBe(true);
+  });
+
+  it('lets training wire the core kernels to the parallel search', async () => {
+    const found = await messages(
+      'server/engine/training/index.ts',
+      "import { runLloyd } from '../core/lloyd';\nimport { NearestSearch } from '../parallel/nearest-search';\nexport const both = [runLloyd, NearestSearch];\n",
+    );
+    expect(found.filter((m) => m.startsWith('cellwright/'))).toEqual([]);
+  });
+
+  it('refuses the io layer importing the format layer above it', async () => {
+    const found = await messages('server/engine/io/npy.ts', "import { writeContainer } from '../format/container';\nexport const e = writeContainer;\n");
+    expect(found.some((m) => m.includes('io never imports format'))).toBe(true);
+  });
+});
+
+describe('import cycles', () => {
+  it('names the cycle when a file imports something that imports it back', async () => {
+    // The engine's entry imports the vocabulary, so the vocabulary importing the entry closes a loop.
+    const found = await messages('server/engine/vocabulary.ts', "import { train } from './index';\nexport const t = train;\n");
+    expect(found.some((m) => m.startsWith('cellwright/no-cycle') && m.includes('server/engine/index.ts'))).toBe(true);
+  });
+
+  it('ignores type-only imports, which are erased before anything runs', async () => {
+    const found = await messages('server/engine/vocabulary.ts', "import type { TrainOptions } from './index';\nexport type T = TrainOptions;\n");
+    expect(found.filter((m) => m.startsWith('cellwright/no-cycle'))).toEqual([]);
+  });
+});

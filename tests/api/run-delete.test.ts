@@ -163,4 +163,15 @@ describe('deleting a run', () => {
     await sweeper.sweep();
     expect(existsSync(t.composition.contentStore.path(recon.error_sha256))).toBe(false);
   });
+
+  it('frees an image set its runs held: refused with 409 while a run uses it, deleted once that run is', async () => {
+    const ownSet = await uploadSet(team.engineer, 'Held by one run');
+    const body = { name: 'Only run of its set', trainingSetId: ownSet, heldOutSetId: ownSet, patch: { width: 4, height: 4 }, bits: 1 };
+    const created = await request(t.app).post(runsUrl()).set(bearer(team.engineer)).send(body);
+    expect(created.status).toBe(201);
+    const setUrl = `/api/teams/${team.teamId}/image-sets/${ownSet}`;
+    expect((await request(t.app).delete(setUrl).set(bearer(team.admin))).status).toBe(409);
+    expect((await request(t.app).delete(`${runsUrl()}/${created.body.run.id}`).set(bearer(team.admin))).status).toBe(204);
+    expect((await request(t.app).delete(setUrl).set(bearer(team.admin))).status).toBe(204);
+  });
 });

@@ -18,9 +18,12 @@ export const bitsRange = z
  * only on one side contributes all of its images to that side. No default is filled in here: the body is
  * stored as submitted, and GET returns it in this same shape.
  */
+/** A run's name: the one rule for creating and renaming. */
+const runName = z.string().trim().min(1).max(120);
+
 export const createRunBody = z
   .object({
-    name: z.string().trim().min(1).max(120),
+    name: runName,
     notes: z.string().max(10_000).optional(),
     trainingImageIds: imageIds.optional(),
     trainingSetId: idParam.optional(),
@@ -69,6 +72,10 @@ export type NormalizedRunConfig = z.infer<typeof normalizedRunConfig>;
 
 export const runParams = z.object({ teamId: pathId, runId: pathId });
 
+/** PATCH /api/teams/:teamId/runs/:runId (engineer, admin) → 200 { run }: renames the run. */
+export const renameRunBody = z.object({ name: runName }).strict();
+export type RenameRunBody = z.infer<typeof renameRunBody>;
+
 /** The point of a run's curve a list shows first: the best PSNR it reached (null until evaluated). */
 export const operatingPoint = z.object({
   codebookId: z.number().int(),
@@ -114,5 +121,8 @@ export type RunDetail = z.infer<typeof runDetail>;
 
 /** GET /api/teams/:teamId/runs */
 export const runsResponse = z.object({ runs: z.array(runSummary) });
-/** POST /runs → 201, GET /runs/:runId, POST /runs/:runId/cancel → 200 (409 when the run has already finished) */
+/**
+ * POST /runs → 201, GET /runs/:runId, PATCH /runs/:runId, POST /runs/:runId/cancel → 200 (409 when the run has
+ * already finished). DELETE /runs/:runId (admin) → 204; 409 while one of its jobs is running (cancel it first).
+ */
 export const runResponse = z.object({ run: runDetail });

@@ -6,13 +6,13 @@ import type { Database } from '../db';
 import { recordAudit } from '../services/audit';
 
 /** The invented demo scenario: a small team building a thumbnail codec for a low-bandwidth underwater survey link. */
-export const demoTeamName = 'Tidewater Survey Link';
+export const demoTeamName = 'Bramblecove Seabed Survey (demo)';
 
 /** The passwords here are published in the README: they are given only to a studio that listens on loopback. */
 export const demoAccounts: readonly { email: string; password: string; name: string; role: Role }[] = [
-  { email: 'ada@tidewater.test', password: 'harbour-admin-1', name: 'Ada Ferrow', role: 'admin' },
-  { email: 'tomas@tidewater.test', password: 'harbour-engineer-1', name: 'Tomas Reyl', role: 'engineer' },
-  { email: 'juno@tidewater.test', password: 'harbour-viewer-1', name: 'Juno Marsh', role: 'viewer' },
+  { email: 'ada@bramblecove.test', password: 'harbour-admin-1', name: 'Ada Ferrow', role: 'admin' },
+  { email: 'tomas@bramblecove.test', password: 'harbour-engineer-1', name: 'Tomas Reyl', role: 'engineer' },
+  { email: 'juno@bramblecove.test', password: 'harbour-viewer-1', name: 'Juno Marsh', role: 'viewer' },
 ];
 
 export interface DemoSeedOptions {

@@ -20,6 +20,8 @@ export type AuditAction =
   | 'evaluation.requested'
   | 'run.created'
   | 'run.cancelled'
+  | 'run.renamed'
+  | 'run.deleted'
   | 'codebook.exported'
   | 'codebook.imported';
 

@@ -5,6 +5,7 @@ import {
   type JobState,
   type JobSummary,
   type NormalizedRunConfig,
+  type RenameRunBody,
   type RunDetail,
   type RunSummary,
 } from '../contracts';
@@ -233,6 +234,40 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
       });
       for (const id of requested) bus.requestCancel(id);
       return detail(await mustFind(teamId, runId));
+    },
+
+    async rename(teamId: number, userId: number, runId: number, body: RenameRunBody): Promise<RunDetail> {
+      await db.transaction(async (tx) => {
+        const run = await tx.runs.findForTeam(teamId, runId);
+        if (!run) throw notFound('Run');
+        await tx.runs.rename(runId, body.name);
+        await recordAudit(tx, { teamId, actorUserId: userId, action: 'run.renamed', targetType: 'run', targetId: runId, details: { from: run.name, to: body.name } });
+      });
+      return detail(await mustFind(teamId, runId));
+    },
+
+    /**
+     * Deletes a run with its trained codebooks, their evaluations and reconstructions (see runs.remove). A queued
+     * job goes with it (nothing has started); a running one is refused with 409, because its worker would go on
+     * writing results for a run that is gone: cancel the run first, then delete it.
+     */
+    async remove(teamId: number, userId: number, runId: number): Promise<void> {
+      await db.transaction(async (tx) => {
+        const run = await tx.runs.findForTeam(teamId, runId);
+        if (!run) throw notFound('Run');
+        const open = await tx.runs.lockOpenJobs(runId);
+        if (open.some((j) => j.state === 'running')) throw conflict('The run is still running: cancel it first, then delete it', { state: run.state });
+        const codebooks = await tx.codebooks.listForRun(runId);
+        await tx.runs.remove(runId);
+        await recordAudit(tx, {
+          teamId,
+          actorUserId: userId,
+          action: 'run.deleted',
+          targetType: 'run',
+          targetId: runId,
+          details: { name: run.name, state: run.state, codebooks: codebooks.length, queuedJobs: open.map((j) => j.id) },
+        });
+      });
     },
 
     /**

@@ -34,9 +34,9 @@ describe('demo seed', () => {
     expect(teams).toEqual([{ name: demoTeamName }]);
     const rows = await accountRows(db.knex);
     expect(rows.map(({ email, name, role }) => ({ email, name, role }))).toEqual([
-      { email: 'ada@tidewater.test', name: 'Ada Ferrow', role: 'admin' },
-      { email: 'juno@tidewater.test', name: 'Juno Marsh', role: 'viewer' },
-      { email: 'tomas@tidewater.test', name: 'Tomas Reyl', role: 'engineer' },
+      { email: 'ada@bramblecove.test', name: 'Ada Ferrow', role: 'admin' },
+      { email: 'juno@bramblecove.test', name: 'Juno Marsh', role: 'viewer' },
+      { email: 'tomas@bramblecove.test', name: 'Tomas Reyl', role: 'engineer' },
     ]);
     for (const row of rows) {
       const account = demoAccounts.find((a) => a.email === row.email)!;

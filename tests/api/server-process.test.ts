@@ -33,9 +33,9 @@ describe('server/index.ts as a process', () => {
       .orderBy('u.email')
       .select('t.name as team', 'u.email', 'm.role')) as { team: string; email: string; role: string }[];
     expect(rows).toEqual([
-      { team: 'Tidewater Survey Link', email: 'ada@tidewater.test', role: 'admin' },
-      { team: 'Tidewater Survey Link', email: 'juno@tidewater.test', role: 'viewer' },
-      { team: 'Tidewater Survey Link', email: 'tomas@tidewater.test', role: 'engineer' },
+      { team: 'Bramblecove Seabed Survey (demo)', email: 'ada@bramblecove.test', role: 'admin' },
+      { team: 'Bramblecove Seabed Survey (demo)', email: 'juno@bramblecove.test', role: 'viewer' },
+      { team: 'Bramblecove Seabed Survey (demo)', email: 'tomas@bramblecove.test', role: 'engineer' },
     ]);
   });
 
@@ -43,14 +43,14 @@ describe('server/index.ts as a process', () => {
     const login = await fetch(`${server!.url}/api/auth/login`, {
       method: 'POST',
       headers: { 'content-type': 'application/json' },
-      body: JSON.stringify({ email: 'ada@tidewater.test', password: 'harbour-admin-1' }),
+      body: JSON.stringify({ email: 'ada@bramblecove.test', password: 'harbour-admin-1' }),
     });
     expect(login.status).toBe(200);
     const cookie = login.headers.get('set-cookie') ?? '';
     expect(cookie).toMatch(/^cw_session=/);
     const me = await fetch(`${server!.url}/api/me`, { headers: { cookie: cookie.split(';')[0] } });
     expect(me.status).toBe(200);
-    expect((await me.json()).teams).toEqual([expect.objectContaining({ name: 'Tidewater Survey Link', role: 'admin' })]);
+    expect((await me.json()).teams).toEqual([expect.objectContaining({ name: 'Bramblecove Seabed Survey (demo)', role: 'admin' })]);
   });
 
   it('answers an unknown API path with the JSON 404 error shape', async () => {

@@ -6,8 +6,8 @@ import { startServer, type StartedServer } from '../helpers/server';
 import { launchBrowser, saveScreenshot, type BrowserSession } from './browser';
 
 // Demo admin and team from the shared environment contract (server/seed); the newcomer is invented here.
-const demoAdmin = { email: 'ada@tidewater.test', password: 'harbour-admin-1' };
-const demoTeam = 'Tidewater Survey Link';
+const demoAdmin = { email: 'ada@bramblecove.test', password: 'harbour-admin-1' };
+const demoTeam = 'Bramblecove Seabed Survey (demo)';
 const newcomer = { email: 'oriel.vance@driftline.test', name: 'Oriel Vance', password: 'driftline-buoy-42', newPassword: 'driftline-mooring-77', team: 'Driftline Buoys' };
 
 describe('accounts through the browser', () => {

@@ -3,9 +3,9 @@ import { startServer, type StartedServer } from '../helpers/server';
 import { launchBrowser, saveScreenshot, type BrowserSession } from './browser';
 
 // Demo accounts and team from the shared environment contract (server/seed).
-const teamName = 'Tidewater Survey Link';
-const admin = { email: 'ada@tidewater.test', password: 'harbour-admin-1' };
-const invitee = { email: 'rhea.calder@tidewater.test', name: 'Rhea Calder', password: 'kelp-forest-survey-9' };
+const teamName = 'Bramblecove Seabed Survey (demo)';
+const admin = { email: 'ada@bramblecove.test', password: 'harbour-admin-1' };
+const invitee = { email: 'rhea.calder@bramblecove.test', name: 'Rhea Calder', password: 'kelp-forest-survey-9' };
 
 describe('inviting a member through the browser', () => {
   let server: StartedServer;

@@ -4,8 +4,8 @@ import { startServer, type StartedServer } from '../helpers/server';
 import { launchBrowser, saveScreenshot, type BrowserSession } from './browser';
 
 // Demo accounts from the shared environment contract (server/seed).
-const admin = { email: 'ada@tidewater.test', password: 'harbour-admin-1' };
-const viewer = { email: 'juno@tidewater.test', oldPassword: 'harbour-viewer-1', newPassword: 'low-tide-transect-4' };
+const admin = { email: 'ada@bramblecove.test', password: 'harbour-admin-1' };
+const viewer = { email: 'juno@bramblecove.test', oldPassword: 'harbour-viewer-1', newPassword: 'low-tide-transect-4' };
 
 describe('resetting a password through the browser', () => {
   let server: StartedServer;

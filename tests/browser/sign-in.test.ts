@@ -3,10 +3,10 @@ import { startServer, type StartedServer } from '../helpers/server';
 import { launchBrowser, saveScreenshot, type BrowserSession } from './browser';
 
 // Demo accounts and team from the shared environment contract (server/seed).
-const teamName = 'Tidewater Survey Link';
-const admin = { email: 'ada@tidewater.test', password: 'harbour-admin-1', name: 'Ada Ferrow' };
-const engineer = { email: 'tomas@tidewater.test', name: 'Tomas Reyl' };
-const viewer = { email: 'juno@tidewater.test', password: 'harbour-viewer-1', name: 'Juno Marsh' };
+const teamName = 'Bramblecove Seabed Survey (demo)';
+const admin = { email: 'ada@bramblecove.test', password: 'harbour-admin-1', name: 'Ada Ferrow' };
+const engineer = { email: 'tomas@bramblecove.test', name: 'Tomas Reyl' };
+const viewer = { email: 'juno@bramblecove.test', password: 'harbour-viewer-1', name: 'Juno Marsh' };
 
 describe('signing in through the browser', () => {
   let server: StartedServer;

@@ -7,9 +7,9 @@ import { startServer, type StartedServer } from '../helpers/server';
 import { launchBrowser, saveScreenshot, type BrowserSession } from './browser';
 
 // Demo accounts of the seeded team (server/seed/demo.ts).
-const engineer = { email: 'tomas@tidewater.test', password: 'harbour-engineer-1' };
-const viewer = { email: 'juno@tidewater.test', password: 'harbour-viewer-1' };
-const admin = { email: 'ada@tidewater.test', password: 'harbour-admin-1' };
+const engineer = { email: 'tomas@bramblecove.test', password: 'harbour-engineer-1' };
+const viewer = { email: 'juno@bramblecove.test', password: 'harbour-viewer-1' };
+const admin = { email: 'ada@bramblecove.test', password: 'harbour-admin-1' };
 
 const setName = 'Breakwater survey, north arm';
 

@@ -7,9 +7,9 @@ import { startServer, type StartedServer } from '../helpers/server';
 import { launchBrowser, saveScreenshot, type BrowserSession } from './browser';
 
 // Demo accounts, team, sets and runs from the seed (server/seed/demo.ts, server/seed/demo-content.ts).
-const teamName = 'Tidewater Survey Link';
-const engineer = { email: 'tomas@tidewater.test', password: 'harbour-engineer-1' };
-const viewer = { email: 'juno@tidewater.test', password: 'harbour-viewer-1' };
+const teamName = 'Bramblecove Seabed Survey (demo)';
+const engineer = { email: 'tomas@bramblecove.test', password: 'harbour-engineer-1' };
+const viewer = { email: 'juno@bramblecove.test', password: 'harbour-viewer-1' };
 const demoRuns = ['Luma 4×4 sweep', 'Luma 4×4 mean-removed sweep'];
 
 type Api = { token: string; teamId: number };

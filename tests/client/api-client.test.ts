@@ -17,7 +17,7 @@ describe('api client', () => {
         case '/api/teams/7/members/3':
           return sendJson(res, 409, { error: { code: 'conflict', message: 'A team needs at least one admin', details: { fields: { role: 'Keep one admin' } } } });
         case '/api/me':
-          return sendJson(res, 200, { user: { id: 1, email: 'ada@tidewater.test', name: 'Ada Ferrow', createdAt: '2025-01-01T00:00:00.000Z' }, teams: [] });
+          return sendJson(res, 200, { user: { id: 1, email: 'ada@bramblecove.test', name: 'Ada Ferrow', createdAt: '2025-01-01T00:00:00.000Z' }, teams: [] });
         case '/api/broken-proxy':
           res.writeHead(502, { 'Content-Type': 'text/html' });
           return res.end('<html>bad gateway</html>');
@@ -61,7 +61,7 @@ describe('api client', () => {
 
   it('checks a successful answer against the contract schema', async () => {
     const schema = z.object({ user: z.object({ email: z.string() }), teams: z.array(z.unknown()) });
-    await expect(apiRequest('/me', { schema })).resolves.toMatchObject({ user: { email: 'ada@tidewater.test' } });
+    await expect(apiRequest('/me', { schema })).resolves.toMatchObject({ user: { email: 'ada@bramblecove.test' } });
 
     const wrong = z.object({ token: z.string() });
     await expect(apiRequest('/me', { schema: wrong })).rejects.toMatchObject({ name: 'ApiError', code: 'invalid_response', status: 200 });

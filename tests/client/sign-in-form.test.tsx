@@ -34,7 +34,7 @@ describe('sign-in form', () => {
     server = await startHttpServer((request, res) => {
       if (request.url !== '/api/auth/login' || request.method !== 'POST') return sendJson(res, 404, { error: { code: 'not_found', message: 'No route' } });
       const { email, password } = JSON.parse(request.body) as { email: string; password: string };
-      if (email === 'ada@tidewater.test' && password === 'harbour-admin-1') {
+      if (email === 'ada@bramblecove.test' && password === 'harbour-admin-1') {
         return sendJson(res, 200, { token: 'jwt', user: { id: 1, email, name: 'Ada Ferrow', createdAt: '2025-01-01T00:00:00.000Z' } });
       }
       return sendJson(res, 401, { error: { code: 'unauthenticated', message: wrongPasswordMessage } });
@@ -62,7 +62,7 @@ describe('sign-in form', () => {
     expect(document.getElementById(email.getAttribute('aria-describedby') ?? '')?.textContent).toBe('Enter your e-mail address');
     expect(document.getElementById(password.getAttribute('aria-describedby') ?? '')?.textContent).toBe('Enter your password');
 
-    await user.type(email, 'ada-at-tidewater');
+    await user.type(email, 'ada-at-bramblecove');
     await user.tab();
     expect(await screen.findByText('Enter a valid e-mail address, such as name@example.com')).toBeTruthy();
 
@@ -73,7 +73,7 @@ describe('sign-in form', () => {
     const user = userEvent.setup();
     const { redirects } = renderSignIn();
 
-    await user.type(screen.getByLabelText('E-mail'), '  Ada@Tidewater.test ');
+    await user.type(screen.getByLabelText('E-mail'), '  Ada@Bramblecove.test ');
     await user.type(screen.getByLabelText('Password'), 'not-the-password');
     await user.click(screen.getByRole('button', { name: 'Sign in' }));
 
@@ -81,7 +81,7 @@ describe('sign-in form', () => {
     expect(alert.textContent).toBe(wrongPasswordMessage);
     expect(server.requests).toHaveLength(1);
     // The form sends the address the way accounts store it: trimmed and lower-case.
-    expect(JSON.parse(server.requests[0].body)).toEqual({ email: 'ada@tidewater.test', password: 'not-the-password' });
+    expect(JSON.parse(server.requests[0].body)).toEqual({ email: 'ada@bramblecove.test', password: 'not-the-password' });
     expect(redirects()).toBe(0);
   });
 
@@ -90,11 +90,11 @@ describe('sign-in form', () => {
     const signedIn: string[] = [];
     renderSignIn((email) => signedIn.push(email));
 
-    await user.type(screen.getByLabelText('E-mail'), 'ada@tidewater.test');
+    await user.type(screen.getByLabelText('E-mail'), 'ada@bramblecove.test');
     await user.type(screen.getByLabelText('Password'), 'harbour-admin-1');
     await user.click(screen.getByRole('button', { name: 'Sign in' }));
 
-    await expect.poll(() => signedIn).toEqual(['ada@tidewater.test']);
+    await expect.poll(() => signedIn).toEqual(['ada@bramblecove.test']);
     expect(screen.queryByRole('alert')).toBeNull();
   });
 });

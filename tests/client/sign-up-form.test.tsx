@@ -43,26 +43,26 @@ describe('sign-up form', () => {
   it('sends the address alone and tells the person to check their inbox', async () => {
     const user = userEvent.setup();
     renderForm();
-    await user.type(screen.getByLabelText('Work e-mail'), 'Ada@Tidewater.test');
+    await user.type(screen.getByLabelText('Work e-mail'), 'Ada@Bramblecove.test');
     await user.click(screen.getByRole('button', { name: 'Send sign-up link' }));
 
     expect((await screen.findByRole('status')).textContent).toContain('Check your inbox');
     expect(server.requests[0].url).toBe('/api/auth/signup');
-    expect(JSON.parse(server.requests[0].body)).toEqual({ email: 'ada@tidewater.test' });
+    expect(JSON.parse(server.requests[0].body)).toEqual({ email: 'ada@bramblecove.test' });
   });
 
   it("shows the server's message when it refuses, such as a rate limit", async () => {
     answer = () => [429, { error: { code: 'rate_limited', message: 'Too many sign-up requests from your network; try again later' } }];
     const user = userEvent.setup();
     renderForm();
-    await user.type(screen.getByLabelText('Work e-mail'), 'ada@tidewater.test');
+    await user.type(screen.getByLabelText('Work e-mail'), 'ada@bramblecove.test');
     await user.click(screen.getByRole('button', { name: 'Send sign-up link' }));
     expect((await screen.findByRole('alert')).textContent).toBe('Too many sign-up requests from your network; try again later');
   });
 });
 
 describe('the finish-sign-up form rules', () => {
-  const valid = { name: 'Ada Ferrow', password: 'harbour-admin-1', confirm: 'harbour-admin-1', teamName: 'Tidewater' };
+  const valid = { name: 'Ada Ferrow', password: 'harbour-admin-1', confirm: 'harbour-admin-1', teamName: 'Bramblecove' };
 
   it('accepts a password of exactly 72 UTF-8 bytes and refuses one of 73, whatever its character count', () => {
     // 24 × "€" (U+20AC, three bytes in UTF-8, RFC 3629 §3) = 72 bytes in 24 characters.

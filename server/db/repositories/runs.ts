@@ -138,6 +138,29 @@ export function runsRepository(db: Executor) {
       const rows = (await base().where({ 'r.team_id': teamId }).orderBy('r.id', 'desc').limit(limit)) as RunRow[];
       return rows.map(toRun);
     },
+    async rename(runId: number, name: string): Promise<void> {
+      await db('runs').where({ id: runId }).update({ name });
+    },
+    /**
+     * Locks the unfinished jobs that work on the run: its own (train, evaluate) and those on its codebooks (a
+     * later evaluation), so none is claimed while the run is being deleted.
+     */
+    async lockOpenJobs(runId: number): Promise<{ id: number; state: JobState }[]> {
+      return (await db('jobs')
+        .where((q) => q.where({ run_id: runId }).orWhereIn('codebook_id', db('codebooks').where({ run_id: runId }).select('id')))
+        .whereIn('state', ['queued', 'running'])
+        .forUpdate()
+        .select('id', 'state')) as { id: number; state: JobState }[];
+    },
+    /**
+     * Deletes the run. The foreign keys take the rest with it (ON DELETE CASCADE): its image list, its jobs, its
+     * trained codebooks and, through them, their evaluations, reconstructions and jobs. An imported codebook has no
+     * run and stays. The images and their stored bytes are not the run's; reconstruction views no row names any
+     * more are freed by the store sweep.
+     */
+    async remove(runId: number): Promise<void> {
+      await db('runs').where({ id: runId }).delete();
+    },
     /** The run's images with the role they play in it, training first, each in id order. */
     async imagesOf(runId: number, role?: 'training' | 'held-out'): Promise<RunImageRecord[]> {
       const q = db('run_images as ri')

@@ -1,11 +1,12 @@
 import { Router } from 'express';
-import { createRunBody, runParams, teamParams } from '../../contracts';
+import { createRunBody, renameRunBody, runParams, teamParams } from '../../contracts';
 import { validate, validated } from '../middleware/validate';
 import type { RouteDeps } from './deps';
 
 const listInput = { params: teamParams };
 const createInput = { params: teamParams, body: createRunBody };
 const oneInput = { params: runParams };
+const renameInput = { params: runParams, body: renameRunBody };
 
 function readRoutes(r: Router, d: RouteDeps) {
   r.get('/', d.authenticate, d.requireTeamRole(), validate(listInput), async (req, res) => {
@@ -34,6 +35,17 @@ function writeRoutes(r: Router, d: RouteDeps) {
   r.post('/:runId/cancel', d.authenticate, d.requireTeamRole('admin', 'engineer'), validate(oneInput), async (req, res) => {
     const { params } = validated(req, oneInput);
     res.json({ run: await d.runs.cancel(params.teamId, req.user!.id, params.runId) });
+  });
+
+  r.patch('/:runId', d.authenticate, d.requireTeamRole('admin', 'engineer'), validate(renameInput), async (req, res) => {
+    const { params, body } = validated(req, renameInput);
+    res.json({ run: await d.runs.rename(params.teamId, req.user!.id, params.runId, body) });
+  });
+
+  r.delete('/:runId', d.authenticate, d.requireTeamRole('admin'), validate(oneInput), async (req, res) => {
+    const { params } = validated(req, oneInput);
+    await d.runs.remove(params.teamId, req.user!.id, params.runId);
+    res.status(204).end();
   });
 }
 

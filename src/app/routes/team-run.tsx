@@ -1,4 +1,4 @@
-import type { QueryClient } from '@tanstack/react-query';
+import { useQueryClient, type QueryClient } from '@tanstack/react-query';
 import { useState } from 'react';
 import { data, Link, useNavigate, useParams, type LoaderFunctionArgs } from 'react-router-dom';
 import type { RunDetail } from '../../../server/contracts';
@@ -12,11 +12,15 @@ import { SelectField } from '../../components/ui/field';
 import { PageHeader } from '../../components/ui/page-header';
 import { Panel } from '../../components/ui/panel';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
+import { codebookKeys } from '../../features/codebooks/api/keys';
+import { compareKeys } from '../../features/compare/api/keys';
+import { runSetupKeys } from '../../features/run-setup/api/keys';
 import { useCancelRun } from '../../features/runs/api/cancel-run';
 import { isTerminal, runQueryOptions, useRun } from '../../features/runs/api/get-run';
 import { runCurveCsvUrl, useRunCurve } from '../../features/runs/api/get-run-curve';
 import { runMetricsCsvUrl, useRunMetrics } from '../../features/runs/api/get-run-metrics';
 import { MetricsTable } from '../../features/runs/components/metrics-table';
+import { RunActions } from '../../features/runs/components/run-actions';
 import { RdPanel } from '../../features/runs/components/rd-panel';
 import { RunConfig } from '../../features/runs/components/run-config';
 import { RunProgress } from '../../features/runs/components/run-progress';
@@ -48,6 +52,7 @@ function hasResults(run: RunDetail): boolean {
 
 export function Component() {
   const navigate = useNavigate();
+  const queryClient = useQueryClient();
   const { team, teamId } = useCurrentTeam();
   const runId = Number(useParams().runId);
   const run = useRun(teamId, runId);
@@ -92,6 +97,19 @@ export function Component() {
                   {r.jobs.some((j) => j.cancelRequested) ? 'Cancelling…' : 'Cancel run'}
                 </Button>
               )}
+              <RunActions
+                teamId={team.id}
+                runId={r.id}
+                name={r.name}
+                codebookCount={r.codebooks.length}
+                canRename
+                canDelete={team.role === 'admin' && done}
+                onDeleted={() => navigate(href.teamRuns(team.id), { replace: true })}
+                onChanged={() => {
+                  // Codebooks, the compare page and the new-run page's recent runs name runs; features cannot reach each other's keys, the page can.
+                  for (const queryKey of [codebookKeys.team(team.id), compareKeys.team(team.id), runSetupKeys.team(team.id)]) void queryClient.invalidateQueries({ queryKey });
+                }}
+              />
               <Link to={href.teamNewRun(team.id, r.id)} className={buttonClass('primary')}>
                 Run again with changes
               </Link>

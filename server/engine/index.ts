@@ -42,7 +42,7 @@ export { checkMeanBits, quantizeMean, meanLevel, removeMeans, MEAN_BITS_MIN, MEA
 export { readNpy, writeNpy, type NpyMatrix } from './io/npy';
 export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
 export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
-export { ssimGrey, ssimOfImages } from './metrics/ssim';
+export { poolSsim, ssimGrey, ssimOfImages } from './metrics/ssim';
 export { bppFixed, entropyBits, indexBits } from './metrics/rate';
 export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion } from './metrics/evaluate';

@@ -3,7 +3,7 @@ import { EngineInputError } from '../input-error';
 import { toUint8, type PixelImage } from '../io/image';
 import { lumaPlane } from '../io/luma';
 import { psnrFromMse, sumSquaredError } from './distortion';
-import { ssimOfImages } from './ssim';
+import { poolSsim, ssimOfImages } from './ssim';
 
 /**
  * Rate–distortion points of standard codecs through sharp, measured exactly as VQ codebooks are:
@@ -88,7 +88,7 @@ export async function baselineCurve(images: PixelImage[], options: BaselineOptio
       let sse = 0;
       let components = 0;
       let pixels = 0;
-      const ssims: number[] = [];
+      const ssims: { ssim: number | null; pixels: number }[] = [];
       for (const image of images) {
         const file = await encodeWith(codec, image, quality);
         const decoded = await decodeForComparison(file, image);
@@ -96,8 +96,7 @@ export async function baselineCurve(images: PixelImage[], options: BaselineOptio
         sse += sumSquaredError(image.pixels, decoded);
         components += image.pixels.length;
         pixels += image.width * image.height;
-        const s = ssimOfImages(image.pixels, decoded, image.width, image.height, image.channels);
-        if (s !== null) ssims.push(s);
+        ssims.push({ ssim: ssimOfImages(image.pixels, decoded, image.width, image.height, image.channels), pixels: image.width * image.height });
       }
       const mse = sse / components;
       points.push({
@@ -108,7 +107,7 @@ export async function baselineCurve(images: PixelImage[], options: BaselineOptio
         bpp: (bytes * 8) / pixels,
         mse,
         psnr: psnrFromMse(mse),
-        ssim: ssims.length ? ssims.reduce((a, b) => a + b, 0) / ssims.length : null,
+        ssim: poolSsim(ssims),
       });
       options.onPoint?.(points.length, total);
     }

@@ -7,7 +7,7 @@ import type { PixelImage } from '../io/image';
 import { removeMeans } from '../io/mean-removal';
 import { psnrFromMse, sumSquaredError } from './distortion';
 import { bppFixed, entropyBits, histogram } from './rate';
-import { ssimOfImages } from './ssim';
+import { poolSsim, ssimOfImages } from './ssim';
 
 /**
  * Rate and distortion of a codebook on held-out data.
@@ -137,7 +137,6 @@ export async function evaluateImages(codebook: Codebook, images: PixelImage[], o
   const indexEntropy = entropyBits(usage);
   const meanEntropy = meanBits > 0 ? entropyBits(meanCounts) : 0;
   const mse = sse / components;
-  const ssims = results.map((r) => r.ssim).filter((s): s is number => s !== null);
   return {
     kind: 'images',
     images: results,
@@ -146,7 +145,7 @@ export async function evaluateImages(codebook: Codebook, images: PixelImage[], o
       blocks,
       mse,
       psnr: psnrFromMse(mse),
-      ssim: ssims.length ? ssims.reduce((a, b) => a + b, 0) / ssims.length : null,
+      ssim: poolSsim(results),
       bppFixed: fixed,
       bppEntropy: ((indexEntropy + meanEntropy) * blocks) / pixels,
       bppActual: (bytes * 8) / pixels,

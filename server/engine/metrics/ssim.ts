@@ -60,3 +60,20 @@ export function ssimOfImages(a: ArrayLike<number>, b: ArrayLike<number>, width: 
   if (width < SSIM_WINDOW || height < SSIM_WINDOW) return null;
   return ssimGrey(greyPlaneForSsim(a, channels), greyPlaneForSsim(b, channels), width, height);
 }
+
+/**
+ * The one rule for pooling SSIM over a set of images, used by the command line and the studio alike: the mean of
+ * the images' SSIM weighted by their pixel counts, so a large image counts as much as the same pixels cut into
+ * small ones (common practice for sets of mixed sizes). Images too small for the SSIM window (ssim null) are left
+ * out; null when none is left.
+ */
+export function poolSsim(images: Iterable<{ ssim: number | null; pixels: number }>): number | null {
+  let weighted = 0;
+  let weight = 0;
+  for (const image of images) {
+    if (image.ssim === null) continue;
+    weighted += image.ssim * image.pixels;
+    weight += image.pixels;
+  }
+  return weight > 0 ? weighted / weight : null;
+}

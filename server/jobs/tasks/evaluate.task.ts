@@ -136,20 +136,13 @@ async function loadAll(images: TaskImage[], color: ColorMode, memory: MemoryBudg
 }
 
 /**
- * Per image and pooled: MSE pooled over pixel components and PSNR from it; SSIM weighted by pixels (so a large image
- * counts as much as the same pixels cut into small ones); rates are total bits over total pixels.
+ * Per image and pooled as the engine pools them (metrics/evaluate.ts): MSE over pixel components and PSNR from it,
+ * SSIM by poolSsim (pixel-weighted), rates total bits over total pixels — the same figures the command line reports.
  */
 export async function evaluateCodebook(codebook: TaskCodebook, images: TaskImage[], memory: MemoryBudget): Promise<EvaluateResult> {
   const book = toCodebook(codebook);
   const decoded = await loadAll(images, codebook.patch.color, memory);
   const result = await evaluate(book, decoded, ON_THIS_THREAD);
-  let weighted = 0;
-  let weight = 0;
-  for (const r of result.images) {
-    if (r.ssim === null) continue;
-    weighted += r.ssim * r.pixels;
-    weight += r.pixels;
-  }
   const o = result.overall;
   return {
     images: result.images.map((r) => ({
@@ -169,7 +162,7 @@ export async function evaluateCodebook(codebook: TaskCodebook, images: TaskImage
       bytes: o.bytes,
       mse: o.mse,
       psnr: psnrForJson(o.psnr),
-      ssim: weight > 0 ? weighted / weight : null,
+      ssim: o.ssim,
       bppFixed: o.bppFixed,
       bppEntropy: o.bppEntropy,
       bppActual: o.bppActual,

@@ -1,3 +1,4 @@
+import { useQueryClient } from '@tanstack/react-query';
 import type { QueryClient } from '@tanstack/react-query';
 import { useMemo, useState } from 'react';
 import { data, Link, useParams, type LoaderFunctionArgs } from 'react-router-dom';
@@ -21,6 +22,8 @@ import { ReconstructionViewer } from '../../features/codebooks/components/recons
 import { fixedRate, formatBpp, formatBytes, formatDb, formatMse } from '../../features/codebooks/format';
 import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';
+import { EvaluateCodebookForm } from '../../features/codebook-import/components/evaluate-codebook-form';
+import { codebookKeys } from '../../features/codebooks/api/keys';
 
 export { RouteError as ErrorBoundary } from './route-error';
 
@@ -49,10 +52,11 @@ export function Component() {
   if (!team) return null;
   if (codebook.isPending) return <LoadingState label="Loading the codebook…" />;
   if (codebook.isError) return <ErrorState message={messageOf(codebook.error)} onRetry={() => void codebook.refetch()} />;
-  return <CodebookPage teamId={team.id} teamName={team.name} codebook={codebook.data} />;
+  return <CodebookPage teamId={team.id} teamName={team.name} canEvaluate={team.role !== 'viewer'} codebook={codebook.data} />;
 }
 
-function CodebookPage({ teamId, teamName, codebook }: { teamId: number; teamName: string; codebook: CodebookDetail }) {
+function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: number; teamName: string; canEvaluate: boolean; codebook: CodebookDetail }) {
+  const queryClient = useQueryClient();
   const [order, setOrder] = useState<AtlasOrder>('usage');
   const [gain, setGain] = useState(1);
   const [selected, setSelected] = useState<number | null>(null);
@@ -161,6 +165,17 @@ function CodebookPage({ teamId, teamName, codebook }: { teamId: number; teamName
         </div>
 
         <HeldOutPanel teamId={teamId} codebookId={codebook.id} />
+
+        {/* A trained codebook is evaluated by its run; an imported one only here (or right after its import). */}
+        {canEvaluate && codebook.runId === null && (
+          <Panel title="Evaluate on a held-out set" titleId="codebook-evaluate" description="Rate, MSE, PSNR and SSIM on images the codebook never saw.">
+            <EvaluateCodebookForm
+              teamId={teamId}
+              codebookId={codebook.id}
+              onQueued={() => void queryClient.invalidateQueries({ queryKey: codebookKeys.evaluations(teamId, codebook.id) })}
+            />
+          </Panel>
+        )}
 
         <Panel title="Export" titleId="codebook-export" description="The codebook document (format cellwright-codebook, version 1) with its SHA-256 checksum">
           <div className="flex flex-col gap-4">

@@ -126,7 +126,7 @@ export function Component() {
             </dd>
           </div>
           <div className="flex gap-1.5">
-            <dt className="text-ink-600">Started</dt>
+            <dt className="text-ink-600">Created</dt>
             <dd className="num text-ink-900">{formatDateTime(r.createdAt)}</dd>
           </div>
           {r.finishedAt && (

@@ -16,7 +16,7 @@ export function RunsTable({ teamId, runs }: { teamId: number; runs: RunSummary[]
           <th scope="col" className="w-40 py-2 pr-4 font-medium">Progress</th>
           <th scope="col" className="py-2 pr-4 text-right font-medium">Best PSNR</th>
           <th scope="col" className="py-2 pr-4 text-right font-medium">at rate</th>
-          <th scope="col" className="py-2 font-medium">Started</th>
+          <th scope="col" className="py-2 font-medium">Created</th>
         </tr>
       </thead>
       <tbody>

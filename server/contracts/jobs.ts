@@ -1,6 +1,7 @@
 import { z } from 'zod';
+import { RUN_STATES } from '../engine/vocabulary';
 
-export const jobStates = ['queued', 'running', 'succeeded', 'failed', 'cancelled'] as const;
+export const jobStates = RUN_STATES;
 export const jobState = z.enum(jobStates);
 export type JobState = z.infer<typeof jobState>;
 export const terminalJobStates: readonly JobState[] = ['succeeded', 'failed', 'cancelled'];

@@ -104,6 +104,27 @@ export const CONFIG_KEY_LABELS: Record<string, string> = {
   'bits.to': 'Highest b',
 };
 
+// ---- what a person reads for a run's or job's state (badge, home page, run page, compare picker, CLI, e-mail) ----
+
+/** The states a job (and so a run) moves through; the API spells them as the keys, people read the labels. */
+export const RUN_STATES = ['queued', 'running', 'succeeded', 'failed', 'cancelled'] as const;
+export type RunStateName = (typeof RUN_STATES)[number];
+export const RUN_STATE_LABELS: Record<RunStateName, string> = {
+  queued: 'Queued',
+  running: 'Running',
+  succeeded: 'Finished',
+  failed: 'Failed',
+  cancelled: 'Cancelled',
+};
+
+// ---- exact reconstruction (MSE = 0, PSNR = +∞) ----
+
+/**
+ * One spelling per medium: people read "∞ (exact)", CSV files carry `inf` (what NumPy's and pandas' float parsers
+ * read back as +∞), JSON carries null (it has no spelling for +∞). Common practice; the engine keeps +Infinity.
+ */
+export const EXACT = { text: '∞ (exact)', csv: 'inf', json: null } as const;
+
 // ---- the patches-per-image rule ----
 
 /**

@@ -41,6 +41,12 @@ function violation(from, target, isPackage) {
   if (under(from, 'server/http/routes') && (under(target, 'server/db') || under(target, 'server/engine') || target === 'knexfile')) {
     return 'routes call services; they never import the database layer or the engine';
   }
+  // One direction between jobs and services: handlers use services, services never reach into jobs. A service may
+  // see only the interfaces it is handed (the queue, the event bus) and the pool tasks' plain data types.
+  const serviceMaySee = ['server/jobs/queue', 'server/jobs/events', 'server/jobs/tasks'];
+  if (under(from, 'server/services') && under(target, 'server/jobs') && !serviceMaySee.some((d) => under(target, d))) {
+    return 'services never import server/jobs (handlers, runner, pool): they enqueue through the queue interface';
+  }
   if (under(from, 'server/jobs/tasks') && ['server/db', 'server/http', 'server/services'].some((d) => under(target, d))) {
     return 'worker tasks rebuild what they need from ids; they never import db, http or services';
   }

@@ -28,7 +28,7 @@ import { createContentStore, type ContentStore } from './storage/content-store';
 import { createSpool } from './storage/spool';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
-import { evaluationTaskRunner } from './jobs/handlers/evaluate';
+import { evaluationTaskRunner } from './jobs/evaluation-tasks';
 import { createMariaDbQueue } from './jobs/mariadb-queue';
 import { createJobNotifier } from './jobs/notifications';
 import { createTaskPool, type TaskPool } from './jobs/pool';
@@ -101,7 +101,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const queue = createMariaDbQueue(db);
   const pool = createTaskPool({ maxThreads: config.jobConcurrency, maxHeapMb: config.jobTaskMaxHeapMb });
   const training = { maxBytes: config.trainingMaxBytes, engineThreads: config.engineThreads };
-  const jobDeps: JobDeps = { db, store: contentStore, pool, queue, bus, logger, training };
+  const jobDeps: JobDeps = { db, store: contentStore, pool, queue, bus, logger, training, runEvaluationTask: evaluationTaskRunner(pool) };
   const runner = createJobRunner({
     queue,
     bus,
@@ -113,7 +113,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   });
   const runs = createRunsService({ db, bus, training });
   const codebooks = createCodebooksService({ db });
-  const evaluation = createEvaluationService({ db, store: contentStore, runTask: evaluationTaskRunner(pool), jobQueued: () => bus.jobQueued() });
+  const evaluation = createEvaluationService({ db, jobQueued: () => bus.jobQueued() });
   const reconstructionPool = createTaskPool({ maxThreads: config.reconstructions.maxConcurrent, maxHeapMb: config.jobTaskMaxHeapMb });
   const reconstructions = createReconstructionsService({
     db,

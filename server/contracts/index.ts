@@ -5,6 +5,7 @@ export * from './vocabulary';
 export * from './auth';
 export * from './teams';
 export * from './jobs';
+export * from './job-inputs';
 export * from './runs';
 export * from './codebooks';
 export * from './image-sets';

@@ -1,5 +1,6 @@
 import type { Database, Repositories } from '../db';
 import { JobCancelledError, MAX_ATTEMPTS, type Job, type JobQueue, type NewJob, type Transition } from './queue';
+import { refreshRunState } from '../services/run-state';
 
 /** The job queue in MariaDB: rows of `jobs`, claimed with SELECT … FOR UPDATE SKIP LOCKED. */
 export function createMariaDbQueue(db: Database): JobQueue {
@@ -7,7 +8,7 @@ export function createMariaDbQueue(db: Database): JobQueue {
     return db.transaction(async (tx) => {
       const changed = await tx.jobs.finish(jobId, state, error);
       const job = await tx.jobs.findById(jobId);
-      const runState = job?.runId ? await tx.runs.refreshState(job.runId) : null;
+      const runState = job?.runId ? await refreshRunState(tx, job.runId) : null;
       return { changed, state: job?.state ?? state, runState };
     });
   }
@@ -19,7 +20,7 @@ export function createMariaDbQueue(db: Database): JobQueue {
     async claim(): Promise<Job | null> {
       return db.transaction(async (tx) => {
         const job = await tx.jobs.claimNext();
-        if (job?.runId) await tx.runs.refreshState(job.runId);
+        if (job?.runId) await refreshRunState(tx, job.runId);
         return job;
       });
     },
@@ -37,7 +38,7 @@ export function createMariaDbQueue(db: Database): JobQueue {
         if (!job || job.state !== 'running' || job.cancelRequested) throw new JobCancelledError(jobId);
         const result = await work(tx);
         await tx.jobs.finish(jobId, 'succeeded');
-        if (job.runId) await tx.runs.refreshState(job.runId);
+        if (job.runId) await refreshRunState(tx, job.runId);
         return result;
       });
     },
@@ -48,14 +49,14 @@ export function createMariaDbQueue(db: Database): JobQueue {
         const job = await tx.jobs.lock(jobId);
         if (!job || job.state !== 'running') return;
         await tx.jobs.requeue(jobId, job.attempts);
-        if (job.runId) await tx.runs.refreshState(job.runId);
+        if (job.runId) await refreshRunState(tx, job.runId);
       });
     },
     async requestCancel(jobId) {
       return db.transaction(async (tx) => {
         const outcome = await tx.jobs.cancel(jobId);
         const job = await tx.jobs.findById(jobId);
-        if (job?.runId) await tx.runs.refreshState(job.runId);
+        if (job?.runId) await refreshRunState(tx, job.runId);
         return outcome;
       });
     },
@@ -80,7 +81,7 @@ export function createMariaDbQueue(db: Database): JobQueue {
           }
           if (job.runId) runs.add(job.runId);
         }
-        for (const runId of runs) await tx.runs.refreshState(runId);
+        for (const runId of runs) await refreshRunState(tx, runId);
         return { requeued, failed };
       });
     },

@@ -1,8 +1,8 @@
 import type { Logger } from '../config';
-import type { JobProgress, JobState } from '../contracts';
+import { jobInputs, type JobKind, type JobProgress, type JobState } from '../contracts';
 import type { JobEventBus } from './events';
 import { JobCancelledError, type Job, type JobQueue, type Transition } from './queue';
-import type { JobDeps, JobHandlers } from './types';
+import type { JobDeps, JobHandler, JobHandlers } from './types';
 
 export interface RunnerOptions {
   queue: JobQueue;
@@ -44,6 +44,29 @@ const messageOf = (err: unknown): string => {
   if (err instanceof Error && err.message) return err.message;
   return String(err);
 };
+
+type Issue = { path: PropertyKey[]; message: string; code?: string; errors?: Issue[][] };
+
+/** Each issue as "field: message"; a union lists why each of its forms did not fit, joined by "or". */
+function describeIssues(issues: readonly Issue[], prefix: PropertyKey[] = []): string {
+  return issues
+    .map((i) => {
+      const path = [...prefix, ...i.path];
+      if (i.code === 'invalid_union' && i.errors?.length) return i.errors.map((branch) => describeIssues(branch, path)).join(' or ');
+      return `${path.map(String).join('.') || 'job'}: ${i.message}`;
+    })
+    .join('; ');
+}
+
+/** The job's run, codebook and payload against its kind's schema; a job that does not fit fails with the reason. */
+export function checkedInput(job: Job) {
+  const schema = jobInputs[job.kind as JobKind];
+  if (!schema) throw new Error(`no handler for jobs of kind "${job.kind}"`);
+  const parsed = schema.safeParse({ runId: job.runId, codebookId: job.codebookId, payload: job.payload });
+  if (parsed.success) return parsed.data;
+  const where = describeIssues(parsed.error.issues);
+  throw new Error(`the ${job.kind} job's input is malformed (${where})`);
+}
 
 export function createJobRunner(options: RunnerOptions): JobRunner {
   const { queue, bus, logger } = options;
@@ -115,7 +138,8 @@ export function createJobRunner(options: RunnerOptions): JobRunner {
     let outcome: { state: 'succeeded' | 'failed' | 'cancelled' | 'released'; error: string | null };
     try {
       if (!handler) throw new Error(`no handler for jobs of kind "${job.kind}"`);
-      await handler(job, { signal: controller.signal, progress: (p) => reporter.report(p), deps: options.deps });
+      const input = checkedInput(job);
+      await (handler as JobHandler)(job, { input, signal: controller.signal, progress: (p) => reporter.report(p), deps: options.deps });
       // A handler that ignored its signal still must not turn a cancelled job into a success.
       if (a.reason === 'cancel') throw new JobCancelledError(job.id);
       outcome = { state: 'succeeded', error: null };

@@ -1,6 +1,7 @@
 import type { Logger } from '../config';
-import type { JobKind, JobProgress } from '../contracts';
+import type { JobInput, JobKind, JobProgress } from '../contracts';
 import type { Database } from '../db';
+import type { EvaluationTaskRunner } from '../services/task-codebook';
 import type { TrainingLimits } from '../services/training-memory';
 import type { ContentStore } from '../storage/content-store';
 import type { JobEventBus } from './events';
@@ -15,11 +16,15 @@ export interface JobDeps {
   queue: JobQueue;
   bus: JobEventBus;
   logger: Logger;
+  /** Runs an evaluation task (measuring, reference codecs) on the job pool; built once with the pool. */
+  runEvaluationTask: EvaluationTaskRunner;
   /** TRAINING_MAX_BYTES and the engine's threads: a training job checks its run against them again before it starts. */
   training: TrainingLimits;
 }
 
-export interface JobContext {
+export interface JobContext<K extends JobKind = JobKind> {
+  /** The job's run, codebook and payload, checked against its kind's schema (contracts/job-inputs.ts) when it was taken. */
+  input: JobInput<K>;
   /** Aborted on cancellation and on shutdown; pass it to every engine and pool call. */
   signal: AbortSignal;
   /** Report as often as you like: every report reaches the event bus, the database gets at most two a second. */
@@ -31,6 +36,6 @@ export interface JobContext {
  * Does one job's work. Resolving means success (the runner marks it succeeded, unless the handler already did
  * through queue.completeWith); throwing means failure, with the error's message as the reason the user sees.
  */
-export type JobHandler = (job: Job, ctx: JobContext) => Promise<void>;
+export type JobHandler<K extends JobKind = JobKind> = (job: Job, ctx: JobContext<K>) => Promise<void>;
 
-export type JobHandlers = Record<JobKind, JobHandler>;
+export type JobHandlers = { [K in JobKind]: JobHandler<K> };

@@ -3,9 +3,7 @@ import { INIT, type CreateRunBody } from '../contracts';
 import type { Database } from '../db';
 import type { Composition } from '../composition';
 import type { Logger } from '../config';
-import { jobHandlers } from '../jobs/handlers';
-import type { JobQueue } from '../jobs/queue';
-import type { JobDeps, JobHandlers } from '../jobs/types';
+import type { JobRunner } from '../jobs/runner';
 import type { ImageSetsService, ImageUploadsService, RunsService } from '../services';
 import { demoAccounts } from './demo';
 import { seabedSet } from './seabed-tiles';
@@ -13,8 +11,8 @@ import { seabedSet } from './seabed-tiles';
 /**
  * The demo team's survey material and a finished sweep, so a new user sees a curve, codebooks and a comparison at
  * once. The tiles are drawn procedurally (seabed-tiles.ts) from different seeds for training and held-out, stored
- * through the same upload path as any user's images, and the runs are trained and evaluated by the same job handlers
- * the runner uses — only driven to completion here, before the server listens. Sizes are kept small so the whole
+ * through the same upload path as any user's images, and the runs are trained and evaluated by the server's own job
+ * runner, waited for here before the server listens. Sizes are kept small so the whole
  * seed takes a few seconds.
  */
 export const demoSets = {
@@ -38,20 +36,17 @@ function demoRuns(trainingSetId: number, heldOutSetId: number): CreateRunBody[] 
 export interface DemoContentDeps {
   db: Database;
   services: { imageSets: ImageSetsService; imageUploads: ImageUploadsService; runs: RunsService };
-  queue: JobQueue;
-  handlers: JobHandlers;
-  jobDeps: JobDeps;
+  /** The server's job runner: the demo runs are trained by it like any other. */
+  runner: JobRunner;
   logger?: Logger;
 }
 
-/** The seed's dependencies from the app's composition: the same services, queue, handlers and pool the server runs. */
+/** The seed's dependencies from the app's composition: the same services and job runner the server runs. */
 export function demoContentDeps(c: Composition): DemoContentDeps {
   return {
     db: c.db,
     services: c.services,
-    queue: c.jobs.queue,
-    handlers: jobHandlers,
-    jobDeps: c.jobs.deps,
+    runner: c.jobs.runner,
     logger: c.logger,
   };
 }
@@ -68,28 +63,28 @@ async function tilePngs(seed: number, count: number, prefix: string) {
   );
 }
 
+const finished = (state: string) => state === 'succeeded' || state === 'failed' || state === 'cancelled';
+
 /**
- * Runs the demo team's queued jobs to the end, one at a time, through the registered handlers (the train job
- * queues the evaluate job, which is taken next). Only called on a database being seeded; a job of any other team
- * is put back untouched for the runner.
+ * Lets the server's own job runner (started here if it is not yet) train and evaluate the demo runs, and waits
+ * until each has ended: the demo goes through exactly the path a user's run takes. A demo run that fails is an
+ * error of the seed, reported with the run's reason.
  */
-async function drainDemoJobs(deps: DemoContentDeps, teamId: number): Promise<void> {
+async function awaitDemoRuns(deps: DemoContentDeps, teamId: number, runIds: number[]): Promise<void> {
+  await deps.runner.start();
+  const deadline = Date.now() + DEMO_RUN_TIMEOUT_MS;
   for (;;) {
-    const job = await deps.queue.claim();
-    if (!job) return;
-    if (job.teamId !== teamId) {
-      await deps.queue.release(job.id);
-      return;
-    }
-    try {
-      await deps.handlers[job.kind](job, { signal: new AbortController().signal, progress: () => undefined, deps: deps.jobDeps });
-      await deps.queue.complete(job.id);
-    } catch (err) {
-      await deps.queue.fail(job.id, err instanceof Error ? err.message : String(err));
-      throw err;
-    }
+    const runs = await Promise.all(runIds.map((id) => deps.db.repos.runs.findForTeam(teamId, id)));
+    const failed = runs.find((r) => r && r.state !== 'succeeded' && finished(r.state));
+    if (failed) throw new Error(`the demo run "${failed.name}" ${failed.state}${failed.error ? `: ${failed.error}` : ''}`);
+    if (runs.every((r) => r && r.state === 'succeeded')) return;
+    if (Date.now() > deadline) throw new Error('the demo runs did not finish in time');
+    await new Promise((resolve) => setTimeout(resolve, 100));
   }
 }
+
+/** The demo's runs take seconds; this only keeps a broken start-up from waiting forever. */
+const DEMO_RUN_TIMEOUT_MS = 10 * 60_000;
 
 /** Adds what is missing of the demo content to the demo team; running it again changes nothing. */
 export async function seedDemoContent(deps: DemoContentDeps, teamId: number): Promise<{ sets: number; runs: number }> {
@@ -121,13 +116,13 @@ export async function seedDemoContent(deps: DemoContentDeps, teamId: number): Pr
   const heldOutSetId = await setIdOf(demoSets.heldOut, 'leg2', 'held-out');
 
   const runNames = new Set((await db.repos.runs.listForTeam(teamId)).map((r) => r.name));
-  let createdRuns = 0;
+  const created: number[] = [];
   for (const body of demoRuns(trainingSetId, heldOutSetId)) {
     if (runNames.has(body.name)) continue;
-    await services.runs.create(teamId, engineer.id, body);
-    createdRuns += 1;
+    created.push((await services.runs.create(teamId, engineer.id, body)).id);
   }
-  if (createdRuns > 0) await drainDemoJobs(deps, teamId);
+  const createdRuns = created.length;
+  if (createdRuns > 0) await awaitDemoRuns(deps, teamId, created);
   deps.logger?.info({ teamId, sets: createdSets, runs: createdRuns }, 'demo content seeded');
   return { sets: createdSets, runs: createdRuns };
 }

@@ -16,6 +16,7 @@ export * from './image-uploads';
 export * from './runs';
 export * from './codebooks';
 export * from './evaluation';
+export * from './task-codebook';
 export * from './comparison';
 export * from './store-sweep';
 export * from './training-memory';

@@ -5,7 +5,7 @@ import type { RunImageRecord } from '../db/repositories/runs';
 import { badRequest, notFound } from '../errors';
 import type { ReconstructResult, ReconstructionView } from '../jobs/tasks/evaluate.task';
 import { createComputeSlots } from './compute-slots';
-import { toTaskCodebook, type EvaluationTaskRunner } from './evaluation';
+import { toTaskCodebook, type EvaluationTaskRunner } from './task-codebook';
 
 export interface ReconstructionsDeps {
   db: Database;

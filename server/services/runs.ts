@@ -12,8 +12,9 @@ import {
 import type { Database, JobRecord, RunImageRecord, RunRecord } from '../db';
 import { conflict, notFound, validationFailed } from '../errors';
 import type { JobEvent, JobEventBus } from '../jobs/events';
-import { heldOutHash } from '../jobs/held-out-hash';
+import { heldOutHash } from './held-out-hash';
 import { recordAudit } from './audit';
+import { refreshRunState } from './run-state';
 import { runTrainingMemory, trainingMemoryExcess, type TrainingLimits } from './training-memory';
 
 // Defaults of the optional run settings are the run vocabulary's (server/engine/vocabulary.ts), as the engine's are.
@@ -192,7 +193,7 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
           ...heldOut.map((i) => ({ imageId: i.id, role: 'held-out' as const })),
         ]);
         const jobId = await tx.jobs.insert({ teamId, runId: id, kind: 'train', createdBy: userId });
-        await tx.runs.refreshState(id);
+        await refreshRunState(tx, id);
         await recordAudit(tx, {
           teamId,
           actorUserId: userId,
@@ -228,7 +229,7 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
         if (open.length === 0) throw conflict(`The run has already ${run.state === 'cancelled' ? 'been cancelled' : 'finished'}`, { state: run.state });
         const running: number[] = [];
         for (const j of open) if ((await tx.jobs.cancel(j.id)) === 'requested') running.push(j.id);
-        await tx.runs.refreshState(runId);
+        await refreshRunState(tx, runId);
         await recordAudit(tx, { teamId, actorUserId: userId, action: 'run.cancelled', targetType: 'run', targetId: runId, details: { jobs: open.map((j) => j.id) } });
         return running;
       });

@@ -6,7 +6,7 @@ import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 import { createApp } from '../../server/app';
-import { evaluationTaskRunner } from '../../server/jobs/handlers/evaluate';
+import { evaluationTaskRunner } from '../../server/jobs/evaluation-tasks';
 import { createReconstructionsService, type EvaluationTaskRunner } from '../../server/services';
 import { sha256Of } from '../../server/storage/content-store';
 import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';

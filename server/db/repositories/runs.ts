@@ -82,16 +82,6 @@ const toImage = (r: ImageRow): RunImageRecord => ({
   role: r.role,
 });
 
-/** What the jobs of a run say the run is: a failure or cancellation wins, then activity, then success. */
-export function runStateOf(jobs: { state: JobState; kind: string }[]): JobState {
-  if (jobs.some((j) => j.state === 'failed')) return 'failed';
-  if (jobs.some((j) => j.state === 'cancelled')) return 'cancelled';
-  if (jobs.some((j) => j.state === 'running')) return 'running';
-  if (jobs.some((j) => j.state === 'queued')) return jobs.some((j) => j.state === 'succeeded') ? 'running' : 'queued';
-  // A run is finished only once its results are measured: the evaluate job the train job enqueues.
-  return jobs.some((j) => j.kind === 'evaluate') ? 'succeeded' : 'running';
-}
-
 export function runsRepository(db: Executor) {
   const base = () =>
     db('runs as r')
@@ -184,20 +174,15 @@ export function runsRepository(db: Executor) {
       const rows = (await db('images as i').where({ 'i.set_id': setId, 'i.team_id': teamId }).orderBy('i.id').select(imageColumns)) as ImageRow[];
       return rows.map(toImage);
     },
-    /** Re-derives the run's state from its jobs; call it in the transaction that changed a job. */
-    async refreshState(runId: number): Promise<JobState> {
-      const jobs = (await db('jobs').where({ run_id: runId }).select('state', 'kind', 'error', 'id').orderBy('id')) as {
-        state: JobState;
-        kind: string;
-        error: string | null;
-      }[];
-      const state = runStateOf(jobs);
-      const error = state === 'failed' ? (jobs.find((j) => j.state === 'failed')?.error ?? 'a job failed') : null;
-      const terminal = state === 'succeeded' || state === 'failed' || state === 'cancelled';
+    /** The run's jobs in id order, as its state rule (services/run-state.ts) reads them. */
+    async jobStates(runId: number): Promise<{ state: JobState; kind: string; error: string | null }[]> {
+      return (await db('jobs').where({ run_id: runId }).select('state', 'kind', 'error').orderBy('id')) as { state: JobState; kind: string; error: string | null }[];
+    },
+    /** Writes the state the run's jobs determine; the finish time is kept from the first time the run ended. */
+    async writeState(runId: number, update: { state: JobState; error: string | null; finished: boolean }): Promise<void> {
       await db('runs')
         .where({ id: runId })
-        .update({ state, error, finished_at: terminal ? db.raw('COALESCE(finished_at, CURRENT_TIMESTAMP(3))') : null });
-      return state;
+        .update({ state: update.state, error: update.error, finished_at: update.finished ? db.raw('COALESCE(finished_at, CURRENT_TIMESTAMP(3))') : null });
     },
     /**
      * The highest-PSNR point each run reached on its own held-out list (an exact reconstruction, psnr NULL, ranks

@@ -79,7 +79,7 @@ function traceEntry(s: IterationStat): IterationStat {
   return entry;
 }
 
-async function loadVectors(run: RunRecord, images: RunImageRecord[], ctx: JobContext): Promise<Float32Array> {
+async function loadVectors(run: RunRecord, images: RunImageRecord[], ctx: JobContext<'train'>): Promise<Float32Array> {
   const { store, pool } = ctx.deps;
   const cfg = run.normalized;
   ctx.progress({ phase: 'loading', fraction: 0, message: `decoding ${images.length} training images` });
@@ -98,11 +98,10 @@ async function loadVectors(run: RunRecord, images: RunImageRecord[], ctx: JobCon
  * Trains every codebook size of a run and writes them all at once: the old set of the run (left by an
  * interrupted attempt) is deleted in the same transaction, so exactly one set exists whatever happened before.
  */
-export const trainHandler: JobHandler = async (job, ctx) => {
+export const trainHandler: JobHandler<'train'> = async (job, ctx) => {
   const { db, queue, bus } = ctx.deps;
-  if (job.runId === null) throw new Error('a train job needs a run');
-  const run = await db.repos.runs.findById(job.runId);
-  if (!run) throw new Error(`run ${job.runId} no longer exists`);
+  const run = await db.repos.runs.findById(ctx.input.runId);
+  if (!run) throw new Error(`run ${ctx.input.runId} no longer exists`);
   const cfg = run.normalized;
   const dimension = cfg.patch.width * cfg.patch.height * (cfg.color === 'rgb' ? 3 : 1);
 

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import type { JobState } from '../../../server/contracts';
-import { runStateOf } from '../../../server/db/repositories/runs';
+import { runStateOf } from '../../../server/services/run-state';
 import { trainingPasses } from '../../../server/jobs/handlers/train';
 
 const jobs = (...list: [string, JobState][]) => list.map(([kind, state]) => ({ kind, state }));

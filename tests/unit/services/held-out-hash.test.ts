@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { heldOutHash } from '../../../server/jobs/held-out-hash';
+import { heldOutHash } from '../../../server/services/held-out-hash';
 
 describe('heldOutHash', () => {
   it('is the SHA-256 of the one digest for a single image', () => {

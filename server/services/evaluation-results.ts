@@ -1,0 +1,111 @@
+import type { BaselineCurves, CodebookEvaluations, ImageMetrics, RunCurve, RunMetrics } from '../contracts';
+import type { Database } from '../db';
+import type { EvaluationImageMetrics } from '../db/repositories/evaluations';
+import type { RunRecord } from '../db/repositories/runs';
+import { notFound } from '../errors';
+
+const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
+
+function toImageMetrics(m: EvaluationImageMetrics, image: { fileName: string; width: number; height: number }): ImageMetrics {
+  return {
+    imageId: m.imageId,
+    fileName: image.fileName,
+    width: image.width,
+    height: image.height,
+    containerBytes: m.containerBytes,
+    bppFixed: m.bppFixed,
+    bppEntropy: m.bppEntropy,
+    bppActual: m.bppActual,
+    mse: m.mse,
+    psnr: m.psnr,
+    ssim: m.ssim,
+    lossless: lossless(m.psnr, m.mse),
+  };
+}
+
+/** Reads of measured results: a run's curve and per-image metrics, a codebook's evaluations. */
+export function createEvaluationResults(deps: { db: Database }) {
+  const { db } = deps;
+
+  async function runOf(teamId: number, runId: number): Promise<RunRecord> {
+    const run = await db.repos.runs.findForTeam(teamId, runId);
+    if (!run) throw notFound('Run');
+    return run;
+  }
+
+  async function baselineCurves(heldOutHash: string, color: 'luma' | 'rgb' | null): Promise<BaselineCurves> {
+    const out: BaselineCurves = { jpeg: [], webp: [], avif: [] };
+    if (!color) return out;
+    for (const p of await db.repos.baselines.list(heldOutHash, color)) {
+      out[p.codec].push({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });
+    }
+    return out;
+  }
+
+  async function curve(teamId: number, runId: number): Promise<RunCurve> {
+    const run = await runOf(teamId, runId);
+    // Independent reads: issued together so the request waits for one round trip, not two.
+    const [rows, baselines] = await Promise.all([
+      db.repos.evaluations.curveOfRun(run.id, run.heldOutHash),
+      baselineCurves(run.heldOutHash, run.normalized?.color ?? null),
+    ]);
+    return {
+      run: { id: run.id, name: run.name, state: run.state },
+      heldOutHash: run.heldOutHash,
+      color: run.normalized?.color ?? null,
+      points: rows.map((r) => ({
+        codebookId: r.codebookId,
+        bits: r.bits,
+        size: r.size,
+        bppFixed: r.overall.bppFixed,
+        bppEntropy: r.overall.bppEntropy,
+        bppActual: r.overall.bppActual,
+        mse: r.overall.mse,
+        psnr: r.overall.psnr,
+        ssim: r.overall.ssim,
+        lossless: lossless(r.overall.psnr, r.overall.mse),
+      })),
+      baselines,
+    };
+  }
+
+  async function metrics(teamId: number, runId: number): Promise<RunMetrics> {
+    const run = await runOf(teamId, runId);
+    const rows = await db.repos.evaluations.imageMetricsOfRun(run.id, run.heldOutHash);
+    const byCodebook = new Map<number, RunMetrics['codebooks'][number]>();
+    for (const r of rows) {
+      let entry = byCodebook.get(r.codebookId);
+      if (!entry) byCodebook.set(r.codebookId, (entry = { codebookId: r.codebookId, bits: r.bits, size: r.size, images: [] }));
+      entry.images.push(toImageMetrics(r, r));
+    }
+    return { run: { id: run.id, name: run.name, state: run.state }, heldOutHash: run.heldOutHash, codebooks: [...byCodebook.values()] };
+  }
+
+  async function codebookEvaluations(teamId: number, codebookId: number): Promise<CodebookEvaluations> {
+    const codebook = await db.repos.codebooks.findForTeam(teamId, codebookId);
+    if (!codebook) throw notFound('Codebook');
+    const evaluations = await db.repos.evaluations.listForCodebook(codebookId);
+    const out: CodebookEvaluations['evaluations'] = [];
+    for (const e of evaluations) {
+      const rows = await db.repos.evaluations.imagesOf(e.id);
+      const images = new Map((await db.repos.runs.teamImages(teamId, rows.map((r) => r.imageId))).map((i) => [i.id, i]));
+      out.push({
+        id: e.id,
+        heldOutHash: e.heldOutHash,
+        pixels: e.overall.pixels,
+        createdAt: e.createdAt,
+        bppFixed: e.overall.bppFixed,
+        bppEntropy: e.overall.bppEntropy,
+        bppActual: e.overall.bppActual,
+        mse: e.overall.mse,
+        psnr: e.overall.psnr,
+        ssim: e.overall.ssim,
+        lossless: lossless(e.overall.psnr, e.overall.mse),
+        images: rows.filter((r) => images.has(r.imageId)).map((r) => toImageMetrics(r, images.get(r.imageId)!)),
+      });
+    }
+    return { evaluations: out };
+  }
+
+  return { curve, metrics, codebookEvaluations };
+}

@@ -45,7 +45,8 @@ export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metric
 export { poolSsim, ssimGrey, ssimOfImages } from './metrics/ssim';
 export { bppFixed, entropyBits, indexBits } from './metrics/rate';
 export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
-export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion } from './metrics/evaluate';
+export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';
+export { measuredFigures } from './metrics/evaluate';
 export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
 
 // ---- entry validation ----

@@ -1,4 +1,4 @@
-import { evaluate, psnrForJson, type Codebook, type ImageSetEvaluation, type VectorSetEvaluation } from '../../engine';
+import { evaluate, measuredFigures, type Codebook, type ImageSetEvaluation, type VectorSetEvaluation } from '../../engine';
 import { intOption, parseOptions, requiredString, stringOption, type OptionSpec } from '../args';
 import { CliInputError, CliUsageError } from '../cli-error';
 import type { CliContext } from '../context';
@@ -34,20 +34,10 @@ export function imageReportJson(book: Codebook, report: ImageSetEvaluation) {
     size: book.size,
     dimension: book.dimension,
     images: report.images.length,
-    pixels: o.pixels,
-    mse: o.mse,
-    psnr: psnrForJson(o.psnr),
-    ssim: o.ssim,
-    bppFixed: o.bppFixed,
-    bppEntropy: o.bppEntropy,
-    bppActual: o.bppActual,
-    bytes: o.bytes,
+    ...measuredFigures(o),
     indexEntropy: o.indexEntropy,
     meanEntropy: o.meanEntropy,
-    perImage: report.images.map((r) => ({
-      name: r.name, width: r.width, height: r.height, mse: r.mse, psnr: psnrForJson(r.psnr), ssim: r.ssim,
-      bppFixed: r.bppFixed, bppEntropy: r.bppEntropy, bppActual: r.bppActual, bytes: r.bytes,
-    })),
+    perImage: report.images.map((r) => ({ name: r.name, width: r.width, height: r.height, ...measuredFigures(r) })),
     usage: Array.from(report.usage),
     cellDistortion: Array.from(report.cellDistortion),
   };

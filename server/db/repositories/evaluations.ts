@@ -1,3 +1,4 @@
+import type { MeasuredFigures } from '../../engine';
 import { iso, parseJson } from '../rows';
 import { insertedId, type Executor } from './executor';
 
@@ -5,16 +6,8 @@ import { insertedId, type Executor } from './executor';
  * Pooled results over a held-out list: MSE pooled over all pixel components, PSNR from that MSE (null = ∞),
  * SSIM the pixel-weighted mean of the images' SSIM, rates total bits over total pixels.
  */
-export interface EvaluationOverall {
-  mse: number;
-  psnr: number | null;
-  ssim: number | null;
-  bppFixed: number;
-  bppEntropy: number;
-  bppActual: number;
-  pixels: number;
-  bytes: number;
-}
+/** A codebook's pooled figures on a held-out list, stored as the engine measured them (its one JSON form). */
+export type EvaluationOverall = MeasuredFigures;
 
 export interface EvaluationImageMetrics {
   imageId: number;

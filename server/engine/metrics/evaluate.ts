@@ -5,7 +5,7 @@ import { writeContainer } from '../format/container';
 import { EngineInputError } from '../input-error';
 import type { PixelImage } from '../io/image';
 import { removeMeans } from '../io/mean-removal';
-import { psnrFromMse, sumSquaredError } from './distortion';
+import { psnrForJson, psnrFromMse, sumSquaredError } from './distortion';
 import { bppFixed, entropyBits, histogram } from './rate';
 import { poolSsim, ssimOfImages } from './ssim';
 
@@ -28,6 +28,35 @@ export interface RateDistortion {
   bppEntropy: number;
   bppActual: number;
   bytes: number;
+}
+
+/**
+ * The one JSON form of a rate–distortion figure, used from the engine to the API: the command line's `eval --json`,
+ * the studio's evaluation task, the stored overall figures and the API's results all carry these fields with these
+ * names and units. PSNR is null for an exact reconstruction (JSON has no +∞; vocabulary EXACT.json).
+ */
+export interface MeasuredFigures {
+  pixels: number;
+  bytes: number;
+  mse: number;
+  psnr: number | null;
+  ssim: number | null;
+  bppFixed: number;
+  bppEntropy: number;
+  bppActual: number;
+}
+
+export function measuredFigures(r: RateDistortion): MeasuredFigures {
+  return {
+    pixels: r.pixels,
+    bytes: r.bytes,
+    mse: r.mse,
+    psnr: psnrForJson(r.psnr),
+    ssim: r.ssim,
+    bppFixed: r.bppFixed,
+    bppEntropy: r.bppEntropy,
+    bppActual: r.bppActual,
+  };
 }
 
 export interface ImageEvaluation extends RateDistortion {

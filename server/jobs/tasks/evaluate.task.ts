@@ -17,6 +17,8 @@ import {
   loadImage,
   meanSquaredError,
   psnrForJson,
+  measuredFigures,
+  type MeasuredFigures,
   psnrFromMse,
   ssimOfImages,
   toUint8,
@@ -53,26 +55,15 @@ export interface TaskImage {
   height: number;
 }
 
-/** Metrics with PSNR in JSON form: null when the reconstruction is exact. */
-export interface TaskMetrics {
-  mse: number;
-  psnr: number | null;
-  ssim: number | null;
-  bppFixed: number;
-  bppEntropy: number;
-  bppActual: number;
-  pixels: number;
-  bytes: number;
-}
-
-export interface TaskImageMetrics extends TaskMetrics {
+/** One image's figures: the engine's one JSON form (MeasuredFigures) and the image's size. */
+export interface TaskImageMetrics extends MeasuredFigures {
   width: number;
   height: number;
 }
 
 export interface EvaluateResult {
   images: TaskImageMetrics[];
-  overall: TaskMetrics;
+  overall: MeasuredFigures;
 }
 
 export interface BaselineResultPoint {
@@ -143,30 +134,9 @@ export async function evaluateCodebook(codebook: TaskCodebook, images: TaskImage
   const book = toCodebook(codebook);
   const decoded = await loadAll(images, codebook.patch.color, memory);
   const result = await evaluate(book, decoded, ON_THIS_THREAD);
-  const o = result.overall;
   return {
-    images: result.images.map((r) => ({
-      width: r.width,
-      height: r.height,
-      pixels: r.pixels,
-      bytes: r.bytes,
-      mse: r.mse,
-      psnr: psnrForJson(r.psnr),
-      ssim: r.ssim,
-      bppFixed: r.bppFixed,
-      bppEntropy: r.bppEntropy,
-      bppActual: r.bppActual,
-    })),
-    overall: {
-      pixels: o.pixels,
-      bytes: o.bytes,
-      mse: o.mse,
-      psnr: psnrForJson(o.psnr),
-      ssim: o.ssim,
-      bppFixed: o.bppFixed,
-      bppEntropy: o.bppEntropy,
-      bppActual: o.bppActual,
-    },
+    images: result.images.map((r) => ({ width: r.width, height: r.height, ...measuredFigures(r) })),
+    overall: measuredFigures(result.overall),
   };
 }
 

@@ -29,10 +29,11 @@ import { createSpool } from './storage/spool';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/evaluation-tasks';
-import { createMariaDbQueue } from './jobs/mariadb-queue';
+import { createJobDispatch } from './jobs/dispatch';
+import { createJobStore } from './jobs/job-store';
 import { createJobNotifier } from './jobs/notifications';
 import { createTaskPool, type TaskPool } from './jobs/pool';
-import type { JobQueue } from './jobs/queue';
+import type { JobStore } from './jobs/queue';
 import type { JobDeps } from './jobs/types';
 import { createJobRunner, type JobRunner } from './jobs/runner';
 import { threadBudget } from './engine';
@@ -44,8 +45,8 @@ export interface Composition extends AppDeps {
   contentStore: ContentStore;
   /** Frees stored originals no image names any more (scheduled by server/index.ts). */
   storeSweeper: StoreSweeper;
-  /** The durable queue, its in-process event bus, the task pool and the runner (started by server/index.ts, or by a test). */
-  jobs: { queue: JobQueue; bus: JobEventBus; pool: TaskPool; runner: JobRunner; deps: JobDeps };
+  /** The jobs' rows (written under leases), the event bus, the task pool and the runner (on BullMQ) (started by server/index.ts, or by a test). */
+  jobs: { store: JobStore; bus: JobEventBus; pool: TaskPool; runner: JobRunner; deps: JobDeps };
   /** Pool threads of the reconstruction views (RECONSTRUCTION_MAX_CONCURRENT), apart from the jobs' so neither waits for the other. */
   reconstructionPool: TaskPool;
   /** Delivers queued mail after commit (started by server/index.ts, or by a test). */
@@ -98,15 +99,24 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const spool = createSpool(config.dataDir);
   const imageUploads = createImageUploadsService({ db, store: contentStore, spool, limits: config.uploads });
   const bus = createJobEventBus();
-  const queue = createMariaDbQueue(db);
+  const jobStore = createJobStore(db, { logger });
   const pool = createTaskPool({ maxThreads: config.jobConcurrency, maxHeapMb: config.jobTaskMaxHeapMb });
   const training = { maxBytes: config.trainingMaxBytes, engineThreads: config.engineThreads };
-  const jobDeps: JobDeps = { db, store: contentStore, pool, queue, bus, logger, training, runEvaluationTask: evaluationTaskRunner(pool) };
+  const jobDeps: JobDeps = { db, store: contentStore, pool, bus, logger, training, runEvaluationTask: evaluationTaskRunner(pool) };
   const runner = createJobRunner({
-    queue,
+    store: jobStore,
+    // One studio is one database: its name keeps the queues of studios (and test databases) sharing a Redis apart.
+    dispatch: () =>
+      createJobDispatch({
+        redisUrl: config.redis.url,
+        prefix: `cw:${config.db.database}`,
+        leaseMs: config.jobQueue.leaseMs,
+        concurrency: config.jobConcurrency,
+        logger,
+      }),
+    reconcileMs: config.jobQueue.reconcileMs,
     bus,
     handlers: jobHandlers,
-    concurrency: config.jobConcurrency,
     logger,
     deps: jobDeps,
     onFinished: createJobNotifier({ db, mail, publicUrl: config.publicUrl }),
@@ -130,7 +140,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     db,
     contentStore,
     storeSweeper,
-    jobs: { queue, bus, pool, runner, deps: jobDeps },
+    jobs: { store: jobStore, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
     mail,
     services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison },

@@ -112,7 +112,15 @@ const schema = z.object({
   LOGIN_BACKOFF_MAX_SECONDS: z.coerce.number().int().min(1).max(3600).default(60),
   MAIL_MAX_ATTEMPTS: z.coerce.number().int().min(1).max(50).default(8),
   MAIL_RETRY_BASE_SECONDS: z.coerce.number().int().min(1).default(30),
+  // The job engine's Redis (BullMQ); scripts/redis.sh starts a private one on 127.0.0.1:REDIS_PORT.
+  REDIS_URL: z.string().url().optional(),
+  REDIS_PORT: z.coerce.number().int().min(1).max(65535).default(6407),
   JOB_CONCURRENCY: z.coerce.number().int().min(1).default(1),
+  // How long a job's lock in the queue lasts without renewal before another process may take the job over: the
+  // time a stopped server or worker holds its jobs. Renewed at half this while the holder lives.
+  JOB_LEASE_MS: z.coerce.number().int().min(2_000).max(600_000).default(30_000),
+  // How often the job rows still to be done are checked against what the queue holds (a Redis that lost data).
+  JOB_RECONCILE_MS: z.coerce.number().int().min(500).max(3_600_000).default(10_000),
   // A task that outgrows this heap fails its job instead of taking the server's memory with it.
   JOB_TASK_MAX_HEAP_MB: z.coerce.number().int().min(32).default(4096),
   ENGINE_THREADS: z.coerce.number().int().min(1).optional(),
@@ -184,6 +192,10 @@ export interface Config {
   /** Delivery of queued mail: attempts before giving up, and the first retry delay (doubling, at most an hour). */
   readonly mailQueue: { readonly maxAttempts: number; readonly retryBaseMs: number; readonly retryMaxMs: number };
   readonly jobConcurrency: number;
+  /** The job engine's Redis. */
+  readonly redis: { readonly url: string };
+  /** The job engine's lease (lock) duration and how often rows are reconciled with the queue. */
+  readonly jobQueue: { readonly leaseMs: number; readonly reconcileMs: number };
   /** Old-generation heap limit of each job pool thread, in MiB. */
   readonly jobTaskMaxHeapMb: number;
   readonly engineThreads: number;
@@ -285,6 +297,8 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     loginBackoff: { freeAttempts: 5, baseMs: 1000, maxMs: e.LOGIN_BACKOFF_MAX_SECONDS * 1000 },
     mailQueue: { maxAttempts: e.MAIL_MAX_ATTEMPTS, retryBaseMs: e.MAIL_RETRY_BASE_SECONDS * 1000, retryMaxMs: 60 * 60 * 1000 },
     jobConcurrency: e.JOB_CONCURRENCY,
+    redis: { url: e.REDIS_URL ?? `redis://127.0.0.1:${e.REDIS_PORT}` },
+    jobQueue: { leaseMs: e.JOB_LEASE_MS, reconcileMs: e.JOB_RECONCILE_MS },
     jobTaskMaxHeapMb: e.JOB_TASK_MAX_HEAP_MB,
     engineThreads: e.ENGINE_THREADS ?? availableParallelism(),
     trainingMaxBytes: e.TRAINING_MAX_BYTES,

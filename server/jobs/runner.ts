@@ -1,44 +1,53 @@
+import { randomUUID } from 'node:crypto';
 import type { Logger } from '../config';
 import { jobInputs, type JobKind, type JobProgress, type JobState } from '../contracts';
-import type { JobEventBus } from './events';
-import { JobCancelledError, type Job, type JobQueue, type Transition } from './queue';
+import type { JobDispatch } from './dispatch';
+import type { JobEvent, JobEventBus } from './events';
+import { JobCancelledError, LeaseLostError, type Job, type JobStore, type Transition } from './queue';
 import type { JobDeps, JobHandler, JobHandlers } from './types';
 
 export interface RunnerOptions {
-  queue: JobQueue;
+  store: JobStore;
+  /** Makes this process's connection to the job engine (BullMQ on Redis); called by start(), closed by stop(). */
+  dispatch: () => JobDispatch;
   bus: JobEventBus;
   handlers: JobHandlers;
   deps: JobDeps;
   logger: Logger;
-  /** Jobs run at once (JOB_CONCURRENCY). */
-  concurrency: number;
-  /** How often to look for queued jobs when nothing woke the runner. */
-  pollIntervalMs?: number;
-  /** How often running jobs are marked alive and checked for cancellation by another process. */
+  /** How often running jobs are marked alive and checked for cancellation or a lost lease. */
   heartbeatMs?: number;
   /** Least time between two progress writes of one job (the bus gets every report). */
   progressIntervalMs?: number;
+  /** How often the rows still to be done are checked against what the queue holds (JOB_RECONCILE_MS). */
+  reconcileMs?: number;
   /** Called after a job reached a terminal state; failures are logged, never rethrown. */
   onFinished?: (job: Job, state: JobState, error: string | null) => Promise<void>;
 }
 
 export interface JobRunner {
-  /** Recovers jobs a stopped process left running, then starts claiming. */
+  /** Connects to the job engine, puts back what it lost, and starts taking jobs. */
   start(): Promise<void>;
-  /** Stops claiming, aborts running jobs and puts them back in the queue, waits for them to wind down. */
+  /** Stops taking jobs, aborts the running ones and hands them back to the queue, waits for them to wind down. */
   stop(): Promise<void>;
   /** Ids of the jobs running in this process. */
   running(): number[];
+  /** Checks the rows still to be done against the queue now; resolves with the ids it had to add. */
+  reconcile(): Promise<number[]>;
+  /** Jobs waiting, active and delayed in the queue (null while the runner is stopped). */
+  depth(): Promise<{ waiting: number; active: number; delayed: number } | null>;
 }
 
-type StopReason = 'cancel' | 'shutdown';
+type StopReason = 'cancel' | 'shutdown' | 'lost';
 
 interface Active {
   job: Job;
+  lease: string;
   controller: AbortController;
   reason?: StopReason;
-  done: Promise<void>;
+  done: Promise<Outcome>;
 }
+
+type Outcome = 'finished' | 'released' | 'lost';
 
 const messageOf = (err: unknown): string => {
   if (err instanceof Error && err.message) return err.message;
@@ -68,32 +77,51 @@ export function checkedInput(job: Job) {
   throw new Error(`the ${job.kind} job's input is malformed (${where})`);
 }
 
+/** Channels every process of one studio shares: cancellations and job events (progress and state). */
+const CANCEL = 'cancel';
+const EVENTS = 'events';
+
+/**
+ * Runs jobs the job engine delivers. Every process of a studio (several servers on one database) runs one; the
+ * queue gives each job to one of them at a time, the job's row says what it is and where it stands, and each
+ * attempt writes under its own lease. Events and cancellations reach every process over Redis, so a progress
+ * stream open on one server follows a job running on another.
+ */
 export function createJobRunner(options: RunnerOptions): JobRunner {
-  const { queue, bus, logger } = options;
-  const pollMs = options.pollIntervalMs ?? 500;
+  const { store, bus, logger } = options;
   const heartbeatMs = options.heartbeatMs ?? 2_000;
   const progressMs = options.progressIntervalMs ?? 500;
+  const reconcileMs = options.reconcileMs ?? 10_000;
+  const origin = randomUUID();
   const active = new Map<number, Active>();
-  let started = false;
+  let dispatch: JobDispatch | undefined;
   let stopping = false;
-  let claiming = false;
-  let pollTimer: NodeJS.Timeout | undefined;
   let heartbeatTimer: NodeJS.Timeout | undefined;
+  let reconcileTimer: NodeJS.Timeout | undefined;
+  let reconciling: Promise<number[]> | null = null;
+  let reconcileAgain = false;
   const unsubscribe: (() => void)[] = [];
 
   function abort(jobId: number, reason: StopReason) {
     const a = active.get(jobId);
     if (!a || a.controller.signal.aborted) return;
     a.reason = reason;
-    a.controller.abort(reason === 'cancel' ? new JobCancelledError(jobId) : new Error('the server is shutting down'));
+    const why = reason === 'cancel' ? new JobCancelledError(jobId) : reason === 'lost' ? new LeaseLostError(jobId) : new Error('the server is shutting down');
+    a.controller.abort(why);
+  }
+
+  /** On this process's bus, and to the other processes of the studio. */
+  function emit(event: JobEvent) {
+    bus.publish(event);
+    dispatch?.publish(EVENTS, JSON.stringify({ origin, event })).catch((err: unknown) => logger.warn({ err }, 'job event not shared'));
   }
 
   function publishState(job: Job, t: Transition, error: string | null) {
-    bus.publish({ type: 'state', jobId: job.id, runId: job.runId, teamId: job.teamId, kind: job.kind, state: t.state, error, runState: t.runState });
+    emit({ type: 'state', jobId: job.id, runId: job.runId, teamId: job.teamId, kind: job.kind, state: t.state, error, runState: t.runState });
   }
 
   /** Bus on every report; the database at most once per progressMs, with the latest report always written last. */
-  function progressReporter(job: Job) {
+  function progressReporter(job: Job, lease: string) {
     let lastWrite = 0;
     let pending: JobProgress | null = null;
     let timer: NodeJS.Timeout | undefined;
@@ -105,12 +133,12 @@ export function createJobRunner(options: RunnerOptions): JobRunner {
       if (!p) return;
       lastWrite = Date.now();
       writing = writing
-        .then(() => queue.progress(job.id, p))
+        .then(() => store.progress(job.id, lease, p))
         .catch((err: unknown) => logger.warn({ err, jobId: job.id }, 'progress write failed'));
     };
     return {
       report(p: JobProgress) {
-        bus.publish({ type: 'progress', jobId: job.id, runId: job.runId, teamId: job.teamId, kind: job.kind, progress: p });
+        emit({ type: 'progress', jobId: job.id, runId: job.runId, teamId: job.teamId, kind: job.kind, progress: p });
         pending = p;
         if (timer) return;
         const wait = lastWrite + progressMs - Date.now();
@@ -129,22 +157,38 @@ export function createJobRunner(options: RunnerOptions): JobRunner {
     };
   }
 
-  async function execute(a: Active): Promise<void> {
-    const { job, controller } = a;
+  async function notify(job: Job, state: JobState, error: string | null) {
+    if (!options.onFinished) return;
+    await options.onFinished(job, state, error).catch((err: unknown) => logger.warn({ err, jobId: job.id }, 'job notification failed'));
+  }
+
+  async function execute(a: Active): Promise<Outcome> {
+    const { job, lease, controller } = a;
     const handler = options.handlers[job.kind];
-    const reporter = progressReporter(job);
-    // Claiming made the run running too (its state follows its jobs).
-    bus.publish({ type: 'state', jobId: job.id, runId: job.runId, teamId: job.teamId, kind: job.kind, state: 'running', error: null, runState: job.runId === null ? null : 'running' });
-    let outcome: { state: 'succeeded' | 'failed' | 'cancelled' | 'released'; error: string | null };
+    const reporter = progressReporter(job, lease);
+    // Taking the job made its run running too (its state follows its jobs).
+    emit({ type: 'state', jobId: job.id, runId: job.runId, teamId: job.teamId, kind: job.kind, state: 'running', error: null, runState: job.runId === null ? null : 'running' });
+    let outcome: { state: 'succeeded' | 'failed' | 'cancelled' | 'released' | 'lost'; error: string | null };
     try {
       if (!handler) throw new Error(`no handler for jobs of kind "${job.kind}"`);
       const input = checkedInput(job);
-      await (handler as JobHandler)(job, { input, signal: controller.signal, progress: (p) => reporter.report(p), deps: options.deps });
+      await (handler as JobHandler)(job, {
+        input,
+        signal: controller.signal,
+        progress: (p) => reporter.report(p),
+        complete: async (work) => {
+          await store.completeWith(job.id, lease, work);
+          // Jobs queued in that transaction (a train job's evaluation) go to the queue now that they exist.
+          scheduleReconcile();
+        },
+        deps: options.deps,
+      });
       // A handler that ignored its signal still must not turn a cancelled job into a success.
       if (a.reason === 'cancel') throw new JobCancelledError(job.id);
       outcome = { state: 'succeeded', error: null };
     } catch (err) {
       if (a.reason === 'shutdown') outcome = { state: 'released', error: null };
+      else if (a.reason === 'lost' || err instanceof LeaseLostError) outcome = { state: 'lost', error: null };
       else if (a.reason === 'cancel' || err instanceof JobCancelledError) outcome = { state: 'cancelled', error: null };
       else outcome = { state: 'failed', error: messageOf(err) };
       if (outcome.state === 'failed') logger.warn({ err, jobId: job.id, kind: job.kind }, 'job failed');
@@ -152,84 +196,133 @@ export function createJobRunner(options: RunnerOptions): JobRunner {
     await reporter.flush();
     if (outcome.state === 'released') {
       reporter.discard();
-      await queue.release(job.id);
-      logger.info({ jobId: job.id }, 'job returned to the queue for the next start');
-      return;
+      await store.release(job.id, lease);
+      logger.info({ jobId: job.id }, 'job handed back to the queue');
+      return 'released';
+    }
+    if (outcome.state === 'lost') {
+      logger.warn({ jobId: job.id }, 'job is held by another attempt now; this attempt stops without writing');
+      return 'lost';
     }
     let t: Transition;
-    if (outcome.state === 'succeeded') t = await queue.complete(job.id);
-    else if (outcome.state === 'cancelled') t = await queue.cancelled(job.id);
-    else t = await queue.fail(job.id, outcome.error ?? 'failed');
+    if (outcome.state === 'succeeded') t = await store.complete(job.id, lease);
+    else if (outcome.state === 'cancelled') t = await store.cancelled(job.id, lease);
+    else t = await store.fail(job.id, lease, outcome.error ?? 'failed');
+    if (!t.changed && t.state === 'running') return 'lost';
     publishState(job, t, outcome.error);
-    if (t.state === outcome.state && options.onFinished) {
-      await options.onFinished(job, t.state, outcome.error).catch((err: unknown) => logger.warn({ err, jobId: job.id }, 'job notification failed'));
-    }
+    if (t.state === outcome.state) await notify(job, t.state, outcome.error);
+    return 'finished';
   }
 
-  function launch(job: Job) {
-    const a: Active = { job, controller: new AbortController(), done: Promise.resolve() };
-    active.set(job.id, a);
-    // A cancel that was requested while the job sat in the queue, or between claim and launch.
-    if (job.cancelRequested) abort(job.id, 'cancel');
-    a.done = execute(a)
-      .catch((err: unknown) => logger.error({ err, jobId: job.id }, 'job bookkeeping failed'))
-      .finally(() => {
-        active.delete(job.id);
-        void claimAvailable();
-      });
-  }
-
-  async function claimAvailable(): Promise<void> {
-    if (!started || stopping || claiming) return;
-    claiming = true;
-    try {
-      while (!stopping && active.size < options.concurrency) {
-        const job = await queue.claim();
-        if (!job) break;
-        launch(job);
-      }
-    } catch (err) {
-      logger.warn({ err }, 'claiming a job failed; retrying at the next poll');
-    } finally {
-      claiming = false;
+  /** One delivery from the queue: take the job's row, run it, and acknowledge (or hand it back). */
+  async function deliver(jobId: number, delivery: { release(): Promise<never> }): Promise<void> {
+    // A second delivery of a job this process is running (the queue lost track of it): the first one answers.
+    const running = active.get(jobId);
+    if (running) {
+      if ((await running.done) === 'released') await delivery.release();
+      return;
     }
+    if (stopping) await delivery.release();
+    const taken = await store.take(jobId);
+    if (taken.kind === 'none') return;
+    if (taken.kind === 'ended') {
+      publishState(taken.job, taken.transition, taken.error);
+      if (taken.transition.state === 'failed') await notify(taken.job, 'failed', taken.error);
+      return;
+    }
+    const a: Active = { job: taken.job, lease: taken.lease, controller: new AbortController(), done: Promise.resolve('finished') };
+    active.set(jobId, a);
+    if (taken.job.cancelRequested || stopping) abort(jobId, stopping ? 'shutdown' : 'cancel');
+    a.done = execute(a).catch((err: unknown) => {
+      logger.error({ err, jobId }, 'job bookkeeping failed');
+      return 'lost' as const;
+    });
+    const outcome = await a.done;
+    active.delete(jobId);
+    if (outcome === 'released') await delivery.release();
   }
 
   async function beat(): Promise<void> {
-    const ids = [...active.keys()];
-    if (ids.length === 0) return;
+    const leases = [...active.values()].map((a) => ({ id: a.job.id, lease: a.lease }));
+    if (leases.length === 0) return;
     try {
-      for (const id of await queue.heartbeat(ids)) abort(id, 'cancel');
+      const { cancel, lost } = await store.heartbeat(leases);
+      for (const id of cancel) abort(id, 'cancel');
+      for (const id of lost) abort(id, 'lost');
     } catch (err) {
       logger.warn({ err }, 'job heartbeat failed');
     }
   }
 
+  function reconcile(): Promise<number[]> {
+    if (!dispatch) return Promise.resolve([]);
+    if (reconciling) {
+      reconcileAgain = true;
+      return reconciling;
+    }
+    const d = dispatch;
+    reconciling = (async () => {
+      const added: number[] = [];
+      do {
+        reconcileAgain = false;
+        added.push(...(await d.ensure(await store.pendingIds())));
+      } while (reconcileAgain);
+      return added;
+    })().finally(() => {
+      reconciling = null;
+    });
+    return reconciling;
+  }
+
+  function scheduleReconcile() {
+    reconcile().catch((err: unknown) => logger.warn({ err }, 'jobs not handed to the queue yet; the next pass retries'));
+  }
+
   return {
     async start() {
-      if (started) return;
-      const recovered = await queue.recoverInterrupted();
-      if (recovered.requeued.length > 0 || recovered.failed.length > 0) logger.info(recovered, 'interrupted jobs recovered');
-      started = true;
+      if (dispatch) return;
       stopping = false;
-      unsubscribe.push(bus.onCancelRequest((id) => abort(id, 'cancel')));
-      unsubscribe.push(bus.onJobQueued(() => void claimAvailable()));
-      pollTimer = setInterval(() => void claimAvailable(), pollMs);
+      const d = options.dispatch();
+      dispatch = d;
+      await d.subscribe(CANCEL, (message) => abort(Number(message), 'cancel'));
+      await d.subscribe(EVENTS, (message) => {
+        const { origin: from, event } = JSON.parse(message) as { origin: string; event: JobEvent };
+        if (from !== origin) bus.publish(event);
+      });
+      unsubscribe.push(
+        bus.onCancelRequest((id) => {
+          abort(id, 'cancel');
+          d.publish(CANCEL, String(id)).catch((err: unknown) => logger.warn({ err, jobId: id }, 'cancellation not shared; heartbeats still carry it'));
+        }),
+      );
+      unsubscribe.push(bus.onJobQueued(() => scheduleReconcile()));
+      const added = await reconcile();
+      if (added.length > 0) logger.info({ jobs: added }, 'jobs the queue did not hold were handed to it again');
+      await d.start(deliver);
       heartbeatTimer = setInterval(() => void beat(), heartbeatMs);
-      pollTimer.unref();
+      reconcileTimer = setInterval(() => {
+        reconcile()
+          .then((again) => again.length > 0 && logger.info({ jobs: again }, 'jobs the queue had lost were handed to it again'))
+          .catch((err: unknown) => logger.warn({ err }, 'reconciling jobs with the queue failed'));
+      }, reconcileMs);
       heartbeatTimer.unref();
-      await claimAvailable();
+      reconcileTimer.unref();
     },
     async stop() {
-      if (!started) return;
+      const d = dispatch;
+      if (!d) return;
       stopping = true;
-      clearInterval(pollTimer);
       clearInterval(heartbeatTimer);
+      clearInterval(reconcileTimer);
       for (const u of unsubscribe.splice(0)) u();
       for (const id of active.keys()) abort(id, 'shutdown');
       await Promise.all([...active.values()].map((a) => a.done));
-      started = false;
+      await reconciling?.catch(() => undefined);
+      await d.stop();
+      dispatch = undefined;
     },
     running: () => [...active.keys()],
+    reconcile,
+    depth: async () => (dispatch ? dispatch.depth() : null),
   };
 }

@@ -1,19 +1,18 @@
 import type { Logger } from '../config';
 import type { JobInput, JobKind, JobProgress } from '../contracts';
-import type { Database } from '../db';
+import type { Database, Repositories } from '../db';
 import type { EvaluationTaskRunner } from '../services/task-codebook';
 import type { TrainingLimits } from '../services/training-memory';
 import type { ContentStore } from '../storage/content-store';
 import type { JobEventBus } from './events';
 import type { TaskPool } from './pool';
-import type { Job, JobQueue } from './queue';
+import type { Job } from './queue';
 
 /** What a handler may use: built once by the composition and shared by every job. */
 export interface JobDeps {
   db: Database;
   store: ContentStore;
   pool: TaskPool;
-  queue: JobQueue;
   bus: JobEventBus;
   logger: Logger;
   /** Runs an evaluation task (measuring, reference codecs) on the job pool; built once with the pool. */
@@ -29,12 +28,17 @@ export interface JobContext<K extends JobKind = JobKind> {
   signal: AbortSignal;
   /** Report as often as you like: every report reaches the event bus, the database gets at most two a second. */
   progress(progress: JobProgress): void;
+  /**
+   * Writes the job's results in the transaction that marks it succeeded (under this attempt's lease), so results
+   * and success commit together or not at all; a job queued inside it is dispatched after the commit.
+   */
+  complete(work: (tx: Repositories) => Promise<void>): Promise<void>;
   deps: JobDeps;
 }
 
 /**
  * Does one job's work. Resolving means success (the runner marks it succeeded, unless the handler already did
- * through queue.completeWith); throwing means failure, with the error's message as the reason the user sees.
+ * through ctx.complete); throwing means failure, with the error's message as the reason the user sees.
  */
 export type JobHandler<K extends JobKind = JobKind> = (job: Job, ctx: JobContext<K>) => Promise<void>;
 

@@ -1,12 +1,14 @@
 import sharp from 'sharp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { wrapKnex } from '../../server/db';
-import { createMariaDbQueue } from '../../server/jobs/mariadb-queue';
-import { MAX_ATTEMPTS } from '../../server/jobs/queue';
+import { createJobStore } from '../../server/jobs/job-store';
+import { LeaseLostError, MAX_ATTEMPTS } from '../../server/jobs/queue';
+import { createLogger } from '../../server/config';
 import { seabedSet } from '../../server/seed/seabed-tiles';
 import { createTestDatabase } from '../helpers/db';
 import { signUpOn, startServer, type StartedServer } from '../helpers/server';
 
+const silentLogger = createLogger('silent');
 let server: StartedServer;
 let token: string;
 let teamId: number;
@@ -56,7 +58,8 @@ async function codebookSizes(runId: number): Promise<{ size: number; n: number }
 }
 
 beforeAll(async () => {
-  server = await startServer({ SEED_DEMO: 'false', JOB_CONCURRENCY: '1' });
+  // A short lease, so a killed server's job is given up by the queue within seconds of the restart.
+  server = await startServer({ SEED_DEMO: 'false', JOB_CONCURRENCY: '1', JOB_LEASE_MS: '3000' });
   const account = await signUpOn(server, { email: `restart-${process.pid}@example.test`, password: 'correct-horse-battery', name: 'Restart Tester', teamName: 'Restart Team' });
   token = account.token;
   teamId = account.team.id;
@@ -119,26 +122,57 @@ describe('jobs across a server restart', () => {
   });
 });
 
-describe('start-up recovery', () => {
-  it('requeues interrupted jobs with the interruption counted and fails one interrupted for the third time', async () => {
+describe('taking a job', () => {
+  it('starts a queued job as it is, counts an interruption for one left running, and fails one interrupted for the third time', async () => {
     const test = await createTestDatabase();
     try {
-      const queue = createMariaDbQueue(wrapKnex(test.knex));
+      const store = createJobStore(wrapKnex(test.knex), { logger: silentLogger });
       const [teamId] = await test.knex('teams').insert({ name: 'Recovery' });
       const insertRunning = async (attempts: number) =>
-        (await test.knex('jobs').insert({ team_id: teamId, kind: 'evaluate', state: 'running', attempts, started_at: new Date() }))[0];
+        (await test.knex('jobs').insert({ team_id: teamId, kind: 'evaluate', state: 'running', attempts, lease_token: 'f'.repeat(32), started_at: new Date() }))[0];
       const fresh = await insertRunning(0);
       const tired = await insertRunning(MAX_ATTEMPTS - 1);
       const idle = (await test.knex('jobs').insert({ team_id: teamId, kind: 'evaluate', state: 'queued' }))[0];
+      const done = (await test.knex('jobs').insert({ team_id: teamId, kind: 'evaluate', state: 'succeeded' }))[0];
 
-      expect(await queue.recoverInterrupted()).toEqual({ requeued: [fresh], failed: [tired] });
+      expect(await store.pendingIds()).toEqual([fresh, tired, idle]);
+      const again = await store.take(fresh);
+      expect(again).toMatchObject({ kind: 'taken', job: { id: fresh, state: 'running', attempts: 1 } });
+      const ended = await store.take(tired);
+      expect(ended).toMatchObject({ kind: 'ended', transition: { state: 'failed' } });
+      expect(await store.take(idle)).toMatchObject({ kind: 'taken', job: { id: idle, state: 'running', attempts: 0 } });
+      expect(await store.take(done)).toEqual({ kind: 'none' });
       const rows = await test.knex('jobs').orderBy('id').select('id', 'state', 'attempts', 'error');
-      expect(rows[0]).toMatchObject({ id: fresh, state: 'queued', attempts: 1, error: null });
       expect(rows[1]).toMatchObject({ id: tired, state: 'failed', attempts: MAX_ATTEMPTS });
       expect(rows[1].error).toMatch(/interrupted 3 times/);
-      expect(rows[2]).toMatchObject({ id: idle, state: 'queued', attempts: 0 });
-      // The requeued job is claimed again like any other, oldest first.
-      expect((await queue.claim())?.id).toBe(fresh);
+    } finally {
+      await test.destroy();
+    }
+  });
+
+  it('refuses every write of an attempt whose job another attempt has taken since', async () => {
+    const test = await createTestDatabase();
+    try {
+      const store = createJobStore(wrapKnex(test.knex), { logger: silentLogger });
+      const [teamId] = await test.knex('teams').insert({ name: 'Leases' });
+      const id = (await test.knex('jobs').insert({ team_id: teamId, kind: 'evaluate', state: 'queued' }))[0];
+      const first = await store.take(id);
+      const second = await store.take(id);
+      if (first.kind !== 'taken' || second.kind !== 'taken') throw new Error('both takes should start an attempt');
+      expect(second.lease).not.toBe(first.lease);
+
+      let wrote = false;
+      await expect(store.completeWith(id, first.lease, async () => void (wrote = true))).rejects.toBeInstanceOf(LeaseLostError);
+      expect(wrote).toBe(false);
+      expect(await store.fail(id, first.lease, 'late')).toMatchObject({ changed: false, state: 'running' });
+      expect(await store.heartbeat([{ id, lease: first.lease }])).toEqual({ cancel: [], lost: [id] });
+
+      await store.completeWith(id, second.lease, async (tx) => void (await tx.jobs.findById(id)));
+      expect(await test.knex('jobs').where({ id }).first()).toMatchObject({ state: 'succeeded', attempts: 1 });
+      // A commit retried after its acknowledgement was lost finds its own work done and does nothing more.
+      await store.completeWith(id, second.lease, async () => {
+        throw new Error('must not run twice');
+      });
     } finally {
       await test.destroy();
     }

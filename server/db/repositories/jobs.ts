@@ -13,6 +13,8 @@ export interface JobRecord {
   progress: JobProgress | null;
   error: string | null;
   attempts: number;
+  /** The current attempt's lease (null while queued or finished): writes of that attempt must name it. */
+  leaseToken: string | null;
   cancelRequested: boolean;
   createdBy: number | null;
   createdAt: string;
@@ -41,6 +43,7 @@ interface JobRow {
   progress: unknown;
   error: string | null;
   attempts: number;
+  lease_token: string | null;
   cancel_requested: number | boolean;
   created_by: number | null;
   created_at: Date;
@@ -60,6 +63,7 @@ const toJob = (r: JobRow): JobRecord => ({
   progress: parseJson<JobProgress>(r.progress),
   error: r.error,
   attempts: r.attempts,
+  leaseToken: r.lease_token,
   cancelRequested: Boolean(r.cancel_requested),
   createdBy: r.created_by,
   createdAt: iso(r.created_at),
@@ -103,32 +107,51 @@ export function jobsRepository(db: Executor) {
       return ((await db('jobs').whereIn('run_id', runIds).orderBy('id')) as JobRow[]).map(toJob);
     },
     /**
-     * Takes the oldest queued job and marks it running. Must run inside a transaction: SKIP LOCKED lets
-     * concurrent claimers (threads or processes) pass over a row another one is taking instead of waiting.
+     * Starts an attempt under a new lease: running, the lease written, the interruption count given. Call it on a
+     * row locked in the surrounding transaction.
      */
-    async claimNext(): Promise<JobRecord | null> {
-      const row = (await db('jobs').where({ state: 'queued' }).orderBy('id').limit(1).forUpdate().skipLocked().first()) as
-        | JobRow
-        | undefined;
-      if (!row) return null;
-      await db('jobs')
-        .where({ id: row.id })
-        .update({ state: 'running', started_at: now(db), heartbeat_at: now(db), finished_at: null, error: null, progress: null });
-      return toJob((await db('jobs').where({ id: row.id }).first()) as JobRow);
+    async startAttempt(id: number, lease: string, attempts: number): Promise<JobRecord> {
+      await db('jobs').where({ id }).update({
+        state: 'running',
+        lease_token: lease,
+        attempts,
+        started_at: now(db),
+        heartbeat_at: now(db),
+        finished_at: null,
+        error: null,
+        progress: null,
+      });
+      return toJob((await db('jobs').where({ id }).first()) as JobRow);
     },
-    async setProgress(id: number, progress: JobProgress): Promise<void> {
-      await db('jobs').where({ id, state: 'running' }).update({ progress: JSON.stringify(progress), heartbeat_at: now(db) });
+    /** Writes progress only while the attempt holding `lease` still owns the job. */
+    async setProgress(id: number, lease: string, progress: JobProgress): Promise<void> {
+      await db('jobs').where({ id, state: 'running', lease_token: lease }).update({ progress: JSON.stringify(progress), heartbeat_at: now(db) });
     },
-    /** Touches the heartbeat of running jobs and reports which of them someone asked to cancel. */
-    async heartbeat(ids: number[]): Promise<number[]> {
-      if (ids.length === 0) return [];
-      await db('jobs').whereIn('id', ids).andWhere({ state: 'running' }).update({ heartbeat_at: now(db) });
-      const rows = (await db('jobs').whereIn('id', ids).andWhere({ cancel_requested: true }).select('id')) as { id: number }[];
-      return rows.map((r) => r.id);
+    /**
+     * Touches the heartbeat of the attempts given; returns the ids someone asked to cancel and those whose lease is
+     * gone (the job finished or was taken by another attempt), so their holder stops.
+     */
+    async heartbeat(leases: { id: number; lease: string }[]): Promise<{ cancel: number[]; lost: number[] }> {
+      if (leases.length === 0) return { cancel: [], lost: [] };
+      const ids = leases.map((l) => l.id);
+      const rows = (await db('jobs').whereIn('id', ids).select('id', 'state', 'lease_token', 'cancel_requested')) as Pick<JobRow, 'id' | 'state' | 'lease_token' | 'cancel_requested'>[];
+      const byId = new Map(rows.map((r) => [r.id, r]));
+      const held = leases.filter((l) => byId.get(l.id)?.state === 'running' && byId.get(l.id)?.lease_token === l.lease);
+      for (const l of held) await db('jobs').where({ id: l.id, lease_token: l.lease }).update({ heartbeat_at: now(db) });
+      return {
+        cancel: held.filter((l) => Boolean(byId.get(l.id)!.cancel_requested)).map((l) => l.id),
+        lost: leases.filter((l) => !held.includes(l)).map((l) => l.id),
+      };
     },
-    /** Moves a running job to a terminal state; false when it was no longer running (already finished elsewhere). */
-    async finish(id: number, state: 'succeeded' | 'failed' | 'cancelled', error: string | null = null): Promise<boolean> {
-      const changed = await db('jobs').where({ id, state: 'running' }).update({ state, error, finished_at: now(db), heartbeat_at: now(db) });
+    /**
+     * Moves a running job to a terminal state; false when it was no longer running (already finished elsewhere) or,
+     * with a lease, when another attempt holds it now.
+     */
+    async finish(id: number, state: 'succeeded' | 'failed' | 'cancelled', error: string | null = null, lease?: string): Promise<boolean> {
+      const where: Record<string, unknown> = { id, state: 'running' };
+      if (lease !== undefined) where.lease_token = lease;
+      // The lease stays on the finished row: a commit retried after a lost acknowledgement recognises its own work.
+      const changed = await db('jobs').where(where).update({ state, error, finished_at: now(db), heartbeat_at: now(db) });
       return Number(changed) > 0;
     },
     /** A queued job is cancelled at once; a running one is flagged for its runner to abort. */
@@ -136,7 +159,7 @@ export function jobsRepository(db: Executor) {
       const job = (await db('jobs').where({ id }).forUpdate().first()) as JobRow | undefined;
       if (!job) return 'finished';
       if (job.state === 'queued') {
-        await db('jobs').where({ id }).update({ state: 'cancelled', cancel_requested: true, finished_at: now(db) });
+        await db('jobs').where({ id }).update({ state: 'cancelled', cancel_requested: true, lease_token: null, finished_at: now(db) });
         return 'cancelled';
       }
       if (job.state === 'running') {
@@ -145,18 +168,19 @@ export function jobsRepository(db: Executor) {
       }
       return 'finished';
     },
-    /** Running jobs, locked: at start-up these are the ones a stopped process left behind. */
-    async lockRunning(): Promise<JobRecord[]> {
-      return ((await db('jobs').where({ state: 'running' }).orderBy('id').forUpdate()) as JobRow[]).map(toJob);
+    /** Ids of the jobs still to be done (queued, or running somewhere), oldest first: what the dispatcher must hold. */
+    async pendingIds(): Promise<number[]> {
+      const rows = (await db('jobs').whereIn('state', ['queued', 'running']).orderBy('id').select('id')) as { id: number }[];
+      return rows.map((r) => r.id);
     },
-    /** Puts a job back in the queue to run again from the start, counting the interruption. */
+    /** Puts a job back in the queue to run again from the start with the interruptions counted so far. */
     async requeue(id: number, attempts: number): Promise<void> {
       await db('jobs')
         .where({ id })
-        .update({ state: 'queued', attempts, started_at: null, heartbeat_at: null, progress: null });
+        .update({ state: 'queued', attempts, lease_token: null, started_at: null, heartbeat_at: null, progress: null });
     },
     async failInterrupted(id: number, attempts: number, reason: string): Promise<void> {
-      await db('jobs').where({ id }).update({ state: 'failed', attempts, error: reason, finished_at: now(db) });
+      await db('jobs').where({ id }).update({ state: 'failed', attempts, error: reason, lease_token: null, finished_at: now(db) });
     },
   };
 }

@@ -19,14 +19,13 @@ const BASELINE_WEIGHT = 4;
  * results as they were.
  */
 async function measure(
-  jobId: number,
   codebooks: CodebookWithCodewords[],
   images: RunImageRecord[],
   heldOutHash: string,
   color: 'luma' | 'rgb',
   ctx: JobContext<'evaluate'>,
 ): Promise<void> {
-  const { db, store, queue, runEvaluationTask } = ctx.deps;
+  const { db, store, runEvaluationTask } = ctx.deps;
   if (images.length === 0) throw new Error('There are no held-out images to evaluate on');
   const inputs: TaskImage[] = images.map((i) => ({ path: store.path(i.sha256), name: i.fileName, width: i.width, height: i.height }));
   const needBaselines = (await db.repos.baselines.count(heldOutHash, color)) === 0;
@@ -47,7 +46,7 @@ async function measure(
   }
   ctx.signal.throwIfAborted();
   ctx.progress({ phase: 'saving', fraction: 1 });
-  await queue.completeWith(jobId, async (tx: Repositories) => {
+  await ctx.complete(async (tx: Repositories) => {
     for (const { codebook, result } of results) {
       const rows: EvaluationImageMetrics[] = result.images.map((m, i) => ({
         imageId: images[i].id,
@@ -78,7 +77,7 @@ export const evaluateHandler: JobHandler<'evaluate'> = async (job, ctx) => {
     const codebooks = await db.repos.codebooks.listForRunWithCodewords(run.id);
     if (codebooks.length === 0) throw new Error('the run has no codebooks to evaluate');
     const images = await db.repos.runs.imagesOf(run.id, 'held-out');
-    await measure(job.id, codebooks, images, run.heldOutHash, run.normalized.color, ctx);
+    await measure(codebooks, images, run.heldOutHash, run.normalized.color, ctx);
     return;
   }
   const codebook = await db.repos.codebooks.findById(input.codebookId);
@@ -87,5 +86,5 @@ export const evaluateHandler: JobHandler<'evaluate'> = async (job, ctx) => {
   const images = await db.repos.runs.teamImages(job.teamId, ids);
   if (images.length !== ids.length) throw new Error('some of the images to evaluate on were deleted');
   // The key is taken from the images as they are now, as the run's is, not trusted from the payload.
-  await measure(job.id, [codebook], images, heldOutHash(images.map((i) => i.sha256)), codebook.color, ctx);
+  await measure([codebook], images, heldOutHash(images.map((i) => i.sha256)), codebook.color, ctx);
 };

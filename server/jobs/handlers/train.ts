@@ -99,7 +99,7 @@ async function loadVectors(run: RunRecord, images: RunImageRecord[], ctx: JobCon
  * interrupted attempt) is deleted in the same transaction, so exactly one set exists whatever happened before.
  */
 export const trainHandler: JobHandler<'train'> = async (job, ctx) => {
-  const { db, queue, bus } = ctx.deps;
+  const { db } = ctx.deps;
   const run = await db.repos.runs.findById(ctx.input.runId);
   if (!run) throw new Error(`run ${ctx.input.runId} no longer exists`);
   const cfg = run.normalized;
@@ -150,10 +150,9 @@ export const trainHandler: JobHandler<'train'> = async (job, ctx) => {
   }
 
   ctx.progress({ phase: 'saving', fraction: TRAINED, message: `writing ${made.length} codebooks` });
-  await queue.completeWith(job.id, async (tx) => {
+  await ctx.complete(async (tx) => {
     await tx.codebooks.deleteForRun(run.id);
     for (const c of made) await tx.codebooks.insert(c);
     await tx.jobs.insert({ teamId: run.teamId, runId: run.id, kind: 'evaluate', createdBy: job.createdBy });
   });
-  bus.jobQueued();
 };

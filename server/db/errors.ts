@@ -3,7 +3,8 @@ import { AppError, conflict, isAppError, isConnectionError, serviceUnavailable }
 /** MariaDB error codes that are the caller's fault, as AppErrors; connection loss as 503; the rest unchanged. */
 export function translateDbError(err: unknown): unknown {
   if (isAppError(err)) return err;
-  if (isConnectionError(err)) return serviceUnavailable();
+  // The driver's error stays as the cause: a job's final write tells a passing outage from a real failure by it.
+  if (isConnectionError(err)) return Object.assign(serviceUnavailable(), { cause: err });
   const code = (err as { code?: string } | null)?.code;
   if (code === 'ER_DUP_ENTRY') return conflict('That record already exists');
   if (code === 'ER_NO_REFERENCED_ROW_2' || code === 'ER_NO_REFERENCED_ROW') {
@@ -14,7 +15,7 @@ export function translateDbError(err: unknown): unknown {
     return conflict('This record is still in use and cannot be deleted', { reason: 'in_use' });
   }
   if (code === 'ER_LOCK_DEADLOCK' || code === 'ER_LOCK_WAIT_TIMEOUT') {
-    return new AppError('service_unavailable', 503, 'The database is busy; try again');
+    return Object.assign(new AppError('service_unavailable', 503, 'The database is busy; try again'), { cause: err });
   }
   return err;
 }

@@ -1,29 +1,23 @@
 import type { Logger } from '../config';
+import { isConnectionError } from '../errors';
+
+/** InnoDB chose this transaction as a deadlock victim, or it waited too long for a lock: running it again is the cure. */
+const LOCK_CODES = new Set(['ER_LOCK_DEADLOCK', 'ER_LOCK_WAIT_TIMEOUT']);
+
+function hasLockCode(err: unknown): boolean {
+  for (let e = err as { code?: unknown; cause?: unknown } | null | undefined, depth = 0; e && depth < 5; e = e.cause as typeof e, depth += 1) {
+    if (typeof e.code === 'string' && LOCK_CODES.has(e.code)) return true;
+  }
+  return false;
+}
 
 /**
- * Error codes that say the database could not be reached or went away, as mysql2 and Node report them; an error
- * with one of these says nothing about the job, only that the write must wait. (Node's and mysql2's error codes;
- * ER_SERVER_SHUTDOWN is MariaDB's 1053, ER_CON_COUNT_ERROR its 1040.)
+ * True when an error says nothing about the job, only that the write must be tried again: the database could not be
+ * reached or went away (connection errors, followed through `cause`), or it rolled the transaction back to break a
+ * deadlock between processes.
  */
-const UNREACHABLE = new Set([
-  'ECONNREFUSED',
-  'ECONNRESET',
-  'EPIPE',
-  'ETIMEDOUT',
-  'EHOSTUNREACH',
-  'PROTOCOL_CONNECTION_LOST',
-  'PROTOCOL_SEQUENCE_TIMEOUT',
-  'ER_SERVER_SHUTDOWN',
-  'ER_CON_COUNT_ERROR',
-]);
-
-export function isDatabaseUnreachable(err: unknown): boolean {
-  if (!(err instanceof Error)) return false;
-  const code = (err as { code?: unknown }).code;
-  if (typeof code === 'string' && UNREACHABLE.has(code)) return true;
-  // Knex gives up waiting for a pooled connection when none can be made.
-  if (err.name === 'KnexTimeoutError') return true;
-  return (err as { fatal?: unknown }).fatal === true;
+export function isTransientDatabaseError(err: unknown): boolean {
+  return isConnectionError(err) || hasLockCode(err);
 }
 
 export interface RetryOptions {
@@ -36,8 +30,9 @@ export interface RetryOptions {
 }
 
 /**
- * Runs `write` until it succeeds or fails for a reason other than an unreachable database: a job that ends while
+ * Runs `write` until it succeeds or fails for a reason other than a transient database error: a job that ends while
  * MariaDB is down keeps its results in memory and commits them when the database is back, instead of failing.
+ * `write` must be one transaction (all or nothing), so trying it again is safe.
  */
 export async function untilDatabaseAnswers<T>(what: string, write: () => Promise<T>, options: RetryOptions): Promise<T> {
   let delay = options.firstDelayMs ?? 250;
@@ -46,8 +41,8 @@ export async function untilDatabaseAnswers<T>(what: string, write: () => Promise
     try {
       return await write();
     } catch (err) {
-      if (!isDatabaseUnreachable(err) || options.signal?.aborted) throw err;
-      if (attempt === 1 || attempt % 10 === 0) options.logger.warn({ err, attempt, what }, 'database unreachable; retrying the write');
+      if (!isTransientDatabaseError(err) || options.signal?.aborted) throw err;
+      if (attempt === 1 || attempt % 10 === 0) options.logger.warn({ err, attempt, what }, 'database unreachable or busy; retrying the write');
       await new Promise((resolve) => setTimeout(resolve, delay).unref());
       delay = Math.min(maxDelay, delay * 2);
     }

@@ -25,7 +25,7 @@ export function createJobStore(db: Database, options: { logger: Logger; signal?:
 
   return {
     async take(jobId): Promise<Taken> {
-      return db.transaction(async (tx) => {
+      return retry(`take job ${jobId}`, () => db.transaction(async (tx): Promise<Taken> => {
         const job = await tx.jobs.lock(jobId);
         if (!job || (job.state !== 'queued' && job.state !== 'running')) return { kind: 'none' };
         // Still running: the attempt that held it stopped or lost it, so this is an interruption.
@@ -47,7 +47,7 @@ export function createJobStore(db: Database, options: { logger: Logger; signal?:
         const started = await tx.jobs.startAttempt(jobId, lease, attempts);
         if (job.runId) await refreshRunState(tx, job.runId);
         return { kind: 'taken', job: started, lease };
-      });
+      }));
     },
     async progress(jobId, lease, progress) {
       await db.repos.jobs.setProgress(jobId, lease, progress);

@@ -230,6 +230,7 @@ export function createJobRunner(options: RunnerOptions): JobRunner {
       if (taken.transition.state === 'failed') await notify(taken.job, 'failed', taken.error);
       return;
     }
+    logger.info({ jobId, kind: taken.job.kind, attempt: taken.job.attempts }, 'job taken');
     const a: Active = { job: taken.job, lease: taken.lease, controller: new AbortController(), done: Promise.resolve('finished') };
     active.set(jobId, a);
     if (taken.job.cancelRequested || stopping) abort(jobId, stopping ? 'shutdown' : 'cancel');

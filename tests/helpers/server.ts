@@ -25,6 +25,18 @@ export interface StartedServer {
   terminate(): Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
   /** Starts the process again with the same environment (after kill()). */
   restart(): Promise<void>;
+  /**
+   * Starts a second server process on the same database, DATA_DIR and Redis (its own HTTP and SMTP ports), as a
+   * studio scaled to two machines would run; stopped by the returned handle or when this server stops.
+   */
+  peer(): Promise<ServerPeer>;
+}
+
+export interface ServerPeer {
+  url: string;
+  output(): string;
+  kill(): Promise<void>;
+  terminate(): Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
 }
 
 function waitForExit(child: ChildProcess, timeoutMs: number): Promise<{ code: number | null; signal: NodeJS.Signals | null }> {
@@ -105,7 +117,12 @@ export async function startServer(overrides: Record<string, string> = {}): Promi
     await waitForHealth(url, child, output, 90_000);
   };
 
+  const peers: ChildProcess[] = [];
   const cleanup = async () => {
+    for (const p of peers) {
+      p.kill('SIGKILL');
+      await waitForExit(p, 5_000);
+    }
     await db.destroy();
     rmSync(dataDir, { recursive: true, force: true });
   };
@@ -139,6 +156,32 @@ export async function startServer(overrides: Record<string, string> = {}): Promi
     },
     async restart() {
       await spawnChild();
+    },
+    async peer() {
+      const peerPort = await getFreePort();
+      const peerEnv = { ...env, PORT: String(peerPort), SMTP_PORT: String(await getFreePort()), PUBLIC_URL: env.PUBLIC_URL };
+      const peerUrl = `http://127.0.0.1:${peerPort}`;
+      const p = spawn(process.execPath, ['--import', 'tsx', 'server/index.ts'], { cwd: repoRoot, env: peerEnv, stdio: ['ignore', 'pipe', 'pipe'] });
+      peers.push(p);
+      let peerLog = '';
+      const append = (chunk: Buffer) => {
+        peerLog = (peerLog + chunk.toString('utf8')).slice(-200_000);
+      };
+      p.stdout!.on('data', append);
+      p.stderr!.on('data', append);
+      await waitForHealth(peerUrl, p, () => peerLog, 90_000);
+      return {
+        url: peerUrl,
+        output: () => peerLog,
+        async kill() {
+          p.kill('SIGKILL');
+          await waitForExit(p, 5_000);
+        },
+        async terminate() {
+          p.kill('SIGTERM');
+          return waitForExit(p, 20_000);
+        },
+      };
     },
   };
 }

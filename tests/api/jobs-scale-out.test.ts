@@ -4,6 +4,8 @@ import sharp from 'sharp';
 import { Redis } from 'ioredis';
 import { afterAll, describe, expect, it } from 'vitest';
 import { seabedSet } from '../../server/seed/seabed-tiles';
+import type { TestDatabase } from '../helpers/db';
+import { startPrivateMariaDb } from '../helpers/private-mariadb';
 import { startPrivateRedis, type PrivateRedis } from '../helpers/redis';
 import { signUpOn, startServer, type StartedServer } from '../helpers/server';
 
@@ -26,8 +28,8 @@ async function call(studio: Studio, method: string, path: string, body?: unknown
   return { status: res.status, body: (await res.json().catch(() => ({}))) as Record<string, any> };
 }
 
-async function openStudio(env: Record<string, string>): Promise<Studio> {
-  const server = await startServer({ SEED_DEMO: 'false', JOB_CONCURRENCY: '1', JOB_LEASE_MS: '3000', JOB_RECONCILE_MS: '1000', LOG_LEVEL: 'info', ...env });
+async function openStudio(env: Record<string, string>, database?: TestDatabase): Promise<Studio> {
+  const server = await startServer({ SEED_DEMO: 'false', JOB_CONCURRENCY: '1', JOB_LEASE_MS: '3000', JOB_RECONCILE_MS: '1000', LOG_LEVEL: 'info', ...env }, { database });
   const account = await signUpOn(server, { email: `scale-${process.pid}-${server.port}@example.test`, password: 'correct-horse-battery', name: 'Scale Tester', teamName: 'Scale Team' });
   const studio: Studio = { server, token: account.token, teamId: account.team.id, setId: 0 };
   studio.setId = (await call(studio, 'POST', `/api/teams/${studio.teamId}/image-sets`, { name: 'Survey' })).body.imageSet.id;
@@ -145,5 +147,30 @@ describe('a Redis that forgets', () => {
     const run = await waitForRun(studio, wiped, terminal);
     expect({ state: run.state, error: run.error }).toEqual({ state: 'succeeded', error: null });
     for (const id of [kept, wiped]) expect(await codebookSizes(studio, id)).toEqual([128, 256, 512].map((size) => ({ size, n: 1 })));
+  });
+});
+
+describe('a database that goes away', () => {
+  it('keeps a finished job\u2019s results while MariaDB is down and commits them when it is back', async () => {
+    const mariadb = await startPrivateMariaDb();
+    const studio = await openStudio({}, mariadb.database);
+    open.push({ studio });
+    const runId = await createRun(studio, 'Outlives an outage', { from: 7, to: 9 });
+    await waitForRun(studio, runId, training);
+    await mariadb.stop();
+    // Training goes on in memory; its final write meets the outage and waits (the log says so) instead of failing.
+    const deadline = Date.now() + 180_000;
+    while (!/retrying the write[^\n]*"what":"commit job|"what":"commit job[^\n]*retrying the write/.test(studio.server.output())) {
+      if (Date.now() > deadline) throw new Error(`the job's final write never met the outage:\n${studio.server.output().slice(-3000)}`);
+      await new Promise((r) => setTimeout(r, 200));
+    }
+    await mariadb.start();
+    const run = await waitForRun(studio, runId, terminal);
+    expect({ state: run.state, error: run.error }).toEqual({ state: 'succeeded', error: null });
+    expect(run.jobs.map((j) => [j.kind, j.state, j.attempts])).toEqual([
+      ['train', 'succeeded', 0],
+      ['evaluate', 'succeeded', 0],
+    ]);
+    expect(await codebookSizes(studio, runId)).toEqual([128, 256, 512].map((size) => ({ size, n: 1 })));
   });
 });

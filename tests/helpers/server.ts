@@ -70,9 +70,12 @@ async function waitForHealth(url: string, child: ChildProcess, output: () => str
   throw new Error(`server did not become healthy within ${timeoutMs} ms:\n${output()}`);
 }
 
-/** Spawns `node --import tsx server/index.ts` on a fresh database, free ports and a temporary DATA_DIR. */
-export async function startServer(overrides: Record<string, string> = {}): Promise<StartedServer> {
-  const db = await createTestDatabase({ migrate: false });
+/**
+ * Spawns `node --import tsx server/index.ts` on a fresh database, free ports and a temporary DATA_DIR. `database`
+ * gives it a database of the test's own instead (destroyed with the server).
+ */
+export async function startServer(overrides: Record<string, string> = {}, options: { database?: TestDatabase } = {}): Promise<StartedServer> {
+  const db = options.database ?? (await createTestDatabase({ migrate: false }));
   const dataDir = mkdtempSync(path.join(tmpdir(), 'cellwright-data-'));
   const port = Number(overrides.PORT ?? (await getFreePort()));
   const smtpPort = Number(overrides.SMTP_PORT ?? (await getFreePort()));

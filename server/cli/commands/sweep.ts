@@ -1,6 +1,6 @@
 import {
-  availableBaselineCodecs, baselines, DEFAULT_QUALITIES, evaluate, MAX_BITS, trainCodebooks, trainsEverySize, type BaselineCodec,
-  type Codebook, type PatchInfo,
+  availableBaselineCodecs, baselines, CURVE_CSV_COLUMNS, curveCsv, DEFAULT_QUALITIES, evaluate, EXACT, MAX_BITS, trainCodebooks, trainsEverySize,
+  type BaselineCodec, type Codebook, type CurveCsvPoint, type PatchInfo,
 } from '../../engine';
 import { intListOption, listOption, parseOptions, rangeOption, requiredString, type OptionSpec } from '../args';
 import { CliInputError, CliUsageError } from '../cli-error';
@@ -18,8 +18,9 @@ the held-out images, optionally adds standard-codec baselines measured the same 
   --baseline LIST       comma-separated jpeg, webp, avif (avif only where this build encodes it)
   --qualities LIST      codec qualities to sweep (default ${DEFAULT_QUALITIES.join(',')})
   --color, --stride, --mean-bits, --max-vectors, --init, --epsilon, --max-iterations, --seed, --threads   as for "cellwright train"
-CSV columns: codec, bits, codebook_size, quality, bpp_fixed, bpp_entropy, bpp_actual, mse, psnr_db, ssim
-(empty where a column does not apply; psnr_db is "Infinity" for identical images).
+CSV columns (the studio's curve download has the same): ${CURVE_CSV_COLUMNS.join(', ')}
+(empty where a column does not apply; codebook is the studio's codebook id, so empty here; psnr_db is ${EXACT.csv} for an
+exact reconstruction). RFC 4180: comma-separated, CRLF line ends.
 `;
 
 const SPEC: OptionSpec = {
@@ -33,15 +34,6 @@ const SPEC: OptionSpec = {
   ...trainingOptionSpec,
   out: { type: 'string' },
 };
-
-export const CURVE_HEADER = ['codec', 'bits', 'codebook_size', 'quality', 'bpp_fixed', 'bpp_entropy', 'bpp_actual', 'mse', 'psnr_db', 'ssim'] as const;
-
-function csvValue(v: number | string | null | undefined): string {
-  if (v === null || v === undefined) return '';
-  if (typeof v === 'string') return v;
-  if (v === Infinity) return 'Infinity';
-  return String(v);
-}
 
 export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   const values = parseOptions('sweep', argv, SPEC);
@@ -93,27 +85,26 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
     bar.done();
   }
 
-  const rows: string[][] = [];
+  const rows: CurveCsvPoint[] = [];
   const shown: (string | number)[][] = [];
   const evalBar = progressBar(ctx, 'evaluating');
   try {
     for (const [i, book] of books.entries()) {
       const r = (await evaluate(book, heldout, { threads: settings.threads, signal: ctx.signal })).overall;
-      rows.push(['vq', String(book.bits), String(book.size), '', ...[r.bppFixed, r.bppEntropy, r.bppActual, r.mse, r.psnr, r.ssim].map(csvValue)]);
+      rows.push({ codec: 'vq', codebook: null, bits: book.bits, codebookSize: book.size, quality: null, bppFixed: r.bppFixed, bppEntropy: r.bppEntropy, bppActual: r.bppActual, mse: r.mse, psnr: r.psnr, ssim: r.ssim });
       shown.push([`vq K=${book.size}`, fmt.bpp(r.bppFixed), fmt.bpp(r.bppEntropy), fmt.bpp(r.bppActual), fmt.mse(r.mse), fmt.psnr(r.psnr), fmt.ssim(r.ssim)]);
       evalBar.update((i + 1) / books.length, `K=${book.size}`);
     }
     if (codecs.length > 0) {
       const points = await baselines(heldout, { codecs: codecs as BaselineCodec[], qualities, signal: ctx.signal, onPoint: (d, t) => evalBar.update(d / t, 'baselines') });
       for (const p of points) {
-        rows.push([p.codec, '', '', String(p.quality), '', '', ...[p.bpp, p.mse, p.psnr, p.ssim].map(csvValue)]);
+        rows.push({ codec: p.codec, codebook: null, bits: null, codebookSize: null, quality: p.quality, bppFixed: null, bppEntropy: null, bppActual: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });
         shown.push([`${p.codec} q=${p.quality}`, '', '', fmt.bpp(p.bpp), fmt.mse(p.mse), fmt.psnr(p.psnr), fmt.ssim(p.ssim)]);
       }
     }
   } finally {
     evalBar.done();
   }
-  const csv = [CURVE_HEADER.join(','), ...rows.map((r) => r.join(','))].join('\n') + '\n';
-  await writeOutputsAtomically([{ path: out, data: csv }]);
+  await writeOutputsAtomically([{ path: out, data: curveCsv(rows) }]);
   ctx.stdout.write(table(['point', 'bpp fixed', 'bpp entropy', 'bpp actual', 'MSE', 'PSNR', 'SSIM'], shown) + `wrote ${out}\n`);
 }

@@ -9,22 +9,28 @@ import { checkOutputFolder, writeOutputsAtomically } from '../files';
 import { loadImageFolder, trainingVectorsFromFolder } from '../inputs';
 import { progressBar } from '../progress';
 import { fmt, table } from '../text-output';
-import { imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
+import { aliased, imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
 
-export const SWEEP_HELP = `Usage: cellwright sweep --images TRAIN_DIR --heldout DIR --patch WxH --bits A..B --out CURVE.csv [options]
+export const SWEEP_HELP = `Usage: cellwright sweep --images TRAIN_DIR --held-out DIR --patch WxH --bits A..B --out CURVE.csv [options]
 
-Trains codebooks of 2^A … 2^B codewords on TRAIN_DIR (split init trains every size in one LBG pass), evaluates each on
-the held-out images, optionally adds standard-codec baselines measured the same way, and writes a rate–distortion CSV.
+The command line's form of a studio run over a range of b (the run's "Index bits b" from A to B): trains codebooks of
+2^A … 2^B codewords on the training images in TRAIN_DIR (split init trains every size in one LBG pass), evaluates each
+on the held-out images in DIR (kept out of training), optionally adds standard-codec baselines measured the same way,
+and writes the rate–distortion curve as CSV.
+  --held-out DIR        the held-out images (--heldout DIR is the same option, its older name)
   --baseline LIST       comma-separated jpeg, webp, avif (avif only where this build encodes it)
   --qualities LIST      codec qualities to sweep (default ${DEFAULT_QUALITIES.join(',')})
-  --color, --stride, --mean-bits, --max-vectors, --init, --epsilon, --max-iterations, --seed, --threads   as for "cellwright train"
-CSV columns (the studio's curve download has the same): ${CURVE_CSV_COLUMNS.join(', ')}
-(empty where a column does not apply; codebook is the studio's codebook id, so empty here; psnr_db is ${EXACT.csv} for an
-exact reconstruction). RFC 4180: comma-separated, CRLF line ends.
+  --color, --stride, --mean-bits, --vector-cap, --init, --epsilon, --max-iterations, --seed, --threads
+                        as for "cellwright train"
+CSV columns, those of the studio's curve download (RFC 4180: comma-separated, CRLF line ends):
+  ${CURVE_CSV_COLUMNS.join(', ')}
+Empty where a column does not apply (codebook is the studio's codebook id, so empty here); psnr_db is ${EXACT.csv} for an
+exact reconstruction.
 `;
 
 const SPEC: OptionSpec = {
   images: { type: 'string' },
+  'held-out': { type: 'string' },
   heldout: { type: 'string' },
   patch: { type: 'string' },
   bits: { type: 'string' },
@@ -42,7 +48,7 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
     return;
   }
   const trainDir = requiredString(values, 'images', 'sweep');
-  const heldoutDir = requiredString(values, 'heldout', 'sweep');
+  const heldoutDir = requiredString(values, aliased(values, 'held-out', 'heldout'), 'sweep');
   const out = requiredString(values, 'out', 'sweep');
   const range = rangeOption(values, 'bits', { min: 0, max: MAX_BITS });
   if (!range) throw new CliUsageError('"cellwright sweep" needs --bits A..B');

@@ -194,7 +194,7 @@ describe('cellwright encode and decode', () => {
 
 describe('cellwright sweep', () => {
   it('writes a CSV whose header carries units, one row per codebook size and per codec quality', async () => {
-    const r = await cli('sweep', '--images', p('train'), '--heldout', p('held'), '--patch', '4x4', '--bits', '1..3', '--baseline', 'jpeg,webp', '--qualities', '20,80', '--out', p('out', 'curve.csv'));
+    const r = await cli('sweep', '--images', p('train'), '--held-out', p('held'), '--patch', '4x4', '--bits', '1..3', '--baseline', 'jpeg,webp', '--qualities', '20,80', '--out', p('out', 'curve.csv'));
     expect(r.stderr).toBe('');
     expect(r.status).toBe(0);
     const text = readFileSync(p('out', 'curve.csv'), 'utf8');

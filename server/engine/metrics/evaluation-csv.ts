@@ -93,3 +93,65 @@ export function imageEvaluationCsv(rows: readonly ImageCsvRow[]): string {
     ]),
   );
 }
+
+// ---- the studio's downloads, from its curve and per-image results as the API returns them ----
+
+interface StoredFigures {
+  bppFixed: number;
+  bppEntropy: number;
+  bppActual: number;
+  mse: number;
+  /** null: exact (with mse 0), as the studio stores it. */
+  psnr: number | null;
+  ssim: number | null;
+}
+interface StoredBaselinePoint {
+  quality: number;
+  bpp: number;
+  mse: number;
+  psnr: number | null;
+  ssim: number | null;
+}
+
+/**
+ * The studio's curve download (GET …/runs/:id/curve?format=csv): one row per codebook, then each baseline codec's
+ * points by quality, in the columns `cellwright sweep` writes. Takes the curve as the API returns it (RunCurve).
+ */
+export function runCurveCsv(curve: {
+  points: readonly (StoredFigures & { codebookId: number; bits: number; size: number })[];
+  baselines: Readonly<Record<string, readonly StoredBaselinePoint[]>>;
+}): string {
+  const codebooks: CurveCsvPoint[] = curve.points.map((p) => ({
+    codec: 'vq', codebook: p.codebookId, bits: p.bits, codebookSize: p.size, quality: null,
+    bppFixed: p.bppFixed, bppEntropy: p.bppEntropy, bppActual: p.bppActual, mse: p.mse, psnr: p.psnr, ssim: p.ssim,
+  }));
+  const baselines: CurveCsvPoint[] = Object.entries(curve.baselines).flatMap(([codec, points]) =>
+    points.map((p) => ({
+      codec, codebook: null, bits: null, codebookSize: null, quality: p.quality,
+      bppFixed: null, bppEntropy: null, bppActual: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim,
+    })),
+  );
+  return curveCsv([...codebooks, ...baselines]);
+}
+
+/**
+ * The studio's per-image download (GET …/runs/:id/metrics?format=csv): one row per codebook and image, in the columns
+ * `cellwright eval --csv` writes. Takes the metrics as the API returns them (RunMetrics).
+ */
+export function runMetricsCsv(metrics: {
+  codebooks: readonly {
+    codebookId: number;
+    bits: number;
+    size: number;
+    images: readonly (StoredFigures & { fileName: string; width: number; height: number; containerBytes: number })[];
+  }[];
+}): string {
+  return imageEvaluationCsv(
+    metrics.codebooks.flatMap((c) =>
+      c.images.map((i) => ({
+        codebook: c.codebookId, bits: c.bits, codebookSize: c.size, image: i.fileName, width: i.width, height: i.height,
+        codedBytes: i.containerBytes, bppFixed: i.bppFixed, bppEntropy: i.bppEntropy, bppActual: i.bppActual, mse: i.mse, psnr: i.psnr, ssim: i.ssim,
+      })),
+    ),
+  );
+}

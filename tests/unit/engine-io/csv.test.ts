@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
+import type { RunCurve, RunMetrics } from '../../../server/contracts';
 import {
-  csvField, curveCsv, CURVE_CSV_COLUMNS, EXACT, imageEvaluationCsv, IMAGE_CSV_COLUMNS, writeCsv,
+  csvField, curveCsv, CURVE_CSV_COLUMNS, EXACT, imageEvaluationCsv, IMAGE_CSV_COLUMNS, runCurveCsv, runMetricsCsv, writeCsv,
 } from '../../../server/engine';
 
 /**
@@ -109,5 +110,36 @@ describe('the evaluation CSV files', () => {
   it('puts a quote before a file name a spreadsheet would run as a formula (OWASP, CSV Injection)', () => {
     const rows = readRfc4180(imageEvaluationCsv([{ ...image, image: '=HYPERLINK("x").png' }, { ...image, image: '-1.png' }]));
     expect(rows.slice(1).map((r) => r[IMAGE_CSV_COLUMNS.indexOf('image')])).toEqual(['\'=HYPERLINK("x").png', "'-1.png"]);
+  });
+});
+
+describe("the studio's downloads", () => {
+  const figures = { bppFixed: 0.25, bppEntropy: 0.2, bppActual: 0.3, mse: 4, psnr: 42.1, ssim: 0.97, lossless: false };
+  const exact = { ...figures, mse: 0, psnr: null, ssim: 1, lossless: true };
+
+  it('writes the curve as the API returns it in the columns of cellwright sweep, codebooks then baselines by codec', () => {
+    const curve: RunCurve = {
+      run: { id: 1, name: 'r', state: 'succeeded' }, heldOutHash: 'h', color: 'luma',
+      points: [{ ...figures, codebookId: 31, bits: 1, size: 2 }, { ...exact, codebookId: 32, bits: 2, size: 4 }],
+      baselines: { jpeg: [{ quality: 20, bpp: 0.9, mse: 30, psnr: 33.4, ssim: 0.8 }], webp: [], avif: [{ quality: 50, bpp: 0.5, mse: 20, psnr: 35.1, ssim: null }] },
+    };
+    expect(readRfc4180(runCurveCsv(curve))).toEqual([
+      [...CURVE_CSV_COLUMNS],
+      ['vq', '31', '1', '2', '', '0.25', '0.2', '0.3', '4', '42.1', '0.97'],
+      ['vq', '32', '2', '4', '', '0.25', '0.2', '0.3', '0', EXACT.csv, '1'],
+      ['jpeg', '', '', '', '20', '', '', '0.9', '30', '33.4', '0.8'],
+      ['avif', '', '', '', '50', '', '', '0.5', '20', '35.1', ''],
+    ]);
+  });
+
+  it('writes the per-image metrics as the API returns them in the columns of cellwright eval --csv', () => {
+    const metrics: RunMetrics = {
+      run: { id: 1, name: 'r', state: 'succeeded' }, heldOutHash: 'h',
+      codebooks: [{ codebookId: 31, bits: 1, size: 2, images: [{ ...exact, imageId: 5, fileName: 'tile,1.png', width: 8, height: 6, containerBytes: 21 }] }],
+    };
+    expect(readRfc4180(runMetricsCsv(metrics))).toEqual([
+      [...IMAGE_CSV_COLUMNS],
+      ['31', '1', '2', 'tile,1.png', '8', '6', '21', '0.25', '0.2', '0.3', '0', EXACT.csv, '1'],
+    ]);
   });
 });

@@ -85,7 +85,7 @@ export async function trainingVectorsFromFolder(ctx: CliContext, dir: string, wh
   if (memory.totalBytes > totalmem()) {
     ctx.stderr.write(
       `cellwright: warning: training will hold about ${formatBytes(memory.totalBytes)}, more than this machine's ${formatBytes(totalmem())} of memory; ` +
-        'consider --max-vectors or a larger --stride\n',
+        'consider a lower --vector-cap or a larger --stride\n',
     );
   }
   return streamImagesToTrainingVectors(sources, { patch: o.patch, color: o.color, stride: o.stride, sample: o.sample, seed: o.seed, preprocessing: o.preprocessing });

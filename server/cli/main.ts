@@ -10,15 +10,15 @@ import { runTrain, TRAIN_HELP } from './commands/train';
 
 const COMMANDS: Record<string, { run: (argv: string[], ctx: CliContext) => Promise<void>; help: string; summary: string }> = {
   train: { run: runTrain, help: TRAIN_HELP, summary: 'train a codebook on images or .npy vectors' },
-  eval: { run: runEval, help: EVAL_HELP, summary: 'measure rate and distortion of a codebook on held-out data' },
+  eval: { run: runEval, help: EVAL_HELP, summary: 'measure rate and distortion of a codebook on held-out images or vectors' },
   encode: { run: runEncode, help: ENCODE_HELP, summary: 'code an image with a codebook' },
   decode: { run: runDecode, help: DECODE_HELP, summary: 'decode a coded file to PNG' },
-  sweep: { run: runSweep, help: SWEEP_HELP, summary: 'rate–distortion curve over codebook sizes, with codec baselines' },
+  sweep: { run: runSweep, help: SWEEP_HELP, summary: 'the studio\'s run over a range of b: train, evaluate on held-out images, rate–distortion CSV' },
 };
 
 export const MAIN_HELP = `Usage: cellwright <command> [options]
 
-Design vector-quantization image codecs: train codebooks, measure them, code images.
+Design vector-quantisation image codecs: train codebooks, measure them, code images.
 
 Commands:
 ${Object.entries(COMMANDS).map(([name, c]) => `  ${name.padEnd(8)} ${c.summary}`).join('\n')}

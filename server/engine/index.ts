@@ -43,6 +43,11 @@ export { readNpy, writeNpy, type NpyMatrix } from './io/npy';
 export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
 export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
 export { poolSsim, ssimGrey, ssimOfImages } from './metrics/ssim';
+export {
+  curveCsv, imageEvaluationCsv, runCurveCsv, runMetricsCsv, csvNumber, csvPsnr, csvText, CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS, type CurveCsvPoint,
+  type ImageCsvRow,
+} from './metrics/evaluation-csv';
+export { writeCsv, csvField, CSV_LINE_END } from './io/csv';
 export { bppFixed, entropyBits, indexBits } from './metrics/rate';
 export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';

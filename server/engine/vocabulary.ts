@@ -52,7 +52,7 @@ export const MEAN_BITS = { min: 0, max: 8 } as const;
  */
 export const SEED = { min: 0, max: 2 ** 31 - 1 } as const;
 /**
- * Training vectors at most (the "vector cap", field `maxVectors`, CLI --max-vectors): below 100 no codebook is worth
+ * Training vectors at most (the "vector cap", field `maxVectors`, CLI --vector-cap): below 100 no codebook is worth
  * training; 2,000,000 bounds the memory one training holds (TRAINING_MAX_BYTES checks the rest).
  */
 export const VECTOR_CAP = { min: 100, max: 2_000_000 } as const;

@@ -1,3 +1,5 @@
+import { RUN_STATE_LABELS, type JobKind } from '../contracts';
+
 export interface MailContent {
   subject: string;
   text: string;
@@ -65,5 +67,32 @@ export function signupExistingMail(input: { name: string; signInLink: string; re
     subject: 'You already have a Cellwright account',
     text: `${intro}\n\n${help}\n\n${ignore}\n`,
     html: layout([intro, help], { href: input.signInLink, label: 'Sign in' }, ignore),
+  };
+}
+
+/** What a person calls a job of each kind, in the job notices. */
+const JOB_KIND_NAMES: Record<JobKind, string> = { train: 'Training', evaluate: 'Evaluation' };
+
+/**
+ * The notice a job's creator gets when it ends by itself (Finished or Failed; a cancellation needs none, the person
+ * did it). States are named by RUN_STATE_LABELS, as the studio's badges and the command line name them.
+ */
+export function jobEndedMail(input: {
+  job: { id: number; kind: JobKind };
+  state: 'succeeded' | 'failed';
+  runName: string | null;
+  error: string | null;
+  link: string;
+}): MailContent {
+  const what = JOB_KIND_NAMES[input.job.kind];
+  const label = RUN_STATE_LABELS[input.state];
+  const subject = `${what} ${label}${input.runName ? `: ${input.runName}` : ''}`;
+  const lines = [`${what} job #${input.job.id}${input.runName ? ` of the run "${input.runName}"` : ''}: ${label}.`];
+  if (input.error) lines.push(`Reason: ${input.error}`);
+  const why = 'You receive this notice because you started the job.';
+  return {
+    subject,
+    text: `${lines.join('\n')}\n\nOpen it in Cellwright:\n${input.link}\n\n${why}\n`,
+    html: layout(lines, { href: input.link, label: 'Open it in Cellwright' }, why),
   };
 }

@@ -2,6 +2,7 @@ import { createHash } from 'node:crypto';
 import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS } from '../../server/engine';
 import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
 import { seabedPngs, createSetWith, waitForRun as pollRun } from '../helpers/studio';
 import { mailFor, waitForMail } from '../helpers/mailbox';
@@ -119,20 +120,25 @@ describe('run curve', () => {
     expect(point.bpp).toBeCloseTo((bytes * 8) / pixels, 2);
   });
 
-  it('exports the curve as CSV with units in the header and one row per codebook', async () => {
+  it('exports the curve as CSV in the command line\u2019s columns: one row per codebook, then the reference codecs\u2019 points', async () => {
     const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/curve?format=csv`).set(bearer(team.viewer));
     expect(res.status).toBe(200);
     expect(res.headers['content-type']).toMatch(/^text\/csv/);
     expect(res.headers['content-disposition']).toMatch(/^attachment; filename="?Ripple-sweep-curve\.csv"?$/);
     const lines = res.text.trim().split(/\r\n/);
-    expect(lines[0]).toBe('codebook_id,bits,size,bpp_fixed (bit/px),bpp_entropy (bit/px),bpp_actual (bit/px),mse (per component),psnr (dB),ssim');
-    expect(lines).toHaveLength(1 + 5);
+    expect(lines[0]).toBe(CURVE_CSV_COLUMNS.join(','));
     const json = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/curve`).set(bearer(team.viewer));
-    lines.slice(1).forEach((line, i) => {
+    const baselinePoints = Object.values(json.body.baselines as Record<string, unknown[]>).reduce((n, points) => n + points.length, 0);
+    expect(baselinePoints).toBeGreaterThan(0);
+    expect(lines).toHaveLength(1 + 5 + baselinePoints);
+    const column = (name: string) => CURVE_CSV_COLUMNS.indexOf(name as (typeof CURVE_CSV_COLUMNS)[number]);
+    lines.slice(1, 6).forEach((line, i) => {
       const cells = line.split(',');
-      expect(Number(cells[1])).toBe(json.body.points[i].bits);
-      expect(Number(cells[6])).toBe(json.body.points[i].mse);
+      expect(cells[column('codec')]).toBe('vq');
+      expect(Number(cells[column('bits')])).toBe(json.body.points[i].bits);
+      expect(Number(cells[column('mse')])).toBe(json.body.points[i].mse);
     });
+    expect(lines.slice(6).map((line) => line.split(',')[column('codec')]).every((codec) => ['jpeg', 'webp', 'avif'].includes(codec))).toBe(true);
   });
 
   it('rejects an unknown export format with 400', async () => {
@@ -164,8 +170,7 @@ describe('per-image metrics', () => {
     expect(res.status).toBe(200);
     expect(res.headers['content-disposition']).toMatch(/^attachment; filename="?Ripple-sweep-metrics\.csv"?$/);
     const lines = res.text.trim().split(/\r\n/);
-    expect(lines[0]).toContain('bpp_actual (bit/px)');
-    expect(lines[0]).toContain('psnr (dB)');
+    expect(lines[0]).toBe(IMAGE_CSV_COLUMNS.join(','));
     expect(lines).toHaveLength(1 + 5 * 3);
     expect(lines[1]).toContain('held-out tiles-0.png');
   });
@@ -226,7 +231,7 @@ describe('evaluating a codebook on a held-out list', () => {
     const audit = await t.db.knex('audit_log').where({ action: 'evaluation.requested', target_id: String(copyId) });
     expect(audit).toHaveLength(1);
     // The person who asked is told by e-mail when the evaluation is done.
-    const mail = await waitForMail(t.db.knex, team.engineer.user.email, { subject: /^Evaluation finished/, afterId: lastMail });
+    const mail = await waitForMail(t.db.knex, team.engineer.user.email, { subject: /^Evaluation Finished/, afterId: lastMail });
     expect(mail.text).toContain(`job #${res.body.job.id}`);
   });
 

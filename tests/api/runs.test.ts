@@ -165,14 +165,14 @@ describe('a training run', () => {
   });
 
   it("mails the creator when its jobs finish, as the team's own mail in its Outbox", async () => {
-    const mail = await waitForMail(t.db.knex, team.engineer.user.email, { subject: /Training finished: Sweep 4x4 luma/ });
+    const mail = await waitForMail(t.db.knex, team.engineer.user.email, { subject: /Training Finished: Sweep 4x4 luma/ });
     expect(mail.text).toContain(`/teams/${team.teamId}/runs/${runId}`);
     await t.composition.services.accounts.settle();
     const outbox = await request(t.app).get(`/api/teams/${team.teamId}/outbox`).set(bearer(team.admin));
     const notice = (outbox.body.messages as { kind: string; to: string; subject: string; status: string }[]).find(
-      (m) => m.kind === 'job_finished' && m.subject.startsWith('Training finished'),
+      (m) => m.kind === 'job_finished' && m.subject.startsWith('Training Finished'),
     );
-    expect(notice).toMatchObject({ to: team.engineer.user.email, subject: expect.stringMatching(/Training finished: Sweep 4x4 luma/), status: 'sent' });
+    expect(notice).toMatchObject({ to: team.engineer.user.email, subject: expect.stringMatching(/Training Finished: Sweep 4x4 luma/), status: 'sent' });
   });
 
   it('lists the run with its creator and best operating point', async () => {
@@ -286,7 +286,7 @@ describe('a run that cannot train', () => {
     expect(run.state).toBe('failed');
     expect(run.error).toMatch(/only 2 distinct vectors, fewer than 4 codewords/);
     expect(await t.db.knex('codebooks').where({ run_id: res.body.run.id }).count({ n: '*' })).toEqual([{ n: 0 }]);
-    const mail = await waitForMail(t.db.knex, team.engineer.user.email, { subject: /Training failed: Flat sweep/ });
+    const mail = await waitForMail(t.db.knex, team.engineer.user.email, { subject: /Training Failed: Flat sweep/ });
     expect(mail.text).toMatch(/Reason: .*distinct vectors/);
   });
 });

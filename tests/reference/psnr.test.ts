@@ -24,12 +24,12 @@ describe('PSNR for 8-bit data', () => {
     expect(psnrFromMse(mse)).toBeCloseTo(20.1328, 4);
   });
 
-  it('gives Infinity for identical images, shown as ∞ and written to JSON as null', () => {
+  it('gives Infinity for identical images, shown as ∞ (exact) and written to JSON as null', () => {
     const a = [1, 2, 3, 250];
     const mse = meanSquaredError(a, [...a]);
     expect(mse).toBe(0);
     expect(psnrFromMse(mse)).toBe(Infinity);
-    expect(formatPsnr(Infinity)).toBe('∞');
+    expect(formatPsnr(Infinity)).toBe('∞ (exact)');
     expect(psnrForJson(Infinity)).toBeNull();
     expect(JSON.stringify({ psnr: psnrForJson(psnrFromMse(mse)) })).toBe('{"psnr":null}');
   });

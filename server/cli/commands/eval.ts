@@ -1,12 +1,16 @@
-import { evaluate, measuredFigures, type Codebook, type ImageSetEvaluation, type VectorSetEvaluation } from '../../engine';
+import { basename } from 'node:path';
+import {
+  EXACT, evaluate, IMAGE_CSV_COLUMNS, imageEvaluationCsv, measuredFigures, type Codebook, type ImageSetEvaluation, type VectorSetEvaluation,
+} from '../../engine';
 import { intOption, parseOptions, requiredString, stringOption, type OptionSpec } from '../args';
 import { CliInputError, CliUsageError } from '../cli-error';
 import type { CliContext } from '../context';
+import { checkOutputFolder, writeOutputsAtomically } from '../files';
 import { loadCodebook, loadImageFolder, loadVectors } from '../inputs';
 import { progressBar } from '../progress';
 import { fmt, jsonLine, table } from '../text-output';
 
-export const EVAL_HELP = `Usage: cellwright eval --codebook CODEBOOK.json (--vectors FILE.npy | --images DIR) [--json] [--threads N]
+export const EVAL_HELP = `Usage: cellwright eval --codebook CODEBOOK.json (--vectors FILE.npy | --images DIR) [--json] [--csv FILE.csv] [--threads N]
 
 Measures rate and distortion of a codebook on held-out data.
   images:  MSE per pixel component and PSNR (10·log10(255²/MSE)) of the decoded 8-bit image, SSIM (Wang et al. 2004,
@@ -14,7 +18,9 @@ Measures rate and distortion of a codebook on held-out data.
            entropy of the indices and means over the set) and actual (coded file bytes × 8 / pixels).
   vectors: MSE per component of the unrounded reconstruction and the fixed and entropy rates (per pixel of the codebook's
            patch; per component when it has none).
-Identical images have PSNR ∞ (null in --json).
+  --csv FILE.csv   also write the per-image figures, one row per image, with the columns of the studio's per-image
+                   download: ${IMAGE_CSV_COLUMNS.join(', ')} (RFC 4180: comma-separated, CRLF line ends)
+An exact reconstruction (MSE 0) has PSNR ${EXACT.text}: null in --json, ${EXACT.csv} in the CSV.
 `;
 
 const SPEC: OptionSpec = {
@@ -23,6 +29,7 @@ const SPEC: OptionSpec = {
   images: { type: 'string' },
   threads: { type: 'string' },
   json: { type: 'boolean' },
+  csv: { type: 'string' },
 };
 
 export function imageReportJson(book: Codebook, report: ImageSetEvaluation) {
@@ -62,6 +69,16 @@ export function vectorReportJson(book: Codebook, report: VectorSetEvaluation) {
   };
 }
 
+/** The per-image CSV, with the columns and spelling of the studio's per-image download (engine evaluation-csv). */
+export function imageCsv(codebookPath: string, book: Codebook, report: ImageSetEvaluation): string {
+  return imageEvaluationCsv(
+    report.images.map((r) => ({
+      codebook: basename(codebookPath), bits: book.bits, codebookSize: book.size, image: basename(r.name), width: r.width, height: r.height,
+      codedBytes: r.bytes, bppFixed: r.bppFixed, bppEntropy: r.bppEntropy, bppActual: r.bppActual, mse: r.mse, psnr: r.psnr, ssim: r.ssim,
+    })),
+  );
+}
+
 export async function runEval(argv: string[], ctx: CliContext): Promise<void> {
   const values = parseOptions('eval', argv, SPEC);
   if (values.help) {
@@ -72,6 +89,9 @@ export async function runEval(argv: string[], ctx: CliContext): Promise<void> {
   const vectorsPath = stringOption(values, 'vectors');
   const imagesDir = stringOption(values, 'images');
   if ((vectorsPath === undefined) === (imagesDir === undefined)) throw new CliUsageError('"cellwright eval" needs exactly one of --vectors and --images');
+  const csvPath = stringOption(values, 'csv');
+  if (csvPath !== undefined && vectorsPath !== undefined) throw new CliUsageError('--csv writes per-image figures; it needs --images');
+  if (csvPath !== undefined) await checkOutputFolder(csvPath);
   const threads = intOption(values, 'threads', { min: 1, max: 1024 });
   const book = await loadCodebook(codebookPath);
 
@@ -104,6 +124,7 @@ export async function runEval(argv: string[], ctx: CliContext): Promise<void> {
   } finally {
     bar.done();
   }
+  if (csvPath !== undefined) await writeOutputsAtomically([{ path: csvPath, data: imageCsv(codebookPath, book, report) }]);
   if (values.json) {
     ctx.stdout.write(jsonLine(imageReportJson(book, report)));
     return;

@@ -1,6 +1,6 @@
 import {
-  availableBaselineCodecs, baselines, DEFAULT_QUALITIES, evaluate, MAX_BITS, trainCodebooks, trainsEverySize, type BaselineCodec,
-  type Codebook, type PatchInfo,
+  availableBaselineCodecs, baselines, CURVE_CSV_COLUMNS, curveCsv, DEFAULT_QUALITIES, evaluate, EXACT, MAX_BITS, trainCodebooks, trainsEverySize,
+  type BaselineCodec, type Codebook, type CurveCsvPoint, type PatchInfo,
 } from '../../engine';
 import { intListOption, listOption, parseOptions, rangeOption, requiredString, type OptionSpec } from '../args';
 import { CliInputError, CliUsageError } from '../cli-error';
@@ -9,21 +9,28 @@ import { checkOutputFolder, writeOutputsAtomically } from '../files';
 import { loadImageFolder, trainingVectorsFromFolder } from '../inputs';
 import { progressBar } from '../progress';
 import { fmt, table } from '../text-output';
-import { imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
+import { aliased, imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
 
-export const SWEEP_HELP = `Usage: cellwright sweep --images TRAIN_DIR --heldout DIR --patch WxH --bits A..B --out CURVE.csv [options]
+export const SWEEP_HELP = `Usage: cellwright sweep --images TRAIN_DIR --held-out DIR --patch WxH --bits A..B --out CURVE.csv [options]
 
-Trains codebooks of 2^A … 2^B codewords on TRAIN_DIR (split init trains every size in one LBG pass), evaluates each on
-the held-out images, optionally adds standard-codec baselines measured the same way, and writes a rate–distortion CSV.
+The command line's form of a studio run over a range of b (the run's "Index bits b" from A to B): trains codebooks of
+2^A … 2^B codewords on the training images in TRAIN_DIR (split init trains every size in one LBG pass), evaluates each
+on the held-out images in DIR (kept out of training), optionally adds standard-codec baselines measured the same way,
+and writes the rate–distortion curve as CSV.
+  --held-out DIR        the held-out images (--heldout DIR is the same option, its older name)
   --baseline LIST       comma-separated jpeg, webp, avif (avif only where this build encodes it)
   --qualities LIST      codec qualities to sweep (default ${DEFAULT_QUALITIES.join(',')})
-  --color, --stride, --mean-bits, --max-vectors, --init, --epsilon, --max-iterations, --seed, --threads   as for "cellwright train"
-CSV columns: codec, bits, codebook_size, quality, bpp_fixed, bpp_entropy, bpp_actual, mse, psnr_db, ssim
-(empty where a column does not apply; psnr_db is "Infinity" for identical images).
+  --color, --stride, --mean-bits, --vector-cap, --init, --epsilon, --max-iterations, --seed, --threads
+                        as for "cellwright train"
+CSV columns, those of the studio's curve download (RFC 4180: comma-separated, CRLF line ends):
+  ${CURVE_CSV_COLUMNS.join(', ')}
+Empty where a column does not apply (codebook is the studio's codebook id, so empty here); psnr_db is ${EXACT.csv} for an
+exact reconstruction.
 `;
 
 const SPEC: OptionSpec = {
   images: { type: 'string' },
+  'held-out': { type: 'string' },
   heldout: { type: 'string' },
   patch: { type: 'string' },
   bits: { type: 'string' },
@@ -34,15 +41,6 @@ const SPEC: OptionSpec = {
   out: { type: 'string' },
 };
 
-export const CURVE_HEADER = ['codec', 'bits', 'codebook_size', 'quality', 'bpp_fixed', 'bpp_entropy', 'bpp_actual', 'mse', 'psnr_db', 'ssim'] as const;
-
-function csvValue(v: number | string | null | undefined): string {
-  if (v === null || v === undefined) return '';
-  if (typeof v === 'string') return v;
-  if (v === Infinity) return 'Infinity';
-  return String(v);
-}
-
 export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   const values = parseOptions('sweep', argv, SPEC);
   if (values.help) {
@@ -50,7 +48,7 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
     return;
   }
   const trainDir = requiredString(values, 'images', 'sweep');
-  const heldoutDir = requiredString(values, 'heldout', 'sweep');
+  const heldoutDir = requiredString(values, aliased(values, 'held-out', 'heldout'), 'sweep');
   const out = requiredString(values, 'out', 'sweep');
   const range = rangeOption(values, 'bits', { min: 0, max: MAX_BITS });
   if (!range) throw new CliUsageError('"cellwright sweep" needs --bits A..B');
@@ -93,27 +91,26 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
     bar.done();
   }
 
-  const rows: string[][] = [];
+  const rows: CurveCsvPoint[] = [];
   const shown: (string | number)[][] = [];
   const evalBar = progressBar(ctx, 'evaluating');
   try {
     for (const [i, book] of books.entries()) {
       const r = (await evaluate(book, heldout, { threads: settings.threads, signal: ctx.signal })).overall;
-      rows.push(['vq', String(book.bits), String(book.size), '', ...[r.bppFixed, r.bppEntropy, r.bppActual, r.mse, r.psnr, r.ssim].map(csvValue)]);
+      rows.push({ codec: 'vq', codebook: null, bits: book.bits, codebookSize: book.size, quality: null, bppFixed: r.bppFixed, bppEntropy: r.bppEntropy, bppActual: r.bppActual, mse: r.mse, psnr: r.psnr, ssim: r.ssim });
       shown.push([`vq K=${book.size}`, fmt.bpp(r.bppFixed), fmt.bpp(r.bppEntropy), fmt.bpp(r.bppActual), fmt.mse(r.mse), fmt.psnr(r.psnr), fmt.ssim(r.ssim)]);
       evalBar.update((i + 1) / books.length, `K=${book.size}`);
     }
     if (codecs.length > 0) {
       const points = await baselines(heldout, { codecs: codecs as BaselineCodec[], qualities, signal: ctx.signal, onPoint: (d, t) => evalBar.update(d / t, 'baselines') });
       for (const p of points) {
-        rows.push([p.codec, '', '', String(p.quality), '', '', ...[p.bpp, p.mse, p.psnr, p.ssim].map(csvValue)]);
+        rows.push({ codec: p.codec, codebook: null, bits: null, codebookSize: null, quality: p.quality, bppFixed: null, bppEntropy: null, bppActual: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });
         shown.push([`${p.codec} q=${p.quality}`, '', '', fmt.bpp(p.bpp), fmt.mse(p.mse), fmt.psnr(p.psnr), fmt.ssim(p.ssim)]);
       }
     }
   } finally {
     evalBar.done();
   }
-  const csv = [CURVE_HEADER.join(','), ...rows.map((r) => r.join(','))].join('\n') + '\n';
-  await writeOutputsAtomically([{ path: out, data: csv }]);
+  await writeOutputsAtomically([{ path: out, data: curveCsv(rows) }]);
   ctx.stdout.write(table(['point', 'bpp fixed', 'bpp entropy', 'bpp actual', 'MSE', 'PSNR', 'SSIM'], shown) + `wrote ${out}\n`);
 }

@@ -12,7 +12,7 @@ import { fmt, jsonLine, table } from '../text-output';
 
 export const TRAIN_HELP = `Usage: cellwright train (--vectors FILE.npy | --images DIR --patch WxH) --bits B --out CODEBOOK.json [options]
 
-Trains a codebook of 2^B codewords with the generalized Lloyd algorithm and writes it as codebook JSON.
+Trains a codebook of 2^B codewords with the generalised Lloyd algorithm and writes it as codebook JSON.
 
 Input (one of):
   --vectors FILE.npy    training vectors, a float32/float64 little-endian C-order .npy array (N × d; 1-D is N × 1)
@@ -21,16 +21,17 @@ Image options:
   --patch WxH           patch width × height in pixels, each ${PATCH_SIDE.min}..${PATCH_SIDE.max} (also allowed with --vectors, to record the geometry)
   --stride S            step between training patches in pixels (default: the patch size, non-overlapping)
   --color luma|rgb      luma (BT.601, default) or rgb (R,G,B interleaved per pixel)
-  --mean-bits M         mean-removed VQ: code each block mean with M bits (1..${MEAN_BITS.max}), quantize the residual
-  --max-vectors N       vector cap: train on at most N vectors (${VECTOR_CAP.min}..${VECTOR_CAP.max}), drawn at random (seeded)
-                        across images in proportion to area (--sample N is the same option, its older name)
+  --mean-bits M         mean-removed VQ: code each block mean with M bits (1..${MEAN_BITS.max}), quantise the residual
+  --vector-cap N        the vector cap (the studio's "Vector cap"): train on at most N vectors (${VECTOR_CAP.min}..${VECTOR_CAP.max}),
+                        drawn at random (seeded) across images in proportion to area (default: every patch);
+                        --max-vectors N and --sample N are the same option under its older names
 Training:
   --bits B              codebook size 2^B, B from ${BITS.min} to ${BITS.max} (required)
   --init METHOD         ${INIT_METHODS.map((m) => `${m}: ${INIT_LABELS[m]}${m === RUN_DEFAULTS.init ? ' (default)' : ''}, ${INIT_HINTS[m]}`).join('\n                        ')}
   --epsilon E           stop when the relative drop in distortion is below E, ${EPSILON.min}..${EPSILON.max} (default ${RUN_DEFAULTS.epsilon});
                         training also stops when the distortion no longer drops
-  --max-iterations N    at most N Lloyd iterations per codebook size, ${ITERATIONS.min}..${ITERATIONS.max} (default ${RUN_DEFAULTS.maxIterations});
-                        --max-iter N is the same option, its older name
+  --max-iterations N    the maximum iterations (the studio's "Maximum iterations"): at most N Lloyd iterations per
+                        codebook size, ${ITERATIONS.min}..${ITERATIONS.max} (default ${RUN_DEFAULTS.maxIterations}); --max-iter N is the same option, its older name
   --seed N              random seed, ${SEED.min}..${SEED.max} (default ${RUN_DEFAULTS.seed})
   --threads N           worker threads (default: all cores the engine may use)
 Output:
@@ -43,6 +44,7 @@ export const imageOptionSpec: OptionSpec = {
   stride: { type: 'string' },
   color: { type: 'string' },
   'mean-bits': { type: 'string' },
+  'vector-cap': { type: 'string' },
   'max-vectors': { type: 'string' },
   sample: { type: 'string' },
 };
@@ -76,10 +78,11 @@ export interface TrainingSettings {
   threads?: number;
 }
 
-/** The option to read of a name and its older alias; giving both is refused rather than one silently winning. */
-function aliased(values: ParsedOptions, name: string, alias: string): string {
-  if (values[name] !== undefined && values[alias] !== undefined) throw new CliUsageError(`--${alias} is the older name of --${name}; give one of them`);
-  return values[alias] !== undefined ? alias : name;
+/** The option to read of a name and its older names; giving two of them is refused rather than one silently winning. */
+export function aliased(values: ParsedOptions, name: string, ...older: string[]): string {
+  const given = [name, ...older].filter((n) => values[n] !== undefined);
+  if (given.length > 1) throw new CliUsageError(`--${given.slice(1).join(' and --')} ${given.length > 2 ? 'are older names' : 'is the older name'} of --${name}; give one of them`);
+  return given[0] ?? name;
 }
 
 export function trainingSettings(values: ParsedOptions): TrainingSettings {
@@ -99,7 +102,7 @@ export function imageSettings(values: ParsedOptions) {
     patch: patchText === undefined ? undefined : parsePatchShape(patchText),
     color: choiceOption(values, 'color', COLOR_MODES) ?? RUN_DEFAULTS.color,
     stride: intOption(values, 'stride', { min: 1, max: 1 << 16 }),
-    sample: intOption(values, aliased(values, 'max-vectors', 'sample'), VECTOR_CAP),
+    sample: intOption(values, aliased(values, 'vector-cap', 'max-vectors', 'sample'), VECTOR_CAP),
     preprocessing: (meanBits === undefined ? { kind: 'none' } : { kind: 'mean-removed', meanBits }) as PreprocessingInfo,
   };
 }
@@ -125,7 +128,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
   let patch: PatchInfo | null = null;
   let source: string;
   if (vectorsPath !== undefined) {
-    for (const name of ['stride', 'mean-bits', 'max-vectors', 'sample'] as const) {
+    for (const name of ['stride', 'mean-bits', 'vector-cap', 'max-vectors', 'sample'] as const) {
       if (values[name] !== undefined) throw new CliUsageError(`--${name} applies to --images, not --vectors`);
     }
     const npy = await loadVectors(vectorsPath);

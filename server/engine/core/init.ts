@@ -1,4 +1,4 @@
-import { EngineError, abortError } from './errors';
+import { abortError } from './errors';
 import { exactDistance } from './exact-distance';
 import type { Rng } from './rng';
 
@@ -9,8 +9,10 @@ const sameVector = (vectors: Float32Array, d: number, a: number, b: number) => {
 
 /**
  * K distinct training vectors in the order drawn: a seeded partial Fisher–Yates shuffle of
- * the indices, skipping any vector equal to one already taken. The caller has checked that
- * at least K distinct vectors exist, so the loop ends.
+ * the indices, skipping any vector equal to one already taken. Precondition, checked once at
+ * the engine's entry (train(): ENGINE_TOO_FEW_DISTINCT_VECTORS): at least K distinct vectors
+ * exist, so K are found before the shuffle runs out. Every write stays inside `out` whatever
+ * the input, so no check is repeated here.
  * Returns codewords K × d, row-major.
  */
 export function initRandom(vectors: Float32Array, d: number, k: number, rng: Rng): Float32Array {
@@ -29,9 +31,6 @@ export function initRandom(vectors: Float32Array, d: number, k: number, rng: Rng
     if (chosen.some((u) => sameVector(vectors, d, u, v))) continue;
     out.set(vectors.subarray(v * d, (v + 1) * d), chosen.length * d);
     chosen.push(v);
-  }
-  if (chosen.length < k) {
-    throw new EngineError('ENGINE_TOO_FEW_DISTINCT_VECTORS', `only ${chosen.length} distinct vectors for ${k} codewords`);
   }
   return out;
 }
@@ -171,11 +170,11 @@ export async function initKmeansPlusPlus(
       lastYield = performance.now();
     }
     if (signal?.aborted) throw abortError(signal);
+    // total > 0: train() checked at the entry that at least K distinct vectors exist, and each
+    // pick is a vector at positive distance from every earlier one (minDist 0 is skipped), so
+    // fewer than K picks leave a vector at positive distance. No check is repeated here.
     let total = 0;
     for (let v = 0; v < n; v++) total += minDist[v];
-    if (!(total > 0)) {
-      throw new EngineError('ENGINE_TOO_FEW_DISTINCT_VECTORS', `only ${c} distinct vectors for ${k} codewords`);
-    }
     const target = rng.next() * total;
     let acc = 0;
     pick = -1;

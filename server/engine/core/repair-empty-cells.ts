@@ -26,6 +26,9 @@ export function repairEmptyCells(
         donor = c;
       }
     }
+    // Not a repeat of the entry's input checks: with K distinct vectors this is reached only when float64 rounding has
+    // cleared a donor's recorded error (the Math.max below) while it still holds distinct vectors, a state of the
+    // numbers, not of the input. Without it `pick` stays −1 and the cell would be counted as used with no vector in it.
     if (donor < 0) {
       throw new EngineError(
         'ENGINE_TOO_FEW_DISTINCT_VECTORS',

@@ -8,7 +8,8 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { main } from '../../../server/cli/main';
 import type { CliContext } from '../../../server/cli/context';
 import {
-  decodeImage, evaluate, imagesToTrainingVectors, parseCodebookJson, readNpy, shutdownEngineWorkers, trainCodebooks, writeNpy,
+  CURVE_CSV_COLUMNS, decodeImage, evaluate, EXACT, IMAGE_CSV_COLUMNS, imagesToTrainingVectors, parseCodebookJson, readNpy, shutdownEngineWorkers,
+  trainCodebooks, writeNpy,
 } from '../../../server/engine';
 
 const run = promisify(execFile);
@@ -119,6 +120,33 @@ describe('cellwright eval', () => {
     expect(json.usage.reduce((a: number, b: number) => a + b, 0)).toBe(10 * 8 + 6 * 5);
   });
 
+  it('writes the per-image CSV with the engine per-image columns (those of the studio download) and the figures of --json', async () => {
+    const r = await cli('eval', '--codebook', p('out', 'cb.json'), '--images', p('held'), '--json', '--csv', p('out', 'per-image.csv'));
+    expect(r.stderr).toBe('');
+    const json = JSON.parse(r.stdout);
+    const text = readFileSync(p('out', 'per-image.csv'), 'utf8');
+    expect(text.endsWith('\r\n')).toBe(true);
+    const [header, ...rows] = text.slice(0, -2).split('\r\n').map((l) => l.split(','));
+    expect(header).toEqual([...IMAGE_CSV_COLUMNS]);
+    const col = (name: (typeof IMAGE_CSV_COLUMNS)[number]) => IMAGE_CSV_COLUMNS.indexOf(name);
+    expect(rows.map((c) => [c[col('codebook')], c[col('bits')], c[col('codebook_size')], c[col('image')], c[col('width_px')], c[col('height_px')]])).toEqual([
+      ['cb.json', '4', '16', 'c.png', '37', '29'],
+      ['cb.json', '4', '16', 'd.png', '24', '19'],
+    ]);
+    rows.forEach((c, i) => {
+      const m = json.perImage[i];
+      expect([c[col('coded_bytes')], c[col('bpp_fixed')], c[col('bpp_entropy')], c[col('bpp_actual')], c[col('mse')], c[col('psnr_db')], c[col('ssim')]].map(Number))
+        .toEqual([m.bytes, m.bppFixed, m.bppEntropy, m.bppActual, m.mse, m.psnr, m.ssim]);
+    });
+  });
+
+  it('refuses --csv with --vectors, since the CSV holds per-image figures', async () => {
+    const r = await cli('eval', '--codebook', p('out', 'v.json'), '--vectors', p('v.npy'), '--csv', p('out', 'v.csv'));
+    expectOneErrorLine(r, /--csv writes per-image figures; it needs --images/);
+    expect(r.status).toBe(2);
+    expect(existsSync(p('out', 'v.csv'))).toBe(false);
+  });
+
   it('reports MSE and rates, without PSNR or SSIM, for vectors', async () => {
     const r = await cli('eval', '--codebook', p('out', 'v.json'), '--vectors', p('v.npy'), '--json');
     expect(r.stderr).toBe('');
@@ -131,7 +159,7 @@ describe('cellwright eval', () => {
     expect(json).not.toHaveProperty('ssim');
   });
 
-  it('shows ∞ in text and null in JSON when the codebook reproduces the images exactly', async () => {
+  it('shows ∞ (exact) in text, null in JSON and inf in CSV when the codebook reproduces the images exactly', async () => {
     // Two flat 4×4 block values, aligned with the grid: two codewords reproduce every block exactly, so MSE = 0.
     const pix = Buffer.alloc(16 * 16, 0).map((_, i) => (Math.floor((i % 16) / 4) + Math.floor(i / 64)) % 2 ? 200 : 20);
     mkdirSync(p('exact'));
@@ -139,8 +167,10 @@ describe('cellwright eval', () => {
     expect((await cli('train', '--images', p('exact'), '--patch', '4x4', '--bits', '1', '--out', p('out', 'e.json'))).status).toBe(0);
     const json = JSON.parse((await cli('eval', '--codebook', p('out', 'e.json'), '--images', p('exact'), '--json')).stdout);
     expect(json).toMatchObject({ mse: 0, psnr: null, ssim: 1 });
-    const text = (await cli('eval', '--codebook', p('out', 'e.json'), '--images', p('exact'))).stdout;
-    expect(text).toMatch(/∞/);
+    const text = (await cli('eval', '--codebook', p('out', 'e.json'), '--images', p('exact'), '--csv', p('out', 'exact.csv'))).stdout;
+    expect(text).toContain(EXACT.text);
+    const [header, row] = readFileSync(p('out', 'exact.csv'), 'utf8').split('\r\n').map((l) => l.split(','));
+    expect(row[header.indexOf('psnr_db')]).toBe('inf');
   });
 });
 
@@ -164,20 +194,25 @@ describe('cellwright encode and decode', () => {
 
 describe('cellwright sweep', () => {
   it('writes a CSV whose header carries units, one row per codebook size and per codec quality', async () => {
-    const r = await cli('sweep', '--images', p('train'), '--heldout', p('held'), '--patch', '4x4', '--bits', '1..3', '--baseline', 'jpeg,webp', '--qualities', '20,80', '--out', p('out', 'curve.csv'));
+    const r = await cli('sweep', '--images', p('train'), '--held-out', p('held'), '--patch', '4x4', '--bits', '1..3', '--baseline', 'jpeg,webp', '--qualities', '20,80', '--out', p('out', 'curve.csv'));
     expect(r.stderr).toBe('');
     expect(r.status).toBe(0);
-    const lines = readFileSync(p('out', 'curve.csv'), 'utf8').trim().split('\n');
-    expect(lines[0]).toBe('codec,bits,codebook_size,quality,bpp_fixed,bpp_entropy,bpp_actual,mse,psnr_db,ssim');
+    const text = readFileSync(p('out', 'curve.csv'), 'utf8');
+    // RFC 4180 §2 rule 1: every record ends with CRLF; the header is the engine's curve columns, the studio's too.
+    expect(text.endsWith('\r\n')).toBe(true);
+    const lines = text.slice(0, -2).split('\r\n');
+    expect(lines[0]).toBe('codec,codebook,bits,codebook_size,quality,bpp_fixed,bpp_entropy,bpp_actual,mse,psnr_db,ssim');
+    expect(lines[0]).toBe(CURVE_CSV_COLUMNS.join(','));
     const rows = lines.slice(1).map((l) => l.split(','));
-    expect(rows.map((c) => `${c[0]}:${c[2] || c[3]}`)).toEqual(['vq:2', 'vq:4', 'vq:8', 'jpeg:20', 'jpeg:80', 'webp:20', 'webp:80']);
+    const col = (name: (typeof CURVE_CSV_COLUMNS)[number]) => CURVE_CSV_COLUMNS.indexOf(name);
+    expect(rows.map((c) => `${c[col('codec')]}:${c[col('codebook_size')] || c[col('quality')]}`)).toEqual(['vq:2', 'vq:4', 'vq:8', 'jpeg:20', 'jpeg:80', 'webp:20', 'webp:80']);
     // Fixed rate of b bits per 16-pixel block is b/16 bpp.
-    expect(rows.slice(0, 3).map((c) => Number(c[4]))).toEqual([1 / 16, 2 / 16, 3 / 16]);
+    expect(rows.slice(0, 3).map((c) => Number(c[col('bpp_fixed')]))).toEqual([1 / 16, 2 / 16, 3 / 16]);
     // LBG (split) passes through every smaller size, so the K = 8 row is the codebook `train --bits 3` makes with the
     // same seed, and its figures are what `eval` reports for it.
     expect((await cli('train', '--images', p('train'), '--patch', '4x4', '--bits', '3', '--out', p('out', 'k8.json'))).status).toBe(0);
     const k8 = JSON.parse((await cli('eval', '--codebook', p('out', 'k8.json'), '--images', p('held'), '--json')).stdout);
-    expect(rows[2].slice(4, 10).map(Number)).toEqual([k8.bppFixed, k8.bppEntropy, k8.bppActual, k8.mse, k8.psnr, k8.ssim]);
+    expect(rows[2].slice(col('bpp_fixed'), col('ssim') + 1).map(Number)).toEqual([k8.bppFixed, k8.bppEntropy, k8.bppActual, k8.mse, k8.psnr, k8.ssim]);
   });
 });
 

@@ -23,11 +23,6 @@ describe('initRandom', () => {
     const training = new Set(rowsOf(vectors, d));
     for (const p of picked) expect(training.has(p)).toBe(true);
   });
-
-  it('fails clearly when there are fewer distinct vectors than K', () => {
-    const vectors = new Float32Array([1, 1, 1, 2, 2, 2]);
-    expect(() => initRandom(vectors, 1, 3, createRng(1))).toThrow(/distinct/);
-  });
 });
 
 describe('initKmeansPlusPlus', () => {

@@ -5,7 +5,7 @@ import type { CliContext } from '../../../server/cli/context';
 import { createRunBody, normalizedRunConfig, splitImageSetBody } from '../../../server/contracts';
 import { codebookDocumentSchema } from '../../../server/engine';
 import {
-  BITS, EPSILON, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, patchPositions,
+  BITS, EPSILON, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, SETTING_LABELS, VECTOR_CAP, patchPositions,
 } from '../../../server/engine/vocabulary';
 
 async function cli(...argv: string[]): Promise<{ status: number; stderr: string }> {
@@ -65,15 +65,22 @@ describe('the run vocabulary', () => {
     expect(refused.stderr).toContain(`--seed must be an integer from ${SEED.min} to ${SEED.max}`);
   });
 
-  it('names the vector cap and the iteration limit as the studio does, keeping the older CLI names', async () => {
-    expect(TRAIN_HELP).toContain('--max-vectors N       vector cap');
-    expect(TRAIN_HELP).toContain('--max-iterations N');
-    const both = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--max-vectors', '500', '--sample', '500');
-    expect(both.stderr).toContain('--sample is the older name of --max-vectors');
+  it('names the vector cap and the maximum iterations as the studio does, keeping the older CLI names', async () => {
+    expect(TRAIN_HELP).toContain(`--vector-cap N        the vector cap (the studio's "${SETTING_LABELS.maxVectors}")`);
+    expect(TRAIN_HELP).toContain(`--max-iterations N    the maximum iterations (the studio's "${SETTING_LABELS.maxIterations}")`);
+    expect(TRAIN_HELP).toContain('--max-vectors N and --sample N are the same option under its older names');
+    const both = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--vector-cap', '500', '--sample', '500');
+    expect(both.stderr).toContain('--sample is the older name of --vector-cap');
+    const three = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--vector-cap', '500', '--max-vectors', '500', '--sample', '500');
+    expect(three.stderr).toContain('--max-vectors and --sample are older names of --vector-cap');
+    const cap = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--vector-cap', String(VECTOR_CAP.max + 1));
+    expect(cap.stderr).toContain(`--vector-cap must be an integer from ${VECTOR_CAP.min} to ${VECTOR_CAP.max}`);
     const low = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--sample', String(VECTOR_CAP.min - 1));
     expect(low.stderr).toContain(`--sample must be an integer from ${VECTOR_CAP.min} to ${VECTOR_CAP.max}`);
     const onVectors = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--max-vectors', '500');
     expect(onVectors.stderr).toContain('--max-vectors applies to --images, not --vectors');
+    const heldOut = await cli('sweep', '--images', 'a', '--held-out', 'b', '--heldout', 'b', '--patch', '4x4', '--bits', '1..2', '--out', 'x.csv');
+    expect(heldOut.stderr).toContain('--heldout is the older name of --held-out');
     const iterations = await cli('train', '--vectors', 'none.npy', '--bits', '1', '--out', 'x.json', '--max-iterations', String(ITERATIONS.max + 1));
     expect(iterations.stderr).toContain(`--max-iterations must be an integer from ${ITERATIONS.min} to ${ITERATIONS.max}`);
   });

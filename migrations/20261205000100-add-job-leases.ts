@@ -8,11 +8,14 @@ import type { Knex } from 'knex';
 export async function up(knex: Knex): Promise<void> {
   await knex.schema.alterTable('jobs', (t) => {
     t.specificType('lease_token', 'CHAR(32)').nullable().after('attempts');
+    // Which workers computed the job's tasks ([{ workerId, host }]), written with its results; shown on the run page.
+    t.json('served_by').nullable().after('lease_token');
   });
 }
 
 export async function down(knex: Knex): Promise<void> {
   await knex.schema.alterTable('jobs', (t) => {
+    t.dropColumn('served_by');
     t.dropColumn('lease_token');
   });
 }

@@ -1,3 +1,4 @@
+import { hostname } from 'node:os';
 import { appVersion, createLogger, type Config, type Logger } from './config';
 import { createDatabase, type Database } from './db';
 import {
@@ -29,6 +30,9 @@ import { createSpool } from './storage/spool';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/evaluation-tasks';
+import { createComputeClient } from './jobs/compute/client';
+import { executeComputeTask } from './jobs/compute/execute';
+import { createComputeWorker } from './jobs/compute/worker';
 import { createJobDispatch } from './jobs/dispatch';
 import { createJobStore } from './jobs/job-store';
 import { createJobNotifier } from './jobs/notifications';
@@ -102,19 +106,32 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const jobStore = createJobStore(db, { logger });
   const pool = createTaskPool({ maxThreads: config.jobConcurrency, maxHeapMb: config.jobTaskMaxHeapMb });
   const training = { maxBytes: config.trainingMaxBytes, engineThreads: config.engineThreads };
-  const jobDeps: JobDeps = { db, store: contentStore, pool, bus, logger, training, runEvaluationTask: evaluationTaskRunner(pool) };
+  const computeKeyPrefix = `cw:${config.db.database}`;
+  const compute = createComputeClient({ redisUrl: config.redis.url, prefix: computeKeyPrefix, logger });
+  const jobDeps: JobDeps = { db, store: contentStore, compute, bus, logger, training };
+  // The studio's own worker reads originals straight from its content store; a worker that joined fetches them.
+  const localWorker = () =>
+    createComputeWorker({
+      redisUrl: config.redis.url,
+      prefix: computeKeyPrefix,
+      identity: { workerId: `${hostname()}-${process.pid}-studio`, host: hostname(), threads: config.engineThreads },
+      leaseMs: config.jobQueue.leaseMs,
+      logger,
+      execute: (task, ctx) => executeComputeTask(task, { ...ctx, pool, resolveImage: async (image) => contentStore.path(image.sha256) }),
+    });
   const runner = createJobRunner({
     store: jobStore,
     // One studio is one database: its name keeps the queues of studios (and test databases) sharing a Redis apart.
     dispatch: () =>
       createJobDispatch({
         redisUrl: config.redis.url,
-        prefix: `cw:${config.db.database}`,
+        prefix: computeKeyPrefix,
         leaseMs: config.jobQueue.leaseMs,
         concurrency: config.jobConcurrency,
         logger,
       }),
     reconcileMs: config.jobQueue.reconcileMs,
+    localWorker: config.workerInServer ? localWorker : undefined,
     bus,
     handlers: jobHandlers,
     logger,
@@ -147,6 +164,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();
+      await compute.close();
       await storeSweeper.stop();
       await pool.destroy();
       await reconstructionPool.destroy();

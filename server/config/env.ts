@@ -116,6 +116,8 @@ const schema = z.object({
   REDIS_URL: z.string().url().optional(),
   REDIS_PORT: z.coerce.number().int().min(1).max(65535).default(6407),
   JOB_CONCURRENCY: z.coerce.number().int().min(1).default(1),
+  // The studio computes tasks itself (a worker of its own) unless this is false: then only workers that joined do.
+  WORKER_IN_SERVER: flag(true),
   // How long a job's lock in the queue lasts without renewal before another process may take the job over: the
   // time a stopped server or worker holds its jobs. Renewed at half this while the holder lives.
   JOB_LEASE_MS: z.coerce.number().int().min(2_000).max(600_000).default(30_000),
@@ -196,6 +198,8 @@ export interface Config {
   readonly redis: { readonly url: string };
   /** The job engine's lease (lock) duration and how often rows are reconciled with the queue. */
   readonly jobQueue: { readonly leaseMs: number; readonly reconcileMs: number };
+  /** Whether this server runs a compute worker of its own. */
+  readonly workerInServer: boolean;
   /** Old-generation heap limit of each job pool thread, in MiB. */
   readonly jobTaskMaxHeapMb: number;
   readonly engineThreads: number;
@@ -299,6 +303,7 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     jobConcurrency: e.JOB_CONCURRENCY,
     redis: { url: e.REDIS_URL ?? `redis://127.0.0.1:${e.REDIS_PORT}` },
     jobQueue: { leaseMs: e.JOB_LEASE_MS, reconcileMs: e.JOB_RECONCILE_MS },
+    workerInServer: e.WORKER_IN_SERVER,
     jobTaskMaxHeapMb: e.JOB_TASK_MAX_HEAP_MB,
     engineThreads: e.ENGINE_THREADS ?? availableParallelism(),
     trainingMaxBytes: e.TRAINING_MAX_BYTES,

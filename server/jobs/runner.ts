@@ -1,6 +1,7 @@
 import { randomUUID } from 'node:crypto';
 import type { Logger } from '../config';
 import { jobInputs, type JobKind, type JobProgress, type JobState } from '../contracts';
+import type { ComputeWorker } from './compute/worker';
 import type { JobDispatch } from './dispatch';
 import type { JobEvent, JobEventBus } from './events';
 import { JobCancelledError, LeaseLostError, type Job, type JobStore, type Transition } from './queue';
@@ -20,6 +21,8 @@ export interface RunnerOptions {
   progressIntervalMs?: number;
   /** How often the rows still to be done are checked against what the queue holds (JOB_RECONCILE_MS). */
   reconcileMs?: number;
+  /** This process's own compute worker, started and stopped with the runner (none: only workers that joined compute). */
+  localWorker?: () => ComputeWorker;
   /** Called after a job reached a terminal state; failures are logged, never rethrown. */
   onFinished?: (job: Job, state: JobState, error: string | null) => Promise<void>;
 }
@@ -95,6 +98,7 @@ export function createJobRunner(options: RunnerOptions): JobRunner {
   const origin = randomUUID();
   const active = new Map<number, Active>();
   let dispatch: JobDispatch | undefined;
+  let worker: ComputeWorker | undefined;
   let stopping = false;
   let heartbeatTimer: NodeJS.Timeout | undefined;
   let reconcileTimer: NodeJS.Timeout | undefined;
@@ -297,6 +301,8 @@ export function createJobRunner(options: RunnerOptions): JobRunner {
         }),
       );
       unsubscribe.push(bus.onJobQueued(() => scheduleReconcile()));
+      worker = options.localWorker?.();
+      await worker?.start();
       const added = await reconcile();
       if (added.length > 0) logger.info({ jobs: added }, 'jobs the queue did not hold were handed to it again');
       await d.start(deliver);
@@ -319,6 +325,8 @@ export function createJobRunner(options: RunnerOptions): JobRunner {
       for (const id of active.keys()) abort(id, 'shutdown');
       await Promise.all([...active.values()].map((a) => a.done));
       await reconciling?.catch(() => undefined);
+      await worker?.stop();
+      worker = undefined;
       await d.stop();
       dispatch = undefined;
     },

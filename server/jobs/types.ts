@@ -1,22 +1,20 @@
 import type { Logger } from '../config';
 import type { JobInput, JobKind, JobProgress } from '../contracts';
 import type { Database, Repositories } from '../db';
-import type { EvaluationTaskRunner } from '../services/task-codebook';
 import type { TrainingLimits } from '../services/training-memory';
 import type { ContentStore } from '../storage/content-store';
 import type { JobEventBus } from './events';
-import type { TaskPool } from './pool';
+import type { ComputeClient } from './compute/client';
 import type { Job } from './queue';
 
 /** What a handler may use: built once by the composition and shared by every job. */
 export interface JobDeps {
   db: Database;
   store: ContentStore;
-  pool: TaskPool;
+  /** Hands compute tasks (training, measuring, reference codecs) to the workers; built once. */
+  compute: ComputeClient;
   bus: JobEventBus;
   logger: Logger;
-  /** Runs an evaluation task (measuring, reference codecs) on the job pool; built once with the pool. */
-  runEvaluationTask: EvaluationTaskRunner;
   /** TRAINING_MAX_BYTES and the engine's threads: a training job checks its run against them again before it starts. */
   training: TrainingLimits;
 }

@@ -15,6 +15,8 @@ export interface JobRecord {
   attempts: number;
   /** The current attempt's lease (null while queued or finished): writes of that attempt must name it. */
   leaseToken: string | null;
+  /** The workers that computed the job's tasks, recorded with its results. */
+  servedBy: { workerId: string; host: string }[] | null;
   cancelRequested: boolean;
   createdBy: number | null;
   createdAt: string;
@@ -44,6 +46,7 @@ interface JobRow {
   error: string | null;
   attempts: number;
   lease_token: string | null;
+  served_by: unknown;
   cancel_requested: number | boolean;
   created_by: number | null;
   created_at: Date;
@@ -64,6 +67,7 @@ const toJob = (r: JobRow): JobRecord => ({
   error: r.error,
   attempts: r.attempts,
   leaseToken: r.lease_token,
+  servedBy: parseJson<{ workerId: string; host: string }[]>(r.served_by),
   cancelRequested: Boolean(r.cancel_requested),
   createdBy: r.created_by,
   createdAt: iso(r.created_at),
@@ -167,6 +171,9 @@ export function jobsRepository(db: Executor) {
         return 'requested';
       }
       return 'finished';
+    },
+    async recordServedBy(id: number, servedBy: { workerId: string; host: string }[]): Promise<void> {
+      await db('jobs').where({ id }).update({ served_by: JSON.stringify(servedBy) });
     },
     /** Ids of the jobs still to be done (queued, or running somewhere), oldest first: what the dispatcher must hold. */
     async pendingIds(): Promise<number[]> {

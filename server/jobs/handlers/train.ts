@@ -1,15 +1,10 @@
 import type { NormalizedRunConfig } from '../../contracts';
-import type { NewCodebook, RunImageRecord, RunRecord } from '../../db';
-import { makeCodebook, sharedVectors, toCodebookDocument, train, trainsEverySize, type IterationStat, type TrainedCodebook } from '../../engine';
+import type { NewCodebook, RunRecord } from '../../db';
+import { makeCodebook, toCodebookDocument, trainsEverySize, type IterationStat } from '../../engine';
 import { runTrainingMemory, trainingMemoryExcess } from '../../services/training-memory';
-import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
-import type { JobContext, JobHandler } from '../types';
-
-const trainingVectorsTask = new URL('../tasks/training-vectors.task.ts', import.meta.url).href;
-
-// Share of the job's progress bar each phase takes; training dominates the time.
-const LOADED = 0.05;
-const TRAINED = 0.97;
+import { TRAINED } from '../compute/execute';
+import type { TrainedSize } from '../compute/tasks';
+import type { JobHandler } from '../types';
 
 interface Pass {
   k: number;
@@ -26,7 +21,7 @@ export function trainingPasses(cfg: Pick<NormalizedRunConfig, 'init' | 'sizes'>)
   return cfg.sizes.map((k) => ({ k, keep: new Set([k]) }));
 }
 
-function toNewCodebook(run: RunRecord, book: TrainedCodebook, path: IterationStat[], vectorCount: number, dimension: number): NewCodebook {
+function toNewCodebook(run: RunRecord, book: TrainedSize, path: IterationStat[], vectorCount: number, dimension: number): NewCodebook {
   const cfg = run.normalized;
   const channels = cfg.color === 'rgb' ? 3 : 1;
   const preprocessing = cfg.meanBits > 0 ? ({ kind: 'mean-removed', meanBits: cfg.meanBits } as const) : ({ kind: 'none' } as const);
@@ -79,21 +74,6 @@ function traceEntry(s: IterationStat): IterationStat {
   return entry;
 }
 
-async function loadVectors(run: RunRecord, images: RunImageRecord[], ctx: JobContext<'train'>): Promise<Float32Array> {
-  const { store, pool } = ctx.deps;
-  const cfg = run.normalized;
-  ctx.progress({ phase: 'loading', fraction: 0, message: `decoding ${images.length} training images` });
-  const input: TrainingVectorsInput = {
-    files: images.map((i) => ({ path: store.path(i.sha256), name: i.fileName, width: i.width, height: i.height })),
-    color: cfg.color,
-    patch: cfg.patch,
-    sample: cfg.maxVectors,
-    seed: cfg.seed,
-    meanBits: cfg.meanBits,
-  };
-  return pool.run<TrainingVectorsInput, Float32Array>(trainingVectorsTask, input, { signal: ctx.signal });
-}
-
 /**
  * Trains every codebook size of a run and writes them all at once: the old set of the run (left by an
  * interrupted attempt) is deleted in the same transaction, so exactly one set exists whatever happened before.
@@ -111,46 +91,32 @@ export const trainHandler: JobHandler<'train'> = async (job, ctx) => {
   const excess = trainingMemoryExcess(runTrainingMemory(cfg, images, ctx.deps.training), ctx.deps.training.maxBytes);
   if (excess) throw new Error(excess.message);
 
-  // The task hands the vectors over in shared memory already: every pass's workers read this one copy.
-  const vectors = sharedVectors(await loadVectors(run, images, ctx));
-  const vectorCount = vectors.length / dimension;
-  ctx.progress({ phase: 'training', fraction: LOADED, message: `${vectorCount} training vectors of ${dimension} components` });
-
-  const passes = trainingPasses(cfg);
-  const totalWeight = passes.reduce((s, p) => s + p.k, 0);
-  let doneWeight = 0;
-  const made: NewCodebook[] = [];
-  for (const pass of passes) {
-    const result = await train(vectors, dimension, {
-      k: pass.k,
+  // The training itself is a compute task: the studio's own worker or one that joined takes it, samples the same
+  // vectors from the same images and seed, and trains every pass.
+  const { result, servedBy } = await ctx.deps.compute.run(
+    {
+      kind: 'train',
+      jobId: job.id,
+      teamId: run.teamId,
+      images: images.map((i) => ({ sha256: i.sha256, name: i.fileName, width: i.width, height: i.height })),
+      dimension,
+      color: cfg.color,
+      patch: cfg.patch,
+      meanBits: cfg.meanBits,
       init: cfg.init,
       epsilon: cfg.epsilon,
       maxIterations: cfg.maxIterations,
+      maxVectors: cfg.maxVectors,
       seed: cfg.seed,
-      signal: ctx.signal,
-      onProgress: (p) => {
-        const within = (doneWeight + p.fraction * pass.k) / totalWeight;
-        ctx.progress({
-          phase: 'training',
-          size: p.size,
-          targetSize: p.targetSize,
-          iteration: p.iteration,
-          distortion: p.distortion,
-          fraction: LOADED + (TRAINED - LOADED) * Math.min(1, within),
-        });
-      },
-    });
-    // Each codebook records the LBG path that led to it: for split, every smaller size first.
-    const path: IterationStat[] = [];
-    for (const book of result.codebooks) {
-      path.push(...book.trace.map(traceEntry));
-      if (pass.keep.has(book.size)) made.push(toNewCodebook(run, book, [...path], vectorCount, dimension));
-    }
-    doneWeight += pass.k;
-  }
+      passes: trainingPasses(cfg).map((p) => ({ k: p.k, keep: [...p.keep] })),
+    },
+    { signal: ctx.signal, progress: (p) => ctx.progress(p) },
+  );
+  const made = result.codebooks.map((book) => toNewCodebook(run, book, book.trace.map(traceEntry), result.vectorCount, dimension));
 
   ctx.progress({ phase: 'saving', fraction: TRAINED, message: `writing ${made.length} codebooks` });
   await ctx.complete(async (tx) => {
+    await tx.jobs.recordServedBy(job.id, [servedBy]);
     await tx.codebooks.deleteForRun(run.id);
     for (const c of made) await tx.codebooks.insert(c);
     await tx.jobs.insert({ teamId: run.teamId, runId: run.id, kind: 'evaluate', createdBy: job.createdBy });

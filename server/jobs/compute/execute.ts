@@ -1,0 +1,87 @@
+import type { JobProgress } from '../../contracts';
+import { train } from '../../engine';
+import type { TaskPool } from '../pool';
+import type { BaselineResultPoint, EvaluateResult, EvaluateTask, TaskImage } from '../tasks/evaluate.task';
+import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
+import type { ComputeTask, ImageRef, TrainOutcome, TrainTask } from './tasks';
+
+const trainingVectorsTask = new URL('../tasks/training-vectors.task.ts', import.meta.url).href;
+const evaluateTask = new URL('../tasks/evaluate.task.ts', import.meta.url).href;
+
+// Share of a training task's progress each phase takes; training dominates the time.
+export const LOADED = 0.05;
+export const TRAINED = 0.97;
+
+export interface ExecuteContext {
+  /** The local path of an original: the content store on the studio, the digest-keyed cache on a remote worker. */
+  resolveImage(image: ImageRef, signal: AbortSignal): Promise<string>;
+  /** Pool threads for decoding and evaluation (they would block the event loop). */
+  pool: TaskPool;
+  signal: AbortSignal;
+  progress(p: JobProgress): void;
+}
+
+async function localImages(images: ImageRef[], ctx: ExecuteContext): Promise<TaskImage[]> {
+  const out: TaskImage[] = [];
+  for (const image of images) {
+    ctx.signal.throwIfAborted();
+    out.push({ path: await ctx.resolveImage(image, ctx.signal), name: image.name, width: image.width, height: image.height });
+  }
+  return out;
+}
+
+/** Samples the run's training vectors (same sample for a given image list and seed wherever it runs) and trains every pass. */
+async function trainTask(task: TrainTask, ctx: ExecuteContext): Promise<TrainOutcome> {
+  ctx.progress({ phase: 'loading', fraction: 0, message: `decoding ${task.images.length} training images` });
+  const files = await localImages(task.images, ctx);
+  const input: TrainingVectorsInput = { files, color: task.color, patch: task.patch, sample: task.maxVectors, seed: task.seed, meanBits: task.meanBits };
+  // The pool thread hands the vectors over in shared memory: every pass's search threads read this one copy.
+  const vectors = await ctx.pool.run<TrainingVectorsInput, Float32Array>(trainingVectorsTask, input, { signal: ctx.signal });
+  const vectorCount = vectors.length / task.dimension;
+  ctx.progress({ phase: 'training', fraction: LOADED, message: `${vectorCount} training vectors of ${task.dimension} components` });
+
+  const totalWeight = task.passes.reduce((s, p) => s + p.k, 0);
+  let doneWeight = 0;
+  const codebooks: TrainOutcome['codebooks'] = [];
+  for (const pass of task.passes) {
+    const result = await train(vectors, task.dimension, {
+      k: pass.k,
+      init: task.init,
+      epsilon: task.epsilon,
+      maxIterations: task.maxIterations,
+      seed: task.seed,
+      signal: ctx.signal,
+      onProgress: (p) => {
+        const within = (doneWeight + p.fraction * pass.k) / totalWeight;
+        ctx.progress({
+          phase: 'training',
+          size: p.size,
+          targetSize: p.targetSize,
+          iteration: p.iteration,
+          distortion: p.distortion,
+          fraction: LOADED + (TRAINED - LOADED) * Math.min(1, within),
+        });
+      },
+    });
+    // Each codebook records the LBG path that led to it: for split, every smaller size first.
+    const path: TrainOutcome['codebooks'][number]['trace'] = [];
+    const keep = new Set(pass.keep);
+    for (const book of result.codebooks) {
+      path.push(...book.trace);
+      if (keep.has(book.size)) {
+        codebooks.push({ size: book.size, codewords: book.codewords, usage: book.usage, cellDistortion: book.cellDistortion, distortion: book.distortion, iterations: book.iterations, trace: [...path] });
+      }
+    }
+    doneWeight += pass.k;
+  }
+  return { vectorCount, codebooks };
+}
+
+/** Runs one compute task where the worker is; the result goes back to the job that asked for it. */
+export async function executeComputeTask(task: ComputeTask, ctx: ExecuteContext): Promise<unknown> {
+  if (task.kind === 'train') return trainTask(task, ctx);
+  const images = await localImages(task.images, ctx);
+  const evaluation: EvaluateTask =
+    task.kind === 'evaluate' ? { op: 'evaluate', codebook: task.codebook, images } : { op: 'baselines', images, color: task.color };
+  return ctx.pool.run<EvaluateTask, EvaluateResult | BaselineResultPoint[]>(evaluateTask, evaluation, { signal: ctx.signal });
+}

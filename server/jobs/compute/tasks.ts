@@ -1,0 +1,113 @@
+import type { ColorMode, IterationStat } from '../../engine';
+import type { InitMethod } from '../../engine/vocabulary';
+import type { BaselineResultPoint, EvaluateResult, TaskCodebook } from '../tasks/evaluate.task';
+
+/**
+ * The compute tasks a job hands to a worker (the server's own or one that joined over the network). A task names
+ * its images by content (SHA-256), never by path: a worker fetches the originals it is granted and caches them by
+ * digest. Tasks and results travel as JSON through the job engine, typed arrays as base64 of their bytes, so a
+ * worker's codewords reach the studio bit for bit.
+ */
+export interface ImageRef {
+  sha256: string;
+  /** For messages only. */
+  name: string;
+  width: number;
+  height: number;
+}
+
+export interface TrainTask {
+  kind: 'train';
+  /** What the task is for, for the workers page and the logs. */
+  jobId: number;
+  teamId: number;
+  images: ImageRef[];
+  dimension: number;
+  color: ColorMode;
+  patch: { width: number; height: number };
+  meanBits: number;
+  init: InitMethod;
+  epsilon: number;
+  maxIterations: number;
+  maxVectors: number;
+  seed: number;
+  /** Largest size of each training pass and the sizes of its output to keep (see trainingPasses). */
+  passes: { k: number; keep: number[] }[];
+}
+
+export interface TrainedSize {
+  size: number;
+  codewords: Float32Array;
+  usage: Uint32Array;
+  cellDistortion: Float64Array;
+  distortion: number;
+  iterations: number;
+  /** The LBG path that led to this size (every smaller size first, for split). */
+  trace: IterationStat[];
+}
+
+export interface TrainOutcome {
+  vectorCount: number;
+  codebooks: TrainedSize[];
+}
+
+export interface EvaluateComputeTask {
+  kind: 'evaluate';
+  jobId: number;
+  teamId: number;
+  codebook: TaskCodebook;
+  images: ImageRef[];
+}
+
+export interface BaselinesComputeTask {
+  kind: 'baselines';
+  jobId: number;
+  teamId: number;
+  images: ImageRef[];
+  color: ColorMode;
+}
+
+export type ComputeTask = TrainTask | EvaluateComputeTask | BaselinesComputeTask;
+
+export type ComputeResult<T extends ComputeTask> = T extends TrainTask ? TrainOutcome : T extends EvaluateComputeTask ? EvaluateResult : BaselineResultPoint[];
+
+/** Who computed a task: shown on the run page and the workers page. */
+export interface ServedBy {
+  workerId: string;
+  host: string;
+}
+
+// ---- the wire form: JSON with typed arrays as tagged base64 ----
+
+type Wire = { $typed: 'f32' | 'f64' | 'u32'; b64: string };
+
+const TAGS = [
+  ['f32', Float32Array],
+  ['f64', Float64Array],
+  ['u32', Uint32Array],
+] as const;
+
+/** JSON.stringify with typed arrays as their bytes in base64 (little-endian, as both ends are). */
+export function toWire(value: unknown): string {
+  return JSON.stringify(value, (_key, v: unknown) => {
+    for (const [tag, Type] of TAGS) {
+      if (v instanceof Type) return { $typed: tag, b64: Buffer.from(v.buffer, v.byteOffset, v.byteLength).toString('base64') } satisfies Wire;
+    }
+    return v;
+  });
+}
+
+export function fromWire<T>(text: string): T {
+  return JSON.parse(text, (_key, v: unknown) => {
+    if (v && typeof v === 'object' && '$typed' in v && 'b64' in v) {
+      const w = v as Wire;
+      const bytes = Buffer.from(w.b64, 'base64');
+      // Copied into a fresh, aligned buffer: the decoded Buffer may sit at any offset of a shared pool.
+      const copy = new Uint8Array(bytes.length);
+      copy.set(bytes);
+      const Type = TAGS.find(([tag]) => tag === w.$typed)![1];
+      return new Type(copy.buffer);
+    }
+    return v;
+  }) as T;
+}

@@ -6,7 +6,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { seabedSet } from '../../server/seed/seabed-tiles';
 import type { TestDatabase } from '../helpers/db';
 import { startPrivateMariaDb } from '../helpers/private-mariadb';
-import { startPrivateRedis, type PrivateRedis } from '../helpers/redis';
+import { startPrivateRedis, type PrivateRedis } from '../helpers/private-redis';
 import { signUpOn, startServer, type StartedServer } from '../helpers/server';
 
 interface Studio {

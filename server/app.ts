@@ -23,6 +23,7 @@ import { compareRouter } from './http/routes/compare';
 import { codebookEvaluationsRouter, runResultsRouter } from './http/routes/curves';
 import type { RouteDeps } from './http/routes/deps';
 import { healthRouter } from './http/routes/health';
+import { internalRouter, teamWorkersRouter } from './http/routes/internal';
 import { imageSetsRouter } from './http/routes/image-sets';
 import { imagesRouter } from './http/routes/images';
 import { invitationsRouter } from './http/routes/invitations';
@@ -153,7 +154,10 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/codebooks', codebookEvaluationsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', reconstructionsRouter(routeDeps));
   app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
+  app.use('/api/teams/:teamId/workers', teamWorkersRouter(routeDeps));
   app.use('/api', apiNotFound);
+  app.use('/internal/v1', internalRouter(routeDeps));
+  app.use('/internal', apiNotFound);
 
   if (config.serveClient) {
     const clientDir = deps.clientDir ?? defaultClientDir;

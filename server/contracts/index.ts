@@ -11,3 +11,4 @@ export * from './codebooks';
 export * from './image-sets';
 export * from './evaluation';
 export * from './compare';
+export * from './workers';

@@ -22,3 +22,4 @@ export * from './store-sweep';
 export * from './training-memory';
 export * from './reconstructions';
 export * from './compute-slots';
+export * from './workers';

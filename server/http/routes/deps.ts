@@ -13,6 +13,7 @@ import type {
   ReconstructionsService,
   RunsService,
   TeamsService,
+  WorkersService,
 } from '../../services';
 import type { RequireTeamRole } from '../middleware/require-team-role';
 import type { TeamEventStreams } from '../middleware/sse';
@@ -32,6 +33,7 @@ export interface Services {
   evaluation: EvaluationService;
   reconstructions: ReconstructionsService;
   comparison: ComparisonService;
+  workers: WorkersService;
 }
 
 export interface RouteDeps extends Services {

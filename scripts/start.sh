@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
-# `npm start`: install what is missing, start MariaDB (and, inside the server, the fake SMTP server)
+# `npm start`: install what is missing, start MariaDB and Redis (and, inside the server, the fake SMTP server)
 # on loopback, migrate, seed, build and serve the studio. Ctrl-C or SIGTERM stops everything it started.
+# With REDIS_URL set, that Redis is used and none is started.
 set -euo pipefail
 root="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
 cd "$root"
@@ -10,12 +11,11 @@ dev=0
 bash scripts/ensure-deps.sh
 export DATA_DIR="${DATA_DIR:-$root/data}"
 export DB_DIR="${DB_DIR:-$DATA_DIR/mariadb}"
+export REDIS_DIR="${REDIS_DIR:-$DATA_DIR/redis}"
 mkdir -p "$DATA_DIR"
 
 started_db=0
-if ! bash scripts/db.sh status 2>/dev/null; then started_db=1; fi
-bash scripts/db.sh start
-
+started_redis=0
 server_pid=""
 vite_pid=""
 cleanup() {
@@ -25,11 +25,19 @@ cleanup() {
     kill -TERM "$server_pid" 2>/dev/null || true
     wait "$server_pid" 2>/dev/null || true
   fi
+  if [ "$started_redis" = 1 ]; then bash scripts/redis.sh stop || true; fi
   if [ "$started_db" = 1 ]; then bash scripts/db.sh stop || true; fi
 }
 trap cleanup EXIT
 trap 'exit 130' INT
 trap 'exit 143' TERM
+
+if ! bash scripts/db.sh status 2>/dev/null; then started_db=1; fi
+bash scripts/db.sh start
+if [ -z "${REDIS_URL:-}" ] && ! bash scripts/redis.sh status 2>/dev/null; then started_redis=1; fi
+bash scripts/redis.sh start
+# The compute workers' token ($DATA_DIR/secrets/worker-token, made once) and how to start a worker.
+node --import tsx scripts/worker-token.ts
 
 if [ "$dev" = 1 ]; then
   export NODE_ENV=development SERVE_CLIENT=false

@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# `npm test`: install what is missing, start a throwaway MariaDB, then type check, lint, build the
+# `npm test`: install what is missing, start a throwaway MariaDB and Redis, then type check, lint, build the
 # client and run every vitest project; stop everything it started. Ends with `N passed, N failed`.
 set -uo pipefail
 root="$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)"
@@ -7,22 +7,32 @@ cd "$root"
 
 bash scripts/ensure-deps.sh || exit 1
 bash scripts/db.sh ensure || exit 1
+bash scripts/redis.sh ensure || exit 1
 bash scripts/ensure-chromium.sh || exit 1
 if [ -f scripts/fetch-test-images.sh ]; then bash scripts/fetch-test-images.sh || exit 1; fi
 
-# Throwaway instance: its own data folder and port, removed afterwards.
+# Throwaway instances: their own data folders and ports, removed afterwards.
 tmp="$(mktemp -d /tmp/cwt.XXXXXX)"
 export DB_DIR="$tmp/db"
 export DB_PORT="$(node scripts/free-port.mjs)"
 export DB_HOST=127.0.0.1 DB_NAME=cellwright_test DB_USER=cellwright DB_PASSWORD="test-$(od -An -N8 -tx1 /dev/urandom | tr -d ' \n')"
 export NODE_ENV=test LOG_LEVEL=silent
+# Tests never use a Redis named by the caller's REDIS_URL: they get their own, whose URL they find in REDIS_URL.
+unset REDIS_URL
+export REDIS_DIR="$tmp/redis"
 cleanup() {
+  # Emptied here: with REDIS_URL set the script leaves a server alone, and this one is ours.
+  REDIS_URL="" bash scripts/redis.sh stop >/dev/null 2>&1 || true
   bash scripts/db.sh stop >/dev/null 2>&1 || true
   rm -rf "$tmp"
 }
 trap cleanup EXIT
 trap 'exit 130' INT TERM
 bash scripts/db.sh start || exit 1
+# Picked once MariaDB holds its port, so the two cannot be handed the same one.
+export REDIS_PORT="$(node scripts/free-port.mjs)"
+bash scripts/redis.sh start || exit 1
+export REDIS_URL="redis://127.0.0.1:$REDIS_PORT"
 
 failed_steps=()
 step() {

@@ -4,6 +4,7 @@ import { isIP } from 'node:net';
 import { availableParallelism } from 'node:os';
 import path from 'node:path';
 import { z } from 'zod';
+import { WORKER_TOKEN_MIN_LENGTH } from './worker-token';
 
 // Environment strings "true"/"1"/"yes" mean on; anything else explicit means off, absent means the default.
 const flag = (fallback: boolean) =>
@@ -75,6 +76,25 @@ const trustProxy = z
     return entries;
   });
 
+/**
+ * Where the job queues live: redis:// or rediss:// (TLS), a host, an optional port, credentials and database number
+ * (the form ioredis reads). Anything else is refused rather than guessed at.
+ */
+const redisUrl = z.string().transform((text, ctx) => {
+  let url: URL | undefined;
+  try {
+    url = new URL(text);
+  } catch {
+    url = undefined;
+  }
+  const database = url?.pathname.replace(/^\//, '') ?? '';
+  if (!url || !['redis:', 'rediss:'].includes(url.protocol) || url.hostname === '' || !/^[0-9]*$/.test(database) || url.search || url.hash) {
+    ctx.addIssue({ code: 'custom', message: `${JSON.stringify(text)} is not a Redis URL (expected redis://[user:password@]host[:port][/database], or rediss:// for TLS)` });
+    return z.NEVER;
+  }
+  return text;
+});
+
 const schema = z.object({
   PORT: port(8420),
   HOST: z.string().min(1).default('127.0.0.1'),
@@ -85,6 +105,11 @@ const schema = z.object({
   DB_NAME: z.string().min(1).max(64).default('cellwright'),
   DB_USER: z.string().min(1).default('cellwright'),
   DB_PASSWORD: z.string().default('cellwright-dev'),
+  // 6379 is a system Redis's port; the private instance keeps clear of it (scripts/redis.sh refuses it too).
+  REDIS_PORT: port(6407).refine((p) => p !== 6379, 'REDIS_PORT must not be 6379, the port of a system Redis; set REDIS_URL to use that one'),
+  REDIS_URL: optionalString.pipe(redisUrl.optional()),
+  WORKER_TOKEN: optionalString.pipe(z.string().min(WORKER_TOKEN_MIN_LENGTH, `WORKER_TOKEN must be at least ${WORKER_TOKEN_MIN_LENGTH} characters`).optional()),
+  WORKER_TOKEN_FILE: optionalString,
   JWT_SECRET: optionalString.pipe(z.string().min(32, 'JWT_SECRET must be at least 32 characters').optional()),
   JWT_TTL_SECONDS: z.coerce.number().int().min(1).default(43_200),
   // Below cost 10 a stolen hash table is cheap to brute-force (OWASP password storage guidance).
@@ -163,6 +188,13 @@ export interface Config {
     readonly user: string;
     readonly password: string;
   };
+  /** The Redis that carries the job queues: REDIS_URL, or the private instance on loopback at REDIS_PORT. */
+  readonly redis: { readonly url: string };
+  /**
+   * The shared secret compute workers register with: WORKER_TOKEN itself when set, otherwise read from (and, by the
+   * studio, created in) `file` (server/config/worker-token.ts).
+   */
+  readonly workerToken: { readonly value?: string; readonly file: string };
   readonly jwt: { readonly secret: string; readonly ttlSeconds: number };
   readonly bcryptCost: number;
   readonly smtp: {
@@ -275,6 +307,12 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     nodeEnv: e.NODE_ENV,
     dataDir,
     db: { host: e.DB_HOST, port: e.DB_PORT, database: e.DB_NAME, user: e.DB_USER, password: e.DB_PASSWORD },
+    // The private instance binds loopback only (scripts/redis.sh); another host is reached through REDIS_URL.
+    redis: { url: e.REDIS_URL ?? `redis://127.0.0.1:${e.REDIS_PORT}` },
+    workerToken: {
+      value: e.WORKER_TOKEN,
+      file: path.resolve(e.WORKER_TOKEN_FILE ?? path.join(dataDir, 'secrets', 'worker-token')),
+    },
     jwt: { secret: e.JWT_SECRET ?? persistentJwtSecret(dataDir), ttlSeconds: e.JWT_TTL_SECONDS },
     bcryptCost: e.BCRYPT_COST,
     smtp: {

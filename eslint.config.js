@@ -42,8 +42,9 @@ function violation(from, target, isPackage) {
     return 'routes call services; they never import the database layer or the engine';
   }
   // One direction between jobs and services: handlers use services, services never reach into jobs. A service may
-  // see only the interfaces it is handed (the queue, the event bus) and the pool tasks' plain data types.
-  const serviceMaySee = ['server/jobs/queue', 'server/jobs/events', 'server/jobs/tasks'];
+  // see only the interfaces it is handed (the queue, the event bus, the worker registry) and the pool tasks' plain
+  // data types.
+  const serviceMaySee = ['server/jobs/queue', 'server/jobs/events', 'server/jobs/tasks', 'server/jobs/compute/registry'];
   if (under(from, 'server/services') && under(target, 'server/jobs') && !serviceMaySee.some((d) => under(target, d))) {
     return 'services never import server/jobs (handlers, runner, pool): they enqueue through the queue interface';
   }

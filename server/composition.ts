@@ -1,5 +1,5 @@
 import { hostname } from 'node:os';
-import { appVersion, createLogger, type Config, type Logger } from './config';
+import { appVersion, createLogger, workerToken, type Config, type Logger } from './config';
 import { createDatabase, type Database } from './db';
 import {
   createAccountsService,
@@ -21,6 +21,7 @@ import {
   createSessionTokens,
   createStoreSweeper,
   createTeamsService,
+  createWorkersService,
   type MailSender,
   type PasswordHasher,
   type StoreSweeper,
@@ -33,6 +34,7 @@ import { evaluationTaskRunner } from './jobs/evaluation-tasks';
 import { createComputeClient } from './jobs/compute/client';
 import { executeComputeTask } from './jobs/compute/execute';
 import { createComputeWorker } from './jobs/compute/worker';
+import { createWorkerRegistry } from './jobs/compute/registry';
 import { createJobDispatch } from './jobs/dispatch';
 import { createJobStore } from './jobs/job-store';
 import { createJobNotifier } from './jobs/notifications';
@@ -149,6 +151,18 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     ...config.reconstructions,
   });
   const comparison = createComparisonService({ db });
+  // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.
+  const workerRegistry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: computeKeyPrefix, currentToken: () => workerToken(config, { create: true }) });
+  const workers = createWorkersService({
+    registry: workerRegistry,
+    prefix: computeKeyPrefix,
+    leaseMs: config.jobQueue.leaseMs,
+    originalPath: async (sha256) => ((await contentStore.has(sha256)) ? contentStore.path(sha256) : null),
+    queueDepth: async () => {
+      const [jobs, tasks] = await Promise.all([runner.depth(), compute.depth()]);
+      return { jobsWaiting: jobs?.waiting ?? 0, jobsRunning: jobs?.active ?? 0, tasksWaiting: tasks.waiting, tasksRunning: tasks.active };
+    },
+  });
   const storeSweeper = createStoreSweeper({ db, store: contentStore, spool, graceMs: config.storeSweep.graceMs, logger });
   return {
     config,
@@ -160,11 +174,12 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     jobs: { store: jobStore, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
     mail,
-    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison },
+    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();
       await compute.close();
+      await workerRegistry.close();
       await storeSweeper.stop();
       await pool.destroy();
       await reconstructionPool.destroy();

@@ -137,9 +137,6 @@ const schema = z.object({
   LOGIN_BACKOFF_MAX_SECONDS: z.coerce.number().int().min(1).max(3600).default(60),
   MAIL_MAX_ATTEMPTS: z.coerce.number().int().min(1).max(50).default(8),
   MAIL_RETRY_BASE_SECONDS: z.coerce.number().int().min(1).default(30),
-  // The job engine's Redis (BullMQ); scripts/redis.sh starts a private one on 127.0.0.1:REDIS_PORT.
-  REDIS_URL: z.string().url().optional(),
-  REDIS_PORT: z.coerce.number().int().min(1).max(65535).default(6407),
   JOB_CONCURRENCY: z.coerce.number().int().min(1).default(1),
   // The studio computes tasks itself (a worker of its own) unless this is false: then only workers that joined do.
   WORKER_IN_SERVER: flag(true),
@@ -226,8 +223,6 @@ export interface Config {
   /** Delivery of queued mail: attempts before giving up, and the first retry delay (doubling, at most an hour). */
   readonly mailQueue: { readonly maxAttempts: number; readonly retryBaseMs: number; readonly retryMaxMs: number };
   readonly jobConcurrency: number;
-  /** The job engine's Redis. */
-  readonly redis: { readonly url: string };
   /** The job engine's lease (lock) duration and how often rows are reconciled with the queue. */
   readonly jobQueue: { readonly leaseMs: number; readonly reconcileMs: number };
   /** Whether this server runs a compute worker of its own. */
@@ -339,7 +334,6 @@ export function loadConfig(source: NodeJS.ProcessEnv = process.env): Config {
     loginBackoff: { freeAttempts: 5, baseMs: 1000, maxMs: e.LOGIN_BACKOFF_MAX_SECONDS * 1000 },
     mailQueue: { maxAttempts: e.MAIL_MAX_ATTEMPTS, retryBaseMs: e.MAIL_RETRY_BASE_SECONDS * 1000, retryMaxMs: 60 * 60 * 1000 },
     jobConcurrency: e.JOB_CONCURRENCY,
-    redis: { url: e.REDIS_URL ?? `redis://127.0.0.1:${e.REDIS_PORT}` },
     jobQueue: { leaseMs: e.JOB_LEASE_MS, reconcileMs: e.JOB_RECONCILE_MS },
     workerInServer: e.WORKER_IN_SERVER,
     jobTaskMaxHeapMb: e.JOB_TASK_MAX_HEAP_MB,

@@ -37,7 +37,8 @@ start() {
   # 6379 is the port of a system Redis; sharing it would mix the studio's queues with whatever else uses it.
   if [ "$REDIS_PORT" = 6379 ]; then say "REDIS_PORT=6379 is the system Redis's port; choose another"; exit 1; fi
   ensure
-  mkdir -p "$REDIS_DIR"
+  # The queues' data (job ids, workers' partial results) is the owner's only, like the rest of DATA_DIR's secrets.
+  mkdir -p -m 700 "$REDIS_DIR"
   if running; then say "already running on 127.0.0.1:$REDIS_PORT"; return 0; fi
   rm -f "$pidfile"
   # Append-only persistence and noeviction are what BullMQ's "Going to production" guide asks for: the queues'

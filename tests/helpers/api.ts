@@ -10,6 +10,7 @@ import { wrapKnex } from '../../server/db';
 import { startFakeSmtpServer, type FakeSmtpServer } from '../../server/mail/fake-smtp-server';
 import { createTestDatabase, type TestDatabase } from './db';
 import { getFreePort } from './ports';
+import { testRedisUrl } from './redis';
 
 export interface TestApp {
   app: Express;
@@ -50,6 +51,7 @@ export async function createTestApp(env: Record<string, string> = {}, options: T
     DB_USER: db.config.user,
     DB_PASSWORD: db.config.password,
     DB_NAME: db.name,
+    REDIS_URL: testRedisUrl(),
     SMTP_HOST: '127.0.0.1',
     SMTP_PORT: String(smtpPort),
     PUBLIC_URL: publicUrl,

@@ -58,8 +58,6 @@ export async function createTestApp(env: Record<string, string> = {}, options: T
     SERVE_CLIENT: 'false',
     LOGIN_RATE_LIMIT: '100000',
     ACCOUNT_RATE_LIMIT: '100000',
-    // The suite's throwaway Redis (scripts/test.sh); each test database gets its own keys on it.
-    ...(process.env.REDIS_URL ? { REDIS_URL: process.env.REDIS_URL } : {}),
     ...env,
   });
   const composition = compose(config, { db: wrapKnex(db.knex), now: options.now, passwords: options.passwords });

@@ -2,7 +2,8 @@
 // line, how to start a worker on this machine or another.
 import { hostname } from 'node:os';
 import { pathToFileURL } from 'node:url';
-import { isLoopbackHost, loadConfig, WorkerTokenError, workerToken, type Config } from '../server/config';
+import { isLoopbackHost, loadConfig, rotateWorkerTokenFile, WorkerTokenError, workerToken, type Config } from '../server/config';
+import { createWorkerRegistry } from '../server/jobs/compute/registry';
 
 /** REDIS_URL as printed: a password is replaced by a placeholder, so it does not end up in terminal logs. */
 export function printableRedisUrl(url: string): string {
@@ -29,9 +30,34 @@ export function workerStartLine(config: Config, publicUrlGiven: boolean): string
   return `[start] to start a compute worker: ${command}${config.workerToken.value !== undefined ? '' : note}`;
 }
 
-function main(): number {
+/**
+ * `npm run worker-token -- rotate`: a new token in the file, and every worker session of this studio ended, so a
+ * leaked token or a retired machine loses access at once; workers holding the new token join again by themselves.
+ */
+async function rotate(config: Config): Promise<number> {
+  if (config.workerToken.value !== undefined) {
+    process.stderr.write('[worker-token] WORKER_TOKEN is set: change it where it is set (and restart the studio); there is no file to rotate\n');
+    return 1;
+  }
+  rotateWorkerTokenFile(config.workerToken.file);
+  const registry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: `cw:${config.db.database}`, currentToken: () => workerToken(config, { create: false }) });
+  try {
+    const ended = await registry.revokeSessions();
+    process.stderr.write(`[worker-token] new token written to ${config.workerToken.file}; ${ended} worker session(s) ended\n`);
+  } finally {
+    await registry.close();
+  }
+  return 0;
+}
+
+async function main(): Promise<number> {
   // No session is signed here; a placeholder keeps the configuration from creating the JWT key file.
   const config = loadConfig({ ...process.env, JWT_SECRET: process.env.JWT_SECRET || 'x'.repeat(32) });
+  if (process.argv[2] === 'rotate') return rotate(config);
+  if (process.argv[2] !== undefined) {
+    process.stderr.write(`[worker-token] unknown command ${JSON.stringify(process.argv[2])}; use no argument (make and show) or "rotate"\n`);
+    return 2;
+  }
   try {
     workerToken(config, { create: true });
   } catch (err) {
@@ -44,4 +70,4 @@ function main(): number {
 }
 
 // Run as a command, not when imported (the tests use the functions).
-if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) process.exit(main());
+if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) void main().then((code) => process.exit(code));

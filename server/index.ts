@@ -3,7 +3,7 @@ import type { Server } from 'node:http';
 import { createApp } from './app';
 import { compose } from './composition';
 import { endAllEventStreams } from './http/middleware/sse';
-import { ConfigError, createLogger, loadConfig } from './config';
+import { ConfigError, createLogger, loadConfig, WorkerTokenError, workerToken } from './config';
 import { startFakeSmtpServer, type FakeSmtpServer } from './mail/fake-smtp-server';
 import { demoPasswordNotice, replacePublishedDemoPasswords, seedDemo } from './seed/demo';
 import { demoContentDeps, seedDemoContent } from './seed/demo-content';
@@ -12,8 +12,10 @@ async function main(): Promise<void> {
   let config;
   try {
     config = loadConfig(process.env);
+    // Workers join with this token: made on the first start (mode 0600), a file open to others refused.
+    workerToken(config, { create: true });
   } catch (err) {
-    process.stderr.write(`${err instanceof ConfigError ? err.message : String(err)}\n`);
+    process.stderr.write(`${err instanceof ConfigError || err instanceof WorkerTokenError ? err.message : String(err)}\n`);
     process.exit(2);
   }
   const logger = createLogger(config.logLevel);

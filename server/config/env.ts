@@ -14,7 +14,7 @@ const flag = (fallback: boolean) =>
     .transform((v) => (v === undefined || v === '' ? fallback : /^(1|true|yes|on)$/i.test(v.trim())));
 
 const port = (fallback: number) => z.coerce.number().int().min(0).max(65535).default(fallback);
-const optionalString = z
+export const optionalString = z
   .string()
   .optional()
   .transform((v) => (v === undefined || v === '' ? undefined : v));
@@ -80,7 +80,7 @@ const trustProxy = z
  * Where the job queues live: redis:// or rediss:// (TLS), a host, an optional port, credentials and database number
  * (the form ioredis reads). Anything else is refused rather than guessed at.
  */
-const redisUrl = z.string().transform((text, ctx) => {
+export const redisUrl = z.string().transform((text, ctx) => {
   let url: URL | undefined;
   try {
     url = new URL(text);

@@ -1,5 +1,5 @@
 import { randomBytes } from 'node:crypto';
-import { chmodSync, mkdirSync, readFileSync, statSync, writeFileSync } from 'node:fs';
+import { chmodSync, mkdirSync, readFileSync, renameSync, statSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import type { Config } from './env';
 
@@ -76,4 +76,19 @@ export function workerToken(config: Pick<Config, 'workerToken'>, options: { crea
     if (errorCode(err) !== 'ENOENT') throw err;
     throw new WorkerTokenError(`worker token file ${file} does not exist: the studio writes it on its first start; copy it here (mode 0600) or set WORKER_TOKEN`);
   }
+}
+
+/**
+ * Replaces the token in `file` with a new one (same modes): registrations with the old token are refused from
+ * now on. Sessions of workers that joined with it are ended separately (the registry's revokeSessions).
+ */
+export function rotateWorkerTokenFile(file: string): string {
+  mkdirSync(path.dirname(file), { recursive: true, mode: 0o700 });
+  const token = randomBytes(32).toString('base64url');
+  // Written aside and renamed over the old file, so no reader ever sees half a token.
+  const partial = `${file}.${randomBytes(6).toString('hex')}.new`;
+  writeFileSync(partial, `${token}\n`, { mode: 0o600, flag: 'wx' });
+  chmodSync(partial, 0o600);
+  renameSync(partial, file);
+  return token;
 }

@@ -36,6 +36,8 @@ export const job = z.object({
   createdAt: z.string(),
   startedAt: z.string().nullable(),
   finishedAt: z.string().nullable(),
+  /** The compute workers that served the job (their id and host), recorded with its results; empty until then. */
+  servedBy: z.array(z.object({ workerId: z.string(), host: z.string() })),
 });
 export type JobSummary = z.infer<typeof job>;
 

@@ -36,6 +36,7 @@ function toJobSummary(j: JobRecord): JobSummary {
     createdAt: j.createdAt,
     startedAt: j.startedAt,
     finishedAt: j.finishedAt,
+    servedBy: j.servedBy ?? [],
   };
 }
 

@@ -111,6 +111,17 @@ describe('what a worker may reach', () => {
     expect(api.status).toBe(401);
   });
 
+  it('refuses malformed registrations with 400 in the error shape, never a 5xx', async () => {
+    const token = await readToken();
+    const bodies = ['{"host":', 'null', '[]', '{"host":"x","threads":"8"}', '{"host":"","threads":1}', '{"host":"x","threads":1e999}', '{"host":"x","threads":1,"extra":true}', `{"host":"${'h'.repeat(1000)}","threads":1}`, '{"__proto__":{"admin":true},"host":"x","threads":1}'];
+    for (const body of bodies) {
+      const res = await internal('/workers', token, { method: 'POST', body });
+      expect(res.status, body).toBe(400);
+      expect(((await res.json()) as { error: { code: string } }).error.code).toBeTypeOf('string');
+    }
+    expect((await internal('/originals/not-a-digest', await readToken())).status).toBe(401);
+  });
+
   it('refuses the old token and ends every worker session once the token is rotated', async () => {
     const old = await readToken();
     const { session } = (await (await register(old)).json()) as { session: string };

@@ -18,6 +18,24 @@ export interface ComputeClient {
   close(): Promise<void>;
 }
 
+/** How often a waiting coordinator checks that its task is still in the queue. */
+const VANISH_CHECK_MS = 1_000;
+
+/**
+ * Resolves once the task is no longer in the queue (finished and removed, or lost with Redis's data), and rejects
+ * with the worker's reason once it failed: either may happen without its event reaching this process (a Redis that
+ * restarted drops the subscription).
+ */
+async function vanished(queue: Queue, jobId: string, signal: AbortSignal): Promise<'vanished'> {
+  for (;;) {
+    await new Promise((resolve) => setTimeout(resolve, VANISH_CHECK_MS).unref());
+    if (signal.aborted) return new Promise<never>(() => undefined);
+    const job = await queue.getJob(jobId).catch(() => 'unknown' as const);
+    if (job === undefined || job === null) return 'vanished';
+    if (job !== 'unknown' && (await job.getState().catch(() => 'unknown')) === 'failed') throw new Error(job.failedReason || 'the task failed');
+  }
+}
+
 export function createComputeClient(options: { redisUrl: string; prefix: string; logger: Logger }): ComputeClient {
   const keys = computeKeys(options.prefix);
   const connection = { url: options.redisUrl, maxRetriesPerRequest: null };
@@ -50,30 +68,43 @@ export function createComputeClient(options: { redisUrl: string; prefix: string;
       signal.throwIfAborted();
       const { queue, events, redis } = await connect();
       const taskId = randomUUID();
+      const jobId = `task-${taskId}`;
       const digests = [...new Set(task.images.map((i) => i.sha256))];
-      // The grant outlives no task by much: it is removed at the end, and expires on its own if this process dies.
-      if (digests.length > 0) await redis.multi().sadd(keys.grant(taskId), ...digests).pexpire(keys.grant(taskId), 24 * 3600_000).exec();
+      const wire = toWire(task);
+      // Granted (again) before each submission: a Redis that lost the task lost its grant with it. The grant
+      // outlives no task by much: it is removed at the end, and expires on its own if this process dies.
+      const submit = async () => {
+        if (digests.length > 0) await redis.multi().sadd(keys.grant(taskId), ...digests).pexpire(keys.grant(taskId), 24 * 3600_000).exec();
+        // A failed task stays until this coordinator has read why (below, then removed); a finished one goes at once.
+        return queue.add('task', { taskId, wire }, { jobId, removeOnComplete: true, removeOnFail: false });
+      };
       progressListeners.set(taskId, progress);
       const onAbort = () => {
         void redis.publish(keys.cancelChannel, taskId).catch(() => undefined);
-        void queue.remove(`task-${taskId}`).catch(() => undefined);
+        void queue.remove(jobId).catch(() => undefined);
       };
       signal.addEventListener('abort', onAbort, { once: true });
+      const aborted = new Promise<never>((_resolve, reject) => {
+        if (signal.aborted) reject(signal.reason);
+        signal.addEventListener('abort', () => reject(signal.reason), { once: true });
+      });
+      aborted.catch(() => undefined);
       try {
-        const job = await queue.add('task', { taskId, wire: toWire(task) }, { jobId: `task-${taskId}`, removeOnComplete: true, removeOnFail: true });
-        const finished = job.waitUntilFinished(events);
-        const aborted = new Promise<never>((_resolve, reject) => {
-          if (signal.aborted) reject(signal.reason);
-          signal.addEventListener('abort', () => reject(signal.reason), { once: true });
-        });
-        await Promise.race([finished, aborted]);
-        const wire = await redis.getdel(keys.result(taskId));
-        if (!wire) throw new Error('the worker finished the task but its result was lost; the job will run again');
-        return fromWire(wire);
+        for (;;) {
+          const job = await submit();
+          const outcome = await Promise.race([job.waitUntilFinished(events).then(() => 'finished' as const), vanished(queue, jobId, signal), aborted]);
+          // Finished, or gone from the queue: a result means it was computed (its event may have been missed);
+          // no result means Redis lost the task, which is then submitted again.
+          const result = await redis.getdel(keys.result(taskId));
+          if (result) return fromWire(result);
+          if (outcome === 'finished') throw new Error('the worker finished the task but its result was lost; the job will run again');
+          options.logger.warn({ taskId, kind: task.kind, jobId: task.jobId }, 'a compute task vanished from Redis; submitting it again');
+        }
       } finally {
         signal.removeEventListener('abort', onAbort);
         progressListeners.delete(taskId);
         await redis.del(keys.grant(taskId)).catch(() => undefined);
+        await queue.remove(jobId).catch(() => undefined);
       }
     },
     async depth() {

@@ -215,6 +215,7 @@ export const routes: RouteCase[] = [
     objectScoped: true,
   },
   { name: 'read the outbox', method: 'GET', path: '/api/teams/:teamId/outbox', access: 'admin', ok: 200, body: 'none', objectScoped: false },
+  { name: 'list compute workers', method: 'GET', path: '/api/teams/:teamId/workers', access: 'admin', ok: 200, body: 'none', objectScoped: false },
   { name: 'list image sets', method: 'GET', path: '/api/teams/:teamId/image-sets', access: 'member', ok: 200, body: 'none', objectScoped: false },
   {
     name: 'create an image set',

@@ -27,7 +27,8 @@ export type RegisterWorkerResponse = z.infer<typeof registerWorkerResponse>;
 export const originalParams = z.object({ sha256: z.string().regex(/^[0-9a-f]{64}$/, 'a SHA-256 digest in lower-case hex') }).strict();
 
 export const workerTask = z.object({
-  kind: z.enum(['train', 'evaluate', 'baselines']),
+  /** Training a run, measuring codebooks on held-out images, or the reference codecs on them. */
+  kind: z.enum(['train', 'measure', 'baselines']),
   /** Null when the job belongs to another team (the page names only the caller's team's jobs). */
   jobId: z.number().int().nullable(),
   since: z.string(),

@@ -51,7 +51,7 @@ export { writeCsv, csvField, CSV_LINE_END } from './io/csv';
 export { bppFixed, entropyBits, indexBits } from './metrics/rate';
 export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';
-export { measuredFigures } from './metrics/evaluate';
+export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
 export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
 
 // ---- entry validation ----

@@ -33,6 +33,17 @@ async function checksums(runId: number): Promise<string[]> {
   return rows.map((r) => r.checksum);
 }
 
+/** Each codebook's pooled figures on the held-out images, by size. */
+async function evaluations(runId: number): Promise<unknown[]> {
+  const rows = (await studio.server.db
+    .knex('evaluations as e')
+    .join('codebooks as c', 'c.id', 'e.codebook_id')
+    .where('c.run_id', runId)
+    .orderBy('c.size')
+    .select('c.size', 'e.overall')) as { size: number; overall: unknown }[];
+  return rows.map((r) => [r.size, typeof r.overall === 'string' ? JSON.parse(r.overall) : r.overall]);
+}
+
 describe('workers that join', () => {
   it('lists the workers that joined with their threads, and runs a job on them', async () => {
     workers.push(await startWorkerProcess(studio.server), await startWorkerProcess(studio.server));
@@ -73,6 +84,8 @@ describe('workers that join', () => {
     expect(done.jobs[0].servedBy.map((w) => w.workerId)).not.toContain(holder);
     // The task was computed again from the start elsewhere: same images, same seed, same codewords to the bit.
     expect(await checksums(runId)).toEqual(await checksums(reference));
+    // Its evaluation was measured in image groups by whichever workers were there, and pools to the same figures.
+    expect(await evaluations(runId)).toEqual(await evaluations(reference));
     // The killed worker leaves the list once its heartbeat lapses (three missed beats).
     let listed = true;
     for (let i = 0; i < 150 && listed; i += 1) {

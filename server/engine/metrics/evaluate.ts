@@ -102,67 +102,89 @@ function meanBitsOf(codebook: Codebook): number {
   return codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
 }
 
-export async function evaluateImages(codebook: Codebook, images: PixelImage[], options: EvaluateOptions = {}): Promise<ImageSetEvaluation> {
-  if (images.length === 0) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'no images to evaluate');
+/**
+ * What measuring one image contributes to a set's figures: its own figures, and the sums the set's are pooled from.
+ * Plain data (typed arrays), so images can be measured on different threads or machines and pooled afterwards.
+ */
+export interface ImageMeasurement {
+  evaluation: ImageEvaluation;
+  /** Sum of squared errors over the image's pixel components, and their number. */
+  sse: number;
+  components: number;
+  /** Blocks per cell (size K) and per mean code (2^meanBits, or 1 without mean removal). */
+  usage: Uint32Array;
+  meanCounts: Uint32Array;
+  /** Squared error per cell in the vector (residual) domain, summed over this image's blocks (size K). */
+  cellDistortion: Float64Array;
+}
+
+/** Measures one image: encodes, decodes, writes the container and takes every figure of it. */
+export async function measureImage(codebook: Codebook, image: PixelImage, options: EvaluateOptions = {}): Promise<ImageMeasurement> {
   if (!codebook.patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook was trained on raw vectors and has no patch geometry, so it cannot code images');
   const patchPixels = codebook.patch.width * codebook.patch.height;
   const meanBits = meanBitsOf(codebook);
-  const fixed = bppFixed(codebook.size, meanBits, patchPixels);
+  const encoded = await encodeImage(codebook, image, options);
+  const recon = reconstruct(codebook, encoded);
+  const container = writeContainer(codebook, encoded);
+  const sse = sumSquaredError(image.pixels, recon);
+  const imagePixels = image.width * image.height;
+  const n = encoded.indices.length;
+  const usage = histogram(encoded.indices, codebook.size);
+  const meanCounts = encoded.meanCodes ? histogram(encoded.meanCodes, 2 ** meanBits) : new Uint32Array(1);
+  const imageMeanEntropy = encoded.meanCodes ? entropyBits(meanCounts) : 0;
+  const cellDistortion = new Float64Array(codebook.size);
+  for (let i = 0; i < n; i += 1) cellDistortion[encoded.indices[i]] += encoded.distances[i];
+  const mse = sse / image.pixels.length;
+  const evaluation: ImageEvaluation = {
+    name: image.name,
+    width: image.width,
+    height: image.height,
+    pixels: imagePixels,
+    blocks: n,
+    mse,
+    psnr: psnrFromMse(mse),
+    ssim: ssimOfImages(image.pixels, recon, image.width, image.height, image.channels),
+    bppFixed: bppFixed(codebook.size, meanBits, patchPixels),
+    bppEntropy: ((entropyBits(usage) + imageMeanEntropy) * n) / imagePixels,
+    bppActual: (container.length * 8) / imagePixels,
+    bytes: container.length,
+  };
+  if (options.keepOutputs) {
+    evaluation.reconstruction = recon;
+    evaluation.container = container;
+  }
+  return { evaluation, sse, components: image.pixels.length, usage, meanCounts, cellDistortion };
+}
+
+/**
+ * Pools image measurements, in the order given, into the set's figures: squared errors and bytes summed, SSIM by
+ * poolSsim, entropy from the summed histograms. Every sum runs image by image in that order, so a set measured on
+ * one thread and the same set measured image by image on several machines pool to the same bits.
+ */
+export function poolImageMeasurements(codebook: Codebook, measurements: readonly ImageMeasurement[]): ImageSetEvaluation {
+  if (measurements.length === 0) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'no images to evaluate');
+  const meanBits = meanBitsOf(codebook);
   const usage = new Uint32Array(codebook.size);
   const cellDistortion = new Float64Array(codebook.size);
   const meanCounts = new Uint32Array(meanBits > 0 ? 2 ** meanBits : 1);
-  const results: ImageEvaluation[] = [];
   let sse = 0;
   let components = 0;
   let pixels = 0;
   let blocks = 0;
   let bytes = 0;
-
-  for (const image of images) {
-    options.signal?.throwIfAborted();
-    const encoded = await encodeImage(codebook, image, options);
-    const recon = reconstruct(codebook, encoded);
-    const container = writeContainer(codebook, encoded);
-    const imageSse = sumSquaredError(image.pixels, recon);
-    const imagePixels = image.width * image.height;
-    const n = encoded.indices.length;
-    const idxHist = histogram(encoded.indices, codebook.size);
-    let imageMeanEntropy = 0;
-    if (encoded.meanCodes) {
-      const mh = histogram(encoded.meanCodes, meanCounts.length);
-      imageMeanEntropy = entropyBits(mh);
-      for (let i = 0; i < mh.length; i += 1) meanCounts[i] += mh[i];
+  for (const m of measurements) {
+    for (let i = 0; i < codebook.size; i += 1) {
+      usage[i] += m.usage[i];
+      cellDistortion[i] += m.cellDistortion[i];
     }
-    for (let i = 0; i < n; i += 1) cellDistortion[encoded.indices[i]] += encoded.distances[i];
-    for (let i = 0; i < idxHist.length; i += 1) usage[i] += idxHist[i];
-    const mse = imageSse / image.pixels.length;
-    const result: ImageEvaluation = {
-      name: image.name,
-      width: image.width,
-      height: image.height,
-      pixels: imagePixels,
-      blocks: n,
-      mse,
-      psnr: psnrFromMse(mse),
-      ssim: ssimOfImages(image.pixels, recon, image.width, image.height, image.channels),
-      bppFixed: fixed,
-      bppEntropy: ((entropyBits(idxHist) + imageMeanEntropy) * n) / imagePixels,
-      bppActual: (container.length * 8) / imagePixels,
-      bytes: container.length,
-    };
-    if (options.keepOutputs) {
-      result.reconstruction = recon;
-      result.container = container;
-    }
-    results.push(result);
-    sse += imageSse;
-    components += image.pixels.length;
-    pixels += imagePixels;
-    blocks += n;
-    bytes += container.length;
-    options.onImage?.(results.length, images.length);
+    if (meanBits > 0) for (let i = 0; i < meanCounts.length; i += 1) meanCounts[i] += m.meanCounts[i];
+    sse += m.sse;
+    components += m.components;
+    pixels += m.evaluation.pixels;
+    blocks += m.evaluation.blocks;
+    bytes += m.evaluation.bytes;
   }
-
+  const results = measurements.map((m) => m.evaluation);
   const indexEntropy = entropyBits(usage);
   const meanEntropy = meanBits > 0 ? entropyBits(meanCounts) : 0;
   const mse = sse / components;
@@ -175,7 +197,7 @@ export async function evaluateImages(codebook: Codebook, images: PixelImage[], o
       mse,
       psnr: psnrFromMse(mse),
       ssim: poolSsim(results),
-      bppFixed: fixed,
+      bppFixed: bppFixed(codebook.size, meanBits, codebook.patch!.width * codebook.patch!.height),
       bppEntropy: ((indexEntropy + meanEntropy) * blocks) / pixels,
       bppActual: (bytes * 8) / pixels,
       bytes,
@@ -185,6 +207,18 @@ export async function evaluateImages(codebook: Codebook, images: PixelImage[], o
     usage,
     cellDistortion,
   };
+}
+
+export async function evaluateImages(codebook: Codebook, images: PixelImage[], options: EvaluateOptions = {}): Promise<ImageSetEvaluation> {
+  if (images.length === 0) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'no images to evaluate');
+  if (!codebook.patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook was trained on raw vectors and has no patch geometry, so it cannot code images');
+  const measurements: ImageMeasurement[] = [];
+  for (const image of images) {
+    options.signal?.throwIfAborted();
+    measurements.push(await measureImage(codebook, image, options));
+    options.onImage?.(measurements.length, images.length);
+  }
+  return poolImageMeasurements(codebook, measurements);
 }
 
 /**

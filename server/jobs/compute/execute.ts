@@ -1,7 +1,8 @@
 import type { JobProgress } from '../../contracts';
 import { train } from '../../engine';
 import type { TaskPool } from '../pool';
-import type { BaselineResultPoint, EvaluateResult, EvaluateTask, TaskImage } from '../tasks/evaluate.task';
+import type { ImageMeasurement } from '../../engine';
+import type { BaselineResultPoint, EvaluateTask, TaskImage } from '../tasks/evaluate.task';
 import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
 import type { ComputeTask, ImageRef, TrainOutcome, TrainTask } from './tasks';
 
@@ -82,6 +83,6 @@ export async function executeComputeTask(task: ComputeTask, ctx: ExecuteContext)
   if (task.kind === 'train') return trainTask(task, ctx);
   const images = await localImages(task.images, ctx);
   const evaluation: EvaluateTask =
-    task.kind === 'evaluate' ? { op: 'evaluate', codebook: task.codebook, images } : { op: 'baselines', images, color: task.color };
-  return ctx.pool.run<EvaluateTask, EvaluateResult | BaselineResultPoint[]>(evaluateTask, evaluation, { signal: ctx.signal });
+    task.kind === 'measure' ? { op: 'measure', codebook: task.codebook, images } : { op: 'baselines', images, color: task.color };
+  return ctx.pool.run<EvaluateTask, ImageMeasurement[] | BaselineResultPoint[]>(evaluateTask, evaluation, { signal: ctx.signal });
 }

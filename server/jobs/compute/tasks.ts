@@ -1,6 +1,7 @@
 import type { ColorMode, IterationStat } from '../../engine';
 import type { InitMethod } from '../../engine/vocabulary';
-import type { BaselineResultPoint, EvaluateResult, TaskCodebook } from '../tasks/evaluate.task';
+import type { ImageMeasurement } from '../../engine';
+import type { BaselineResultPoint, TaskCodebook } from '../tasks/evaluate.task';
 
 /**
  * The compute tasks a job hands to a worker (the server's own or one that joined over the network). A task names
@@ -51,8 +52,9 @@ export interface TrainOutcome {
   codebooks: TrainedSize[];
 }
 
-export interface EvaluateComputeTask {
-  kind: 'evaluate';
+/** Measures a codebook on some of a job's held-out images; the job pools every image's measurement in order. */
+export interface MeasureComputeTask {
+  kind: 'measure';
   jobId: number;
   teamId: number;
   codebook: TaskCodebook;
@@ -67,9 +69,9 @@ export interface BaselinesComputeTask {
   color: ColorMode;
 }
 
-export type ComputeTask = TrainTask | EvaluateComputeTask | BaselinesComputeTask;
+export type ComputeTask = TrainTask | MeasureComputeTask | BaselinesComputeTask;
 
-export type ComputeResult<T extends ComputeTask> = T extends TrainTask ? TrainOutcome : T extends EvaluateComputeTask ? EvaluateResult : BaselineResultPoint[];
+export type ComputeResult<T extends ComputeTask> = T extends TrainTask ? TrainOutcome : T extends MeasureComputeTask ? ImageMeasurement[] : BaselineResultPoint[];
 
 /** Who computed a task: shown on the run page and the workers page. */
 export interface ServedBy {
@@ -80,6 +82,8 @@ export interface ServedBy {
 // ---- the wire form: JSON with typed arrays as tagged base64 ----
 
 type Wire = { $typed: 'f32' | 'f64' | 'u32'; b64: string };
+/** JSON has no spelling for these; PSNR of an exact reconstruction is +∞ in the engine. */
+type WireNumber = { $number: 'Infinity' | '-Infinity' | 'NaN' };
 
 const TAGS = [
   ['f32', Float32Array],
@@ -87,9 +91,10 @@ const TAGS = [
   ['u32', Uint32Array],
 ] as const;
 
-/** JSON.stringify with typed arrays as their bytes in base64 (little-endian, as both ends are). */
+/** JSON.stringify with typed arrays as their bytes in base64 (little-endian, as both ends are) and ±∞/NaN kept. */
 export function toWire(value: unknown): string {
   return JSON.stringify(value, (_key, v: unknown) => {
+    if (typeof v === 'number' && !Number.isFinite(v)) return { $number: String(v) as WireNumber['$number'] } satisfies WireNumber;
     for (const [tag, Type] of TAGS) {
       if (v instanceof Type) return { $typed: tag, b64: Buffer.from(v.buffer, v.byteOffset, v.byteLength).toString('base64') } satisfies Wire;
     }
@@ -99,6 +104,7 @@ export function toWire(value: unknown): string {
 
 export function fromWire<T>(text: string): T {
   return JSON.parse(text, (_key, v: unknown) => {
+    if (v && typeof v === 'object' && '$number' in v) return Number((v as WireNumber).$number);
     if (v && typeof v === 'object' && '$typed' in v && 'b64' in v) {
       const w = v as Wire;
       const bytes = Buffer.from(w.b64, 'base64');

@@ -5,7 +5,7 @@ import type { RunImageRecord } from '../../db/repositories/runs';
 import { heldOutHash } from '../../services/held-out-hash';
 import { toTaskCodebook } from '../../services/task-codebook';
 import type { ImageRef, ServedBy } from '../compute/tasks';
-import type { BaselineResultPoint, EvaluateResult } from '../tasks/evaluate.task';
+import { pooledResult, type BaselineResultPoint } from '../tasks/evaluate.task';
 import type { JobContext, JobHandler } from '../types';
 
 /**
@@ -19,6 +19,17 @@ const BASELINE_WEIGHT = 4;
  * is written in the transaction that marks the job succeeded, so a cancelled or crashed job leaves the earlier
  * results as they were.
  */
+/** Images per measuring task: at most this many groups of consecutive images per codebook, fixed by the list alone. */
+const MEASURE_GROUPS = 8;
+
+function imageGroups(refs: ImageRef[]): ImageRef[][] {
+  const count = Math.min(refs.length, MEASURE_GROUPS);
+  const size = Math.ceil(refs.length / count);
+  const out: ImageRef[][] = [];
+  for (let i = 0; i < refs.length; i += size) out.push(refs.slice(i, i + size));
+  return out;
+}
+
 /** Each worker once, in the order they first served the job. */
 function distinctWorkers(list: ServedBy[]): ServedBy[] {
   const seen = new Map<string, ServedBy>();
@@ -40,24 +51,38 @@ async function measure(
   const servedBy: ServedBy[] = [];
   const task = { signal: ctx.signal, progress: () => undefined };
   const needBaselines = (await db.repos.baselines.count(heldOutHash, color)) === 0;
-  const total = codebooks.length + (needBaselines ? BASELINE_WEIGHT : 0);
   const targetSize = codebooks.reduce((m, c) => Math.max(m, c.size), 0);
-  const results: { codebook: CodebookWithCodewords; result: EvaluateResult }[] = [];
-  for (const [n, codebook] of codebooks.entries()) {
-    ctx.signal.throwIfAborted();
-    ctx.progress({ phase: 'evaluating', size: codebook.size, targetSize, fraction: n / total, message: `codebook of ${codebook.size} on ${images.length} images` });
-    const done = await compute.run({ kind: 'evaluate', jobId, teamId, codebook: toTaskCodebook(codebook), images: refs }, task);
-    servedBy.push(done.servedBy);
-    results.push({ codebook, result: done.result });
-  }
-  let points: BaselineResultPoint[] = [];
-  if (needBaselines) {
-    ctx.signal.throwIfAborted();
-    ctx.progress({ phase: 'baselines', fraction: codebooks.length / total, message: 'reference codecs on the held-out images' });
-    const done = await compute.run({ kind: 'baselines', jobId, teamId, images: refs, color }, task);
-    servedBy.push(done.servedBy);
-    points = done.result;
-  }
+  // Every codebook's images in a few groups, and the reference codecs, all handed out at once: as many workers as
+  // there are share the job. The groups depend on the image list alone, and measurements are pooled in image order,
+  // so the figures are the same bits however many workers took part.
+  const groups = imageGroups(refs);
+  let finished = 0;
+  const taskCount = codebooks.length * groups.length + (needBaselines ? BASELINE_WEIGHT : 0);
+  const tick = (weight = 1) => {
+    finished += weight;
+    ctx.progress({ phase: 'evaluating', targetSize, fraction: Math.min(0.99, finished / taskCount), message: `${codebooks.length} codebooks on ${images.length} images` });
+  };
+  ctx.progress({ phase: 'evaluating', targetSize, fraction: 0, message: `${codebooks.length} codebooks on ${images.length} images` });
+  const measuring = codebooks.map(async (codebook) => {
+    const taskCodebook = toTaskCodebook(codebook);
+    const parts = await Promise.all(
+      groups.map(async (group) => {
+        const done = await compute.run({ kind: 'measure', jobId, teamId, codebook: taskCodebook, images: group }, task);
+        servedBy.push(done.servedBy);
+        tick();
+        return done.result;
+      }),
+    );
+    return { codebook, result: pooledResult(taskCodebook, parts.flat()) };
+  });
+  const referencing = needBaselines
+    ? compute.run({ kind: 'baselines', jobId, teamId, images: refs, color }, task).then((done) => {
+        servedBy.push(done.servedBy);
+        tick(BASELINE_WEIGHT);
+        return done.result;
+      })
+    : Promise.resolve([] as BaselineResultPoint[]);
+  const [results, points] = await Promise.all([Promise.all(measuring), referencing]);
   ctx.signal.throwIfAborted();
   ctx.progress({ phase: 'saving', fraction: 1 });
   await ctx.complete(async (tx: Repositories) => {

@@ -12,7 +12,9 @@ import {
   encode,
   encodeErrorMapPng,
   encodePng,
-  evaluate,
+  measureImage,
+  poolImageMeasurements,
+  type ImageMeasurement,
   indexBits,
   loadImage,
   meanSquaredError,
@@ -90,7 +92,7 @@ export interface ReconstructResult {
 }
 
 export type EvaluateTask =
-  | { op: 'evaluate'; codebook: TaskCodebook; images: TaskImage[] }
+  | { op: 'measure'; codebook: TaskCodebook; images: TaskImage[] }
   | { op: 'baselines'; images: TaskImage[]; color: ColorMode; codecs?: BaselineCodec[]; qualities?: number[] }
   | { op: 'reconstruct'; codebook: TaskCodebook; image: TaskImage };
 
@@ -126,14 +128,29 @@ async function loadAll(images: TaskImage[], color: ColorMode, memory: MemoryBudg
   return out;
 }
 
+/** Measures each image on this thread (decoded one at a time); the job pools the measurements of all its images. */
+export async function measureImages(codebook: TaskCodebook, images: TaskImage[], memory: MemoryBudget): Promise<ImageMeasurement[]> {
+  const book = toCodebook(codebook);
+  const out: ImageMeasurement[] = [];
+  for (const image of images) {
+    const bytes = decodedImageBytes(image.width, image.height, codebook.patch.color);
+    const decoded = await loadCharged(image, codebook.patch.color, memory);
+    try {
+      out.push(await measureImage(book, decoded, ON_THIS_THREAD));
+    } finally {
+      memory.release(bytes);
+    }
+  }
+  return out;
+}
+
 /**
  * Per image and pooled as the engine pools them (metrics/evaluate.ts): MSE over pixel components and PSNR from it,
- * SSIM by poolSsim (pixel-weighted), rates total bits over total pixels — the same figures the command line reports.
+ * SSIM by poolSsim (pixel-weighted), rates total bits over total pixels — the same figures the command line reports,
+ * from measurements taken wherever the images were measured, pooled in image order.
  */
-export async function evaluateCodebook(codebook: TaskCodebook, images: TaskImage[], memory: MemoryBudget): Promise<EvaluateResult> {
-  const book = toCodebook(codebook);
-  const decoded = await loadAll(images, codebook.patch.color, memory);
-  const result = await evaluate(book, decoded, ON_THIS_THREAD);
+export function pooledResult(codebook: TaskCodebook, measurements: ImageMeasurement[]): EvaluateResult {
+  const result = poolImageMeasurements(toCodebook(codebook), measurements);
   return {
     images: result.images.map((r) => ({ width: r.width, height: r.height, ...measuredFigures(r) })),
     overall: measuredFigures(result.overall),
@@ -182,11 +199,11 @@ export async function reconstructImage(codebook: TaskCodebook, image: TaskImage,
   };
 }
 
-export default async function run(task: EvaluateTask, context?: TaskContext): Promise<EvaluateResult | BaselineResultPoint[] | ReconstructResult> {
+export default async function run(task: EvaluateTask, context?: TaskContext): Promise<ImageMeasurement[] | BaselineResultPoint[] | ReconstructResult> {
   const memory = taskMemory(context);
   switch (task.op) {
-    case 'evaluate':
-      return evaluateCodebook(task.codebook, task.images, memory);
+    case 'measure':
+      return measureImages(task.codebook, task.images, memory);
     case 'baselines':
       return baselinePoints(task.images, task.color, memory, task.codecs, task.qualities);
     case 'reconstruct':

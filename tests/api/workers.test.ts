@@ -96,6 +96,36 @@ describe('workers that join', () => {
   });
 });
 
+describe('cancelling', () => {
+  it('stops the worker computing a cancelled run on the cancellation message, not when the task would have ended', async () => {
+    const runId = await createRun(studio, 'Cancelled on a worker', { from: 9, to: 10 });
+    let busy: string | undefined;
+    for (let i = 0; i < 600 && !busy; i += 1) {
+      busy = (await workersPage()).workers.find((w) => w.task?.kind === 'train')?.workerId;
+      if (!busy) await new Promise((r) => setTimeout(r, 100));
+    }
+    expect(busy).toBeDefined();
+    expect((await call(studio, 'POST', `/api/teams/${studio.teamId}/runs/${runId}/cancel`)).status).toBe(200);
+    expect((await waitForRun(studio, runId, terminal)).state).toBe('cancelled');
+    const worker = workers.find((w) => w.output().includes(busy!))!;
+    let log = '';
+    for (let i = 0; i < 100 && !log.includes('"task cancelled by the studio"'); i += 1) {
+      log = worker.output();
+      await new Promise((r) => setTimeout(r, 50));
+    }
+    // The worker dropped the task when the message came (its latency is measured by npm run bench), and its
+    // next heartbeat shows it idle; nothing of the run was written.
+    expect(log).toContain('"task cancelled by the studio"');
+    let idle = false;
+    for (let i = 0; i < 100 && !idle; i += 1) {
+      idle = (await workersPage()).workers.find((w) => w.workerId === busy)?.task === null;
+      if (!idle) await new Promise((r) => setTimeout(r, 100));
+    }
+    expect(idle).toBe(true);
+    expect(await codebookSizes(studio, runId)).toEqual([]);
+  });
+});
+
 describe('what a worker may reach', () => {
   const internal = (p: string, token: string | null, init: RequestInit = {}) =>
     fetch(`${studio.server.url}/internal/v1${p}`, { ...init, headers: { ...(token ? { Authorization: `Bearer ${token}` } : {}), 'Content-Type': 'application/json', ...(init.headers ?? {}) } });

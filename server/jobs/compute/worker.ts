@@ -109,7 +109,9 @@ export function createComputeWorker(options: ComputeWorkerOptions): ComputeWorke
       redis.on('error', (err) => logger.warn({ err }, 'worker connection error'));
       subscriber.on('error', (err) => logger.warn({ err }, 'worker channel connection error'));
       subscriber.on('message', (_channel: string, taskId: string) => {
-        if (current?.task.taskId === taskId) current.controller.abort(new Error('the task was cancelled'));
+        if (current?.task.taskId !== taskId) return;
+        logger.info({ taskId, jobId: current.task.jobId, kind: current.task.kind }, 'task cancelled by the studio');
+        current.controller.abort(new Error('the task was cancelled'));
       });
       await subscriber.subscribe(keys.cancelChannel);
       await beat();

@@ -20,10 +20,10 @@ export interface PrivateRedis {
   destroy(): Promise<void>;
 }
 
-async function waitForPing(port: number): Promise<void> {
+async function waitForPing(port: number, password?: string): Promise<void> {
   const deadline = Date.now() + 15_000;
   for (;;) {
-    const client = new Redis({ port, host: '127.0.0.1', lazyConnect: true, maxRetriesPerRequest: 0, retryStrategy: () => null });
+    const client = new Redis({ port, host: '127.0.0.1', password, lazyConnect: true, maxRetriesPerRequest: 0, retryStrategy: () => null });
     client.on('error', () => undefined);
     try {
       await client.connect();
@@ -38,15 +38,21 @@ async function waitForPing(port: number): Promise<void> {
   }
 }
 
-export async function startPrivateRedis(): Promise<PrivateRedis> {
+/**
+ * `bind`: the addresses to listen on (loopback only unless a test gives workers addresses of their own); `password`:
+ * required of every client, as a Redis that workers on other machines reach must (Redis refuses unauthenticated
+ * clients from other addresses otherwise: its protected mode).
+ */
+export async function startPrivateRedis(options: { bind?: string[]; password?: string } = {}): Promise<PrivateRedis> {
   const port = await getFreePort();
   let dir = mkdtempSync(path.join(tmpdir(), 'cellwright-redis-'));
   let child: ChildProcess | undefined;
   const launch = async () => {
-    child = spawn('redis-server', ['--port', String(port), '--bind', '127.0.0.1', '--dir', dir, '--appendonly', 'yes', '--maxmemory-policy', 'noeviction', '--daemonize', 'no', '--save', ''], {
+    const auth = options.password ? ['--requirepass', options.password] : [];
+    child = spawn('redis-server', ['--port', String(port), '--bind', ...(options.bind ?? ['127.0.0.1']), ...auth, '--dir', dir, '--appendonly', 'yes', '--maxmemory-policy', 'noeviction', '--daemonize', 'no', '--save', ''], {
       stdio: 'ignore',
     });
-    await waitForPing(port);
+    await waitForPing(port, options.password);
   };
   const stop = async () => {
     const c = child;
@@ -59,7 +65,7 @@ export async function startPrivateRedis(): Promise<PrivateRedis> {
   };
   await launch();
   return {
-    url: `redis://127.0.0.1:${port}`,
+    url: options.password ? `redis://:${encodeURIComponent(options.password)}@127.0.0.1:${port}` : `redis://127.0.0.1:${port}`,
     port,
     stop,
     async start(options = {}) {

@@ -20,9 +20,14 @@ export interface WorkerProcess {
  * Spawns `npm run worker`'s entry (`node --import tsx server/worker/main.ts`) against a started server, as a second
  * machine would run it: the studio's URL, its Redis, the token file the studio made; a cache folder of its own.
  */
-export async function startWorkerProcess(server: StartedServer, env: Record<string, string> = {}): Promise<WorkerProcess> {
+export async function startWorkerProcess(server: StartedServer, env: Record<string, string> = {}, options: { netns?: string } = {}): Promise<WorkerProcess> {
   const cacheDir = mkdtempSync(path.join(tmpdir(), 'cellwright-worker-'));
-  const child: ChildProcess = spawn(process.execPath, ['--import', 'tsx', 'server/worker/main.ts'], {
+  // In a network namespace of its own, the worker reaches the studio only over the addresses the test gave it
+  // (`ip netns exec` runs the command in place, so the pid is the worker's).
+  const [command, args] = options.netns
+    ? ['ip', ['netns', 'exec', options.netns, process.execPath, '--import', 'tsx', 'server/worker/main.ts']]
+    : [process.execPath, ['--import', 'tsx', 'server/worker/main.ts']];
+  const child: ChildProcess = spawn(command, args, {
     cwd: repoRoot,
     env: {
       ...Object.fromEntries(Object.entries(process.env).filter((e): e is [string, string] => typeof e[1] === 'string' && !e[0].startsWith('VITEST'))),

@@ -28,7 +28,7 @@ export const clientLoader = (queryClient: QueryClient) => async ({ request, para
 
 const steps = [
   { title: 'Upload a training set', body: 'Images the codebook learns from, kept apart from the images it is judged on.' },
-  { title: 'Choose patch shape and bit budget', body: 'A b-bit budget trains 2^b codewords for each patch, by generalized Lloyd iterations.' },
+  { title: 'Choose patch shape and bit budget', body: 'A b-bit budget trains 2^b codewords for each patch, by generalised Lloyd iterations.' },
   { title: 'Prove it on held-out images', body: 'Rate in bits per pixel against MSE, PSNR and SSIM, beside standard codecs.' },
 ];
 
@@ -47,14 +47,14 @@ export function Component() {
       <PageHeader
         eyebrow="Team"
         title={team.name}
-        description="Design, train and evaluate vector-quantization codebooks together."
+        description="Design, train and evaluate vector-quantisation codebooks together."
         actions={
           canEdit &&
           sets.data &&
           sets.data.length > 0 && (
             <>
               <Link to={href.teamImportCodebook(team.id)} className={buttonClass('secondary')}>
-                Import a codebook
+                Import codebook
               </Link>
               <Link to={href.teamNewRun(team.id)} className={buttonClass('primary')}>
                 New run

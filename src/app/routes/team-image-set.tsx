@@ -87,7 +87,7 @@ export function Component() {
             <Panel title="Upload" titleId="set-upload">
               <UploadPanel teamId={team.id} setId={setId} />
             </Panel>
-            <Panel title="Split by fraction" titleId="set-split" description="A seeded shuffle of the whole set.">
+            <Panel title="Split by share" titleId="set-split" description="A seeded shuffle of the whole set.">
               <SplitForm teamId={team.id} setId={setId} imageCount={counts.total} />
             </Panel>
           </div>

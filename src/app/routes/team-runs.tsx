@@ -32,7 +32,7 @@ export function Component() {
       <PageHeader
         eyebrow={team.name}
         title="Runs"
-        description="Each run trains a sweep of codebook sizes with the generalized Lloyd algorithm, then measures them on held-out images."
+        description="Each run trains a sweep of codebook sizes with the generalised Lloyd algorithm, then measures them on held-out images."
         actions={
           <>
             {runs.data && runs.data.length >= 2 && (

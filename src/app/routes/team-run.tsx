@@ -14,7 +14,6 @@ import { Panel } from '../../components/ui/panel';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
 import { codebookKeys } from '../../features/codebooks/api/keys';
 import { compareKeys } from '../../features/compare/api/keys';
-import { runSetupKeys } from '../../features/run-setup/api/keys';
 import { useCancelRun } from '../../features/runs/api/cancel-run';
 import { isTerminal, runQueryOptions, useRun } from '../../features/runs/api/get-run';
 import { runCurveCsvUrl, useRunCurve } from '../../features/runs/api/get-run-curve';
@@ -107,8 +106,8 @@ export function Component() {
                 canDelete={team.role === 'admin' && done}
                 onDeleted={() => navigate(href.teamRuns(team.id), { replace: true })}
                 onChanged={() => {
-                  // Codebooks, the compare page and the new-run page's recent runs name runs; features cannot reach each other's keys, the page can.
-                  for (const queryKey of [codebookKeys.team(team.id), compareKeys.team(team.id), runSetupKeys.team(team.id)]) void queryClient.invalidateQueries({ queryKey });
+                  // Codebooks and comparisons name runs (every run list shares the runs prefix, which the rename already refreshed).
+                  for (const queryKey of [codebookKeys.team(team.id), compareKeys.team(team.id)]) void queryClient.invalidateQueries({ queryKey });
                 }}
               />
               <Link to={href.teamNewRun(team.id, r.id)} className={buttonClass('primary')}>

@@ -7,7 +7,7 @@ import { buttonClass } from '../../components/ui/button';
 import { PageHeader } from '../../components/ui/page-header';
 import { Panel } from '../../components/ui/panel';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
-import { runsQueryOptions, useRuns } from '../../features/runs/api/list-runs';
+import { runsQueryOptions, useRuns } from '../../lib/queries/runs';
 import { RunsTable } from '../../features/runs/components/runs-table';
 import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';

@@ -13,6 +13,7 @@ export const paths = {
   team: '/teams/:teamId',
   teamMembers: '/teams/:teamId/members',
   teamOutbox: '/teams/:teamId/outbox',
+  teamWorkers: '/teams/:teamId/workers',
   teamImageSets: '/teams/:teamId/image-sets',
   teamImageSet: '/teams/:teamId/image-sets/:setId',
   teamRuns: '/teams/:teamId/runs',
@@ -59,6 +60,7 @@ export const href = {
   team: (teamId: TeamId) => fillPath(paths.team, { teamId }),
   teamMembers: (teamId: TeamId) => fillPath(paths.teamMembers, { teamId }),
   teamOutbox: (teamId: TeamId) => fillPath(paths.teamOutbox, { teamId }),
+  teamWorkers: (teamId: TeamId) => fillPath(paths.teamWorkers, { teamId }),
   teamImageSets: (teamId: TeamId) => fillPath(paths.teamImageSets, { teamId }),
   teamImageSet: (teamId: TeamId, setId: number | string) => fillPath(paths.teamImageSet, { teamId, setId }),
   teamRuns: (teamId: TeamId) => fillPath(paths.teamRuns, { teamId }),
@@ -96,6 +98,7 @@ export const teamNavigation: readonly TeamNavSection[] = [
       { label: 'Home', to: href.team, end: true },
       { label: 'Members', to: href.teamMembers },
       { label: 'Outbox', to: href.teamOutbox, roles: ['admin'] },
+      { label: 'Workers', to: href.teamWorkers, roles: ['admin'] },
     ],
   },
   {

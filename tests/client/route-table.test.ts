@@ -16,6 +16,7 @@ describe('the route table', () => {
       team: href.team(3),
       teamMembers: href.teamMembers(3),
       teamOutbox: href.teamOutbox(3),
+      teamWorkers: href.teamWorkers(3),
       teamImageSets: href.teamImageSets(3),
       teamImageSet: href.teamImageSet(3, 9),
       teamRuns: href.teamRuns(3),

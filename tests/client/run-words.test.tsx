@@ -38,8 +38,8 @@ describe('one word for a finished run', () => {
               normalized: { sizes: [2] },
               codebooks: [],
               jobs: [
-                { id: 1, kind: 'train', state: 'succeeded', progress: null },
-                { id: 2, kind: 'evaluate', state: 'succeeded', progress: null },
+                { id: 1, kind: 'train', state: 'succeeded', progress: null, servedBy: [] },
+                { id: 2, kind: 'evaluate', state: 'succeeded', progress: null, servedBy: [] },
               ],
             } as unknown as RunDetail
           }
@@ -73,5 +73,31 @@ describe('the Bjøntegaard table', () => {
     const headers = within(screen.getByRole('table')).getAllByRole('columnheader').map((th) => th.textContent);
     expect(headers[0]).toBe('Compared run');
     expect(headers).not.toContain('Test');
+  });
+});
+
+describe('the workers that served a run', () => {
+  it('names the hosts that computed each job on the run page, once each', () => {
+    const served = [
+      { workerId: '3f2a9c1e-0000-4000-8000-000000000001', host: 'vm-1' },
+      { workerId: '3f2a9c1e-0000-4000-8000-000000000001', host: 'vm-1' },
+      { workerId: 'b7d04e55-0000-4000-8000-000000000002', host: 'vm-2' },
+    ];
+    render(
+      <RunProgress
+        run={
+          {
+            normalized: { sizes: [2] },
+            codebooks: [],
+            jobs: [
+              { id: 1, kind: 'train', state: 'succeeded', progress: null, servedBy: served },
+              { id: 2, kind: 'evaluate', state: 'running', progress: null, servedBy: [] },
+            ],
+          } as unknown as RunDetail
+        }
+      />,
+    );
+    expect(screen.getByText('Computed on vm-1 (3f2a9c1e), vm-2 (b7d04e55)')).toBeTruthy();
+    expect(screen.getAllByText(/^Computed on/)).toHaveLength(1);
   });
 });

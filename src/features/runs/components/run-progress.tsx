@@ -1,6 +1,6 @@
 import { RUN_STATE_LABELS, type JobSummary, type RunDetail } from '../../../../server/contracts';
 import { cx } from '../../../lib/cx';
-import { formatMse } from '../format';
+import { formatMse, servedByText } from '../format';
 
 type BarState = 'done' | 'active' | 'waiting' | 'stopped';
 
@@ -88,6 +88,7 @@ export function RunProgress({ run }: { run: RunDetail }) {
 
 function JobBar({ label, job }: { label: string; job: JobSummary | undefined }) {
   const fraction = job?.state === 'succeeded' ? 1 : (job?.progress?.fraction ?? 0);
+  const served = job ? servedByText(job.servedBy) : null;
   const text = !job ? 'not started' : job.state === 'running' ? `${Math.round(fraction * 100)} %` : RUN_STATE_LABELS[job.state];
   return (
     <div className="rounded-md border border-ink-200 bg-ink-50/60 px-3 py-2">
@@ -105,6 +106,7 @@ function JobBar({ label, job }: { label: string; job: JobSummary | undefined }) 
       >
         <div className={cx('h-full transition-[width] duration-300', job?.state === 'failed' ? 'bg-danger-600' : 'bg-ink-800')} style={{ width: `${fraction * 100}%` }} />
       </div>
+      {served && <p className="mt-1.5 truncate text-xs text-ink-600" title={served}>{served}</p>}
     </div>
   );
 }

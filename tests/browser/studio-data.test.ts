@@ -152,6 +152,7 @@ describe('studio data screens in a real browser', () => {
     await saveScreenshot(page, 'studio-data-uploaded');
 
     // A seeded split: round(0.34 · 6) = 2 held-out, the definition the split endpoint documents.
+    expect(await main.getByText('Split by share', { exact: true }).count()).toBe(1);
     const split = main.getByRole('form', { name: 'Split into training and held-out' });
     await split.getByLabel('Held-out share (%)').fill('34');
     await split.getByLabel('Seed').fill('7');

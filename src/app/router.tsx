@@ -50,6 +50,7 @@ export function createRoutes(queryClient: QueryClient): RouteObject[] {
             { index: true, ...page(queryClient, () => import('./routes/team-home')) },
             { path: paths.teamMembers, ...page(queryClient, () => import('./routes/team-members')) },
             { path: paths.teamOutbox, ...page(queryClient, () => import('./routes/team-outbox')) },
+            { path: paths.teamWorkers, ...page(queryClient, () => import('./routes/team-workers')) },
             { path: paths.teamImageSets, ...page(queryClient, () => import('./routes/team-image-sets')) },
             { path: paths.teamImageSet, ...page(queryClient, () => import('./routes/team-image-set')) },
             { path: paths.teamNewRun, ...page(queryClient, () => import('./routes/team-new-run')) },

@@ -13,6 +13,7 @@ export const paths = {
   team: '/teams/:teamId',
   teamMembers: '/teams/:teamId/members',
   teamOutbox: '/teams/:teamId/outbox',
+  teamWorkers: '/teams/:teamId/workers',
   teamImageSets: '/teams/:teamId/image-sets',
   teamImageSet: '/teams/:teamId/image-sets/:setId',
   teamRuns: '/teams/:teamId/runs',
@@ -27,36 +28,51 @@ export const paths = {
 
 type TeamId = number | string;
 
+/** The `:name` parameters of a route pattern, as a type: '/teams/:teamId/runs/:runId' gives 'teamId' | 'runId'. */
+type ParamsOf<P extends string> = P extends `${string}:${infer Name}/${infer Rest}`
+  ? Name | ParamsOf<`/${Rest}`>
+  : P extends `${string}:${infer Name}`
+    ? Name
+    : never;
+
+/** A path from its pattern: each `:name` replaced by its value, encoded as one path segment. */
+export function fillPath<P extends string>(pattern: P, params: Record<ParamsOf<P>, number | string>): string {
+  return pattern.replace(/:(\w+)/g, (_, name: string) => encodeURIComponent(String((params as Record<string, number | string>)[name])));
+}
+
+/** A query string (with its '?') from the entries that are present, or nothing. */
+function query(entries: Array<[string, string | undefined]>): string {
+  const present = entries.filter((entry): entry is [string, string] => entry[1] !== undefined && entry[1] !== '');
+  return present.length > 0 ? `?${present.map(([k, v]) => `${k}=${encodeURIComponent(v)}`).join('&')}` : '';
+}
+
+/** Links, built from `paths` so that each path is written once (the router reads the same table). */
 export const href = {
   /** `email` fills the address in (an invitation knows which account must sign in). */
-  signIn: (returnTo?: string, email?: string) => {
-    const query = [
-      ...(returnTo && returnTo !== '/' ? [`returnTo=${encodeURIComponent(returnTo)}`] : []),
-      ...(email ? [`email=${encodeURIComponent(email)}`] : []),
-    ];
-    return query.length > 0 ? `${paths.signIn}?${query.join('&')}` : paths.signIn;
-  },
+  signIn: (returnTo?: string, email?: string) => `${paths.signIn}${query([['returnTo', returnTo === '/' ? undefined : returnTo], ['email', email]])}`,
   signUp: () => paths.signUp,
-  signUpFinish: (token: string) => `/sign-up/${encodeURIComponent(token)}`,
+  signUpFinish: (token: string) => fillPath(paths.signUpFinish, { token }),
   accountPassword: () => paths.accountPassword,
   forgotPassword: () => paths.forgotPassword,
-  resetPassword: (token: string) => `/reset-password/${encodeURIComponent(token)}`,
-  invitation: (token: string) => `/invite/${encodeURIComponent(token)}`,
+  resetPassword: (token: string) => fillPath(paths.resetPassword, { token }),
+  invitation: (token: string) => fillPath(paths.invitation, { token }),
   home: () => paths.home,
-  team: (teamId: TeamId) => `/teams/${teamId}`,
-  teamMembers: (teamId: TeamId) => `/teams/${teamId}/members`,
-  teamOutbox: (teamId: TeamId) => `/teams/${teamId}/outbox`,
-  teamImageSets: (teamId: TeamId) => `/teams/${teamId}/image-sets`,
-  teamImageSet: (teamId: TeamId, setId: number | string) => `/teams/${teamId}/image-sets/${setId}`,
-  teamRuns: (teamId: TeamId) => `/teams/${teamId}/runs`,
+  team: (teamId: TeamId) => fillPath(paths.team, { teamId }),
+  teamMembers: (teamId: TeamId) => fillPath(paths.teamMembers, { teamId }),
+  teamOutbox: (teamId: TeamId) => fillPath(paths.teamOutbox, { teamId }),
+  teamWorkers: (teamId: TeamId) => fillPath(paths.teamWorkers, { teamId }),
+  teamImageSets: (teamId: TeamId) => fillPath(paths.teamImageSets, { teamId }),
+  teamImageSet: (teamId: TeamId, setId: number | string) => fillPath(paths.teamImageSet, { teamId, setId }),
+  teamRuns: (teamId: TeamId) => fillPath(paths.teamRuns, { teamId }),
   /** `from` copies that run's configuration into the form ("run again with changes"). */
-  teamNewRun: (teamId: TeamId, from?: number | string) => `/teams/${teamId}/runs/new${from === undefined ? '' : `?from=${from}`}`,
-  teamRun: (teamId: TeamId, runId: number | string) => `/teams/${teamId}/runs/${runId}`,
-  teamImportCodebook: (teamId: TeamId) => `/teams/${teamId}/codebooks/import`,
-  teamCodebook: (teamId: TeamId, codebookId: number | string) => `/teams/${teamId}/codebooks/${codebookId}`,
-  teamCodebooks: (teamId: TeamId) => `/teams/${teamId}/codebooks`,
-  /** `runIds` in order: the first is the reference of every pair. */
-  teamCompare: (teamId: TeamId, runIds?: readonly number[]) => `/teams/${teamId}/compare${runIds && runIds.length > 0 ? `?runs=${runIds.join(',')}` : ''}`,
+  teamNewRun: (teamId: TeamId, from?: number | string) => `${fillPath(paths.teamNewRun, { teamId })}${query([['from', from === undefined ? undefined : String(from)]])}`,
+  teamRun: (teamId: TeamId, runId: number | string) => fillPath(paths.teamRun, { teamId, runId }),
+  teamImportCodebook: (teamId: TeamId) => fillPath(paths.teamImportCodebook, { teamId }),
+  teamCodebook: (teamId: TeamId, codebookId: number | string) => fillPath(paths.teamCodebook, { teamId, codebookId }),
+  teamCodebooks: (teamId: TeamId) => fillPath(paths.teamCodebooks, { teamId }),
+  /** `runIds` in order: the first is the reference of every pair (commas kept readable in the link). */
+  teamCompare: (teamId: TeamId, runIds?: readonly number[]) =>
+    `${fillPath(paths.teamCompare, { teamId })}${runIds && runIds.length > 0 ? `?runs=${runIds.join(',')}` : ''}`,
 } as const;
 
 export type TeamNavEntry = {
@@ -82,6 +98,7 @@ export const teamNavigation: readonly TeamNavSection[] = [
       { label: 'Home', to: href.team, end: true },
       { label: 'Members', to: href.teamMembers },
       { label: 'Outbox', to: href.teamOutbox, roles: ['admin'] },
+      { label: 'Workers', to: href.teamWorkers, roles: ['admin'] },
     ],
   },
   {

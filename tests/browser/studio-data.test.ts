@@ -152,6 +152,7 @@ describe('studio data screens in a real browser', () => {
     await saveScreenshot(page, 'studio-data-uploaded');
 
     // A seeded split: round(0.34 · 6) = 2 held-out, the definition the split endpoint documents.
+    expect(await main.getByText('Split by share', { exact: true }).count()).toBe(1);
     const split = main.getByRole('form', { name: 'Split into training and held-out' });
     await split.getByLabel('Held-out share (%)').fill('34');
     await split.getByLabel('Seed').fill('7');
@@ -223,7 +224,7 @@ describe('studio data screens in a real browser', () => {
 
     await page.goto(`${server.url}/teams/${teamId}/codebooks/import`);
     const main = page.getByRole('main');
-    const form = main.getByRole('form', { name: 'Import a codebook' });
+    const form = main.getByRole('form', { name: 'Import codebook' });
     await expect.poll(() => form.isVisible()).toBe(true);
     await expect.poll(() => main.getByText('Lossy codebooks are not validated for diagnostic medical').isVisible()).toBe(true);
 
@@ -316,7 +317,7 @@ describe('studio data screens in a real browser', () => {
 
     await expect.poll(() => main.getByRole('list', { name: 'Image sets' }).textContent()).toContain(setName);
     expect((await buttonNames(page)).filter((name) => mutatingButtons.test(name))).toEqual([]);
-    expect(await main.getByRole('link', { name: /New run|Import a codebook|Upload a training set/ }).count()).toBe(0);
+    expect(await main.getByRole('link', { name: /New run|Import codebook|Upload a training set/ }).count()).toBe(0);
     await saveScreenshot(page, 'studio-data-viewer-home');
 
     await main.getByRole('link', { name: setName }).click();

@@ -101,6 +101,9 @@ describe('studio results in the browser', () => {
     await expect.poll(() => sizes.count()).toBe(3);
     await expect.poll(() => sizes.evaluateAll((bars) => bars.map((b) => b.getAttribute('aria-valuenow'))), { timeout: 120_000, interval: 500 }).toEqual(['100', '100', '100']);
     await expect.poll(() => page.getByText('Finished', { exact: true }).first().isVisible(), { timeout: 120_000, interval: 500 }).toBe(true);
+    // One word for a finished job (never the raw "done" or "trained"), and the worker that computed it by its host.
+    expect(await page.getByText(/^(done|trained)$/).count()).toBe(0);
+    await expect.poll(() => page.getByText(/^Computed on .+ \([0-9a-z-]{1,8}\)/).first().isVisible(), { timeout: 30_000, interval: 500 }).toBe(true);
 
     // The curve: three rate definitions and the JPEG reference, each a drawn path.
     const chart = page.getByRole('img', { name: /^Rate–distortion: PSNR/ });
@@ -183,6 +186,14 @@ describe('studio results in the browser', () => {
     const chart = page.getByRole('img', { name: /^PSNR against actual/ });
     expect(await chart.locator('path[data-series]').count()).toBe(3);
     expect(await page.getByRole('table', { name: /Configuration of each run/ }).getByText('differs').count()).toBeGreaterThan(0);
+    // Settings by their labels, not raw keys; the BD table's first column is the run under comparison.
+    const config = page.getByRole('table', { name: /Configuration of each run/ });
+    expect(await config.getByText('Maximum iterations', { exact: true }).count()).toBe(1);
+    expect(await config.getByText('maxIterations', { exact: true }).count()).toBe(0);
+    const bdHeaders = await page.getByRole('table', { name: /BD-rate and BD-PSNR/ }).getByRole('columnheader').allTextContents();
+    expect(bdHeaders[0]).toBe('Compared run');
+    expect(bdHeaders).not.toContain('Test');
+    expect(await page.getByText(/· Finished ·/).count()).toBeGreaterThan(0);
     expect(await page.evaluate(() => document.documentElement.scrollWidth <= window.innerWidth)).toBe(true);
     await saveScreenshot(page, 'studio-compare');
 

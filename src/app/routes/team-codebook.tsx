@@ -19,6 +19,7 @@ import { useCodebookEvaluations } from '../../features/codebooks/api/get-codeboo
 import { useReconstructionInfo } from '../../features/codebooks/api/get-reconstruction';
 import { atlasOrder, CodewordAtlas, type AtlasOrder } from '../../features/codebooks/components/codeword-atlas';
 import { ReconstructionViewer } from '../../features/codebooks/components/reconstruction-viewer';
+import { cellMse, codewordMean, usagePercent, usageSummary } from '../../features/codebooks/cell-stats';
 import { fixedRate, formatBpp, formatBytes, formatDb, formatMse } from '../../features/codebooks/format';
 import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';
@@ -39,12 +40,6 @@ export const clientLoader = (queryClient: QueryClient) => async ({ request, para
   return null;
 };
 
-/** Mean squared error per component inside each cell: the cell's total squared error over its vectors and components. */
-function cellMse(codebook: CodebookDetail): number[] | null {
-  if (!codebook.cellDistortion) return null;
-  return codebook.cellDistortion.map((total, i) => (codebook.usage[i] > 0 ? total / (codebook.usage[i] * codebook.dimension) : 0));
-}
-
 export function Component() {
   const { team, teamId } = useCurrentTeam();
   const codebookId = Number(useParams().codebookId);
@@ -63,8 +58,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
   const meanRemoved = codebook.meanBits > 0;
   const sequence = useMemo(() => atlasOrder(codebook.codewords, codebook.usage, order), [codebook, order]);
   const mse = useMemo(() => cellMse(codebook), [codebook]);
-  const totalUsage = codebook.usage.reduce((a, b) => a + b, 0);
-  const unused = codebook.usage.filter((u) => u === 0).length;
+  const { total: totalUsage, unused } = usageSummary(codebook.usage);
   const highlight = selected === null ? null : sequence.indexOf(selected);
   const geometry = { width: codebook.patch.width, height: codebook.patch.height, channels: codebook.channels };
 
@@ -135,7 +129,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
                   <dd className="num text-ink-900">#{selected}</dd>
                   <dt className="text-ink-600">Usage</dt>
                   <dd className="num text-ink-900">
-                    {codebook.usage[selected].toLocaleString('en-GB')} ({totalUsage > 0 ? ((codebook.usage[selected] / totalUsage) * 100).toFixed(2) : '0'} %)
+                    {codebook.usage[selected].toLocaleString('en-GB')} ({usagePercent(codebook.usage, selected, totalUsage).toFixed(2)} %)
                   </dd>
                   {mse && (
                     <>
@@ -144,7 +138,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
                     </>
                   )}
                   <dt className="text-ink-600">Mean</dt>
-                  <dd className="num text-ink-900">{(codebook.codewords[selected].reduce((a, b) => a + b, 0) / codebook.dimension).toFixed(1)}</dd>
+                  <dd className="num text-ink-900">{codewordMean(codebook.codewords[selected]).toFixed(1)}</dd>
                 </dl>
               )}
             </div>

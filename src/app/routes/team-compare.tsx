@@ -12,7 +12,7 @@ import { PageHeader } from '../../components/ui/page-header';
 import { Panel } from '../../components/ui/panel';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
 import { comparisonQueryOptions, isComparable, useComparison } from '../../features/compare/api/get-comparison';
-import { candidateRunsQueryOptions, useCandidateRuns } from '../../features/compare/api/list-candidate-runs';
+import { runsQueryOptions, useRuns } from '../../lib/queries/runs';
 import { BdTable } from '../../features/compare/components/bd-table';
 import { ConfigDiff } from '../../features/compare/components/config-diff';
 import { RunPicker } from '../../features/compare/components/run-picker';
@@ -35,7 +35,7 @@ export const clientLoader = (queryClient: QueryClient) => async ({ request, para
   const { team } = await requireTeam(queryClient, request, params.teamId);
   const { runIds, rate } = readSelection(new URL(request.url).searchParams);
   await Promise.all([
-    queryClient.ensureQueryData(candidateRunsQueryOptions(team.id)),
+    queryClient.ensureQueryData(runsQueryOptions(team.id)),
     // A bad selection is reported on the page, next to the picker that fixes it, not as a failed page.
     isComparable(runIds) ? queryClient.prefetchQuery(comparisonQueryOptions(team.id, runIds, rate)) : null,
   ]);
@@ -79,7 +79,7 @@ export function Component() {
   const { team, teamId } = useCurrentTeam();
   const [params, setParams] = useSearchParams();
   const { runIds, rate } = readSelection(params);
-  const candidates = useCandidateRuns(teamId);
+  const candidates = useRuns(teamId);
   const comparison = useComparison(teamId, runIds, rate);
   const [fullRange, setFullRange] = useState(false);
   if (!team) return null;

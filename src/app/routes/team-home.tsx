@@ -9,10 +9,10 @@ import { PageHeader } from '../../components/ui/page-header';
 import { Panel } from '../../components/ui/panel';
 import { Stat } from '../../components/ui/stat';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
-import { imageSetsQueryOptions, useImageSets } from '../../features/image-sets/api/list-image-sets';
+import { imageSetsQueryOptions, useImageSets } from '../../lib/queries/image-sets';
 import { ImageSetsOverview } from '../../features/image-sets/components/image-sets-overview';
 import { membersQueryOptions, useMembers } from '../../features/members/api/list-members';
-import { useRecentRuns } from '../../features/run-setup/api/list-recent-runs';
+import { useRuns } from '../../lib/queries/runs';
 import { RecentRuns } from '../../features/run-setup/components/recent-runs';
 import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';
@@ -28,7 +28,7 @@ export const clientLoader = (queryClient: QueryClient) => async ({ request, para
 
 const steps = [
   { title: 'Upload a training set', body: 'Images the codebook learns from, kept apart from the images it is judged on.' },
-  { title: 'Choose patch shape and bit budget', body: 'A b-bit budget trains 2^b codewords for each patch, by generalized Lloyd iterations.' },
+  { title: 'Choose patch shape and bit budget', body: 'A b-bit budget trains 2^b codewords for each patch, by generalised Lloyd iterations.' },
   { title: 'Prove it on held-out images', body: 'Rate in bits per pixel against MSE, PSNR and SSIM, beside standard codecs.' },
 ];
 
@@ -36,7 +36,7 @@ export function Component() {
   const { me, team, teamId } = useCurrentTeam();
   const members = useMembers(teamId);
   const sets = useImageSets(teamId);
-  const runs = useRecentRuns(teamId);
+  const runs = useRuns(teamId);
   if (!team) return null;
   const canEdit = team.role !== 'viewer';
   const noSets = sets.data?.length === 0;
@@ -47,14 +47,14 @@ export function Component() {
       <PageHeader
         eyebrow="Team"
         title={team.name}
-        description="Design, train and evaluate vector-quantization codebooks together."
+        description="Design, train and evaluate vector-quantisation codebooks together."
         actions={
           canEdit &&
           sets.data &&
           sets.data.length > 0 && (
             <>
               <Link to={href.teamImportCodebook(team.id)} className={buttonClass('secondary')}>
-                Import a codebook
+                Import codebook
               </Link>
               <Link to={href.teamNewRun(team.id)} className={buttonClass('primary')}>
                 New run

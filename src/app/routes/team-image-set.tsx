@@ -13,7 +13,7 @@ import { Stat } from '../../components/ui/stat';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
 import { useDeleteImageSet } from '../../features/image-sets/api/delete-image-set';
 import { imageSetQueryOptions, useImageSet } from '../../features/image-sets/api/get-image-set';
-import { imagesQueryOptions, useImages } from '../../features/image-sets/api/list-images';
+import { setImagesQueryOptions, useSetImages } from '../../lib/queries/image-sets';
 import { deleteErrorText, ImageGrid } from '../../features/image-sets/components/image-grid';
 import { SplitForm } from '../../features/image-sets/components/split-form';
 import { UploadPanel } from '../../features/image-sets/components/upload-panel';
@@ -27,7 +27,7 @@ export const clientLoader = (queryClient: QueryClient) => async ({ request, para
   const setId = parseTeamId(params.setId);
   await Promise.all([
     queryClient.ensureQueryData(imageSetQueryOptions(team.id, setId)),
-    queryClient.ensureQueryData(imagesQueryOptions(team.id, setId)),
+    queryClient.ensureQueryData(setImagesQueryOptions(team.id, setId)),
   ]);
   return null;
 };
@@ -37,7 +37,7 @@ export function Component() {
   const { team, teamId } = useCurrentTeam();
   const setId = Number(useParams().setId);
   const set = useImageSet(teamId, setId);
-  const images = useImages(teamId, setId);
+  const images = useSetImages(teamId, setId);
   const remove = useDeleteImageSet(teamId);
   const [confirming, setConfirming] = useState(false);
   if (!team) return null;
@@ -87,7 +87,7 @@ export function Component() {
             <Panel title="Upload" titleId="set-upload">
               <UploadPanel teamId={team.id} setId={setId} />
             </Panel>
-            <Panel title="Split by fraction" titleId="set-split" description="A seeded shuffle of the whole set.">
+            <Panel title="Split by share" titleId="set-split" description="A seeded shuffle of the whole set.">
               <SplitForm teamId={team.id} setId={setId} imageCount={counts.total} />
             </Panel>
           </div>

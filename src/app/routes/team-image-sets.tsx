@@ -7,7 +7,7 @@ import { CautionNote } from '../../components/ui/caution-note';
 import { PageHeader } from '../../components/ui/page-header';
 import { Panel } from '../../components/ui/panel';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
-import { imageSetsQueryOptions, useImageSets } from '../../features/image-sets/api/list-image-sets';
+import { imageSetsQueryOptions, useImageSets } from '../../lib/queries/image-sets';
 import { CreateImageSetForm } from '../../features/image-sets/components/create-image-set-form';
 import { ImageSetsTable } from '../../features/image-sets/components/image-sets-table';
 import { requireTeam } from '../session';

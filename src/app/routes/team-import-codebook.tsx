@@ -27,10 +27,10 @@ export function Component() {
 
   return (
     <>
-      <title>{`Import a codebook · ${team.name} · Cellwright`}</title>
+      <title>{`Import codebook · ${team.name} · Cellwright`}</title>
       <PageHeader
         eyebrow={team.name}
-        title="Import a codebook"
+        title="Import codebook"
         description="Bring in a codebook document exported from Cellwright or written by your own tools, then measure it on this team's held-out images."
       />
       <div className="flex flex-col gap-6">

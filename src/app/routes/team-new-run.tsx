@@ -1,4 +1,4 @@
-import { useQueryClient, type QueryClient } from '@tanstack/react-query';
+import type { QueryClient } from '@tanstack/react-query';
 import { data, Link, useNavigate, useSearchParams, type LoaderFunctionArgs } from 'react-router-dom';
 import type { ImageSet } from '../../../server/contracts';
 import { href } from '../../config/routes';
@@ -6,10 +6,10 @@ import { messageOf } from '../../lib/api-client';
 import { buttonClass } from '../../components/ui/button';
 import { PageHeader } from '../../components/ui/page-header';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
-import { sourceRunQueryOptions, useSourceRun } from '../../features/run-setup/api/get-run';
-import { imageSetsQueryOptions, useImageSets } from '../../features/run-setup/api/list-image-sets';
-import { setImagesQueryOptions, useImageCatalog } from '../../features/run-setup/api/list-set-images';
-import { runKeys } from '../../features/runs/api/keys';
+import { useSourceRun } from '../../features/run-setup/api/get-run';
+import { imageSetsQueryOptions, setImagesQueryOptions, useImageSets } from '../../lib/queries/image-sets';
+import { runQueryOptions } from '../../lib/queries/runs';
+import { useImageCatalog } from '../../features/run-setup/api/list-set-images';
 import { RunForm } from '../../features/run-setup/components/run-form';
 import { emptyRunForm, fromRunConfig, type RunFormValues } from '../../features/run-setup/run-form-schema';
 import { requireTeam } from '../session';
@@ -29,7 +29,7 @@ export const clientLoader = (queryClient: QueryClient) => async ({ request, para
   const from = fromParam(new URL(request.url).searchParams);
   const [sets] = await Promise.all([
     queryClient.ensureQueryData(imageSetsQueryOptions(team.id)),
-    from === null ? null : queryClient.ensureQueryData(sourceRunQueryOptions(team.id, from)),
+    from === null ? null : queryClient.ensureQueryData(runQueryOptions(team.id, from)),
   ]);
   await Promise.all(sets.map((set) => queryClient.ensureQueryData(setImagesQueryOptions(team.id, set.id))));
   return null;
@@ -46,12 +46,11 @@ function freshValues(sets: readonly ImageSet[], preferred: number | null): RunFo
 
 export function Component() {
   const navigate = useNavigate();
-  const queryClient = useQueryClient();
   const [search] = useSearchParams();
   const from = fromParam(search);
   const preferredSet = idParam(search, 'set');
   const { team, teamId } = useCurrentTeam();
-  const sets = useImageSets(teamId);
+  const sets = useImageSets(teamId, { fresh: true });
   const catalog = useImageCatalog(teamId, sets.data ?? []);
   const source = useSourceRun(teamId, from);
   if (!team) return null;
@@ -118,8 +117,7 @@ export function Component() {
         catalog={catalog.catalog}
         defaultValues={defaults}
         onCreated={(run) => {
-          // The runs feature's lists gain a run; features cannot reach each other's keys, the page can.
-          void queryClient.invalidateQueries({ queryKey: runKeys.team(team.id) });
+          // useCreateRun has already invalidated the shared runs prefix, which every feature's run list reads.
           navigate(href.teamRun(team.id, run.id));
         }}
       />

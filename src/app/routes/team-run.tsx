@@ -14,19 +14,19 @@ import { Panel } from '../../components/ui/panel';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
 import { codebookKeys } from '../../features/codebooks/api/keys';
 import { compareKeys } from '../../features/compare/api/keys';
-import { runSetupKeys } from '../../features/run-setup/api/keys';
 import { useCancelRun } from '../../features/runs/api/cancel-run';
 import { isTerminal, runQueryOptions, useRun } from '../../features/runs/api/get-run';
 import { runCurveCsvUrl, useRunCurve } from '../../features/runs/api/get-run-curve';
 import { runMetricsCsvUrl, useRunMetrics } from '../../features/runs/api/get-run-metrics';
 import { MetricsTable } from '../../features/runs/components/metrics-table';
 import { RunActions } from '../../features/runs/components/run-actions';
+import { RunCodebooksTable } from '../../features/runs/components/run-codebooks-table';
 import { RdPanel } from '../../features/runs/components/rd-panel';
 import { RunConfig } from '../../features/runs/components/run-config';
 import { RunProgress } from '../../features/runs/components/run-progress';
 import { RunStateBadge } from '../../features/runs/components/run-state-badge';
 import { TracePanel } from '../../features/runs/components/trace-panel';
-import { formatBpp, formatDb, formatMse } from '../../features/runs/format';
+import { formatBpp, formatDb } from '../../features/runs/format';
 import { useRunEvents } from '../../features/runs/hooks/use-run-events';
 import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';
@@ -106,8 +106,8 @@ export function Component() {
                 canDelete={team.role === 'admin' && done}
                 onDeleted={() => navigate(href.teamRuns(team.id), { replace: true })}
                 onChanged={() => {
-                  // Codebooks, the compare page and the new-run page's recent runs name runs; features cannot reach each other's keys, the page can.
-                  for (const queryKey of [codebookKeys.team(team.id), compareKeys.team(team.id), runSetupKeys.team(team.id)]) void queryClient.invalidateQueries({ queryKey });
+                  // Codebooks and comparisons name runs (every run list shares the runs prefix, which the rename already refreshed).
+                  for (const queryKey of [codebookKeys.team(team.id), compareKeys.team(team.id)]) void queryClient.invalidateQueries({ queryKey });
                 }}
               />
               <Link to={href.teamNewRun(team.id, r.id)} className={buttonClass('primary')}>
@@ -205,35 +205,7 @@ export function Component() {
           {r.codebooks.length === 0 ? (
             <p className="py-4 text-sm text-ink-600">{done ? 'This run produced no codebooks.' : 'Codebooks are stored when training finishes.'}</p>
           ) : (
-            <table className="w-full border-collapse text-left text-sm">
-              <caption className="sr-only">Codebooks trained by this run</caption>
-              <thead>
-                <tr className="border-b border-ink-200 text-xs tracking-[0.06em] text-ink-600 uppercase">
-                  <th scope="col" className="py-2 pr-3 font-medium">Codebook</th>
-                  <th scope="col" className="py-2 pr-3 text-right font-medium">Iterations</th>
-                  <th scope="col" className="py-2 pr-3 text-right font-medium">Training MSE</th>
-                  <th scope="col" className="py-2 font-medium">SHA-256</th>
-                </tr>
-              </thead>
-              <tbody>
-                {[...r.codebooks]
-                  .sort((a, b) => a.size - b.size)
-                  .map((c) => (
-                    <tr key={c.id} className="border-b border-ink-100 last:border-b-0">
-                      <td className="py-2 pr-3">
-                        <Link to={href.teamCodebook(team.id, c.id)} className="num font-medium text-ink-950 hover:text-ember-700 hover:underline">
-                          K = {c.size} · b = {c.bits}
-                        </Link>
-                      </td>
-                      <td className="num py-2 pr-3 text-right">{c.iterations}</td>
-                      <td className="num py-2 pr-3 text-right">{formatMse(c.distortion)}</td>
-                      <td className="num py-2 text-xs text-ink-600" title={c.checksum}>
-                        {c.checksum.slice(0, 16)}…
-                      </td>
-                    </tr>
-                  ))}
-              </tbody>
-            </table>
+            <RunCodebooksTable teamId={team.id} codebooks={r.codebooks} />
           )}
         </Panel>
 

@@ -7,7 +7,7 @@ import { buttonClass } from '../../components/ui/button';
 import { PageHeader } from '../../components/ui/page-header';
 import { Panel } from '../../components/ui/panel';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
-import { runsQueryOptions, useRuns } from '../../features/runs/api/list-runs';
+import { runsQueryOptions, useRuns } from '../../lib/queries/runs';
 import { RunsTable } from '../../features/runs/components/runs-table';
 import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';
@@ -32,7 +32,7 @@ export function Component() {
       <PageHeader
         eyebrow={team.name}
         title="Runs"
-        description="Each run trains a sweep of codebook sizes with the generalized Lloyd algorithm, then measures them on held-out images."
+        description="Each run trains a sweep of codebook sizes with the generalised Lloyd algorithm, then measures them on held-out images."
         actions={
           <>
             {runs.data && runs.data.length >= 2 && (

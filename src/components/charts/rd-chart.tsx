@@ -6,7 +6,7 @@ import { useChartWidth } from './use-chart-width';
 
 export type RdPoint = {
   x: number;
-  /** null (e.g. PSNR of a lossless reconstruction) leaves a gap instead of an invented value. */
+  /** null (e.g. PSNR of an exact reconstruction) leaves a gap instead of an invented value. */
   y: number | null;
   /** Names the point in read-outs ("b = 4", "q 75"). */
   label: string;

@@ -12,7 +12,7 @@ export function AuthLayout({ title, description, children, aside }: { title: Rea
         <div className="relative max-w-sm">
           <p className="text-xl leading-snug font-medium text-white">Train a codebook. Prove it on images it has never seen.</p>
           <p className="mt-3 text-sm text-ink-300">
-            Cellwright lets imaging teams pick a patch shape and a bit budget, train codewords with the generalized Lloyd
+            Cellwright lets imaging teams pick a patch shape and a bit budget, train codewords with the generalised Lloyd
             algorithm, and measure rate and distortion before anything is frozen into firmware.
           </p>
         </div>

@@ -1,7 +1,9 @@
+import { EXACT } from '../../../server/contracts';
+
 const thin = '\u2009';
 
 export const formatBpp = (v: number) => `${v.toFixed(3)}${thin}bpp`;
-export const formatDb = (v: number | null) => (v === null ? '∞ (exact)' : `${v.toFixed(2)}${thin}dB`);
+export const formatDb = (v: number | null) => (v === null ? EXACT.text : `${v.toFixed(2)}${thin}dB`);
 export const formatMse = (v: number) => (v >= 100 ? v.toFixed(1) : v.toPrecision(3));
 export const formatBytes = (v: number) => `${v.toLocaleString('en-GB')}${thin}bytes`;
 

@@ -7,14 +7,14 @@ import { Alert } from '../../../components/ui/alert';
 import { Button } from '../../../components/ui/button';
 import { SelectField } from '../../../components/ui/field';
 import { useEvaluateCodebook } from '../api/evaluate-codebook';
-import { useImageSets } from '../api/list-image-sets';
-import { useHeldOutImages } from '../api/list-set-images';
+import { useImageSets, useSetImages } from '../../../lib/queries/image-sets';
 
 /** Measures a freshly imported codebook on the held-out images of one of the team's sets. */
 export function EvaluateCodebookForm({ teamId, codebookId, onQueued }: { teamId: number; codebookId: number; onQueued?: () => void }) {
-  const sets = useImageSets(teamId);
+  // Refetched on mount so new uploads show up; only held-out images, since a codebook is measured on those.
+  const sets = useImageSets(teamId, { fresh: true });
   const [setId, setSetId] = useState<number | null>(null);
-  const images = useHeldOutImages(teamId, setId);
+  const images = useSetImages(teamId, setId, { role: 'held-out', fresh: true });
   const evaluate = useEvaluateCodebook(teamId, codebookId);
   const candidates = (sets.data ?? []).filter((set) => set.counts.heldOut > 0);
   const heldOutIds = images.data?.map((image) => image.id) ?? [];

@@ -21,7 +21,7 @@ function fieldProblems(error: unknown): FieldProblem[] {
 }
 
 /**
- * Import a codebook document from a file or pasted text. The text is parsed and its outline checked here, so an
+ * Imports a codebook document from a file or pasted text. The text is parsed and its outline checked here, so an
  * obviously wrong file is named at once; schema and checksum are decided by the server, which names the field.
  */
 export function ImportCodebookForm({ teamId, onImported }: { teamId: number; onImported: (codebook: CodebookDetail) => void }) {
@@ -50,7 +50,7 @@ export function ImportCodebookForm({ teamId, onImported }: { teamId: number; onI
 
   return (
     <form
-      aria-label="Import a codebook"
+      aria-label="Import codebook"
       noValidate
       onSubmit={(event) => {
         event.preventDefault();

@@ -1,8 +1,9 @@
+import { teamKeys } from '../../../lib/queries/keys';
+
 type TeamId = number;
 
 export const codebookKeys = {
-  all: ['codebooks'] as const,
-  team: (teamId: TeamId) => [...codebookKeys.all, teamId] as const,
+  team: teamKeys.codebooks,
   list: (teamId: TeamId) => [...codebookKeys.team(teamId), 'list'] as const,
   codebook: (teamId: TeamId, codebookId: number) => [...codebookKeys.team(teamId), 'codebook', codebookId] as const,
   detail: (teamId: TeamId, codebookId: number) => [...codebookKeys.codebook(teamId, codebookId), 'detail'] as const,

@@ -1,11 +1,11 @@
 import type { CompareRate } from '../../../../server/contracts';
+import { teamKeys } from '../../../lib/queries/keys';
 
 type TeamId = number;
 
+/** Under the shared team prefix; the picker's runs are the shared run list (`teamKeys.runList`), not a key of its own. */
 export const compareKeys = {
-  all: ['compare'] as const,
-  team: (teamId: TeamId) => [...compareKeys.all, teamId] as const,
+  team: teamKeys.compare,
   /** Run ids in the order chosen: the first is the reference of every pair, so order is part of the result. */
   result: (teamId: TeamId, runIds: readonly number[], rate: CompareRate) => [...compareKeys.team(teamId), 'result', runIds.join(','), rate] as const,
-  candidates: (teamId: TeamId) => [...compareKeys.team(teamId), 'candidates'] as const,
 };

@@ -3,7 +3,7 @@ import { cx } from '../../../lib/cx';
 
 const thin = '\u2009';
 
-/** Negative BD-rate means the test curve needs fewer bits for the same PSNR: better, so it is not shown as "down". */
+/** Negative BD-rate means the compared run's curve needs fewer bits for the same PSNR: better, so it is not shown as "down". */
 export function formatBdRate(value: number): string {
   return `${value > 0 ? '+' : value < 0 ? '−' : ''}${Math.abs(value).toFixed(2)}${thin}%`;
 }
@@ -36,10 +36,10 @@ export function BdTable({ result }: { result: CompareResult }) {
   return (
     <div className="overflow-x-auto">
       <table className="w-full border-collapse text-left text-sm">
-        <caption className="sr-only">BD-rate and BD-PSNR of each test curve against its reference</caption>
+        <caption className="sr-only">BD-rate and BD-PSNR of each compared run against its reference</caption>
         <thead>
           <tr className="border-b border-ink-200 text-xs tracking-[0.06em] text-ink-600 uppercase">
-            <th scope="col" className="py-2 pr-3 font-medium">Test</th>
+            <th scope="col" className="py-2 pr-3 font-medium">Compared run</th>
             <th scope="col" className="py-2 pr-3 font-medium">against reference</th>
             <th scope="col" className="py-2 pr-3 text-right font-medium">BD-rate</th>
             <th scope="col" className="py-2 pr-3 text-right font-medium">BD-PSNR</th>

@@ -1,4 +1,4 @@
-import { COMPARE_MAX_RUNS, COMPARE_MIN_RUNS, type RunSummary } from '../../../../server/contracts';
+import { COMPARE_MAX_RUNS, COMPARE_MIN_RUNS, RUN_STATE_LABELS, type RunSummary } from '../../../../server/contracts';
 import { cx } from '../../../lib/cx';
 import { formatDate } from '../../../lib/format';
 
@@ -39,7 +39,7 @@ export function RunPicker({ runs, selected, onChange }: { runs: RunSummary[]; se
                 <span className="min-w-0 flex-1">
                   <span className="block truncate font-medium text-ink-900">{run.name}</span>
                   <span className="num block text-xs text-ink-600">
-                    #{run.id} · {run.state} · {formatDate(run.createdAt)}
+                    #{run.id} · {RUN_STATE_LABELS[run.state]} · {formatDate(run.createdAt)}
                   </span>
                 </span>
                 {checked && (

@@ -13,7 +13,7 @@ export function useDeleteImageSet(teamId: number) {
     mutationFn: (setId: number) => deleteImageSet(teamId, setId),
     onSuccess: (_answer, setId) => {
       // The deleted set's own entries would only answer 404 now; drop them rather than refetch.
-      queryClient.removeQueries({ queryKey: imageSetKeys.detail(teamId, setId) });
+      queryClient.removeQueries({ queryKey: imageSetKeys.set(teamId, setId) });
       return queryClient.invalidateQueries({ queryKey: imageSetKeys.list(teamId) });
     },
   });

@@ -1,10 +1,12 @@
+import { teamKeys } from '../../../lib/queries/keys';
+
 type TeamId = number;
 
-/** Every variable of a fetch is in its key, so a set's images never share a cache entry with another set's. */
+/** Under the shared `teamKeys.imageSets(teamId)` prefix, so a change here also refreshes the run form's and import's reads. */
 export const imageSetKeys = {
-  all: ['image-sets'] as const,
-  team: (teamId: TeamId) => [...imageSetKeys.all, teamId] as const,
-  list: (teamId: TeamId) => [...imageSetKeys.team(teamId), 'list'] as const,
-  detail: (teamId: TeamId, setId: number) => [...imageSetKeys.team(teamId), 'set', setId] as const,
-  images: (teamId: TeamId, setId: number) => [...imageSetKeys.detail(teamId, setId), 'images'] as const,
+  team: teamKeys.imageSets,
+  list: teamKeys.imageSetList,
+  set: teamKeys.imageSet,
+  detail: (teamId: TeamId, setId: number) => [...teamKeys.imageSet(teamId, setId), 'detail'] as const,
+  images: (teamId: TeamId, setId: number) => teamKeys.setImages(teamId, setId),
 };

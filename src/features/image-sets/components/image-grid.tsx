@@ -8,7 +8,7 @@ import { Button } from '../../../components/ui/button';
 import { ConfirmDialog } from '../../../components/ui/confirm-dialog';
 import { useAssignImageRoles } from '../api/assign-image-roles';
 import { useDeleteImage } from '../api/delete-image';
-import { thumbnailUrl } from '../api/list-images';
+import { thumbnailUrl } from '../api/thumbnail-url';
 import { formatBytes } from '../format';
 
 type Filter = 'all' | ImageRole;

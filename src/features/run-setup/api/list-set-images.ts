@@ -1,25 +1,13 @@
-import { queryOptions, useQueries } from '@tanstack/react-query';
-import { imagesResponse, type Image, type ImageSet } from '../../../../server/contracts';
-import { apiRequest } from '../../../lib/api-client';
+import { useQueries } from '@tanstack/react-query';
+import type { Image, ImageSet } from '../../../../server/contracts';
+import { setImagesQueryOptions } from '../../../lib/queries/image-sets';
 import type { ImageCatalog } from '../run-plan';
-import { runSetupKeys } from './keys';
-
-export async function listSetImages(teamId: number, setId: number, { signal }: { signal?: AbortSignal } = {}): Promise<Image[]> {
-  const answer = await apiRequest(`/teams/${teamId}/image-sets/${setId}/images`, { signal, schema: imagesResponse });
-  return answer.images;
-}
-
-export const setImagesQueryOptions = (teamId: number, setId: number) =>
-  queryOptions({
-    queryKey: runSetupKeys.setImages(teamId, setId),
-    queryFn: ({ signal }) => listSetImages(teamId, setId, { signal }),
-    staleTime: 0,
-  });
 
 /** Every set's images at once, as the catalog the form plans with (image sizes give the vector estimate). */
 export function useImageCatalog(teamId: number, sets: readonly ImageSet[]) {
   return useQueries({
-    queries: sets.map((set) => setImagesQueryOptions(teamId, set.id)),
+    // Refetched on mount (staleTime 0): the form counts the images as they are now.
+    queries: sets.map((set) => ({ ...setImagesQueryOptions(teamId, set.id), staleTime: 0 })),
     combine: (results) => {
       const catalog = new Map<number, Image[]>();
       results.forEach((result, index) => {

@@ -1,17 +1,9 @@
 import { Link } from 'react-router-dom';
-import { terminalJobStates, type JobState, type RunSummary } from '../../../../server/contracts';
+import { EXACT, RUN_STATE_LABELS, terminalJobStates, type JobState, type RunSummary } from '../../../../server/contracts';
 import { href } from '../../../config/routes';
 import { cx } from '../../../lib/cx';
 import { formatDateTime } from '../../../lib/format';
 import { formatBpp } from '../format';
-
-const stateLabels: Record<JobState, string> = {
-  queued: 'Queued',
-  running: 'Training',
-  succeeded: 'Done',
-  failed: 'Failed',
-  cancelled: 'Cancelled',
-};
 
 /** Shape as well as colour tells the states apart: a ring waiting, a filled dot working, a tick done, a cross failed. */
 function StateMark({ state }: { state: JobState }) {
@@ -52,7 +44,7 @@ export function RecentRuns({ teamId, runs, limit = 6 }: { teamId: number; runs: 
               </Link>
               <p className="flex items-center gap-1.5 text-xs text-ink-600">
                 <StateMark state={run.state} />
-                <span className={cx(run.state === 'failed' && 'font-medium text-danger-700')}>{stateLabels[run.state]}</span>
+                <span className={cx(run.state === 'failed' && 'font-medium text-danger-700')}>{RUN_STATE_LABELS[run.state]}</span>
                 {!terminalJobStates.includes(run.state) && <span className="num">{Math.round(run.progress * 100)} %</span>}
                 <span aria-hidden="true">·</span>
                 <span className="num">{formatDateTime(run.createdAt)}</span>
@@ -63,7 +55,7 @@ export function RecentRuns({ teamId, runs, limit = 6 }: { teamId: number; runs: 
             <div className="text-right">
               {best ? (
                 <>
-                  <p className="num text-sm font-medium text-ink-950">{best.psnr === null ? 'lossless' : `${best.psnr.toFixed(2)} dB`}</p>
+                  <p className="num text-sm font-medium text-ink-950">{best.psnr === null ? EXACT.text : `${best.psnr.toFixed(2)} dB`}</p>
                   <p className="num text-xs text-ink-600">
                     b = {best.bits} · {formatBpp(best.bpp)} bpp
                   </p>

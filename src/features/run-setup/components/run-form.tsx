@@ -208,7 +208,7 @@ export function RunForm({
             />
             <SelectField
               label="Mean removal"
-              hint="With m bits, each block's mean is coded apart and removed before quantizing."
+              hint="With m bits, each block's mean is coded apart and removed before quantising."
               error={errors.meanBits?.message}
               {...form.register('meanBits', { valueAsNumber: true })}
             >
@@ -226,7 +226,7 @@ export function RunForm({
           <BitBudgetField form={form} />
         </Section>
 
-        <Section title="Training" description="Generalized Lloyd iterations until the relative drop in distortion is below ε.">
+        <Section title="Training" description="Generalised Lloyd iterations until the relative drop in distortion is below ε.">
           <SelectField label={SETTING_LABELS.init} error={errors.init?.message} {...form.register('init')}>
             {INIT_METHODS.map((m) => (
               <option key={m} value={m}>{`${INIT_LABELS[m]} (${INIT_HINTS[m]})`}</option>

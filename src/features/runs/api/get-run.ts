@@ -1,21 +1,7 @@
-import { queryOptions, useQuery } from '@tanstack/react-query';
-import { runResponse, terminalJobStates, type RunDetail } from '../../../../server/contracts';
-import { apiRequest } from '../../../lib/api-client';
-import { runKeys } from './keys';
+import { useQuery } from '@tanstack/react-query';
+import { isTerminal, runQueryOptions } from '../../../lib/queries/runs';
 
-export function getRun(teamId: number, runId: number, { signal }: { signal?: AbortSignal } = {}): Promise<RunDetail> {
-  return apiRequest(`/teams/${teamId}/runs/${runId}`, { signal, schema: runResponse }).then((r) => r.run);
-}
-
-export function isTerminal(run: Pick<RunDetail, 'state'> | undefined): boolean {
-  return run !== undefined && terminalJobStates.includes(run.state);
-}
-
-export const runQueryOptions = (teamId: number, runId: number) =>
-  queryOptions({
-    queryKey: runKeys.detail(teamId, runId),
-    queryFn: ({ signal }) => getRun(teamId, runId, { signal }),
-  });
+export { isTerminal, runQueryOptions };
 
 /**
  * The run, kept current by the event stream (useRunEvents writes into this cache entry). `poll` is the fallback for

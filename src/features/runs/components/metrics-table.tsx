@@ -20,7 +20,7 @@ const features = tableFeatures({
 });
 const helper = createColumnHelper<typeof features, ImageMetrics>();
 
-// Nulls (lossless PSNR, SSIM of tiny images) sort last whichever way the column is ordered.
+// Nulls (PSNR of an exact reconstruction, SSIM of tiny images) sort last whichever way the column is ordered.
 const columns = helper.columns([
   helper.accessor('fileName', { header: 'Image', sortFn: 'alphanumeric', cell: (c) => <span className="font-medium text-ink-900">{c.getValue()}</span> }),
   helper.accessor((row) => row.width * row.height, { id: 'pixels', header: 'Size', cell: (c) => `${c.row.original.width}×${c.row.original.height}` }),

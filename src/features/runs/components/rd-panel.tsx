@@ -58,9 +58,9 @@ export function RdPanel({ curve, onOpenCodebook }: { curve: RunCurve; onOpenCode
   return (
     <div className="flex flex-col gap-3">
       <fieldset className="flex flex-wrap items-center gap-3">
-        <legend className="sr-only">Quality measure</legend>
+        <legend className="sr-only">Measure</legend>
         <span id={groupId} className="text-sm text-ink-700">
-          Quality measure
+          Measure
         </span>
         <div className="inline-flex rounded-md border border-ink-300 bg-surface p-0.5" role="radiogroup" aria-labelledby={groupId}>
           {(Object.keys(qualityMetrics) as QualityMetric[]).map((key) => (

@@ -1,6 +1,6 @@
-import type { JobSummary, RunDetail } from '../../../../server/contracts';
+import { RUN_STATE_LABELS, type JobSummary, type RunDetail } from '../../../../server/contracts';
 import { cx } from '../../../lib/cx';
-import { formatMse } from '../format';
+import { formatMse, servedByText } from '../format';
 
 type BarState = 'done' | 'active' | 'waiting' | 'stopped';
 
@@ -22,11 +22,11 @@ export function sizeBars(run: RunDetail): SizeBar[] {
     const bits = Math.round(Math.log2(size));
     const book = codebooks.get(size);
     if (book || job?.state === 'succeeded') {
-      return { size, bits, state: 'done', value: 1, note: book ? `${book.iterations} it. · MSE ${formatMse(book.distortion)}` : 'trained' };
+      return { size, bits, state: 'done', value: 1, note: book ? `${book.iterations} it. · MSE ${formatMse(book.distortion)}` : RUN_STATE_LABELS.succeeded };
     }
     const current = progress?.size;
     if (job?.state === 'running' && current !== undefined) {
-      if (size < current) return { size, bits, state: 'done', value: 1, note: 'trained' };
+      if (size < current) return { size, bits, state: 'done', value: 1, note: RUN_STATE_LABELS.succeeded };
       if (size === current) {
         const note = [progress?.iteration !== undefined && `iteration ${progress.iteration}`, progress?.distortion !== undefined && `MSE ${formatMse(progress.distortion)}`]
           .filter(Boolean)
@@ -35,8 +35,8 @@ export function sizeBars(run: RunDetail): SizeBar[] {
         return { size, bits, state: 'active', value: 0.5, note };
       }
     }
-    const stopped = job?.state === 'failed' || job?.state === 'cancelled';
-    return { size, bits, state: stopped ? 'stopped' : 'waiting', value: 0, note: stopped ? 'not trained' : 'waiting' };
+    const stopped = job?.state === 'failed' || job?.state === 'cancelled' ? job.state : null;
+    return { size, bits, state: stopped ? 'stopped' : 'waiting', value: 0, note: stopped ? RUN_STATE_LABELS[stopped] : RUN_STATE_LABELS.queued };
   });
 }
 
@@ -88,7 +88,8 @@ export function RunProgress({ run }: { run: RunDetail }) {
 
 function JobBar({ label, job }: { label: string; job: JobSummary | undefined }) {
   const fraction = job?.state === 'succeeded' ? 1 : (job?.progress?.fraction ?? 0);
-  const text = !job ? 'not started' : job.state === 'succeeded' ? 'done' : job.state === 'running' ? `${Math.round(fraction * 100)} %` : job.state;
+  const served = job ? servedByText(job.servedBy) : null;
+  const text = !job ? 'not started' : job.state === 'running' ? `${Math.round(fraction * 100)} %` : RUN_STATE_LABELS[job.state];
   return (
     <div className="rounded-md border border-ink-200 bg-ink-50/60 px-3 py-2">
       <div className="flex items-baseline justify-between text-sm">
@@ -105,6 +106,7 @@ function JobBar({ label, job }: { label: string; job: JobSummary | undefined }) 
       >
         <div className={cx('h-full transition-[width] duration-300', job?.state === 'failed' ? 'bg-danger-600' : 'bg-ink-800')} style={{ width: `${fraction * 100}%` }} />
       </div>
+      {served && <p className="mt-1.5 truncate text-xs text-ink-600" title={served}>{served}</p>}
     </div>
   );
 }

@@ -1,6 +1,5 @@
-import type { JobState } from '../../../../server/contracts';
+import { RUN_STATE_LABELS, type JobState } from '../../../../server/contracts';
 import { cx } from '../../../lib/cx';
-import { stateLabels } from '../format';
 
 const tones: Record<JobState, string> = {
   queued: 'border-ink-300 text-ink-700 bg-surface',
@@ -15,7 +14,7 @@ export function RunStateBadge({ state, className }: { state: JobState; className
   return (
     <span className={cx('inline-flex h-6 items-center gap-1.5 rounded-sm border px-2 text-xs font-medium', tones[state], className)}>
       <StateGlyph state={state} />
-      {stateLabels[state]}
+      {RUN_STATE_LABELS[state]}
     </span>
   );
 }

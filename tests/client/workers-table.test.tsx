@@ -21,7 +21,7 @@ describe('the workers table', () => {
   it('names a task by its kind and job, and a job of another team without its number', () => {
     expect(taskText(null)).toBe('Idle');
     expect(taskText({ kind: 'train', jobId: 12, since: '2026-12-05T07:59:00.000Z' })).toBe('Training · job #12');
-    expect(taskText({ kind: 'evaluate', jobId: null, since: '2026-12-05T07:59:00.000Z' })).toBe("Evaluation · another team's job");
+    expect(taskText({ kind: 'measure', jobId: null, since: '2026-12-05T07:59:00.000Z' })).toBe("Measuring held-out images · another team's job");
   });
 
   it('shows each worker’s host, threads and last heartbeat relative to now', () => {

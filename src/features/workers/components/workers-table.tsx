@@ -6,7 +6,7 @@ type TaskKind = NonNullable<WorkerSummary['task']>['kind'];
 
 const taskLabels: Record<TaskKind, string> = {
   train: 'Training',
-  evaluate: 'Evaluation',
+  measure: 'Measuring held-out images',
   baselines: 'JPEG baselines',
 };
 

@@ -1,19 +1,45 @@
-import { cellStatistics } from './accumulate-centroids';
 import { abortError } from './errors';
-import { repairEmptyCells } from './repair-empty-cells';
-import type { IterationStat, PassSearch, TrainedCodebook } from './types';
+import { repairEmptyCells, worstMembers } from './repair-empty-cells';
+import { foldCentroids, foldStatistics } from './shard-fold';
+import type { CellStatistics, IterationStat, PassStats, ShardAssignment, ShardExecutor, TrainedCodebook } from './types';
 
 export interface LloydContext {
-  vectors: Float32Array; // N × d
   d: number;
   n: number;
-  search: PassSearch;
+  /** The training set's shards, computed here or elsewhere; every statistic is folded from them in shard order. */
+  shards: ShardExecutor;
   epsilon: number;
   maxIterations: number;
   signal?: AbortSignal;
   onIteration?: (s: IterationStat) => void;
   /** Called after every pass with the iteration just finished. */
   progress?: (size: number, iteration: number, distortion: number) => void;
+}
+
+interface Pass {
+  parts: ShardAssignment[];
+  stats: CellStatistics;
+  pass: PassStats;
+}
+
+async function assignPass(ctx: LloydContext, codewords: Float32Array, k: number): Promise<Pass> {
+  const parts = await ctx.shards.assign(codewords, k, ctx.signal);
+  let redecided = 0;
+  let searched = 0;
+  for (const p of parts) {
+    redecided += p.redecided;
+    searched += p.searched;
+  }
+  return { parts, stats: foldStatistics(parts, k), pass: { redecided, searched } };
+}
+
+/** Re-seeds the empty cells of a pass (repairEmptyCells' rule) and takes the moved shards' new sums; returns how many. */
+async function repair(ctx: LloydContext, current: Pass, k: number): Promise<number> {
+  if (current.stats.usage.indexOf(0) < 0) return 0;
+  const moves = await repairEmptyCells(current.stats.usage, current.stats.cellDistortion, worstMembers(ctx.shards, current.parts, ctx.signal));
+  const sums = await ctx.shards.move(moves, k, ctx.signal);
+  for (const [s, part] of sums) current.parts[s] = { ...current.parts[s], counts: part.counts, sums: part.sums };
+  return moves.length;
 }
 
 /**
@@ -23,9 +49,11 @@ export interface LloydContext {
  * epsilon 0), or maxIterations updates are done.
  * If an update raises the distortion (float32 rounding of the centroids at convergence
  * can do that by a hair) the previous codebook is kept and the run stops.
+ * Each iteration is one pass of every shard; the statistics and centroids are folded from the shards' partials in
+ * shard order (shard-fold.ts), so the result does not depend on where the shards were computed.
  */
 export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: number): Promise<TrainedCodebook> {
-  const { d, n, search, signal } = ctx;
+  const { d, n, signal } = ctx;
   const trace: IterationStat[] = [];
   const scale = n * d;
   const record = (s: IterationStat) => {
@@ -35,38 +63,36 @@ export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: nu
   };
 
   let t0 = performance.now();
-  let pass = await search.run(codewords, k, signal);
-  let stats = cellStatistics(search.indices, search.distances, k);
-  let distortion = stats.total / scale;
+  let current = await assignPass(ctx, codewords, k);
+  let distortion = current.stats.total / scale;
   record({
     size: k, iteration: 0, distortion, emptyRepaired: 0, elapsedMs: performance.now() - t0,
-    redecided: pass.redecided, searched: pass.searched,
+    redecided: current.pass.redecided, searched: current.pass.searched,
   });
 
   const previous = new Float32Array(k * d);
+  const scratch = new Float64Array(k * d);
   let iterations = 0;
   while (iterations < ctx.maxIterations && distortion > 0) {
     if (signal?.aborted) throw abortError(signal);
     t0 = performance.now();
-    const repaired = repairEmptyCells(search.indices, search.distances, stats.usage, stats.cellDistortion);
+    const repaired = await repair(ctx, current, k);
     previous.set(codewords.subarray(0, k * d));
-    await search.accumulate(codewords, k, signal);
-    pass = await search.run(codewords, k, signal);
-    const next = cellStatistics(search.indices, search.distances, k);
-    const nextDistortion = next.total / scale;
+    foldCentroids(current.parts, k, d, codewords, scratch);
+    const next = await assignPass(ctx, codewords, k);
+    const nextDistortion = next.stats.total / scale;
     iterations++;
     record({
       size: k, iteration: iterations, distortion: nextDistortion, emptyRepaired: repaired,
-      elapsedMs: performance.now() - t0, redecided: pass.redecided, searched: pass.searched,
+      elapsedMs: performance.now() - t0, redecided: next.pass.redecided, searched: next.pass.searched,
     });
     if (nextDistortion > distortion) {
       codewords.set(previous);
-      await search.run(codewords, k, signal);
-      stats = cellStatistics(search.indices, search.distances, k);
+      current = await assignPass(ctx, codewords, k);
       break;
     }
     const drop = (distortion - nextDistortion) / nextDistortion;
-    stats = next;
+    current = next;
     distortion = nextDistortion;
     // A pass that did not lower the distortion is a fixed point: with unchanged assignments the next update would
     // give the same centroids again. It ends training whatever epsilon is (epsilon 0 would otherwise run every
@@ -76,9 +102,9 @@ export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: nu
   return {
     size: k,
     codewords: codewords.slice(0, k * d),
-    usage: stats.usage,
-    cellDistortion: stats.cellDistortion,
-    distortion: stats.total / scale,
+    usage: current.stats.usage,
+    cellDistortion: current.stats.cellDistortion,
+    distortion: current.stats.total / scale,
     iterations,
     trace,
   };

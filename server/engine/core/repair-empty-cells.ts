@@ -1,4 +1,5 @@
 import { EngineError } from './errors';
+import type { CellMember, ShardAssignment, ShardExecutor, ShardMove } from './types';
 
 /**
  * Gives every empty cell one training vector before the centroid update: for each empty
@@ -8,49 +9,82 @@ import { EngineError } from './errors';
  * can only drop, and a cell with positive error holds at least two distinct vectors, so
  * the moved vector differs from every other codeword.
  * A donor left empty is re-seeded in turn.
- * Updates indices, distances, usage and cellDistortion in place; returns the cells repaired.
+ * `worst(cell)` yields the donor's members worst first, each once. Updates usage and cellDistortion in place;
+ * returns the moves in the order made.
  */
-export function repairEmptyCells(
-  indices: Uint32Array, distances: Float64Array, usage: Uint32Array, cellDistortion: Float64Array,
-): number {
+export async function repairEmptyCells(
+  usage: Uint32Array, cellDistortion: Float64Array, worst: (cell: number) => Promise<CellMember>,
+): Promise<ShardMove[]> {
   const k = usage.length;
-  let repaired = 0;
+  const moves: ShardMove[] = [];
   // A donor holding a single vector becomes empty itself, so scan again until none is:
   // every move strictly lowers the total error, so this ends.
   for (let j = usage.indexOf(0); j >= 0; j = usage.indexOf(0)) {
     let donor = -1;
-    let worst = 0;
+    let most = 0;
     for (let c = 0; c < k; c++) {
-      if (cellDistortion[c] > worst) {
-        worst = cellDistortion[c];
+      if (cellDistortion[c] > most) {
+        most = cellDistortion[c];
         donor = c;
       }
     }
     // Not a repeat of the entry's input checks: with K distinct vectors this is reached only when float64 rounding has
     // cleared a donor's recorded error (the Math.max below) while it still holds distinct vectors, a state of the
-    // numbers, not of the input. Without it `pick` stays −1 and the cell would be counted as used with no vector in it.
+    // numbers, not of the input. Without it the cell would be counted as used with no vector in it.
     if (donor < 0) {
       throw new EngineError(
         'ENGINE_TOO_FEW_DISTINCT_VECTORS',
         'an empty cell cannot be re-seeded: every cell already has zero error',
       );
     }
-    let pick = -1;
-    let far = -1;
-    for (let v = 0; v < indices.length; v++) {
-      if (indices[v] === donor && distances[v] > far) {
-        far = distances[v];
-        pick = v;
-      }
-    }
-    indices[pick] = j;
-    distances[pick] = 0;
+    const pick = await worst(donor);
+    moves.push({ index: pick.index, cell: j });
     usage[donor]--;
     usage[j] = 1;
     // Float64 subtraction can leave a hair below zero; an emptied cell has no error at all.
-    cellDistortion[donor] = usage[donor] === 0 ? 0 : Math.max(0, cellDistortion[donor] - far);
+    cellDistortion[donor] = usage[donor] === 0 ? 0 : Math.max(0, cellDistortion[donor] - pick.distance);
     cellDistortion[j] = 0;
-    repaired++;
   }
-  return repaired;
+  return moves;
+}
+
+/** How many members a shard is asked for at first; later asks double. */
+const FIRST_ASK = 8;
+
+/**
+ * A cell's members worst first across shards, fetched from the shards as needed: each shard lists its own members
+ * worst first, and the head with the largest distance (lowest index on ties: shards hold increasing index ranges,
+ * so the lower shard wins a tie) is the cell's next. One instance serves one repair step.
+ */
+export function worstMembers(
+  executor: ShardExecutor, parts: readonly ShardAssignment[], signal?: AbortSignal,
+): (cell: number) => Promise<CellMember> {
+  const queues = new Map<number, { items: CellMember[][]; taken: number[]; asked: number[] }>();
+  return async (cell) => {
+    let q = queues.get(cell);
+    if (!q) {
+      q = { items: parts.map(() => []), taken: parts.map(() => 0), asked: parts.map(() => 0) };
+      queues.set(cell, q);
+    }
+    const state = q;
+    const refill = parts
+      .map((p, s) => ({ shard: s, left: p.counts[cell] - state.taken[s] }))
+      .filter(({ shard, left }) => left > 0 && state.items[shard].length === 0)
+      .map(({ shard }) => ({ shard, skip: state.taken[shard], take: Math.max(FIRST_ASK, 2 * state.asked[shard]) }));
+    if (refill.length > 0) {
+      const lists = await executor.members(cell, refill, signal);
+      refill.forEach((ask, i) => {
+        state.items[ask.shard] = lists[i].slice();
+        state.asked[ask.shard] = ask.take;
+      });
+    }
+    let best = -1;
+    for (let s = 0; s < parts.length; s++) {
+      const head = state.items[s][0];
+      if (head && (best < 0 || head.distance > state.items[best][0].distance)) best = s;
+    }
+    if (best < 0) throw new Error(`cell ${cell} has no member left to give`);
+    state.taken[best]++;
+    return state.items[best].shift()!;
+  };
 }

@@ -52,6 +52,11 @@ export interface TrainOptions {
   signal?: AbortSignal;
   onProgress?: (p: TrainProgress) => void;
   onIteration?: (s: IterationStat) => void;
+  /**
+   * Opens the training set's shards somewhere else (the job engine's workers); by default every shard is computed
+   * in this process. Either way the codebooks are the same bits (core/shard-fold.ts).
+   */
+  openShards?: (set: { n: number; d: number; maxK: number; signal?: AbortSignal }) => Promise<ShardExecutor>;
 }
 
 export interface TrainedCodebook {
@@ -88,6 +93,65 @@ export interface PassStats {
   redecided: number;
   /** Vectors that searched beyond their current codeword's block (see assignBounded). */
   searched: number;
+}
+
+/** Usage, per-cell and total squared error of a partition. */
+export interface CellStatistics {
+  /** K: vectors per cell. */
+  usage: Uint32Array;
+  /** K: total squared error per cell. */
+  cellDistortion: Float64Array;
+  /** Total squared error. */
+  total: number;
+}
+
+/** One shard's float64 centroid sums of its partition, formed from zero in vector order. */
+export interface ShardSums {
+  /** K: the shard's vectors per cell. */
+  counts: Uint32Array;
+  /** K × d. */
+  sums: Float64Array;
+}
+
+/** What a shard returns from a nearest-codeword pass: its statistics and centroid sums (see shard-fold.ts). */
+export interface ShardAssignment extends ShardSums {
+  /** K: the shard's squared error per cell. */
+  cellDistortion: Float64Array;
+  /** The shard's total squared error. */
+  total: number;
+  redecided: number;
+  searched: number;
+}
+
+/** A vector of a cell, by its index in the whole training set, and its squared distance to its codeword. */
+export interface CellMember {
+  index: number;
+  distance: number;
+}
+
+/** An empty-cell repair: the vector (index in the whole training set) now belongs to `cell`, at distance 0. */
+export interface ShardMove {
+  index: number;
+  cell: number;
+}
+
+/**
+ * The shards of one training set, wherever they are computed: in this process (training/local-shards.ts) or on
+ * other machines (the job engine's coordinator). Every call answers for all shards, in shard order; a shard's
+ * answer depends only on its vectors, the codebook and the moves, never on who computes it.
+ */
+export interface ShardExecutor {
+  readonly count: number;
+  /** A nearest-codeword pass of every shard with codewords K × d. */
+  assign(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<ShardAssignment[]>;
+  /**
+   * The members of `cell` in the shards asked, worst first (largest distance, lowest index on ties), skipping the
+   * first `skip` and returning at most `take`, from the last pass.
+   */
+  members(cell: number, asks: readonly { shard: number; skip: number; take: number }[], signal?: AbortSignal): Promise<CellMember[][]>;
+  /** Applies repairs to the last pass's partition; returns the new sums of each shard that holds a moved vector. */
+  move(moves: readonly ShardMove[], k: number, signal?: AbortSignal): Promise<Map<number, ShardSums>>;
+  close(): Promise<void>;
 }
 
 /**

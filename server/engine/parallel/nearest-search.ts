@@ -1,5 +1,5 @@
 import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
-import type { PassSearch, PassStats } from '../core/types';
+import type { PassSearch, PassStats, ShardSums } from '../core/types';
 import { abortError } from '../core/errors';
 import { exactDistance } from '../core/exact-distance';
 import { accumulateCentroids } from '../core/accumulate-centroids';
@@ -103,6 +103,40 @@ function toShared(vectors: Float32Array): { buffer: SharedArrayBuffer; byteOffse
   return { buffer: shared.buffer as SharedArrayBuffer, byteOffset: shared.byteOffset };
 }
 
+/**
+ * Threads and their kernel workers held for a series of searches that run one at a time (the shards of a training
+ * set): one lease, one set of workers, shared by every search opened with it.
+ */
+export class SearchCrew {
+  private closed = false;
+
+  private readonly workers: KernelWorker[] = [];
+
+  private constructor(private readonly lease: ThreadLease) {}
+
+  get threads(): number {
+    return this.lease.threads;
+  }
+
+  static async open(threads?: number, signal?: AbortSignal): Promise<SearchCrew> {
+    const lease = await threadBudget.acquire(threads ?? threadBudget.total, signal);
+    return new SearchCrew(lease);
+  }
+
+  /** `want` (≤ threads) kernel workers, taken from the pool the first time they are needed. */
+  take(want: number): KernelWorker[] {
+    if (this.workers.length < want) this.workers.push(...pool.take(want - this.workers.length));
+    return this.workers.slice(0, want);
+  }
+
+  close(): void {
+    if (this.closed) return;
+    this.closed = true;
+    pool.give(this.workers);
+    this.lease.release();
+  }
+}
+
 /** Outcome of one pass. */
 export type { PassStats };
 
@@ -131,6 +165,7 @@ export class NearestSearch implements PassSearch {
     readonly d: number,
     private readonly lease: ThreadLease,
     private readonly workers: KernelWorker[],
+    private readonly ownsWorkers: boolean,
     private readonly buffers: {
       indices: SharedArrayBuffer; distances: SharedArrayBuffer; blockLower: SharedArrayBuffer;
     },
@@ -151,17 +186,24 @@ export class NearestSearch implements PassSearch {
   }
 
   static async open(
-    vectors: Float32Array, d: number, options: { threads?: number; signal?: AbortSignal; maxK?: number } = {},
+    vectors: Float32Array, d: number,
+    options: { threads?: number; signal?: AbortSignal; maxK?: number; crew?: SearchCrew } = {},
   ): Promise<NearestSearch> {
     const n = vectors.length / d;
-    const lease = await threadBudget.acquire(options.threads ?? threadBudget.total, options.signal);
+    const { crew } = options;
+    // A crew's threads serve several searches used one at a time (the shards of one training set) and stay the
+    // crew's; otherwise the search takes its own lease and threads.
+    const lease = crew
+      ? { threads: crew.threads, release: () => undefined }
+      : await threadBudget.acquire(options.threads ?? threadBudget.total, options.signal);
     const work = n * d * (options.maxK ?? Infinity);
     // Large passes always go to workers, even on a one-thread lease, so that the calling
     // thread (the server's event loop, say) stays responsive.
     const useWorkers = work >= MIN_PARALLEL_WORK && n > CHUNK;
-    const workers = useWorkers ? pool.take(Math.min(lease.threads, Math.ceil(n / CHUNK))) : [];
+    const want = Math.min(lease.threads, Math.ceil(n / CHUNK));
+    const workers = !useWorkers ? [] : crew ? crew.take(want) : pool.take(want);
     const shared = useWorkers ? toShared(vectors) : undefined;
-    return new NearestSearch(vectors, shared, n, d, lease, workers, {
+    return new NearestSearch(vectors, shared, n, d, lease, workers, !crew, {
       indices: new SharedArrayBuffer(n * 4),
       distances: new SharedArrayBuffer(n * 8),
       blockLower: new SharedArrayBuffer(0),
@@ -265,16 +307,17 @@ export class NearestSearch implements PassSearch {
   }
 
   /**
-   * Centroid update for the partition in `indices` (the caller's, possibly repaired):
-   * codewords K × d updated in place for every non-empty cell; returns the counts. Cells
-   * are split among the workers by vector count; each cell's sum is formed by one worker in
-   * vector order, so the result is bit-identical to accumulateCentroids on one thread.
+   * Float64 centroid sums of the partition in `indices` (the caller's, possibly repaired), each cell's from zero in
+   * vector order, and the counts. Cells are split among the workers by vector count; each cell's sum is formed by
+   * one worker in vector order, so the result is bit-identical to accumulateCentroids on one thread.
    */
-  async accumulate(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<Uint32Array> {
+  async partialSums(k: number, signal?: AbortSignal): Promise<ShardSums> {
     const { n, d } = this;
     const indices = this.indices;
     if (this.workers.length === 0 || (this.workers.length === 1 && n * d < MIN_PARALLEL_WORK / 8)) {
-      return accumulateCentroids(this.vectors, d, indices, codewords, k);
+      const sums = new Float64Array(k * d);
+      const counts = accumulateCentroids(this.vectors, d, indices, new Float32Array(k * d), k, sums);
+      return { counts, sums };
     }
     const counts = new Uint32Array(k);
     for (let v = 0; v < n; v++) counts[indices[v]]++;
@@ -303,7 +346,13 @@ export class NearestSearch implements PassSearch {
     const failed = replies.find((r) => r.status === 'rejected');
     if (failed) throw (failed as PromiseRejectedResult).reason;
     if (signal?.aborted) throw abortError(signal);
-    const sums = new Float64Array(sumsBuffer);
+    return { counts, sums: new Float64Array(sumsBuffer) };
+  }
+
+  /** Centroid update for the partition in `indices`: codewords K × d updated in place for every non-empty cell; returns the counts. */
+  async accumulate(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<Uint32Array> {
+    const d = this.d;
+    const { counts, sums } = await this.partialSums(k, signal);
     for (let j = 0; j < k; j++) {
       const c = counts[j];
       if (c === 0) continue;
@@ -362,7 +411,7 @@ export class NearestSearch implements PassSearch {
   close(): void {
     if (this.closed) return;
     this.closed = true;
-    pool.give(this.workers);
+    if (this.ownsWorkers) pool.give(this.workers);
     this.lease.release();
   }
 }

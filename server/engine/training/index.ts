@@ -9,13 +9,18 @@ import { splitCodebook } from '../core/split';
 import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook } from '../core/types';
 import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from '../core/validate';
 import { NearestSearch } from '../parallel/nearest-search';
+import { openLocalShards } from './local-shards';
 import { NearestKernel } from '../wasm/kernel';
 import { INIT, INIT_METHODS, RUN_DEFAULTS, SEED } from '../vocabulary';
 
 export type {
+  CellMember, ShardAssignment, ShardExecutor, ShardMove, ShardSums,
   Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook,
 } from '../core/types';
 export { createRng, type Rng } from '../core/rng';
+export { shardLayout, shardStart, shardEnd, MAX_SHARDS, MIN_SHARD_VECTORS, type ShardLayout } from '../core/shard-layout';
+export { ShardState } from './shard-state';
+export { SearchCrew } from '../parallel/nearest-search';
 export { EngineError, type EngineErrorCode } from '../core/errors';
 export { exactDistance, bruteForceAssign } from '../core/exact-distance';
 export { threadBudget, ThreadBudget, shutdownEngineWorkers, engineWorkerStats, sharedVectors } from '../parallel/index';
@@ -87,10 +92,32 @@ export async function train(vectors: Float32Array, dimension: number, options: T
   const totalWeight = sizes.reduce((s, x) => s + x, 0);
   let doneWeight = 0;
 
-  const search = await NearestSearch.open(vectors, d, { threads: options.threads, signal, maxK: k });
+  // k-means++ seeding runs here, on the whole set, before the shards take the threads.
+  let start: Float32Array | undefined;
+  if (!split) {
+    const rng = createRng(seed);
+    if (options.initialCodewords) start = options.initialCodewords.slice();
+    else if (options.init === INIT.random) start = initRandom(vectors, d, k, rng);
+    else {
+      const seeding = await NearestSearch.open(vectors, d, { threads: options.threads, signal, maxK: k });
+      try {
+        start = await initKmeansPlusPlus(vectors, d, k, rng, signal, seeding.seeding(k, signal));
+      } catch (err) {
+        if (signal?.aborted && !(err instanceof EngineError)) throw abortError(signal);
+        throw err;
+      } finally {
+        seeding.close();
+      }
+    }
+    throwIfAborted(signal);
+  }
+
+  const shards = options.openShards
+    ? await options.openShards({ n, d, maxK: k, signal })
+    : await openLocalShards(vectors, d, { threads: options.threads, maxK: k, signal });
   try {
     const ctx: LloydContext = {
-      vectors, d, n, search, epsilon, maxIterations, signal,
+      d, n, shards, epsilon, maxIterations, signal,
       onIteration: options.onIteration,
       progress: options.onProgress
         ? (size, iteration, distortion) => {
@@ -103,13 +130,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
         : undefined,
     };
     const codebooks: TrainedCodebook[] = [];
-    if (!split) {
-      let start: Float32Array;
-      const rng = createRng(seed);
-      if (options.initialCodewords) start = options.initialCodewords.slice();
-      else if (options.init === INIT.random) start = initRandom(vectors, d, k, rng);
-      else start = await initKmeansPlusPlus(vectors, d, k, rng, signal, search.seeding(k, signal));
-      throwIfAborted(signal);
+    if (start) {
       codebooks.push(await runLloyd(ctx, start, k));
     } else {
       const centroid = new Float32Array(d);
@@ -119,8 +140,8 @@ export async function train(vectors: Float32Array, dimension: number, options: T
       doneWeight += 1;
       for (let i = 1; i < sizes.length; i++) {
         throwIfAborted(signal);
-        const start = splitCodebook(book, d, sizes[i], delta);
-        book = await runLloyd(ctx, start, sizes[i]);
+        const next = splitCodebook(book, d, sizes[i], delta);
+        book = await runLloyd(ctx, next, sizes[i]);
         codebooks.push(book);
         doneWeight += sizes[i];
       }
@@ -134,7 +155,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
     if (signal?.aborted && !(err instanceof EngineError)) throw abortError(signal);
     throw err;
   } finally {
-    search.close();
+    await shards.close();
   }
 }
 

@@ -79,8 +79,29 @@ describe('accumulateCentroids', () => {
   });
 });
 
+/**
+ * repairEmptyCells over one in-memory partition: the donor's members worst first (largest distance, lowest index on
+ * ties) by a plain scan, and the moves applied to the arrays, as a single shard would.
+ */
+async function repairArrays(indices: Uint32Array, distances: Float64Array, usage: Uint32Array, cellDistortion: Float64Array): Promise<number> {
+  const taken = new Set<number>();
+  const moves = await repairEmptyCells(usage, cellDistortion, async (cell) => {
+    let pick = -1;
+    for (let v = 0; v < indices.length; v++) {
+      if (indices[v] === cell && !taken.has(v) && (pick < 0 || distances[v] > distances[pick])) pick = v;
+    }
+    taken.add(pick);
+    return { index: pick, distance: distances[pick] };
+  });
+  for (const m of moves) {
+    indices[m.index] = m.cell;
+    distances[m.index] = 0;
+  }
+  return moves.length;
+}
+
 describe('repairEmptyCells', () => {
-  it('re-seeds each empty cell with the worst vector of the cell with the largest error', () => {
+  it('re-seeds each empty cell with the worst vector of the cell with the largest error', async () => {
     // Worked by hand. Cell 0 holds vectors 0, 1 (errors 1, 9); cell 1 holds 2, 3 (4, 0).
     // Cell 2 takes vector 1 from cell 0 (error 10 > 4), leaving cell 0 with error 1; then
     // cell 3 takes vector 2 from cell 1 (4 > 1).
@@ -88,41 +109,41 @@ describe('repairEmptyCells', () => {
     const distances = new Float64Array([1, 9, 4, 0]);
     const usage = new Uint32Array([2, 2, 0, 0]);
     const cellDistortion = new Float64Array([10, 4, 0, 0]);
-    expect(repairEmptyCells(indices, distances, usage, cellDistortion)).toBe(2);
+    expect(await repairArrays(indices, distances, usage, cellDistortion)).toBe(2);
     expect(Array.from(indices)).toEqual([0, 2, 3, 1]);
     expect(Array.from(distances)).toEqual([1, 0, 0, 0]);
     expect(Array.from(usage)).toEqual([1, 1, 1, 1]);
     expect(Array.from(cellDistortion)).toEqual([1, 0, 0, 0]);
   });
 
-  it('re-seeds a donor that the repair itself emptied', () => {
+  it('re-seeds a donor that the repair itself emptied', async () => {
     // Cell 1 holds one vector with error 5 (its codeword is stale): giving it to empty
     // cell 2 empties cell 1, which then takes cell 0's worst vector.
     const indices = new Uint32Array([0, 0, 1]);
     const distances = new Float64Array([1, 2, 5]);
     const usage = new Uint32Array([2, 1, 0]);
     const cellDistortion = new Float64Array([3, 5, 0]);
-    expect(repairEmptyCells(indices, distances, usage, cellDistortion)).toBe(2);
+    expect(await repairArrays(indices, distances, usage, cellDistortion)).toBe(2);
     expect(Array.from(indices)).toEqual([0, 1, 2]);
     expect(Array.from(usage)).toEqual([1, 1, 1]);
   });
 
-  it('never leaves a cell empty while some cell has error', () => {
+  it('never leaves a cell empty while some cell has error', async () => {
     const indices = new Uint32Array([0, 0, 0, 0]);
     const distances = new Float64Array([1, 2, 3, 4]);
     const usage = new Uint32Array([4, 0, 0, 0]);
     const cellDistortion = new Float64Array([10, 0, 0, 0]);
-    const repaired = repairEmptyCells(indices, distances, usage, cellDistortion);
+    const repaired = await repairArrays(indices, distances, usage, cellDistortion);
     expect(repaired).toBe(3);
     expect(Array.from(usage)).toEqual([1, 1, 1, 1]);
     // Worst first: vector 3 → cell 1, vector 2 → cell 2, vector 1 → cell 3.
     expect(Array.from(indices)).toEqual([0, 3, 2, 1]);
   });
 
-  it('fails clearly when no cell has error to give', () => {
-    expect(() =>
-      repairEmptyCells(new Uint32Array([0, 0]), new Float64Array([0, 0]), new Uint32Array([2, 0]), new Float64Array([0, 0])),
-    ).toThrow(/empty cell/);
+  it('fails clearly when no cell has error to give', async () => {
+    await expect(
+      repairArrays(new Uint32Array([0, 0]), new Float64Array([0, 0]), new Uint32Array([2, 0]), new Float64Array([0, 0])),
+    ).rejects.toThrow(/empty cell/);
   });
 });
 

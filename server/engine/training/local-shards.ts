@@ -1,0 +1,46 @@
+import { shardLayout } from '../core/shard-layout';
+import type { ShardExecutor, ShardSums } from '../core/types';
+import { SearchCrew } from '../parallel/nearest-search';
+import { ShardState } from './shard-state';
+
+/**
+ * Every shard of a training set in this process, one after another on one crew of threads (each shard's pass
+ * spreads over all of them). The single-machine engine trains through this; the job engine's coordinator reaches
+ * the same ShardState on other machines.
+ */
+export async function openLocalShards(
+  vectors: Float32Array, d: number, options: { threads?: number; maxK: number; signal?: AbortSignal },
+): Promise<ShardExecutor> {
+  const layout = shardLayout(vectors.length / d);
+  const crew = await SearchCrew.open(options.threads, options.signal);
+  const shards: ShardState[] = [];
+  try {
+    for (let s = 0; s < layout.count; s++) shards.push(await ShardState.open(vectors, d, layout, s, crew, options.maxK, options.signal));
+  } catch (err) {
+    for (const shard of shards) shard.close();
+    crew.close();
+    throw err;
+  }
+  return {
+    count: layout.count,
+    async assign(codewords, k, signal) {
+      const out = [];
+      for (const shard of shards) out.push(await shard.assign(codewords, k, signal));
+      return out;
+    },
+    async members(cell, asks) {
+      return asks.map((a) => shards[a.shard].members(cell, a.skip, a.take));
+    },
+    async move(moves, k, signal) {
+      const out = new Map<number, ShardSums>();
+      for (const shard of shards) {
+        if (moves.some((m) => shard.holds(m.index))) out.set(shard.shard, await shard.move(moves, k, signal));
+      }
+      return out;
+    },
+    async close() {
+      for (const shard of shards) shard.close();
+      crew.close();
+    },
+  };
+}

@@ -1,0 +1,65 @@
+import { cellStatistics } from '../core/accumulate-centroids';
+import { shardEnd, shardStart, type ShardLayout } from '../core/shard-layout';
+import type { CellMember, ShardAssignment, ShardMove, ShardSums } from '../core/types';
+import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
+
+/**
+ * One shard of a training set where it is computed: its vectors, a nearest search that keeps its bounds between
+ * passes, and the partition of its last pass. What it returns depends only on its vectors, the codebook and the
+ * moves (see core/shard-fold.ts), so any process holding the same vectors answers with the same bits.
+ */
+export class ShardState {
+  private constructor(
+    readonly shard: number,
+    /** Index of the shard's first vector in the whole training set. */
+    readonly offset: number,
+    private readonly search: NearestSearch,
+  ) {}
+
+  /** Shard s of `vectors` (the whole training set, N × d) in `layout`, on the crew's threads. */
+  static async open(
+    vectors: Float32Array, d: number, layout: ShardLayout, s: number, crew: SearchCrew, maxK: number, signal?: AbortSignal,
+  ): Promise<ShardState> {
+    const start = shardStart(layout, s);
+    const slice = vectors.subarray(start * d, shardEnd(layout, s) * d);
+    return new ShardState(s, start, await NearestSearch.open(slice, d, { crew, maxK, signal }));
+  }
+
+  /** A nearest-codeword pass with codewords K × d: the shard's statistics and centroid sums. */
+  async assign(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<ShardAssignment> {
+    const pass = await this.search.run(codewords, k, signal);
+    const stats = cellStatistics(this.search.indices, this.search.distances, k);
+    const { sums } = await this.search.partialSums(k, signal);
+    return { counts: stats.usage, cellDistortion: stats.cellDistortion, total: stats.total, sums, ...pass };
+  }
+
+  /** The last pass's members of `cell`, worst first (largest distance, lowest index on ties), from `skip`, at most `take`. */
+  members(cell: number, skip: number, take: number): CellMember[] {
+    const { indices, distances } = this.search;
+    const out: CellMember[] = [];
+    for (let v = 0; v < indices.length; v++) if (indices[v] === cell) out.push({ index: this.offset + v, distance: distances[v] });
+    out.sort((a, b) => b.distance - a.distance || a.index - b.index);
+    return out.slice(skip, skip + take);
+  }
+
+  /** Applies the moves that fall in this shard; the new centroid sums and counts of its partition. */
+  async move(moves: readonly ShardMove[], k: number, signal?: AbortSignal): Promise<ShardSums> {
+    const { indices, distances } = this.search;
+    for (const m of moves) {
+      const v = m.index - this.offset;
+      if (v < 0 || v >= indices.length) continue;
+      indices[v] = m.cell;
+      distances[v] = 0;
+    }
+    return this.search.partialSums(k, signal);
+  }
+
+  /** Whether a vector of the whole training set is this shard's. */
+  holds(index: number): boolean {
+    return index >= this.offset && index < this.offset + this.search.n;
+  }
+
+  close(): void {
+    this.search.close();
+  }
+}

@@ -32,7 +32,7 @@ import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/evaluation-tasks';
 import { createComputeClient } from './jobs/compute/client';
-import { executeComputeTask } from './jobs/compute/execute';
+import { executeComputeTask, loadTrainingSample } from './jobs/compute/execute';
 import { createComputeWorker } from './jobs/compute/worker';
 import { createWorkerRegistry } from './jobs/compute/registry';
 import { createJobDispatch } from './jobs/dispatch';
@@ -120,6 +120,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
       leaseMs: config.jobQueue.leaseMs,
       logger,
       execute: (task, ctx) => executeComputeTask(task, { ...ctx, pool, resolveImage: async (image) => contentStore.path(image.sha256) }),
+      loadSample: (sample, signal) => loadTrainingSample(sample, { pool, signal, resolveImage: async (image) => contentStore.path(image.sha256) }),
     });
   const runner = createJobRunner({
     store: jobStore,

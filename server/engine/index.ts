@@ -22,6 +22,8 @@ import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SI
 export * from './vocabulary';
 export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWorkers, threadBudget, EngineError } from './training';
 export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './training';
+export { ShardState, SearchCrew, shardLayout, type ShardLayout } from './training';
+export type { CellMember, ShardAssignment, ShardExecutor, ShardMove, ShardSums } from './training';
 export { EngineInputError, type EngineInputErrorCode } from './input-error';
 export {
   CODEBOOK_FORMAT, CODEBOOK_VERSION, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,

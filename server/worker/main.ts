@@ -5,7 +5,7 @@ import { hostname } from 'node:os';
 import { createLogger } from '../config/logger';
 import { workerToken } from '../config/worker-token';
 import { threadBudget } from '../engine';
-import { executeComputeTask } from '../jobs/compute/execute';
+import { executeComputeTask, loadTrainingSample } from '../jobs/compute/execute';
 import { createComputeWorker } from '../jobs/compute/worker';
 import { createTaskPool } from '../jobs/pool';
 import { createStudioClient } from './studio-client';
@@ -46,6 +46,7 @@ async function main(): Promise<void> {
     leaseMs: joined.leaseMs,
     logger,
     execute: (task, ctx) => executeComputeTask(task, { ...ctx, pool, resolveImage: (image, signal) => studio.original(image, signal) }),
+    loadSample: (sample, signal) => loadTrainingSample(sample, { pool, signal, resolveImage: (image, s) => studio.original(image, s) }),
   });
   await worker.start();
   process.stderr.write(`cellwright worker ${joined.workerId} joined ${config.studioUrl} with ${config.engineThreads} threads\n`);

@@ -1,9 +1,11 @@
 import type { JobProgress } from '../../contracts';
-import { train } from '../../engine';
+import { shardLayout, train } from '../../engine';
 import type { TaskPool } from '../pool';
 import type { ImageMeasurement } from '../../engine';
 import type { BaselineResultPoint, EvaluateTask, TaskImage } from '../tasks/evaluate.task';
 import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
+import type { ShardSpread } from './shard-coordinator';
+import type { TrainingSample } from './shard-wire';
 import type { ComputeTask, ImageRef, TrainOutcome, TrainTask } from './tasks';
 
 const trainingVectorsTask = new URL('../tasks/training-vectors.task.ts', import.meta.url).href;
@@ -20,9 +22,14 @@ export interface ExecuteContext {
   pool: TaskPool;
   signal: AbortSignal;
   progress(p: JobProgress): void;
+  /** Spreads a training pass's shards over the live workers (absent: every shard is computed here). */
+  spread?: ShardSpread;
 }
 
-async function localImages(images: ImageRef[], ctx: ExecuteContext): Promise<TaskImage[]> {
+/** Where a sample's originals are found and decoded. */
+export type SampleContext = Pick<ExecuteContext, 'resolveImage' | 'pool' | 'signal'>;
+
+async function localImages(images: ImageRef[], ctx: SampleContext): Promise<TaskImage[]> {
   const out: TaskImage[] = [];
   for (const image of images) {
     ctx.signal.throwIfAborted();
@@ -31,14 +38,28 @@ async function localImages(images: ImageRef[], ctx: ExecuteContext): Promise<Tas
   return out;
 }
 
-/** Samples the run's training vectors (same sample for a given image list and seed wherever it runs) and trains every pass. */
+/** Draws a run's training vectors: the same sample for a given image list and seed wherever it runs. */
+export async function loadTrainingSample(sample: TrainingSample, ctx: SampleContext): Promise<Float32Array> {
+  const files = await localImages(sample.images, ctx);
+  const input: TrainingVectorsInput = { files, color: sample.color, patch: sample.patch, sample: sample.maxVectors, seed: sample.seed, meanBits: sample.meanBits };
+  // The pool thread hands the vectors over in shared memory: every pass's search threads read this one copy.
+  return ctx.pool.run<TrainingVectorsInput, Float32Array>(trainingVectorsTask, input, { signal: ctx.signal });
+}
+
+/** Samples the run's training vectors and trains every pass, its shards spread over the live workers when there are several. */
 async function trainTask(task: TrainTask, ctx: ExecuteContext): Promise<TrainOutcome> {
   ctx.progress({ phase: 'loading', fraction: 0, message: `decoding ${task.images.length} training images` });
-  const files = await localImages(task.images, ctx);
-  const input: TrainingVectorsInput = { files, color: task.color, patch: task.patch, sample: task.maxVectors, seed: task.seed, meanBits: task.meanBits };
-  // The pool thread hands the vectors over in shared memory: every pass's search threads read this one copy.
-  const vectors = await ctx.pool.run<TrainingVectorsInput, Float32Array>(trainingVectorsTask, input, { signal: ctx.signal });
+  const sample: TrainingSample = {
+    images: task.images, color: task.color, patch: task.patch, maxVectors: task.maxVectors, seed: task.seed, meanBits: task.meanBits, dimension: task.dimension,
+  };
+  const vectors = await loadTrainingSample(sample, ctx);
   const vectorCount = vectors.length / task.dimension;
+  const { spread } = ctx;
+  // Spreading pays only with several shards and several workers; either way the codebooks are the same bits.
+  const spreading = spread !== undefined && shardLayout(vectorCount).count > 1 && (await spread.liveWorkers()) > 1;
+  const openShards = spreading
+    ? ({ maxK, signal }: { maxK: number; signal?: AbortSignal }) => spread.open({ jobId: task.jobId, teamId: task.teamId, sample, vectors, maxK, signal })
+    : undefined;
   ctx.progress({ phase: 'training', fraction: LOADED, message: `${vectorCount} training vectors of ${task.dimension} components` });
 
   const totalWeight = task.passes.reduce((s, p) => s + p.k, 0);
@@ -52,6 +73,7 @@ async function trainTask(task: TrainTask, ctx: ExecuteContext): Promise<TrainOut
       maxIterations: task.maxIterations,
       seed: task.seed,
       signal: ctx.signal,
+      openShards,
       onProgress: (p) => {
         const within = (doneWeight + p.fraction * pass.k) / totalWeight;
         ctx.progress({

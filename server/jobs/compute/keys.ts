@@ -15,7 +15,15 @@ export const computeKeys = (prefix: string) => ({
   result: (taskId: string) => `${prefix}:result:${taskId}`,
   /** A worker session (the hash of its secret) → the worker's id. */
   session: (secretHash: string) => `${prefix}:worker-session:${secretHash}`,
-  /** Pub/sub: task progress reports and cancellations. */
+  /** List: shard operations for one worker's shard host (data-parallel training), taken in order. */
+  shardInbox: (workerId: string) => `${prefix}:shard-inbox:${workerId}`,
+  /** List: the shard hosts' answers to one training session's coordinator. */
+  shardReplies: (sessionId: string) => `${prefix}:shard-replies:${sessionId}`,
+  /** The training sample of a session (wire form): what a shard host needs to build its shards. */
+  shardSession: (sessionId: string) => `${prefix}:shard-session:${sessionId}`,
+  /** Set of the sessions whose shards a worker holds: it may read their originals (see grant). */
+  workerSessions: (workerId: string) => `${prefix}:worker-sessions:${workerId}`,
+  /** Pub/sub: task progress reports and cancellations (of tasks and of shard sessions, by id). */
   progressChannel: `${prefix}:task-progress`,
   cancelChannel: `${prefix}:task-cancel`,
 });

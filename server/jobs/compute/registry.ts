@@ -21,7 +21,10 @@ export interface WorkerRegistry {
   register(presentedToken: string, info: { host: string; threads: number }): Promise<{ workerId: string; session: string } | null>;
   /** The worker a session secret belongs to, or null (unknown, or revoked by a token rotation). */
   authenticate(session: string): Promise<string | null>;
-  /** Whether the worker may read this original now: only while it holds a task whose grant names the digest. */
+  /**
+   * Whether the worker may read this original now: only while it holds a task, or the shards of a training session,
+   * whose grant names the digest.
+   */
   mayRead(workerId: string, sha256: string): Promise<boolean>;
   /** Workers whose heartbeat is current, oldest first. */
   list(): Promise<WorkerEntry[]>;
@@ -71,10 +74,12 @@ export function createWorkerRegistry(options: { redisUrl: string; prefix: string
       return workerId;
     },
     async mayRead(workerId, digest) {
-      const task = await client().hget(keys.worker(workerId), 'task');
-      if (!task) return false;
-      const { taskId } = JSON.parse(task) as CurrentTask;
-      return (await client().sismember(keys.grant(taskId), digest)) === 1;
+      const r = client();
+      const task = await r.hget(keys.worker(workerId), 'task');
+      // The task in hand, and the training sessions whose shards the worker holds (data-parallel training).
+      const grants = [...(task ? [(JSON.parse(task) as CurrentTask).taskId] : []), ...(await r.smembers(keys.workerSessions(workerId)))];
+      for (const id of grants) if ((await r.sismember(keys.grant(id), digest)) === 1) return true;
+      return false;
     },
     async list() {
       const r = client();

@@ -3,6 +3,9 @@ import { Redis } from 'ioredis';
 import type { Logger } from '../../config';
 import type { JobProgress } from '../../contracts';
 import { computeKeys, TASK_QUEUE, WORKER_HEARTBEAT_MS, WORKER_TTL_MS } from './keys';
+import { createShardSpread, type ShardSpread } from './shard-coordinator';
+import { createShardHost, type ShardHost } from './shard-host';
+import type { TrainingSample } from './shard-wire';
 import { fromWire, toWire, type ComputeTask, type ServedBy } from './tasks';
 
 export interface WorkerIdentity {
@@ -19,8 +22,10 @@ export interface ComputeWorkerOptions {
   /** How long a task's lock lasts unrenewed before another worker may take the task over (JOB_LEASE_MS). */
   leaseMs: number;
   logger: Logger;
-  /** Computes one task; `signal` aborts on cancellation and on stop. */
-  execute(task: ComputeTask, ctx: { signal: AbortSignal; progress(p: JobProgress): void }): Promise<unknown>;
+  /** Computes one task; `signal` aborts on cancellation and on stop; `spread` spreads training shards over the workers. */
+  execute(task: ComputeTask, ctx: { signal: AbortSignal; progress(p: JobProgress): void; spread: ShardSpread }): Promise<unknown>;
+  /** Draws a run's training sample here, for the shards of other workers' training tasks this worker hosts. */
+  loadSample(sample: TrainingSample, signal: AbortSignal): Promise<Float32Array>;
 }
 
 export interface ComputeWorker {
@@ -51,6 +56,8 @@ export function createComputeWorker(options: ComputeWorkerOptions): ComputeWorke
   let subscriber: Redis | undefined;
   let beatTimer: NodeJS.Timeout | undefined;
   let current: { task: CurrentTask; controller: AbortController } | null = null;
+  const spread = createShardSpread({ redisUrl: options.redisUrl, prefix: options.prefix, logger });
+  let host: ShardHost | undefined;
   let stopping = false;
 
   async function beat(): Promise<void> {
@@ -86,6 +93,7 @@ export function createComputeWorker(options: ComputeWorkerOptions): ComputeWorke
     try {
       const result = await options.execute(task, {
         signal: controller.signal,
+        spread,
         progress: (progress) => void redis?.publish(keys.progressChannel, JSON.stringify({ taskId: job.data.taskId, progress })).catch(() => undefined),
       });
       const servedBy: ServedBy = { workerId: identity.workerId, host: identity.host };
@@ -129,6 +137,8 @@ export function createComputeWorker(options: ComputeWorkerOptions): ComputeWorke
       });
       worker.on('error', (err) => logger.warn({ err }, 'worker queue connection error'));
       await worker.waitUntilReady();
+      host = createShardHost({ redisUrl: options.redisUrl, prefix: options.prefix, workerId: identity.workerId, logger, loadSample: options.loadSample });
+      await host.start();
       logger.info({ workerId: identity.workerId, host: identity.host, threads: identity.threads }, 'worker ready');
     },
     async stop() {
@@ -136,6 +146,8 @@ export function createComputeWorker(options: ComputeWorkerOptions): ComputeWorke
       clearInterval(beatTimer);
       current?.controller.abort(new Error('the worker is stopping'));
       await worker?.close();
+      await host?.stop();
+      host = undefined;
       if (redis) {
         await redis.multi().del(keys.worker(identity.workerId)).srem(keys.workers, identity.workerId).exec().catch(() => undefined);
         redis.disconnect();

@@ -1,0 +1,183 @@
+import { randomUUID } from 'node:crypto';
+import { Redis } from 'ioredis';
+import type { Logger } from '../../config';
+import { shardLayout, type CellMember, type ShardAssignment, type ShardExecutor, type ShardSums } from '../../engine';
+import { computeKeys } from './keys';
+import { borrowSample } from './sample-cache';
+import { fromWire, toWire } from './tasks';
+import { sampleKey, type ShardMessage, type ShardOp, type ShardReply, type ShardSession, type ShardValue, type TrainingSample } from './shard-wire';
+
+export interface ShardSpreadOptions {
+  redisUrl: string;
+  prefix: string;
+  logger: Logger;
+}
+
+/** How often a coordinator waiting for shards checks that their hosts are alive. */
+const LIVENESS_CHECK_MS = 1_000;
+/** The session's keys outlive a coordinator that died by this much. */
+const SESSION_TTL_MS = 24 * 3600_000;
+
+/** Ids of the workers whose heartbeat is current, in a fixed order. */
+async function liveWorkers(redis: Redis, keys: ReturnType<typeof computeKeys>): Promise<string[]> {
+  const ids = (await redis.smembers(keys.workers)).sort();
+  const alive: string[] = [];
+  for (const id of ids) if ((await redis.exists(keys.worker(id))) === 1) alive.push(id);
+  return alive;
+}
+
+export interface ShardSpread {
+  /** Live workers now: spreading pays only with two or more. */
+  liveWorkers(): Promise<number>;
+  /**
+   * A training pass's shards spread over the live workers' shard hosts (see createShardHost). `vectors` is the
+   * coordinator's own draw of the sample, lent to this process's host.
+   */
+  open(input: { jobId: number; teamId: number; sample: TrainingSample; vectors: Float32Array; maxK: number; signal?: AbortSignal }): Promise<ShardExecutor>;
+}
+
+/**
+ * The coordinator's side of data-parallel training. Shards go to the live workers in contiguous groups; each
+ * operation is one message per host and one reply per shard. A host whose heartbeat lapses loses its shards to the
+ * live host with the fewest, which repeats the last pass before answering (ShardMessage.prime); replies are matched
+ * by sequence number, so a late answer from a host given up for dead is ignored. Results never depend on which host
+ * answered (core/shard-fold.ts).
+ */
+export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
+  const keys = computeKeys(options.prefix);
+  const { logger } = options;
+  let redis: Redis | undefined;
+  const client = () => {
+    if (!redis) {
+      redis = new Redis(options.redisUrl, { maxRetriesPerRequest: null });
+      redis.on('error', (err) => logger.warn({ err }, 'shard coordinator connection error'));
+    }
+    return redis;
+  };
+
+  return {
+    async liveWorkers() {
+      return (await liveWorkers(client(), keys)).length;
+    },
+    async open(input) {
+      const r = client();
+      const n = input.vectors.length / input.sample.dimension;
+      const layout = shardLayout(n);
+      const sessionId = `shards-${randomUUID()}`;
+      const session: ShardSession = { sessionId, jobId: input.jobId, teamId: input.teamId, sample: input.sample, n, maxK: input.maxK };
+      const digests = [...new Set(input.sample.images.map((i) => i.sha256))];
+      const lent = borrowSample(sampleKey(input.sample), async () => input.vectors);
+      const replies = new Redis(options.redisUrl, { maxRetriesPerRequest: null });
+      replies.on('error', (err) => logger.warn({ err }, 'shard replies connection error'));
+      const owner: string[] = [];
+      let seq = 0;
+      let last: { seq: number; k: number; codewords: Float32Array } | undefined;
+
+      const grant = async (workerId: string) => {
+        await r.multi().sadd(keys.workerSessions(workerId), sessionId).pexpire(keys.workerSessions(workerId), SESSION_TTL_MS).exec();
+      };
+      let workers = await liveWorkers(r, keys);
+      if (workers.length === 0) throw new Error('no worker is alive to compute the shards');
+      await r.multi()
+        .set(keys.shardSession(sessionId), toWire(session), 'PX', SESSION_TTL_MS)
+        .sadd(keys.grant(sessionId), ...(digests.length > 0 ? digests : ['-']))
+        .pexpire(keys.grant(sessionId), SESSION_TTL_MS)
+        .exec();
+      for (let s = 0; s < layout.count; s++) owner.push(workers[Math.floor((s * workers.length) / layout.count)]);
+      for (const w of new Set(owner)) await grant(w);
+
+      const send = async (shards: number[], op: ShardOp, m: number) => {
+        const byHost = new Map<string, number[]>();
+        for (const s of shards) byHost.set(owner[s], [...(byHost.get(owner[s]) ?? []), s]);
+        for (const [host, list] of byHost) {
+          const message: ShardMessage = { sessionId, seq: m, shards: list, prime: op.op === 'assign' ? undefined : last, op };
+          await r.rpush(keys.shardInbox(host), toWire(message));
+        }
+      };
+
+      /** Gives the shards of hosts that stopped beating to live ones; returns the shards moved. */
+      const reassign = async (pending: Set<number>): Promise<number[]> => {
+        const hosts = new Set([...pending].map((s) => owner[s]));
+        const dead: string[] = [];
+        for (const h of hosts) if ((await r.exists(keys.worker(h))) === 0) dead.push(h);
+        if (dead.length === 0) return [];
+        workers = await liveWorkers(r, keys);
+        if (workers.length === 0) {
+          logger.warn({ sessionId, jobId: input.jobId }, 'no worker is alive for the shards; waiting for one');
+          return [];
+        }
+        const moved: number[] = [];
+        for (let s = 0; s < owner.length; s++) {
+          if (!dead.includes(owner[s])) continue;
+          const load = (w: string) => owner.filter((o) => o === w).length;
+          const to = workers.reduce((best, w) => (load(w) < load(best) ? w : best), workers[0]);
+          owner[s] = to;
+          await grant(to);
+          moved.push(s);
+        }
+        logger.warn({ sessionId, jobId: input.jobId, dead, moved }, 'shard hosts stopped; their shards go to live workers');
+        return moved;
+      };
+
+      /** Sends `op` for `shards` and waits for every shard's answer, resending what a lost host held. */
+      async function request(shards: number[], op: ShardOp, signal?: AbortSignal): Promise<Map<number, ShardValue>> {
+        const m = ++seq;
+        const pending = new Set(shards);
+        const out = new Map<number, ShardValue>();
+        await send(shards, op, m);
+        let checked = Date.now();
+        while (pending.size > 0) {
+          signal?.throwIfAborted();
+          const popped = await replies.blpop(keys.shardReplies(sessionId), 1);
+          if (popped) {
+            const reply = fromWire<ShardReply>(popped[1]);
+            if (reply.seq !== m || !pending.has(reply.shard)) continue;
+            if (reply.error !== undefined) throw new Error(`shard ${reply.shard}: ${reply.error}`);
+            pending.delete(reply.shard);
+            out.set(reply.shard, reply.value!);
+          }
+          if (Date.now() - checked >= LIVENESS_CHECK_MS) {
+            checked = Date.now();
+            const moved = (await reassign(pending)).filter((s) => pending.has(s));
+            if (moved.length > 0) await send(moved, op, m);
+          }
+        }
+        return out;
+      }
+
+      const onAbort = () => void r.publish(keys.cancelChannel, sessionId).catch(() => undefined);
+      input.signal?.addEventListener('abort', onAbort, { once: true });
+      const all = Array.from({ length: layout.count }, (_, s) => s);
+
+      return {
+        count: layout.count,
+        async assign(codewords, k, signal) {
+          const cw = codewords.slice(0, k * input.sample.dimension);
+          const values = await request(all, { op: 'assign', k, codewords: cw }, signal);
+          last = { seq, k, codewords: cw };
+          return all.map((s) => values.get(s) as ShardAssignment);
+        },
+        async members(cell, asks, signal) {
+          const values = await request(asks.map((a) => a.shard), { op: 'members', cell, asks: [...asks] }, signal);
+          return asks.map((a) => values.get(a.shard) as CellMember[]);
+        },
+        async move(moves, k, signal) {
+          const touched = all.filter((s) => moves.some((mv) => mv.index >= s * layout.size && mv.index < Math.min(n, (s + 1) * layout.size)));
+          const values = await request(touched, { op: 'move', k, moves: [...moves] }, signal);
+          return new Map(touched.map((s) => [s, values.get(s) as ShardSums]));
+        },
+        async close() {
+          input.signal?.removeEventListener('abort', onAbort);
+          const m = ++seq;
+          for (const host of new Set(owner)) {
+            await r.rpush(keys.shardInbox(host), toWire({ sessionId, seq: m, shards: [], op: { op: 'close' } } satisfies ShardMessage)).catch(() => undefined);
+            await r.srem(keys.workerSessions(host), sessionId).catch(() => undefined);
+          }
+          await r.del(keys.shardSession(sessionId), keys.grant(sessionId), keys.shardReplies(sessionId)).catch(() => undefined);
+          replies.disconnect();
+          lent.release();
+        },
+      };
+    },
+  };
+}

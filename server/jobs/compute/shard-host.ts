@@ -1,0 +1,198 @@
+import { Redis } from 'ioredis';
+import type { Logger } from '../../config';
+import { SearchCrew, ShardState, shardLayout, type CellMember, type ShardLayout } from '../../engine';
+import { computeKeys } from './keys';
+import { borrowSample } from './sample-cache';
+import { fromWire, toWire } from './tasks';
+import { sampleKey, type ShardMessage, type ShardReply, type ShardSession, type ShardValue, type TrainingSample } from './shard-wire';
+
+export interface ShardHostOptions {
+  redisUrl: string;
+  prefix: string;
+  workerId: string;
+  logger: Logger;
+  /** Draws a run's training vectors here (the same sample the coordinator drew). */
+  loadSample(sample: TrainingSample, signal: AbortSignal): Promise<Float32Array>;
+}
+
+export interface ShardHost {
+  start(): Promise<void>;
+  stop(): Promise<void>;
+}
+
+interface HostedSession {
+  session: ShardSession;
+  layout: ShardLayout;
+  vectors: Float32Array;
+  release(): void;
+  shards: Map<number, ShardState>;
+  /** The sequence number of each shard's last pass here. */
+  passOf: Map<number, number>;
+  controller: AbortController;
+  lastUse: number;
+}
+
+/** A session nobody has asked anything for this long is given up (its coordinator is gone). */
+const SESSION_IDLE_MS = 10 * 60_000;
+
+/**
+ * The shards a worker holds for data-parallel training: it takes shard operations from its inbox in order, draws
+ * the session's sample once (from the same originals and seed as the coordinator), keeps each shard's search and
+ * bounds between passes, and answers shard by shard. One crew of threads serves every session, so a host never
+ * waits for another host or for a coordinator.
+ */
+export function createShardHost(options: ShardHostOptions): ShardHost {
+  const keys = computeKeys(options.prefix);
+  const { logger } = options;
+  const sessions = new Map<string, HostedSession>();
+  let inbox: Redis | undefined;
+  let redis: Redis | undefined;
+  let subscriber: Redis | undefined;
+  let crew: SearchCrew | undefined;
+  let stopping = false;
+  let loop: Promise<void> | undefined;
+
+  function drop(sessionId: string): void {
+    const hosted = sessions.get(sessionId);
+    if (!hosted) return;
+    sessions.delete(sessionId);
+    hosted.controller.abort(new Error('the training session ended'));
+    for (const state of hosted.shards.values()) state.close();
+    hosted.release();
+    if (sessions.size === 0) {
+      crew?.close();
+      crew = undefined;
+    }
+  }
+
+  async function open(sessionId: string): Promise<HostedSession> {
+    const existing = sessions.get(sessionId);
+    if (existing) return existing;
+    const text = await redis!.get(keys.shardSession(sessionId));
+    if (!text) throw new Error('the training session is gone');
+    const session = fromWire<ShardSession>(text);
+    const controller = new AbortController();
+    const borrowed = borrowSample(sampleKey(session.sample), () => options.loadSample(session.sample, controller.signal));
+    let vectors: Float32Array;
+    try {
+      vectors = await borrowed.vectors;
+    } catch (err) {
+      borrowed.release();
+      throw err;
+    }
+    const n = vectors.length / session.sample.dimension;
+    if (n !== session.n) {
+      borrowed.release();
+      throw new Error(`this worker drew ${n} training vectors, the coordinator ${session.n}`);
+    }
+    crew ??= await SearchCrew.open(undefined, controller.signal);
+    const hosted: HostedSession = {
+      session, layout: shardLayout(n), vectors, release: borrowed.release, shards: new Map(), passOf: new Map(), controller, lastUse: Date.now(),
+    };
+    sessions.set(sessionId, hosted);
+    logger.info({ sessionId, jobId: session.jobId, vectors: n, shards: hosted.layout.count }, 'hosting shards');
+    return hosted;
+  }
+
+  async function shardOf(hosted: HostedSession, s: number, prime: ShardMessage['prime']): Promise<ShardState> {
+    const { session, layout, vectors, controller } = hosted;
+    let state = hosted.shards.get(s);
+    if (!state) {
+      state = await ShardState.open(vectors, session.sample.dimension, layout, s, crew!, session.maxK, controller.signal);
+      hosted.shards.set(s, state);
+    }
+    // Taken over mid-iteration: repeat the last pass so the partition is the one the coordinator saw.
+    if (prime && hosted.passOf.get(s) !== prime.seq) {
+      await state.assign(prime.codewords, prime.k, controller.signal);
+      hosted.passOf.set(s, prime.seq);
+    }
+    return state;
+  }
+
+  async function answer(message: ShardMessage): Promise<void> {
+    const { op } = message;
+    if (op.op === 'close') {
+      drop(message.sessionId);
+      return;
+    }
+    const reply = (r: ShardReply) => redis!.rpush(keys.shardReplies(message.sessionId), toWire(r)).then(() => undefined);
+    let hosted: HostedSession;
+    try {
+      hosted = await open(message.sessionId);
+    } catch (err) {
+      if (stopping) return;
+      for (const shard of message.shards) await reply({ seq: message.seq, shard, error: (err as Error).message });
+      return;
+    }
+    hosted.lastUse = Date.now();
+    const signal = hosted.controller.signal;
+    for (const shard of message.shards) {
+      try {
+        const state = await shardOf(hosted, shard, op.op === 'assign' ? undefined : message.prime);
+        let value: ShardValue;
+        if (op.op === 'assign') {
+          value = await state.assign(op.codewords, op.k, signal);
+          hosted.passOf.set(shard, message.seq);
+        }
+        else if (op.op === 'move') value = await state.move(op.moves, op.k, signal);
+        else {
+          const ask = op.asks.find((a) => a.shard === shard)!;
+          value = state.members(op.cell, ask.skip, ask.take) satisfies CellMember[];
+        }
+        await reply({ seq: message.seq, shard, value });
+      } catch (err) {
+        // Cancelled or stopping: the coordinator knows, or will hand the shard to another host.
+        if (signal.aborted || stopping) return;
+        await reply({ seq: message.seq, shard, error: (err as Error).message });
+      }
+    }
+  }
+
+  async function run(): Promise<void> {
+    while (!stopping) {
+      let popped: [string, string] | null;
+      try {
+        popped = await inbox!.blpop(keys.shardInbox(options.workerId), 1);
+      } catch (err) {
+        if (stopping) return;
+        logger.warn({ err }, 'shard inbox unreachable; trying again');
+        await new Promise((resolve) => setTimeout(resolve, 1_000));
+        continue;
+      }
+      const now = Date.now();
+      for (const [id, hosted] of sessions) if (now - hosted.lastUse > SESSION_IDLE_MS) drop(id);
+      if (!popped) continue;
+      try {
+        await answer(fromWire<ShardMessage>(popped[1]));
+      } catch (err) {
+        logger.warn({ err }, 'shard operation failed');
+      }
+    }
+  }
+
+  return {
+    async start() {
+      stopping = false;
+      inbox = new Redis(options.redisUrl, { maxRetriesPerRequest: null });
+      redis = new Redis(options.redisUrl, { maxRetriesPerRequest: null });
+      subscriber = new Redis(options.redisUrl, { maxRetriesPerRequest: null });
+      for (const c of [inbox, redis, subscriber]) c.on('error', (err) => logger.warn({ err }, 'shard host connection error'));
+      subscriber.on('message', (_channel: string, id: string) => {
+        if (!sessions.has(id)) return;
+        logger.info({ sessionId: id, jobId: sessions.get(id)!.session.jobId }, 'training session cancelled by the studio');
+        drop(id);
+      });
+      await subscriber.subscribe(keys.cancelChannel);
+      loop = run();
+    },
+    async stop() {
+      stopping = true;
+      for (const id of [...sessions.keys()]) drop(id);
+      inbox?.disconnect();
+      await loop?.catch(() => undefined);
+      redis?.disconnect();
+      subscriber?.disconnect();
+      inbox = redis = subscriber = undefined;
+    },
+  };
+}

@@ -1,0 +1,66 @@
+import { createHash } from 'node:crypto';
+import type { CellMember, ShardAssignment, ShardMove, ShardSums } from '../../engine';
+import type { ColorMode } from '../../engine';
+import type { ImageRef } from './tasks';
+
+/**
+ * Data-parallel training on the wire: the coordinator (wherever the training task runs) sends shard operations to
+ * the shard hosts of live workers through Redis lists, and they answer shard by shard. Typed arrays travel in the
+ * task wire form (tasks.ts toWire), bit for bit.
+ */
+
+/** What decides a run's training vectors: the same sample wherever it is drawn. */
+export interface TrainingSample {
+  images: ImageRef[];
+  color: ColorMode;
+  patch: { width: number; height: number };
+  maxVectors: number;
+  seed: number;
+  meanBits: number;
+  dimension: number;
+}
+
+/** One sample's identity, for the workers' caches. */
+export function sampleKey(sample: TrainingSample): string {
+  return createHash('sha256').update(JSON.stringify(sample)).digest('hex');
+}
+
+/** A training pass spread over shard hosts: what every host of it needs. */
+export interface ShardSession {
+  sessionId: string;
+  jobId: number;
+  teamId: number;
+  sample: TrainingSample;
+  /** Training vectors (checked by each host against the sample it draws). */
+  n: number;
+  maxK: number;
+}
+
+export type ShardOp =
+  | { op: 'assign'; k: number; codewords: Float32Array }
+  | { op: 'members'; cell: number; asks: { shard: number; skip: number; take: number }[] }
+  | { op: 'move'; k: number; moves: ShardMove[] }
+  | { op: 'close' };
+
+export interface ShardMessage {
+  sessionId: string;
+  seq: number;
+  /** The shards to answer for (for members: those of the asks). */
+  shards: number[];
+  /**
+   * The session's last pass (by its sequence number), to repeat first on a shard whose last pass here was another
+   * one (the host took the shard over, or lost it for a while and got it back).
+   */
+  prime?: { seq: number; k: number; codewords: Float32Array };
+  op: ShardOp;
+}
+
+export type ShardValue = ShardAssignment | CellMember[] | ShardSums;
+
+export interface ShardReply {
+  seq: number;
+  shard: number;
+  value?: ShardValue;
+  /** Why the shard could not be computed (the training then fails with it). */
+  error?: string;
+}

@@ -235,6 +235,8 @@ async function main() {
   } finally {
     rmSync(memDir, { recursive: true, force: true });
   }
+  // Data-parallel Lloyd over worker processes, in processes of its own (a private Redis and shard hosts).
+  spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-shards.ts')], { cwd: root, stdio: 'inherit' });
   console.log('\nnote: the cores are shared with other work on this machine; figures may be noisy.');
 }
 

@@ -34,6 +34,7 @@ export interface ShardSpread {
    * coordinator's own draw of the sample, lent to this process's host.
    */
   open(input: { jobId: number; teamId: number; sample: TrainingSample; vectors: Float32Array; maxK: number; signal?: AbortSignal }): Promise<ShardExecutor>;
+  close(): void;
 }
 
 /**
@@ -56,6 +57,10 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
   };
 
   return {
+    close() {
+      redis?.disconnect();
+      redis = undefined;
+    },
     async liveWorkers() {
       return (await liveWorkers(client(), keys)).length;
     },

@@ -148,6 +148,7 @@ export function createComputeWorker(options: ComputeWorkerOptions): ComputeWorke
       await worker?.close();
       await host?.stop();
       host = undefined;
+      spread.close();
       if (redis) {
         await redis.multi().del(keys.worker(identity.workerId)).srem(keys.workers, identity.workerId).exec().catch(() => undefined);
         redis.disconnect();

@@ -25,7 +25,11 @@ function gaussMarkov(seed: number, vectors: number): Float32Array {
   return out;
 }
 
-const sum = (xs: ArrayLike<number>) => Array.prototype.reduce.call(xs, (s: number, x: number) => s + x, 0) as number;
+function sum(xs: ArrayLike<number>): number {
+  let s = 0;
+  for (let i = 0; i < xs.length; i++) s += xs[i];
+  return s;
+}
 
 function entropyPerVector(indices: Uint32Array, size: number): number {
   const counts = new Float64Array(size);

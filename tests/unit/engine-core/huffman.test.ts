@@ -65,6 +65,24 @@ describe('huffmanCodeLengths', () => {
     for (let s = 1; s < counts.length; s++) expect(limited[s]).toBeLessThanOrEqual(limited[s - 1]);
   });
 
+  it('costs no more than the best length-limited code found by trying every set of lengths (property)', () => {
+    // Package-merge is optimal among prefix codes with lengths ≤ L (Larmore & Hirschberg 1990); checked here by
+    // enumerating every length vector in 1..L that satisfies Kraft's inequality on small alphabets.
+    fc.assert(fc.property(fc.array(fc.integer({ min: 1, max: 1000 }), { minLength: 2, maxLength: 7 }), fc.integer({ min: 2, max: 4 }), (counts, limit) => {
+      fc.pre(counts.length <= 2 ** limit);
+      let best = Infinity;
+      const lengths = new Array<number>(counts.length).fill(1);
+      for (;;) {
+        if (kraftSum(lengths) <= 1) best = Math.min(best, codedBits(lengths, counts));
+        let i = 0;
+        while (i < lengths.length && lengths[i] === limit) lengths[i++] = 1;
+        if (i === lengths.length) break;
+        lengths[i]++;
+      }
+      expect(codedBits(huffmanCodeLengths(counts, limit), counts)).toBe(best);
+    }), { numRuns: 150 });
+  });
+
   it('keeps every length within the limit for any limit that can hold the symbols (property)', () => {
     fc.assert(fc.property(countsArbitrary, fc.integer({ min: 1, max: 16 }), (counts, limit) => {
       const used = counts.filter((c) => c > 0).length;

@@ -4,18 +4,52 @@
  * choice is made on the same numbers whatever the codebook holds.
  */
 
+/** Float64 unit roundoff. */
+const EPS = 2 ** -53;
+
+/**
+ * A unit direction along which the codewords spread most: 16 steps of power iteration on their covariance from
+ * (1, …, 1)/√d, in float64 and a fixed order. Only the search order depends on it, so its accuracy affects the
+ * speed of assignEntropyConstrained, never its result.
+ * @param codewords K × d, row-major
+ * @returns d components
+ */
+export function principalDirection(codewords: Float32Array, d: number): Float64Array {
+  const k = codewords.length / d;
+  const mean = new Float64Array(d);
+  for (let j = 0; j < k; j++) for (let i = 0; i < d; i++) mean[i] += codewords[j * d + i];
+  for (let i = 0; i < d; i++) mean[i] /= k;
+  let u = new Float64Array(d).fill(1 / Math.sqrt(d));
+  for (let step = 0; step < 16; step++) {
+    const w = new Float64Array(d);
+    for (let j = 0; j < k; j++) {
+      let dot = 0;
+      for (let i = 0; i < d; i++) dot += (codewords[j * d + i] - mean[i]) * u[i];
+      for (let i = 0; i < d; i++) w[i] += (codewords[j * d + i] - mean[i]) * dot;
+    }
+    let norm = 0;
+    for (let i = 0; i < d; i++) norm += w[i] * w[i];
+    norm = Math.sqrt(norm);
+    if (!(norm > 0) || !Number.isFinite(norm)) break;
+    for (let i = 0; i < d; i++) w[i] /= norm;
+    u = w;
+  }
+  return u;
+}
+
 /**
  * Per vector, the index j minimising ‖x − c_j‖² + penalties[j] (float64; equal costs go to the lowest index).
  *
  * Two exact shortcuts, neither of which can change a result:
- * - Candidates are visited outwards from the vector's first component in the codewords' order by first component;
- *   once (x_0 − c_0)² plus the smallest penalty exceeds the best cost, no codeword further out in that direction
- *   can reach it (its distance is at least that first term).
+ * - Candidates are visited outwards from the vector's projection on a direction u (principalDirection) in the
+ *   codewords' order of projection. By Cauchy–Schwarz ‖x − c‖² ≥ (u·(x − c))²/‖u‖²; once that bound — computed
+ *   with margins above the float64 rounding of the projections (4(d + 2)·2^−53 times Σ|u_i·x_i|, and as much for
+ *   the codewords) and of the distance sum (a relative 1e-9) — plus the smallest penalty exceeds the best cost, no
+ *   codeword further out in that direction can reach it.
  * - Partial-distance elimination: a candidate is abandoned once its partial sum plus penalty exceeds the best cost
- *   (or equals it at a higher index).
- * Float64 addition of non-negative terms never decreases, so a skipped candidate's full cost could neither win nor
- * take a tie: the result equals a full search, bit for bit. Starting from the vector's previous cell (`hinted`)
- * gives a close bound at once.
+ *   (or equals it at a higher index). Float64 addition of non-negative terms never decreases.
+ * A skipped candidate's computed cost could therefore neither win nor take a tie: the result equals a full search,
+ * bit for bit. Starting from the vector's previous cell (`hinted`) gives a close bound at once.
  *
  * @param vectors   N × d, row-major
  * @param codewords K × d, row-major
@@ -29,9 +63,26 @@ export function assignEntropyConstrained(
 ): void {
   const k = penalties.length;
   const n = indices.length;
-  // Codewords by first component (ties by index), and the smallest penalty.
-  const order = Uint32Array.from({ length: k }, (_, j) => j).sort((a, b) => codewords[a * d] - codewords[b * d] || a - b);
-  const first = Float64Array.from(order, (j) => codewords[j * d]);
+  const u = principalDirection(codewords, d);
+  let uNorm2 = 0;
+  for (let i = 0; i < d; i++) uNorm2 += u[i] * u[i];
+  const roundoff = 4 * (d + 2) * EPS;
+  const shrink = (1 - 1e-9) / uNorm2;
+  // Codewords by projection (ties by index), the largest rounding bound of a codeword's projection, the smallest penalty.
+  const projection = new Float64Array(k);
+  let codewordMargin = 0;
+  for (let j = 0; j < k; j++) {
+    let p = 0;
+    let a = 0;
+    for (let i = 0; i < d; i++) {
+      p += u[i] * codewords[j * d + i];
+      a += Math.abs(u[i] * codewords[j * d + i]);
+    }
+    projection[j] = p;
+    codewordMargin = Math.max(codewordMargin, roundoff * a);
+  }
+  const order = Uint32Array.from({ length: k }, (_, j) => j).sort((a, b) => projection[a] - projection[b] || a - b);
+  const sorted = Float64Array.from(order, (j) => projection[j]);
   let minPenalty = Infinity;
   for (let j = 0; j < k; j++) minPenalty = Math.min(minPenalty, penalties[j]);
   let best = 0;
@@ -54,13 +105,19 @@ export function assignEntropyConstrained(
   };
   for (let v = 0; v < n; v++) {
     const vo = v * d;
-    const x0 = vectors[vo];
-    // First sorted position whose first component is ≥ x0.
+    let q = 0;
+    let a = 0;
+    for (let i = 0; i < d; i++) {
+      q += u[i] * vectors[vo + i];
+      a += Math.abs(u[i] * vectors[vo + i]);
+    }
+    const margin = roundoff * a + codewordMargin;
+    // First sorted position whose projection is ≥ q.
     let lo = 0;
     let hi = k;
     while (lo < hi) {
       const mid = (lo + hi) >>> 1;
-      if (first[mid] < x0) lo = mid + 1;
+      if (sorted[mid] < q) lo = mid + 1;
       else hi = mid;
     }
     const start = hinted ? indices[v] : order[Math.min(lo, k - 1)];
@@ -72,13 +129,13 @@ export function assignEntropyConstrained(
     best = bestError + penalties[start];
     bj = start;
     for (let p = lo; p < k; p++) {
-      const t = first[p] - x0;
-      if (t * t + minPenalty > best) break;
+      const gap = sorted[p] - q - margin;
+      if (gap > 0 && gap * gap * shrink + minPenalty > best) break;
       if (order[p] !== start) consider(vo, order[p]);
     }
     for (let p = lo - 1; p >= 0; p--) {
-      const t = x0 - first[p];
-      if (t * t + minPenalty > best) break;
+      const gap = q - sorted[p] - margin;
+      if (gap > 0 && gap * gap * shrink + minPenalty > best) break;
       if (order[p] !== start) consider(vo, order[p]);
     }
     indices[v] = bj;

@@ -52,6 +52,26 @@ describe('assignEntropyConstrained', () => {
     ), { numRuns: 300 });
   });
 
+  it('equals a float64 full search on data far from the origin, where the projections round the most (property)', () => {
+    fc.assert(fc.property(
+      fc.integer({ min: 1, max: 80 }), fc.integer({ min: 1, max: 24 }), fc.integer({ min: 1, max: 60 }), fc.integer({ min: 0, max: 2 ** 31 }),
+      fc.constantFrom(0, 1e3, 1e5), fc.constantFrom(1e-3, 1, 30),
+      (n, d, k, seed, offset, spread) => {
+        const rng = createRng(seed);
+        const vectors = Float32Array.from({ length: n * d }, () => offset + spread * rng.normal());
+        // Codewords copy some vectors exactly (zero distances) and sit near others.
+        const codewords = Float32Array.from({ length: k * d }, (_, i) => (rng.nextInt(3) === 0 && i < n * d ? vectors[i] : offset + spread * rng.normal()));
+        const penalties = Float64Array.from({ length: k }, () => rng.next() * spread * spread * d);
+        const indices = new Uint32Array(n);
+        const errors = new Float64Array(n);
+        assignEntropyConstrained(vectors, d, codewords, penalties, indices, errors, false);
+        const ref = bruteForce(vectors, d, codewords, penalties);
+        expect(Array.from(indices)).toEqual(Array.from(ref.indices));
+        expect(Array.from(errors)).toEqual(Array.from(ref.errors));
+      },
+    ), { numRuns: 300 });
+  });
+
   it('moves vectors towards cheaper cells as the penalty gap grows', () => {
     // Two codewords at 0 and 1; x = 0.4 is nearer 0 (0.16 against 0.36) until codeword 0 costs 0.2 more.
     const vectors = Float32Array.of(0.4);

@@ -24,6 +24,14 @@ export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWork
 export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './training';
 export { EngineInputError, type EngineInputErrorCode } from './input-error';
 export {
+  assignEcvq, ecvqStartingCodebook, sweepEcvq, trainEcvq, MAX_ECVQ_SIZE, type EcvqIterationStat, type EcvqOptions, type EcvqResult, type EcvqStartOptions,
+  type EcvqStop,
+} from './training/ecvq';
+export {
+  BitReader, BitWriter, canonicalCode, codedBits, decodeSymbols, encodeSymbols, HuffmanDecoder, huffmanCodeLengths, kraftSum, MAX_CODE_LENGTH,
+  type CanonicalCode,
+} from './core/huffman';
+export {
   CODEBOOK_FORMAT, CODEBOOK_VERSION, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
   serializeCodebook, toCodebookDocument, type Codebook, type CodebookDocument, type PatchInfo, type PreprocessingInfo, type TrainingInfo,
 } from './format/codebook-schema';

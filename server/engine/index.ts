@@ -66,6 +66,10 @@ export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_COD
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';
 export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
 export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
+export {
+  firmwareBundle, fixedPointTable, fixedPointCost, withFixedPointCodewords, RESIDUAL_WIDTHS,
+  type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
+} from './firmware';
 
 // ---- entry validation ----
 const int = (min: number, max?: number) => (max === undefined ? z.int().min(min) : z.int().min(min).max(max));

@@ -199,7 +199,6 @@ describe('exported C decoder', () => {
       expect(Buffer.from(readNetpbm(out).pixels).equals(Buffer.from(expected)), `trial ${trial}`).toBe(true);
     }
     expect(rejected + accepted).toBe(300);
-    console.log(`corruptions: ${rejected} rejected, ${accepted} decoded as the studio's reader decodes them`);
     // Truncations and payload bit flips (two thirds of the trials) are always caught by the lengths and the CRC-32.
     expect(rejected).toBeGreaterThanOrEqual(200);
   });
@@ -227,6 +226,14 @@ describe('exported C decoder', () => {
       const r = runDecoder(b.sanitized, file, join(b.dir, `reason-${name}.pnm`), true);
       expect(r.status, name).toBe(1);
       expect(r.stderr, name).toMatch(message);
+    }
+  });
+
+  it('is written in the basic source character set (ASCII), as portable C99 needs', () => {
+    for (const b of built.values()) {
+      for (const name of ['cw_codebook.h', 'cw_decode.h', 'cw_decode.c', 'decode_file.c']) {
+        expect(/[^\x09\x0a\x20-\x7e]/.test(readFileSync(join(b.dir, name), 'latin1')), name).toBe(false);
+      }
     }
   });
 

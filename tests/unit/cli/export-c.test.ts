@@ -92,4 +92,16 @@ describe('cellwright export --target c', () => {
     expect(c.stderr).toMatch(/cannot write the bundle to .*a-file: it is not a folder/);
     expect(readdirSync(dir).sort()).toEqual(before);
   });
+
+  it('reads every image before making the folder, so a broken one leaves nothing behind', async () => {
+    mkdirSync(p('broken'));
+    writeFileSync(p('broken', 'cut.png'), readFileSync(p('held', 'ramp.png')).subarray(0, 40));
+    const before = readdirSync(dir).sort();
+    const r = await cli('export', '--codebook', p('plain.json'), '--target', 'c', '--out', p('fw3'), '--images', p('broken'));
+    expect(r.status).toBe(1);
+    expect(r.stdout).toBe('');
+    expect(r.stderr.split('\n').filter(Boolean)).toHaveLength(1);
+    expect(r.stderr).toMatch(/cut\.png/);
+    expect(readdirSync(dir).sort()).toEqual(before);
+  });
 });

@@ -63,7 +63,7 @@ function costJson(cost: RoundingCost | null) {
 function costText(bundle: FirmwareBundle, cost: RoundingCost | null): string {
   const t = bundle.table;
   const format = t.type === 'uint8' ? 'uint8 (the decoder\'s own rounding: byte for byte the studio\'s output)' : `${t.type} Q${(t.type === 'int8' ? 7 : 15) - t.fractionBits}.${t.fractionBits}`;
-  const saturated = t.saturated > 0 && t.type !== 'uint8' ? `, ${t.saturated} components saturated` : '';
+  const saturated = t.saturated > 0 ? `, ${t.saturated} components saturated` : '';
   let text = `table: ${format}${saturated}\n`;
   if (!cost) return `${text}rounding cost: not measured (give --images)\n`;
   const rows = cost.images.map((c) => [basename(c.name), fmt.psnr(c.psnrFloat), fmt.psnr(c.psnrFixed), c.costDb.toFixed(4), c.differing]);

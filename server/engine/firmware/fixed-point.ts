@@ -21,7 +21,7 @@ export interface FixedPointTable {
   fractionBits: number;
   /** stored values, K × d row-major */
   values: Int32Array;
-  /** components whose rounded value fell outside the type's range and were saturated to its end */
+  /** residual components whose rounded value fell outside the type's range and were saturated to its end (0 for uint8) */
   saturated: number;
   /** the same values as numbers (v / 2^F, exact in float32), for decoding with the engine's own decoder */
   codewords: Float32Array;
@@ -42,14 +42,13 @@ export function fixedPointTable(codebook: Codebook, width: ResidualWidth = 'int1
   const src = codebook.codewords;
   if (codebook.preprocessing.kind === 'none') {
     const values = new Int32Array(src.length);
-    let saturated = 0;
+    // The decoder clamps to 0..255 before it rounds, so an entry clamped here decodes exactly as its float value does:
+    // nothing is lost, and nothing counts as saturated.
     for (let i = 0; i < src.length; i += 1) {
       const v = src[i];
-      // The decoder's clamp comes first, so a value outside 0..255 decodes exactly as its clamped entry does.
-      if (v < -0.5 || v >= 255.5) saturated += 1;
       values[i] = v <= 0 ? 0 : v >= 255 ? 255 : roundHalfUp(v);
     }
-    return { type: 'uint8', fractionBits: 0, values, saturated, codewords: Float32Array.from(values) };
+    return { type: 'uint8', fractionBits: 0, values, saturated: 0, codewords: Float32Array.from(values) };
   }
   if (!RESIDUAL_WIDTHS.includes(width)) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `residual width must be int8 or int16, got ${String(width)}`, 'width');
   const [lo, hi] = RANGES[width];

@@ -6,7 +6,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import {
-  decode, encode, firmwareBundle, fixedPointCost, makeCodebook, readContainer, reconstruct, shutdownEngineWorkers, withFixedPointCodewords,
+  decode, encode, firmwareBundle, fixedPointCost, makeCodebook, parseCodebookJson, readContainer, reconstruct, shutdownEngineWorkers, withFixedPointCodewords,
   type Codebook, type PixelImage, type ResidualWidth,
 } from '../../../server/engine';
 
@@ -227,6 +227,21 @@ describe('exported C decoder', () => {
       expect(r.status, name).toBe(1);
       expect(r.stderr, name).toMatch(message);
     }
+  });
+
+  it('decodes the committed version 1 file (from before version 2) to the pixels it decoded to when written', () => {
+    const fixtures = new URL('../../fixtures/container-v1/', import.meta.url);
+    const book = parseCodebookJson(readFileSync(new URL('codebook.json', fixtures), 'utf8'));
+    const dir = join(root, 'v1');
+    mkdirSync(dir);
+    const bundle = firmwareBundle(book);
+    for (const f of bundle.files) writeFileSync(join(dir, f.name), f.text);
+    gcc([...SANITIZED, '-o', 'decode_file', 'cw_decode.c', 'decode_file.c'], dir);
+    const r = runDecoder(join(dir, 'decode_file'), new URL('image.cwvq', fixtures).pathname, join(dir, 'v1.ppm'), true);
+    expect(r.stderr).toBe('');
+    // Its residuals are multiples of 1/4, exact in the Q5.10 table, so the float decoder's pixels come out.
+    expect(bundle.table.fractionBits).toBe(10);
+    expect(Buffer.from(readNetpbm(join(dir, 'v1.ppm')).pixels).equals(readFileSync(new URL('decoded.rgb', fixtures)))).toBe(true);
   });
 
   it('is written in the basic source character set (ASCII), as portable C99 needs', () => {

@@ -9,6 +9,7 @@ import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train
 import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
 import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 import { MAX_RESYNC_ROWS, PAYLOAD_CHOICES, readContainer, writeContainer, type ContainerOptions } from './format/container';
+import { buildFirmwareBundle, measureFixedPointCost, RESIDUAL_WIDTHS, type FirmwareBundle, type FixedPointTable, type RoundingCost } from './firmware';
 import { EngineInputError } from './input-error';
 import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/image';
 import { removeMeans } from './io/mean-removal';
@@ -67,7 +68,7 @@ export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDist
 export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
 export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
 export {
-  firmwareBundle, fixedPointTable, fixedPointCost, withFixedPointCodewords, RESIDUAL_WIDTHS,
+  fixedPointTable, withFixedPointCodewords, RESIDUAL_WIDTHS,
   type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
 } from './firmware';
 
@@ -284,6 +285,25 @@ export async function encode(
 export function decode(codebook: Codebook, bytes: Uint8Array): { width: number; height: number; channels: 1 | 3; pixels: Uint8Array } {
   const encoded = readContainer(codebook, bytes);
   return { width: encoded.width, height: encoded.height, channels: encoded.header.color === 'rgb' ? 3 : 1, pixels: reconstruct(codebook, encoded) };
+}
+
+// ---- firmware export ----
+
+const firmwareSchema = z.object({ residual: z.enum(RESIDUAL_WIDTHS).optional() });
+
+/**
+ * The C firmware bundle of a codebook (server/engine/firmware): fixed-point table, reference decoder, example, README.
+ * `residual` stores a mean-removed codebook's residuals as int16 (default) or int8; plain codebooks are uint8.
+ */
+export function firmwareBundle(codebook: Codebook, options: { residual?: (typeof RESIDUAL_WIDTHS)[number] } = {}): FirmwareBundle {
+  check(firmwareSchema, options, 'firmwareBundle');
+  return buildFirmwareBundle(codebook, options.residual);
+}
+
+/** The PSNR cost of a firmware table's rounding on images: each coded once, decoded with float and fixed-point codewords. */
+export async function fixedPointCost(codebook: Codebook, table: FixedPointTable, images: PixelImage[], options: { threads?: number; signal?: AbortSignal } = {}): Promise<RoundingCost> {
+  check(z.object({ threads: threadsSchema, signal: signalSchema }), options, 'fixedPointCost');
+  return measureFixedPointCost(codebook, table, images, options);
 }
 
 // ---- evaluation and baselines ----

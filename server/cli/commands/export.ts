@@ -86,7 +86,7 @@ export async function runExport(argv: string[], ctx: CliContext): Promise<void> 
   const threads = intOption(values, 'threads', { min: 1, max: 1024 });
   const book = await loadCodebook(codebookPath);
   if (!book.patch) throw new CliInputError(`codebook ${codebookPath} was trained on raw vectors and has no patch geometry, so no image decoder can be built for it`);
-  const bundle = firmwareBundle(book, residual);
+  const bundle = firmwareBundle(book, { residual });
   let cost: RoundingCost | null = null;
   if (imagesDir !== undefined) {
     const loading = progressBar(ctx, 'reading images');

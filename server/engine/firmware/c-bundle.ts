@@ -128,7 +128,7 @@ ${pixelRule}
  * The firmware bundle of a codebook: the generated codeword header, the reference decoder in C99, the example program
  * and a README. `residualWidth` chooses int8 or int16 storage for mean-removed codebooks (plain ones are uint8).
  */
-export function firmwareBundle(codebook: Codebook, residualWidth: ResidualWidth = 'int16'): FirmwareBundle {
+export function buildFirmwareBundle(codebook: Codebook, residualWidth: ResidualWidth = 'int16'): FirmwareBundle {
   const patch = codebook.patch;
   if (!patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook was trained on raw vectors and has no patch geometry, so no image decoder can be built for it');
   const table = fixedPointTable(codebook, residualWidth);

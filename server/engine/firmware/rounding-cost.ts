@@ -32,7 +32,7 @@ function cost(a: number, b: number): number {
  * The PSNR cost of the firmware table's rounding: each image is coded once (float search, as the studio codes it),
  * then decoded with the float codewords and with the fixed-point ones, and both are measured against the image.
  */
-export async function fixedPointCost(
+export async function measureFixedPointCost(
   codebook: Codebook,
   table: FixedPointTable,
   images: PixelImage[],

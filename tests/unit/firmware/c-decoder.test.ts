@@ -116,7 +116,7 @@ beforeAll(async () => {
     const book = codebookFor(c);
     const dir = join(root, c.name);
     mkdirSync(dir);
-    const bundle = firmwareBundle(book, c.residual);
+    const bundle = firmwareBundle(book, { residual: c.residual });
     for (const f of bundle.files) writeFileSync(join(dir, f.name), f.text);
     const sources = bundle.files.filter((f) => f.name.endsWith('.c')).map((f) => f.name);
     gcc([...STRICT, '-o', 'decode_file', ...sources], dir);
@@ -302,7 +302,7 @@ describe('fixed-point rounding cost', () => {
 
   it('measures the PSNR lost by the residual table against the float decoder, per image and pooled', async () => {
     const b = built.get('rgb-mean8-2x2-k700-int8')!;
-    const table = firmwareBundle(b.book, 'int8').table;
+    const table = firmwareBundle(b.book, { residual: 'int8' }).table;
     const images = [imageFor('rgb', 33, 18, 4), imageFor('rgb', 64, 41, 5)];
     const cost = await fixedPointCost(b.book, table, images);
     // Worked out here from the two decoders' outputs: squared errors pooled over every component.

@@ -5,6 +5,7 @@ import { processContext, type CliContext } from './context';
 import { DECODE_HELP, runDecode } from './commands/decode';
 import { ENCODE_HELP, runEncode } from './commands/encode';
 import { EVAL_HELP, runEval } from './commands/eval';
+import { EXPORT_HELP, runExport } from './commands/export';
 import { runSweep, SWEEP_HELP } from './commands/sweep';
 import { runTrain, TRAIN_HELP } from './commands/train';
 
@@ -13,6 +14,7 @@ const COMMANDS: Record<string, { run: (argv: string[], ctx: CliContext) => Promi
   eval: { run: runEval, help: EVAL_HELP, summary: 'measure rate and distortion of a codebook on held-out images or vectors' },
   encode: { run: runEncode, help: ENCODE_HELP, summary: 'code an image with a codebook' },
   decode: { run: runDecode, help: DECODE_HELP, summary: 'decode a coded file to PNG' },
+  export: { run: runExport, help: EXPORT_HELP, summary: 'write a codebook for use elsewhere (--target c: fixed-point table and C99 decoder)' },
   sweep: { run: runSweep, help: SWEEP_HELP, summary: 'the studio\'s run over a range of b: train, evaluate on held-out images, rate–distortion CSV' },
 };
 

@@ -8,7 +8,8 @@ import { z } from 'zod';
 import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './training';
 import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
 import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
-import { readContainer, writeContainer } from './format/container';
+import { MAX_RESYNC_ROWS, PAYLOAD_CHOICES, readContainer, writeContainer, type ContainerOptions } from './format/container';
+import { buildFirmwareBundle, measureFixedPointCost, RESIDUAL_WIDTHS, type FirmwareBundle, type FixedPointTable, type RoundingCost } from './firmware';
 import { EngineInputError } from './input-error';
 import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/image';
 import { removeMeans } from './io/mean-removal';
@@ -37,7 +38,20 @@ export {
 } from './format/codebook-schema';
 export { codebookJsonSchemaText } from './format/codebook-json-schema';
 export { codewordChecksum } from './format/checksum';
-export { readContainer, readContainerHeader, writeContainer, CONTAINER_VERSION, type ContainerHeader } from './format/container';
+export {
+  readContainer,
+  readContainerHeader,
+  writeContainer,
+  payloadLayout,
+  CONTAINER_VERSION,
+  HEADER_BYTES,
+  MAX_RESYNC_ROWS,
+  PAYLOAD_CHOICES,
+  RESYNC_MARKER_BYTES,
+  type ContainerHeader,
+  type ContainerOptions,
+  type PayloadChoice,
+} from './format/container';
 export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
@@ -61,6 +75,10 @@ export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_COD
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';
 export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
 export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
+export {
+  fixedPointTable, withFixedPointCodewords, RESIDUAL_WIDTHS,
+  type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
+} from './firmware';
 
 // ---- entry validation ----
 const int = (min: number, max?: number) => (max === undefined ? z.int().min(min) : z.int().min(min).max(max));
@@ -249,19 +267,51 @@ export async function trainCodebooks(vectors: Float32Array, dimension: number, o
 
 // ---- coding ----
 
-const codingSchema = z.object({ threads: threadsSchema, signal: signalSchema });
+const codingSchema = z.object({
+  threads: threadsSchema,
+  signal: signalSchema,
+  payload: z.enum(PAYLOAD_CHOICES).optional(),
+  resyncRows: z.number().int().min(0).max(MAX_RESYNC_ROWS).optional(),
+});
 
-/** Codes an image: the container bytes, the indices, and the decoder's output (height × width × channels, 8-bit). */
-export async function encode(codebook: Codebook, image: PixelImage, options: { threads?: number; signal?: AbortSignal } = {}): Promise<{ container: Buffer; encoded: EncodedImage; reconstruction: Uint8Array }> {
+/**
+ * Codes an image: the container bytes, the indices, and the decoder's output (height × width × channels, 8-bit).
+ * `payload` and `resyncRows` choose how the container stores the payload (ContainerOptions; default: the smallest, no markers).
+ */
+export async function encode(
+  codebook: Codebook,
+  image: PixelImage,
+  options: { threads?: number; signal?: AbortSignal } & ContainerOptions = {},
+): Promise<{ container: Buffer; encoded: EncodedImage; reconstruction: Uint8Array }> {
   check(codingSchema, options, 'encode');
   const encoded = await encodeImage(codebook, image, options);
-  return { container: writeContainer(codebook, encoded), encoded, reconstruction: reconstruct(codebook, encoded) };
+  const container = writeContainer(codebook, encoded, { payload: options.payload, resyncRows: options.resyncRows });
+  return { container, encoded, reconstruction: reconstruct(codebook, encoded) };
 }
 
 /** Decodes container bytes with the codebook they were coded with. */
 export function decode(codebook: Codebook, bytes: Uint8Array): { width: number; height: number; channels: 1 | 3; pixels: Uint8Array } {
   const encoded = readContainer(codebook, bytes);
   return { width: encoded.width, height: encoded.height, channels: encoded.header.color === 'rgb' ? 3 : 1, pixels: reconstruct(codebook, encoded) };
+}
+
+// ---- firmware export ----
+
+const firmwareSchema = z.object({ residual: z.enum(RESIDUAL_WIDTHS).optional() });
+
+/**
+ * The C firmware bundle of a codebook (server/engine/firmware): fixed-point table, reference decoder, example, README.
+ * `residual` stores a mean-removed codebook's residuals as int16 (default) or int8; plain codebooks are uint8.
+ */
+export function firmwareBundle(codebook: Codebook, options: { residual?: (typeof RESIDUAL_WIDTHS)[number] } = {}): FirmwareBundle {
+  check(firmwareSchema, options, 'firmwareBundle');
+  return buildFirmwareBundle(codebook, options.residual);
+}
+
+/** The PSNR cost of a firmware table's rounding on images: each coded once, decoded with float and fixed-point codewords. */
+export async function fixedPointCost(codebook: Codebook, table: FixedPointTable, images: PixelImage[], options: { threads?: number; signal?: AbortSignal } = {}): Promise<RoundingCost> {
+  check(z.object({ threads: threadsSchema, signal: signalSchema }), options, 'fixedPointCost');
+  return measureFixedPointCost(codebook, table, images, options);
 }
 
 // ---- evaluation and baselines ----

@@ -132,18 +132,18 @@ const accountRoutes: RouteDescription[] = [
 ];
 
 const teamRoutes: RouteDescription[] = [
-  { method: 'get', path: '/api/teams/:teamId/members', tag: 'Team', summary: 'List the team’s members', access: 'member', input: { params: teamParams }, responses: { 200: json(membersResponse, 'The members') } },
+  { method: 'get', path: '/api/teams/:teamId/members', tag: 'Team', summary: 'List the team’s members', access: 'member', responses: { 200: json(membersResponse, 'The members') } },
   { method: 'patch', path: '/api/teams/:teamId/members/:userId', tag: 'Team', summary: 'Change a member’s role', access: 'admin', input: { params: memberParams, body: updateMemberBody }, responses: { 200: json(memberResponse, 'The member') }, errors: { 409: 'The team would be left without an admin' } },
   { method: 'delete', path: '/api/teams/:teamId/members/:userId', tag: 'Team', summary: 'Remove a member', access: 'admin', input: { params: memberParams }, responses: { 204: noContent }, errors: { 409: 'The team would be left without an admin' } },
-  { method: 'get', path: '/api/teams/:teamId/invitations', tag: 'Team', summary: 'List the team’s invitations', access: 'admin', input: { params: teamParams }, responses: { 200: json(invitationsResponse, 'The invitations') } },
+  { method: 'get', path: '/api/teams/:teamId/invitations', tag: 'Team', summary: 'List the team’s invitations', access: 'admin', responses: { 200: json(invitationsResponse, 'The invitations') } },
   { method: 'post', path: '/api/teams/:teamId/invitations', tag: 'Team', summary: 'Invite someone by e-mail', access: 'admin', input: { body: createInvitationBody }, responses: { 201: json(invitationResponse, 'The invitation (its link is mailed)') }, errors: { 409: 'The person is already a member of the team' } },
   { method: 'delete', path: '/api/teams/:teamId/invitations/:invitationId', tag: 'Team', summary: 'Revoke an invitation', access: 'admin', input: { params: invitationParams }, responses: { 204: noContent }, errors: { 409: 'The invitation has already been accepted' } },
-  { method: 'get', path: '/api/teams/:teamId/outbox', tag: 'Team', summary: 'The mail the studio sent for the team', access: 'admin', input: { params: teamParams }, responses: { 200: json(outboxResponse, 'The messages') } },
-  { method: 'get', path: '/api/teams/:teamId/workers', tag: 'Team', summary: 'The studio’s compute workers and queues', access: 'admin', input: { params: teamParams }, responses: { 200: json(workersResponse, 'Workers and queues') } },
+  { method: 'get', path: '/api/teams/:teamId/outbox', tag: 'Team', summary: 'The mail the studio sent for the team', access: 'admin', responses: { 200: json(outboxResponse, 'The messages') } },
+  { method: 'get', path: '/api/teams/:teamId/workers', tag: 'Team', summary: 'The studio’s compute workers and queues', access: 'admin', responses: { 200: json(workersResponse, 'Workers and queues') } },
 ];
 
 const imageRoutes: RouteDescription[] = [
-  { method: 'get', path: '/api/teams/:teamId/image-sets', tag: 'Images', summary: 'List image sets', access: 'member', input: { params: teamParams }, responses: { 200: json(imageSetsResponse, 'The sets') } },
+  { method: 'get', path: '/api/teams/:teamId/image-sets', tag: 'Images', summary: 'List image sets', access: 'member', responses: { 200: json(imageSetsResponse, 'The sets') } },
   { method: 'post', path: '/api/teams/:teamId/image-sets', tag: 'Images', summary: 'Create an image set', access: 'engineer', input: { params: teamParams, body: createImageSetBody }, responses: { 201: json(imageSetResponse, 'The new set') }, errors: { 409: 'A set of that name exists' } },
   { method: 'get', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Read an image set', access: 'member', input: { params: imageSetParams }, responses: { 200: json(imageSetResponse, 'The set') } },
   { method: 'patch', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Rename, describe or reassign image roles in a set', access: 'engineer', input: { params: imageSetParams, body: updateImageSetBody }, responses: { 200: json(imageSetResponse, 'The set') }, errors: { 409: 'A set of that name exists' } },

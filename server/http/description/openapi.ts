@@ -61,6 +61,7 @@ const operationId = (r: RouteDescription) =>
 function contentSchema(content: Content, opts: OpenApiOptions, io: 'input' | 'output'): Json | undefined {
   if (content === 'binary') return undefined; // OpenAPI 3.1 §4.8.14.3: binary content needs no schema
   if (content === 'text') return { type: 'string' };
+  if (content === 'object') return { type: 'object' };
   if ('ref' in content) return { $ref: opts.codebookSchemaUrl };
   return jsonSchemaOf(content, io);
 }

@@ -78,8 +78,8 @@ export type Access = 'public' | 'optional-session' | 'session' | 'member' | 'eng
 /** The JSON Schema document the API serves itself (GET /api/schemas/…), referenced rather than copied. */
 export type SchemaRef = { ref: 'codebook' };
 
-/** A body of one media type: JSON by its zod contract or a served schema; anything else as bytes or text. */
-export type Content = z.ZodType | SchemaRef | 'binary' | 'text';
+/** A body of one media type: JSON by its zod contract or a served schema, a JSON object described elsewhere, bytes or text. */
+export type Content = z.ZodType | SchemaRef | 'binary' | 'text' | 'object';
 
 export interface ResponseDescription {
   description: string;
@@ -116,8 +116,8 @@ const tooManyAttempts = { 429: 'Too many attempts from this network address; Ret
 
 const accountRoutes: RouteDescription[] = [
   { method: 'get', path: '/api/health', tag: 'Service', summary: 'Whether the service and its database are up', access: 'public', responses: { 200: json(healthResponse, 'Up'), 503: json(healthResponse, 'The database is down') } },
-  { method: 'get', path: '/api/openapi.json', tag: 'Service', summary: 'This description of the API (OpenAPI 3.1)', access: 'public', responses: { 200: { description: 'The OpenAPI document', content: { 'application/json': 'text' } } } },
-  { method: 'get', path: '/api/schemas/codebook.schema.json', tag: 'Service', summary: 'The JSON Schema (draft 2020-12) of the codebook export document, with its $id', access: 'public', responses: { 200: { description: 'The codebook format’s JSON Schema', content: { 'application/schema+json': 'text' } } } },
+  { method: 'get', path: '/api/openapi.json', tag: 'Service', summary: 'This description of the API (OpenAPI 3.1)', access: 'public', responses: { 200: { description: 'The OpenAPI document', content: { 'application/json': 'object' } } } },
+  { method: 'get', path: '/api/schemas/codebook.schema.json', tag: 'Service', summary: 'The JSON Schema (draft 2020-12) of the codebook export document, with its $id', access: 'public', responses: { 200: { description: 'The codebook format’s JSON Schema', content: { 'application/schema+json': 'object' } } } },
   { method: 'post', path: '/api/auth/signup', tag: 'Accounts', summary: 'Ask for a sign-up link by e-mail', access: 'public', input: { body: signupRequestBody }, responses: { 202: json(acceptedResponse, 'Accepted, whether or not the address has an account') }, errors: tooManyAttempts },
   { method: 'get', path: '/api/auth/signup/:token', tag: 'Accounts', summary: 'Check a sign-up link', access: 'public', input: { params: signupLinkParams }, responses: { 200: json(signupLinkPreview, 'The address the link is for') }, errors: { 410: 'The link has expired or been used' } },
   { method: 'post', path: '/api/auth/signup/complete', tag: 'Accounts', summary: 'Finish signing up: name, password and a first team', access: 'public', input: { body: signupCompleteBody }, responses: { 201: json(signupResponse, 'Signed up and signed in (the session cookie is set)') }, errors: { 409: 'The address already has an account', 410: 'The link has expired or been used', ...tooManyAttempts } },

@@ -37,6 +37,7 @@ import {
   memberResponse,
   membersResponse,
   meResponse,
+  openApiDocumentResponse,
   originalParams,
   outboxResponse,
   passwordResetConfirmBody,
@@ -116,7 +117,7 @@ const tooManyAttempts = { 429: 'Too many attempts from this network address; Ret
 
 const accountRoutes: RouteDescription[] = [
   { method: 'get', path: '/api/health', tag: 'Service', summary: 'Whether the service and its database are up', access: 'public', responses: { 200: json(healthResponse, 'Up'), 503: json(healthResponse, 'The database is down') } },
-  { method: 'get', path: '/api/openapi.json', tag: 'Service', summary: 'This description of the API (OpenAPI 3.1)', access: 'public', responses: { 200: { description: 'The OpenAPI document', content: { 'application/json': 'object' } } } },
+  { method: 'get', path: '/api/openapi.json', tag: 'Service', summary: 'This description of the API (OpenAPI 3.1)', access: 'public', responses: { 200: { description: 'The OpenAPI document', content: { 'application/json': openApiDocumentResponse } } } },
   { method: 'get', path: '/api/schemas/codebook.schema.json', tag: 'Service', summary: 'The JSON Schema (draft 2020-12) of the codebook export document, with its $id', access: 'public', responses: { 200: { description: 'The codebook format’s JSON Schema', content: { 'application/schema+json': 'object' } } } },
   { method: 'post', path: '/api/auth/signup', tag: 'Accounts', summary: 'Ask for a sign-up link by e-mail', access: 'public', input: { body: signupRequestBody }, responses: { 202: json(acceptedResponse, 'Accepted, whether or not the address has an account') }, errors: tooManyAttempts },
   { method: 'get', path: '/api/auth/signup/:token', tag: 'Accounts', summary: 'Check a sign-up link', access: 'public', input: { params: signupLinkParams }, responses: { 200: json(signupLinkPreview, 'The address the link is for') }, errors: { 410: 'The link has expired or been used' } },

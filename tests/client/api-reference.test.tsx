@@ -58,3 +58,12 @@ describe('the API reference page', () => {
     expect(screen.getByText('No other fields.')).toBeTruthy();
   });
 });
+
+describe('a field of several shapes', () => {
+  it('lists the fields of its object alternative', () => {
+    render(<SchemaView schema={{ type: 'object', properties: { bits: { anyOf: [{ type: 'integer' }, { type: 'object', properties: { from: { type: 'integer' } }, required: ['from'] }] } }, required: ['bits'] }} />);
+    expect(screen.getByText('bits').closest('li')!.textContent).toContain('integer | objectrequired');
+    expect(screen.getByText('as an object:')).toBeTruthy();
+    expect(screen.getByText('from').closest('li')!.textContent).toBe('fromintegerrequired');
+  });
+});

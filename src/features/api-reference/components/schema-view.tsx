@@ -19,6 +19,12 @@ function nestedObject(schema: JsonSchema): JsonSchema | undefined {
   return variants.length === 1 ? nestedObject(variants[0]) : undefined;
 }
 
+/** The object alternatives of an anyOf that has other alternatives too ("integer | object"), each to be listed. */
+function objectVariants(schema: JsonSchema): JsonSchema[] {
+  if (!Array.isArray(schema.anyOf)) return [];
+  return (schema.anyOf as JsonSchema[]).map((s) => nestedObject(s)).filter((s): s is JsonSchema => s !== undefined);
+}
+
 /** A one-line description of a schema's type: "integer", "array of string", "\"a\" | \"b\"", "number | null". */
 export function typeLabel(schema: JsonSchema): ReactNode {
   if (typeof schema.$ref === 'string') {
@@ -86,6 +92,12 @@ function PropertyRow({ name, schema, required, depth }: { name: string; schema: 
       </div>
       {typeof schema.description === 'string' && <p className="text-xs text-ink-600">{schema.description}</p>}
       {nested && depth < 6 && <ObjectProperties schema={nested} depth={depth + 1} />}
+      {!nested && depth < 6 && objectVariants(schema).map((variant, i) => (
+        <div key={i} className="mt-1">
+          <p className="text-xs text-ink-500">as an object:</p>
+          <ObjectProperties schema={variant} depth={depth + 1} />
+        </div>
+      ))}
     </li>
   );
 }

@@ -21,13 +21,25 @@ interface Layer {
  * of being skipped, and so does a tagged guard mounted below a path, whose reach the walk would have to guess.
  */
 export function mountedRoutes(app: Express): MountedRoute[] {
+  return walkApp(app).routes;
+}
+
+/**
+ * The paths below which plain middleware (a function that is neither a route nor a router) is mounted. Such a
+ * function could answer requests itself, unseen by the route walk, so the tests list where they may sit.
+ */
+export function plainMiddlewareMounts(app: Express): string[] {
+  return [...new Set(walkApp(app).plain)].sort();
+}
+
+function walkApp(app: Express): { routes: MountedRoute[]; plain: string[] } {
   const root = (app as unknown as { router: { stack: Layer[] } }).router;
-  const out: MountedRoute[] = [];
+  const out = { routes: [] as MountedRoute[], plain: [] as string[] };
   walk(root.stack, '', [], out);
   return out;
 }
 
-function walk(stack: Layer[], prefix: string, inherited: MiddlewareMeta[], out: MountedRoute[]): void {
+function walk(stack: Layer[], prefix: string, inherited: MiddlewareMeta[], out: { routes: MountedRoute[]; plain: string[] }): void {
   const guards = [...inherited];
   for (const layer of stack) {
     if (layer.route) {
@@ -37,7 +49,7 @@ function walk(stack: Layer[], prefix: string, inherited: MiddlewareMeta[], out: 
       for (const [method, on] of Object.entries(methods)) {
         if (!on) continue;
         if (method === '_all') throw new Error(`${prefix}${path} answers every method; the description needs each one`);
-        out.push({ method, path: `${prefix}${path === '/' ? '' : path}` || '/', guards: [...guards, ...own] });
+        out.routes.push({ method, path: `${prefix}${path === '/' ? '' : path}` || '/', guards: [...guards, ...own] });
       }
       continue;
     }
@@ -48,7 +60,10 @@ function walk(stack: Layer[], prefix: string, inherited: MiddlewareMeta[], out: 
       continue;
     }
     const meta = middlewareMeta(layer.handle);
-    if (!meta) continue;
+    if (!meta) {
+      out.plain.push(`${prefix}${mount}` || '/');
+      continue;
+    }
     if (mount !== '') throw new Error(`a ${meta.kind} guard is mounted at ${prefix}${mount}; mount guards on routes or routers`);
     guards.push(meta);
   }

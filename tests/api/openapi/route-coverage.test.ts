@@ -7,7 +7,7 @@ import { accessRoles } from '../../../server/http/description/openapi';
 import { routeTable, type Access, type RouteDescription } from '../../../server/http/description/route-table';
 import type { Role } from '../../../server/contracts';
 import { createTestApp, type TestApp } from '../../helpers/api';
-import { mountedRoutes, type MountedRoute } from '../../helpers/mounted-routes';
+import { mountedRoutes, plainMiddlewareMounts, type MountedRoute } from '../../helpers/mounted-routes';
 import { routes as accessMatrix } from '../hostile/routes';
 
 let t: TestApp;
@@ -44,6 +44,13 @@ describe('the API description', () => {
     expect(mounted.length).toBeGreaterThan(40);
     expect(routeTable.map(key).sort()).toEqual(mounted.map(key).sort());
     expect(new Set(routeTable.map(key)).size).toBe(routeTable.length);
+  });
+
+  it('leaves no way to answer a request outside a route: plain middleware sits only on the whole app or API', () => {
+    // Helmet, logging, body-type checks, passport, the JSON 404 of unknown /api and /internal paths, and the body
+    // reader of the anonymous account routes. A function mounted below a path of its own (app.use('/api/x', fn))
+    // could serve an endpoint the walk cannot see, so a new place fails here until someone has looked at it.
+    expect(plainMiddlewareMounts(t.app)).toEqual(['/', '/api', '/api/auth', '/internal']);
   });
 
   it('gives each route the access its guards enforce', () => {

@@ -98,12 +98,15 @@ export function errorStatuses(r: RouteDescription): Record<number, string> {
   if (reads) out[400] = 'The request is not valid (validation_failed, with details per field)';
   if (r.access === 'worker') out[401] = 'No valid worker credential';
   else if (r.access !== 'public' && r.access !== 'optional-session') out[401] = 'No live session';
-  if (r.access === 'engineer' || r.access === 'admin') out[403] = `A member without the ${accessRoles[r.access]!.join(' or ')} role`;
+  const refusals: string[] = [];
+  if (r.access === 'engineer' || r.access === 'admin') refusals.push(`a member without the ${accessRoles[r.access]!.join(' or ')} role`);
+  // server/app.ts: originCheck and refuseCrossSiteMutations judge every changing request under /api.
+  if (r.method !== 'get' && r.path.startsWith('/api/')) refusals.push('a request from another site (Origin, Referer or Sec-Fetch-Site)');
+  if (refusals.length > 0) out[403] = `Refused: ${refusals.join('; or ')}`;
   if (pathNames(r.path).length > 0) out[404] = r.path.includes(':teamId') ? 'No such object in the team, or the caller is not a member of the team' : 'No such object';
-  if (r.input?.body || r.rawBody?.mediaType === 'application/json') {
-    out[413] = 'The body is over the caller’s limit';
-    out[415] = 'The body is not JSON, or is compressed';
-  }
+  if (r.input?.body || r.rawBody?.mediaType === 'application/json') out[413] = 'The body is over the caller’s limit';
+  // server/app.ts: requireKnownBodyType and requireIdentityEncoding judge any body sent under /api, whatever the route.
+  if (r.path.startsWith('/api/')) out[415] = 'A body was sent in a type other than JSON (or multipart for uploads), or compressed';
   return { ...out, ...r.errors };
 }
 

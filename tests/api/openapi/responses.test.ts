@@ -127,7 +127,7 @@ describe('responses of the API against its description', () => {
     check(await api().delete(team(`/runs/${second}`)).set(bearer(admin)));
   });
 
-  it('match it for refusals: no session, wrong role, another team, bad input, bad worker credential', async () => {
+  it('match it for refusals: no session, wrong role, another team, bad input, bad worker credential, another site, a body of an unknown type', async () => {
     const refusals = [
       check(await api().get(team('/runs'))),
       check(await api().post(team('/image-sets')).set(bearer(viewer)).send({ name: 'not mine to make' })),
@@ -136,8 +136,10 @@ describe('responses of the API against its description', () => {
       check(await api().get(team('/runs/0x1')).set(bearer(viewer))),
       check(await api().post('/api/auth/login').send({ email: engineer.user.email, password: 'not the password' })),
       check(await api().post('/internal/v1/workers').send({ host: 'probe', threads: 1 })),
+      check(await api().post('/api/auth/login').set('Sec-Fetch-Site', 'cross-site').send({ email: engineer.user.email, password: testPassword })),
+      check(await api().get('/api/health').set('Content-Type', 'text/plain').send('a body of an unknown type')),
     ];
-    expect(refusals.map((r) => r.status)).toEqual([401, 403, 404, 400, 400, 401, 401]);
+    expect(refusals.map((r) => r.status)).toEqual([401, 403, 404, 400, 400, 401, 401, 403, 415]);
   });
 
   it('covers most of the documented operations in the run above', () => {

@@ -102,6 +102,9 @@ describe('the OpenAPI document', () => {
     expect(get('/api/teams/{teamId}/runs/{runId}', 'delete').responses['403']).toBeDefined();
     expect(get('/api/me').responses['403']).toBeUndefined();
     expect(get('/api/me').responses['401']).toBeDefined();
+    // The app-wide checks: changing requests from another site are refused, and so is any body of an unknown type.
+    expect(get('/api/auth/login', 'post').responses['403'].description).toMatch(/another site/);
+    expect(get('/api/health').responses['415']).toBeDefined();
   });
 
   it('refers to the served codebook schema for the export and import bodies', () => {

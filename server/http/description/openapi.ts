@@ -94,8 +94,13 @@ function parameters(r: RouteDescription): Json[] {
 /** The 4xx answers that follow from who may call a route and what it reads, plus the ones it lists itself. */
 export function errorStatuses(r: RouteDescription): Record<number, string> {
   const out: Record<number, string> = {};
-  const reads = Boolean(r.input || r.rawBody);
-  if (reads) out[400] = 'The request is not valid (validation_failed, with details per field)';
+  const readsJson = Boolean(r.input?.body || r.rawBody?.mediaType === 'application/json' || r.readsJsonBody);
+  const why400: string[] = [];
+  if (r.input || r.rawBody) why400.push('input that does not fit the schemas (validation_failed, with details per field)');
+  if (readsJson) why400.push('a body that is not valid JSON in UTF-8');
+  // Express decodes path parameters before any handler runs and refuses a malformed percent-encoding.
+  if (pathNames(r.path).length > 0) why400.push('a path segment that is not valid percent-encoding');
+  if (why400.length > 0) out[400] = `The request is not valid: ${why400.join('; or ')}`;
   if (r.access === 'worker') out[401] = 'No valid worker credential';
   else if (r.access !== 'public' && r.access !== 'optional-session') out[401] = 'No live session';
   const refusals: string[] = [];
@@ -104,7 +109,7 @@ export function errorStatuses(r: RouteDescription): Record<number, string> {
   if (r.method !== 'get' && r.path.startsWith('/api/')) refusals.push('a request from another site (Origin, Referer or Sec-Fetch-Site)');
   if (refusals.length > 0) out[403] = `Refused: ${refusals.join('; or ')}`;
   if (pathNames(r.path).length > 0) out[404] = r.path.includes(':teamId') ? 'No such object in the team, or the caller is not a member of the team' : 'No such object';
-  if (r.input?.body || r.rawBody?.mediaType === 'application/json') out[413] = 'The body is over the caller’s limit';
+  if (readsJson) out[413] = 'The body is over the caller’s limit';
   // server/app.ts: requireKnownBodyType and requireIdentityEncoding judge any body sent under /api, whatever the route.
   if (r.path.startsWith('/api/')) out[415] = 'A body was sent in a type other than JSON (or multipart for uploads), or compressed';
   return { ...out, ...r.errors };

@@ -98,6 +98,8 @@ export interface RouteDescription {
   input?: { params?: z.ZodType; query?: z.ZodType; body?: z.ZodType };
   /** A body the route reads other than by validate(): the multipart upload or the codebook document. */
   rawBody?: { mediaType: 'multipart/form-data' | 'application/json'; content: Content; description: string };
+  /** Its router reads a JSON body for every route, whether or not this one takes input (the anonymous account routes). */
+  readsJsonBody?: boolean;
   /** Checked inside the handler, after the worker's credential (internal routes only). */
   validatedInside?: boolean;
   /** Success responses by status. The 4xx ones are added from access and input (description/openapi.ts). */
@@ -120,10 +122,10 @@ const accountRoutes: RouteDescription[] = [
   { method: 'get', path: '/api/openapi.json', tag: 'Service', summary: 'This description of the API (OpenAPI 3.1)', access: 'public', responses: { 200: { description: 'The OpenAPI document', content: { 'application/json': openApiDocumentResponse } } } },
   { method: 'get', path: '/api/schemas/codebook.schema.json', tag: 'Service', summary: 'The JSON Schema (draft 2020-12) of the codebook export document, with its $id', access: 'public', responses: { 200: { description: 'The codebook format’s JSON Schema', content: { 'application/schema+json': 'object' } } } },
   { method: 'post', path: '/api/auth/signup', tag: 'Accounts', summary: 'Ask for a sign-up link by e-mail', access: 'public', input: { body: signupRequestBody }, responses: { 202: json(acceptedResponse, 'Accepted, whether or not the address has an account') }, errors: tooManyAttempts },
-  { method: 'get', path: '/api/auth/signup/:token', tag: 'Accounts', summary: 'Check a sign-up link', access: 'public', input: { params: signupLinkParams }, responses: { 200: json(signupLinkPreview, 'The address the link is for') }, errors: { 410: 'The link has expired or been used' } },
+  { method: 'get', path: '/api/auth/signup/:token', tag: 'Accounts', summary: 'Check a sign-up link', access: 'public', readsJsonBody: true, input: { params: signupLinkParams }, responses: { 200: json(signupLinkPreview, 'The address the link is for') }, errors: { 410: 'The link has expired or been used' } },
   { method: 'post', path: '/api/auth/signup/complete', tag: 'Accounts', summary: 'Finish signing up: name, password and a first team', access: 'public', input: { body: signupCompleteBody }, responses: { 201: json(signupResponse, 'Signed up and signed in (the session cookie is set)') }, errors: { 409: 'The address already has an account', 410: 'The link has expired or been used', ...tooManyAttempts } },
   { method: 'post', path: '/api/auth/login', tag: 'Accounts', summary: 'Sign in', access: 'public', input: { body: loginBody }, responses: { 200: json(loginResponse, 'Signed in (the session cookie is set)') }, errors: { 401: 'Wrong e-mail or password', ...tooManyAttempts } },
-  { method: 'post', path: '/api/auth/logout', tag: 'Accounts', summary: 'Sign out: ends the session the cookie or Bearer token names', access: 'optional-session', responses: { 204: noContent } },
+  { method: 'post', path: '/api/auth/logout', tag: 'Accounts', summary: 'Sign out: ends the session the cookie or Bearer token names', access: 'optional-session', readsJsonBody: true, responses: { 204: noContent } },
   { method: 'post', path: '/api/auth/password-reset', tag: 'Accounts', summary: 'Ask for a password reset link by e-mail', access: 'public', input: { body: passwordResetRequestBody }, responses: { 202: json(acceptedResponse, 'Accepted, whether or not the address has an account') }, errors: tooManyAttempts },
   { method: 'post', path: '/api/auth/password-reset/confirm', tag: 'Accounts', summary: 'Set a new password with a reset link; ends every session', access: 'public', input: { body: passwordResetConfirmBody }, responses: { 204: noContent }, errors: { 410: 'The link has expired or been used', ...tooManyAttempts } },
   { method: 'get', path: '/api/me', tag: 'Accounts', summary: 'The signed-in user and their teams', access: 'session', responses: { 200: json(meResponse, 'The caller') } },

@@ -17,6 +17,7 @@ import { addressLimiter } from './http/middleware/rate-limit';
 import { receiveFiles } from './http/middleware/receive-files';
 import { requireTeamRoleFactory } from './http/middleware/require-team-role';
 import { createTeamEventStreams } from './http/middleware/sse';
+import { apiDescriptionRouter } from './http/routes/api-description';
 import { authRouter } from './http/routes/auth';
 import { codebooksRouter } from './http/routes/codebooks';
 import { compareRouter } from './http/routes/compare';
@@ -155,6 +156,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/codebooks', reconstructionsRouter(routeDeps));
   app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
   app.use('/api/teams/:teamId/workers', teamWorkersRouter(routeDeps));
+  app.use('/api', apiDescriptionRouter(routeDeps));
   app.use('/api', apiNotFound);
   app.use('/internal/v1', internalRouter(routeDeps));
   app.use('/internal', apiNotFound);

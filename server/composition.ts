@@ -3,6 +3,7 @@ import { appVersion, createLogger, workerToken, type Config, type Logger } from 
 import { createDatabase, type Database } from './db';
 import {
   createAccountsService,
+  createApiSchemasService,
   createCodebooksService,
   createComparisonService,
   createEvaluationService,
@@ -99,6 +100,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const invitations = createInvitationsService({ db, mail, accounts, publicUrl: config.publicUrl, now });
   const outbox = createOutboxService({ db });
   const health = createHealthService({ db, version: appVersion() });
+  const apiSchemas = createApiSchemasService({ publicUrl: config.publicUrl, version: appVersion() });
   const contentStore = createContentStore(config.dataDir);
   const imageSets = createImageSetsService({ db });
   const imageRecords = createImageRecordsService({ db, store: contentStore });
@@ -174,7 +176,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     jobs: { store: jobStore, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
     mail,
-    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers },
+    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();

@@ -1,6 +1,7 @@
 import type { RequestHandler } from 'express';
 import type {
   AccountsService,
+  ApiSchemasService,
   CodebooksService,
   ComparisonService,
   EvaluationService,
@@ -34,6 +35,7 @@ export interface Services {
   reconstructions: ReconstructionsService;
   comparison: ComparisonService;
   workers: WorkersService;
+  apiSchemas: ApiSchemasService;
 }
 
 export interface RouteDeps extends Services {

@@ -75,6 +75,8 @@ const unique = (p: string) => `${p} ${++n}`;
 
 export const routes: RouteCase[] = [
   { name: 'health', method: 'GET', path: '/api/health', access: 'public', ok: 200, body: 'none', objectScoped: false },
+  { name: 'API description', method: 'GET', path: '/api/openapi.json', access: 'public', ok: 200, body: 'none', objectScoped: false },
+  { name: 'codebook JSON Schema', method: 'GET', path: '/api/schemas/codebook.schema.json', access: 'public', ok: 200, body: 'none', objectScoped: false },
   {
     name: 'sign up',
     method: 'POST',

@@ -304,7 +304,7 @@ export { ZERO_USAGE_WEIGHT, VARIANCE_FLOOR, VARIANCE_PSEUDO_VECTORS, logSumExp, 
 export { empiricalQuantile, falseAlarmThreshold, countAbove } from './model/threshold';
 export { rankBlocks, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type BlockScore, type ImageAnomalies, type RankedBlock } from './model/anomaly';
 export { MAD_GAUSSIAN, patchOrigins, type DenoiseEstimator } from './model/denoise';
-export { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_ESTIMATORS, DENOISE_SIGMA, DENOISE_STEP } from './model/limits';
+export { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_ESTIMATORS, DENOISE_SIGMA, DENOISE_STEP, MODEL_CAUTION } from './model/limits';
 
 const vectorsOf = (dimension: number, what: string) =>
   z.instanceof(Float32Array).refine((v) => v.length % dimension === 0, { message: `${what}: expected a multiple of the codebook's dimension ${dimension} values` });

@@ -112,9 +112,11 @@ export function rankBlocks(results: readonly ImageAnomalies[], score: AnomalySco
 /**
  * The heat map of an image as 8-bit RGB (height × width × 3): the image in grey, each block tinted along a black–red–
  * yellow–white ramp by v = (score − training median) / (threshold − training median), clamped to [0, 1], at opacity
- * 0.7·v; flagged blocks get a one-pixel white outline. So colour starts at a typical training block and saturates at
+ * 0.7·v; flagged blocks get a one-pixel cyan outline (a colour the ramp never takes). So colour starts at a typical training block and saturates at
  * the threshold.
  */
+const OUTLINE = [0, 255, 255];
+
 export function anomalyMapPixels(image: PixelImage, result: ImageAnomalies, calibration: AnomalyCalibration): Uint8Array {
   const { width, height, channels, pixels } = image;
   const out = new Uint8Array(width * height * 3);
@@ -135,7 +137,7 @@ export function anomalyMapPixels(image: PixelImage, result: ImageAnomalies, cali
       for (let x = block.x; x < x1; x += 1) {
         const o = 3 * (y * width + x);
         const edge = block.flagged && (x === block.x || y === block.y || x === x1 - 1 || y === y1 - 1);
-        for (let c = 0; c < 3; c += 1) out[o + c] = edge ? 255 : Math.round((1 - alpha) * out[o + c] + alpha * colour[c]);
+        for (let c = 0; c < 3; c += 1) out[o + c] = edge ? OUTLINE[c] : Math.round((1 - alpha) * out[o + c] + alpha * colour[c]);
       }
     }
   }

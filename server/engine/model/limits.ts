@@ -16,3 +16,12 @@ export const DENOISE_SIGMA = Object.freeze({ min: 0, max: 128 });
 
 /** Step between overlapping patch origins in pixels: 1 (every position, the best and slowest) up to a patch side. */
 export const DENOISE_STEP = Object.freeze({ min: 1, max: 16, default: 1 });
+
+/**
+ * The caution every view of these models carries (command help, README, studio): the product's caution for lossy
+ * codebooks, extended to anomaly maps and denoised images.
+ */
+export const MODEL_CAUTION =
+  'Anomaly maps and denoised images come from a lossy model of the training patches and can mislead where images are used ' +
+  'for diagnosis or safety inspection: an anomaly map is an aid to a qualified reviewer, not a detector to rely on, and a ' +
+  'denoised image holds the codebook\'s guesses. Such use needs the applicable regulations and qualified review.';

@@ -303,7 +303,7 @@ export async function baselines(
 export { ZERO_USAGE_WEIGHT, VARIANCE_FLOOR, VARIANCE_PSEUDO_VECTORS, logSumExp, type PatchMixture, type VectorScores } from './model/mixture';
 export { empiricalQuantile, falseAlarmThreshold, countAbove } from './model/threshold';
 export { rankBlocks, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type BlockScore, type ImageAnomalies, type RankedBlock } from './model/anomaly';
-export { MAD_GAUSSIAN, patchOrigins, type DenoiseEstimator } from './model/denoise';
+export { MAD_GAUSSIAN, patchEstimator, patchOrigins, type DenoiseEstimator } from './model/denoise';
 export { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_ESTIMATORS, DENOISE_SIGMA, DENOISE_STEP, MODEL_CAUTION } from './model/limits';
 
 const vectorsOf = (dimension: number, what: string) =>

@@ -29,15 +29,62 @@ export function patchOrigins(size: number, side: number, step: number): number[]
 const NEGLIGIBLE_LOG_WEIGHT = 40;
 
 /**
- * Denoises an image with overlapping patches (origins from patchOrigins at `step` on both axes).
- * Each noisy patch y (for a mean-removed codebook: r = y − mean(y), the patch's own unquantized mean, added back after)
- * is replaced by
+ * The estimate of one clean patch from a noisy one y (d values, in the codebook's vector domain), y = x + n with
+ * n ~ N(0, σ²I):
  * - hard: the nearest codeword c* (a MAP-like choice of one component, ignoring σ);
- * - mean: the posterior mean of the clean patch under the mixture with the noise added, y = x + n, n ~ N(0, σ²I):
+ * - mean: the posterior mean of x under the mixture with the noise added to each component's variance:
  *   w_k ∝ π_k N(y; c_k, (σ_k² + σ²) I) and x̂ = Σ_k w_k (c_k + σ_k²/(σ_k² + σ²) · (y − c_k)), the minimum
- *   mean-squared-error estimate under the model (the mean of a Gaussian mixture posterior; each term is the Gaussian
- *   conditional mean). As σ → 0 it tends to y itself.
- * Overlapping estimates are averaged per pixel, then clamped to 0..255 and rounded half up.
+ *   mean-squared-error estimate under the model (Bayes' rule over the components; within one, the conditional mean of a
+ *   Gaussian observed in Gaussian noise). As σ → 0 it tends to y itself.
+ * @returns (y, out) => void, writing d values into out
+ */
+export function patchEstimator(mixture: PatchMixture, sigma: number, estimator: DenoiseEstimator): (y: Float64Array, out: Float64Array) => void {
+  const { size: k, dimension: d, means, logWeights, variances } = mixture;
+  if (estimator === 'hard') {
+    return (y, out) => {
+      let best = Infinity;
+      let bestIndex = 0;
+      for (let j = 0; j < k; j += 1) {
+        const dist = squaredDistance(y, 0, means, j * d, d);
+        if (dist < best) {
+          best = dist;
+          bestIndex = j;
+        }
+      }
+      for (let t = 0; t < d; t += 1) out[t] = means[bestIndex * d + t];
+    };
+  }
+  const sigma2 = sigma * sigma;
+  const logNorm = new Float64Array(k);
+  const half = new Float64Array(k);
+  const gain = new Float64Array(k);
+  for (let j = 0; j < k; j += 1) {
+    const s = variances[j] + sigma2;
+    logNorm[j] = logWeights[j] - (d / 2) * Math.log(2 * Math.PI * s);
+    half[j] = 1 / (2 * s);
+    gain[j] = variances[j] / s;
+  }
+  const terms = new Float64Array(k);
+  return (y, out) => {
+    for (let j = 0; j < k; j += 1) terms[j] = logNorm[j] - squaredDistance(y, 0, means, j * d, d) * half[j];
+    const total = logSumExp(terms, k);
+    out.fill(0);
+    for (let j = 0; j < k; j += 1) {
+      const logW = terms[j] - total;
+      if (logW < -NEGLIGIBLE_LOG_WEIGHT) continue;
+      const w = Math.exp(logW);
+      for (let t = 0; t < d; t += 1) {
+        const c = means[j * d + t];
+        out[t] += w * (c + gain[j] * (y[t] - c));
+      }
+    }
+  };
+}
+
+/**
+ * Denoises an image with overlapping patches (origins from patchOrigins at `step` on both axes), each replaced by
+ * patchEstimator's estimate; for a mean-removed codebook the patch's own (noisy, unquantized) mean is removed first and
+ * added back after. Overlapping estimates are averaged per pixel, then clamped to 0..255 and rounded half up.
  * With mean removal the noise on the residual is taken as σ² per component, though removing the noisy mean leaves
  * σ²(1 − 1/d) per component (and correlation): an approximation on the side of more smoothing.
  * @returns height × width × channels, 8-bit
@@ -50,23 +97,13 @@ export function denoiseImage(
 ): { pixels: Uint8Array; patches: number } {
   const patch = checkImageMatchesCodebook(codebook, image);
   const { width, height, channels, pixels } = image;
-  const { size: k, dimension: d, means, logWeights, variances } = mixture;
-  const sigma2 = options.sigma * options.sigma;
+  const d = mixture.dimension;
   const meanRemoved = codebook.preprocessing.kind === 'mean-removed';
-  const logNorm = new Float64Array(k);
-  const half = new Float64Array(k);
-  const gain = new Float64Array(k);
-  for (let j = 0; j < k; j += 1) {
-    const s = variances[j] + sigma2;
-    logNorm[j] = logWeights[j] - (d / 2) * Math.log(2 * Math.PI * s);
-    half[j] = 1 / (2 * s);
-    gain[j] = variances[j] / s;
-  }
+  const estimate = patchEstimator(mixture, options.sigma, options.estimator);
   const sum = new Float64Array(width * height * channels);
   const count = new Uint32Array(width * height);
   const y = new Float64Array(d);
-  const estimate = new Float64Array(d);
-  const terms = new Float64Array(k);
+  const x = new Float64Array(d);
   const xs = patchOrigins(width, patch.width, options.step);
   const ys = patchOrigins(height, patch.height, options.step);
   for (const y0 of ys) {
@@ -87,31 +124,7 @@ export function denoiseImage(
         mean /= d;
         for (let t = 0; t < d; t += 1) y[t] -= mean;
       }
-      if (options.estimator === 'hard') {
-        let best = Infinity;
-        let bestIndex = 0;
-        for (let j = 0; j < k; j += 1) {
-          const dist = squaredDistance(y, 0, means, j * d, d);
-          if (dist < best) {
-            best = dist;
-            bestIndex = j;
-          }
-        }
-        for (let t = 0; t < d; t += 1) estimate[t] = means[bestIndex * d + t];
-      } else {
-        for (let j = 0; j < k; j += 1) terms[j] = logNorm[j] - squaredDistance(y, 0, means, j * d, d) * half[j];
-        const total = logSumExp(terms, k);
-        estimate.fill(0);
-        for (let j = 0; j < k; j += 1) {
-          const logW = terms[j] - total;
-          if (logW < -NEGLIGIBLE_LOG_WEIGHT) continue;
-          const w = Math.exp(logW);
-          for (let t = 0; t < d; t += 1) {
-            const c = means[j * d + t];
-            estimate[t] += w * (c + gain[j] * (y[t] - c));
-          }
-        }
-      }
+      estimate(y, x);
       // Add the estimate to the pixels the patch covers inside the image.
       i = 0;
       for (let row = 0; row < patch.height; row += 1) {
@@ -121,7 +134,7 @@ export function denoiseImage(
           if (py >= height || px >= width) continue;
           const p = py * width + px;
           count[p] += 1;
-          for (let c = 0; c < channels; c += 1) sum[p * channels + c] += estimate[i + c] + mean;
+          for (let c = 0; c < channels; c += 1) sum[p * channels + c] += x[i + c] + mean;
         }
       }
     }

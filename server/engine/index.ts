@@ -300,7 +300,7 @@ export async function baselines(
 
 // ---- the codebook as a model of its training patches (model/README.md) ----
 
-export { ZERO_USAGE_WEIGHT, VARIANCE_FLOOR, VARIANCE_PSEUDO_VECTORS, logSumExp, type PatchMixture, type VectorScores } from './model/mixture';
+export { ZERO_USAGE_WEIGHT, VARIANCE_FLOOR, VARIANCE_PSEUDO_VECTORS, logSumExp, type PatchMixture, type VarianceSource, type VectorScores } from './model/mixture';
 export { empiricalQuantile, falseAlarmThreshold, countAbove } from './model/threshold';
 export { rankBlocks, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type BlockScore, type ImageAnomalies, type RankedBlock } from './model/anomaly';
 export { MAD_GAUSSIAN, patchEstimator, patchOrigins, type DenoiseEstimator } from './model/denoise';
@@ -311,12 +311,14 @@ const vectorsOf = (dimension: number, what: string) =>
 
 /**
  * The codebook's mixture (one isotropic Gaussian per codeword, model/mixture.ts). `trainingVectors` (N × d, in the
- * codebook's vector domain, e.g. from codebookTrainingVectors) gives per-cell variances; without them every cell takes
- * the codebook's pooled training distortion.
+ * codebook's vector domain, e.g. from codebookTrainingVectors) or `cellDistortion` (K summed squared errors per cell on
+ * the training vectors, as the studio stores them for trained codebooks) give per-cell variances; without either every
+ * cell takes the codebook's pooled training distortion.
  */
-export function codebookMixture(codebook: Codebook, options: { trainingVectors?: Float32Array } = {}): PatchMixture {
-  check(z.object({ trainingVectors: vectorsOf(codebook.dimension, 'trainingVectors').optional() }), options, 'codebookMixture');
-  return mixtureOf(codebook, options.trainingVectors);
+export function codebookMixture(codebook: Codebook, options: { trainingVectors?: Float32Array; cellDistortion?: ArrayLike<number> } = {}): PatchMixture {
+  const cells = z.array(z.number().min(0)).length(codebook.size, { message: `expected ${codebook.size} values (one per codeword)` });
+  check(z.object({ trainingVectors: vectorsOf(codebook.dimension, 'trainingVectors').optional(), cellDistortion: cells.optional() }), { ...options, cellDistortion: options.cellDistortion && Array.from(options.cellDistortion) }, 'codebookMixture');
+  return mixtureOf(codebook, options.trainingVectors, options.cellDistortion);
 }
 
 /** Nearest codeword, squared distance and negative log-likelihood (nats) of each vector (N × d) under a mixture. */

@@ -4,7 +4,7 @@
 import { readFileSync } from 'node:fs';
 import { afterAll, describe, expect, it } from 'vitest';
 import {
-  addNoise, anomalyModel, anomalyScores, codebookMixture, codebookTrainingVectors, countAbove, denoise, empiricalQuantile, estimateNoise,
+  addNoise, anomalyModel, anomalyScores, codebookMixture, codebookTrainingVectors, countAbove, denoise, evaluate, empiricalQuantile, estimateNoise,
   imagesToTrainingVectors, makeCodebook, meanSquaredError, patchEstimator, rankBlocks, scoreVectors, shutdownEngineWorkers, trainCodebooks,
   type Codebook, type PixelImage, type PreprocessingInfo,
 } from '../../server/engine';
@@ -218,5 +218,21 @@ describe('anomaly scores', () => {
     const b = anomalyScores(book, model, brighter).blocks;
     expect(b.map((s) => s.nll)).toEqual(a.map((s) => s.nll));
     expect(b.map((s) => s.distance)).toEqual(a.map((s) => s.distance));
+  });
+});
+
+describe('variances from stored per-cell distortion', () => {
+  it('equal those measured on the training vectors when the distortion is what training measured', async () => {
+    // The same formula over the same counts and squared errors (server/engine/model/README.md); the usage and the
+    // per-cell squared errors are measured here with the engine's own evaluation of the training vectors.
+    const train = [1, 2].map((s) => texture(s, 48, 48));
+    const book = await trainOn(train, 4);
+    const vectors = codebookTrainingVectors(book, train);
+    const measured = await evaluate(book, { vectors, dimension: 16 });
+    const stored = codebookMixture({ ...book, usage: measured.usage }, { cellDistortion: measured.cellDistortion });
+    const fromVectors = codebookMixture(book, { trainingVectors: vectors });
+    expect(stored.varianceSource).toBe('cell-distortion');
+    for (let k = 0; k < book.size; k += 1) expect(stored.variances[k]).toBeCloseTo(fromVectors.variances[k], 9);
+    expect(() => codebookMixture(book, { cellDistortion: [1, 2] })).toThrow(/expected 16 values/);
   });
 });

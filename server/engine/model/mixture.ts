@@ -11,8 +11,8 @@ export interface PatchMixture {
   weights: Float64Array; // K, summing to 1
   logWeights: Float64Array; // K
   variances: Float64Array; // K: σ_k², per vector component
-  /** Where the variances come from: measured per cell on given training vectors, or the codebook's pooled distortion. */
-  varianceSource: 'training-vectors' | 'stored-distortion';
+  /** Where the variances come from: measured per cell on training vectors, the stored per-cell distortion, or the pooled figure. */
+  varianceSource: VarianceSource;
   /** The pooled variance per component: every cell's squared error over every training component. */
   pooledVariance: number;
 }
@@ -70,17 +70,42 @@ export function nearestCodewords(mixture: Pick<PatchMixture, 'size' | 'dimension
   return { indices, distances };
 }
 
+/** Where a mixture's variances come from (README.md in this folder). */
+export type VarianceSource = 'training-vectors' | 'cell-distortion' | 'stored-distortion';
+
+/**
+ * Per-cell variances from each cell's count n_k and summed squared error D_k over N training vectors:
+ * σ̄² = ΣD_k / (N·d) pooled, σ_k² = (D_k + m·d·σ̄²) / ((n_k + m)·d) with m = VARIANCE_PSEUDO_VECTORS, floored at
+ * VARIANCE_FLOOR.
+ */
+function cellVariances(counts: ArrayLike<number>, cellError: ArrayLike<number>, d: number): { variances: Float64Array; pooledVariance: number } {
+  const k = counts.length;
+  let n = 0;
+  let sum = 0;
+  for (let j = 0; j < k; j += 1) {
+    n += counts[j];
+    sum += cellError[j];
+  }
+  const pooledVariance = Math.max(n > 0 ? sum / (n * d) : 0, VARIANCE_FLOOR);
+  const m = VARIANCE_PSEUDO_VECTORS;
+  const variances = new Float64Array(k);
+  for (let j = 0; j < k; j += 1) variances[j] = Math.max((cellError[j] + m * d * pooledVariance) / ((counts[j] + m) * d), VARIANCE_FLOOR);
+  return { variances, pooledVariance };
+}
+
 /**
  * The mixture of a codebook.
  * - weights: π_k ∝ max(usage_k, ZERO_USAGE_WEIGHT), from the usage the codebook stores (its training vectors per cell);
  *   all-zero usage gives equal weights.
- * - variances: with `trainingVectors` (N × d, in the codebook's vector domain: already mean-removed when the codebook
- *   is), each vector's nearest codeword decides its cell and σ_k² = (D_k + m·d·σ̄²) / ((n_k + m)·d), D_k the cell's
- *   summed squared error, σ̄² = ΣD_k / (N·d) the pooled figure, m = VARIANCE_PSEUDO_VECTORS. The stored format keeps
- *   per-cell usage but not per-cell distortion, so without training vectors every cell gets the pooled
- *   `training.distortion` (MSE per component on the training vectors). Both are floored at VARIANCE_FLOOR.
+ * - variances (cellVariances), from the first of these that is given:
+ *   `trainingVectors` (N × d, in the codebook's vector domain: already mean-removed when the codebook is): each
+ *   vector's nearest codeword decides its cell, and counts and squared errors are measured on them;
+ *   `cellDistortion` (K: each cell's summed squared error on the training vectors, as training reports it and the
+ *   studio stores it for trained codebooks) with the codebook's usage as the counts;
+ *   neither: the export format keeps no per-cell distortion, so every cell gets the pooled `training.distortion`
+ *   (MSE per component on the training vectors), floored at VARIANCE_FLOOR.
  */
-export function codebookMixture(codebook: Codebook, trainingVectors?: Float32Array): PatchMixture {
+export function codebookMixture(codebook: Codebook, trainingVectors?: Float32Array, cellDistortion?: ArrayLike<number>): PatchMixture {
   const k = codebook.size;
   const d = codebook.dimension;
   const weights = new Float64Array(k);
@@ -88,26 +113,25 @@ export function codebookMixture(codebook: Codebook, trainingVectors?: Float32Arr
   for (let j = 0; j < k; j += 1) total += Math.max(codebook.usage[j], ZERO_USAGE_WEIGHT);
   for (let j = 0; j < k; j += 1) weights[j] = Math.max(codebook.usage[j], ZERO_USAGE_WEIGHT) / total;
   const logWeights = weights.map(Math.log);
-  const variances = new Float64Array(k);
+  let variances: Float64Array;
   let pooledVariance: number;
-  let varianceSource: PatchMixture['varianceSource'];
+  let varianceSource: VarianceSource;
   if (trainingVectors && trainingVectors.length > 0) {
     const { indices, distances } = nearestCodewords({ size: k, dimension: d, means: codebook.codewords }, trainingVectors);
     const counts = new Float64Array(k);
     const cellError = new Float64Array(k);
-    let sum = 0;
     for (let v = 0; v < indices.length; v += 1) {
       counts[indices[v]] += 1;
       cellError[indices[v]] += distances[v];
-      sum += distances[v];
     }
-    pooledVariance = Math.max(sum / (indices.length * d), VARIANCE_FLOOR);
-    const m = VARIANCE_PSEUDO_VECTORS;
-    for (let j = 0; j < k; j += 1) variances[j] = Math.max((cellError[j] + m * d * pooledVariance) / ((counts[j] + m) * d), VARIANCE_FLOOR);
+    ({ variances, pooledVariance } = cellVariances(counts, cellError, d));
     varianceSource = 'training-vectors';
+  } else if (cellDistortion) {
+    ({ variances, pooledVariance } = cellVariances(codebook.usage, cellDistortion, d));
+    varianceSource = 'cell-distortion';
   } else {
     pooledVariance = Math.max(codebook.training.distortion, VARIANCE_FLOOR);
-    variances.fill(pooledVariance);
+    variances = new Float64Array(k).fill(pooledVariance);
     varianceSource = 'stored-distortion';
   }
   return { size: k, dimension: d, means: codebook.codewords, weights, logWeights, variances, varianceSource, pooledVariance };

@@ -12,3 +12,4 @@ export * from './image-sets';
 export * from './evaluation';
 export * from './compare';
 export * from './workers';
+export * from './codebook-model';

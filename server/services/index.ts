@@ -23,3 +23,4 @@ export * from './training-memory';
 export * from './reconstructions';
 export * from './compute-slots';
 export * from './workers';
+export * from './codebook-model';

@@ -1,6 +1,7 @@
 import type { RequestHandler } from 'express';
 import type {
   AccountsService,
+  CodebookModelService,
   CodebooksService,
   ComparisonService,
   EvaluationService,
@@ -32,6 +33,7 @@ export interface Services {
   codebooks: CodebooksService;
   evaluation: EvaluationService;
   reconstructions: ReconstructionsService;
+  codebookModel: CodebookModelService;
   comparison: ComparisonService;
   workers: WorkersService;
 }

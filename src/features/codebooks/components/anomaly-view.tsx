@@ -11,7 +11,7 @@ type Image = { imageId: number; width: number; height: number; fileName: string 
 const RATES = [0.01, ANOMALY_RATE.default, 0.0001] as const;
 const MAP_WIDTH = 480;
 const LIST_LIMIT = 12;
-const TILE = 64;
+const TILE = 96;
 // Flagged blocks are outlined in a colour the ramp never takes, as the command line's map does.
 const OUTLINE = 'rgb(0, 255, 255)';
 
@@ -67,21 +67,23 @@ function HeatMap({ teamId, codebookId, image, map }: { teamId: number; codebookI
   );
 }
 
-/** One block cut out of its image, enlarged without smoothing. */
+/** One block with a block's width of its image around it, enlarged without smoothing, the block outlined. */
 function BlockTile({ url, image, block }: { url: string; image: { width: number; height: number }; block: { x: number; y: number; width: number; height: number } }) {
-  const s = TILE / Math.max(block.width, block.height);
+  const s = TILE / (3 * Math.max(block.width, block.height));
   return (
     <div
-      className="shrink-0 rounded border border-ink-200"
+      className="relative shrink-0 rounded border border-ink-200 bg-ink-100 bg-no-repeat"
       style={{
-        width: block.width * s,
-        height: block.height * s,
+        width: 3 * block.width * s,
+        height: 3 * block.height * s,
         backgroundImage: `url("${url}")`,
         backgroundSize: `${image.width * s}px ${image.height * s}px`,
-        backgroundPosition: `${-block.x * s}px ${-block.y * s}px`,
+        backgroundPosition: `${(block.width - block.x) * s}px ${(block.height - block.y) * s}px`,
         imageRendering: 'pixelated',
       }}
-    />
+    >
+      <div className="absolute" style={{ left: block.width * s, top: block.height * s, width: block.width * s, height: block.height * s, outline: `1.5px solid ${OUTLINE}` }} />
+    </div>
   );
 }
 

@@ -2,7 +2,7 @@ import type { Codebook } from '../format/codebook-schema';
 import { checkImageMatchesCodebook } from '../format/codec';
 import type { PixelImage } from '../io/image';
 import { createRng } from '../training';
-import { logSumExp, squaredDistance, type PatchMixture } from './mixture';
+import { squaredDistance, type PatchMixture } from './mixture';
 import { empiricalQuantile } from './threshold';
 
 /** How each noisy patch is replaced: its nearest codeword, or the posterior mean under the mixture. */
@@ -66,18 +66,28 @@ export function patchEstimator(mixture: PatchMixture, sigma: number, estimator: 
   }
   const terms = new Float64Array(k);
   return (y, out) => {
-    for (let j = 0; j < k; j += 1) terms[j] = logNorm[j] - squaredDistance(y, 0, means, j * d, d) * half[j];
-    const total = logSumExp(terms, k);
-    out.fill(0);
+    let max = -Infinity;
     for (let j = 0; j < k; j += 1) {
-      const logW = terms[j] - total;
-      if (logW < -NEGLIGIBLE_LOG_WEIGHT) continue;
-      const w = Math.exp(logW);
-      for (let t = 0; t < d; t += 1) {
-        const c = means[j * d + t];
-        out[t] += w * (c + gain[j] * (y[t] - c));
-      }
+      const term = logNorm[j] - squaredDistance(y, 0, means, j * d, d) * half[j];
+      terms[j] = term;
+      if (term > max) max = term;
     }
+    // Weights relative to the largest (log-sum-exp shifted by the maximum), one exp each, normalised at the end.
+    // Σ w_k (c_k + g_k (y − c_k)) = Σ w_k (1 − g_k) c_k + (Σ w_k g_k) y, so the inner loop is one multiply-add.
+    out.fill(0);
+    let total = 0;
+    let towardY = 0;
+    for (let j = 0; j < k; j += 1) {
+      const shifted = terms[j] - max;
+      if (shifted < -NEGLIGIBLE_LOG_WEIGHT) continue;
+      const w = Math.exp(shifted);
+      total += w;
+      towardY += w * gain[j];
+      const a = w * (1 - gain[j]);
+      const base = j * d;
+      for (let t = 0; t < d; t += 1) out[t] += a * means[base + t];
+    }
+    for (let t = 0; t < d; t += 1) out[t] = (out[t] + towardY * y[t]) / total;
   };
 }
 

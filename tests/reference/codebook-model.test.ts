@@ -174,6 +174,29 @@ describe('denoising', () => {
     expect(meanTotal).toBeLessThan(0.85 * hardTotal);
   });
 
+  it('keeps each patch\'s own mean with a mean-removed codebook', async () => {
+    // The documented rule (server/engine/model/README.md): the estimate is the patch's exact mean plus a zero-mean
+    // residual. With the step equal to the patch side every pixel has one estimate, so each block of the output has
+    // its noisy block's mean, up to the rounding of its 16 pixels to 8-bit values (at most ½ each).
+    const book = await trainOn([clean], 3, { kind: 'mean-removed', meanBits: 3 });
+    const mixture = codebookMixture(book);
+    const noisy = addNoise(luma('gradient', 24, 16, (x, y) => 60 + 4 * x + 3 * y), 10, 3);
+    for (const estimator of ['hard', 'mean'] as const) {
+      const out = denoise(book, mixture, noisy, { sigma: 10, estimator, step: 4 }).pixels;
+      for (let by = 0; by < 4; by += 1) {
+        for (let bx = 0; bx < 6; bx += 1) {
+          let before = 0;
+          let after = 0;
+          for (let y = 4 * by; y < 4 * by + 4; y += 1) for (let x = 4 * bx; x < 4 * bx + 4; x += 1) {
+            before += noisy.pixels[y * 24 + x] / 16;
+            after += out[y * 24 + x] / 16;
+          }
+          expect(Math.abs(after - before), `${estimator} block ${bx},${by}`).toBeLessThanOrEqual(0.5);
+        }
+      }
+    }
+  });
+
   it('gives back the image itself as σ tends to 0, with and without mean removal', async () => {
     // As σ → 0 the posterior mean's gain σ_k²/(σ_k² + σ²) tends to 1, so every patch estimate tends to the patch.
     for (const preprocessing of [{ kind: 'none' }, { kind: 'mean-removed', meanBits: 6 }] as const) {

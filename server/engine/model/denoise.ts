@@ -92,9 +92,27 @@ export function patchEstimator(mixture: PatchMixture, sigma: number, estimator: 
 }
 
 /**
+ * The mixture with each codeword's own mean removed. A mean-removed codebook's codewords are residuals from the
+ * quantized block mean, so each carries a small mean of its own (up to half a quantizer step); the denoiser removes the
+ * patch's exact mean instead, and compares and estimates in that zero-mean space, so every estimate keeps exactly the
+ * patch's own mean.
+ */
+function centred(mixture: PatchMixture): PatchMixture {
+  const { size: k, dimension: d } = mixture;
+  const means = new Float32Array(mixture.means);
+  for (let j = 0; j < k; j += 1) {
+    let m = 0;
+    for (let t = 0; t < d; t += 1) m += means[j * d + t];
+    m /= d;
+    for (let t = 0; t < d; t += 1) means[j * d + t] -= m;
+  }
+  return { ...mixture, means };
+}
+
+/**
  * Denoises an image with overlapping patches (origins from patchOrigins at `step` on both axes), each replaced by
  * patchEstimator's estimate; for a mean-removed codebook the patch's own (noisy, unquantized) mean is removed first and
- * added back after. Overlapping estimates are averaged per pixel, then clamped to 0..255 and rounded half up.
+ * added back after, against the codewords with their own means removed (centred). Overlapping estimates are averaged per pixel, then clamped to 0..255 and rounded half up.
  * With mean removal the noise on the residual is taken as σ² per component, though removing the noisy mean leaves
  * σ²(1 − 1/d) per component (and correlation): an approximation on the side of more smoothing.
  * @returns height × width × channels, 8-bit
@@ -109,7 +127,7 @@ export function denoiseImage(
   const { width, height, channels, pixels } = image;
   const d = mixture.dimension;
   const meanRemoved = codebook.preprocessing.kind === 'mean-removed';
-  const estimate = patchEstimator(mixture, options.sigma, options.estimator);
+  const estimate = patchEstimator(meanRemoved ? centred(mixture) : mixture, options.sigma, options.estimator);
   const sum = new Float64Array(width * height * channels);
   const count = new Uint32Array(width * height);
   const y = new Float64Array(d);

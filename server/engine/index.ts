@@ -18,8 +18,8 @@ import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics
 import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
 import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SIDE, SEED, type InitMethod } from './vocabulary';
 import { encodePng } from './io/png';
-import { codebookMixture as mixtureOf, scoreVectors as scoreMixture, type PatchMixture, type VectorScores } from './model/mixture';
-import { anomalyMapPixels, calibrateAnomaly, scoreImage, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type ImageAnomalies } from './model/anomaly';
+import { codebookMixture as mixtureOf, mixtureWithVariances, scoreVectors as scoreMixture, type PatchMixture, type VarianceSource, type VectorScores } from './model/mixture';
+import { anomalyMapPixels, calibrateAnomaly, modelFromScores, scoreImage, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type ImageAnomalies } from './model/anomaly';
 import { addGaussianNoise, denoiseImage, estimateNoiseSigma, type DenoiseEstimator } from './model/denoise';
 import { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_ESTIMATORS, DENOISE_SIGMA, DENOISE_STEP } from './model/limits';
 
@@ -300,7 +300,8 @@ export async function baselines(
 
 // ---- the codebook as a model of its training patches (model/README.md) ----
 
-export { ZERO_USAGE_WEIGHT, VARIANCE_FLOOR, VARIANCE_PSEUDO_VECTORS, logSumExp, type PatchMixture, type VarianceSource, type VectorScores } from './model/mixture';
+export { ZERO_USAGE_WEIGHT, VARIANCE_FLOOR, VARIANCE_PSEUDO_VECTORS, logSumExp, type PatchMixture, type VectorScores } from './model/mixture';
+export type { VarianceSource };
 export { empiricalQuantile, falseAlarmThreshold, countAbove } from './model/threshold';
 export { rankBlocks, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type BlockScore, type ImageAnomalies, type RankedBlock } from './model/anomaly';
 export { MAD_GAUSSIAN, patchEstimator, patchOrigins, type DenoiseEstimator } from './model/denoise';
@@ -319,6 +320,17 @@ export function codebookMixture(codebook: Codebook, options: { trainingVectors?:
   const cells = z.array(z.number().min(0)).length(codebook.size, { message: `expected ${codebook.size} values (one per codeword)` });
   check(z.object({ trainingVectors: vectorsOf(codebook.dimension, 'trainingVectors').optional(), cellDistortion: cells.optional() }), { ...options, cellDistortion: options.cellDistortion && Array.from(options.cellDistortion) }, 'codebookMixture');
   return mixtureOf(codebook, options.trainingVectors, options.cellDistortion);
+}
+
+/** A mixture worked out before (its variances, their source and the pooled figure, kept), rebuilt for the same codebook. */
+export function restoreMixture(codebook: Codebook, saved: { variances: ArrayLike<number>; varianceSource: VarianceSource; pooledVariance: number }): PatchMixture {
+  const schema = z.object({
+    variances: z.array(z.number().positive()).length(codebook.size, { message: `expected ${codebook.size} values (one per codeword)` }),
+    varianceSource: z.enum(['training-vectors', 'cell-distortion', 'stored-distortion']),
+    pooledVariance: z.number().positive(),
+  });
+  const o = check(schema, { ...saved, variances: Array.from(saved.variances) }, 'restoreMixture');
+  return mixtureWithVariances(codebook, Float64Array.from(o.variances), o.varianceSource, o.pooledVariance);
 }
 
 /** Nearest codeword, squared distance and negative log-likelihood (nats) of each vector (N × d) under a mixture. */
@@ -358,6 +370,18 @@ const anomalySchema = z.object({
 export function anomalyModel(codebook: Codebook, trainingVectors: Float32Array, options: { rate?: number; score?: AnomalyScore; signal?: AbortSignal } = {}): AnomalyModel {
   check(anomalySchema.extend({ trainingVectors: vectorsOf(codebook.dimension, 'trainingVectors').refine((v) => v.length > 0, { message: 'no training vectors' }) }), { trainingVectors, ...options }, 'anomalyModel');
   return calibrateAnomaly(codebook, trainingVectors, options.rate ?? ANOMALY_RATE.default, options.score ?? 'nll', options.signal);
+}
+
+/**
+ * A model from a mixture and its training vectors' scores kept from an earlier scoreVectors (N each): thresholds at
+ * `rate` exactly as anomalyModel sets them, so one scoring of the training vectors serves every rate.
+ */
+export function anomalyModelFromScores(mixture: PatchMixture, trainingScores: { nll: ArrayLike<number>; distance: ArrayLike<number> }, options: { rate?: number; score?: AnomalyScore } = {}): AnomalyModel {
+  check(anomalySchema, options, 'anomalyModelFromScores');
+  if (trainingScores.nll.length === 0 || trainingScores.nll.length !== trainingScores.distance.length) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'anomalyModelFromScores: expected as many distances as likelihoods, at least one');
+  }
+  return modelFromScores(mixture, trainingScores, options.rate ?? ANOMALY_RATE.default, options.score ?? 'nll');
 }
 
 /** Scores of every coding block of a held-out image, flagged against the model's threshold. */

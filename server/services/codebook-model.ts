@@ -1,3 +1,4 @@
+import { createHash } from 'node:crypto';
 import {
   MODEL_CAUTION, type AnomalyList, type AnomalyListQuery, type AnomalyMap, type AnomalyQuery, type DenoiseQuery, type DenoiseResult,
 } from '../contracts';
@@ -5,7 +6,7 @@ import type { Database } from '../db';
 import type { CodebookWithCodewords } from '../db/repositories/codebooks';
 import type { RunImageRecord } from '../db/repositories/runs';
 import { badRequest, notFound } from '../errors';
-import type { AnomalyTaskResult, DenoiseTaskResult, ModelTask } from '../jobs/tasks/model.task';
+import type { AnomalyTaskResult, DenoiseTaskResult, ModelTask, TaskCalibration } from '../jobs/tasks/model.task';
 import { createComputeSlots } from './compute-slots';
 import { toTaskCodebook } from './task-codebook';
 
@@ -24,10 +25,17 @@ export interface CodebookModelDeps {
 type VarianceSource = AnomalyMap['varianceSource'];
 
 /**
+ * Calibrations kept, most recently used first out last. Each holds two float64 scores per training patch: 3.2 MB at the
+ * default vector cap (200 000), 32 MB at its largest (2 000 000), so four stay well inside a server's memory.
+ */
+const CALIBRATIONS_KEPT = 4;
+
+/**
  * The codebook read as a density of its training patches (server/engine/model/README.md), on the studio's data:
  * per-block anomaly scores of images with thresholds measured on the codebook's run's training images (drawn again
- * with the run's vector cap and seed), and denoising of an image with seeded synthetic noise. Nothing is stored; each
- * answer is computed on a pool thread, within the same kind of bounds as the reconstruction views (429 beyond them).
+ * with the run's vector cap and seed; the calibration is kept in memory for the last few codebooks), and denoising of
+ * an image with seeded synthetic noise. Nothing is stored; each answer is computed on a pool thread, within the same
+ * kind of bounds as the reconstruction views (429 beyond them).
  */
 export function createCodebookModelService(deps: CodebookModelDeps) {
   const { db } = deps;
@@ -56,14 +64,44 @@ export function createCodebookModelService(deps: CodebookModelDeps) {
     }
   }
 
-  async function anomalies(codebook: CodebookWithCodewords, images: RunImageRecord[], q: AnomalyQuery, limit: number, signal: AbortSignal): Promise<AnomalyTaskResult> {
+  const calibrations = new Map<string, Promise<TaskCalibration>>();
+  const stats = { calibrations: 0 };
+
+  /**
+   * The codebook's calibration on its run's training images: computed once and kept (keyed by the codebook and the
+   * training images' contents, so a changed training set is calibrated afresh), shared by concurrent requests. It
+   * runs under its own signal, not a client's, since others may be waiting for it; a failure is not kept.
+   */
+  async function calibrationOf(codebook: CodebookWithCodewords): Promise<TaskCalibration | null> {
     const training = codebook.runId === null ? [] : await db.repos.runs.imagesOf(codebook.runId, 'training');
+    if (training.length === 0) return null;
+    const key = `${codebook.id}:${createHash('sha256').update(training.map((i) => i.sha256).join(',')).digest('hex')}`;
+    let kept = calibrations.get(key);
+    if (kept) {
+      calibrations.delete(key);
+    } else {
+      stats.calibrations += 1;
+      kept = run<TaskCalibration>({ op: 'calibrate', codebook: toTaskCodebook(codebook), training: training.map(taskImage) }, new AbortController().signal);
+      kept.catch(() => {
+        if (calibrations.get(key) === kept) calibrations.delete(key);
+      });
+    }
+    calibrations.set(key, kept);
+    for (const oldest of calibrations.keys()) {
+      if (calibrations.size <= CALIBRATIONS_KEPT) break;
+      calibrations.delete(oldest);
+    }
+    return kept;
+  }
+
+  async function anomalies(codebook: CodebookWithCodewords, images: RunImageRecord[], q: AnomalyQuery, limit: number, signal: AbortSignal): Promise<AnomalyTaskResult> {
+    const calibration = await calibrationOf(codebook);
     return run<AnomalyTaskResult>(
       {
         op: 'anomaly',
         codebook: toTaskCodebook(codebook),
         cellDistortion: codebook.cellDistortion,
-        training: training.map(taskImage),
+        calibration,
         images: images.map(taskImage),
         rate: q.rate,
         score: q.score,
@@ -123,6 +161,11 @@ export function createCodebookModelService(deps: CodebookModelDeps) {
           flagged: b.flagged,
         })),
       };
+    },
+
+    /** Calibrations computed since start (each scores a codebook's training patches once), for tests and operators. */
+    stats(): { calibrations: number; kept: number } {
+      return { ...stats, kept: calibrations.size };
     },
 
     /** Seeded Gaussian noise of `sigma` added to one image of the team, removed by the nearest codeword and by the posterior mean. */

@@ -90,6 +90,25 @@ describe('anomaly map', () => {
     expect(Math.abs(body.flaggedTrainingBlocks.nll - 0.01 * body.trainingBlocks)).toBeLessThanOrEqual(1);
   });
 
+  it('scores the training patches once per codebook, whatever rate or image is asked after', async () => {
+    const service = t.composition.services.codebookModel;
+    await request(t.app).get(url(`${codebookId}/anomaly/${heldOutIds[0]}`)).set(bearer(team.viewer));
+    const before = service.stats().calibrations;
+    const res = await request(t.app).get(url(`${codebookId}/anomaly/${heldOutIds[1]}?rate=0.05&score=distance`)).set(bearer(team.viewer));
+    expect(res.status).toBe(200);
+    expect((await request(t.app).get(url(`${codebookId}/anomalies?rate=0.02`)).set(bearer(team.viewer))).status).toBe(200);
+    expect(service.stats().calibrations).toBe(before);
+    // The kept calibration answers the new rate exactly as a fresh one would.
+    const book = await exported(codebookId);
+    const training: PixelImage[] = [];
+    for (const id of trainingIds) training.push(await decodeImage(await originalOf(id), 'luma'));
+    const model = anomalyModel(book, codebookTrainingVectors(book, training), { rate: 0.05, score: 'distance' });
+    expect(res.body.thresholds).toEqual(model.calibration.thresholds);
+    const expected = anomalyScores(book, model, await decodeImage(await originalOf(heldOutIds[1]), 'luma'));
+    expect(res.body.flagged).toEqual(expected.blocks.flatMap((b, i) => (b.flagged ? [i] : [])));
+    expect(res.body.flagged.length).toBeGreaterThan(0);
+  });
+
   it('answers an imported codebook with scores but no threshold, since it has no training images here', async () => {
     const res = await request(t.app).get(url(`${importedId}/anomaly/${heldOutIds[0]}`)).set(bearer(team.viewer));
     expect(res.status).toBe(200);

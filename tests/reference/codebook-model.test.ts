@@ -4,8 +4,8 @@
 import { readFileSync } from 'node:fs';
 import { afterAll, describe, expect, it } from 'vitest';
 import {
-  addNoise, anomalyModel, anomalyScores, codebookMixture, codebookTrainingVectors, countAbove, denoise, evaluate, empiricalQuantile, estimateNoise,
-  imagesToTrainingVectors, makeCodebook, meanSquaredError, patchEstimator, rankBlocks, scoreVectors, shutdownEngineWorkers, trainCodebooks,
+  addNoise, anomalyModel, anomalyModelFromScores, anomalyScores, codebookMixture, codebookTrainingVectors, countAbove, denoise, evaluate, empiricalQuantile, estimateNoise,
+  imagesToTrainingVectors, makeCodebook, meanSquaredError, patchEstimator, rankBlocks, restoreMixture, scoreVectors, shutdownEngineWorkers, trainCodebooks,
   type Codebook, type PixelImage, type PreprocessingInfo,
 } from '../../server/engine';
 
@@ -123,6 +123,18 @@ describe('the false-alarm threshold', () => {
       expect(model.calibration.flaggedTraining.nll).toBe(flagged);
       expect(Math.abs(flagged - rate * n)).toBeLessThanOrEqual(1);
     }
+  });
+
+  it('sets the same thresholds from kept training scores and a restored mixture as from the training vectors', async () => {
+    const train = [1, 2].map((s) => texture(s, 48, 48));
+    const book = await trainOn(train, 4);
+    const vectors = codebookTrainingVectors(book, train);
+    const fresh = anomalyModel(book, vectors, { rate: 0.02 });
+    const mixture = restoreMixture(book, codebookMixture(book, { trainingVectors: vectors }));
+    const kept = anomalyModelFromScores(mixture, scoreVectors(mixture, vectors), { rate: 0.02 });
+    expect(kept.calibration).toEqual(fresh.calibration);
+    expect(Array.from(kept.mixture.variances)).toEqual(Array.from(fresh.mixture.variances));
+    expect(() => restoreMixture(book, { variances: [1], varianceSource: 'stored-distortion', pooledVariance: 1 })).toThrow(/expected 16 values/);
   });
 
   it('flags fresh patches of the training distribution within a factor of 2 of the requested rate', async () => {

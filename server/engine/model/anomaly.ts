@@ -32,7 +32,14 @@ export interface AnomalyModel {
  */
 export function calibrateAnomaly(codebook: Codebook, trainingVectors: Float32Array, rate: number, score: AnomalyScore = 'nll', signal?: AbortSignal): AnomalyModel {
   const mixture = codebookMixture(codebook, trainingVectors);
-  const scores = scoreVectors(mixture, trainingVectors, signal);
+  return modelFromScores(mixture, scoreVectors(mixture, trainingVectors, signal), rate, score);
+}
+
+/**
+ * A model from a mixture and its training vectors' scores (as scoreVectors gave them, kept): thresholds at `rate`
+ * from those scores. calibrateAnomaly is this on freshly computed scores, so a kept calibration answers any rate alike.
+ */
+export function modelFromScores(mixture: PatchMixture, scores: { nll: ArrayLike<number>; distance: ArrayLike<number> }, rate: number, score: AnomalyScore): AnomalyModel {
   const thresholds = { nll: falseAlarmThreshold(scores.nll, rate), distance: falseAlarmThreshold(scores.distance, rate) };
   return {
     mixture,

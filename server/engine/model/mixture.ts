@@ -108,11 +108,6 @@ function cellVariances(counts: ArrayLike<number>, cellError: ArrayLike<number>, 
 export function codebookMixture(codebook: Codebook, trainingVectors?: Float32Array, cellDistortion?: ArrayLike<number>): PatchMixture {
   const k = codebook.size;
   const d = codebook.dimension;
-  const weights = new Float64Array(k);
-  let total = 0;
-  for (let j = 0; j < k; j += 1) total += Math.max(codebook.usage[j], ZERO_USAGE_WEIGHT);
-  for (let j = 0; j < k; j += 1) weights[j] = Math.max(codebook.usage[j], ZERO_USAGE_WEIGHT) / total;
-  const logWeights = weights.map(Math.log);
   let variances: Float64Array;
   let pooledVariance: number;
   let varianceSource: VarianceSource;
@@ -134,7 +129,21 @@ export function codebookMixture(codebook: Codebook, trainingVectors?: Float32Arr
     variances = new Float64Array(k).fill(pooledVariance);
     varianceSource = 'stored-distortion';
   }
-  return { size: k, dimension: d, means: codebook.codewords, weights, logWeights, variances, varianceSource, pooledVariance };
+  return mixtureWithVariances(codebook, variances, varianceSource, pooledVariance);
+}
+
+/**
+ * The mixture of a codebook with variances already worked out (by codebookMixture, kept and handed back): the same
+ * weights from the codebook's usage, these variances.
+ */
+export function mixtureWithVariances(codebook: Codebook, variances: Float64Array, varianceSource: VarianceSource, pooledVariance: number): PatchMixture {
+  const k = codebook.size;
+  const weights = new Float64Array(k);
+  let total = 0;
+  for (let j = 0; j < k; j += 1) total += Math.max(codebook.usage[j], ZERO_USAGE_WEIGHT);
+  for (let j = 0; j < k; j += 1) weights[j] = Math.max(codebook.usage[j], ZERO_USAGE_WEIGHT) / total;
+  const logWeights = weights.map(Math.log);
+  return { size: k, dimension: codebook.dimension, means: codebook.codewords, weights, logWeights, variances, varianceSource, pooledVariance };
 }
 
 /** log Σ exp(terms[0..count−1]), shifted by the largest term so nothing overflows (common practice). */

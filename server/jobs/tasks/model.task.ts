@@ -4,21 +4,39 @@
  * Plain data in and out; it never touches the database, HTTP or services.
  */
 import {
-  addNoise, anomalyModel, anomalyScores, codebookMixture, decodedImageBytes, denoise, encodePng, meanSquaredError, psnrForJson, psnrFromMse, rankBlocks,
-  toUint8, type AnomalyModel, type AnomalyScore, type Codebook, type MemoryBudget,
+  addNoise, anomalyModelFromScores, anomalyScores, codebookMixture, decodedImageBytes, denoise, encodePng, meanSquaredError, psnrForJson, psnrFromMse,
+  rankBlocks, restoreMixture, scoreVectors, toUint8, type AnomalyModel, type AnomalyScore, type Codebook, type MemoryBudget, type VarianceSource,
 } from '../../engine';
 import { loadCharged, toCodebook, type TaskCodebook, type TaskImage } from './evaluate.task';
 import { taskMemory, type TaskContext } from './task-context';
 import trainingVectors from './training-vectors.task';
 
+/**
+ * A codebook's calibration: the mixture's variances measured on its training patches and those patches' own scores,
+ * kept by the service so that every rate and image is answered without scoring the training patches again.
+ */
+export interface TaskCalibration {
+  variances: Float64Array; // K
+  varianceSource: VarianceSource;
+  pooledVariance: number;
+  nll: Float64Array; // N: the training patches' scores
+  distance: Float64Array; // N
+}
+
 export type ModelTask =
+  | {
+      op: 'calibrate';
+      codebook: TaskCodebook;
+      /** The run's training images: the codebook's training patches are drawn again from them as the training job drew them. */
+      training: TaskImage[];
+    }
   | {
       op: 'anomaly';
       codebook: TaskCodebook;
       /** Summed squared error per cell on the training vectors, as training stored it; null when not stored. */
       cellDistortion: number[] | null;
-      /** The run's training images (the codebook's training patches are drawn again from them); empty for an imported codebook. */
-      training: TaskImage[];
+      /** From a calibrate task; null for a codebook without training images here (imported). */
+      calibration: TaskCalibration | null;
       images: TaskImage[];
       rate: number;
       score: AnomalyScore;
@@ -46,27 +64,33 @@ export interface DenoiseTaskResult {
   views: { clean: Uint8Array; noisy: Uint8Array; hard: Uint8Array; mean: Uint8Array };
 }
 
+/** Draws the training patches again (the run's vector cap and seed, the codebook's mean removal) and scores them. */
+async function calibrate(task: Extract<ModelTask, { op: 'calibrate' }>, context?: TaskContext): Promise<TaskCalibration> {
+  const book = toCodebook(task.codebook);
+  const patch = book.patch!;
+  const vectors = await trainingVectors(
+    {
+      files: task.training,
+      color: patch.color,
+      patch: { width: patch.width, height: patch.height },
+      sample: book.training.sample ?? Number.MAX_SAFE_INTEGER,
+      seed: book.training.seed ?? 1,
+      meanBits: book.preprocessing.kind === 'mean-removed' ? book.preprocessing.meanBits : 0,
+    },
+    context,
+  );
+  const mixture = codebookMixture(book, { trainingVectors: vectors });
+  const scores = scoreVectors(mixture, vectors);
+  return { variances: mixture.variances, varianceSource: mixture.varianceSource, pooledVariance: mixture.pooledVariance, nll: scores.nll, distance: scores.distance };
+}
+
 /**
- * The model of an anomaly request: calibrated on the training patches when there are training images (drawn as the
- * training job drew them: the run's sample and seed), else scores only, with no threshold (an imported codebook
- * brings no training images, and a threshold not measured on them would mean nothing).
+ * The model of an anomaly request: from the kept calibration when there is one, else scores only, with no threshold
+ * (an imported codebook brings no training images, and a threshold not measured on them would mean nothing).
  */
-async function modelOf(book: Codebook, task: Extract<ModelTask, { op: 'anomaly' }>, context?: TaskContext): Promise<AnomalyModel & { calibrated: boolean }> {
-  if (task.training.length > 0) {
-    const patch = book.patch!;
-    const vectors = await trainingVectors(
-      {
-        files: task.training,
-        color: patch.color,
-        patch: { width: patch.width, height: patch.height },
-        sample: book.training.sample ?? Number.MAX_SAFE_INTEGER,
-        seed: book.training.seed ?? 1,
-        meanBits: book.preprocessing.kind === 'mean-removed' ? book.preprocessing.meanBits : 0,
-      },
-      context,
-    );
-    return { ...anomalyModel(book, vectors, { rate: task.rate, score: task.score }), calibrated: true };
-  }
+function modelOf(book: Codebook, task: Extract<ModelTask, { op: 'anomaly' }>): AnomalyModel & { calibrated: boolean } {
+  const c = task.calibration;
+  if (c) return { ...anomalyModelFromScores(restoreMixture(book, c), c, { rate: task.rate, score: task.score }), calibrated: true };
   const mixture = codebookMixture(book, task.cellDistortion ? { cellDistortion: task.cellDistortion } : {});
   const never = { nll: Infinity, distance: Infinity };
   return {
@@ -76,9 +100,9 @@ async function modelOf(book: Codebook, task: Extract<ModelTask, { op: 'anomaly' 
   };
 }
 
-async function anomalies(task: Extract<ModelTask, { op: 'anomaly' }>, memory: MemoryBudget, context?: TaskContext): Promise<AnomalyTaskResult> {
+async function anomalies(task: Extract<ModelTask, { op: 'anomaly' }>, memory: MemoryBudget): Promise<AnomalyTaskResult> {
   const book = toCodebook(task.codebook);
-  const model = await modelOf(book, task, context);
+  const model = modelOf(book, task);
   const results = [];
   for (const image of task.images) {
     const bytes = decodedImageBytes(image.width, image.height, book.patch!.color);
@@ -134,7 +158,14 @@ async function denoised(task: Extract<ModelTask, { op: 'denoise' }>, memory: Mem
   };
 }
 
-export default async function run(task: ModelTask, context?: TaskContext): Promise<AnomalyTaskResult | DenoiseTaskResult> {
+export default async function run(task: ModelTask, context?: TaskContext): Promise<TaskCalibration | AnomalyTaskResult | DenoiseTaskResult> {
   const memory = taskMemory(context);
-  return task.op === 'anomaly' ? anomalies(task, memory, context) : denoised(task, memory);
+  switch (task.op) {
+    case 'calibrate':
+      return calibrate(task, context);
+    case 'anomaly':
+      return anomalies(task, memory);
+    case 'denoise':
+      return denoised(task, memory);
+  }
 }

@@ -13,3 +13,4 @@ export * from './evaluation';
 export * from './compare';
 export * from './workers';
 export * from './api-description';
+export * from './codebook-model';

@@ -24,3 +24,4 @@ export * from './reconstructions';
 export * from './compute-slots';
 export * from './workers';
 export * from './api-schemas';
+export * from './codebook-model';

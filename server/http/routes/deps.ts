@@ -2,6 +2,7 @@ import type { RequestHandler } from 'express';
 import type {
   AccountsService,
   ApiSchemasService,
+  CodebookModelService,
   CodebooksService,
   ComparisonService,
   EvaluationService,
@@ -33,6 +34,7 @@ export interface Services {
   codebooks: CodebooksService;
   evaluation: EvaluationService;
   reconstructions: ReconstructionsService;
+  codebookModel: CodebookModelService;
   comparison: ComparisonService;
   workers: WorkersService;
   apiSchemas: ApiSchemasService;

@@ -1,5 +1,6 @@
 import type { z } from 'zod';
 import {
+  anomalyImageParams, anomalyListQuery, anomalyListResponse, anomalyMapResponse, anomalyQuery, denoiseQuery, denoiseResponse,
   acceptedResponse,
   acceptInvitationBody,
   acceptInvitationResponse,
@@ -199,6 +200,21 @@ const codebookRoutes: RouteDescription[] = [
     method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId', tag: 'Codebooks', summary: 'An image coded with a codebook: original, reconstruction or error as PNG, or the figures (view=info)', access: 'member', input: { params: reconstructionParams, query: reconstructionQuery },
     responses: { 200: { description: 'A PNG (X-Encoded-Bytes gives the coded size), or the figures as JSON with view=info', content: { 'image/png': 'binary', 'application/json': reconstructionInfo } } },
     errors: { 429: 'Too many reconstructions being computed; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/anomaly/:imageId', tag: 'Codebooks', summary: 'Per-block anomaly scores of one image under the codebook read as a density, with the blocks flagged at a false-alarm rate', access: 'member', input: { params: anomalyImageParams, query: anomalyQuery },
+    responses: { 200: json(anomalyMapResponse, 'The scores and flagged blocks') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/anomalies', tag: 'Codebooks', summary: 'The most unusual blocks over a set of images, highest score first', access: 'member', input: { params: codebookParams, query: anomalyListQuery },
+    responses: { 200: json(anomalyListResponse, 'The ranked blocks') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/denoise/:imageId', tag: 'Codebooks', summary: 'Seeded noise added to an image and removed by the nearest-codeword and posterior-mean estimators, with PSNR', access: 'member', input: { params: anomalyImageParams, query: denoiseQuery },
+    responses: { 200: json(denoiseResponse, 'The four images and their PSNR') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
   },
 ];
 

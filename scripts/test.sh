@@ -9,6 +9,7 @@ bash scripts/ensure-deps.sh || exit 1
 bash scripts/db.sh ensure || exit 1
 bash scripts/redis.sh ensure || exit 1
 bash scripts/ensure-chromium.sh || exit 1
+bash scripts/ensure-gcc.sh || exit 1
 if [ -f scripts/fetch-test-images.sh ]; then bash scripts/fetch-test-images.sh || exit 1; fi
 
 # Throwaway instances: their own data folders and ports, removed afterwards.

@@ -3,6 +3,7 @@ import { appVersion, createLogger, workerToken, type Config, type Logger } from 
 import { createDatabase, type Database } from './db';
 import {
   createAccountsService,
+  createApiSchemasService,
   createCodebooksService,
   createComparisonService,
   createEvaluationService,
@@ -16,6 +17,7 @@ import {
   createMailTransport,
   createOutboxService,
   createReconstructionsService,
+  createCodebookModelService,
   createPasswordHasher,
   createRunsService,
   createSessionTokens,
@@ -31,6 +33,7 @@ import { createSpool } from './storage/spool';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/evaluation-tasks';
+import { modelTaskRunner } from './jobs/model-tasks';
 import { createComputeClient } from './jobs/compute/client';
 import { executeComputeTask, loadTrainingSample } from './jobs/compute/execute';
 import { createComputeWorker } from './jobs/compute/worker';
@@ -99,6 +102,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const invitations = createInvitationsService({ db, mail, accounts, publicUrl: config.publicUrl, now });
   const outbox = createOutboxService({ db });
   const health = createHealthService({ db, version: appVersion() });
+  const apiSchemas = createApiSchemasService({ publicUrl: config.publicUrl, version: appVersion() });
   const contentStore = createContentStore(config.dataDir);
   const imageSets = createImageSetsService({ db });
   const imageRecords = createImageRecordsService({ db, store: contentStore });
@@ -151,6 +155,8 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     runTask: evaluationTaskRunner(reconstructionPool),
     ...config.reconstructions,
   });
+  // Anomaly scores and denoising share the reconstruction views' pool and bounds: both are per-request views of a codebook.
+  const codebookModel = createCodebookModelService({ db, store: contentStore, runTask: modelTaskRunner(reconstructionPool), ...config.reconstructions });
   const comparison = createComparisonService({ db });
   // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.
   const workerRegistry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: computeKeyPrefix, currentToken: () => workerToken(config, { create: true }) });
@@ -175,7 +181,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     jobs: { store: jobStore, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
     mail,
-    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers },
+    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();

@@ -12,3 +12,5 @@ export * from './image-sets';
 export * from './evaluation';
 export * from './compare';
 export * from './workers';
+export * from './api-description';
+export * from './codebook-model';

@@ -8,7 +8,8 @@ import { z } from 'zod';
 import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './training';
 import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
 import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
-import { readContainer, writeContainer } from './format/container';
+import { MAX_RESYNC_ROWS, PAYLOAD_CHOICES, readContainer, writeContainer, type ContainerOptions } from './format/container';
+import { buildFirmwareBundle, measureFixedPointCost, RESIDUAL_WIDTHS, type FirmwareBundle, type FixedPointTable, type RoundingCost } from './firmware';
 import { EngineInputError } from './input-error';
 import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/image';
 import { removeMeans } from './io/mean-removal';
@@ -17,6 +18,11 @@ import { readNpy, type NpyMatrix } from './io/npy';
 import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
 import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SIDE, SEED, type InitMethod } from './vocabulary';
+import { encodePng } from './io/png';
+import { codebookMixture as mixtureOf, mixtureWithVariances, scoreVectors as scoreMixture, type PatchMixture, type VarianceSource, type VectorScores } from './model/mixture';
+import { anomalyMapPixels, calibrateAnomaly, modelFromScores, scoreImage, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type ImageAnomalies } from './model/anomaly';
+import { addGaussianNoise, denoiseImage, estimateNoiseSigma, type DenoiseEstimator } from './model/denoise';
+import { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_ESTIMATORS, DENOISE_SIGMA, DENOISE_STEP } from './model/limits';
 
 // ---- re-exports: what callers need, from one place ----
 export * from './vocabulary';
@@ -26,12 +32,33 @@ export { ShardState, SearchCrew, shardLayout, type ShardLayout } from './trainin
 export type { CellMember, ShardAssignment, ShardExecutor, ShardMove, ShardSums } from './training';
 export { EngineInputError, type EngineInputErrorCode } from './input-error';
 export {
+  assignEcvq, ecvqStartingCodebook, sweepEcvq, trainEcvq, MAX_ECVQ_SIZE, type EcvqIterationStat, type EcvqOptions, type EcvqResult, type EcvqStartOptions,
+  type EcvqStop,
+} from './training/ecvq';
+export {
+  BitReader, BitWriter, canonicalCode, codedBits, decodeSymbols, encodeSymbols, HuffmanDecoder, huffmanCodeLengths, kraftSum, MAX_CODE_LENGTH,
+  type CanonicalCode,
+} from './core/huffman';
+export {
   CODEBOOK_FORMAT, CODEBOOK_VERSION, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
   serializeCodebook, toCodebookDocument, type Codebook, type CodebookDocument, type PatchInfo, type PreprocessingInfo, type TrainingInfo,
 } from './format/codebook-schema';
 export { codebookJsonSchemaText } from './format/codebook-json-schema';
 export { codewordChecksum } from './format/checksum';
-export { readContainer, readContainerHeader, writeContainer, CONTAINER_VERSION, type ContainerHeader } from './format/container';
+export {
+  readContainer,
+  readContainerHeader,
+  writeContainer,
+  payloadLayout,
+  CONTAINER_VERSION,
+  HEADER_BYTES,
+  MAX_RESYNC_ROWS,
+  PAYLOAD_CHOICES,
+  RESYNC_MARKER_BYTES,
+  type ContainerHeader,
+  type ContainerOptions,
+  type PayloadChoice,
+} from './format/container';
 export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
@@ -55,6 +82,10 @@ export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_COD
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';
 export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
 export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
+export {
+  fixedPointTable, withFixedPointCodewords, RESIDUAL_WIDTHS,
+  type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
+} from './firmware';
 
 // ---- entry validation ----
 const int = (min: number, max?: number) => (max === undefined ? z.int().min(min) : z.int().min(min).max(max));
@@ -243,19 +274,51 @@ export async function trainCodebooks(vectors: Float32Array, dimension: number, o
 
 // ---- coding ----
 
-const codingSchema = z.object({ threads: threadsSchema, signal: signalSchema });
+const codingSchema = z.object({
+  threads: threadsSchema,
+  signal: signalSchema,
+  payload: z.enum(PAYLOAD_CHOICES).optional(),
+  resyncRows: z.number().int().min(0).max(MAX_RESYNC_ROWS).optional(),
+});
 
-/** Codes an image: the container bytes, the indices, and the decoder's output (height × width × channels, 8-bit). */
-export async function encode(codebook: Codebook, image: PixelImage, options: { threads?: number; signal?: AbortSignal } = {}): Promise<{ container: Buffer; encoded: EncodedImage; reconstruction: Uint8Array }> {
+/**
+ * Codes an image: the container bytes, the indices, and the decoder's output (height × width × channels, 8-bit).
+ * `payload` and `resyncRows` choose how the container stores the payload (ContainerOptions; default: the smallest, no markers).
+ */
+export async function encode(
+  codebook: Codebook,
+  image: PixelImage,
+  options: { threads?: number; signal?: AbortSignal } & ContainerOptions = {},
+): Promise<{ container: Buffer; encoded: EncodedImage; reconstruction: Uint8Array }> {
   check(codingSchema, options, 'encode');
   const encoded = await encodeImage(codebook, image, options);
-  return { container: writeContainer(codebook, encoded), encoded, reconstruction: reconstruct(codebook, encoded) };
+  const container = writeContainer(codebook, encoded, { payload: options.payload, resyncRows: options.resyncRows });
+  return { container, encoded, reconstruction: reconstruct(codebook, encoded) };
 }
 
 /** Decodes container bytes with the codebook they were coded with. */
 export function decode(codebook: Codebook, bytes: Uint8Array): { width: number; height: number; channels: 1 | 3; pixels: Uint8Array } {
   const encoded = readContainer(codebook, bytes);
   return { width: encoded.width, height: encoded.height, channels: encoded.header.color === 'rgb' ? 3 : 1, pixels: reconstruct(codebook, encoded) };
+}
+
+// ---- firmware export ----
+
+const firmwareSchema = z.object({ residual: z.enum(RESIDUAL_WIDTHS).optional() });
+
+/**
+ * The C firmware bundle of a codebook (server/engine/firmware): fixed-point table, reference decoder, example, README.
+ * `residual` stores a mean-removed codebook's residuals as int16 (default) or int8; plain codebooks are uint8.
+ */
+export function firmwareBundle(codebook: Codebook, options: { residual?: (typeof RESIDUAL_WIDTHS)[number] } = {}): FirmwareBundle {
+  check(firmwareSchema, options, 'firmwareBundle');
+  return buildFirmwareBundle(codebook, options.residual);
+}
+
+/** The PSNR cost of a firmware table's rounding on images: each coded once, decoded with float and fixed-point codewords. */
+export async function fixedPointCost(codebook: Codebook, table: FixedPointTable, images: PixelImage[], options: { threads?: number; signal?: AbortSignal } = {}): Promise<RoundingCost> {
+  check(z.object({ threads: threadsSchema, signal: signalSchema }), options, 'fixedPointCost');
+  return measureFixedPointCost(codebook, table, images, options);
 }
 
 // ---- evaluation and baselines ----
@@ -294,3 +357,137 @@ export async function baselines(
   return baselineCurve(images, options);
 }
 
+
+// ---- the codebook as a model of its training patches (model/README.md) ----
+
+export { ZERO_USAGE_WEIGHT, VARIANCE_FLOOR, VARIANCE_PSEUDO_VECTORS, logSumExp, type PatchMixture, type VectorScores } from './model/mixture';
+export type { VarianceSource };
+export { empiricalQuantile, falseAlarmThreshold, countAbove } from './model/threshold';
+export { rankBlocks, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type BlockScore, type ImageAnomalies, type RankedBlock } from './model/anomaly';
+export { MAD_GAUSSIAN, patchEstimator, patchOrigins, type DenoiseEstimator } from './model/denoise';
+export { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_ESTIMATORS, DENOISE_SIGMA, DENOISE_STEP, MODEL_CAUTION } from './model/limits';
+
+const vectorsOf = (dimension: number, what: string) =>
+  z.instanceof(Float32Array).refine((v) => v.length % dimension === 0, { message: `${what}: expected a multiple of the codebook's dimension ${dimension} values` });
+
+/**
+ * The codebook's mixture (one isotropic Gaussian per codeword, model/mixture.ts). `trainingVectors` (N × d, in the
+ * codebook's vector domain, e.g. from codebookTrainingVectors) or `cellDistortion` (K summed squared errors per cell on
+ * the training vectors, as the studio stores them for trained codebooks) give per-cell variances; without either every
+ * cell takes the codebook's pooled training distortion.
+ */
+export function codebookMixture(codebook: Codebook, options: { trainingVectors?: Float32Array; cellDistortion?: ArrayLike<number> } = {}): PatchMixture {
+  const cells = z.array(z.number().min(0)).length(codebook.size, { message: `expected ${codebook.size} values (one per codeword)` });
+  check(z.object({ trainingVectors: vectorsOf(codebook.dimension, 'trainingVectors').optional(), cellDistortion: cells.optional() }), { ...options, cellDistortion: options.cellDistortion && Array.from(options.cellDistortion) }, 'codebookMixture');
+  return mixtureOf(codebook, options.trainingVectors, options.cellDistortion);
+}
+
+/** A mixture worked out before (its variances, their source and the pooled figure, kept), rebuilt for the same codebook. */
+export function restoreMixture(codebook: Codebook, saved: { variances: ArrayLike<number>; varianceSource: VarianceSource; pooledVariance: number }): PatchMixture {
+  const schema = z.object({
+    variances: z.array(z.number().positive()).length(codebook.size, { message: `expected ${codebook.size} values (one per codeword)` }),
+    varianceSource: z.enum(['training-vectors', 'cell-distortion', 'stored-distortion']),
+    pooledVariance: z.number().positive(),
+  });
+  const o = check(schema, { ...saved, variances: Array.from(saved.variances) }, 'restoreMixture');
+  return mixtureWithVariances(codebook, Float64Array.from(o.variances), o.varianceSource, o.pooledVariance);
+}
+
+/** Nearest codeword, squared distance and negative log-likelihood (nats) of each vector (N × d) under a mixture. */
+export function scoreVectors(mixture: PatchMixture, vectors: Float32Array, options: { signal?: AbortSignal } = {}): VectorScores {
+  check(z.object({ vectors: vectorsOf(mixture.dimension, 'vectors'), signal: signalSchema }), { vectors, ...options }, 'scoreVectors');
+  return scoreMixture(mixture, vectors, options.signal);
+}
+
+/**
+ * The codebook's training vectors drawn again from its training images, with the stride, vector cap and seed the
+ * codebook records and its mean removal: the same vectors training used when `images` are the same images in the same
+ * order (patches per image, sample draws and mean codes are all functions of those).
+ * @returns vectors: N × d, row-major
+ */
+export function codebookTrainingVectors(codebook: Codebook, images: PixelImage[]): Float32Array {
+  if (!codebook.patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook was trained on raw vectors and has no patch geometry, so it has no training images');
+  const t = codebook.training;
+  return imagesToTrainingVectors(images, {
+    patch: { width: codebook.patch.width, height: codebook.patch.height },
+    stride: t.stride,
+    sample: t.sample ?? undefined,
+    seed: t.seed ?? undefined,
+    preprocessing: codebook.preprocessing,
+  }).vectors;
+}
+
+const anomalySchema = z.object({
+  rate: z.number().min(ANOMALY_RATE.min).max(ANOMALY_RATE.max).optional(),
+  score: z.enum(ANOMALY_SCORES).optional(),
+  signal: signalSchema,
+});
+
+/**
+ * Mixture and thresholds for anomaly maps: per-cell variances and the false-alarm thresholds both measured on the
+ * training vectors (N × d, the codebook's vector domain). `rate` defaults to ANOMALY_RATE.default, `score` to nll.
+ */
+export function anomalyModel(codebook: Codebook, trainingVectors: Float32Array, options: { rate?: number; score?: AnomalyScore; signal?: AbortSignal } = {}): AnomalyModel {
+  check(anomalySchema.extend({ trainingVectors: vectorsOf(codebook.dimension, 'trainingVectors').refine((v) => v.length > 0, { message: 'no training vectors' }) }), { trainingVectors, ...options }, 'anomalyModel');
+  return calibrateAnomaly(codebook, trainingVectors, options.rate ?? ANOMALY_RATE.default, options.score ?? 'nll', options.signal);
+}
+
+/**
+ * A model from a mixture and its training vectors' scores kept from an earlier scoreVectors (N each): thresholds at
+ * `rate` exactly as anomalyModel sets them, so one scoring of the training vectors serves every rate.
+ */
+export function anomalyModelFromScores(mixture: PatchMixture, trainingScores: { nll: ArrayLike<number>; distance: ArrayLike<number> }, options: { rate?: number; score?: AnomalyScore } = {}): AnomalyModel {
+  check(anomalySchema, options, 'anomalyModelFromScores');
+  if (trainingScores.nll.length === 0 || trainingScores.nll.length !== trainingScores.distance.length) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'anomalyModelFromScores: expected as many distances as likelihoods, at least one');
+  }
+  return modelFromScores(mixture, trainingScores, options.rate ?? ANOMALY_RATE.default, options.score ?? 'nll');
+}
+
+/** Scores of every coding block of a held-out image, flagged against the model's threshold. */
+export function anomalyScores(codebook: Codebook, model: AnomalyModel, image: PixelImage, options: { signal?: AbortSignal } = {}): ImageAnomalies {
+  check(z.object({ signal: signalSchema }), options, 'anomalyScores');
+  return scoreImage(codebook, model, image, options.signal);
+}
+
+/** The heat map of an image's scores as an RGB PNG (anomalyMapPixels in model/anomaly.ts). */
+export async function anomalyMapPng(image: PixelImage, result: ImageAnomalies, calibration: AnomalyCalibration): Promise<Buffer> {
+  return encodePng(anomalyMapPixels(image, result, calibration), image.width, image.height, 3);
+}
+
+/** Noise σ of an image (0..255 scale) from its finest diagonal Haar coefficients (Donoho & Johnstone 1994; model/denoise.ts). */
+export function estimateNoise(image: PixelImage): number {
+  return estimateNoiseSigma(image);
+}
+
+/** The image with seeded Gaussian noise of standard deviation `sigma` added, clamped and rounded to 8-bit values. */
+export function addNoise(image: PixelImage, sigma: number, seed: number): PixelImage {
+  check(z.object({ sigma: z.number().min(DENOISE_SIGMA.min).max(DENOISE_SIGMA.max), seed: int(SEED.min, SEED.max) }), { sigma, seed }, 'addNoise');
+  return addGaussianNoise(image, sigma, seed);
+}
+
+const denoiseSchema = z.object({
+  sigma: z.number().min(DENOISE_SIGMA.min).max(DENOISE_SIGMA.max).optional(),
+  estimator: z.enum(DENOISE_ESTIMATORS).optional(),
+  step: int(DENOISE_STEP.min, DENOISE_STEP.max).optional(),
+  signal: signalSchema,
+});
+
+/**
+ * Denoises an image with the codebook's mixture (model/denoise.ts): overlapping patches at `step` (default 1), each
+ * replaced by its nearest codeword (`hard`) or its posterior mean (`mean`, the default), averaged per pixel. Without
+ * `sigma` the noise level is estimated from the image (estimateNoise).
+ * @returns pixels: height × width × channels, 8-bit; and the σ used
+ */
+export function denoise(
+  codebook: Codebook,
+  mixture: PatchMixture,
+  image: PixelImage,
+  options: { sigma?: number; estimator?: DenoiseEstimator; step?: number; signal?: AbortSignal } = {},
+): { pixels: Uint8Array; sigma: number; sigmaEstimated: boolean; patches: number } {
+  const o = check(denoiseSchema, options, 'denoise');
+  if (mixture.dimension !== codebook.dimension || mixture.size !== codebook.size) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'denoise: the mixture is not this codebook\'s');
+  const sigma = o.sigma ?? estimateNoiseSigma(image);
+  const out = denoiseImage(codebook, mixture, image, { sigma, estimator: o.estimator ?? 'mean', step: o.step ?? DENOISE_STEP.default, signal: options.signal });
+  return { ...out, sigma, sigmaEstimated: o.sigma === undefined };
+}

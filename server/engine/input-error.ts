@@ -11,6 +11,8 @@ export type EngineInputErrorCode =
   | 'ENGINE_INVALID_CONTAINER'
   | 'ENGINE_CHECKSUM_MISMATCH'
   | 'ENGINE_DIMENSION_MISMATCH'
+  /** A variable-length code stream that is truncated, holds a pattern no code starts with, or has bytes past its end. */
+  | 'ENGINE_INVALID_BITSTREAM'
   | 'ENGINE_UNSUPPORTED';
 
 export class EngineInputError extends Error {

@@ -23,3 +23,5 @@ export * from './training-memory';
 export * from './reconstructions';
 export * from './compute-slots';
 export * from './workers';
+export * from './api-schemas';
+export * from './codebook-model';

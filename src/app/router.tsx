@@ -60,6 +60,7 @@ export function createRoutes(queryClient: QueryClient): RouteObject[] {
             { path: paths.teamCodebooks, ...page(queryClient, () => import('./routes/team-codebooks')) },
             { path: paths.teamCodebook, ...page(queryClient, () => import('./routes/team-codebook')) },
             { path: paths.teamCompare, ...page(queryClient, () => import('./routes/team-compare')) },
+            { path: paths.teamApiReference, ...page(queryClient, () => import('./routes/team-api-reference')) },
           ],
         },
         { path: '*', ...page(queryClient, () => import('./routes/not-found')) },

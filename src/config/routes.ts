@@ -24,6 +24,7 @@ export const paths = {
   teamCodebook: '/teams/:teamId/codebooks/:codebookId',
   teamCodebooks: '/teams/:teamId/codebooks',
   teamCompare: '/teams/:teamId/compare',
+  teamApiReference: '/teams/:teamId/api',
 } as const;
 
 type TeamId = number | string;
@@ -73,6 +74,7 @@ export const href = {
   /** `runIds` in order: the first is the reference of every pair (commas kept readable in the link). */
   teamCompare: (teamId: TeamId, runIds?: readonly number[]) =>
     `${fillPath(paths.teamCompare, { teamId })}${runIds && runIds.length > 0 ? `?runs=${runIds.join(',')}` : ''}`,
+  teamApiReference: (teamId: TeamId) => fillPath(paths.teamApiReference, { teamId }),
 } as const;
 
 export type TeamNavEntry = {
@@ -99,6 +101,7 @@ export const teamNavigation: readonly TeamNavSection[] = [
       { label: 'Members', to: href.teamMembers },
       { label: 'Outbox', to: href.teamOutbox, roles: ['admin'] },
       { label: 'Workers', to: href.teamWorkers, roles: ['admin'] },
+      { label: 'API', to: href.teamApiReference },
     ],
   },
   {

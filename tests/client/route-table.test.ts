@@ -26,6 +26,7 @@ describe('the route table', () => {
       teamCodebook: href.teamCodebook(3, 9),
       teamCodebooks: href.teamCodebooks(3),
       teamCompare: href.teamCompare(3),
+      teamApiReference: href.teamApiReference(3),
     };
     for (const key of Object.keys(paths) as Array<keyof typeof paths>) {
       expect(matchPath({ path: paths[key], end: true }, built[key]), key).not.toBeNull();

@@ -1,14 +1,22 @@
-import { encode, encodeErrorMapPng, encodePng, ERROR_MAP_GAIN, psnrForJson, psnrFromMse, meanSquaredError } from '../../engine';
-import { intOption, parseOptions, requiredString, stringOption, type OptionSpec } from '../args';
+import { encode, encodeErrorMapPng, encodePng, ERROR_MAP_GAIN, MAX_RESYNC_ROWS, PAYLOAD_CHOICES, psnrForJson, psnrFromMse, meanSquaredError, readContainerHeader } from '../../engine';
+import { choiceOption, intOption, parseOptions, requiredString, stringOption, type OptionSpec } from '../args';
+import { CliUsageError } from '../cli-error';
 import { CliInputError } from '../cli-error';
 import type { CliContext } from '../context';
 import { checkOutputFolder, writeOutputsAtomically } from '../files';
 import { loadCodebook, loadImageFile } from '../inputs';
 import { fmt, jsonLine } from '../text-output';
 
-export const ENCODE_HELP = `Usage: cellwright encode --codebook CODEBOOK.json --image IN --out FILE [--recon OUT.png] [--error-map OUT.png] [--json]
+export const ENCODE_HELP = `Usage: cellwright encode --codebook CODEBOOK.json --image IN --out FILE [--payload raw|packed|auto] [--resync N]
+                        [--recon OUT.png] [--error-map OUT.png] [--json]
 
 Codes one image with a codebook into a compact coded file (format: server/engine/format/FORMAT.md).
+  --payload auto        how the fixed-rate payload (packed indices and mean codes) is stored:
+                          raw     as it is, exactly the fixed rate; what a table-lookup decoder (the C export) reads
+                          packed  further packed by deflate or brotli, whichever is smaller (even if larger than raw)
+                          auto    the smallest of the three (the default)
+  --resync N            a resynchronisation marker (4 bytes, FF 52 and the segment number) before every N block rows
+                        but the first, 1..${MAX_RESYNC_ROWS}; needs --payload raw
   --recon OUT.png       also write the decoded image (exactly what "cellwright decode" will produce)
   --error-map OUT.png   also write |original − decoded| × ${ERROR_MAP_GAIN} as a grey image (largest channel error per pixel;
                         white = an error of 64 levels or more)
@@ -21,6 +29,8 @@ const SPEC: OptionSpec = {
   out: { type: 'string' },
   recon: { type: 'string' },
   'error-map': { type: 'string' },
+  payload: { type: 'string' },
+  resync: { type: 'string' },
   threads: { type: 'string' },
   json: { type: 'boolean' },
 };
@@ -37,11 +47,14 @@ export async function runEncode(argv: string[], ctx: CliContext): Promise<void> 
   const reconPath = stringOption(values, 'recon');
   const errorMapPath = stringOption(values, 'error-map');
   const threads = intOption(values, 'threads', { min: 1, max: 1024 });
+  const payload = choiceOption(values, 'payload', PAYLOAD_CHOICES) ?? 'auto';
+  const resyncRows = intOption(values, 'resync', { min: 1, max: MAX_RESYNC_ROWS }) ?? 0;
+  if (resyncRows > 0 && payload !== 'raw') throw new CliUsageError('--resync needs --payload raw (a compressed payload hides the markers)');
   for (const p of [out, reconPath, errorMapPath]) if (p) await checkOutputFolder(p);
   const book = await loadCodebook(codebookPath);
   if (!book.patch) throw new CliInputError(`codebook ${codebookPath} was trained on raw vectors and has no patch geometry, so it cannot code images`);
   const image = await loadImageFile(imagePath, book.patch.color);
-  const { container, reconstruction } = await encode(book, image, { threads, signal: ctx.signal });
+  const { container, reconstruction } = await encode(book, image, { threads, signal: ctx.signal, payload, resyncRows });
   const outputs: { path: string; data: Uint8Array }[] = [{ path: out, data: container }];
   if (reconPath) outputs.push({ path: reconPath, data: await encodePng(reconstruction, image.width, image.height, image.channels) });
   if (errorMapPath) outputs.push({ path: errorMapPath, data: await encodeErrorMapPng(image.pixels, reconstruction, image.width, image.height, image.channels) });
@@ -49,9 +62,12 @@ export async function runEncode(argv: string[], ctx: CliContext): Promise<void> 
   const pixels = image.width * image.height;
   const mse = meanSquaredError(image.pixels, reconstruction);
   const bpp = (container.length * 8) / pixels;
+  const { coding } = readContainerHeader(container);
   if (values.json) {
-    ctx.stdout.write(jsonLine({ command: 'encode', out, width: image.width, height: image.height, bytes: container.length, bppActual: bpp, mse, psnr: psnrForJson(psnrFromMse(mse)) }));
+    const psnr = psnrForJson(psnrFromMse(mse));
+    ctx.stdout.write(jsonLine({ command: 'encode', out, width: image.width, height: image.height, bytes: container.length, coding, resyncRows, bppActual: bpp, mse, psnr }));
     return;
   }
-  ctx.stdout.write(`${imagePath}: ${image.width}×${image.height} → ${container.length} bytes (${fmt.bpp(bpp)} bpp), MSE ${fmt.mse(mse)}, PSNR ${fmt.psnr(psnrFromMse(mse))}\nwrote ${outputs.map((o) => o.path).join(', ')}\n`);
+  const stored = `${container.length} bytes, ${coding}${resyncRows > 0 ? `, a marker every ${resyncRows} block rows` : ''}`;
+  ctx.stdout.write(`${imagePath}: ${image.width}×${image.height} → ${stored} (${fmt.bpp(bpp)} bpp), MSE ${fmt.mse(mse)}, PSNR ${fmt.psnr(psnrFromMse(mse))}\nwrote ${outputs.map((o) => o.path).join(', ')}\n`);
 }

@@ -4,6 +4,7 @@ import { Passport } from 'passport';
 import { ExtractJwt, Strategy as JwtStrategy } from 'passport-jwt';
 import { unauthenticated } from '../../errors';
 import type { Caller, SessionClaims } from '../../services';
+import { withMeta } from './route-meta';
 
 export const sessionCookieName = 'cw_session';
 
@@ -56,9 +57,9 @@ export function createAuthenticator(deps: AuthenticateDeps) {
     };
 
   /** 401 JSON when the request carries no live session of an existing user. */
-  const authenticate = identifyWith(true);
+  const authenticate = withMeta(identifyWith(true), { kind: 'authenticate' });
   /** The same for routes open to everyone that act differently for a signed-in caller (sign-out, invitations). */
-  const identify = identifyWith(false);
+  const identify = withMeta(identifyWith(false), { kind: 'identify' });
 
   return { passport, authenticate, identify };
 }

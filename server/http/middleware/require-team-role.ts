@@ -1,6 +1,7 @@
 import type { RequestHandler } from 'express';
-import { pathId, type Role } from '../../contracts';
+import { pathId, roles as allRoles, type Role } from '../../contracts';
 import { forbidden, notFound, unauthenticated } from '../../errors';
+import { withMeta } from './route-meta';
 
 export interface MembershipLookup {
   membership(teamId: number, userId: number): Promise<{ role: Role } | null>;
@@ -12,7 +13,7 @@ export interface MembershipLookup {
  */
 export function requireTeamRoleFactory(teams: MembershipLookup) {
   return (...roles: Role[]): RequestHandler =>
-    async (req, _res, next) => {
+    withMeta(async (req, _res, next) => {
       if (!req.user) return next(unauthenticated());
       const teamId = pathId.safeParse(req.params.teamId);
       if (!teamId.success) return next(notFound('Team'));
@@ -23,7 +24,7 @@ export function requireTeamRoleFactory(teams: MembershipLookup) {
       }
       req.membership = { teamId: teamId.data, role: membership.role };
       next();
-    };
+    }, { kind: 'role', roles: roles.length > 0 ? roles : allRoles });
 }
 
 export type RequireTeamRole = ReturnType<typeof requireTeamRoleFactory>;

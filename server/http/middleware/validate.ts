@@ -3,6 +3,7 @@ import type { z } from 'zod';
 import { AppError } from '../../errors';
 import { bodyWasRead, defaultBodyLimit, jsonBody } from './body';
 import { zodDetails } from './error-handler';
+import { withMeta } from './route-meta';
 
 export interface Schemas {
   body?: z.ZodType;
@@ -34,7 +35,7 @@ const invalid = (issues: Issue[]) => new AppError('validation_failed', 400, 'The
  * declared jsonBody(limit) itself.
  */
 export function validate<S extends Schemas>(schemas: S): RequestHandler {
-  return (req, res, next) => {
+  return withMeta((req, res, next) => {
     const issues: Issue[] = [];
     const valid: { body?: unknown; query?: unknown; params?: unknown } = {
       params: check(schemas.params, req.params, 'params', issues),
@@ -50,7 +51,7 @@ export function validate<S extends Schemas>(schemas: S): RequestHandler {
     };
     if (schemas.body && !bodyWasRead(req)) jsonBody(defaultBodyLimit(req))(req, res, finish);
     else finish();
-  };
+  }, { kind: 'validate', schemas });
 }
 
 /** The parsed input of a request that went through validate(schemas). */

@@ -1,6 +1,8 @@
 import type { RequestHandler } from 'express';
 import type {
   AccountsService,
+  ApiSchemasService,
+  CodebookModelService,
   CodebooksService,
   ComparisonService,
   EvaluationService,
@@ -32,8 +34,10 @@ export interface Services {
   codebooks: CodebooksService;
   evaluation: EvaluationService;
   reconstructions: ReconstructionsService;
+  codebookModel: CodebookModelService;
   comparison: ComparisonService;
   workers: WorkersService;
+  apiSchemas: ApiSchemasService;
 }
 
 export interface RouteDeps extends Services {

@@ -99,7 +99,7 @@ export type EvaluateTask =
 /** Everything runs on this worker's own thread: the pool already spends one core per task. */
 const ON_THIS_THREAD = { threads: 1 } as const;
 
-function toCodebook(c: TaskCodebook): Codebook {
+export function toCodebook(c: TaskCodebook): Codebook {
   const codewords = c.codewords instanceof Float32Array ? c.codewords : new Float32Array(c.codewords);
   // A stored codebook whose bytes no longer match its checksum must not be measured as if it were the trained one.
   if (codewordChecksum(codewords) !== c.checksum) throw new Error('stored codewords do not match their checksum');
@@ -117,7 +117,7 @@ function toCodebook(c: TaskCodebook): Codebook {
 }
 
 /** Decodes one image, charging what it holds to the task's budget first (the charge stays for the task's life). */
-function loadCharged(image: TaskImage, color: ColorMode, memory: MemoryBudget): Promise<PixelImage> {
+export function loadCharged(image: TaskImage, color: ColorMode, memory: MemoryBudget): Promise<PixelImage> {
   memory.charge(decodedImageBytes(image.width, image.height, color), `decoding ${image.name} (${image.width}×${image.height} ${color})`);
   return loadImage(image.path, color, image.name);
 }

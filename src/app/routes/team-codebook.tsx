@@ -2,7 +2,7 @@ import { useQueryClient } from '@tanstack/react-query';
 import type { QueryClient } from '@tanstack/react-query';
 import { useMemo, useState } from 'react';
 import { data, Link, useParams, type LoaderFunctionArgs } from 'react-router-dom';
-import type { CodebookDetail } from '../../../server/contracts';
+import { MODEL_CAUTION, type CodebookDetail } from '../../../server/contracts';
 import { href } from '../../config/routes';
 import { messageOf } from '../../lib/api-client';
 import { formatDateTime } from '../../lib/format';
@@ -19,6 +19,8 @@ import { useCodebookEvaluations } from '../../features/codebooks/api/get-codeboo
 import { useReconstructionInfo } from '../../features/codebooks/api/get-reconstruction';
 import { atlasOrder, CodewordAtlas, type AtlasOrder } from '../../features/codebooks/components/codeword-atlas';
 import { ReconstructionViewer } from '../../features/codebooks/components/reconstruction-viewer';
+import { AnomalyView } from '../../features/codebooks/components/anomaly-view';
+import { DenoiseView } from '../../features/codebooks/components/denoise-view';
 import { cellMse, codewordMean, usagePercent, usageSummary } from '../../features/codebooks/cell-stats';
 import { fixedRate, formatBpp, formatBytes, formatDb, formatMse } from '../../features/codebooks/format';
 import { requireTeam } from '../session';
@@ -160,6 +162,8 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
 
         <HeldOutPanel teamId={teamId} codebookId={codebook.id} />
 
+        <ModelPanels teamId={teamId} codebookId={codebook.id} trained={codebook.runId !== null} />
+
         {/* A trained codebook is evaluated by its run; an imported one only here (or right after its import). */}
         {canEvaluate && codebook.runId === null && (
           <Panel title="Evaluate on a held-out set" titleId="codebook-evaluate" description="Rate, MSE, PSNR and SSIM on images the codebook never saw.">
@@ -250,5 +254,35 @@ function HeldOutPanel({ teamId, codebookId }: { teamId: number; codebookId: numb
         </div>
       )}
     </Panel>
+  );
+}
+
+/**
+ * The codebook read as a density of its training patches: anomaly scores and denoising on the held-out images of its
+ * latest evaluation, with the caution these views carry.
+ */
+function ModelPanels({ teamId, codebookId, trained }: { teamId: number; codebookId: number; trained: boolean }) {
+  const evaluations = useCodebookEvaluations(teamId, codebookId);
+  const images = evaluations.data?.[evaluations.data.length - 1]?.images ?? [];
+  if (images.length === 0) return null;
+  return (
+    <>
+      <Panel
+        title="Unusual blocks"
+        titleId="codebook-anomalies"
+        description="Each block scored against the codebook read as a mixture of its training patches; flagged where fewer than the chosen share of training blocks reach"
+      >
+        <div className="flex flex-col gap-4">
+          <AnomalyView teamId={teamId} codebookId={codebookId} images={images} trained={trained} />
+          <CautionNote text={MODEL_CAUTION} />
+        </div>
+      </Panel>
+      <Panel title="Denoise" titleId="codebook-denoise" description="Synthetic Gaussian noise added to a held-out image and removed with the codebook's patches">
+        <div className="flex flex-col gap-4">
+          <DenoiseView teamId={teamId} codebookId={codebookId} images={images} />
+          <CautionNote text={MODEL_CAUTION} />
+        </div>
+      </Panel>
+    </>
   );
 }

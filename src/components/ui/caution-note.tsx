@@ -4,7 +4,8 @@ import { cx } from '../../lib/cx';
 export const cautionText =
   'Lossy codebooks are not validated for diagnostic medical or safety-critical inspection imagery; such use needs the applicable regulations and qualified review.';
 
-export function CautionNote({ variant = 'inline', className }: { variant?: 'inline' | 'footer'; className?: string }) {
+/** `text` replaces the wording for views with a caution of their own (the codebook-model views carry MODEL_CAUTION). */
+export function CautionNote({ variant = 'inline', className, text = cautionText }: { variant?: 'inline' | 'footer'; className?: string; text?: string }) {
   return (
     <p
       className={cx(
@@ -20,7 +21,7 @@ export function CautionNote({ variant = 'inline', className }: { variant?: 'inli
       </svg>
       <span>
         <span className="font-semibold">Caution: </span>
-        {cautionText}
+        {text}
       </span>
     </p>
   );

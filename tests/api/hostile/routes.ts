@@ -75,6 +75,8 @@ const unique = (p: string) => `${p} ${++n}`;
 
 export const routes: RouteCase[] = [
   { name: 'health', method: 'GET', path: '/api/health', access: 'public', ok: 200, body: 'none', objectScoped: false },
+  { name: 'API description', method: 'GET', path: '/api/openapi.json', access: 'public', ok: 200, body: 'none', objectScoped: false },
+  { name: 'codebook JSON Schema', method: 'GET', path: '/api/schemas/codebook.schema.json', access: 'public', ok: 200, body: 'none', objectScoped: false },
   {
     name: 'sign up',
     method: 'POST',
@@ -383,6 +385,37 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'none',
     query: () => 'view=info',
+    objectScoped: true,
+  },
+  {
+    name: 'anomaly map',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/anomaly/:imageId',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: () => 'rate=0.01&score=nll',
+    objectScoped: true,
+  },
+  {
+    name: 'anomaly list',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/anomalies',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    // The world's codebook is imported, so it has no held-out images of its own: the set is named.
+    query: (w) => `setId=${w.setId}&limit=5`,
+    objectScoped: true,
+  },
+  {
+    name: 'denoise',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/denoise/:imageId',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: () => 'sigma=10&seed=2&step=4',
     objectScoped: true,
   },
   {

@@ -1,6 +1,7 @@
 // Requests exactly as a hostile client writes them, on node:http rather than fetch: fetch refuses a body on
 // GET, always declares a length, and would re-encode or reject the odd bytes these tests need to send.
 import http from 'node:http';
+import { responseChecker } from '../../helpers/described-api';
 
 export interface RawRequest {
   method: string;
@@ -25,7 +26,34 @@ const chunkBytes = 64 * 1024;
  * the declared length, a 401 before parsing); the answer counts, and the write error that follows is ignored.
  * An event stream is read up to its headers and dropped, since a stream on a queued run never ends by itself.
  */
-export function send(base: string, request: RawRequest): Promise<RawAnswer> {
+export async function send(base: string, request: RawRequest): Promise<RawAnswer> {
+  const answer = await sendRaw(base, request);
+  if (process.env.CHECK_API_DESCRIPTION === '1') (await describedBy(base)).checkAnswer({ ...request, ...answer });
+  return answer;
+}
+
+type Checker = ReturnType<typeof responseChecker>;
+const checkers = new Map<string, Promise<Checker>>();
+
+/**
+ * With CHECK_API_DESCRIPTION=1 every answer these tests see is held to the API's own description
+ * (tests/helpers/described-api.ts): its status documented for the route, its JSON valid under the schema.
+ */
+function describedBy(base: string): Promise<Checker> {
+  let checker = checkers.get(base);
+  if (!checker) {
+    checker = (async () => {
+      const doc = await sendRaw(base, { method: 'GET', path: '/api/openapi.json' });
+      const schema = await sendRaw(base, { method: 'GET', path: '/api/schemas/codebook.schema.json' });
+      const codebook = JSON.parse(schema.text) as { $id: string };
+      return responseChecker(doc.json as Parameters<typeof responseChecker>[0], { [codebook.$id]: codebook });
+    })();
+    checkers.set(base, checker);
+  }
+  return checker;
+}
+
+function sendRaw(base: string, request: RawRequest): Promise<RawAnswer> {
   const url = new URL(request.path, base);
   const headers: Record<string, string> = { ...(request.headers ?? {}) };
   if (request.body && !request.chunked) headers['Content-Length'] = String(request.body.length);

@@ -263,7 +263,7 @@ describe('the launcher', () => {
   it('prints help per command and exits 0', async () => {
     const { stdout } = await run(process.execPath, [LAUNCHER, 'train', '--help']);
     expect(stdout).toMatch(/^Usage: cellwright train/);
-    for (const command of ['eval', 'encode', 'decode', 'sweep']) {
+    for (const command of ['eval', 'encode', 'decode', 'sweep', 'export']) {
       expect((await cli(command, '--help')).stdout).toMatch(new RegExp(`^Usage: cellwright ${command}`));
     }
   });

@@ -68,9 +68,9 @@ describe('coded image container', () => {
   });
 
   it('rejects an unknown version or coding', () => {
-    const v2 = Buffer.from(file);
-    v2[4] = 2;
-    expect(() => decode(book, v2)).toThrow(/unsupported container version 2/);
+    const v3 = Buffer.from(file);
+    v3[4] = 3;
+    expect(() => decode(book, v3)).toThrow(/unsupported container version 3/);
     const coding = Buffer.from(file);
     coding[5] = 9;
     expect(() => decode(book, coding)).toThrow(/unknown payload coding 9/);

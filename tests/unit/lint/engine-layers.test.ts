@@ -30,6 +30,13 @@ describe('engine layers', () => {
     const found = await messages('server/engine/io/npy.ts', "import { writeContainer } from '../format/container';\nexport const e = writeContainer;\n");
     expect(found.some((m) => m.includes('io never imports format'))).toBe(true);
   });
+
+  it('puts the model above the layers it reads (io, format) and refuses format importing the model', async () => {
+    const reads = await messages('server/engine/model/anomaly.ts', "import { tile } from '../io/patches';\nimport { reconstruct } from '../format/codec';\nexport const both = [tile, reconstruct];\n");
+    expect(reads.filter((m) => m.startsWith('cellwright/'))).toEqual([]);
+    const found = await messages('server/engine/format/codec.ts', "import { scoreVectors } from '../model/mixture';\nexport const s = scoreVectors;\n");
+    expect(found.some((m) => m.includes('format never imports model'))).toBe(true);
+  });
 });
 
 describe('import cycles', () => {

@@ -1,0 +1,227 @@
+import type { z } from 'zod';
+import {
+  anomalyImageParams, anomalyListQuery, anomalyListResponse, anomalyMapResponse, anomalyQuery, denoiseQuery, denoiseResponse,
+  acceptedResponse,
+  acceptInvitationBody,
+  acceptInvitationResponse,
+  changePasswordBody,
+  codebookEvaluationsResponse,
+  codebookParams,
+  codebookResponse,
+  codebooksResponse,
+  compareQuery,
+  compareResponse,
+  createImageSetBody,
+  createInvitationBody,
+  createRunBody,
+  evaluateCodebookBody,
+  evaluateCodebookParams,
+  evaluateCodebookResponse,
+  exportFormatQuery,
+  healthResponse,
+  imageParams,
+  imageResponse,
+  imageSetParams,
+  imageSetResponse,
+  imageSetsResponse,
+  imagesResponse,
+  importCodebookQuery,
+  invitationParams,
+  invitationPreview,
+  invitationResponse,
+  invitationsResponse,
+  invitationTokenParams,
+  listImagesQuery,
+  loginBody,
+  loginResponse,
+  memberParams,
+  memberResponse,
+  membersResponse,
+  meResponse,
+  openApiDocumentResponse,
+  originalParams,
+  outboxResponse,
+  passwordResetConfirmBody,
+  passwordResetRequestBody,
+  reconstructionInfo,
+  reconstructionParams,
+  reconstructionQuery,
+  registerWorkerBody,
+  registerWorkerResponse,
+  renameRunBody,
+  runCurveResponse,
+  runMetricsResponse,
+  runParams,
+  runResponse,
+  runResultParams,
+  runsResponse,
+  signupCompleteBody,
+  signupLinkParams,
+  signupLinkPreview,
+  signupRequestBody,
+  signupResponse,
+  splitImageSetBody,
+  splitResponse,
+  teamParams,
+  updateImageBody,
+  updateImageSetBody,
+  updateMemberBody,
+  uploadResponse,
+  workersResponse,
+} from '../../contracts';
+
+/**
+ * Who may call a route. public: anyone; optional-session: anyone, and a signed-in caller is recognised;
+ * session: any signed-in user; member / engineer / admin: the least team role (viewer < engineer < admin);
+ * worker: a compute worker's own Bearer credential (never a user's session).
+ */
+export type Access = 'public' | 'optional-session' | 'session' | 'member' | 'engineer' | 'admin' | 'worker';
+
+/** The JSON Schema document the API serves itself (GET /api/schemas/…), referenced rather than copied. */
+export type SchemaRef = { ref: 'codebook' };
+
+/** A body of one media type: JSON by its zod contract or a served schema, a JSON object described elsewhere, bytes or text. */
+export type Content = z.ZodType | SchemaRef | 'binary' | 'text' | 'object';
+
+export interface ResponseDescription {
+  description: string;
+  content?: Partial<Record<string, Content>>;
+}
+
+export interface RouteDescription {
+  method: 'get' | 'post' | 'patch' | 'delete';
+  /** Express form, as mounted (server/app.ts prefix + the router's path). */
+  path: string;
+  tag: string;
+  summary: string;
+  access: Access;
+  /** The very objects the route hands to validate(); the test compares them with the mounted middleware. */
+  input?: { params?: z.ZodType; query?: z.ZodType; body?: z.ZodType };
+  /** A body the route reads other than by validate(): the multipart upload or the codebook document. */
+  rawBody?: { mediaType: 'multipart/form-data' | 'application/json'; content: Content; description: string };
+  /** Its router reads a JSON body for every route, whether or not this one takes input (the anonymous account routes). */
+  readsJsonBody?: boolean;
+  /** Checked inside the handler, after the worker's credential (internal routes only). */
+  validatedInside?: boolean;
+  /** Success responses by status. The 4xx ones are added from access and input (description/openapi.ts). */
+  responses: Record<number, ResponseDescription>;
+  /** 4xx statuses beyond those that follow from access and input: 409, 410, 429 … with why. */
+  errors?: Record<number, string>;
+}
+
+const json = (schema: Content, description: string): ResponseDescription => ({ description, content: { 'application/json': schema } });
+const noContent: ResponseDescription = { description: 'Done; no body' };
+const codebookDocument: SchemaRef = { ref: 'codebook' };
+const csvOrJson = (schema: z.ZodType, what: string): ResponseDescription => ({
+  description: `${what}: JSON, or CSV with format=csv (an attachment)`,
+  content: { 'application/json': schema, 'text/csv': 'text' },
+});
+const tooManyAttempts = { 429: 'Too many attempts from this network address; Retry-After says when to try again' };
+
+const accountRoutes: RouteDescription[] = [
+  { method: 'get', path: '/api/health', tag: 'Service', summary: 'Whether the service and its database are up', access: 'public', responses: { 200: json(healthResponse, 'Up'), 503: json(healthResponse, 'The database is down') } },
+  { method: 'get', path: '/api/openapi.json', tag: 'Service', summary: 'This description of the API (OpenAPI 3.1)', access: 'public', responses: { 200: { description: 'The OpenAPI document', content: { 'application/json': openApiDocumentResponse } } } },
+  { method: 'get', path: '/api/schemas/codebook.schema.json', tag: 'Service', summary: 'The JSON Schema (draft 2020-12) of the codebook export document, with its $id', access: 'public', responses: { 200: { description: 'The codebook format’s JSON Schema', content: { 'application/schema+json': 'object' } } } },
+  { method: 'post', path: '/api/auth/signup', tag: 'Accounts', summary: 'Ask for a sign-up link by e-mail', access: 'public', input: { body: signupRequestBody }, responses: { 202: json(acceptedResponse, 'Accepted, whether or not the address has an account') }, errors: tooManyAttempts },
+  { method: 'get', path: '/api/auth/signup/:token', tag: 'Accounts', summary: 'Check a sign-up link', access: 'public', readsJsonBody: true, input: { params: signupLinkParams }, responses: { 200: json(signupLinkPreview, 'The address the link is for') }, errors: { 410: 'The link has expired or been used' } },
+  { method: 'post', path: '/api/auth/signup/complete', tag: 'Accounts', summary: 'Finish signing up: name, password and a first team', access: 'public', input: { body: signupCompleteBody }, responses: { 201: json(signupResponse, 'Signed up and signed in (the session cookie is set)') }, errors: { 409: 'The address already has an account', 410: 'The link has expired or been used', ...tooManyAttempts } },
+  { method: 'post', path: '/api/auth/login', tag: 'Accounts', summary: 'Sign in', access: 'public', input: { body: loginBody }, responses: { 200: json(loginResponse, 'Signed in (the session cookie is set)') }, errors: { 401: 'Wrong e-mail or password', ...tooManyAttempts } },
+  { method: 'post', path: '/api/auth/logout', tag: 'Accounts', summary: 'Sign out: ends the session the cookie or Bearer token names', access: 'optional-session', readsJsonBody: true, responses: { 204: noContent } },
+  { method: 'post', path: '/api/auth/password-reset', tag: 'Accounts', summary: 'Ask for a password reset link by e-mail', access: 'public', input: { body: passwordResetRequestBody }, responses: { 202: json(acceptedResponse, 'Accepted, whether or not the address has an account') }, errors: tooManyAttempts },
+  { method: 'post', path: '/api/auth/password-reset/confirm', tag: 'Accounts', summary: 'Set a new password with a reset link; ends every session', access: 'public', input: { body: passwordResetConfirmBody }, responses: { 204: noContent }, errors: { 410: 'The link has expired or been used', ...tooManyAttempts } },
+  { method: 'get', path: '/api/me', tag: 'Accounts', summary: 'The signed-in user and their teams', access: 'session', responses: { 200: json(meResponse, 'The caller') } },
+  { method: 'post', path: '/api/me/password', tag: 'Accounts', summary: 'Change the password; ends every other session', access: 'session', input: { body: changePasswordBody }, responses: { 204: noContent }, errors: tooManyAttempts },
+  { method: 'get', path: '/api/invitations/:token', tag: 'Invitations', summary: 'Check an invitation link', access: 'public', input: { params: invitationTokenParams }, responses: { 200: json(invitationPreview, 'The team, role and address of the invitation') }, errors: { 410: 'The invitation has expired, been used or been revoked' } },
+  { method: 'post', path: '/api/invitations/:token/accept', tag: 'Invitations', summary: 'Accept an invitation: a new account, or the signed-in one if the address has an account', access: 'optional-session', input: { params: invitationTokenParams, body: acceptInvitationBody }, responses: { 200: json(acceptInvitationResponse, 'Joined the team') }, errors: { 401: 'The address has an account: sign in as it to accept', 409: 'The account changed while accepting; try again', 410: 'The invitation has expired, been used or been revoked' } },
+];
+
+const teamRoutes: RouteDescription[] = [
+  { method: 'get', path: '/api/teams/:teamId/members', tag: 'Team', summary: 'List the team’s members', access: 'member', responses: { 200: json(membersResponse, 'The members') } },
+  { method: 'patch', path: '/api/teams/:teamId/members/:userId', tag: 'Team', summary: 'Change a member’s role', access: 'admin', input: { params: memberParams, body: updateMemberBody }, responses: { 200: json(memberResponse, 'The member') }, errors: { 409: 'The team would be left without an admin' } },
+  { method: 'delete', path: '/api/teams/:teamId/members/:userId', tag: 'Team', summary: 'Remove a member', access: 'admin', input: { params: memberParams }, responses: { 204: noContent }, errors: { 409: 'The team would be left without an admin' } },
+  { method: 'get', path: '/api/teams/:teamId/invitations', tag: 'Team', summary: 'List the team’s invitations', access: 'admin', responses: { 200: json(invitationsResponse, 'The invitations') } },
+  { method: 'post', path: '/api/teams/:teamId/invitations', tag: 'Team', summary: 'Invite someone by e-mail', access: 'admin', input: { body: createInvitationBody }, responses: { 201: json(invitationResponse, 'The invitation (its link is mailed)') }, errors: { 409: 'The person is already a member of the team' } },
+  { method: 'delete', path: '/api/teams/:teamId/invitations/:invitationId', tag: 'Team', summary: 'Revoke an invitation', access: 'admin', input: { params: invitationParams }, responses: { 204: noContent }, errors: { 409: 'The invitation has already been accepted' } },
+  { method: 'get', path: '/api/teams/:teamId/outbox', tag: 'Team', summary: 'The mail the studio sent for the team', access: 'admin', responses: { 200: json(outboxResponse, 'The messages') } },
+  { method: 'get', path: '/api/teams/:teamId/workers', tag: 'Team', summary: 'The studio’s compute workers and queues', access: 'admin', responses: { 200: json(workersResponse, 'Workers and queues') } },
+];
+
+const imageRoutes: RouteDescription[] = [
+  { method: 'get', path: '/api/teams/:teamId/image-sets', tag: 'Images', summary: 'List image sets', access: 'member', responses: { 200: json(imageSetsResponse, 'The sets') } },
+  { method: 'post', path: '/api/teams/:teamId/image-sets', tag: 'Images', summary: 'Create an image set', access: 'engineer', input: { params: teamParams, body: createImageSetBody }, responses: { 201: json(imageSetResponse, 'The new set') }, errors: { 409: 'A set of that name exists' } },
+  { method: 'get', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Read an image set', access: 'member', input: { params: imageSetParams }, responses: { 200: json(imageSetResponse, 'The set') } },
+  { method: 'patch', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Rename, describe or reassign image roles in a set', access: 'engineer', input: { params: imageSetParams, body: updateImageSetBody }, responses: { 200: json(imageSetResponse, 'The set') }, errors: { 409: 'A set of that name exists' } },
+  { method: 'delete', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Delete an image set', access: 'admin', input: { params: imageSetParams }, responses: { 204: noContent }, errors: { 409: 'A run uses images of the set' } },
+  {
+    method: 'post', path: '/api/teams/:teamId/image-sets/:setId/images', tag: 'Images', summary: 'Upload images (files, or zip archives of them)', access: 'engineer', input: { params: imageSetParams },
+    rawBody: { mediaType: 'multipart/form-data', content: 'binary', description: 'One or more parts named "files": PNG, JPEG, WebP, TIFF, AVIF, GIF or a zip of them' },
+    responses: { 201: json(uploadResponse, 'The images accepted and the files refused, with why') },
+    errors: { 413: 'A file or the upload is too large', 415: 'Not multipart/form-data', 429: 'Too many uploads in progress' },
+  },
+  { method: 'get', path: '/api/teams/:teamId/image-sets/:setId/images', tag: 'Images', summary: 'List a set’s images, optionally by role', access: 'member', input: { params: imageSetParams, query: listImagesQuery }, responses: { 200: json(imagesResponse, 'The images') } },
+  { method: 'post', path: '/api/teams/:teamId/image-sets/:setId/split', tag: 'Images', summary: 'Split a set’s images into training and held-out at random', access: 'engineer', input: { params: imageSetParams, body: splitImageSetBody }, responses: { 200: json(splitResponse, 'The set and its images with their new roles') } },
+  { method: 'get', path: '/api/teams/:teamId/images/:imageId', tag: 'Images', summary: 'Read an image’s record', access: 'member', input: { params: imageParams }, responses: { 200: json(imageResponse, 'The image') } },
+  { method: 'patch', path: '/api/teams/:teamId/images/:imageId', tag: 'Images', summary: 'Set an image’s role (training or held-out)', access: 'engineer', input: { params: imageParams, body: updateImageBody }, responses: { 200: json(imageResponse, 'The image') } },
+  { method: 'delete', path: '/api/teams/:teamId/images/:imageId', tag: 'Images', summary: 'Delete an image', access: 'admin', input: { params: imageParams }, responses: { 204: noContent }, errors: { 409: 'A run still uses the image' } },
+  { method: 'get', path: '/api/teams/:teamId/images/:imageId/thumbnail', tag: 'Images', summary: 'An image’s thumbnail (ETag, private caching)', access: 'member', input: { params: imageParams }, responses: { 200: { description: 'The thumbnail', content: { 'image/webp': 'binary' } }, 304: { description: 'Not modified (If-None-Match)' } } },
+  { method: 'get', path: '/api/teams/:teamId/images/:imageId/original', tag: 'Images', summary: 'An image’s original file as uploaded', access: 'member', input: { params: imageParams }, responses: { 200: { description: 'The original, in its own format', content: { 'image/*': 'binary' } } } },
+];
+
+const runRoutes: RouteDescription[] = [
+  { method: 'get', path: '/api/teams/:teamId/runs', tag: 'Runs', summary: 'List runs', access: 'member', input: { params: teamParams }, responses: { 200: json(runsResponse, 'The runs') } },
+  { method: 'get', path: '/api/teams/:teamId/runs/:runId', tag: 'Runs', summary: 'Read a run, with its codebooks and jobs', access: 'member', input: { params: runParams }, responses: { 200: json(runResponse, 'The run') } },
+  {
+    method: 'get', path: '/api/teams/:teamId/runs/:runId/events', tag: 'Runs', summary: 'A run’s progress as server-sent events (snapshot, progress, state, end)', access: 'member', input: { params: runParams },
+    responses: { 200: { description: 'An event stream (text/event-stream; each data line is JSON)', content: { 'text/event-stream': 'text' } } },
+    errors: { 429: 'Too many open streams for this user' },
+  },
+  { method: 'post', path: '/api/teams/:teamId/runs', tag: 'Runs', summary: 'Start a training run', access: 'engineer', input: { params: teamParams, body: createRunBody }, responses: { 201: json(runResponse, 'The run, queued') } },
+  { method: 'post', path: '/api/teams/:teamId/runs/:runId/cancel', tag: 'Runs', summary: 'Cancel a queued or running run', access: 'engineer', input: { params: runParams }, responses: { 200: json(runResponse, 'The run') }, errors: { 409: 'The run has already finished' } },
+  { method: 'patch', path: '/api/teams/:teamId/runs/:runId', tag: 'Runs', summary: 'Rename a run', access: 'engineer', input: { params: runParams, body: renameRunBody }, responses: { 200: json(runResponse, 'The run') } },
+  { method: 'delete', path: '/api/teams/:teamId/runs/:runId', tag: 'Runs', summary: 'Delete a run and its codebooks', access: 'admin', input: { params: runParams }, responses: { 204: noContent }, errors: { 409: 'The run is still running' } },
+  { method: 'get', path: '/api/teams/:teamId/runs/:runId/curve', tag: 'Results', summary: 'A run’s rate–distortion curve with the baseline codecs', access: 'member', input: { params: runResultParams, query: exportFormatQuery }, responses: { 200: csvOrJson(runCurveResponse, 'The curve') } },
+  { method: 'get', path: '/api/teams/:teamId/runs/:runId/metrics', tag: 'Results', summary: 'A run’s per-image metrics', access: 'member', input: { params: runResultParams, query: exportFormatQuery }, responses: { 200: csvOrJson(runMetricsResponse, 'The metrics') } },
+  { method: 'get', path: '/api/teams/:teamId/compare', tag: 'Results', summary: 'Compare the curves of 2–6 runs, with BD-rate and BD-PSNR between them', access: 'member', input: { params: teamParams, query: compareQuery }, responses: { 200: json(compareResponse, 'The comparison') } },
+];
+
+const codebookRoutes: RouteDescription[] = [
+  { method: 'get', path: '/api/teams/:teamId/codebooks', tag: 'Codebooks', summary: 'List codebooks', access: 'member', input: { params: teamParams }, responses: { 200: json(codebooksResponse, 'The codebooks') } },
+  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId', tag: 'Codebooks', summary: 'Read a codebook with its codewords', access: 'member', input: { params: codebookParams }, responses: { 200: json(codebookResponse, 'The codebook') } },
+  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/export', tag: 'Codebooks', summary: 'Download a codebook as its export document (an attachment)', access: 'member', input: { params: codebookParams }, responses: { 200: json(codebookDocument, 'The codebook document') } },
+  {
+    method: 'post', path: '/api/teams/:teamId/codebooks/import', tag: 'Codebooks', summary: 'Import a codebook export document', access: 'engineer', input: { params: teamParams, query: importCodebookQuery },
+    rawBody: { mediaType: 'application/json', content: codebookDocument, description: 'A codebook document (up to 64 MiB), checked against the format and its checksum' },
+    responses: { 201: json(codebookResponse, 'The imported codebook') },
+    errors: { 413: 'The document is too large' },
+  },
+  { method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/evaluate', tag: 'Codebooks', summary: 'Evaluate a codebook on held-out images (a job)', access: 'engineer', input: { params: evaluateCodebookParams, body: evaluateCodebookBody }, responses: { 202: json(evaluateCodebookResponse, 'The evaluation job, queued') } },
+  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/evaluations', tag: 'Codebooks', summary: 'A codebook’s evaluations with per-image rows', access: 'member', input: { params: evaluateCodebookParams }, responses: { 200: json(codebookEvaluationsResponse, 'The evaluations') } },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId', tag: 'Codebooks', summary: 'An image coded with a codebook: original, reconstruction or error as PNG, or the figures (view=info)', access: 'member', input: { params: reconstructionParams, query: reconstructionQuery },
+    responses: { 200: { description: 'A PNG (X-Encoded-Bytes gives the coded size), or the figures as JSON with view=info', content: { 'image/png': 'binary', 'application/json': reconstructionInfo } } },
+    errors: { 429: 'Too many reconstructions being computed; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/anomaly/:imageId', tag: 'Codebooks', summary: 'Per-block anomaly scores of one image under the codebook read as a density, with the blocks flagged at a false-alarm rate', access: 'member', input: { params: anomalyImageParams, query: anomalyQuery },
+    responses: { 200: json(anomalyMapResponse, 'The scores and flagged blocks') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/anomalies', tag: 'Codebooks', summary: 'The most unusual blocks over a set of images, highest score first', access: 'member', input: { params: codebookParams, query: anomalyListQuery },
+    responses: { 200: json(anomalyListResponse, 'The ranked blocks') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/denoise/:imageId', tag: 'Codebooks', summary: 'Seeded noise added to an image and removed by the nearest-codeword and posterior-mean estimators, with PSNR', access: 'member', input: { params: anomalyImageParams, query: denoiseQuery },
+    responses: { 200: json(denoiseResponse, 'The four images and their PSNR') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+];
+
+const workerRoutes: RouteDescription[] = [
+  { method: 'post', path: '/internal/v1/workers', tag: 'Compute workers (internal)', summary: 'A compute worker joins with the worker token', access: 'worker', input: { body: registerWorkerBody }, responses: { 201: json(registerWorkerResponse, 'The worker’s session and queue settings') } },
+  { method: 'get', path: '/internal/v1/originals/:sha256', tag: 'Compute workers (internal)', summary: 'An original image a task granted to this worker', access: 'worker', input: { params: originalParams }, validatedInside: true, responses: { 200: { description: 'The bytes', content: { 'application/octet-stream': 'binary' } } } },
+];
+
+/** Every route the app mounts, in the order of its tags on the reference page. */
+export const routeTable: readonly RouteDescription[] = [...accountRoutes, ...teamRoutes, ...imageRoutes, ...runRoutes, ...codebookRoutes, ...workerRoutes];

@@ -52,7 +52,8 @@ export { bppFixed, entropyBits, indexBits } from './metrics/rate';
 export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';
 export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
-export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
+export { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type BdResult, type BdSummary, type RdPoint } from './metrics/bd-rate';
+export { bdTableCsv, BD_TABLE_CSV_COLUMNS, type BdTableRow } from './metrics/bd-table';
 
 // ---- entry validation ----
 const int = (min: number, max?: number) => (max === undefined ? z.int().min(min) : z.int().min(min).max(max));

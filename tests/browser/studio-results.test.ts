@@ -184,7 +184,11 @@ describe('studio results in the browser', () => {
     const bd = page.getByTestId('bd-rate').first();
     await expect.poll(() => bd.textContent(), { timeout: 30_000 }).toMatch(/^[+−]?\d+\.\d\d\u2009%$/);
     const chart = page.getByRole('img', { name: /^PSNR against actual/ });
-    expect(await chart.locator('path[data-series]').count()).toBe(3);
+    // Two runs on one held-out list, and one curve for each codec measured on it (AVIF only where sharp encodes it).
+    const shown = await get<{ runs: Array<{ baselines: Record<string, unknown[]> }> }>(server, api, `/compare?runs=${ids.join(',')}`);
+    const codecCurves = Object.values(shown.runs[0].baselines).filter((points) => points.length > 0).length;
+    expect(codecCurves).toBeGreaterThanOrEqual(2);
+    expect(await chart.locator('path[data-series]').count()).toBe(2 + codecCurves);
     expect(await page.getByRole('table', { name: /Configuration of each run/ }).getByText('differs').count()).toBeGreaterThan(0);
     // Settings by their labels, not raw keys; the BD table's first column is the run under comparison.
     const config = page.getByRole('table', { name: /Configuration of each run/ });
@@ -201,6 +205,17 @@ describe('studio results in the browser', () => {
     await page.getByLabel('Rate definition').selectOption('fixed');
     await page.waitForURL(/rate=fixed/);
     expect(new URL(page.url()).searchParams.get('runs')).toBe(ids.join(','));
+
+    // Every run is compared with JPEG, WebP and AVIF; the figures name their method and shared interval.
+    const bdTable = page.getByRole('table', { name: /BD-rate and BD-PSNR/ });
+    for (const codec of ['JPEG', 'WebP', 'AVIF']) expect(await bdTable.getByText(`${codec} (same images)`).count()).toBe(2);
+    await expect.poll(() => page.getByTestId('bd-method').textContent()).toMatch(/monotone Hermite/);
+    expect(await page.getByTestId('bd-shared').first().textContent()).toMatch(/bpp/);
+    await page.getByLabel('BD fitting method').selectOption('cubic');
+    await page.waitForURL(/method=cubic/);
+    await expect.poll(() => page.getByTestId('bd-method').textContent()).toMatch(/VCEG-M33/);
+    const csvLink = page.getByRole('link', { name: 'BD table CSV' });
+    expect(await csvLink.getAttribute('href')).toMatch(/\/compare\/bd-table\?runs=[\d,]+&rate=fixed&method=cubic&format=csv$/);
   });
 
   it('gives the viewer results to read and to export, and no control that changes anything', async () => {

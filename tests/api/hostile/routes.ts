@@ -396,6 +396,16 @@ export const routes: RouteCase[] = [
     // The run ids in the query are the team's objects.
     objectScoped: true,
   },
+  {
+    name: 'download the Bjøntegaard table of a comparison',
+    method: 'GET',
+    path: '/api/teams/:teamId/compare/bd-table',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: (w) => `runs=${w.runIds.join(',')}&format=csv&method=cubic`,
+    objectScoped: true,
+  },
 ];
 
 /** The world's value for each path parameter. */

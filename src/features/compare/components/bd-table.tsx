@@ -1,4 +1,4 @@
-import type { CompareResult } from '../../../../server/contracts';
+import { BD_METHOD_LABELS, BD_MIN_OVERLAP_FRACTION, type BdValues, type CompareResult } from '../../../../server/contracts';
 import { cx } from '../../../lib/cx';
 
 const thin = '\u2009';
@@ -18,9 +18,32 @@ function Value({ value, format, betterWhen }: { value: number | null; format: (v
   return <span className={cx('num', better ? 'text-success-700' : value === 0 ? 'text-ink-800' : 'text-danger-700')}>{format(value)}</span>;
 }
 
+const CODEC_LABELS = { jpeg: 'JPEG', webp: 'WebP', avif: 'AVIF' } as const;
+
+const percent = (fraction: number) => `${Math.round(fraction * 100)}${thin}%`;
+
+/** The intervals a row's figures are averaged over: rate for BD-PSNR, PSNR for BD-rate. */
+export function sharedText(values: BdValues): string {
+  const parts: string[] = [];
+  if (values.shared.bpp) parts.push(`${values.shared.bpp[0].toPrecision(3)}–${values.shared.bpp[1].toPrecision(3)}${thin}bpp`);
+  if (values.shared.psnr) parts.push(`${values.shared.psnr[0].toFixed(2)}–${values.shared.psnr[1].toFixed(2)}${thin}dB`);
+  return parts.join(', ');
+}
+
+/** Why a row deserves care: no figure (with the server's reason), or a figure resting on a short shared interval. */
+export function noteText(values: BdValues & { sameHeldOut?: boolean }): string {
+  if (values.reason) return values.reason;
+  if (values.sameHeldOut === false) return 'different held-out images';
+  if (values.shortOverlap) {
+    return `short overlap: the curves share ${percent(values.sharedFraction.bpp)} of the shorter rate range and ${percent(values.sharedFraction.psnr)} of the shorter PSNR range (under ${percent(BD_MIN_OVERLAP_FRACTION)}); read with care`;
+  }
+  return '';
+}
+
 /**
- * Bjøntegaard deltas (VCEG-M33, 2001) for every pair and for each run against JPEG on its own held-out images.
- * A value the server could not compute is shown as a dash with its reason.
+ * Bjøntegaard deltas (VCEG-M33, 2001) for every pair and for each run against JPEG, WebP and AVIF on its own held-out
+ * images, each averaged only over the interval both curves cover (shown beside it). A value the server could not
+ * compute is shown as a dash with its reason; a figure on a short shared interval carries a warning.
  */
 export function BdTable({ result }: { result: CompareResult }) {
   const name = new Map(result.runs.map((run) => [run.id, run.name]));
@@ -31,7 +54,12 @@ export function BdTable({ result }: { result: CompareResult }) {
       testName: name.get(pair.test) ?? `#${pair.test}`,
       ...pair,
     })),
-    ...result.againstJpeg.map((row) => ({ key: `jpeg-${row.runId}`, referenceName: 'JPEG (same images)', testName: name.get(row.runId) ?? `#${row.runId}`, ...row })),
+    ...result.againstBaselines.map((row) => ({
+      key: `${row.codec}-${row.runId}`,
+      referenceName: `${CODEC_LABELS[row.codec]} (same images)`,
+      testName: name.get(row.runId) ?? `#${row.runId}`,
+      ...row,
+    })),
   ];
   return (
     <div className="overflow-x-auto">
@@ -43,6 +71,7 @@ export function BdTable({ result }: { result: CompareResult }) {
             <th scope="col" className="py-2 pr-3 font-medium">against reference</th>
             <th scope="col" className="py-2 pr-3 text-right font-medium">BD-rate</th>
             <th scope="col" className="py-2 pr-3 text-right font-medium">BD-PSNR</th>
+            <th scope="col" className="py-2 pr-3 font-medium">Shared interval</th>
             <th scope="col" className="py-2 font-medium">Note</th>
           </tr>
         </thead>
@@ -57,11 +86,21 @@ export function BdTable({ result }: { result: CompareResult }) {
               <td className="py-2 pr-3 text-right">
                 <Value value={row.bdPsnr} format={formatBdPsnr} betterWhen="positive" />
               </td>
-              <td className="py-2 text-xs text-ink-600">{row.reason ?? ('sameHeldOut' in row && !row.sameHeldOut ? 'different held-out images' : '')}</td>
+              <td className="num py-2 pr-3 text-xs text-ink-700" data-testid="bd-shared">
+                {sharedText(row)}
+              </td>
+              <td className={cx('py-2 text-xs', row.shortOverlap && !row.reason ? 'text-danger-700' : 'text-ink-600')} data-testid="bd-note">
+                {noteText(row)}
+              </td>
             </tr>
           ))}
         </tbody>
       </table>
+      <p className="mt-3 text-xs text-ink-600" data-testid="bd-method">
+        Curves drawn by {BD_METHOD_LABELS[result.method]}. BD-PSNR is averaged over the rate interval both curves cover, BD-rate over the PSNR
+        interval both cover; nothing is extrapolated. A figure is flagged when that interval is under {percent(BD_MIN_OVERLAP_FRACTION)} of the
+        shorter curve&rsquo;s range.
+      </p>
     </div>
   );
 }

@@ -2,6 +2,7 @@ import { fileURLToPath } from 'node:url';
 import { shutdownEngineWorkers } from '../engine';
 import { CliUsageError, oneLine } from './cli-error';
 import { processContext, type CliContext } from './context';
+import { BD_HELP, runBd } from './commands/bd';
 import { DECODE_HELP, runDecode } from './commands/decode';
 import { ENCODE_HELP, runEncode } from './commands/encode';
 import { EVAL_HELP, runEval } from './commands/eval';
@@ -14,6 +15,7 @@ const COMMANDS: Record<string, { run: (argv: string[], ctx: CliContext) => Promi
   encode: { run: runEncode, help: ENCODE_HELP, summary: 'code an image with a codebook' },
   decode: { run: runDecode, help: DECODE_HELP, summary: 'decode a coded file to PNG' },
   sweep: { run: runSweep, help: SWEEP_HELP, summary: 'the studio\'s run over a range of b: train, evaluate on held-out images, rate–distortion CSV' },
+  bd: { run: runBd, help: BD_HELP, summary: 'BD-rate and BD-PSNR of a curve file\'s codebooks against JPEG, WebP and AVIF' },
 };
 
 export const MAIN_HELP = `Usage: cellwright <command> [options]

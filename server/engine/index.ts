@@ -44,16 +44,16 @@ export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png
 export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
 export { poolSsim, ssimGrey, ssimOfImages } from './metrics/ssim';
 export {
-  curveCsv, imageEvaluationCsv, runCurveCsv, runMetricsCsv, csvNumber, csvPsnr, csvText, CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS, type CurveCsvPoint,
+  curveCsv, imageEvaluationCsv, readCurveCsv, runCurveCsv, runMetricsCsv, csvNumber, csvPsnr, csvText, CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS, type CurveCsvPoint,
   type ImageCsvRow,
 } from './metrics/evaluation-csv';
-export { writeCsv, csvField, CSV_LINE_END } from './io/csv';
+export { readCsv, writeCsv, csvField, CSV_LINE_END } from './io/csv';
 export { bppFixed, entropyBits, indexBits } from './metrics/rate';
 export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';
 export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
 export { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type BdResult, type BdSummary, type RdPoint } from './metrics/bd-rate';
-export { bdTableCsv, BD_TABLE_CSV_COLUMNS, type BdTableRow } from './metrics/bd-table';
+export { bdAgainstCodecs, bdTableCsv, BD_TABLE_CSV_COLUMNS, type BdTableRow, type CurveRate } from './metrics/bd-table';
 
 // ---- entry validation ----
 const int = (min: number, max?: number) => (max === undefined ? z.int().min(min) : z.int().min(min).max(max));

@@ -5,7 +5,8 @@
  */
 import { writeCsv } from '../io/csv';
 import type { BdMethod } from '../vocabulary';
-import { csvNumber, csvText } from './evaluation-csv';
+import { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type RdPoint } from './bd-rate';
+import { csvNumber, csvText, type CurveCsvPoint } from './evaluation-csv';
 
 export interface BdTableRow {
   /** The reference curve: a run's or codebook set's name, or a codec (jpeg, webp, avif). */
@@ -38,4 +39,31 @@ export function bdTableCsv(rows: readonly BdTableRow[]): string {
       csvNumber(r.sharedFraction.bpp), csvNumber(r.sharedFraction.psnr), r.shortOverlap ? 'true' : 'false', csvText(r.reason ?? ''),
     ]),
   );
+}
+
+export type CurveRate = 'fixed' | 'entropy' | 'actual';
+const CODEC_NAMES: Record<string, string> = { jpeg: 'JPEG', webp: 'WebP', avif: 'AVIF' };
+
+/**
+ * The codebooks of a curve file (codec `vq`) against each standard codec in it: one row per codec, in the order the
+ * codecs first appear. The codebooks' rate is the chosen definition; a codec's is always its file's bytes (actual).
+ */
+export function bdAgainstCodecs(points: readonly CurveCsvPoint[], rate: CurveRate, method: BdMethod, testName = 'codebooks'): BdTableRow[] {
+  const vqRate = (p: CurveCsvPoint) => (rate === 'fixed' ? p.bppFixed : rate === 'entropy' ? p.bppEntropy : p.bppActual);
+  // An exact reconstruction (PSNR = +∞) has no place on the fit; bjontegaard leaves such points out.
+  const rd = (list: CurveCsvPoint[], rateOf: (p: CurveCsvPoint) => number | null): RdPoint[] =>
+    list.map((p) => ({ rate: rateOf(p) ?? NaN, psnr: p.psnr === null ? (p.mse === 0 ? Infinity : NaN) : p.psnr }));
+  const test = rd(points.filter((p) => p.codec === 'vq'), vqRate);
+  const codecs = [...new Set(points.map((p) => p.codec).filter((c) => c !== 'vq'))];
+  return codecs.map((codec) => {
+    const reference = rd(points.filter((p) => p.codec === codec), (p) => p.bppActual);
+    const base = { reference: CODEC_NAMES[codec] ?? codec, test: testName, rate };
+    try {
+      const r = bjontegaard(reference, test, method);
+      return { ...base, ...bdSummary(r), reason: bdMissingReason(r) };
+    } catch (err) {
+      if (err instanceof BdRateError) return { ...base, ...emptyBdSummary(method), reason: err.message };
+      throw err;
+    }
+  });
 }

@@ -118,6 +118,13 @@ export const reconstructionParams = z.object({ teamId: pathId, codebookId: pathI
 export const reconstructionQuery = z.object({ view: z.enum(['original', 'reconstruction', 'error', 'info']).default('reconstruction') }).strict();
 export type ReconstructionViewName = z.infer<typeof reconstructionQuery>['view'];
 
+/**
+ * GET …/codebooks/:codebookId/index-map/:imageId?plane=indices|means: the image's coding as a NumPy .npy file (NEP 1,
+ * version 1.0), blocksY × blocksX in the raster order of blocks: codeword indices (uint16 up to 65,536 codewords, else
+ * uint32), or a mean-removed codebook's quantised block mean codes (uint8).
+ */
+export const indexMapQuery = z.object({ plane: z.enum(['indices', 'means']).default('indices') }).strict();
+
 /** GET …/codebooks/:codebookId/reconstruction/:imageId?view=info */
 export const reconstructionInfo = z.object({
   codebookId: z.number().int(),

@@ -39,7 +39,8 @@ export {
 export { MemoryBudget, formatBytes } from './memory/budget';
 export { trainingMemory, type TrainingMemory, type TrainingMemoryInput } from './memory/training-memory';
 export { checkMeanBits, quantizeMean, meanLevel, removeMeans, MEAN_BITS_MIN, MEAN_BITS_MAX, type Preprocessing } from './io/mean-removal';
-export { readNpy, writeNpy, type NpyMatrix } from './io/npy';
+export { readNpy, writeNpy, writeNpyArray, type NpyMatrix, type NpyWritable } from './io/npy';
+export { indexMapNpy, meanCodesNpy } from './format/index-map';
 export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
 export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
 export { poolSsim, ssimGrey, ssimOfImages } from './metrics/ssim';

@@ -351,6 +351,16 @@ export const routes: RouteCase[] = [
   { name: 'read a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId', access: 'member', ok: 200, body: 'none', objectScoped: true },
   { name: 'export a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/export', access: 'member', ok: 200, body: 'none', objectScoped: true },
   {
+    name: 'export codewords as .npy',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/export',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: () => 'target=npy',
+    objectScoped: true,
+  },
+  {
     name: 'import a codebook',
     method: 'POST',
     path: '/api/teams/:teamId/codebooks/import',
@@ -383,6 +393,15 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'none',
     query: () => 'view=info',
+    objectScoped: true,
+  },
+  {
+    name: 'index map of an image as .npy',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/index-map/:imageId',
+    access: 'member',
+    ok: 200,
+    body: 'none',
     objectScoped: true,
   },
   {

@@ -5,6 +5,7 @@ import { processContext, type CliContext } from './context';
 import { BD_HELP, runBd } from './commands/bd';
 import { DECODE_HELP, runDecode } from './commands/decode';
 import { ENCODE_HELP, runEncode } from './commands/encode';
+import { EXPORT_HELP, runExport } from './commands/export';
 import { EVAL_HELP, runEval } from './commands/eval';
 import { runSweep, SWEEP_HELP } from './commands/sweep';
 import { runTrain, TRAIN_HELP } from './commands/train';
@@ -15,6 +16,7 @@ const COMMANDS: Record<string, { run: (argv: string[], ctx: CliContext) => Promi
   encode: { run: runEncode, help: ENCODE_HELP, summary: 'code an image with a codebook' },
   decode: { run: runDecode, help: DECODE_HELP, summary: 'decode a coded file to PNG' },
   sweep: { run: runSweep, help: SWEEP_HELP, summary: 'the studio\'s run over a range of b: train, evaluate on held-out images, rate–distortion CSV' },
+  export: { run: runExport, help: EXPORT_HELP, summary: 'write a codebook and its coded images as NumPy .npy files' },
   bd: { run: runBd, help: BD_HELP, summary: 'BD-rate and BD-PSNR of a curve file\'s codebooks against JPEG, WebP and AVIF' },
 };
 

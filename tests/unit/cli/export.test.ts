@@ -46,6 +46,35 @@ beforeAll(async () => {
 
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
+/** The NumPy decoder FORMAT.md shows, taken from the file as written (the block after its marker). */
+function formatMdDecoder(): string {
+  const md = readFileSync(new URL('../../../server/engine/format/FORMAT.md', import.meta.url), 'utf8');
+  const after = md.slice(md.indexOf('<!-- numpy-decoder:'));
+  const match = /```python\n([\s\S]*?)```/.exec(after);
+  if (!match) throw new Error('FORMAT.md has no NumPy decoder block');
+  return match[1];
+}
+
+describe('the NumPy reader in FORMAT.md', () => {
+  it.each([
+    ['an rgb codebook', 'book.json', 'reef'],
+    ['a mean-removed luma codebook', 'means.json', 'reef-means'],
+  ])('decodes a coded file of %s to the pixels of cellwright decode', async (_what, codebook, name) => {
+    expect((await cli('encode', '--codebook', p(codebook), '--image', p('held', 'reef.png'), '--out', p(`${name}.cwc`))).status).toBe(0);
+    expect((await cli('decode', '--codebook', p(codebook), '--in', p(`${name}.cwc`), '--out', p(`${name}-decoded.png`))).status).toBe(0);
+    // Payload codings 0 and 1 need only the standard library; tiny payloads are stored raw or deflated.
+    expect([0, 1]).toContain(readFileSync(p(`${name}.cwc`))[5]);
+    const channels = codebook === 'book.json' ? 3 : 1;
+    const png = sharp(p(`${name}-decoded.png`));
+    const { data } = await (channels === 1 ? png.extractChannel(0) : png.removeAlpha()).raw().toBuffer({ resolveWithObject: true });
+    const decoded = (await numpy(`${formatMdDecoder()}
+indices, image = read_coded('${name}.cwc', '${codebook}')
+print(json.dumps({'shape': image.shape, 'pixels': image.astype(int).ravel().tolist()}))`)) as { shape: number[]; pixels: number[] };
+    expect(decoded.shape).toEqual([13, 18, channels]);
+    expect(decoded.pixels).toEqual([...data]);
+  });
+});
+
 describe('cellwright export --target npy', () => {
   it('writes codewords and index maps that rebuild the decoded image in plain NumPy', async () => {
     const r = await cli('export', '--codebook', p('book.json'), '--target', 'npy', '--out', p('out'), '--images', p('held'), '--json');

@@ -172,6 +172,20 @@ describe('studio results in the browser', () => {
     floats.forEach((v, i) => bytes.writeFloatLE(v, i * 4));
     expect(createHash('sha256').update(bytes).digest('hex')).toBe(document.checksum);
     await expect.poll(() => page.getByText(document.checksum).isVisible()).toBe(true);
+
+    // The same codewords and the shown image's index map as NumPy files (NEP 1 version 1.0 headers read here by hand).
+    const npyHeader = (bytes: Buffer) => {
+      expect(bytes.subarray(0, 8)).toEqual(Buffer.from([0x93, 0x4e, 0x55, 0x4d, 0x50, 0x59, 1, 0]));
+      return bytes.subarray(10, 10 + bytes.readUInt16LE(8)).toString('latin1');
+    };
+    const [npy] = await Promise.all([page.waitForEvent('download'), page.getByRole('link', { name: 'Codewords .npy' }).click()]);
+    expect(npy.suggestedFilename()).toMatch(/\.codewords\.npy$/);
+    const npyBytes = readFileSync((await npy.path())!);
+    expect(npyHeader(npyBytes)).toContain(`'descr': '<f4', 'fortran_order': False, 'shape': (64, ${document.dimension})`);
+    const header = 10 + npyBytes.readUInt16LE(8);
+    expect(npyBytes.readFloatLE(header)).toBe(Math.fround(document.codewords[0][0]));
+    const [map] = await Promise.all([page.waitForEvent('download'), page.getByRole('link', { name: 'Index map .npy' }).click()]);
+    expect(npyHeader(readFileSync((await map.path())!))).toMatch(/'descr': '<u2', 'fortran_order': False, 'shape': \(\d+, \d+\)/);
   });
 
   it('compares the two demo runs and reads a BD-rate', async () => {

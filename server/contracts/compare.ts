@@ -1,5 +1,6 @@
 import { z } from 'zod';
 import { bdMethodSchema, BD_METHODS, COLOR_MODES, DEFAULT_BD_METHOD } from '../engine/vocabulary';
+import { bdValues } from './bd';
 import { baselineCodec, baselineCurves } from './evaluation';
 
 export const compareRate = z.enum(['fixed', 'entropy', 'actual']);
@@ -53,26 +54,6 @@ export const compareRun = z.object({
   /** The standard codecs measured on this run's held-out images, on the actual rate (a codec file's bytes). */
   baselines: baselineCurves,
 });
-
-const interval = z.tuple([z.number(), z.number()]).nullable();
-
-export const bdValues = z.object({
-  /** Percent rate change of the test curve at equal PSNR, averaged over `shared.psnr`; negative = fewer bits. */
-  bdRate: z.number().nullable(),
-  /** Mean PSNR change of the test curve at equal rate, averaged over `shared.bpp`, dB. */
-  bdPsnr: z.number().nullable(),
-  /** How the curves were drawn through their points. */
-  method: z.enum(BD_METHODS),
-  /** The intervals both curves cover, which the figures are averaged over: rate in bpp (BD-PSNR), PSNR in dB (BD-rate). */
-  shared: z.object({ bpp: interval, psnr: interval }),
-  /** Each shared interval as a fraction of the shorter curve's span (log rate for bpp), 0..1. */
-  sharedFraction: z.object({ bpp: z.number(), psnr: z.number() }),
-  /** True when a figure rests on less than BD_MIN_OVERLAP_FRACTION of the shorter curve: read it with care. */
-  shortOverlap: z.boolean(),
-  /** Why a value is null (different held-out images, too few points, no overlap). */
-  reason: z.string().nullable(),
-});
-export type BdValues = z.infer<typeof bdValues>;
 
 export const comparePair = bdValues.extend({
   reference: z.number().int(),

@@ -1,5 +1,6 @@
 import { z } from 'zod';
-import { COLOR_MODES } from '../engine/vocabulary';
+import { BD_METHODS, COLOR_MODES } from '../engine/vocabulary';
+import { bdValues } from './bd';
 import { idParam, pathId } from './common';
 
 /**
@@ -52,6 +53,11 @@ export const runCurveResponse = z.object({
   color: z.enum(COLOR_MODES).nullable(),
   points: z.array(curvePoint),
   baselines: baselineCurves,
+  /**
+   * The run's codebooks (on the actual rate, bytes of their coded files, as the codecs' rate is) against each codec:
+   * Bjøntegaard deltas by the default method, over the interval the two curves share.
+   */
+  bd: z.object({ method: z.enum(BD_METHODS), againstBaselines: z.array(bdValues.extend({ codec: baselineCodec })) }),
 });
 export type RunCurve = z.infer<typeof runCurveResponse>;
 

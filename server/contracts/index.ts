@@ -10,5 +10,6 @@ export * from './runs';
 export * from './codebooks';
 export * from './image-sets';
 export * from './evaluation';
+export * from './bd';
 export * from './compare';
 export * from './workers';

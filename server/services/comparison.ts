@@ -1,10 +1,10 @@
-import type { BaselineCodecName, BaselineCurves, BdMethod, BdTable, BdValues, CompareRate, CompareResult, NormalizedRunConfig } from '../contracts';
+import type { BaselineCurves, BdMethod, BdTable, CompareRate, CompareResult, NormalizedRunConfig } from '../contracts';
 import type { Database } from '../db';
 import type { EvaluationOverall } from '../db/repositories/evaluations';
 import { BD_MIN_OVERLAP_FRACTION } from '../engine/vocabulary';
-import { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type RdPoint } from '../engine/metrics/bd-rate';
 import { bdTableCsv } from '../engine/metrics/bd-table';
 import { notFound } from '../errors';
+import { againstEachCodec, BASELINE_CODECS, bdValuesOf, CODEC_NAMES, noBdValues, rdPoints } from './bd-figures';
 
 type FlatValue = string | number | boolean | null;
 
@@ -28,19 +28,6 @@ function flatten(normalized: NormalizedRunConfig | undefined): Record<string, Fl
 }
 
 const rateOf = (o: EvaluationOverall, rate: CompareRate) => (rate === 'fixed' ? o.bppFixed : rate === 'entropy' ? o.bppEntropy : o.bppActual);
-
-function bd(reference: RdPoint[], test: RdPoint[], method: BdMethod): BdValues {
-  try {
-    const r = bjontegaard(reference, test, method);
-    return { ...bdSummary(r), reason: bdMissingReason(r) };
-  } catch (err) {
-    if (err instanceof BdRateError) return { ...emptyBdSummary(method), reason: err.message };
-    throw err;
-  }
-}
-
-const CODECS: readonly BaselineCodecName[] = ['jpeg', 'webp', 'avif'];
-export const CODEC_NAMES: Record<BaselineCodecName, string> = { jpeg: 'JPEG', webp: 'WebP', avif: 'AVIF' };
 
 function span(values: number[]): [number, number] | null {
   const finite = values.filter(Number.isFinite);
@@ -90,30 +77,20 @@ export function createComparisonService(deps: { db: Database }) {
       const configKeys = [...new Set(runs.flatMap((r) => Object.keys(r.config)))].sort();
       const differingKeys = configKeys.filter((k) => new Set(runs.map((r) => JSON.stringify(r.config[k] ?? null))).size > 1);
 
-      // An exact reconstruction (PSNR = ∞) has no place on a log-rate/PSNR fit; bjontegaard leaves such points out.
-      const rd = (points: { bpp: number; psnr: number | null }[]): RdPoint[] => points.map((p) => ({ rate: p.bpp, psnr: p.psnr ?? Infinity }));
       const pairs: CompareResult['pairs'] = [];
       for (const reference of runs) {
         for (const test of runs) {
           if (reference === test) continue;
           const sameHeldOut = reference.heldOutHash === test.heldOutHash;
           const values = sameHeldOut
-            ? bd(rd(reference.points), rd(test.points), method)
-            : { ...emptyBdSummary(method), reason: 'the runs were measured on different held-out images' };
+            ? bdValuesOf(rdPoints(reference.points), rdPoints(test.points), method)
+            : noBdValues(method, 'the runs were measured on different held-out images');
           pairs.push({ reference: reference.id, test: test.id, sameHeldOut, ...values });
         }
       }
-      const againstBaselines = runs.flatMap((r) =>
-        CODECS.map((codec) => ({
-          runId: r.id,
-          codec,
-          ...(r.baselines[codec].length === 0
-            ? { ...emptyBdSummary(method), reason: `no ${CODEC_NAMES[codec]} points for this held-out list (not measured yet, or not encodable here)` }
-            : bd(rd(r.baselines[codec]), rd(r.points), method)),
-        })),
-      );
+      const againstBaselines = runs.flatMap((r) => againstEachCodec(r.points, r.baselines, method).map((values) => ({ runId: r.id, ...values })));
 
-      const everything = runs.flatMap((r) => [...r.points, ...CODECS.flatMap((c) => r.baselines[c])]);
+      const everything = runs.flatMap((r) => [...r.points, ...BASELINE_CODECS.flatMap((c) => r.baselines[c])]);
       return {
         rate,
         runs,

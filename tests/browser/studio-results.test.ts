@@ -139,6 +139,10 @@ describe('studio results in the browser', () => {
     await page.goto(`${server.url}/teams/${api.teamId}/runs/${seeded.id}`);
     const chart = page.getByRole('img', { name: /^Rate–distortion: PSNR/ });
     await expect.poll(() => chart.locator('path[data-series="jpeg"]').count()).toBe(1);
+    // The codebooks against each codec, with the interval each figure is averaged over.
+    const codecBd = page.getByRole('table', { name: /against each codec/ });
+    expect(await codecBd.getByRole('cell', { name: 'WebP', exact: true }).count()).toBe(1);
+    expect(await codecBd.getByTestId('bd-shared').first().textContent()).toMatch(/bpp/);
     await saveScreenshot(page, 'studio-run-seeded');
 
     // The largest codebook on the fixed-rate line: b = 6.

@@ -2,6 +2,8 @@ import { cleanup, render, screen, within } from '@testing-library/react';
 import { afterEach, describe, expect, it } from 'vitest';
 import { BD_METHOD_LABELS, compareResponse, type BdValues, type CompareResult } from '../../server/contracts';
 import { BdTable } from '../../src/features/compare/components/bd-table';
+import { CodecBd } from '../../src/features/runs/components/codec-bd';
+import { runCurveResponse } from '../../server/contracts';
 
 afterEach(cleanup);
 
@@ -58,5 +60,24 @@ describe('the Bjøntegaard table', () => {
     render(<BdTable result={result} />);
     expect(screen.getByTestId('bd-method').textContent).toContain(BD_METHOD_LABELS.cubic);
     expect(screen.getByTestId('bd-method').textContent).toMatch(/nothing is extrapolated/);
+  });
+});
+
+describe("a run's codebooks against the codecs", () => {
+  it('shows one row per codec with its shared interval, and says the codebooks are on the actual rate', () => {
+    const curve = runCurveResponse.parse({
+      run: { id: 2, name: 'Reef', state: 'succeeded' },
+      heldOutHash: 'h'.repeat(64),
+      color: 'luma',
+      points: [],
+      baselines: { jpeg: [], webp: [], avif: [] },
+      bd: { method: 'pchip', againstBaselines: result.againstBaselines.map(({ runId: _, ...row }) => ({ ...row, method: 'pchip' })) },
+    });
+    render(<CodecBd curve={curve} />);
+    const references = within(screen.getByRole('table')).getAllByRole('row').slice(1).map((r) => r.children[0].textContent);
+    expect(references).toEqual(['JPEG', 'WebP', 'AVIF']);
+    expect(within(rowOf(/JPEG/)).getByTestId('bd-shared').textContent).toBe('0.250–1.50\u2009bpp, 28.00–34.50\u2009dB');
+    expect(screen.getByTestId('bd-method').textContent).toContain(BD_METHOD_LABELS.pchip);
+    expect(screen.getByTestId('bd-method').textContent).toMatch(/actual rate/);
   });
 });

@@ -128,7 +128,7 @@ export function Component() {
                   </option>
                 ))}
               </SelectField>
-              <SelectField label="BD fitting method" value={method} onChange={(event) => select({ method: event.target.value as BdMethod })} containerClassName="w-[28rem]">
+              <SelectField label="BD fitting method" value={method} onChange={(event) => select({ method: event.target.value as BdMethod })} containerClassName="w-full max-w-xl">
                 {BD_METHODS.map((option) => (
                   <option key={option} value={option}>
                     {BD_METHOD_LABELS[option]}

@@ -3,6 +3,7 @@ import { shutdownEngineWorkers } from '../engine';
 import { CliUsageError, oneLine } from './cli-error';
 import { processContext, type CliContext } from './context';
 import { ANOMALY_HELP, runAnomaly } from './commands/anomaly';
+import { BD_HELP, runBd } from './commands/bd';
 import { DECODE_HELP, runDecode } from './commands/decode';
 import { DENOISE_HELP, runDenoise } from './commands/denoise';
 import { ENCODE_HELP, runEncode } from './commands/encode';
@@ -16,10 +17,11 @@ const COMMANDS: Record<string, { run: (argv: string[], ctx: CliContext) => Promi
   eval: { run: runEval, help: EVAL_HELP, summary: 'measure rate and distortion of a codebook on held-out images or vectors' },
   encode: { run: runEncode, help: ENCODE_HELP, summary: 'code an image with a codebook' },
   decode: { run: runDecode, help: DECODE_HELP, summary: 'decode a coded file to PNG' },
-  export: { run: runExport, help: EXPORT_HELP, summary: 'write a codebook for use elsewhere (--target c: fixed-point table and C99 decoder)' },
+  export: { run: runExport, help: EXPORT_HELP, summary: 'write a codebook for use elsewhere (--target c: fixed-point table and C99 decoder; --target npy: NumPy files)' },
   sweep: { run: runSweep, help: SWEEP_HELP, summary: 'the studio\'s run over a range of b: train, evaluate on held-out images, rate–distortion CSV' },
   anomaly: { run: runAnomaly, help: ANOMALY_HELP, summary: 'flag the blocks of held-out images that the codebook\'s training patches rarely reach' },
   denoise: { run: runDenoise, help: DENOISE_HELP, summary: 'remove Gaussian noise with the codebook as a model of its training patches' },
+  bd: { run: runBd, help: BD_HELP, summary: 'BD-rate and BD-PSNR of a curve file\'s codebooks against JPEG, WebP and AVIF' },
 };
 
 export const MAIN_HELP = `Usage: cellwright <command> [options]

@@ -54,4 +54,11 @@ export const codebookResponse = z.object({ codebook: codebookDetail });
  * GET /codebooks/:codebookId/export → the engine's codebook document (format "cellwright-codebook"), as an attachment.
  * POST /codebooks/import takes that document as the JSON body; an optional `?name=` names the imported codebook.
  */
+/**
+ * GET …/codebooks/:codebookId/export?target=json|npy: the codebook document (format/FORMAT.md), or its codewords
+ * alone as a NumPy .npy file (NEP 1, version 1.0: float32 '<f4', K × dimension, C order).
+ */
+export const exportCodebookQuery = z.object({ target: z.enum(['json', 'npy']).default('json') }).strict();
+export type ExportTarget = z.infer<typeof exportCodebookQuery>['target'];
+
 export const importCodebookQuery = z.object({ name: z.string().trim().min(1).max(200).optional() }).strict();

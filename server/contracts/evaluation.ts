@@ -1,5 +1,6 @@
 import { z } from 'zod';
-import { COLOR_MODES } from '../engine/vocabulary';
+import { BD_METHODS, COLOR_MODES } from '../engine/vocabulary';
+import { bdValues } from './bd';
 import { idParam, pathId } from './common';
 
 /**
@@ -52,6 +53,11 @@ export const runCurveResponse = z.object({
   color: z.enum(COLOR_MODES).nullable(),
   points: z.array(curvePoint),
   baselines: baselineCurves,
+  /**
+   * The run's codebooks (on the actual rate, bytes of their coded files, as the codecs' rate is) against each codec:
+   * Bjøntegaard deltas by the default method, over the interval the two curves share.
+   */
+  bd: z.object({ method: z.enum(BD_METHODS), againstBaselines: z.array(bdValues.extend({ codec: baselineCodec })) }),
 });
 export type RunCurve = z.infer<typeof runCurveResponse>;
 
@@ -117,6 +123,13 @@ export const reconstructionParams = z.object({ teamId: pathId, codebookId: pathI
 /** `info` answers JSON figures; the other views a PNG with X-Encoded-Bytes. */
 export const reconstructionQuery = z.object({ view: z.enum(['original', 'reconstruction', 'error', 'info']).default('reconstruction') }).strict();
 export type ReconstructionViewName = z.infer<typeof reconstructionQuery>['view'];
+
+/**
+ * GET …/codebooks/:codebookId/index-map/:imageId?plane=indices|means: the image's coding as a NumPy .npy file (NEP 1,
+ * version 1.0), blocksY × blocksX in the raster order of blocks: codeword indices (uint16 up to 65,536 codewords, else
+ * uint32), or a mean-removed codebook's quantised block mean codes (uint8).
+ */
+export const indexMapQuery = z.object({ plane: z.enum(['indices', 'means']).default('indices') }).strict();
 
 /** GET …/codebooks/:codebookId/reconstruction/:imageId?view=info */
 export const reconstructionInfo = z.object({

@@ -68,20 +68,22 @@ export {
 export { MemoryBudget, formatBytes } from './memory/budget';
 export { trainingMemory, type TrainingMemory, type TrainingMemoryInput } from './memory/training-memory';
 export { checkMeanBits, quantizeMean, meanLevel, removeMeans, MEAN_BITS_MIN, MEAN_BITS_MAX, type Preprocessing } from './io/mean-removal';
-export { readNpy, writeNpy, type NpyMatrix } from './io/npy';
+export { readNpy, writeNpy, writeNpyArray, type NpyMatrix, type NpyWritable } from './io/npy';
+export { indexMapNpy, meanCodesNpy } from './format/index-map';
 export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
 export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
 export { poolSsim, ssimGrey, ssimOfImages } from './metrics/ssim';
 export {
-  curveCsv, imageEvaluationCsv, runCurveCsv, runMetricsCsv, csvNumber, csvPsnr, csvText, CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS, type CurveCsvPoint,
+  curveCsv, imageEvaluationCsv, readCurveCsv, runCurveCsv, runMetricsCsv, csvNumber, csvPsnr, csvText, CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS, type CurveCsvPoint,
   type ImageCsvRow,
 } from './metrics/evaluation-csv';
-export { writeCsv, csvField, CSV_LINE_END } from './io/csv';
+export { readCsv, writeCsv, csvField, CSV_LINE_END } from './io/csv';
 export { bppFixed, entropyBits, indexBits } from './metrics/rate';
 export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDistortion, MeasuredFigures } from './metrics/evaluate';
 export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
-export { bjontegaard, BdRateError, type BdResult, type RdPoint } from './metrics/bd-rate';
+export { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type BdResult, type BdSummary, type RdPoint } from './metrics/bd-rate';
+export { bdAgainstCodecs, bdTableCsv, BD_TABLE_CSV_COLUMNS, type BdTableRow, type CurveRate } from './metrics/bd-table';
 export {
   fixedPointTable, withFixedPointCodewords, RESIDUAL_WIDTHS,
   type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,

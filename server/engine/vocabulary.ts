@@ -125,6 +125,36 @@ export const RUN_STATE_LABELS: Record<RunStateName, string> = {
  */
 export const EXACT = { text: '∞ (exact)', csv: 'inf', json: null } as const;
 
+// ---- Bjøntegaard deltas (BD-rate, BD-PSNR) ----
+
+/**
+ * How each curve is drawn through its points before the two are integrated over the interval they share:
+ * - `cubic`: the cubic polynomial of G. Bjøntegaard, "Calculation of average PSNR differences between RD-curves",
+ *   ITU-T VCEG-M33 (2001), fitted by least squares when a curve has more than four points;
+ * - `pchip`: the piecewise-cubic Hermite interpolant with the monotone slopes of F. N. Fritsch and R. E. Carlson,
+ *   "Monotone piecewise cubic interpolation", SIAM J. Numer. Anal. 17 (1980), the variant common practice uses today.
+ */
+export const BD_METHODS = ['pchip', 'cubic'] as const;
+export type BdMethod = (typeof BD_METHODS)[number];
+export const BD_METHOD_LABELS: Record<BdMethod, string> = {
+  pchip: 'piecewise cubic (monotone Hermite, Fritsch–Carlson 1980)',
+  cubic: 'cubic polynomial fit (VCEG-M33, Bjøntegaard 2001)',
+};
+/**
+ * The default: the studio's curves carry up to 15 codebook points and 11 codec points, where one least-squares cubic
+ * misses measured points and can bend back between them; the monotone interpolant passes through every measured
+ * point and never overshoots it.
+ */
+export const DEFAULT_BD_METHOD: BdMethod = 'pchip';
+export const bdMethodSchema = z.enum(BD_METHODS, { error: `expected ${BD_METHODS.map((m) => `"${m}"`).join(' or ')}` });
+
+/**
+ * A delta is averaged only over the interval both curves cover (log rate for BD-PSNR, PSNR for BD-rate). When that
+ * shared interval is shorter than this fraction of the shorter curve's own span, the figure speaks for a small part
+ * of either curve and is shown with a warning. One half is a judgement (from experience, not a published rule).
+ */
+export const BD_MIN_OVERLAP_FRACTION = 0.5;
+
 // ---- the patches-per-image rule ----
 
 /**

@@ -1,6 +1,6 @@
-import type { CodebookDetail, CodebookSummary } from '../contracts';
+import type { CodebookDetail, CodebookSummary, ExportTarget } from '../contracts';
 import type { CodebookSummaryRecord, CodebookWithCodewords, Database } from '../db';
-import { codewordChecksum, EngineInputError, parseCodebook, serializeCodebook, toCodebookDocument, type Codebook } from '../engine';
+import { codewordChecksum, EngineInputError, parseCodebook, serializeCodebook, toCodebookDocument, writeNpy, type Codebook } from '../engine';
 import { notFound, validationFailed } from '../errors';
 import { recordAudit } from './audit';
 
@@ -118,19 +118,24 @@ export function createCodebooksService(deps: { db: Database }) {
       return toDetail(await mustFind(teamId, id));
     },
 
-    /** The codebook document and the file name to offer it under; recorded in the audit trail. */
-    async export(teamId: number, userId: number, id: number): Promise<{ fileName: string; body: string }> {
+    /**
+     * The codebook document (or, for `npy`, its codewords as a NumPy .npy file, K × dimension float32) and the file
+     * name to offer it under; recorded in the audit trail.
+     */
+    async export(teamId: number, userId: number, id: number, target: ExportTarget = 'json'): Promise<{ fileName: string; body: string | Buffer }> {
       const c = await mustFind(teamId, id);
-      const body = serializeCodebook(engineCodebookOf(c));
+      const book = engineCodebookOf(c);
+      const body = target === 'npy' ? writeNpy(book.codewords, book.size, book.dimension) : serializeCodebook(book);
       await recordAudit(db.repos, {
         teamId,
         actorUserId: userId,
         action: 'codebook.exported',
         targetType: 'codebook',
         targetId: id,
-        details: { checksum: c.checksum, size: c.size },
+        details: { checksum: c.checksum, size: c.size, target },
       });
-      return { fileName: exportFileName(c.runName ?? c.name, c.bits), body };
+      const fileName = exportFileName(c.runName ?? c.name, c.bits);
+      return { fileName: target === 'npy' ? fileName.replace(/\.cellwright\.json$/, '.codewords.npy') : fileName, body };
     },
 
     /** Validates a codebook document (schema and checksum) and stores it as an imported codebook. */

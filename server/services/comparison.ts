@@ -1,8 +1,10 @@
-import type { CompareRate, CompareResult, NormalizedRunConfig } from '../contracts';
+import type { BaselineCurves, BdMethod, BdTable, CompareRate, CompareResult, NormalizedRunConfig } from '../contracts';
 import type { Database } from '../db';
 import type { EvaluationOverall } from '../db/repositories/evaluations';
-import { BdRateError, bjontegaard, type RdPoint } from '../engine/metrics/bd-rate';
+import { BD_MIN_OVERLAP_FRACTION } from '../engine/vocabulary';
+import { bdTableCsv } from '../engine/metrics/bd-table';
 import { notFound } from '../errors';
+import { againstEachCodec, BASELINE_CODECS, bdValuesOf, CODEC_NAMES, noBdValues, rdPoints } from './bd-figures';
 
 type FlatValue = string | number | boolean | null;
 
@@ -27,24 +29,6 @@ function flatten(normalized: NormalizedRunConfig | undefined): Record<string, Fl
 
 const rateOf = (o: EvaluationOverall, rate: CompareRate) => (rate === 'fixed' ? o.bppFixed : rate === 'entropy' ? o.bppEntropy : o.bppActual);
 
-function bd(reference: RdPoint[], test: RdPoint[]): { bdRate: number | null; bdPsnr: number | null; reason: string | null } {
-  try {
-    const r = bjontegaard(reference, test);
-    const reason =
-      r.bdRate === null && r.bdPsnr === null
-        ? 'the curves share neither a rate nor a PSNR interval'
-        : r.bdRate === null
-          ? 'the curves share no PSNR interval'
-          : r.bdPsnr === null
-            ? 'the curves share no rate interval'
-            : null;
-    return { bdRate: r.bdRate, bdPsnr: r.bdPsnr, reason };
-  } catch (err) {
-    if (err instanceof BdRateError) return { bdRate: null, bdPsnr: null, reason: err.message };
-    throw err;
-  }
-}
-
 function span(values: number[]): [number, number] | null {
   const finite = values.filter(Number.isFinite);
   return finite.length ? [Math.min(...finite), Math.max(...finite)] : null;
@@ -55,17 +39,21 @@ export function createComparisonService(deps: { db: Database }) {
   return {
     /**
      * Runs side by side on one rate definition: their configurations (differing keys marked), curves on common axes,
-     * BD-rate and BD-PSNR (Bjøntegaard, VCEG-M33) for every ordered pair measured on the same held-out images, and
-     * each run against JPEG on its own held-out list. Pairs on different held-out images are never compared.
+     * BD-rate and BD-PSNR (Bjøntegaard, VCEG-M33; curves drawn by `method`) for every ordered pair measured on the same
+     * held-out images, and each run against JPEG, WebP and AVIF on its own held-out list. Pairs on different held-out
+     * images are never compared.
      */
-    async compare(teamId: number, runIds: number[], rate: CompareRate): Promise<CompareResult> {
+    async compare(teamId: number, runIds: number[], rate: CompareRate, method: BdMethod): Promise<CompareResult> {
       const runs: CompareResult['runs'] = [];
       for (const id of runIds) {
         const run = await db.repos.runs.findForTeam(teamId, id);
         if (!run) throw notFound(`Run ${id}`);
         const color = run.normalized.color;
         const rows = await db.repos.evaluations.curveOfRun(run.id, run.heldOutHash);
-        const jpeg = (await db.repos.baselines.list(run.heldOutHash, color)).filter((p) => p.codec === 'jpeg');
+        const baselines: BaselineCurves = { jpeg: [], webp: [], avif: [] };
+        for (const p of await db.repos.baselines.list(run.heldOutHash, color)) {
+          baselines[p.codec].push({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });
+        }
         runs.push({
           id: run.id,
           name: run.name,
@@ -82,32 +70,27 @@ export function createComparisonService(deps: { db: Database }) {
             psnr: r.overall.psnr,
             ssim: r.overall.ssim,
           })),
-          jpeg: jpeg.map((p) => ({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim })),
+          baselines,
         });
       }
 
       const configKeys = [...new Set(runs.flatMap((r) => Object.keys(r.config)))].sort();
       const differingKeys = configKeys.filter((k) => new Set(runs.map((r) => JSON.stringify(r.config[k] ?? null))).size > 1);
 
-      // An exact reconstruction (PSNR = ∞) has no place on a log-rate/PSNR fit; bjontegaard leaves such points out.
-      const rd = (points: { bpp: number; psnr: number | null }[]): RdPoint[] => points.map((p) => ({ rate: p.bpp, psnr: p.psnr ?? Infinity }));
       const pairs: CompareResult['pairs'] = [];
       for (const reference of runs) {
         for (const test of runs) {
           if (reference === test) continue;
           const sameHeldOut = reference.heldOutHash === test.heldOutHash;
           const values = sameHeldOut
-            ? bd(rd(reference.points), rd(test.points))
-            : { bdRate: null, bdPsnr: null, reason: 'the runs were measured on different held-out images' };
+            ? bdValuesOf(rdPoints(reference.points), rdPoints(test.points), method)
+            : noBdValues(method, 'the runs were measured on different held-out images');
           pairs.push({ reference: reference.id, test: test.id, sameHeldOut, ...values });
         }
       }
-      const againstJpeg = runs.map((r) => ({
-        runId: r.id,
-        ...(r.jpeg.length === 0 ? { bdRate: null, bdPsnr: null, reason: 'no JPEG points for this held-out list yet' } : bd(rd(r.jpeg), rd(r.points))),
-      }));
+      const againstBaselines = runs.flatMap((r) => againstEachCodec(r.points, r.baselines, method).map((values) => ({ runId: r.id, ...values })));
 
-      const everything = runs.flatMap((r) => [...r.points, ...r.jpeg]);
+      const everything = runs.flatMap((r) => [...r.points, ...BASELINE_CODECS.flatMap((c) => r.baselines[c])]);
       return {
         rate,
         runs,
@@ -119,10 +102,32 @@ export function createComparisonService(deps: { db: Database }) {
         },
         heldOutMismatch: new Set(runs.map((r) => r.heldOutHash)).size > 1,
         pairs,
-        againstJpeg,
+        method,
+        againstBaselines,
       };
+    },
+
+    /** The Bjøntegaard table of a comparison, as JSON or as an RFC 4180 file (server/engine/metrics/bd-table.ts). */
+    async bdTable(teamId: number, runIds: number[], rate: CompareRate, method: BdMethod): Promise<BdTable> {
+      const result = await this.compare(teamId, runIds, rate, method);
+      const name = new Map(result.runs.map((r) => [r.id, r.name]));
+      const rows: BdTable['rows'] = [
+        ...result.pairs.map(({ reference, test, sameHeldOut: _, ...values }) => ({
+          ...values, reference: name.get(reference)!, test: name.get(test)!, referenceRunId: reference, testRunId: test, codec: null,
+        })),
+        ...result.againstBaselines.map(({ runId, codec, ...values }) => ({
+          ...values, reference: CODEC_NAMES[codec], test: name.get(runId)!, referenceRunId: null, testRunId: runId, codec,
+        })),
+      ];
+      return { rate, method, minOverlapFraction: BD_MIN_OVERLAP_FRACTION, rows };
+    },
+
+    /** The table as CSV, in the columns the command line's `bd` writes. */
+    bdTableCsv(table: BdTable): string {
+      return bdTableCsv(table.rows.map((r) => ({ ...r, rate: table.rate })));
     },
   };
 }
 
 export type ComparisonService = ReturnType<typeof createComparisonService>;
+

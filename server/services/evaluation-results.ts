@@ -2,7 +2,9 @@ import type { BaselineCurves, CodebookEvaluations, ImageMetrics, RunCurve, RunMe
 import type { Database } from '../db';
 import type { EvaluationImageMetrics } from '../db/repositories/evaluations';
 import type { RunRecord } from '../db/repositories/runs';
+import { DEFAULT_BD_METHOD } from '../engine/vocabulary';
 import { notFound } from '../errors';
+import { againstEachCodec } from './bd-figures';
 
 const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
 
@@ -49,10 +51,13 @@ export function createEvaluationResults(deps: { db: Database }) {
       db.repos.evaluations.curveOfRun(run.id, run.heldOutHash),
       baselineCurves(run.heldOutHash, run.normalized?.color ?? null),
     ]);
+    // The codecs' rate is their files' bytes, so the codebooks stand beside them on theirs: the actual rate.
+    const actual = rows.map((r) => ({ bpp: r.overall.bppActual, psnr: r.overall.psnr }));
     return {
       run: { id: run.id, name: run.name, state: run.state },
       heldOutHash: run.heldOutHash,
       color: run.normalized?.color ?? null,
+      bd: { method: DEFAULT_BD_METHOD, againstBaselines: againstEachCodec(actual, baselines, DEFAULT_BD_METHOD) },
       points: rows.map((r) => ({
         codebookId: r.codebookId,
         bits: r.bits,

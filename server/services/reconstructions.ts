@@ -3,7 +3,7 @@ import type { Database, ReconstructionRecord } from '../db';
 import type { CodebookWithCodewords } from '../db/repositories/codebooks';
 import type { RunImageRecord } from '../db/repositories/runs';
 import { badRequest, notFound } from '../errors';
-import type { ReconstructResult, ReconstructionView } from '../jobs/tasks/evaluate.task';
+import type { IndexMapResult, ReconstructResult, ReconstructionView } from '../jobs/tasks/evaluate.task';
 import { createComputeSlots } from './compute-slots';
 import { toTaskCodebook, type EvaluationTaskRunner } from './task-codebook';
 
@@ -193,6 +193,41 @@ export function createReconstructionsService(deps: ReconstructionsDeps) {
       const computed = await shared(`${codebookId}:${imageId}`, signal, (s) => compute(codebook, image, s));
       if (view === 'info') return { kind: 'info', info: infoOf(computed.record) };
       return { kind: 'png', png: computed.pngs[view], encodedBytes: computed.record.encodedBytes };
+    },
+
+    /**
+     * One image's index map through one codebook as a NumPy .npy file (blocksY × blocksX, uint16 up to 65,536
+     * codewords), coded by the evaluation's encoder; `plane: 'means'` gives a mean-removed codebook's block mean codes
+     * instead (404 for a codebook without mean removal). Not kept: coding alone is cheap next to the views' SSIM and
+     * PNGs, but it takes one of the same bounded compute places (429 beyond them) and stops when the client leaves.
+     */
+    async indexMap(teamId: number, codebookId: number, imageId: number, plane: 'indices' | 'means', signal?: AbortSignal): Promise<{ fileName: string; npy: Buffer }> {
+      const codebook = await db.repos.codebooks.findForTeam(teamId, codebookId);
+      if (!codebook) throw notFound('Codebook');
+      const [image] = await db.repos.runs.teamImages(teamId, [imageId]);
+      if (!image) throw notFound('Image');
+      if (plane === 'means' && codebook.meanBits === 0) throw notFound('Block means (this codebook codes no block means)');
+      const controller = new AbortController();
+      const onGone = () => controller.abort(clientGone());
+      signal?.addEventListener('abort', onGone, { once: true });
+      if (signal?.aborted) onGone();
+      const release = await slots.acquire(controller.signal);
+      try {
+        const result = (await deps.runTask(
+          {
+            op: 'index-map',
+            codebook: toTaskCodebook(codebook),
+            image: { path: deps.store.path(image.sha256), name: image.fileName, width: image.width, height: image.height },
+          },
+          controller.signal,
+        )) as IndexMapResult;
+        const bytes = plane === 'means' ? result.means! : result.indices;
+        const stem = image.fileName.replace(/\.[^.]*$/, '').replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^[-.]+|[-.]+$/g, '') || 'image';
+        return { fileName: `${stem}-codebook-${codebookId}.${plane}.npy`, npy: Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength) };
+      } finally {
+        release();
+        signal?.removeEventListener('abort', onGone);
+      }
     },
 
     /** Counters since start; computations running and waiting for a slot now, and the requests waiting on them. */

@@ -2,7 +2,7 @@ import { createHash } from 'node:crypto';
 import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS } from '../../server/engine';
+import { bjontegaard, CURVE_CSV_COLUMNS, DEFAULT_BD_METHOD, IMAGE_CSV_COLUMNS } from '../../server/engine';
 import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
 import { seabedPngs, createSetWith, waitForRun as pollRun } from '../helpers/studio';
 import { mailFor, waitForMail } from '../helpers/mailbox';
@@ -99,6 +99,28 @@ describe('run curve', () => {
     }
     // At its highest quality JPEG is closer to the source than at its lowest.
     expect(jpeg[jpeg.length - 1].psnr).toBeGreaterThan(jpeg[0].psnr);
+  });
+
+  it("gives the run's codebooks against JPEG, WebP and AVIF on the actual rate, over the interval each pair shares", async () => {
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/curve`).set(bearer(team.viewer));
+    expect(res.body.bd.method).toBe(DEFAULT_BD_METHOD);
+    type Point = { bpp?: number; bppActual?: number; psnr: number | null };
+    const rows: { codec: 'jpeg' | 'webp' | 'avif'; bdPsnr: number | null; shared: { bpp: [number, number] | null }; reason: string | null }[] = res.body.bd.againstBaselines;
+    expect(rows.map((r) => r.codec)).toEqual(['jpeg', 'webp', 'avif']);
+    const vq = (res.body.points as Point[]).map((p) => ({ rate: p.bppActual!, psnr: p.psnr ?? Infinity }));
+    for (const row of rows) {
+      const codec = (res.body.baselines[row.codec] as Point[]).map((p) => ({ rate: p.bpp!, psnr: p.psnr ?? Infinity }));
+      if (codec.length === 0) {
+        expect(row.reason).toMatch(/no AVIF points/);
+        continue;
+      }
+      // The same figure as the engine gives for these two curves as the API lists them (codebooks on bpp_actual).
+      const expected = bjontegaard(codec, vq);
+      expect(row.bdPsnr).toBe(expected.bdPsnr);
+      if (row.shared.bpp) {
+        expect(row.shared.bpp[0]).toBeCloseTo(Math.max(Math.min(...vq.map((p) => p.rate)), Math.min(...codec.map((p) => p.rate))), 12);
+      }
+    }
   });
 
   it('matches an independent JPEG measurement made with sharp', async () => {

@@ -139,6 +139,10 @@ describe('studio results in the browser', () => {
     await page.goto(`${server.url}/teams/${api.teamId}/runs/${seeded.id}`);
     const chart = page.getByRole('img', { name: /^Rate–distortion: PSNR/ });
     await expect.poll(() => chart.locator('path[data-series="jpeg"]').count()).toBe(1);
+    // The codebooks against each codec, with the interval each figure is averaged over.
+    const codecBd = page.getByRole('table', { name: /against each codec/ });
+    expect(await codecBd.getByRole('cell', { name: 'WebP', exact: true }).count()).toBe(1);
+    expect(await codecBd.getByTestId('bd-shared').first().textContent()).toMatch(/bpp/);
     await saveScreenshot(page, 'studio-run-seeded');
 
     // The largest codebook on the fixed-rate line: b = 6.
@@ -172,6 +176,20 @@ describe('studio results in the browser', () => {
     floats.forEach((v, i) => bytes.writeFloatLE(v, i * 4));
     expect(createHash('sha256').update(bytes).digest('hex')).toBe(document.checksum);
     await expect.poll(() => page.getByText(document.checksum).isVisible()).toBe(true);
+
+    // The same codewords and the shown image's index map as NumPy files (NEP 1 version 1.0 headers read here by hand).
+    const npyHeader = (bytes: Buffer) => {
+      expect(bytes.subarray(0, 8)).toEqual(Buffer.from([0x93, 0x4e, 0x55, 0x4d, 0x50, 0x59, 1, 0]));
+      return bytes.subarray(10, 10 + bytes.readUInt16LE(8)).toString('latin1');
+    };
+    const [npy] = await Promise.all([page.waitForEvent('download'), page.getByRole('link', { name: 'Codewords .npy' }).click()]);
+    expect(npy.suggestedFilename()).toMatch(/\.codewords\.npy$/);
+    const npyBytes = readFileSync((await npy.path())!);
+    expect(npyHeader(npyBytes)).toContain(`'descr': '<f4', 'fortran_order': False, 'shape': (64, ${document.dimension})`);
+    const header = 10 + npyBytes.readUInt16LE(8);
+    expect(npyBytes.readFloatLE(header)).toBe(Math.fround(document.codewords[0][0]));
+    const [map] = await Promise.all([page.waitForEvent('download'), page.getByRole('link', { name: 'Index map .npy' }).click()]);
+    expect(npyHeader(readFileSync((await map.path())!))).toMatch(/'descr': '<u2', 'fortran_order': False, 'shape': \(\d+, \d+\)/);
   });
 
   it('compares the two demo runs and reads a BD-rate', async () => {
@@ -184,7 +202,11 @@ describe('studio results in the browser', () => {
     const bd = page.getByTestId('bd-rate').first();
     await expect.poll(() => bd.textContent(), { timeout: 30_000 }).toMatch(/^[+−]?\d+\.\d\d\u2009%$/);
     const chart = page.getByRole('img', { name: /^PSNR against actual/ });
-    expect(await chart.locator('path[data-series]').count()).toBe(3);
+    // Two runs on one held-out list, and one curve for each codec measured on it (AVIF only where sharp encodes it).
+    const shown = await get<{ runs: Array<{ baselines: Record<string, unknown[]> }> }>(server, api, `/compare?runs=${ids.join(',')}`);
+    const codecCurves = Object.values(shown.runs[0].baselines).filter((points) => points.length > 0).length;
+    expect(codecCurves).toBeGreaterThanOrEqual(2);
+    expect(await chart.locator('path[data-series]').count()).toBe(2 + codecCurves);
     expect(await page.getByRole('table', { name: /Configuration of each run/ }).getByText('differs').count()).toBeGreaterThan(0);
     // Settings by their labels, not raw keys; the BD table's first column is the run under comparison.
     const config = page.getByRole('table', { name: /Configuration of each run/ });
@@ -201,6 +223,17 @@ describe('studio results in the browser', () => {
     await page.getByLabel('Rate definition').selectOption('fixed');
     await page.waitForURL(/rate=fixed/);
     expect(new URL(page.url()).searchParams.get('runs')).toBe(ids.join(','));
+
+    // Every run is compared with JPEG, WebP and AVIF; the figures name their method and shared interval.
+    const bdTable = page.getByRole('table', { name: /BD-rate and BD-PSNR/ });
+    for (const codec of ['JPEG', 'WebP', 'AVIF']) expect(await bdTable.getByText(`${codec} (same images)`).count()).toBe(2);
+    await expect.poll(() => page.getByTestId('bd-method').textContent()).toMatch(/monotone Hermite/);
+    expect(await page.getByTestId('bd-shared').first().textContent()).toMatch(/bpp/);
+    await page.getByLabel('BD fitting method').selectOption('cubic');
+    await page.waitForURL(/method=cubic/);
+    await expect.poll(() => page.getByTestId('bd-method').textContent()).toMatch(/VCEG-M33/);
+    const csvLink = page.getByRole('link', { name: 'BD table CSV' });
+    expect(await csvLink.getAttribute('href')).toMatch(/\/compare\/bd-table\?runs=[\d,]+&rate=fixed&method=cubic&format=csv$/);
   });
 
   it('gives the viewer results to read and to export, and no control that changes anything', async () => {

@@ -10,6 +10,7 @@ const curve: RunCurve = {
   run: { id: 7, name: 'Luma 4×4 sweep', state: 'succeeded' },
   heldOutHash: 'a'.repeat(64),
   color: 'luma',
+  bd: { method: 'pchip', againstBaselines: [] },
   points: [2, 1, 3].map((bits) => ({
     codebookId: 100 + bits,
     bits,

@@ -68,7 +68,9 @@ describe('one spelling for an exact reconstruction', () => {
 
 describe('the Bjøntegaard table', () => {
   it('names the run under comparison "Compared run", never "Test"', () => {
-    const result = { runs: [{ id: 1, name: 'A' }, { id: 2, name: 'B' }], pairs: [{ reference: 1, test: 2, bdRate: -1, bdPsnr: 0.1, reason: null }], againstJpeg: [] } as unknown as CompareResult;
+    const values = { method: 'pchip', shared: { bpp: [0.2, 1], psnr: [28, 33] }, sharedFraction: { bpp: 1, psnr: 1 }, shortOverlap: false };
+    const pair = { reference: 1, test: 2, bdRate: -1, bdPsnr: 0.1, reason: null, ...values };
+    const result = { runs: [{ id: 1, name: 'A' }, { id: 2, name: 'B' }], pairs: [pair], method: 'pchip', againstBaselines: [] } as unknown as CompareResult;
     render(<BdTable result={result} />);
     const headers = within(screen.getByRole('table')).getAllByRole('columnheader').map((th) => th.textContent);
     expect(headers[0]).toBe('Compared run');

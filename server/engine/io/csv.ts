@@ -19,3 +19,52 @@ export function csvField(text: string): string {
 export function writeCsv(header: readonly string[], rows: readonly (readonly string[])[]): string {
   return [header, ...rows].map((r) => r.map(csvField).join(',') + CSV_LINE_END).join('');
 }
+
+/**
+ * Reads an RFC 4180 file into records of fields: CRLF or LF line ends, quoted fields with doubled quotes inside
+ * (§2 rules 5–7), a last record with or without its line end (rule 2). A quote left open is an error.
+ */
+export function readCsv(text: string): string[][] {
+  const records: string[][] = [];
+  let record: string[] = [];
+  let field = '';
+  let i = 0;
+  let quoted = false;
+  while (i < text.length) {
+    const ch = text[i];
+    if (quoted) {
+      if (ch === '"' && text[i + 1] === '"') {
+        field += '"';
+        i += 2;
+      } else if (ch === '"') {
+        quoted = false;
+        i += 1;
+      } else {
+        field += ch;
+        i += 1;
+      }
+    } else if (ch === '"' && field === '') {
+      quoted = true;
+      i += 1;
+    } else if (ch === ',') {
+      record.push(field);
+      field = '';
+      i += 1;
+    } else if (ch === '\r' || ch === '\n') {
+      record.push(field);
+      records.push(record);
+      record = [];
+      field = '';
+      i += ch === '\r' && text[i + 1] === '\n' ? 2 : 1;
+    } else {
+      field += ch;
+      i += 1;
+    }
+  }
+  if (quoted) throw new SyntaxError('the file ends inside a quoted field');
+  if (field !== '' || record.length > 0) {
+    record.push(field);
+    records.push(record);
+  }
+  return records;
+}

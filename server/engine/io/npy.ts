@@ -148,19 +148,55 @@ export function readNpy(bytes: Uint8Array, name = 'array.npy'): NpyMatrix {
   return { rows, cols, data, sourceDtype };
 }
 
-/** Writes a 2-D float32 C-order array as .npy version 1.0 (header padded so data starts on a 64-byte boundary, per NEP 1). */
-export function writeNpy(data: Float32Array, rows: number, cols: number): Buffer {
-  if (data.length !== rows * cols) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `data length ${data.length} is not ${rows} × ${cols}`);
-  let header = `{'descr': '<f4', 'fortran_order': False, 'shape': (${rows}, ${cols}), }`;
+/** The typed arrays the writer takes, and their NEP 1 `descr` (little-endian; a one-byte type has no byte order, '|'). */
+export type NpyWritable = Float32Array | Float64Array | Uint8Array | Uint16Array | Uint32Array | Int32Array;
+
+function descrOf(data: NpyWritable): string {
+  if (data instanceof Float32Array) return '<f4';
+  if (data instanceof Float64Array) return '<f8';
+  if (data instanceof Uint8Array) return '|u1';
+  if (data instanceof Uint16Array) return '<u2';
+  if (data instanceof Uint32Array) return '<u4';
+  return '<i4';
+}
+
+/**
+ * Writes a C-order array of any shape as .npy version 1.0 (NEP 1): magic, version 1.0, a uint16 little-endian header
+ * length, the header dict padded with spaces and ended by a newline so the data starts on a 64-byte boundary, then
+ * the values little-endian. A 1-D shape is written `(n,)`, as Python spells a one-element tuple.
+ */
+export function writeNpyArray(data: NpyWritable, shape: readonly number[]): Buffer {
+  const count = shape.reduce((a, b) => a * b, 1);
+  if (shape.length === 0 || shape.some((n) => !Number.isInteger(n) || n < 0) || data.length !== count) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `data length ${data.length} does not fit shape (${shape.join(', ')})`);
+  }
+  const tuple = shape.length === 1 ? `(${shape[0]},)` : `(${shape.join(', ')})`;
+  let header = `{'descr': '${descrOf(data)}', 'fortran_order': False, 'shape': ${tuple}, }`;
   const pad = 64 - ((10 + header.length + 1) % 64);
   header = header + ' '.repeat(pad % 64) + '\n';
-  const out = Buffer.alloc(10 + header.length + data.length * 4);
+  const itemSize = data.BYTES_PER_ELEMENT;
+  const out = Buffer.alloc(10 + header.length + data.length * itemSize);
   MAGIC.forEach((b, k) => (out[k] = b));
   out[6] = 1;
   out[7] = 0;
   out.writeUInt16LE(header.length, 8);
   out.write(header, 10, 'latin1');
   const view = new DataView(out.buffer, out.byteOffset, out.byteLength);
-  for (let k = 0; k < data.length; k += 1) view.setFloat32(10 + header.length + 4 * k, data[k], true);
+  const start = 10 + header.length;
+  for (let k = 0; k < data.length; k += 1) {
+    const at = start + itemSize * k;
+    if (data instanceof Float32Array) view.setFloat32(at, data[k], true);
+    else if (data instanceof Float64Array) view.setFloat64(at, data[k], true);
+    else if (data instanceof Uint8Array) view.setUint8(at, data[k]);
+    else if (data instanceof Uint16Array) view.setUint16(at, data[k], true);
+    else if (data instanceof Uint32Array) view.setUint32(at, data[k], true);
+    else view.setInt32(at, data[k], true);
+  }
   return out;
+}
+
+/** Writes a 2-D float32 C-order array as .npy version 1.0 (header padded so data starts on a 64-byte boundary, per NEP 1). */
+export function writeNpy(data: Float32Array, rows: number, cols: number): Buffer {
+  if (data.length !== rows * cols) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `data length ${data.length} is not ${rows} × ${cols}`);
+  return writeNpyArray(data, [rows, cols]);
 }

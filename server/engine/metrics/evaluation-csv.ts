@@ -3,7 +3,8 @@
  * in the name: `_db`, `_px`, `bpp_` bits per pixel; `mse` is per pixel component on the 0..255 scale), how each
  * value is written, and the RFC 4180 file (server/engine/io/csv.ts). A column that does not apply to a row is empty.
  */
-import { writeCsv } from '../io/csv';
+import { EngineInputError } from '../input-error';
+import { readCsv, writeCsv } from '../io/csv';
 import { EXACT } from '../vocabulary';
 
 /** One point of a rate–distortion curve: a codebook, or a standard codec at one quality. */
@@ -154,4 +155,49 @@ export function runMetricsCsv(metrics: {
       })),
     ),
   );
+}
+
+// ---- reading a curve file back (the command line's `bd`) ----
+
+/** A CSV value as a number: empty → null, EXACT.csv → +∞; anything else must be a decimal number. */
+function parseCsvNumber(text: string, where: string): number | null {
+  if (text === '') return null;
+  if (text === EXACT.csv) return Infinity;
+  if (text === `-${EXACT.csv}`) return -Infinity;
+  const value = Number(text);
+  if (text.trim() === '' || Number.isNaN(value)) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${where}: "${text}" is not a number`);
+  return value;
+}
+
+/**
+ * Reads a curve file written by curveCsv (`cellwright sweep`, or the studio's curve download): the header must name
+ * every one of CURVE_CSV_COLUMNS (in any order). A text field protected by csvText keeps its leading '.
+ */
+export function readCurveCsv(text: string, name = 'curve.csv'): CurveCsvPoint[] {
+  const [header, ...records] = readCsv(text).filter((r) => !(r.length === 1 && r[0] === ''));
+  if (!header) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${name}: the file is empty`);
+  const missing = CURVE_CSV_COLUMNS.filter((c) => !header.includes(c));
+  if (missing.length > 0) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${name}: not a curve file (no ${missing.join(', ')} column)`);
+  const at = (record: string[], column: (typeof CURVE_CSV_COLUMNS)[number]) => record[header.indexOf(column)] ?? '';
+  return records.map((r, k) => {
+    const where = `${name} line ${k + 2}`;
+    const num = (column: (typeof CURVE_CSV_COLUMNS)[number]) => parseCsvNumber(at(r, column), `${where}, ${column}`);
+    const bppActual = num('bpp_actual');
+    const mse = num('mse');
+    if (bppActual === null || mse === null) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${where}: bpp_actual and mse are required`);
+    const codebook = at(r, 'codebook');
+    return {
+      codec: at(r, 'codec'),
+      codebook: codebook === '' ? null : codebook,
+      bits: num('bits'),
+      codebookSize: num('codebook_size'),
+      quality: num('quality'),
+      bppFixed: num('bpp_fixed'),
+      bppEntropy: num('bpp_entropy'),
+      bppActual,
+      mse,
+      psnr: num('psnr_db'),
+      ssim: num('ssim'),
+    };
+  });
 }

@@ -1,5 +1,6 @@
 import type { z } from 'zod';
 import {
+  bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
   anomalyImageParams, anomalyListQuery, anomalyListResponse, anomalyMapResponse, anomalyQuery, denoiseQuery, denoiseResponse,
   acceptedResponse,
   acceptInvitationBody,
@@ -181,13 +182,22 @@ const runRoutes: RouteDescription[] = [
   { method: 'delete', path: '/api/teams/:teamId/runs/:runId', tag: 'Runs', summary: 'Delete a run and its codebooks', access: 'admin', input: { params: runParams }, responses: { 204: noContent }, errors: { 409: 'The run is still running' } },
   { method: 'get', path: '/api/teams/:teamId/runs/:runId/curve', tag: 'Results', summary: 'A run’s rate–distortion curve with the baseline codecs', access: 'member', input: { params: runResultParams, query: exportFormatQuery }, responses: { 200: csvOrJson(runCurveResponse, 'The curve') } },
   { method: 'get', path: '/api/teams/:teamId/runs/:runId/metrics', tag: 'Results', summary: 'A run’s per-image metrics', access: 'member', input: { params: runResultParams, query: exportFormatQuery }, responses: { 200: csvOrJson(runMetricsResponse, 'The metrics') } },
+  { method: 'get', path: '/api/teams/:teamId/compare/bd-table', tag: 'Results', summary: 'The Bjøntegaard table of a comparison (each run against the others and against JPEG, WebP and AVIF) as a download', access: 'member', input: { params: teamParams, query: bdTableQuery }, responses: { 200: csvOrJson(bdTableResponse, 'The BD table') } },
   { method: 'get', path: '/api/teams/:teamId/compare', tag: 'Results', summary: 'Compare the curves of 2–6 runs, with BD-rate and BD-PSNR between them', access: 'member', input: { params: teamParams, query: compareQuery }, responses: { 200: json(compareResponse, 'The comparison') } },
 ];
 
 const codebookRoutes: RouteDescription[] = [
   { method: 'get', path: '/api/teams/:teamId/codebooks', tag: 'Codebooks', summary: 'List codebooks', access: 'member', input: { params: teamParams }, responses: { 200: json(codebooksResponse, 'The codebooks') } },
   { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId', tag: 'Codebooks', summary: 'Read a codebook with its codewords', access: 'member', input: { params: codebookParams }, responses: { 200: json(codebookResponse, 'The codebook') } },
-  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/export', tag: 'Codebooks', summary: 'Download a codebook as its export document (an attachment)', access: 'member', input: { params: codebookParams }, responses: { 200: json(codebookDocument, 'The codebook document') } },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/export', tag: 'Codebooks', summary: 'Download a codebook as its export document, or its codewords as NumPy .npy with target=npy (an attachment)', access: 'member', input: { params: codebookParams, query: exportCodebookQuery },
+    responses: { 200: { description: 'The codebook document, or the codewords as .npy', content: { 'application/json': codebookDocument, 'application/octet-stream': 'binary' } } },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/index-map/:imageId', tag: 'Codebooks', summary: 'An image coded with a codebook: its index map (or block mean codes, plane=means) as NumPy .npy', access: 'member', input: { params: reconstructionParams, query: indexMapQuery },
+    responses: { 200: { description: 'The .npy file (an attachment)', content: { 'application/octet-stream': 'binary' } } },
+    errors: { 429: 'Too many reconstructions being computed; Retry-After says when' },
+  },
   {
     method: 'post', path: '/api/teams/:teamId/codebooks/import', tag: 'Codebooks', summary: 'Import a codebook export document', access: 'engineer', input: { params: teamParams, query: importCodebookQuery },
     rawBody: { mediaType: 'application/json', content: codebookDocument, description: 'A codebook document (up to 64 MiB), checked against the format and its checksum' },

@@ -1,5 +1,5 @@
 import { Router } from 'express';
-import { codebookParams, importCodebookQuery, teamParams } from '../../contracts';
+import { codebookParams, exportCodebookQuery, importCodebookQuery, teamParams } from '../../contracts';
 import { jsonBody } from '../middleware/body';
 import { validate, validated } from '../middleware/validate';
 import type { RouteDeps } from './deps';
@@ -7,6 +7,7 @@ import type { RouteDeps } from './deps';
 const listInput = { params: teamParams };
 const oneInput = { params: codebookParams };
 const importInput = { params: teamParams, query: importCodebookQuery };
+const exportInput = { params: codebookParams, query: exportCodebookQuery };
 
 function readRoutes(r: Router, d: RouteDeps) {
   r.get('/', d.authenticate, d.requireTeamRole(), validate(listInput), async (req, res) => {
@@ -22,11 +23,15 @@ function readRoutes(r: Router, d: RouteDeps) {
 
 function transferRoutes(r: Router, d: RouteDeps) {
   // Any member: the detail route already gives every member the same codewords, so export is no wider a read.
-  r.get('/:codebookId/export', d.authenticate, d.requireTeamRole(), validate(oneInput), async (req, res) => {
-    const { params } = validated(req, oneInput);
-    const { fileName, body } = await d.codebooks.export(params.teamId, req.user!.id, params.codebookId);
-    // The name is already folded to [A-Za-z0-9._-], so quoting it is all RFC 6266 asks.
-    res.set({ 'Content-Disposition': `attachment; filename="${fileName}"`, 'Cache-Control': 'no-store' }).type('application/json').send(body);
+  r.get('/:codebookId/export', d.authenticate, d.requireTeamRole(), validate(exportInput), async (req, res) => {
+    const { params, query } = validated(req, exportInput);
+    const { fileName, body } = await d.codebooks.export(params.teamId, req.user!.id, params.codebookId, query.target);
+    // The name is already folded to [A-Za-z0-9._-], so quoting it is all RFC 6266 asks. NEP 1 names no media type
+    // for .npy, so its bytes go as application/octet-stream.
+    res
+      .set({ 'Content-Disposition': `attachment; filename="${fileName}"`, 'Cache-Control': 'no-store' })
+      .type(query.target === 'npy' ? 'application/octet-stream' : 'application/json')
+      .send(body);
   });
 
   // The document is checked by the codebook format's own schema in the service, so the body is read here with

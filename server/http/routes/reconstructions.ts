@@ -1,10 +1,11 @@
 import { Router } from 'express';
-import { reconstructionParams, reconstructionQuery } from '../../contracts';
+import { indexMapQuery, reconstructionParams, reconstructionQuery } from '../../contracts';
 import { clientGoneSignal } from '../middleware/client-gone';
 import { validate, validated } from '../middleware/validate';
 import type { RouteDeps } from './deps';
 
 const reconstructionInput = { params: reconstructionParams, query: reconstructionQuery };
+const indexMapInput = { params: reconstructionParams, query: indexMapQuery };
 
 /**
  * Mounted at /api/teams/:teamId/codebooks. GET /:codebookId/reconstruction/:imageId?view=original|reconstruction|error
@@ -20,6 +21,14 @@ export function reconstructionsRouter(d: RouteDeps): Router {
     if (out.kind === 'info') return void res.json(out.info);
     // Computed from a codebook and an image that never change under their ids, but only members may see them.
     res.set({ 'Content-Type': 'image/png', 'Cache-Control': 'private, max-age=3600', 'X-Encoded-Bytes': String(out.encodedBytes) }).send(out.png);
+  });
+
+  // GET /:codebookId/index-map/:imageId?plane=indices|means: the image's coding as a NumPy .npy download.
+  r.get('/:codebookId/index-map/:imageId', d.authenticate, d.requireTeamRole(), validate(indexMapInput), async (req, res) => {
+    const { params, query } = validated(req, indexMapInput);
+    const { fileName, npy } = await d.reconstructions.indexMap(params.teamId, params.codebookId, params.imageId, query.plane, clientGoneSignal(res));
+    // NEP 1 names no media type for .npy; the file name is folded to [A-Za-z0-9._-], so quoting it is all RFC 6266 asks.
+    res.set({ 'Content-Disposition': `attachment; filename="${fileName}"`, 'Cache-Control': 'private, max-age=3600' }).type('application/octet-stream').send(npy);
   });
 
   return r;

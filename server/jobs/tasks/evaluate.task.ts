@@ -11,6 +11,9 @@ import {
   DEFAULT_QUALITIES,
   encode,
   encodeErrorMapPng,
+  encodeImage,
+  indexMapNpy,
+  meanCodesNpy,
   encodePng,
   measureImage,
   poolImageMeasurements,
@@ -91,10 +94,19 @@ export interface ReconstructResult {
   ssim: number | null;
 }
 
+/** An image's coding as NumPy files: the index map and, for a mean-removed codebook, the block mean codes. */
+export interface IndexMapResult {
+  indices: Uint8Array;
+  means: Uint8Array | null;
+  blocksX: number;
+  blocksY: number;
+}
+
 export type EvaluateTask =
   | { op: 'measure'; codebook: TaskCodebook; images: TaskImage[] }
   | { op: 'baselines'; images: TaskImage[]; color: ColorMode; codecs?: BaselineCodec[]; qualities?: number[] }
-  | { op: 'reconstruct'; codebook: TaskCodebook; image: TaskImage };
+  | { op: 'reconstruct'; codebook: TaskCodebook; image: TaskImage }
+  | { op: 'index-map'; codebook: TaskCodebook; image: TaskImage };
 
 /** Everything runs on this worker's own thread: the pool already spends one core per task. */
 const ON_THIS_THREAD = { threads: 1 } as const;
@@ -199,7 +211,16 @@ export async function reconstructImage(codebook: TaskCodebook, image: TaskImage,
   };
 }
 
-export default async function run(task: EvaluateTask, context?: TaskContext): Promise<ImageMeasurement[] | BaselineResultPoint[] | ReconstructResult> {
+/** One image coded as the evaluation codes it (same encoder, so the same indices), as .npy files. */
+export async function indexMapOf(codebook: TaskCodebook, image: TaskImage, memory: MemoryBudget): Promise<IndexMapResult> {
+  const book = toCodebook(codebook);
+  const source = await loadCharged(image, codebook.patch.color, memory);
+  const encoded = await encodeImage(book, source, ON_THIS_THREAD);
+  const means = meanCodesNpy(encoded);
+  return { indices: bytesOf(indexMapNpy(encoded, book.size)), means: means && bytesOf(means), blocksX: encoded.blocksX, blocksY: encoded.blocksY };
+}
+
+export default async function run(task: EvaluateTask, context?: TaskContext): Promise<ImageMeasurement[] | BaselineResultPoint[] | ReconstructResult | IndexMapResult> {
   const memory = taskMemory(context);
   switch (task.op) {
     case 'measure':
@@ -208,5 +229,7 @@ export default async function run(task: EvaluateTask, context?: TaskContext): Pr
       return baselinePoints(task.images, task.color, memory, task.codecs, task.qualities);
     case 'reconstruct':
       return reconstructImage(task.codebook, task.image, memory);
+    case 'index-map':
+      return indexMapOf(task.codebook, task.image, memory);
   }
 }

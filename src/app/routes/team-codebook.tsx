@@ -16,7 +16,7 @@ import { Stat } from '../../components/ui/stat';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
 import { codebookExportUrl, codebookQueryOptions, useCodebook } from '../../features/codebooks/api/get-codebook';
 import { useCodebookEvaluations } from '../../features/codebooks/api/get-codebook-evaluations';
-import { useReconstructionInfo } from '../../features/codebooks/api/get-reconstruction';
+import { indexMapUrl, useReconstructionInfo } from '../../features/codebooks/api/get-reconstruction';
 import { atlasOrder, CodewordAtlas, type AtlasOrder } from '../../features/codebooks/components/codeword-atlas';
 import { ReconstructionViewer } from '../../features/codebooks/components/reconstruction-viewer';
 import { AnomalyView } from '../../features/codebooks/components/anomaly-view';
@@ -160,7 +160,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
           </Panel>
         </div>
 
-        <HeldOutPanel teamId={teamId} codebookId={codebook.id} />
+        <HeldOutPanel teamId={teamId} codebookId={codebook.id} meanRemoved={meanRemoved} />
 
         <ModelPanels teamId={teamId} codebookId={codebook.id} trained={codebook.runId !== null} />
 
@@ -175,12 +175,19 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
           </Panel>
         )}
 
-        <Panel title="Export" titleId="codebook-export" description="The codebook document (format cellwright-codebook, version 1) with its SHA-256 checksum">
+        <Panel
+          title="Export"
+          titleId="codebook-export"
+          description="The codebook document (format cellwright-codebook, version 1) with its SHA-256 checksum, or its codewords alone as a NumPy .npy file (float32, codewords × components)"
+        >
           <div className="flex flex-col gap-4">
             <div className="flex flex-wrap items-center gap-4">
               {/* Every member may export: the export holds the same codewords this page already shows. */}
               <a href={codebookExportUrl(teamId, codebook.id)} download className={buttonClass('primary')}>
                 Export JSON
+              </a>
+              <a href={codebookExportUrl(teamId, codebook.id, 'npy')} download className={buttonClass('secondary')}>
+                Codewords .npy
               </a>
               <p className="text-sm text-ink-700">
                 SHA-256 <span className="num break-all text-ink-900">{codebook.checksum}</span>
@@ -195,7 +202,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
   );
 }
 
-function HeldOutPanel({ teamId, codebookId }: { teamId: number; codebookId: number }) {
+function HeldOutPanel({ teamId, codebookId, meanRemoved }: { teamId: number; codebookId: number; meanRemoved: boolean }) {
   const evaluations = useCodebookEvaluations(teamId, codebookId);
   const latest = evaluations.data?.[evaluations.data.length - 1];
   const [imageId, setImageId] = useState<number | null>(null);
@@ -249,6 +256,16 @@ function HeldOutPanel({ teamId, codebookId }: { teamId: number; codebookId: numb
               {info.isPending && <dd className="text-ink-600">measuring…</dd>}
               {info.isError && <dd className="text-danger-700">{messageOf(info.error)}</dd>}
             </dl>
+            <div className="flex gap-2 pb-1">
+              <a href={indexMapUrl(teamId, codebookId, image.imageId)} download className={buttonClass('ghost', 'sm')}>
+                Index map .npy
+              </a>
+              {meanRemoved && (
+                <a href={indexMapUrl(teamId, codebookId, image.imageId, 'means')} download className={buttonClass('ghost', 'sm')}>
+                  Block means .npy
+                </a>
+              )}
+            </div>
           </div>
           <ReconstructionViewer teamId={teamId} codebookId={codebookId} image={image} />
         </div>

@@ -1,7 +1,7 @@
 import type { QueryClient } from '@tanstack/react-query';
 import { useState } from 'react';
 import { useNavigate, useSearchParams, type LoaderFunctionArgs } from 'react-router-dom';
-import { compareRate, type CompareRate, type CompareResult } from '../../../server/contracts';
+import { BD_METHOD_LABELS, BD_METHODS, bdMethodSchema, compareRate, DEFAULT_BD_METHOD, type BdMethod, type CompareRate, type CompareResult } from '../../../server/contracts';
 import { href } from '../../config/routes';
 import { messageOf } from '../../lib/api-client';
 import { focusedExtents, RdChart, type RdSeries } from '../../components/charts/rd-chart';
@@ -11,7 +11,8 @@ import { SelectField } from '../../components/ui/field';
 import { PageHeader } from '../../components/ui/page-header';
 import { Panel } from '../../components/ui/panel';
 import { EmptyState, ErrorState, LoadingState } from '../../components/ui/states';
-import { comparisonQueryOptions, isComparable, useComparison } from '../../features/compare/api/get-comparison';
+import { bdTableDownloadUrl, comparisonQueryOptions, isComparable, useComparison } from '../../features/compare/api/get-comparison';
+import { buttonClass } from '../../components/ui/button';
 import { runsQueryOptions, useRuns } from '../../lib/queries/runs';
 import { BdTable } from '../../features/compare/components/bd-table';
 import { ConfigDiff } from '../../features/compare/components/config-diff';
@@ -21,26 +22,29 @@ import { useCurrentTeam } from '../use-team';
 
 export { RouteError as ErrorBoundary } from './route-error';
 
-/** The selection lives in the URL (?runs=3,5&rate=actual) so a comparison can be shared as a link. */
-function readSelection(params: URLSearchParams): { runIds: number[]; rate: CompareRate } {
+/** The selection lives in the URL (?runs=3,5&rate=actual&method=pchip) so a comparison can be shared as a link. */
+function readSelection(params: URLSearchParams): { runIds: number[]; rate: CompareRate; method: BdMethod } {
   const runIds = (params.get('runs') ?? '')
     .split(',')
     .map((part) => Number(part.trim()))
     .filter((id, i, all) => Number.isInteger(id) && id > 0 && all.indexOf(id) === i);
   const rate = compareRate.safeParse(params.get('rate'));
-  return { runIds, rate: rate.success ? rate.data : 'actual' };
+  const method = bdMethodSchema.safeParse(params.get('method'));
+  return { runIds, rate: rate.success ? rate.data : 'actual', method: method.success ? method.data : DEFAULT_BD_METHOD };
 }
 
 export const clientLoader = (queryClient: QueryClient) => async ({ request, params }: LoaderFunctionArgs) => {
   const { team } = await requireTeam(queryClient, request, params.teamId);
-  const { runIds, rate } = readSelection(new URL(request.url).searchParams);
+  const { runIds, rate, method } = readSelection(new URL(request.url).searchParams);
   await Promise.all([
     queryClient.ensureQueryData(runsQueryOptions(team.id)),
     // A bad selection is reported on the page, next to the picker that fixes it, not as a failed page.
-    isComparable(runIds) ? queryClient.prefetchQuery(comparisonQueryOptions(team.id, runIds, rate)) : null,
+    isComparable(runIds) ? queryClient.prefetchQuery(comparisonQueryOptions(team.id, runIds, rate, method)) : null,
   ]);
   return null;
 };
+
+const CODEC_LABELS = { jpeg: 'JPEG', webp: 'WebP', avif: 'AVIF' } as const;
 
 const rateLabels: Record<CompareRate, string> = { fixed: 'Fixed rate', entropy: 'Entropy rate', actual: 'Actual (container) rate' };
 
@@ -56,20 +60,24 @@ function compareSeries(result: CompareResult): RdSeries[] {
       points: [...run.points].sort((a, b) => a.bits - b.bits).map((p) => ({ x: p.bpp, y: p.psnr, label: `b = ${p.bits}`, target: String(p.codebookId) })),
     };
   });
-  // JPEG is measured per held-out list; runs on the same images share one curve.
+  // The codecs are measured per held-out list; runs on the same images share one curve per codec.
   const seen = new Set<string>();
   for (const run of result.runs) {
-    if (run.jpeg.length === 0 || seen.has(run.heldOutHash)) continue;
+    if (seen.has(run.heldOutHash)) continue;
     seen.add(run.heldOutHash);
-    series.push({
-      id: `jpeg-${run.heldOutHash.slice(0, 8)}`,
-      label: result.heldOutMismatch ? `JPEG (images of ${run.name})` : 'JPEG',
-      kind: 'reference',
-      color: referenceStyles.jpeg.color,
-      dash: referenceStyles.jpeg.dash,
-      marker: referenceStyles.jpeg.marker,
-      points: run.jpeg.map((p) => ({ x: p.bpp, y: p.psnr, label: `quality ${p.quality}` })),
-    });
+    for (const codec of ['jpeg', 'webp', 'avif'] as const) {
+      const points = run.baselines[codec];
+      if (points.length === 0) continue;
+      series.push({
+        id: `${codec}-${run.heldOutHash.slice(0, 8)}`,
+        label: result.heldOutMismatch ? `${CODEC_LABELS[codec]} (images of ${run.name})` : CODEC_LABELS[codec],
+        kind: 'reference',
+        color: referenceStyles[codec].color,
+        dash: referenceStyles[codec].dash,
+        marker: referenceStyles[codec].marker,
+        points: points.map((p) => ({ x: p.bpp, y: p.psnr, label: `quality ${p.quality}` })),
+      });
+    }
   }
   return series;
 }
@@ -78,17 +86,18 @@ export function Component() {
   const navigate = useNavigate();
   const { team, teamId } = useCurrentTeam();
   const [params, setParams] = useSearchParams();
-  const { runIds, rate } = readSelection(params);
+  const { runIds, rate, method } = readSelection(params);
   const candidates = useRuns(teamId);
-  const comparison = useComparison(teamId, runIds, rate);
+  const comparison = useComparison(teamId, runIds, rate, method);
   const [fullRange, setFullRange] = useState(false);
   if (!team) return null;
 
-  const select = (next: { runIds?: number[]; rate?: CompareRate }) => {
+  const select = (next: { runIds?: number[]; rate?: CompareRate; method?: BdMethod }) => {
     const query = new URLSearchParams();
     const ids = next.runIds ?? runIds;
     if (ids.length > 0) query.set('runs', ids.join(','));
     query.set('rate', next.rate ?? rate);
+    query.set('method', next.method ?? method);
     setParams(query.toString().replace(/%2C/g, ','), { replace: true });
   };
 
@@ -119,6 +128,14 @@ export function Component() {
                   </option>
                 ))}
               </SelectField>
+              <SelectField label="BD fitting method" value={method} onChange={(event) => select({ method: event.target.value as BdMethod })} containerClassName="w-full max-w-xl">
+                {BD_METHODS.map((option) => (
+                  <option key={option} value={option}>
+                    {BD_METHOD_LABELS[option]}
+                    {option === DEFAULT_BD_METHOD ? ' (default)' : ''}
+                  </option>
+                ))}
+              </SelectField>
             </div>
           )}
         </Panel>
@@ -131,7 +148,7 @@ export function Component() {
           <>
             {result.heldOutMismatch && (
               <Alert tone="error" title="These runs were measured on different held-out images">
-                Their curves are not directly comparable, so BD values between them are left out. Each run is still compared with JPEG on its own images.
+                Their curves are not directly comparable, so BD values between them are left out. Each run is still compared with JPEG, WebP and AVIF on its own images.
               </Alert>
             )}
             <Panel
@@ -141,7 +158,7 @@ export function Component() {
               actions={
                 <label className="flex items-center gap-2 text-sm text-ink-700">
                   <input type="checkbox" className="size-4 accent-ink-800" checked={fullRange} onChange={(event) => setFullRange(event.target.checked)} />
-                  Full JPEG range
+                  Full codec range
                 </label>
               }
             >
@@ -155,7 +172,21 @@ export function Component() {
                 onSelectPoint={(point) => point.target && navigate(href.teamCodebook(team.id, Number(point.target)))}
               />
             </Panel>
-            <Panel title="Bjøntegaard deltas" titleId="compare-bd" description="Negative BD-rate: fewer bits for the same PSNR. Positive BD-PSNR: higher PSNR at the same rate.">
+            <Panel
+              title="Bjøntegaard deltas"
+              titleId="compare-bd"
+              description={`Negative BD-rate: fewer bits for the same PSNR. Positive BD-PSNR: higher PSNR at the same rate. Curves drawn by ${BD_METHOD_LABELS[result.method]}.`}
+              actions={
+                <div className="flex gap-2">
+                  <a href={bdTableDownloadUrl(team.id, runIds, rate, method, 'csv')} download className={buttonClass('ghost', 'sm')}>
+                    BD table CSV
+                  </a>
+                  <a href={bdTableDownloadUrl(team.id, runIds, rate, method, 'json')} download className={buttonClass('ghost', 'sm')}>
+                    BD table JSON
+                  </a>
+                </div>
+              }
+            >
               <BdTable result={result} />
             </Panel>
             <Panel title="Configurations" titleId="compare-config">

@@ -17,6 +17,7 @@ import { compareKeys } from '../../features/compare/api/keys';
 import { useCancelRun } from '../../features/runs/api/cancel-run';
 import { isTerminal, runQueryOptions, useRun } from '../../features/runs/api/get-run';
 import { runCurveCsvUrl, useRunCurve } from '../../features/runs/api/get-run-curve';
+import { CodecBd } from '../../features/runs/components/codec-bd';
 import { runMetricsCsvUrl, useRunMetrics } from '../../features/runs/api/get-run-metrics';
 import { MetricsTable } from '../../features/runs/components/metrics-table';
 import { RunActions } from '../../features/runs/components/run-actions';
@@ -191,6 +192,16 @@ export function Component() {
           {curve.data && curve.data.points.length === 0 && <EmptyState title="No evaluated codebooks">Nothing was measured on the held-out images.</EmptyState>}
           {curve.data && curve.data.points.length > 0 && <RdPanel curve={curve.data} onOpenCodebook={openCodebook} />}
         </Panel>
+
+        {curve.data && curve.data.points.length > 0 && (
+          <Panel
+            title="Against the codecs"
+            titleId="run-bd"
+            description="Bjøntegaard deltas: negative BD-rate, fewer bits than the codec for the same PSNR; positive BD-PSNR, higher PSNR at the same rate."
+          >
+            <CodecBd curve={curve.data} />
+          </Panel>
+        )}
 
         <div className="grid gap-6 lg:grid-cols-[minmax(0,3fr)_minmax(0,2fr)]">
           <Panel title="Convergence" titleId="run-trace" description="MSE per component on the training vectors after each Lloyd iteration">

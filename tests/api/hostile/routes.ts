@@ -353,6 +353,16 @@ export const routes: RouteCase[] = [
   { name: 'read a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId', access: 'member', ok: 200, body: 'none', objectScoped: true },
   { name: 'export a codebook', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/export', access: 'member', ok: 200, body: 'none', objectScoped: true },
   {
+    name: 'export codewords as .npy',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/export',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: () => 'target=npy',
+    objectScoped: true,
+  },
+  {
     name: 'import a codebook',
     method: 'POST',
     path: '/api/teams/:teamId/codebooks/import',
@@ -419,6 +429,15 @@ export const routes: RouteCase[] = [
     objectScoped: true,
   },
   {
+    name: 'index map of an image as .npy',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/index-map/:imageId',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    objectScoped: true,
+  },
+  {
     name: 'compare runs',
     method: 'GET',
     path: '/api/teams/:teamId/compare',
@@ -427,6 +446,16 @@ export const routes: RouteCase[] = [
     body: 'none',
     query: (w) => `runs=${w.runIds.join(',')}`,
     // The run ids in the query are the team's objects.
+    objectScoped: true,
+  },
+  {
+    name: 'download the Bjøntegaard table of a comparison',
+    method: 'GET',
+    path: '/api/teams/:teamId/compare/bd-table',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: (w) => `runs=${w.runIds.join(',')}&format=csv&method=cubic`,
     objectScoped: true,
   },
 ];

@@ -3,7 +3,7 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { readNpy, writeNpy } from '../../../server/engine/io/npy';
+import { readNpy, writeNpy, writeNpyArray } from '../../../server/engine/io/npy';
 
 /**
  * Builds a .npy file byte by byte as NEP 1 ("A simple file format for NumPy arrays") specifies:
@@ -124,3 +124,46 @@ describe('.npy files written by numpy', () => {
 function writeOurs() {
   writeFileSync(join(dir, 'ours.npy'), writeNpy(Float32Array.from([1.5, 2, -3, 4.25]), 2, 2));
 }
+
+describe('writeNpyArray', () => {
+  /** A reader written from NEP 1 alone: magic, version, uint16 LE header length, the dict text, the raw values. */
+  function parse(bytes: Buffer): { descr: string; shape: string; data: Buffer; aligned: boolean } {
+    expect(bytes.subarray(0, 6)).toEqual(Buffer.from([0x93, 0x4e, 0x55, 0x4d, 0x50, 0x59]));
+    expect([bytes[6], bytes[7]]).toEqual([1, 0]);
+    const length = bytes.readUInt16LE(8);
+    const header = bytes.subarray(10, 10 + length).toString('latin1');
+    expect(header.endsWith('\n')).toBe(true);
+    return {
+      descr: /'descr': '([^']+)'/.exec(header)![1],
+      shape: /'shape': (\([^)]*\))/.exec(header)![1],
+      data: bytes.subarray(10 + length),
+      aligned: (10 + length) % 64 === 0,
+    };
+  }
+
+  it('writes uint16 index maps little-endian with their 2-D shape, data on a 64-byte boundary', () => {
+    const out = parse(writeNpyArray(Uint16Array.from([1, 258, 65535, 0, 7, 9]), [2, 3]));
+    expect(out).toMatchObject({ descr: '<u2', shape: '(2, 3)', aligned: true });
+    expect([0, 1, 2, 3, 4, 5].map((k) => out.data.readUInt16LE(2 * k))).toEqual([1, 258, 65535, 0, 7, 9]);
+  });
+
+  it('writes uint8 as |u1 (no byte order for one byte) and uint32 as <u4', () => {
+    expect(parse(writeNpyArray(Uint8Array.from([3, 4]), [1, 2])).descr).toBe('|u1');
+    const u4 = parse(writeNpyArray(Uint32Array.from([70000]), [1, 1]));
+    expect(u4.descr).toBe('<u4');
+    expect(u4.data.readUInt32LE(0)).toBe(70000);
+  });
+
+  it('spells a 1-D shape as a one-element Python tuple', () => {
+    expect(parse(writeNpyArray(Float64Array.from([0.5, 1.5, 2.5]), [3])).shape).toBe('(3,)');
+  });
+
+  it('refuses data that does not fill the shape', () => {
+    expect(() => writeNpyArray(new Float32Array(5), [2, 3])).toThrow(/does not fit shape/);
+  });
+
+  it('writes float32 that readNpy reads back', () => {
+    const data = Float32Array.from([0.1, -2, 3e10, 4]);
+    expect(readNpy(writeNpyArray(data, [2, 2])).data).toEqual(data);
+  });
+});

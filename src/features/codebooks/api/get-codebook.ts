@@ -1,5 +1,5 @@
 import { queryOptions, useQuery } from '@tanstack/react-query';
-import { codebookResponse, type CodebookDetail } from '../../../../server/contracts';
+import { codebookResponse, type CodebookDetail, type ExportTarget } from '../../../../server/contracts';
 import { env } from '../../../config/env';
 import { apiRequest } from '../../../lib/api-client';
 import { codebookKeys } from './keys';
@@ -20,7 +20,11 @@ export function useCodebook(teamId: number, codebookId: number) {
   return useQuery(codebookQueryOptions(teamId, codebookId));
 }
 
-/** The export document as an attachment; a plain link keeps the download in the browser's own machinery. */
-export function codebookExportUrl(teamId: number, codebookId: number): string {
-  return `${env.apiBasePath}/teams/${teamId}/codebooks/${codebookId}/export`;
+/**
+ * The export document (or, with target npy, the codewords as a NumPy .npy file) as an attachment; a plain link keeps
+ * the download in the browser's own machinery.
+ */
+export function codebookExportUrl(teamId: number, codebookId: number, target: ExportTarget = 'json'): string {
+  const base = `${env.apiBasePath}/teams/${teamId}/codebooks/${codebookId}/export`;
+  return target === 'json' ? base : `${base}?target=${target}`;
 }

@@ -24,3 +24,9 @@ export function useReconstructionInfo(teamId: number, codebookId: number, imageI
 export function reconstructionImageUrl(teamId: number, codebookId: number, imageId: number, view: Exclude<ReconstructionViewName, 'info'>): string {
   return `${env.apiBasePath}/teams/${teamId}/codebooks/${codebookId}/reconstruction/${imageId}?view=${view}`;
 }
+
+/** The image's coding as a NumPy .npy download: its index map, or a mean-removed codebook's block mean codes. */
+export function indexMapUrl(teamId: number, codebookId: number, imageId: number, plane: 'indices' | 'means' = 'indices'): string {
+  const base = `${env.apiBasePath}/teams/${teamId}/codebooks/${codebookId}/index-map/${imageId}`;
+  return plane === 'indices' ? base : `${base}?plane=${plane}`;
+}

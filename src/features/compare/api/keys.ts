@@ -1,4 +1,4 @@
-import type { CompareRate } from '../../../../server/contracts';
+import type { BdMethod, CompareRate } from '../../../../server/contracts';
 import { teamKeys } from '../../../lib/queries/keys';
 
 type TeamId = number;
@@ -7,5 +7,6 @@ type TeamId = number;
 export const compareKeys = {
   team: teamKeys.compare,
   /** Run ids in the order chosen: the first is the reference of every pair, so order is part of the result. */
-  result: (teamId: TeamId, runIds: readonly number[], rate: CompareRate) => [...compareKeys.team(teamId), 'result', runIds.join(','), rate] as const,
+  result: (teamId: TeamId, runIds: readonly number[], rate: CompareRate, method: BdMethod) =>
+    [...compareKeys.team(teamId), 'result', runIds.join(','), rate, method] as const,
 };

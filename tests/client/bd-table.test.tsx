@@ -1,0 +1,83 @@
+import { cleanup, render, screen, within } from '@testing-library/react';
+import { afterEach, describe, expect, it } from 'vitest';
+import { BD_METHOD_LABELS, compareResponse, type BdValues, type CompareResult } from '../../server/contracts';
+import { BdTable } from '../../src/features/compare/components/bd-table';
+import { CodecBd } from '../../src/features/runs/components/codec-bd';
+import { runCurveResponse } from '../../server/contracts';
+
+afterEach(cleanup);
+
+const full: Omit<BdValues, 'bdRate' | 'bdPsnr' | 'reason'> = {
+  method: 'cubic',
+  shared: { bpp: [0.25, 1.5], psnr: [28, 34.5] },
+  sharedFraction: { bpp: 0.9, psnr: 0.8 },
+  shortOverlap: false,
+};
+
+const run = (id: number, name: string) => ({
+  id, name, state: 'succeeded', heldOutHash: 'h'.repeat(64), color: 'luma' as const, config: {}, points: [], baselines: { jpeg: [], webp: [], avif: [] },
+});
+
+// Parsed by the response schema, so the fixture is a shape the API can answer.
+const result: CompareResult = compareResponse.parse({
+  rate: 'actual',
+  runs: [run(1, 'Kelp'), run(2, 'Reef')],
+  configKeys: [],
+  differingKeys: [],
+  axes: { bpp: [0.1, 2], psnr: [20, 40] },
+  heldOutMismatch: false,
+  pairs: [{ reference: 1, test: 2, sameHeldOut: true, bdRate: -12.5, bdPsnr: 0.8, reason: null, ...full }],
+  method: 'cubic',
+  againstBaselines: [
+    { runId: 2, codec: 'jpeg', bdRate: -30, bdPsnr: 1.5, reason: null, ...full },
+    { runId: 2, codec: 'webp', bdRate: 4, bdPsnr: -0.2, reason: null, ...full, sharedFraction: { bpp: 0.2, psnr: 0.35 }, shortOverlap: true },
+    { runId: 2, codec: 'avif', bdRate: null, bdPsnr: null, reason: 'no AVIF points for this held-out list', ...full, shared: { bpp: null, psnr: null } },
+  ],
+});
+
+const rowOf = (reference: RegExp) => screen.getAllByRole('row').find((r) => reference.test(r.textContent ?? ''))!;
+
+describe('the Bjøntegaard table', () => {
+  it('lists the compared run against JPEG, WebP and AVIF as well as against the other run', () => {
+    render(<BdTable result={result} />);
+    const references = within(screen.getByRole('table')).getAllByRole('row').slice(1).map((r) => r.children[1].textContent);
+    expect(references).toEqual(['Kelp', 'JPEG (same images)', 'WebP (same images)', 'AVIF (same images)']);
+  });
+
+  it('shows beside each figure the rate and PSNR interval it is averaged over', () => {
+    render(<BdTable result={result} />);
+    expect(within(rowOf(/JPEG/)).getByTestId('bd-shared').textContent).toBe('0.250–1.50\u2009bpp, 28.00–34.50\u2009dB');
+  });
+
+  it('warns on a figure whose shared interval is short, and gives the reason for a missing one', () => {
+    render(<BdTable result={result} />);
+    expect(within(rowOf(/WebP/)).getByTestId('bd-note').textContent).toMatch(/^short overlap: the curves share 20\u2009% of the shorter rate range and 35\u2009% .*read with care$/);
+    expect(within(rowOf(/JPEG/)).getByTestId('bd-note').textContent).toBe('');
+    expect(within(rowOf(/AVIF/)).getByTestId('bd-note').textContent).toBe('no AVIF points for this held-out list');
+  });
+
+  it('names the fitting method the figures use', () => {
+    render(<BdTable result={result} />);
+    expect(screen.getByTestId('bd-method').textContent).toContain(BD_METHOD_LABELS.cubic);
+    expect(screen.getByTestId('bd-method').textContent).toMatch(/nothing is extrapolated/);
+  });
+});
+
+describe("a run's codebooks against the codecs", () => {
+  it('shows one row per codec with its shared interval, and says the codebooks are on the actual rate', () => {
+    const curve = runCurveResponse.parse({
+      run: { id: 2, name: 'Reef', state: 'succeeded' },
+      heldOutHash: 'h'.repeat(64),
+      color: 'luma',
+      points: [],
+      baselines: { jpeg: [], webp: [], avif: [] },
+      bd: { method: 'pchip', againstBaselines: result.againstBaselines.map(({ runId: _, ...row }) => ({ ...row, method: 'pchip' })) },
+    });
+    render(<CodecBd curve={curve} />);
+    const references = within(screen.getByRole('table')).getAllByRole('row').slice(1).map((r) => r.children[0].textContent);
+    expect(references).toEqual(['JPEG', 'WebP', 'AVIF']);
+    expect(within(rowOf(/JPEG/)).getByTestId('bd-shared').textContent).toBe('0.250–1.50\u2009bpp, 28.00–34.50\u2009dB');
+    expect(screen.getByTestId('bd-method').textContent).toContain(BD_METHOD_LABELS.pchip);
+    expect(screen.getByTestId('bd-method').textContent).toMatch(/actual rate/);
+  });
+});

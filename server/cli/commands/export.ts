@@ -28,8 +28,9 @@ export async function runExport(argv: string[], ctx: CliContext): Promise<void> 
     ctx.stdout.write(EXPORT_HELP);
     return;
   }
-  if (target === undefined) throw new CliUsageError(`"cellwright export" needs --target (${Object.keys(TARGETS).join(', ')})`);
+  if (target === undefined) throw new CliUsageError('"cellwright export" needs --target');
   const run = (TARGETS as Record<string, (argv: string[], ctx: CliContext) => Promise<void>>)[target];
-  if (!run) throw new CliUsageError(`--target must be one of ${Object.keys(TARGETS).join(', ')}, not "${target}"`);
+  // The same words as every other choice option (args.ts choiceOption).
+  if (!run) throw new CliUsageError(`--target must be one of ${Object.keys(TARGETS).join(', ')}, got "${target}"`);
   await run(argv, ctx);
 }

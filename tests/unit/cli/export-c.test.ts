@@ -84,7 +84,7 @@ describe('cellwright export --target c', () => {
     writeFileSync(p('a-file'), 'x');
     const before = readdirSync(dir).sort();
     const a = await cli('export', '--codebook', p('plain.json'), '--target', 'rust', '--out', p('fw2'));
-    expect(a.stderr).toBe('cellwright: error: --target must be one of c, got "rust"\n');
+    expect(a.stderr).toBe('cellwright: error: --target must be one of c, npy, got "rust"\n');
     const b = await cli('export', '--codebook', p('plain.json'), '--out', p('fw2'));
     expect(b.stderr).toBe('cellwright: error: "cellwright export" needs --target\n');
     const c = await cli('export', '--codebook', p('plain.json'), '--target', 'c', '--out', p('a-file'));

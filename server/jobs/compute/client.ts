@@ -84,11 +84,15 @@ export function createComputeClient(options: { redisUrl: string; prefix: string;
         void queue.remove(jobId).catch(() => undefined);
       };
       signal.addEventListener('abort', onAbort, { once: true });
+      let rejectAborted: () => void = () => undefined;
       const aborted = new Promise<never>((_resolve, reject) => {
-        if (signal.aborted) reject(signal.reason);
-        signal.addEventListener('abort', () => reject(signal.reason), { once: true });
+        rejectAborted = () => reject(signal.reason);
+        if (signal.aborted) rejectAborted();
       });
       aborted.catch(() => undefined);
+      // Removed when the task ends: a job's signal serves many tasks (an evaluation's image groups), and listeners
+      // left behind would pile up on it.
+      signal.addEventListener('abort', rejectAborted, { once: true });
       try {
         for (;;) {
           const job = await submit();
@@ -102,6 +106,7 @@ export function createComputeClient(options: { redisUrl: string; prefix: string;
         }
       } finally {
         signal.removeEventListener('abort', onAbort);
+        signal.removeEventListener('abort', rejectAborted);
         progressListeners.delete(taskId);
         await redis.del(keys.grant(taskId)).catch(() => undefined);
         await queue.remove(jobId).catch(() => undefined);

@@ -97,6 +97,30 @@ interface GrowNode {
 const invalid = (message: string, details?: Record<string, unknown>) => new EngineError('ENGINE_INVALID_INPUT', message, details);
 
 /**
+ * Where a node's 2-means starts (2 × d: left, right): c ± δσ·u, σ = √(error / (n·d)) the node's RMS error per
+ * component and u a standard normal direction scaled to length √d, drawn from the generator of (seed, heap index).
+ */
+export function splitStart(
+  codeword: Float32Array, error: number, n: number, d: number, seed: number, heap: number, delta: number,
+): Float32Array {
+  const rng = createRng(seed + heap * 2 ** 31);
+  const u = new Float64Array(d);
+  let norm = 0;
+  for (let i = 0; i < d; i++) {
+    u[i] = rng.normal();
+    norm += u[i] * u[i];
+  }
+  const sigma = Math.sqrt(error / (n * d));
+  const scale = (delta * sigma * Math.sqrt(d)) / Math.sqrt(norm);
+  const start = new Float32Array(2 * d);
+  for (let i = 0; i < d; i++) {
+    start[i] = codeword[i] + scale * u[i];
+    start[d + i] = codeword[i] - scale * u[i];
+  }
+  return start;
+}
+
+/**
  * The 2-means of one node: core's Lloyd iteration (runLloyd) over the node's vectors from c ± δσ·u, with u a random
  * direction of length √d drawn from the node's own generator (seed and heap index), so a node's split does not depend
  * on the order the nodes are visited in. Null when the node holds fewer than two distinct vectors.
@@ -109,20 +133,7 @@ async function splitNode(
   const local = new Float32Array(n * d);
   for (let v = 0; v < n; v++) local.set(vectors.subarray(node.members[v] * d, node.members[v] * d + d), v * d);
   if (countDistinctUpTo(local, d, 2) < 2) return null;
-  const rng = createRng(o.seed + node.heap * 2 ** 31);
-  const u = new Float64Array(d);
-  let norm = 0;
-  for (let i = 0; i < d; i++) {
-    u[i] = rng.normal();
-    norm += u[i] * u[i];
-  }
-  const sigma = Math.sqrt(node.error / (n * d));
-  const scale = (o.splitDelta * sigma * Math.sqrt(d)) / Math.sqrt(norm);
-  const start = new Float32Array(2 * d);
-  for (let i = 0; i < d; i++) {
-    start[i] = node.codeword[i] + scale * u[i];
-    start[d + i] = node.codeword[i] - scale * u[i];
-  }
+  const start = splitStart(node.codeword, node.error, n, d, o.seed, node.heap, o.splitDelta);
   const shard = exactShard(local, d);
   const book = await runLloyd({ d, n, shards: shard, epsilon: o.epsilon, maxIterations: o.maxIterations, signal: o.signal }, start, 2);
   // runLloyd's last pass is the nearest partition under the final codewords: the partition tree search makes.

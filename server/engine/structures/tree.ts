@@ -13,10 +13,14 @@ import { exactShard } from './exact-shard';
 import { DEFAULT_TREE_SPLIT_DELTA, TREE_MAX_BALANCED_DEPTH, TREE_MAX_DEPTH, TREE_MAX_LEAVES } from './limits';
 import type { TreeStructure } from './types';
 
-/** How the tree grows: every node split down to depth b, or the best split first until it has `leaves` leaves. */
+/**
+ * How the tree grows: every node split down to depth b; or the best split first until it has `leaves` leaves
+ * (default TREE_MAX_LEAVES) or its mean path length on the training vectors reaches `rate` bits, whichever comes first,
+ * no path longer than `maxDepth` (default TREE_MAX_DEPTH).
+ */
 export type TreeGrowth =
   | { kind: 'balanced'; depth: number }
-  | { kind: 'greedy'; leaves: number; maxDepth?: number };
+  | { kind: 'greedy'; leaves?: number; rate?: number; maxDepth?: number };
 
 export interface TreeOptions {
   growth: TreeGrowth;
@@ -283,10 +287,12 @@ function bfosSequence(nodes: readonly GrowNode[], n: number, d: number): { prune
 function options(o: TreeOptions) {
   if (o === null || typeof o !== 'object') throw invalid('options must be an object');
   const g = o.growth as TreeGrowth | undefined;
-  if (!g || (g.kind !== 'balanced' && g.kind !== 'greedy')) throw invalid("growth must be { kind: 'balanced', depth } or { kind: 'greedy', leaves }");
+  if (!g || (g.kind !== 'balanced' && g.kind !== 'greedy')) throw invalid("growth must be { kind: 'balanced', depth } or { kind: 'greedy', leaves?, rate? }");
   if (g.kind === 'balanced') checkInteger('depth', g.depth, 0, TREE_MAX_BALANCED_DEPTH);
   else {
-    checkInteger('leaves', g.leaves, 1, TREE_MAX_LEAVES);
+    if (g.leaves === undefined && g.rate === undefined) throw invalid('greedy growth needs leaves, rate or both');
+    if (g.leaves !== undefined) checkInteger('leaves', g.leaves, 1, TREE_MAX_LEAVES);
+    if (g.rate !== undefined) checkNumber('rate', g.rate, 0, TREE_MAX_DEPTH);
     if (g.maxDepth !== undefined) checkInteger('maxDepth', g.maxDepth, 0, TREE_MAX_DEPTH);
   }
   if (o.prune !== undefined) checkNumber('prune.rate', o.prune?.rate, 0, TREE_MAX_DEPTH);
@@ -322,8 +328,7 @@ export async function trainTree(vectors: Float32Array, d: number, opts: TreeOpti
   const nodes: GrowNode[] = [{ heap: 1, depth: 0, codeword: root, members: all, error: rootError, left: -1, right: -1 }];
   const growth: TreeGrowthStep[] = [measure(nodes, [0], n, d)];
   let iterations = 0;
-  const report = () => {
-    const step = measure(nodes, leavesOf(nodes), n, d);
+  const report = (step = measure(nodes, leavesOf(nodes), n, d)) => {
     growth.push(step);
     opts.onProgress?.({ leaves: step.leaves, distortion: step.distortion });
   };
@@ -355,28 +360,30 @@ export async function trainTree(vectors: Float32Array, d: number, opts: TreeOpti
     }
   } else {
     const maxDepth = g.maxDepth ?? TREE_MAX_DEPTH;
-    const leaves = new Set<number>([0]);
-    while (leaves.size < g.leaves) {
-      let best = -1;
-      let bestGain = -Infinity;
-      for (const t of [...leaves].sort((a, b) => a - b)) {
-        if (nodes[t].depth >= maxDepth) continue;
-        throwIfAborted(o.signal);
-        const s = await split(t);
-        if (!s) continue;
-        // Distortion saved per bit of total path length: splitting adds one bit to every vector that reaches t.
-        const gain = (nodes[t].error - s.errors[0] - s.errors[1]) / nodes[t].members.length;
-        if (gain > bestGain) {
-          bestGain = gain;
-          best = t;
-        }
-      }
-      if (best < 0) break;
-      childrenOf(nodes, best, nodes[best].split!, d);
-      leaves.delete(best);
-      leaves.add(nodes[best].left);
-      leaves.add(nodes[best].right);
-      report();
+    const most = g.leaves ?? TREE_MAX_LEAVES;
+    // Splittable leaves by the distortion they save per bit of total path length (splitting adds one bit to every
+    // vector that reaches the leaf), largest first, ties to the earlier node: a total order, so growth is deterministic.
+    const queue = new MaxQueue<{ t: number; gain: number }>((a, b) => a.gain > b.gain || (a.gain === b.gain && a.t < b.t));
+    const offer = async (t: number) => {
+      if (nodes[t].depth >= maxDepth) return;
+      throwIfAborted(o.signal);
+      const s = await split(t);
+      if (s) queue.push({ t, gain: (nodes[t].error - s.errors[0] - s.errors[1]) / nodes[t].members.length });
+    };
+    await offer(0);
+    let leaves = 1;
+    let bits = 0;
+    let error = rootError;
+    while (leaves < most && (g.rate === undefined || bits / n < g.rate) && queue.size > 0) {
+      const { t } = queue.pop()!;
+      const s = nodes[t].split!;
+      childrenOf(nodes, t, s, d);
+      leaves++;
+      bits += nodes[t].members.length;
+      error -= nodes[t].error - s.errors[0] - s.errors[1];
+      report({ leaves, rate: bits / n, distortion: error / (n * d) });
+      await offer(nodes[t].left);
+      await offer(nodes[t].right);
     }
   }
 
@@ -408,6 +415,44 @@ export async function trainTree(vectors: Float32Array, d: number, opts: TreeOpti
     iterations,
     elapsedMs: performance.now() - t0,
   };
+}
+
+/** A binary heap whose top is the item `before` puts first. */
+class MaxQueue<T> {
+  private readonly items: T[] = [];
+  constructor(private readonly before: (a: T, b: T) => boolean) {}
+  get size(): number {
+    return this.items.length;
+  }
+  push(item: T): void {
+    const a = this.items;
+    a.push(item);
+    for (let i = a.length - 1; i > 0; ) {
+      const p = (i - 1) >> 1;
+      if (!this.before(a[i], a[p])) break;
+      [a[i], a[p]] = [a[p], a[i]];
+      i = p;
+    }
+  }
+  pop(): T | undefined {
+    const a = this.items;
+    const top = a[0];
+    const last = a.pop();
+    if (a.length > 0 && last !== undefined) {
+      a[0] = last;
+      for (let i = 0; ; ) {
+        const l = 2 * i + 1;
+        const r = l + 1;
+        let m = i;
+        if (l < a.length && this.before(a[l], a[m])) m = l;
+        if (r < a.length && this.before(a[r], a[m])) m = r;
+        if (m === i) break;
+        [a[i], a[m]] = [a[m], a[i]];
+        i = m;
+      }
+    }
+    return top;
+  }
 }
 
 /** The reachable nodes renumbered in breadth-first order: the contract's table and children arrays. */

@@ -558,8 +558,16 @@ export function encodeTree(codewords: Float32Array, structure: TreeStructure, ve
     while (children[2 * t] >= 0) {
       const l = children[2 * t];
       const r = children[2 * t + 1];
-      const dl = exactDistance(vectors, o, codewords, l * d, d);
-      const dr = exactDistance(vectors, o, codewords, r * d, d);
+      // Both children's exact distances in one loop, each summed in exactDistance's order (same bits).
+      let dl = 0;
+      let dr = 0;
+      for (let i = 0, lo = l * d, ro = r * d; i < d; i++) {
+        const x = vectors[o + i];
+        const a = x - codewords[lo + i];
+        const b = x - codewords[ro + i];
+        dl += a * a;
+        dr += b * b;
+      }
       const right = dr < dl;
       t = right ? r : l;
       dist = right ? dr : dl;

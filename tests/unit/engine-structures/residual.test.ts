@@ -76,6 +76,14 @@ describe('residual codebook', () => {
     expect(Buffer.from(a.codewords.buffer).equals(Buffer.from(b.codewords.buffer))).toBe(true);
   });
 
+  it('trains the same bits on one thread and on two', async () => {
+    const d = 4;
+    const x = gaussian(40000, d, 8);
+    const one = await trainResidual(x, d, { bits: [3, 2], threads: 1, maxIterations: 5 });
+    const two = await trainResidual(x, d, { bits: [3, 2], threads: 2, maxIterations: 5 });
+    expect(Buffer.from(one.codewords.buffer).equals(Buffer.from(two.codewords.buffer))).toBe(true);
+  });
+
   it('refuses bad structures, indices and options with ENGINE_INVALID_INPUT', async () => {
     const s: ResidualStructure = { kind: 'residual', bits: [2, 1], search: { kind: 'greedy' } };
     expect(() => checkResidual(new Float32Array(6), s, 1)).not.toThrow();

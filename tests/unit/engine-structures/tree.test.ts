@@ -78,6 +78,16 @@ describe('tree-structured codebook', () => {
     expect(tree.rate).toBeCloseTo(sum(Float64Array.from(codes.lengths)) / 4000, 12);
   });
 
+  it('grows greedily until the mean path length reaches the rate asked for', async () => {
+    const d = 2;
+    const x = gaussian(3000, d, 9);
+    const tree = await trainTree(x, d, { growth: { kind: 'greedy', rate: 3.5 } });
+    expect(tree.rate).toBeGreaterThanOrEqual(3.5);
+    // The split before the last left it below the rate.
+    expect(tree.growth[tree.growth.length - 2].rate).toBeLessThan(3.5);
+    expect(tree.growth.at(-1)!.rate).toBe(tree.rate);
+  });
+
   it('never reports a full search over its leaves worse than its tree search', async () => {
     const d = 4;
     const x = gaussian(4000, d, 5);
@@ -115,6 +125,7 @@ describe('tree-structured codebook', () => {
     const x = gaussian(10, 2, 6);
     await expect(trainTree(x, 2, { growth: { kind: 'balanced', depth: 15 } })).rejects.toThrow(/depth must be an integer in 0\.\.14/);
     await expect(trainTree(x, 2, { growth: { kind: 'greedy', leaves: 0 } })).rejects.toThrow(/leaves/);
+    await expect(trainTree(x, 2, { growth: { kind: 'greedy' } })).rejects.toThrow(/needs leaves, rate or both/);
     await expect(trainTree(x, 2, { growth: { kind: 'other' } as never })).rejects.toThrow(/growth/);
     await expect(trainTree(x, 2, { growth: { kind: 'balanced', depth: 2 }, prune: { rate: -1 } })).rejects.toThrow(/prune\.rate/);
   });

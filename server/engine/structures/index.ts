@@ -2,7 +2,7 @@
 // their limits and their cost summary. README.md beside this file describes the models.
 export * from './types';
 export * from './limits';
-export { trainTree, encodeTree, decodeTree, checkTree, leafCodewords, type TreeCodes, type TreeGrowth, type TreeGrowthStep, type TreeOptions, type TreePruneStep, type TreeResult } from './tree';
+export { trainTree, encodeTree, decodeTree, checkTree, leafCodewords, treeDistortions, type TreeCodes, type TreeGrowth, type TreeGrowthStep, type TreeOptions, type TreePruneStep, type TreeResult } from './tree';
 export {
   trainResidual, encodeResidual, decodeResidual, checkResidual,
   type ResidualCodes, type ResidualOptions, type ResidualRefinementStep, type ResidualResult, type ResidualSearch, type ResidualStageStat,

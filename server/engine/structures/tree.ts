@@ -603,3 +603,20 @@ export function decodeTree(
   }
   return out;
 }
+
+/**
+ * Tree-search and full-search distortion (MSE per component) of a tree on vectors (N × d), e.g. held-out blocks: the
+ * second searches every leaf, so the difference is what descent costs.
+ */
+export function treeDistortions(codewords: Float32Array, structure: TreeStructure, vectors: Float32Array, d: number): { tree: number; fullSearch: number } {
+  const codes = encodeTree(codewords, structure, vectors, d);
+  const full = assignSync(vectors, d, leafCodewords(codewords, structure, d));
+  let tree = 0;
+  let fullSearch = 0;
+  for (let v = 0; v < codes.distances.length; v++) {
+    tree += codes.distances[v];
+    fullSearch += full.distances[v];
+  }
+  const scale = codes.distances.length * d;
+  return { tree: tree / scale, fullSearch: fullSearch / scale };
+}

@@ -1,6 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { createRng, EngineError, shutdownEngineWorkers } from '../../../server/engine/training/index';
-import { checkTree, decodeTree, encodeTree, leafCodewords, trainTree, type TreeStructure } from '../../../server/engine/structures/index';
+import { checkTree, decodeTree, encodeTree, leafCodewords, trainTree, treeDistortions, type TreeStructure } from '../../../server/engine/structures/index';
 
 afterAll(() => shutdownEngineWorkers());
 
@@ -94,6 +94,12 @@ describe('tree-structured codebook', () => {
     const tree = await trainTree(x, d, { growth: { kind: 'balanced', depth: 5 } });
     expect(tree.fullSearchDistortion).toBeLessThanOrEqual(tree.treeDistortion);
     expect(leafCodewords(tree.codewords, tree.structure, d).length).toBe(32 * d);
+    const training = treeDistortions(tree.codewords, tree.structure, x, d);
+    expect(training.tree).toBeCloseTo(tree.treeDistortion, 12);
+    expect(training.fullSearch).toBeCloseTo(tree.fullSearchDistortion, 12);
+    const held = treeDistortions(tree.codewords, tree.structure, gaussian(4000, d, 55), d);
+    expect(held.fullSearch).toBeLessThanOrEqual(held.tree);
+    expect(held.fullSearch).toBeLessThan(held.tree); // 32 leaves in 4-D: some held-out block is nearer a leaf off its path
   });
 
   it('keeps a balanced index when a node has too few distinct vectors to split', async () => {

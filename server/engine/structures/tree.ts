@@ -554,7 +554,8 @@ export function encodeTree(codewords: Float32Array, structure: TreeStructure, ve
     let t = 0;
     let path = 0;
     let length = 0;
-    let dist = exactDistance(vectors, o, codewords, 0, d);
+    // A root that is a leaf is the only reconstruction not reached through a comparison.
+    let dist = children[0] < 0 ? exactDistance(vectors, o, codewords, 0, d) : 0;
     while (children[2 * t] >= 0) {
       const l = children[2 * t];
       const r = children[2 * t + 1];

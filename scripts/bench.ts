@@ -15,6 +15,7 @@ import { seabedSet } from '../server/seed/seabed-tiles';
 import { modelBench } from './bench-model';
 import { codecFigures } from './bench-codec';
 import { benchPython, blasSettings, faissImports, faissLloyd, kernelName, sklearnLadder, sklearnLloyd, withNpy } from './bench-peers';
+import { structuresBench } from './bench-structures';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const imageDir = path.join(root, 'data', 'test-images');
@@ -274,6 +275,7 @@ async function main() {
     rmSync(memDir, { recursive: true, force: true });
   }
   await modelBench();
+  await structuresBench();
   // Data-parallel Lloyd over worker processes, in processes of its own (a private Redis and shard hosts).
   spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-shards.ts')], { cwd: root, stdio: 'inherit' });
   console.log('\nnote: the cores are shared with other work on this machine; figures may be noisy.');

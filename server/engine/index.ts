@@ -493,3 +493,6 @@ export function denoise(
   const out = denoiseImage(codebook, mixture, image, { sigma, estimator: o.estimator ?? 'mean', step: o.step ?? DENOISE_STEP.default, signal: options.signal });
   return { ...out, sigma, sigmaEstimated: o.sigma === undefined };
 }
+
+// ---- structured codebooks (issue 12): tree-structured and residual training, encoding, decoding and costs ----
+export * from './structures/index';

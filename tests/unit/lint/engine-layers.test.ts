@@ -37,6 +37,15 @@ describe('engine layers', () => {
     const found = await messages('server/engine/format/codec.ts', "import { scoreVectors } from '../model/mixture';\nexport const s = scoreVectors;\n");
     expect(found.some((m) => m.includes('format never imports model'))).toBe(true);
   });
+
+  it('puts the structured codebooks above training and below the format that stores them', async () => {
+    const reads = await messages('server/engine/structures/residual.ts', "import { train } from '../training/index';\nexport const t = train;\n");
+    expect(reads.filter((m) => m.startsWith('cellwright/'))).toEqual([]);
+    const stores = await messages('server/engine/format/codec.ts', "import { encodeTree } from '../structures/tree';\nexport const e = encodeTree;\n");
+    expect(stores.filter((m) => m.startsWith('cellwright/layers'))).toEqual([]);
+    const found = await messages('server/engine/training/ecvq.ts', "import { trainTree } from '../structures/tree';\nexport const t = trainTree;\n");
+    expect(found.some((m) => m.includes('training never imports structures'))).toBe(true);
+  });
 });
 
 describe('import cycles', () => {

@@ -37,6 +37,8 @@ export async function up(knex: Knex): Promise<void> {
   });
   await knex.schema.createTable('model_result_views', (t) => {
     t.engine('InnoDB');
+    t.charset('utf8mb4');
+    t.collate('utf8mb4_unicode_ci');
     t.integer('job_id').unsigned().notNullable().references('id').inTable('jobs').onDelete('CASCADE');
     t.string('view', 16).notNullable();
     t.specificType('png', 'LONGBLOB').notNullable();

@@ -4,7 +4,7 @@
 import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { MODEL_CAUTION } from '../../server/contracts';
+import { MODEL_CAUTION, type ModelJobView, type ModelResult } from '../../server/contracts';
 import {
   anomalyModel, anomalyScores, codebookTrainingVectors, decodeImage, parseCodebook, shutdownEngineWorkers, type Codebook, type PixelImage,
 } from '../../server/engine';
@@ -38,7 +38,13 @@ async function probePng(): Promise<Buffer> {
 
 const jobUrl = (path: string) => `/api/teams/${team.teamId}/model-jobs/${path}`;
 
-type JobView = { job: { id: number; state: string; error: string | null; servedBy: unknown[]; codebookId: number; kind: string }; result: Record<string, any> | null; caution: string };
+type JobView = ModelJobView;
+
+/** The job's result, which must be of `type`. */
+function resultOf<T extends ModelResult['type']>(view: JobView, type: T): Extract<ModelResult, { type: T }> {
+  expect(view.result?.type).toBe(type);
+  return view.result as Extract<ModelResult, { type: T }>;
+}
 
 /** Starts a model job as `who` (202), then follows its status route until it ends. */
 async function runJob(kind: 'anomaly' | 'denoise', id: number, body: object, who: Session = team.viewer): Promise<JobView> {
@@ -100,7 +106,7 @@ describe('anomaly map job', () => {
     expect(done.job).toMatchObject({ state: 'succeeded', error: null, kind: 'anomaly' });
     expect(done.job.servedBy.length).toBe(1);
     expect(done.caution).toBe(MODEL_CAUTION);
-    const body = done.result!;
+    const body = resultOf(done, 'anomaly-map');
     expect(body).toMatchObject({ type: 'anomaly-map', codebookId, imageId, width: W, height: H, blockWidth: 4, blockHeight: 4, blocksX: 12, blocksY: 8, rate: 0.01, score: 'nll', calibrated: true, varianceSource: 'training-vectors', caution: MODEL_CAUTION });
     // The same engine calls on the originals in process: training patches drawn as the training job drew them.
     const book = await exported(codebookId);
@@ -113,7 +119,7 @@ describe('anomaly map job', () => {
     expect(body.nll).toEqual(expected.blocks.map((b) => b.nll));
     expect(body.distance).toEqual(expected.blocks.map((b) => b.distance));
     expect(body.thresholds).toEqual(model.calibration.thresholds);
-    expect(Math.abs(body.flaggedTrainingBlocks.nll - 0.01 * body.trainingBlocks)).toBeLessThanOrEqual(1);
+    expect(Math.abs(body.flaggedTrainingBlocks!.nll - 0.01 * body.trainingBlocks)).toBeLessThanOrEqual(1);
     // The result is stored with the job, keyed by its id: read again, it is the same.
     const again = await request(t.app).get(jobUrl(String(done.job.id))).set(bearer(team.engineer));
     expect(again.body.result).toEqual(body);
@@ -130,16 +136,17 @@ describe('anomaly map job', () => {
     const training: PixelImage[] = [];
     for (const id of trainingIds) training.push(await decodeImage(await originalOf(id), 'luma'));
     const model = anomalyModel(book, codebookTrainingVectors(book, training), { rate: 0.05, score: 'distance' });
-    expect(first.result!.thresholds).toEqual(model.calibration.thresholds);
+    const firstMap = resultOf(first, 'anomaly-map');
+    expect(firstMap.thresholds).toEqual(model.calibration.thresholds);
     const expected = anomalyScores(book, model, await decodeImage(await originalOf(heldOutIds[1]), 'luma'));
-    expect(first.result!.flagged).toEqual(expected.blocks.flatMap((b, i) => (b.flagged ? [i] : [])));
-    expect(first.result!.flagged.length).toBeGreaterThan(0);
+    expect(firstMap.flagged).toEqual(expected.blocks.flatMap((b, i) => (b.flagged ? [i] : [])));
+    expect(firstMap.flagged.length).toBeGreaterThan(0);
   });
 
   it('answers an imported codebook with scores but no threshold, since it has no training images here', async () => {
     const done = await runJob('anomaly', importedId, { imageId: heldOutIds[0] });
     expect(done.result).toMatchObject({ calibrated: false, thresholds: null, flaggedTrainingBlocks: null, flagged: [], trainingBlocks: 0, varianceSource: 'stored-distortion' });
-    expect(done.result!.nll).toHaveLength(96);
+    expect(resultOf(done, 'anomaly-map').nll).toHaveLength(96);
   });
 
   it('refuses a bad body with 400 and writes no job, another team\'s member with 404 and no session with 401', async () => {
@@ -162,8 +169,7 @@ describe('anomaly map job', () => {
 describe('anomaly list job', () => {
   it('ranks the blocks of a pasted bright square first over a set, and flags them', async () => {
     const done = await runJob('anomaly', codebookId, { setId: probeSetId, limit: 6, rate: 0.001 });
-    const body = done.result!;
-    expect(body.type).toBe('anomaly-list');
+    const body = resultOf(done, 'anomaly-list');
     expect(body.images).toBe(2);
     expect(body.blocks).toHaveLength(6);
     const probeId = (await t.db.knex('images').where({ set_id: probeSetId }).orderBy('id').first()).id;
@@ -176,9 +182,10 @@ describe('anomaly list job', () => {
 
   it('ranks the run\'s held-out images by default, and asks an imported codebook for a set', async () => {
     const done = await runJob('anomaly', codebookId, { limit: 3 });
-    expect(done.result!.images).toBe(2);
-    expect(done.result!.blocks.map((b: { imageId: number }) => heldOutIds.includes(b.imageId))).toEqual([true, true, true]);
-    const nll = done.result!.blocks.map((b: { nll: number }) => b.nll);
+    const list = resultOf(done, 'anomaly-list');
+    expect(list.images).toBe(2);
+    expect(list.blocks.map((b) => heldOutIds.includes(b.imageId))).toEqual([true, true, true]);
+    const nll = list.blocks.map((b) => b.nll);
     expect([...nll].sort((a, b) => b - a)).toEqual(nll);
     const imported = await request(t.app).post(url(`${importedId}/anomaly-jobs`)).set(bearer(team.viewer)).send({});
     expect(imported.status).toBe(400);
@@ -192,11 +199,11 @@ describe('denoise job', () => {
     const body = { imageId: heldOutIds[1], sigma: 20, seed: 5 };
     const done = await runJob('denoise', codebookId, body);
     expect(done.job).toMatchObject({ state: 'succeeded', kind: 'denoise' });
-    const result = done.result!;
+    const result = resultOf(done, 'denoise');
     expect(result).toMatchObject({ type: 'denoise', codebookId, imageId: heldOutIds[1], width: W, height: H, sigma: 20, seed: 5, step: 1, varianceSource: 'cell-distortion', caution: MODEL_CAUTION });
-    expect(result.psnr.mean).toBeGreaterThan(result.psnr.noisy);
+    expect(result.psnr.mean!).toBeGreaterThan(result.psnr.noisy!);
     const pngs: Buffer[] = [];
-    for (const view of ['clean', 'noisy', 'hard', 'mean']) {
+    for (const view of ['clean', 'noisy', 'hard', 'mean'] as const) {
       expect(result.views[view]).toBe(jobUrl(`${done.job.id}/views/${view}`));
       const res = await request(t.app).get(result.views[view]).set(bearer(team.viewer)).buffer(true);
       expect(res.status).toBe(200);
@@ -207,9 +214,9 @@ describe('denoise job', () => {
     }
     // The same seed gives the same noise and so the same images, bit for bit, from another job.
     const again = await runJob('denoise', codebookId, body, team.engineer);
-    const noisy = await request(t.app).get(again.result!.views.noisy).set(bearer(team.viewer)).buffer(true);
+    const noisy = await request(t.app).get(resultOf(again, 'denoise').views.noisy).set(bearer(team.viewer)).buffer(true);
     expect(Buffer.compare(noisy.body as Buffer, pngs[1])).toBe(0);
-    expect(again.result!.psnr).toEqual(result.psnr);
+    expect(resultOf(again, 'denoise').psnr).toEqual(result.psnr);
     expect((await request(t.app).get(result.views.noisy).set(bearer(outsider))).status).toBe(404);
     expect((await request(t.app).get(jobUrl(`${done.job.id}/views/other`)).set(bearer(team.viewer))).status).toBe(400);
   });

@@ -177,6 +177,8 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
       }
       return;
     }
+    // Passes come after the seeding: its codewords are no longer needed here.
+    if (op.op === 'assign') hosted.seed = undefined;
     for (const shard of message.shards) {
       try {
         const state = await shardOf(hosted, shard, op.op === 'assign' ? undefined : message.prime);

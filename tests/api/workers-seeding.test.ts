@@ -44,15 +44,20 @@ afterAll(async () => {
   rmSync(scratch, { recursive: true, force: true });
 });
 
-async function trained(name: string): Promise<{ runId: number; checksums: string[] }> {
-  const res = await call(studio, 'POST', `/api/teams/${studio.teamId}/runs`, { name, trainingSetId: setId, heldOutSetId: setId, bits: { from: BITS, to: BITS }, ...RUN });
+async function startRun(name: string, bits = BITS, settings: object = {}): Promise<number> {
+  const res = await call(studio, 'POST', `/api/teams/${studio.teamId}/runs`, { name, trainingSetId: setId, heldOutSetId: setId, bits: { from: bits, to: bits }, ...RUN, ...settings });
   expect(res.status).toBe(201);
-  const runId = res.body.run.id as number;
+  return res.body.run.id as number;
+}
+
+async function finished(runId: number): Promise<{ runId: number; checksums: string[] }> {
   const done = await waitForRun(studio, runId, terminal);
   expect({ state: done.state, error: done.error }).toEqual({ state: 'succeeded', error: null });
   const rows = (await studio.server.db.knex('codebooks').where({ run_id: runId }).orderBy('size').select('checksum')) as { checksum: string }[];
   return { runId, checksums: rows.map((r) => r.checksum) };
 }
+
+const trained = async (name: string, bits = BITS, settings: object = {}) => finished(await startRun(name, bits, settings));
 
 /** Shard hosts that served a seeding step so far (the host logs each session it opens; seeding opens it). */
 const hosting = () => workers.filter((w) => w.output().includes('"hosting shards"')).length;
@@ -81,5 +86,31 @@ describe('k-means++ seeding spread over worker processes', () => {
     const status = await cli(['train', '--images', dir, '--patch', '2x2', '--bits', String(BITS), '--init', 'kmeans++', '--epsilon', '0.0001', '--max-iterations', '20', '--seed', '9', '--threads', '1', '--out', out, '--json'], ctx);
     expect(status).toBe(0);
     expect(readFileSync(out, 'utf8')).toContain(one.checksums[0]);
+  });
+
+  it('finishes with the same codebook when a worker holding shards is killed mid-seeding', { timeout: 600_000 }, async () => {
+    // 2048 codewords: the seeding takes thousands of steps, long enough to lose a host in the middle of it.
+    const slow = { maxIterations: 1 };
+    workers.push(await startWorkerProcess(studio.server));
+    const reference = await trained('Seeded, reference', 11, slow);
+    const seedings = (w: WorkerProcess) => w.output().split('\n').filter((l) => l.includes('"seeding shards"')).length;
+    const before = new Map(workers.map((w) => [w, seedings(w)]));
+    const runId = await startRun('Seeding host lost', 11, slow);
+    // As soon as this run's seeding reaches the hosts, kill one that is not the coordinator (the worker holding the
+    // training task).
+    let victim: WorkerProcess | undefined;
+    for (let i = 0; i < 1200 && !victim; i += 1) {
+      const page = (await call(studio, 'GET', `/api/teams/${studio.teamId}/workers`)).body as { workers: { workerId: string; task: { kind: string } | null }[] };
+      const coordinator = page.workers.find((w) => w.task?.kind === 'train')?.workerId;
+      if (coordinator) victim = workers.find((w) => !w.output().includes(coordinator) && seedings(w) > before.get(w)!);
+      if (!victim) await new Promise((r) => setTimeout(r, 50));
+    }
+    expect(victim).toBeDefined();
+    await victim!.kill();
+    const done = await finished(runId);
+    expect(done.checksums).toEqual(reference.checksums);
+    // The lost host's shards moved while seeding: their new host applied the earlier codewords first.
+    const survivors = workers.filter((w) => w !== victim).map((w) => w.output()).join('\n');
+    expect(survivors).toMatch(/"op":"seed".*shard hosts stopped; their shards go to live workers/);
   });
 });

@@ -101,7 +101,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
       };
 
       /** Gives the shards of hosts that stopped beating to live ones; returns the shards moved. */
-      const reassign = async (pending: Set<number>): Promise<number[]> => {
+      const reassign = async (pending: Set<number>, op: ShardOp['op']): Promise<number[]> => {
         const hosts = new Set([...pending].map((s) => owner[s]));
         const dead: string[] = [];
         for (const h of hosts) if ((await r.exists(keys.worker(h))) === 0) dead.push(h);
@@ -120,7 +120,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
           await grant(to);
           moved.push(s);
         }
-        logger.warn({ sessionId, jobId: input.jobId, dead, moved }, 'shard hosts stopped; their shards go to live workers');
+        logger.warn({ sessionId, jobId: input.jobId, op, dead, moved }, 'shard hosts stopped; their shards go to live workers');
         return moved;
       };
 
@@ -143,7 +143,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
           }
           if (Date.now() - checked >= LIVENESS_CHECK_MS) {
             checked = Date.now();
-            const moved = (await reassign(pending)).filter((s) => pending.has(s));
+            const moved = (await reassign(pending, op.op)).filter((s) => pending.has(s));
             if (moved.length > 0) await send(moved, op, m);
           }
         }
@@ -201,7 +201,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
           }
           if (Date.now() - checked >= LIVENESS_CHECK_MS) {
             checked = Date.now();
-            const moved = (await reassign(pending)).filter((s) => pending.has(s));
+            const moved = (await reassign(pending, 'seed')).filter((s) => pending.has(s));
             for (const s of moved) {
               sent.delete(s);
               hostKnows.delete(owner[s]);

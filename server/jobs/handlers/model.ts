@@ -43,7 +43,7 @@ export const anomalyHandler: JobHandler<'anomaly'> = async (job, ctx) => {
     { signal: ctx.signal, progress: (p) => ctx.progress(p) },
   );
   const info = {
-    codebookId, rate: payload.rate, score: payload.score, calibrated: r.calibrated, varianceSource: r.varianceSource as 'training-vectors',
+    codebookId, rate: payload.rate, score: payload.score, calibrated: r.calibrated, varianceSource: r.varianceSource,
     trainingBlocks: r.trainingBlocks, thresholds: r.thresholds, flaggedTrainingBlocks: r.flaggedTrainingBlocks, caution: MODEL_CAUTION,
   };
   const result: ModelResult = payload.target === 'map'
@@ -79,7 +79,7 @@ export const denoiseHandler: JobHandler<'denoise'> = async (job, ctx) => {
   const view = (name: string) => modelViewPath(job.teamId, job.id, name);
   const result: ModelResult = {
     type: 'denoise', codebookId, imageId: image.id, width: r.width, height: r.height, sigma: payload.sigma, seed: payload.seed, step: payload.step,
-    varianceSource: r.varianceSource as 'training-vectors', psnr: r.psnr,
+    varianceSource: r.varianceSource, psnr: r.psnr,
     views: { clean: view('clean'), noisy: view('noisy'), hard: view('hard'), mean: view('mean') }, caution: MODEL_CAUTION,
   };
   ctx.signal.throwIfAborted();

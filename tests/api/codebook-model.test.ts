@@ -259,4 +259,27 @@ describe('a model job\'s life', () => {
       if (!started) await runner.start();
     }
   });
+
+  it('stops a running denoise job when it is cancelled, and stores nothing for it', async () => {
+    // A large image at step 1 keeps the job running for a while (about 15 s here): every pixel position is a patch.
+    const big = await createSetWith(t.app, team.engineer, 'large', await seabedPngs(45, 1, 1600, 1200));
+    const imageId = (await t.db.knex('images').where({ set_id: big }).first()).id;
+    const started = await request(t.app).post(url(`${codebookId}/denoise-jobs`)).set(bearer(team.viewer)).send({ imageId, sigma: 20, step: 1 });
+    expect(started.status).toBe(202);
+    const jobId = started.body.job.id as number;
+    let state = 'queued';
+    for (let i = 0; i < 400 && state === 'queued'; i += 1) {
+      state = (await request(t.app).get(jobUrl(String(jobId))).set(bearer(team.viewer))).body.job.state;
+      if (state === 'queued') await new Promise((r) => setTimeout(r, 25));
+    }
+    expect(state).toBe('running');
+    const cancelled = await request(t.app).post(jobUrl(`${jobId}/cancel`)).set(bearer(team.viewer));
+    expect(cancelled.status).toBe(200);
+    expect(cancelled.body.job.cancelRequested).toBe(true);
+    const ended = await waitForJob(jobId);
+    expect(ended.job.state).toBe('cancelled');
+    expect(ended.result).toBeNull();
+    expect(await t.db.knex('model_results').where({ job_id: jobId }).first()).toBeUndefined();
+    expect(await t.db.knex('model_result_views').where({ job_id: jobId }).first()).toBeUndefined();
+  });
 });

@@ -1,7 +1,8 @@
 // Data-parallel Lloyd over worker processes (npm run bench runs it; alone: node --import tsx scripts/bench-shards.ts).
 // A private Redis, shard hosts as separate processes with one engine thread each, and this process as the
-// coordinator: per-iteration time with 1 and 2 hosts, the coordination overhead against the same shards computed
-// in-process, and how long a cancellation takes to reach every host.
+// coordinator: per-iteration time and k-means++ seeding time with 1 and 2 hosts, the coordination overhead against
+// the same shards computed in-process, and how long a cancellation takes to reach every host.
+// `--seeding-only N` measures only the seeding, on N vectors (a quick look; the full run uses 1,000,000).
 import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
 import { mkdtempSync, rmSync } from 'node:fs';
 import { createServer } from 'node:net';
@@ -10,7 +11,7 @@ import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Redis } from 'ioredis';
 import { createLogger } from '../server/config/logger';
-import { shutdownEngineWorkers, threadBudget, train, type IterationStat } from '../server/engine';
+import { shutdownEngineWorkers, threadBudget, train, type IterationStat, type ShardExecutor } from '../server/engine';
 import { computeKeys } from '../server/jobs/compute/keys';
 import { createShardSpread } from '../server/jobs/compute/shard-coordinator';
 import type { TrainingSample } from '../server/jobs/compute/shard-wire';
@@ -73,11 +74,48 @@ async function main(): Promise<void> {
       return { ms: median(trace.filter((t) => t.iteration > 0).map((t) => t.elapsedMs)), checksum: (await import('node:crypto')).createHash('sha256').update(bytes).digest('hex').slice(0, 12) };
     };
 
+    /**
+     * k-means++ seeding on the hosts alive (K = 256): ms from codeword 1 to the last (codeword 0 opens the session and
+     * draws the hosts' samples, so it is left out), and a checksum of the codewords.
+     */
+    const seedingTime = async (n: number, d: number, k: number): Promise<{ ms: number; checksum: string }> => {
+      const seed = 11;
+      const vectors = benchVectors(n, d, seed);
+      let from = 0;
+      let to = 0;
+      const timed = (shards: ShardExecutor): ShardExecutor => ({
+        ...shards,
+        seed: async (kk, c, choice, signal) => {
+          const step = await shards.seed(kk, c, choice, signal);
+          if (c === 0) from = performance.now();
+          to = performance.now();
+          return step;
+        },
+      });
+      const result = await train(vectors, d, {
+        k, init: 'kmeans++', seed: 5, epsilon: 0, maxIterations: 0, threads: 1,
+        openShards: async ({ maxK, signal }) => timed(await spread.open({ jobId: 0, teamId: 0, sample: sampleOf(n, d, seed), vectors, maxK, signal })),
+      });
+      const bytes = Buffer.from(result.codebooks[0].codewords.buffer);
+      return { ms: to - from, checksum: (await import('node:crypto')).createHash('sha256').update(bytes).digest('hex').slice(0, 12) };
+    };
+    const seedingOnly = process.argv.indexOf('--seeding-only');
+    const seedingN = seedingOnly >= 0 ? Number(process.argv[seedingOnly + 1]) : 1_000_000;
+    const reportSeeding = (one: { ms: number; checksum: string }, two: { ms: number; checksum: string }) =>
+      console.log(`  k-means++ seeding, N=${seedingN.toLocaleString('en')}, d=16, K=256: 1 host ${one.ms.toFixed(0)} ms, 2 hosts ${two.ms.toFixed(0)} ms → ${(one.ms / two.ms).toFixed(2)}×; one message per host per codeword; codewords ${one.checksum} and ${two.checksum}${one.checksum === two.checksum ? ' (identical)' : ' (DIFFER)'}`);
+
     console.log(`\ndata-parallel Lloyd (shard hosts are worker processes with 1 engine thread; median of ${ITERATIONS} iterations; random init)`);
     hosts.push(await startHost(redisUrl, prefix, 'bench-host-1'));
+    const seedOne = await seedingTime(seedingN, 16, 256);
+    if (seedingOnly >= 0) {
+      hosts.push(await startHost(redisUrl, prefix, 'bench-host-2'));
+      reportSeeding(seedOne, await seedingTime(seedingN, 16, 256));
+      return;
+    }
     const one = await perIteration(1_000_000, 16, 1024, 'hosts');
     hosts.push(await startHost(redisUrl, prefix, 'bench-host-2'));
     const two = await perIteration(1_000_000, 16, 1024, 'hosts');
+    reportSeeding(seedOne, await seedingTime(seedingN, 16, 256));
     console.log(`  N=1,000,000, d=16, K=1024: 1 host ${one.ms.toFixed(0)} ms/iteration, 2 hosts ${two.ms.toFixed(0)} ms/iteration → ${(one.ms / two.ms).toFixed(2)}× (target ≥ 1.7×); codewords ${one.checksum} and ${two.checksum}${one.checksum === two.checksum ? ' (identical)' : ' (DIFFER)'}`);
 
     // Coordination overhead: the same 8 shards with 1 host against in-process, K = 4096, d = 64 (2 MiB of sums per shard).

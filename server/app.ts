@@ -32,7 +32,7 @@ import { meRouter } from './http/routes/me';
 import { membersRouter } from './http/routes/members';
 import { outboxRouter } from './http/routes/outbox';
 import { reconstructionsRouter } from './http/routes/reconstructions';
-import { codebookModelRouter } from './http/routes/codebook-model';
+import { codebookModelRouter, modelJobsRouter } from './http/routes/codebook-model';
 import { runsRouter } from './http/routes/runs';
 import { teamInvitationsRouter } from './http/routes/team-invitations';
 import './http/types';
@@ -156,6 +156,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/codebooks', codebookEvaluationsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', reconstructionsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', codebookModelRouter(routeDeps));
+  app.use('/api/teams/:teamId/model-jobs', modelJobsRouter(routeDeps));
   app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
   app.use('/api/teams/:teamId/workers', teamWorkersRouter(routeDeps));
   app.use('/api', apiDescriptionRouter(routeDeps));

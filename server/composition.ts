@@ -33,7 +33,6 @@ import { createSpool } from './storage/spool';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/evaluation-tasks';
-import { modelTaskRunner } from './jobs/model-tasks';
 import { createComputeClient } from './jobs/compute/client';
 import { executeComputeTask, loadTrainingSample } from './jobs/compute/execute';
 import { createComputeWorker } from './jobs/compute/worker';
@@ -155,8 +154,8 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     runTask: evaluationTaskRunner(reconstructionPool),
     ...config.reconstructions,
   });
-  // Anomaly scores and denoising share the reconstruction views' pool and bounds: both are per-request views of a codebook.
-  const codebookModel = createCodebookModelService({ db, store: contentStore, runTask: modelTaskRunner(reconstructionPool), ...config.reconstructions });
+  // Anomaly maps and denoising are jobs on the workers (server/jobs/handlers/model.ts); the service queues and reads them.
+  const codebookModel = createCodebookModelService({ db, bus });
   const comparison = createComparisonService({ db });
   // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.
   const workerRegistry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: computeKeyPrefix, currentToken: () => workerToken(config, { create: true }) });

@@ -1,7 +1,8 @@
 import { z } from 'zod';
 import { SEED } from '../engine/vocabulary';
 import { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_SIGMA, DENOISE_STEP, MODEL_CAUTION } from '../engine/model/limits';
-import { pathId } from './common';
+import { idParam, pathId } from './common';
+import { job } from './jobs';
 
 // The codebook read as a density of its training patches (server/engine/model/README.md): anomaly scores per block
 // and denoising, for the studio. The limits and the caution are the engine's, defined once.
@@ -53,7 +54,7 @@ const anomalyModelInfo = z.object({
   caution: z.string(),
 });
 
-/** GET /api/teams/:teamId/codebooks/:codebookId/anomaly/:imageId: every coding block's scores, in raster order of blocks. */
+/** An anomaly map job's result: every coding block's scores, in raster order of blocks. */
 export const anomalyMapResponse = anomalyModelInfo.extend({
   imageId: z.number().int(),
   width: z.number().int(),
@@ -71,7 +72,7 @@ export const anomalyMapResponse = anomalyModelInfo.extend({
 });
 export type AnomalyMap = z.infer<typeof anomalyMapResponse>;
 
-/** GET /api/teams/:teamId/codebooks/:codebookId/anomalies: the most unusual blocks over a set, highest score first. */
+/** An anomaly list job's result: the most unusual blocks over a set, highest score first. */
 export const anomalyListResponse = anomalyModelInfo.extend({
   images: z.number().int(),
   blocks: z.array(
@@ -101,7 +102,7 @@ export const denoiseQuery = z
 export type DenoiseQuery = z.infer<typeof denoiseQuery>;
 
 const psnr = z.number().nullable();
-/** GET /api/teams/:teamId/codebooks/:codebookId/denoise/:imageId?sigma=S: seeded noise added, removed by both estimators. */
+/** A denoise job's result: seeded noise added, removed by both estimators. */
 export const denoiseResponse = z.object({
   codebookId: z.number().int(),
   imageId: z.number().int(),
@@ -113,8 +114,65 @@ export const denoiseResponse = z.object({
   varianceSource: z.enum(['training-vectors', 'cell-distortion', 'stored-distortion']),
   /** Against the image as the codebook sees it; null when exact. */
   psnr: z.object({ noisy: psnr, hard: psnr, mean: psnr }),
-  /** PNGs as data: URLs — the clean image, with the noise, and denoised by the nearest codeword and by the posterior mean. */
+  /** Where the PNGs are (GET …/model-jobs/:jobId/views/:view): the clean image, with the noise, and denoised by the nearest codeword and by the posterior mean. */
   views: z.object({ clean: z.string(), noisy: z.string(), hard: z.string(), mean: z.string() }),
   caution: z.string(),
 });
 export type DenoiseResult = z.infer<typeof denoiseResponse>;
+
+// ---- the jobs that compute them (on the workers, tracked like evaluation) ----
+
+/** The views of a denoise job's result, each a PNG. */
+export const DENOISE_VIEWS = ['clean', 'noisy', 'hard', 'mean'] as const;
+
+/**
+ * POST /api/teams/:teamId/codebooks/:codebookId/anomaly-jobs: with `imageId`, a map of that image's blocks; else a
+ * ranked list over `setId` (default the codebook's run's held-out images) keeping `limit` blocks.
+ */
+export const anomalyJobBody = z
+  .object({
+    imageId: idParam.optional(),
+    setId: idParam.optional(),
+    rate: z.number().min(ANOMALY_RATE.min).max(ANOMALY_RATE.max).default(ANOMALY_RATE.default),
+    score: z.enum(ANOMALY_SCORES).default('nll'),
+    limit: z.number().int().min(1).max(ANOMALY_LIST_MAX).optional(),
+  })
+  .strict()
+  .refine((b) => b.imageId === undefined || (b.setId === undefined && b.limit === undefined), {
+    message: 'a map names one image; setId and limit belong to a ranked list',
+    path: ['imageId'],
+  });
+export type AnomalyJobBody = z.infer<typeof anomalyJobBody>;
+
+/** POST /api/teams/:teamId/codebooks/:codebookId/denoise-jobs */
+export const denoiseJobBody = z
+  .object({
+    imageId: idParam,
+    sigma: z.number().min(DENOISE_SIGMA.min).max(DENOISE_SIGMA.max),
+    seed: z.number().int().min(SEED.min).max(SEED.max).default(1),
+    step: z.number().int().min(DENOISE_STEP.min).max(DENOISE_STEP.max).default(DENOISE_STEP.default),
+  })
+  .strict();
+export type DenoiseJobBody = z.infer<typeof denoiseJobBody>;
+
+export const modelJobParams = z.object({ teamId: pathId, jobId: pathId });
+export const modelJobViewParams = modelJobParams.extend({ view: z.enum(DENOISE_VIEWS) });
+
+/** What an anomaly or denoise job computes, by the kind of result. */
+export const modelResult = z.discriminatedUnion('type', [
+  anomalyMapResponse.extend({ type: z.literal('anomaly-map') }),
+  anomalyListResponse.extend({ type: z.literal('anomaly-list') }),
+  denoiseResponse.extend({ type: z.literal('denoise') }),
+]);
+export type ModelResult = z.infer<typeof modelResult>;
+
+/**
+ * A model job (202 from the POSTs; GET /api/teams/:teamId/model-jobs/:jobId): its state and progress, and its result
+ * once it has succeeded (null before).
+ */
+export const modelJobResponse = z.object({
+  job: job.extend({ kind: z.enum(['anomaly', 'denoise']), codebookId: z.number().int() }),
+  result: modelResult.nullable(),
+  caution: z.string(),
+});
+export type ModelJobView = z.infer<typeof modelJobResponse>;

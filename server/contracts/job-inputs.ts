@@ -1,4 +1,6 @@
 import { z } from 'zod';
+import { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_SIGMA, DENOISE_STEP } from '../engine/model/limits';
+import { SEED } from '../engine/vocabulary';
 import type { JobKind } from './jobs';
 
 /**
@@ -13,6 +15,32 @@ const sha256Hex = z.string().regex(/^[0-9a-f]{64}$/, 'a SHA-256 digest in lower-
 export const evaluateCodebookPayload = z.object({ heldOutImageIds: z.array(rowId).min(1), heldOutHash: sha256Hex }).strict();
 export type EvaluateCodebookPayload = z.infer<typeof evaluateCodebookPayload>;
 
+/**
+ * The payload of an anomaly job: the images to score, in order (a map: one image, every block kept; a list: a set,
+ * the `limit` most unusual blocks kept), at a false-alarm rate by one score.
+ */
+export const anomalyJobPayload = z
+  .object({
+    target: z.enum(['map', 'list']),
+    imageIds: z.array(rowId).min(1),
+    rate: z.number().min(ANOMALY_RATE.min).max(ANOMALY_RATE.max),
+    score: z.enum(ANOMALY_SCORES),
+    limit: z.number().int().min(0),
+  })
+  .strict();
+export type AnomalyJobPayload = z.infer<typeof anomalyJobPayload>;
+
+/** The payload of a denoise job: one image, seeded synthetic noise of σ, and the step between patch origins. */
+export const denoiseJobPayload = z
+  .object({
+    imageId: rowId,
+    sigma: z.number().min(DENOISE_SIGMA.min).max(DENOISE_SIGMA.max),
+    seed: z.number().int().min(SEED.min).max(SEED.max),
+    step: z.number().int().min(DENOISE_STEP.min).max(DENOISE_STEP.max),
+  })
+  .strict();
+export type DenoiseJobPayload = z.infer<typeof denoiseJobPayload>;
+
 export const jobInputs = {
   /** Trains every size of a run. */
   train: z.object({ runId: rowId, codebookId: z.null(), payload: z.null() }),
@@ -21,6 +49,10 @@ export const jobInputs = {
     z.object({ runId: rowId, codebookId: z.null(), payload: z.null() }),
     z.object({ runId: z.null(), codebookId: rowId, payload: evaluateCodebookPayload }),
   ]),
+  /** Scores one image's blocks or ranks a set's under one codebook, with thresholds from its run's training images. */
+  anomaly: z.object({ runId: z.null(), codebookId: rowId, payload: anomalyJobPayload }),
+  /** Adds seeded noise to one image and removes it with both estimators of one codebook. */
+  denoise: z.object({ runId: z.null(), codebookId: rowId, payload: denoiseJobPayload }),
 } satisfies Record<JobKind, z.ZodType>;
 
 export type JobInput<K extends JobKind> = z.infer<(typeof jobInputs)[K]>;

@@ -6,7 +6,8 @@ export const jobState = z.enum(jobStates);
 export type JobState = z.infer<typeof jobState>;
 export const terminalJobStates: readonly JobState[] = ['succeeded', 'failed', 'cancelled'];
 
-export const jobKinds = ['train', 'evaluate'] as const;
+/** anomaly and denoise: the codebook read as a model of its training patches (contracts/codebook-model.ts). */
+export const jobKinds = ['train', 'evaluate', 'anomaly', 'denoise'] as const;
 export const jobKind = z.enum(jobKinds);
 export type JobKind = z.infer<typeof jobKind>;
 

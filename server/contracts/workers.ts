@@ -28,7 +28,7 @@ export const originalParams = z.object({ sha256: z.string().regex(/^[0-9a-f]{64}
 
 export const workerTask = z.object({
   /** Training a run, measuring codebooks on held-out images, or the reference codecs on them. */
-  kind: z.enum(['train', 'measure', 'baselines']),
+  kind: z.enum(['train', 'measure', 'baselines', 'model']),
   /** Null when the job belongs to another team (the page names only the caller's team's jobs). */
   jobId: z.number().int().nullable(),
   since: z.string(),

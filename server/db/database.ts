@@ -12,6 +12,7 @@ import { invitationsRepository } from './repositories/invitations';
 import { jobsRepository } from './repositories/jobs';
 import { mailQueueRepository } from './repositories/mail-queue';
 import { membershipsRepository } from './repositories/memberships';
+import { modelResultsRepository } from './repositories/model-results';
 import { outboxRepository } from './repositories/outbox';
 import { passwordResetsRepository } from './repositories/password-resets';
 import { reconstructionsRepository } from './repositories/reconstructions';
@@ -47,6 +48,7 @@ function buildRepositories(db: Executor, afterCommit: (callback: () => void) => 
     evaluations: translated(evaluationsRepository(db)),
     baselines: translated(baselinesRepository(db)),
     reconstructions: translated(reconstructionsRepository(db)),
+    modelResults: translated(modelResultsRepository(db)),
   };
 }
 

@@ -28,8 +28,8 @@ import { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_ESTIMATORS, DENOISE_SIGMA, DENOIS
 export * from './vocabulary';
 export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWorkers, threadBudget, EngineError } from './training';
 export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './training';
-export { ShardState, SearchCrew, shardLayout, type ShardLayout } from './training';
-export type { CellMember, ShardAssignment, ShardExecutor, ShardMove, ShardSums } from './training';
+export { ShardState, SearchCrew, distancesToNewest, shardLayout, type ShardLayout } from './training';
+export type { CellMember, SeedChoice, SeedStep, ShardAssignment, ShardExecutor, ShardMove, ShardSums } from './training';
 export { EngineInputError, type EngineInputErrorCode } from './input-error';
 export {
   assignEcvq, ecvqStartingCodebook, sweepEcvq, trainEcvq, MAX_ECVQ_SIZE, type EcvqIterationStat, type EcvqOptions, type EcvqResult, type EcvqStartOptions,

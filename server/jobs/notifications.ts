@@ -11,6 +11,8 @@ import type { Job } from './queue';
 export function createJobNotifier(deps: { db: Database; mail: MailOutbox; publicUrl: string }) {
   return async (job: Job, state: JobState, error: string | null): Promise<void> => {
     if ((state !== 'succeeded' && state !== 'failed') || job.createdBy === null) return;
+    // Anomaly maps and denoising are watched in their panel while they run (seconds): no mail for them.
+    if (job.kind === 'anomaly' || job.kind === 'denoise') return;
     const user = await deps.db.repos.users.findById(job.createdBy);
     if (!user) return;
     const run = job.runId ? await deps.db.repos.runs.findById(job.runId) : null;

@@ -71,7 +71,7 @@ export function signupExistingMail(input: { name: string; signInLink: string; re
 }
 
 /** What a person calls a job of each kind, in the job notices. */
-const JOB_KIND_NAMES: Record<JobKind, string> = { train: 'Training', evaluate: 'Evaluation' };
+const JOB_KIND_NAMES: Record<JobKind, string> = { train: 'Training', evaluate: 'Evaluation', anomaly: 'Anomaly map', denoise: 'Denoising' };
 
 /**
  * The notice a job's creator gets when it ends by itself (Finished or Failed; a cancellation needs none, the person

@@ -24,7 +24,7 @@ const TRAIN_SHARE = 0.8;
 
 const isTerminal = (s: JobState) => terminalJobStates.includes(s);
 
-function toJobSummary(j: JobRecord): JobSummary {
+export function toJobSummary(j: JobRecord): JobSummary {
   return {
     id: j.id,
     kind: j.kind,

@@ -1,5 +1,5 @@
 // The codebook-model views of a demo codebook in the browser: the anomaly heat map and ranked blocks, and the
-// denoise view with its PSNRs, each with the model's caution.
+// denoise view with its PSNRs, each with the model's caution; each computed by a job the panel starts and follows.
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { MODEL_CAUTION } from '../../server/contracts';
@@ -65,6 +65,9 @@ describe('codebook model views', () => {
     // σ = 20 on textures of the training distribution: the posterior mean is well above the noisy image.
     expect(await psnrOf(page, 'mean')).toBeGreaterThan(await psnrOf(page, 'noisy'));
     expect(await page.getByText(MODEL_CAUTION).count()).toBe(2);
+    // Each panel's figures came from a job that succeeded on the workers: a map, a ranked list and a denoising.
+    const jobs = (await server.db.knex('jobs').whereIn('kind', ['anomaly', 'denoise']).select('kind', 'state')) as { kind: string; state: string }[];
+    expect(jobs.filter((j) => j.state === 'succeeded').map((j) => j.kind).sort()).toEqual(['anomaly', 'anomaly', 'denoise']);
     await page.getByTestId('denoise-views').scrollIntoViewIfNeeded();
     await saveScreenshot(page, 'studio-codebook-model');
   });

@@ -1,6 +1,8 @@
 import { abortError } from './errors';
 import { exactDistance } from './exact-distance';
 import type { Rng } from './rng';
+import { shardEnd, shardLayout, shardStart } from './shard-layout';
+import type { ShardExecutor } from './types';
 
 const sameVector = (vectors: Float32Array, d: number, a: number, b: number) => {
   for (let i = 0; i < d; i++) if (vectors[a * d + i] !== vectors[b * d + i]) return false;
@@ -127,70 +129,201 @@ export function seedUpdateRange(vectors: Float32Array, d: number, state: SeedSta
 /** Indices of the vectors a step must measure; one buffer per thread, grown as needed. */
 let candidates = new Uint32Array(4096);
 
-/** Runs seedUpdateRange over all N vectors for codeword c, where and however the caller likes. */
+/** Runs seedUpdateRange over all of a shard's vectors for codeword c, where and however the caller likes. */
 export type SeedUpdater = (c: number) => void | Promise<void>;
 
+/** Squared distances from codeword c to codewords 0 … c − 1 (codewords K × d), into out[0 … c). */
+export function distancesToNewest(codewords: Float32Array, c: number, d: number, out: Float64Array): void {
+  for (let j = 0; j < c; j++) out[j] = exactDistance(codewords, j * d, codewords, c * d, d);
+}
+
+/** A k-means++ state over `n` vectors on the calling thread. */
+export function plainSeedState(n: number, k: number, d: number): SeedState {
+  return { codewords: new Float32Array(k * d), minDist: new Float64Array(n), nearest: new Uint32Array(n), fromNewest: new Float64Array(k) };
+}
+
 /**
- * k-means++ seeding (Arthur & Vassilvitskii, "k-means++: The Advantages of Careful
- * Seeding", SODA 2007): the first codeword uniformly at random, each next one a training
- * vector drawn with probability proportional to its squared distance to the nearest
- * codeword chosen so far. Weights are exact float64 distances summed in index order, so
- * the draw is reproducible. Returns codewords K × d, row-major.
- *
- * The distance updates (seedUpdateRange) may run elsewhere: `parallel` supplies the state
- * in memory it shares with its threads and the function that updates it; by default they
- * run here, on the calling thread. Either way the picks are the same.
+ * One shard's part of k-means++ seeding: the D² (squared distance to the nearest codeword chosen so far) of its
+ * vectors, whole-set indices [offset, offset + n). It applies the codewords in the order chosen, so a shard opened
+ * again elsewhere (its host was lost) reaches the same state by applying them all again, and it reports its total,
+ * a float64 sum formed in vector order. `update` runs seedUpdateRange over the shard's vectors (on the calling
+ * thread or on threads sharing `state`); each vector depends only on itself, so where it runs changes nothing.
  */
-export async function initKmeansPlusPlus(
-  vectors: Float32Array, d: number, k: number, rng: Rng, signal?: AbortSignal,
-  parallel?: { state: SeedState; update: SeedUpdater },
+export class ShardSeeding {
+  /** Codewords applied so far. */
+  private applied = 0;
+  private total = 0;
+
+  constructor(
+    private readonly state: SeedState,
+    private readonly update: SeedUpdater,
+    readonly offset: number,
+    private readonly d: number,
+  ) {
+    state.minDist.fill(Infinity);
+    state.nearest.fill(0);
+  }
+
+  /** Seeding on the calling thread over `vectors` (n × d, the shard's own), whose first is vector `offset` of the set. */
+  static plain(vectors: Float32Array, d: number, k: number, offset: number): ShardSeeding {
+    const n = vectors.length / d;
+    const state = plainSeedState(n, k, d);
+    return new ShardSeeding(state, (c) => seedUpdateRange(vectors, d, state, c, 0, n), offset, d);
+  }
+
+  /**
+   * Brings the D² up to date with codewords [0, count) (K × d, the whole seeding's so far) and returns the shard's
+   * total. `fromNewest`, when given, holds the distances of codeword count − 1 to the earlier ones (the caller
+   * computed them once for all its shards). A count already applied returns the same total again.
+   */
+  async advance(codewords: Float32Array, count: number, fromNewest?: Float64Array): Promise<number> {
+    const { d, state } = this;
+    if (count < this.applied) {
+      // A seeding started over: nothing of the old one is kept.
+      state.minDist.fill(Infinity);
+      state.nearest.fill(0);
+      this.applied = 0;
+    }
+    if (count === this.applied) return this.total;
+    for (let c = this.applied; c < count; c++) {
+      state.codewords.set(codewords.subarray(c * d, (c + 1) * d), c * d);
+      if (fromNewest && c === count - 1) state.fromNewest.set(fromNewest.subarray(0, c));
+      else distancesToNewest(state.codewords, c, d, state.fromNewest);
+      await this.update(c);
+      this.applied = c + 1;
+    }
+    let total = 0;
+    for (let v = 0; v < state.minDist.length; v++) total += state.minDist[v];
+    this.total = total;
+    return total;
+  }
+
+  /**
+   * The vector (whole-set index) at which the running D² sum of this shard, in vector order and skipping vectors at
+   * distance 0, first exceeds `residual`; the last positive one when rounding carries the residual past the total.
+   * The caller draws only from a shard whose total is positive.
+   */
+  pick(residual: number): number {
+    const { minDist } = this.state;
+    let acc = 0;
+    // With no vector at positive distance (only when fewer distinct vectors than K, which the entry refuses) the
+    // shard's last vector: a repeat, never a read outside the set.
+    let pick = minDist.length - 1;
+    for (let v = 0; v < minDist.length; v++) {
+      if (minDist[v] === 0) continue;
+      acc += minDist[v];
+      pick = v;
+      if (acc > residual) break;
+    }
+    return this.offset + pick;
+  }
+}
+
+/**
+ * The shard-order draw: the shard whose running total (shard totals added in shard order) first exceeds `target`,
+ * and what is left of the target within it. Shards at total 0 are never chosen; rounding that carries the target
+ * past every total chooses the last positive shard.
+ */
+export function drawShard(totals: readonly number[], target: number): { shard: number; residual: number } {
+  let acc = 0;
+  // Every total 0 happens only with fewer distinct vectors than K (refused at the entry): the last shard, never -1.
+  let shard = totals.length - 1;
+  let before = 0;
+  for (let s = 0; s < totals.length; s++) {
+    if (totals[s] === 0) continue;
+    shard = s;
+    before = acc;
+    acc += totals[s];
+    if (acc > target) break;
+  }
+  return { shard, residual: target - before };
+}
+
+/**
+ * k-means++ seeding (Arthur & Vassilvitskii, "k-means++: The Advantages of Careful Seeding", SODA 2007): the first
+ * codeword uniformly at random, each next one a training vector drawn with probability proportional to its squared
+ * distance to the nearest codeword chosen so far.
+ *
+ * The D² live in the training set's shards (core/shard-layout.ts), wherever they are computed: after each new
+ * codeword every shard updates its own and reports its total (float64, summed in vector order); the total of the
+ * set is those added in shard order, the draw picks the shard by the same running sum (drawShard), and that shard
+ * finds the vector within itself (ShardSeeding.pick). The rule depends only on the shard layout, which depends on N
+ * alone, so the codewords are the same bits in one process or over any number of machines. With one shard it is
+ * the textbook draw over the whole set in index order. Returns codewords K × d, row-major.
+ */
+export async function seedOverShards(
+  vectors: Float32Array, d: number, k: number, rng: Rng, shards: Pick<ShardExecutor, 'seed'>, signal?: AbortSignal,
 ): Promise<Float32Array> {
   const n = vectors.length / d;
-  const state: SeedState = parallel?.state ?? {
-    codewords: new Float32Array(k * d),
-    minDist: new Float64Array(n),
-    nearest: new Uint32Array(n),
-    fromNewest: new Float64Array(k),
-  };
-  const update: SeedUpdater = parallel?.update ?? ((c) => seedUpdateRange(vectors, d, state, c, 0, n));
-  const { codewords: out, minDist, nearest, fromNewest } = state;
-  // Every vector starts infinitely far from codeword 0, so the first update sets them all.
-  minDist.fill(Infinity);
-  nearest.fill(0);
-  fromNewest[0] = 0;
-  let pick = rng.nextInt(n);
-  out.set(vectors.subarray(pick * d, (pick + 1) * d), 0);
-  await update(0);
+  const out = new Float32Array(k * d);
+  let step = await shards.seed(k, 0, { index: rng.nextInt(n) }, signal);
+  out.set(vectors.subarray(step.index * d, (step.index + 1) * d), 0);
   let lastYield = performance.now();
   for (let c = 1; c < k; c++) {
-    // Updates on this thread: give the event loop a turn every ~20 ms. Either way, stop
-    // promptly on cancellation.
+    // Steps on this thread: give the event loop a turn every ~20 ms. Either way, stop promptly on cancellation.
     if (performance.now() - lastYield > 20) {
       await new Promise((resolve) => setImmediate(resolve));
       lastYield = performance.now();
     }
     if (signal?.aborted) throw abortError(signal);
-    // total > 0: train() checked at the entry that at least K distinct vectors exist, and each
-    // pick is a vector at positive distance from every earlier one (minDist 0 is skipped), so
-    // fewer than K picks leave a vector at positive distance. No check is repeated here.
+    // total > 0: train() checked at the entry that at least K distinct vectors exist, and each pick is a vector at
+    // positive distance from every earlier one (distance 0 is skipped), so fewer than K picks leave a vector at
+    // positive distance. No check is repeated here.
     let total = 0;
-    for (let v = 0; v < n; v++) total += minDist[v];
-    const target = rng.next() * total;
-    let acc = 0;
-    pick = -1;
-    for (let v = 0; v < n; v++) {
-      if (minDist[v] === 0) continue;
-      acc += minDist[v];
-      pick = v;
-      if (acc > target) break;
-    }
-    const off = c * d;
-    out.set(vectors.subarray(pick * d, (pick + 1) * d), off);
-    for (let j = 0; j < c; j++) fromNewest[j] = exactDistance(out, j * d, out, off, d);
-    await update(c);
+    for (const t of step.totals) total += t;
+    step = await shards.seed(k, c, drawShard(step.totals, rng.next() * total), signal);
+    out.set(vectors.subarray(step.index * d, (step.index + 1) * d), c * d);
   }
-  // A copy the caller owns, whatever memory the state lives in.
-  return parallel ? out.slice() : out;
+  return out;
+}
+
+/**
+ * The seeding steps of the training set's shards, all on the calling thread (seedOverShards' ShardExecutor.seed
+ * for callers that have no executor: the rule and its layout are the same).
+ */
+export function plainSeedShards(vectors: Float32Array, d: number, k: number): Pick<ShardExecutor, 'seed'> {
+  const layout = shardLayout(vectors.length / d);
+  const shards = Array.from({ length: layout.count }, (_, s) => {
+    const seeding = ShardSeeding.plain(vectors.subarray(shardStart(layout, s) * d, shardEnd(layout, s) * d), d, k, shardStart(layout, s));
+    return { seeding: () => seeding };
+  });
+  return seedSteps(vectors, d, k, shards);
+}
+
+/**
+ * ShardExecutor.seed over shards held here, in shard order: the chosen shard (up to date with the codewords before
+ * this one) picks, then every shard applies the new codeword. The distances of the new codeword to the earlier
+ * ones are computed once for all shards.
+ */
+export function seedSteps(
+  vectors: Float32Array, d: number, maxK: number, shards: readonly { seeding(k: number): ShardSeeding | Promise<ShardSeeding> }[],
+): Pick<ShardExecutor, 'seed'> {
+  const codewords = new Float32Array(maxK * d);
+  const fromNewest = new Float64Array(maxK);
+  return {
+    async seed(k, c, choice, signal) {
+      let index: number;
+      if ('index' in choice) index = choice.index;
+      else {
+        const chosen = await shards[choice.shard].seeding(k);
+        await chosen.advance(codewords, c);
+        index = chosen.pick(choice.residual);
+      }
+      codewords.set(vectors.subarray(index * d, (index + 1) * d), c * d);
+      distancesToNewest(codewords, c, d, fromNewest);
+      const totals: number[] = [];
+      for (const shard of shards) {
+        if (signal?.aborted) throw abortError(signal);
+        totals.push(await (await shard.seeding(k)).advance(codewords, c + 1, fromNewest));
+      }
+      return { index, totals };
+    },
+  };
+}
+
+/** k-means++ seeding of the whole set on the calling thread: seedOverShards over plainSeedShards. */
+export async function initKmeansPlusPlus(vectors: Float32Array, d: number, k: number, rng: Rng, signal?: AbortSignal): Promise<Float32Array> {
+  return seedOverShards(vectors, d, k, rng, plainSeedShards(vectors, d, k), signal);
 }
 
 /**

@@ -136,6 +136,19 @@ export interface ShardMove {
 }
 
 /**
+ * How k-means++ step c chooses its codeword (core/init.ts seedOverShards): the first by its index in the whole set,
+ * every later one by the shard drawn and what is left of the draw's target within that shard's D² total.
+ */
+export type SeedChoice = { index: number } | { shard: number; residual: number };
+
+/** What a k-means++ step returns: the chosen vector's index in the whole set and every shard's D² total after it. */
+export interface SeedStep {
+  index: number;
+  /** In shard order; each a float64 sum over the shard's vectors in vector order. */
+  totals: number[];
+}
+
+/**
  * The shards of one training set, wherever they are computed: in this process (training/local-shards.ts) or on
  * other machines (the job engine's coordinator). Every call answers for all shards, in shard order; a shard's
  * answer depends only on its vectors, the codebook and the moves, never on who computes it.
@@ -151,6 +164,12 @@ export interface ShardExecutor {
   members(cell: number, asks: readonly { shard: number; skip: number; take: number }[], signal?: AbortSignal): Promise<CellMember[][]>;
   /** Applies repairs to the last pass's partition; returns the new sums of each shard that holds a moved vector. */
   move(moves: readonly ShardMove[], k: number, signal?: AbortSignal): Promise<Map<number, ShardSums>>;
+  /**
+   * k-means++ step c of a seeding for K codewords (core/init.ts seedOverShards): the codeword is `choice` (the
+   * chosen shard, up to date with codewords 0 … c − 1, finds the vector within itself), and every shard then
+   * applies it to its D². Steps come in order c = 0, 1, …; a seeding comes before the first pass.
+   */
+  seed(k: number, c: number, choice: SeedChoice, signal?: AbortSignal): Promise<SeedStep>;
   close(): Promise<void>;
 }
 

@@ -2,7 +2,7 @@
 // trust their input. This layer wires the kernels to the nearest search (parallel/, wasm/), which core never imports.
 import { accumulateCentroids } from '../core/accumulate-centroids';
 import { EngineError, abortError, throwIfAborted } from '../core/errors';
-import { initKmeansPlusPlus, initRandom } from '../core/init';
+import { initRandom, seedOverShards } from '../core/init';
 import { runLloyd, type LloydContext } from '../core/lloyd';
 import { createRng } from '../core/rng';
 import { splitCodebook } from '../core/split';
@@ -14,12 +14,13 @@ import { NearestKernel } from '../wasm/kernel';
 import { INIT, INIT_METHODS, RUN_DEFAULTS, SEED } from '../vocabulary';
 
 export type {
-  CellMember, ShardAssignment, ShardExecutor, ShardMove, ShardSums,
+  CellMember, SeedChoice, SeedStep, ShardAssignment, ShardExecutor, ShardMove, ShardSums,
   Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook,
 } from '../core/types';
 export { createRng, type Rng } from '../core/rng';
 export { shardLayout, shardStart, shardEnd, MAX_SHARDS, MIN_SHARD_VECTORS, type ShardLayout } from '../core/shard-layout';
 export { ShardState } from './shard-state';
+export { distancesToNewest } from '../core/init';
 export { SearchCrew } from '../parallel/nearest-search';
 export { EngineError, type EngineErrorCode } from '../core/errors';
 export { exactDistance, bruteForceAssign } from '../core/exact-distance';
@@ -92,30 +93,19 @@ export async function train(vectors: Float32Array, dimension: number, options: T
   const totalWeight = sizes.reduce((s, x) => s + x, 0);
   let doneWeight = 0;
 
-  // k-means++ seeding runs here, on the whole set, before the shards take the threads.
-  let start: Float32Array | undefined;
-  if (!split) {
-    const rng = createRng(seed);
-    if (options.initialCodewords) start = options.initialCodewords.slice();
-    else if (options.init === INIT.random) start = initRandom(vectors, d, k, rng);
-    else {
-      const seeding = await NearestSearch.open(vectors, d, { threads: options.threads, signal, maxK: k });
-      try {
-        start = await initKmeansPlusPlus(vectors, d, k, rng, signal, seeding.seeding(k, signal));
-      } catch (err) {
-        if (signal?.aborted && !(err instanceof EngineError)) throw abortError(signal);
-        throw err;
-      } finally {
-        seeding.close();
-      }
-    }
-    throwIfAborted(signal);
-  }
-
   const shards = options.openShards
     ? await options.openShards({ n, d, maxK: k, signal })
     : await openLocalShards(vectors, d, { threads: options.threads, maxK: k, signal });
   try {
+    let start: Float32Array | undefined;
+    if (!split) {
+      const rng = createRng(seed);
+      if (options.initialCodewords) start = options.initialCodewords.slice();
+      else if (options.init === INIT.random) start = initRandom(vectors, d, k, rng);
+      // k-means++ keeps its D² in the shards, wherever they are computed: the same picks either way.
+      else start = await seedOverShards(vectors, d, k, rng, shards, signal);
+      throwIfAborted(signal);
+    }
     const ctx: LloydContext = {
       d, n, shards, epsilon, maxIterations, signal,
       onIteration: options.onIteration,

@@ -1,3 +1,4 @@
+import { seedSteps } from '../core/init';
 import { shardLayout } from '../core/shard-layout';
 import type { ShardExecutor, ShardSums } from '../core/types';
 import { SearchCrew } from '../parallel/nearest-search';
@@ -5,7 +6,7 @@ import { ShardState } from './shard-state';
 
 /**
  * Every shard of a training set in this process, one after another on one crew of threads (each shard's pass
- * spreads over all of them). The single-machine engine trains through this; the job engine's coordinator reaches
+ * and k-means++ step spreads over all of them). The single-machine engine trains through this; the job engine's coordinator reaches
  * the same ShardState on other machines.
  */
 export async function openLocalShards(
@@ -21,8 +22,10 @@ export async function openLocalShards(
     crew.close();
     throw err;
   }
+  const seeding = seedSteps(vectors, d, options.maxK, shards.map((shard) => ({ seeding: (k: number) => shard.seeding(k, options.signal) })));
   return {
     count: layout.count,
+    seed: seeding.seed,
     async assign(codewords, k, signal) {
       const out = [];
       for (const shard of shards) out.push(await shard.assign(codewords, k, signal));

@@ -1,6 +1,7 @@
 import { cellStatistics } from '../core/accumulate-centroids';
 import { shardEnd, shardStart, type ShardLayout } from '../core/shard-layout';
 import type { CellMember, ShardAssignment, ShardMove, ShardSums } from '../core/types';
+import { ShardSeeding } from '../core/init';
 import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
 
 /**
@@ -9,11 +10,17 @@ import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
  * moves (see core/shard-fold.ts), so any process holding the same vectors answers with the same bits.
  */
 export class ShardState {
+  /** k-means++ state while a seeding runs (dropped at the first pass). */
+  private seed?: { k: number; seeding: ShardSeeding };
+
   private constructor(
     readonly shard: number,
     /** Index of the shard's first vector in the whole training set. */
     readonly offset: number,
     private readonly search: NearestSearch,
+    /** The shard's vectors, n × d. */
+    private readonly vectors: Float32Array,
+    private readonly d: number,
   ) {}
 
   /** Shard s of `vectors` (the whole training set, N × d) in `layout`, on the crew's threads. */
@@ -22,11 +29,27 @@ export class ShardState {
   ): Promise<ShardState> {
     const start = shardStart(layout, s);
     const slice = vectors.subarray(start * d, shardEnd(layout, s) * d);
-    return new ShardState(s, start, await NearestSearch.open(slice, d, { crew, maxK, signal }));
+    return new ShardState(s, start, await NearestSearch.open(slice, d, { crew, maxK, signal }), slice, d);
+  }
+
+  /**
+   * The shard's k-means++ state for K codewords (core/init.ts ShardSeeding): its D² updates run on the crew's
+   * threads over shared memory when the shard is large enough to pay for the hand-off, else on this thread.
+   */
+  seeding(k: number, signal?: AbortSignal): ShardSeeding {
+    if (this.seed?.k !== k) {
+      const parallel = this.search.seeding(k, signal);
+      const seeding = parallel
+        ? new ShardSeeding(parallel.state, parallel.update, this.offset, this.d)
+        : ShardSeeding.plain(this.vectors, this.d, k, this.offset);
+      this.seed = { k, seeding };
+    }
+    return this.seed.seeding;
   }
 
   /** A nearest-codeword pass with codewords K × d: the shard's statistics and centroid sums. */
   async assign(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<ShardAssignment> {
+    this.seed = undefined;
     const pass = await this.search.run(codewords, k, signal);
     const stats = cellStatistics(this.search.indices, this.search.distances, k);
     const { sums } = await this.search.partialSums(k, signal);

@@ -1,7 +1,7 @@
 import type { z } from 'zod';
 import {
   bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
-  anomalyImageParams, anomalyListQuery, anomalyListResponse, anomalyMapResponse, anomalyQuery, denoiseQuery, denoiseResponse,
+  anomalyJobBody, denoiseJobBody, modelJobParams, modelJobResponse, modelJobViewParams,
   acceptedResponse,
   acceptInvitationBody,
   acceptInvitationResponse,
@@ -212,20 +212,16 @@ const codebookRoutes: RouteDescription[] = [
     errors: { 429: 'Too many reconstructions being computed; Retry-After says when' },
   },
   {
-    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/anomaly/:imageId', tag: 'Codebooks', summary: 'Per-block anomaly scores of one image under the codebook read as a density, with the blocks flagged at a false-alarm rate', access: 'member', input: { params: anomalyImageParams, query: anomalyQuery },
-    responses: { 200: json(anomalyMapResponse, 'The scores and flagged blocks') },
-    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+    method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/anomaly-jobs', tag: 'Codebooks', summary: 'Score an image\u2019s blocks, or rank a set\u2019s most unusual blocks, under the codebook read as a density (a job)', access: 'member', input: { params: codebookParams, body: anomalyJobBody },
+    responses: { 202: json(modelJobResponse, 'The anomaly job, queued') },
   },
   {
-    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/anomalies', tag: 'Codebooks', summary: 'The most unusual blocks over a set of images, highest score first', access: 'member', input: { params: codebookParams, query: anomalyListQuery },
-    responses: { 200: json(anomalyListResponse, 'The ranked blocks') },
-    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+    method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/denoise-jobs', tag: 'Codebooks', summary: 'Add seeded noise to an image and remove it with the nearest-codeword and posterior-mean estimators (a job)', access: 'member', input: { params: codebookParams, body: denoiseJobBody },
+    responses: { 202: json(modelJobResponse, 'The denoise job, queued') },
   },
-  {
-    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/denoise/:imageId', tag: 'Codebooks', summary: 'Seeded noise added to an image and removed by the nearest-codeword and posterior-mean estimators, with PSNR', access: 'member', input: { params: anomalyImageParams, query: denoiseQuery },
-    responses: { 200: json(denoiseResponse, 'The four images and their PSNR') },
-    errors: { 429: 'Too many computations in progress; Retry-After says when' },
-  },
+  { method: 'get', path: '/api/teams/:teamId/model-jobs/:jobId', tag: 'Codebooks', summary: 'An anomaly or denoise job: state, progress and, once it has succeeded, its result', access: 'member', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job') } },
+  { method: 'post', path: '/api/teams/:teamId/model-jobs/:jobId/cancel', tag: 'Codebooks', summary: 'Cancel an anomaly or denoise job', access: 'member', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job, cancelled or asked to stop') }, errors: { 409: 'The job has already ended' } },
+  { method: 'get', path: '/api/teams/:teamId/model-jobs/:jobId/views/:view', tag: 'Codebooks', summary: 'One image of a finished denoise job: clean, noisy, hard or mean', access: 'member', input: { params: modelJobViewParams }, responses: { 200: { description: 'The PNG', content: { 'image/png': 'binary' } } } },
 ];
 
 const workerRoutes: RouteDescription[] = [

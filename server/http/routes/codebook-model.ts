@@ -1,36 +1,59 @@
 import { Router } from 'express';
-import { anomalyImageParams, anomalyListQuery, anomalyQuery, codebookParams, denoiseQuery } from '../../contracts';
-import { clientGoneSignal } from '../middleware/client-gone';
+import { anomalyJobBody, codebookParams, denoiseJobBody, modelJobParams, modelJobViewParams } from '../../contracts';
 import { validate, validated } from '../middleware/validate';
 import type { RouteDeps } from './deps';
 
-const mapInput = { params: anomalyImageParams, query: anomalyQuery };
-const listInput = { params: codebookParams, query: anomalyListQuery };
-const denoiseInput = { params: anomalyImageParams, query: denoiseQuery };
+const anomalyInput = { params: codebookParams, body: anomalyJobBody };
+const denoiseInput = { params: codebookParams, body: denoiseJobBody };
+const jobInput = { params: modelJobParams };
+const viewInput = { params: modelJobViewParams };
 
 /**
- * Mounted at /api/teams/:teamId/codebooks: the codebook read as a density of its training patches, for any member.
- * GET /:codebookId/anomaly/:imageId?rate&score   every coding block's scores and the flagged blocks of one image
- * GET /:codebookId/anomalies?rate&score&setId&limit   the most unusual blocks over a set, highest first
- * GET /:codebookId/denoise/:imageId?sigma&seed&step   seeded noise added and removed by both estimators, with PSNR
- * Computed per request on a pool thread (429 when too many are); stopped when the client leaves.
+ * Mounted at /api/teams/:teamId/codebooks: the codebook read as a density of its training patches, for any member,
+ * as jobs on the workers (202 with the queued job; follow it at /api/teams/:teamId/model-jobs/:jobId).
+ * POST /:codebookId/anomaly-jobs   { imageId } an image's per-block scores, or { setId?, limit? } a set's most unusual blocks
+ * POST /:codebookId/denoise-jobs   { imageId, sigma, seed?, step? } seeded noise added and removed by both estimators
  */
 export function codebookModelRouter(d: RouteDeps): Router {
   const r = Router({ mergeParams: true });
 
-  r.get('/:codebookId/anomaly/:imageId', d.authenticate, d.requireTeamRole(), validate(mapInput), async (req, res) => {
-    const { params, query } = validated(req, mapInput);
-    res.json(await d.codebookModel.anomalyMap(params.teamId, params.codebookId, params.imageId, query, clientGoneSignal(res)));
+  r.post('/:codebookId/anomaly-jobs', d.authenticate, d.requireTeamRole(), validate(anomalyInput), async (req, res) => {
+    const { params, body } = validated(req, anomalyInput);
+    res.status(202).json(await d.codebookModel.requestAnomaly(params.teamId, req.user!.id, params.codebookId, body));
   });
 
-  r.get('/:codebookId/anomalies', d.authenticate, d.requireTeamRole(), validate(listInput), async (req, res) => {
-    const { params, query } = validated(req, listInput);
-    res.json(await d.codebookModel.anomalyList(params.teamId, params.codebookId, query, clientGoneSignal(res)));
+  r.post('/:codebookId/denoise-jobs', d.authenticate, d.requireTeamRole(), validate(denoiseInput), async (req, res) => {
+    const { params, body } = validated(req, denoiseInput);
+    res.status(202).json(await d.codebookModel.requestDenoise(params.teamId, req.user!.id, params.codebookId, body));
   });
 
-  r.get('/:codebookId/denoise/:imageId', d.authenticate, d.requireTeamRole(), validate(denoiseInput), async (req, res) => {
-    const { params, query } = validated(req, denoiseInput);
-    res.json(await d.codebookModel.denoise(params.teamId, params.codebookId, params.imageId, query, clientGoneSignal(res)));
+  return r;
+}
+
+/**
+ * Mounted at /api/teams/:teamId/model-jobs: an anomaly or denoise job, for any member of its team.
+ * GET /:jobId               state, progress and (once succeeded) the result
+ * POST /:jobId/cancel       stops it (409 once it has ended)
+ * GET /:jobId/views/:view   a denoise job's PNG (clean, noisy, hard, mean)
+ */
+export function modelJobsRouter(d: RouteDeps): Router {
+  const r = Router({ mergeParams: true });
+
+  r.get('/:jobId', d.authenticate, d.requireTeamRole(), validate(jobInput), async (req, res) => {
+    const { params } = validated(req, jobInput);
+    res.json(await d.codebookModel.status(params.teamId, params.jobId));
+  });
+
+  r.post('/:jobId/cancel', d.authenticate, d.requireTeamRole(), validate(jobInput), async (req, res) => {
+    const { params } = validated(req, jobInput);
+    res.json(await d.codebookModel.cancel(params.teamId, req.user!.id, params.jobId));
+  });
+
+  r.get('/:jobId/views/:view', d.authenticate, d.requireTeamRole(), validate(viewInput), async (req, res) => {
+    const { params } = validated(req, viewInput);
+    const png = await d.codebookModel.view(params.teamId, params.jobId, params.view);
+    // A finished job's views never change.
+    res.set({ 'Content-Type': 'image/png', 'Cache-Control': 'private, max-age=86400, immutable' }).send(png);
   });
 
   return r;

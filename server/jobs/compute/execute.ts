@@ -6,10 +6,12 @@ import type { BaselineResultPoint, EvaluateTask, TaskImage } from '../tasks/eval
 import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
 import type { ShardSpread } from './shard-coordinator';
 import type { TrainingSample } from './shard-wire';
-import type { ComputeTask, ImageRef, TrainOutcome, TrainTask } from './tasks';
+import type { AnomalyTaskResult, DenoiseTaskResult, ModelTask, TaskCalibration } from '../tasks/model.task';
+import type { ComputeTask, ImageRef, ModelComputeTask, TrainOutcome, TrainTask } from './tasks';
 
 const trainingVectorsTask = new URL('../tasks/training-vectors.task.ts', import.meta.url).href;
 const evaluateTask = new URL('../tasks/evaluate.task.ts', import.meta.url).href;
+const modelTask = new URL('../tasks/model.task.ts', import.meta.url).href;
 
 // Share of a training task's progress each phase takes; training dominates the time.
 export const LOADED = 0.05;
@@ -100,9 +102,33 @@ async function trainTask(task: TrainTask, ctx: ExecuteContext): Promise<TrainOut
   return { vectorCount, codebooks };
 }
 
+/**
+ * Anomaly scores (the calibration on the training images first, then the images scored) or denoising, on pool
+ * threads; pure float64 over the codebook and the pixels, so the result does not depend on which worker ran it.
+ */
+async function modelComputeTask(task: ModelComputeTask, ctx: ExecuteContext): Promise<AnomalyTaskResult | DenoiseTaskResult> {
+  ctx.progress({ phase: 'loading', fraction: 0, message: `reading ${task.images.length} images` });
+  const images = await localImages(task.images, ctx);
+  const run = <T>(t: ModelTask) => ctx.pool.run<ModelTask, T>(modelTask, t, { signal: ctx.signal });
+  if (task.op === 'denoise') {
+    ctx.progress({ phase: 'denoising', fraction: 0.1 });
+    return run<DenoiseTaskResult>({ op: 'denoise', codebook: task.codebook, cellDistortion: task.cellDistortion, image: images[0], sigma: task.sigma, seed: task.seed, step: task.step });
+  }
+  let calibration: TaskCalibration | null = null;
+  if (task.training > 0) {
+    ctx.progress({ phase: 'calibrating', fraction: 0.1, message: `scoring the training patches of ${task.training} images` });
+    calibration = await run<TaskCalibration>({ op: 'calibrate', codebook: task.codebook, training: images.slice(0, task.training) });
+  }
+  ctx.progress({ phase: 'scoring', fraction: 0.6, message: `scoring ${images.length - task.training} images` });
+  return run<AnomalyTaskResult>({
+    op: 'anomaly', codebook: task.codebook, cellDistortion: task.cellDistortion, calibration, images: images.slice(task.training), rate: task.rate, score: task.score, limit: task.limit,
+  });
+}
+
 /** Runs one compute task where the worker is; the result goes back to the job that asked for it. */
 export async function executeComputeTask(task: ComputeTask, ctx: ExecuteContext): Promise<unknown> {
   if (task.kind === 'train') return trainTask(task, ctx);
+  if (task.kind === 'model') return modelComputeTask(task, ctx);
   const images = await localImages(task.images, ctx);
   const evaluation: EvaluateTask =
     task.kind === 'measure' ? { op: 'measure', codebook: task.codebook, images } : { op: 'baselines', images, color: task.color };

@@ -1,7 +1,7 @@
 import { randomUUID } from 'node:crypto';
 import { Redis } from 'ioredis';
 import type { Logger } from '../../config';
-import { shardLayout, type CellMember, type ShardAssignment, type ShardExecutor, type ShardSums } from '../../engine';
+import { shardLayout, type CellMember, type SeedChoice, type SeedStep, type ShardAssignment, type ShardExecutor, type ShardSums } from '../../engine';
 import { computeKeys } from './keys';
 import { borrowSample } from './sample-cache';
 import { fromWire, toWire } from './tasks';
@@ -39,7 +39,7 @@ export interface ShardSpread {
 
 /**
  * The coordinator's side of data-parallel training. Shards go to the live workers in contiguous groups; each
- * operation is one message per host and one reply per shard. A host whose heartbeat lapses loses its shards to the
+ * operation is one message per host and one reply per shard (a k-means++ step also one pick from the chosen host). A host whose heartbeat lapses loses its shards to the
  * live host with the fewest, which repeats the last pass before answering (ShardMessage.prime); replies are matched
  * by sequence number, so a late answer from a host given up for dead is ignored. Results never depend on which host
  * answered (core/shard-fold.ts).
@@ -101,7 +101,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
       };
 
       /** Gives the shards of hosts that stopped beating to live ones; returns the shards moved. */
-      const reassign = async (pending: Set<number>): Promise<number[]> => {
+      const reassign = async (pending: Set<number>, op: ShardOp['op']): Promise<number[]> => {
         const hosts = new Set([...pending].map((s) => owner[s]));
         const dead: string[] = [];
         for (const h of hosts) if ((await r.exists(keys.worker(h))) === 0) dead.push(h);
@@ -120,7 +120,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
           await grant(to);
           moved.push(s);
         }
-        logger.warn({ sessionId, jobId: input.jobId, dead, moved }, 'shard hosts stopped; their shards go to live workers');
+        logger.warn({ sessionId, jobId: input.jobId, op, dead, moved }, 'shard hosts stopped; their shards go to live workers');
         return moved;
       };
 
@@ -143,11 +143,74 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
           }
           if (Date.now() - checked >= LIVENESS_CHECK_MS) {
             checked = Date.now();
-            const moved = (await reassign(pending)).filter((s) => pending.has(s));
+            const moved = (await reassign(pending, op.op)).filter((s) => pending.has(s));
             if (moved.length > 0) await send(moved, op, m);
           }
         }
         return out;
+      }
+
+      /** The seeding's codewords so far (indices in the whole set), and how many of them each host has been given. */
+      const seedIndices: number[] = [];
+      const hostKnows = new Map<string, number>();
+
+      /**
+       * One k-means++ step: at most one message per host. With a pick, only the chosen shard's host is asked at
+       * first; it answers with the pick at once and goes on to its own shards while the others are sent the index.
+       * A host that may lack earlier codewords (it took over a shard) gets their indices to apply first.
+       */
+      async function seedStep(k: number, c: number, choice: SeedChoice, signal?: AbortSignal): Promise<SeedStep> {
+        const m = ++seq;
+        const pending = new Set(all);
+        const sent = new Set<number>();
+        const totals = new Array<number>(layout.count).fill(0);
+        let index = 'index' in choice ? choice.index : -1;
+        const dispatch = async (shards: number[]) => {
+          const byHost = new Map<string, number[]>();
+          for (const s of shards) byHost.set(owner[s], [...(byHost.get(owner[s]) ?? []), s]);
+          for (const [host, list] of byHost) {
+            const pick = index < 0 && 'shard' in choice && list.includes(choice.shard) ? { shard: choice.shard, residual: choice.residual } : undefined;
+            if (index < 0 && !pick) continue;
+            const op: ShardOp = { op: 'seed', k, c, index: pick ? undefined : index, pick };
+            const known = hostKnows.get(host) ?? 0;
+            const message: ShardMessage = { sessionId, seq: m, shards: list, op, seedPrime: known < c ? seedIndices.slice(0, c) : undefined };
+            await r.rpush(keys.shardInbox(host), toWire(message));
+            hostKnows.set(host, c + 1);
+            for (const s of list) sent.add(s);
+          }
+        };
+        await dispatch('shard' in choice ? all.filter((s) => owner[s] === owner[choice.shard]) : all);
+        let checked = Date.now();
+        while (pending.size > 0) {
+          signal?.throwIfAborted();
+          const popped = await replies.blpop(keys.shardReplies(sessionId), 1);
+          if (popped) {
+            const reply = fromWire<ShardReply>(popped[1]);
+            if (reply.seq !== m) continue;
+            if (reply.error !== undefined) throw new Error(`shard ${reply.shard}: ${reply.error}`);
+            if (reply.pick !== undefined) {
+              if (index < 0) {
+                index = reply.pick;
+                await dispatch(all.filter((s) => !sent.has(s)));
+              }
+              continue;
+            }
+            if (!pending.has(reply.shard)) continue;
+            pending.delete(reply.shard);
+            totals[reply.shard] = reply.value as number;
+          }
+          if (Date.now() - checked >= LIVENESS_CHECK_MS) {
+            checked = Date.now();
+            const moved = (await reassign(pending, 'seed')).filter((s) => pending.has(s));
+            for (const s of moved) {
+              sent.delete(s);
+              hostKnows.delete(owner[s]);
+            }
+            if (moved.length > 0) await dispatch(moved);
+          }
+        }
+        seedIndices[c] = index;
+        return { index, totals };
       }
 
       const onAbort = () => void r.publish(keys.cancelChannel, sessionId).catch(() => undefined);
@@ -156,6 +219,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
 
       return {
         count: layout.count,
+        seed: seedStep,
         async assign(codewords, k, signal) {
           const cw = codewords.slice(0, k * input.sample.dimension);
           const values = await request(all, { op: 'assign', k, codewords: cw }, signal);

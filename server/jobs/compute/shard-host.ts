@@ -1,6 +1,6 @@
 import { Redis } from 'ioredis';
 import type { Logger } from '../../config';
-import { SearchCrew, ShardState, shardLayout, type CellMember, type ShardLayout } from '../../engine';
+import { SearchCrew, ShardState, distancesToNewest, shardLayout, type CellMember, type ShardLayout } from '../../engine';
 import { computeKeys } from './keys';
 import { borrowSample } from './sample-cache';
 import { fromWire, toWire } from './tasks';
@@ -30,6 +30,8 @@ interface HostedSession {
   passOf: Map<number, number>;
   controller: AbortController;
   lastUse: number;
+  /** A k-means++ seeding in progress: its codewords so far (K × d; `known` of them) and the newest one's distances to the earlier. */
+  seed?: { k: number; codewords: Float32Array; known: number; fromNewest: Float64Array };
 }
 
 /** A session nobody has asked anything for this long is given up (its coordinator is gone). */
@@ -109,6 +111,46 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
     return state;
   }
 
+  /** Codeword c of the session's seeding is vector `index`: recorded once, with its distances to the earlier ones. */
+  function learnCodeword(hosted: HostedSession, c: number, index: number): void {
+    const seed = hosted.seed!;
+    const d = hosted.session.sample.dimension;
+    if (c < seed.known) return;
+    if (c > seed.known) throw new Error(`seed step ${c} came before codeword ${seed.known}`);
+    seed.codewords.set(hosted.vectors.subarray(index * d, (index + 1) * d), c * d);
+    distancesToNewest(seed.codewords, c, d, seed.fromNewest);
+    seed.known = c + 1;
+  }
+
+  /**
+   * A k-means++ step (ShardOp 'seed'): the pick first, when this host holds the chosen shard (answered at once, so
+   * the coordinator can send the index to the other hosts meanwhile), then codeword c applied to every listed shard.
+   */
+  async function seedStep(hosted: HostedSession, message: ShardMessage, reply: (r: ShardReply) => Promise<void>): Promise<void> {
+    const op = message.op as Extract<ShardMessage['op'], { op: 'seed' }>;
+    const d = hosted.session.sample.dimension;
+    const signal = hosted.controller.signal;
+    if (!hosted.seed || hosted.seed.k !== op.k || op.c === 0) {
+      hosted.seed = { k: op.k, codewords: new Float32Array(op.k * d), known: 0, fromNewest: new Float64Array(op.k) };
+      logger.info({ sessionId: message.sessionId, jobId: hosted.session.jobId, k: op.k, shards: message.shards }, 'seeding shards');
+    }
+    (message.seedPrime ?? []).forEach((index, c) => learnCodeword(hosted, c, index));
+    const seed = hosted.seed;
+    let index = op.index ?? -1;
+    if (op.pick) {
+      const chosen = (await shardOf(hosted, op.pick.shard, undefined)).seeding(op.k, signal);
+      await chosen.advance(seed.codewords, op.c);
+      index = chosen.pick(op.pick.residual);
+      await reply({ seq: message.seq, shard: op.pick.shard, pick: index });
+    }
+    learnCodeword(hosted, op.c, index);
+    for (const shard of message.shards) {
+      const state = await shardOf(hosted, shard, undefined);
+      const total = await state.seeding(op.k, signal).advance(seed.codewords, op.c + 1, seed.fromNewest);
+      await reply({ seq: message.seq, shard, value: total });
+    }
+  }
+
   async function answer(message: ShardMessage): Promise<void> {
     const { op } = message;
     if (op.op === 'close') {
@@ -126,6 +168,17 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
     }
     hosted.lastUse = Date.now();
     const signal = hosted.controller.signal;
+    if (op.op === 'seed') {
+      try {
+        await seedStep(hosted, message, reply);
+      } catch (err) {
+        if (signal.aborted || stopping) return;
+        for (const shard of message.shards) await reply({ seq: message.seq, shard, error: (err as Error).message });
+      }
+      return;
+    }
+    // Passes come after the seeding: its codewords are no longer needed here.
+    if (op.op === 'assign') hosted.seed = undefined;
     for (const shard of message.shards) {
       try {
         const state = await shardOf(hosted, shard, op.op === 'assign' ? undefined : message.prime);

@@ -40,6 +40,12 @@ export type ShardOp =
   | { op: 'assign'; k: number; codewords: Float32Array }
   | { op: 'members'; cell: number; asks: { shard: number; skip: number; take: number }[] }
   | { op: 'move'; k: number; moves: ShardMove[] }
+  /**
+   * k-means++ step c (engine seedOverShards): codeword c is vector `index`, or the one shard `pick.shard` finds at
+   * `pick.residual` of its D² total (the host answers with the pick first, then applies it); every listed shard then
+   * applies codeword c to its D² and answers with its total.
+   */
+  | { op: 'seed'; k: number; c: number; index?: number; pick?: { shard: number; residual: number } }
   | { op: 'close' };
 
 export interface ShardMessage {
@@ -52,15 +58,20 @@ export interface ShardMessage {
    * one (the host took the shard over, or lost it for a while and got it back).
    */
   prime?: { seq: number; k: number; codewords: Float32Array };
+  /** For a seed step sent to a host that may lack earlier codewords: the indices of codewords 0 … c − 1. */
+  seedPrime?: number[];
   op: ShardOp;
 }
 
-export type ShardValue = ShardAssignment | CellMember[] | ShardSums;
+/** A pass's partial, a cell's members, a move's sums, or (seed) the shard's D² total. */
+export type ShardValue = ShardAssignment | CellMember[] | ShardSums | number;
 
 export interface ShardReply {
   seq: number;
   shard: number;
   value?: ShardValue;
+  /** A seed step's chosen vector (index in the whole set), sent by the chosen shard's host before its totals. */
+  pick?: number;
   /** Why the shard could not be computed (the training then fails with it). */
   error?: string;
 }

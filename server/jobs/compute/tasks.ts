@@ -2,6 +2,7 @@ import type { ColorMode, IterationStat } from '../../engine';
 import type { InitMethod } from '../../engine/vocabulary';
 import type { ImageMeasurement } from '../../engine';
 import type { BaselineResultPoint, TaskCodebook } from '../tasks/evaluate.task';
+import type { AnomalyTaskResult, DenoiseTaskResult } from '../tasks/model.task';
 
 /**
  * The compute tasks a job hands to a worker (the server's own or one that joined over the network). A task names
@@ -69,9 +70,35 @@ export interface BaselinesComputeTask {
   color: ColorMode;
 }
 
-export type ComputeTask = TrainTask | MeasureComputeTask | BaselinesComputeTask;
+/**
+ * The codebook read as a model of its training patches (server/engine/model): an anomaly job's scores, with the
+ * calibration measured on the codebook's training images first, or a denoise job's images.
+ */
+export type ModelComputeTask = {
+  kind: 'model';
+  jobId: number;
+  teamId: number;
+  /** Every image the task reads (what its worker is granted): for anomaly the training images first, then those scored. */
+  images: ImageRef[];
+  codebook: TaskCodebook;
+  /** Summed squared error per cell on the training vectors, as training stored it; null when not stored. */
+  cellDistortion: number[] | null;
+} & (
+  | { op: 'anomaly'; /** How many of `images` are training images (0: no calibration). */ training: number; rate: number; score: 'nll' | 'distance'; limit: number }
+  | { op: 'denoise'; sigma: number; seed: number; step: number }
+);
 
-export type ComputeResult<T extends ComputeTask> = T extends TrainTask ? TrainOutcome : T extends MeasureComputeTask ? ImageMeasurement[] : BaselineResultPoint[];
+export type ComputeTask = TrainTask | MeasureComputeTask | BaselinesComputeTask | ModelComputeTask;
+
+export type ComputeResult<T extends ComputeTask> = T extends TrainTask
+  ? TrainOutcome
+  : T extends MeasureComputeTask
+    ? ImageMeasurement[]
+    : T extends BaselinesComputeTask
+      ? BaselineResultPoint[]
+      : T extends { op: 'anomaly' }
+        ? AnomalyTaskResult
+        : DenoiseTaskResult;
 
 /** Who computed a task: shown on the run page and the workers page. */
 export interface ServedBy {
@@ -81,11 +108,12 @@ export interface ServedBy {
 
 // ---- the wire form: JSON with typed arrays as tagged base64 ----
 
-type Wire = { $typed: 'f32' | 'f64' | 'u32'; b64: string };
+type Wire = { $typed: 'u8' | 'f32' | 'f64' | 'u32'; b64: string };
 /** JSON has no spelling for these; PSNR of an exact reconstruction is +∞ in the engine. */
 type WireNumber = { $number: 'Infinity' | '-Infinity' | 'NaN' };
 
 const TAGS = [
+  ['u8', Uint8Array],
   ['f32', Float32Array],
   ['f64', Float64Array],
   ['u32', Uint32Array],

@@ -46,7 +46,7 @@ export type ModelTask =
 
 export interface AnomalyTaskResult {
   calibrated: boolean;
-  varianceSource: string;
+  varianceSource: VarianceSource;
   trainingBlocks: number;
   thresholds: { nll: number; distance: number } | null;
   flaggedTrainingBlocks: { nll: number; distance: number } | null;
@@ -58,7 +58,7 @@ export interface DenoiseTaskResult {
   width: number;
   height: number;
   sigma: number;
-  varianceSource: string;
+  varianceSource: VarianceSource;
   psnr: { noisy: number | null; hard: number | null; mean: number | null };
   /** PNGs: the image as the codebook sees it, with the noise, and denoised by each estimator. */
   views: { clean: Uint8Array; noisy: Uint8Array; hard: Uint8Array; mean: Uint8Array };

@@ -4,6 +4,8 @@
 import type { ZodType } from 'zod';
 import {
   acceptInvitationBody,
+  anomalyJobBody,
+  denoiseJobBody,
   changePasswordBody,
   createImageSetBody,
   createInvitationBody,
@@ -22,7 +24,7 @@ import {
 } from '../../../server/contracts';
 import { codebookDocumentSchema } from '../../../server/engine';
 import { addMember, type Session } from '../../helpers/api';
-import { codebookDocument, newImage, newInvitation, newInvitationToken, newRun, newSet, newSignupToken, pngTile, runBody, type World } from './world';
+import { codebookDocument, newImage, newInvitation, newInvitationToken, newModelJob, newRun, newSet, newSignupToken, pngTile, runBody, type World } from './world';
 
 /**
  * public: no session needed. session: any signed-in user. member/engineer/admin: the least team role
@@ -398,34 +400,47 @@ export const routes: RouteCase[] = [
     objectScoped: true,
   },
   {
-    name: 'anomaly map',
-    method: 'GET',
-    path: '/api/teams/:teamId/codebooks/:codebookId/anomaly/:imageId',
+    name: 'start an anomaly job',
+    method: 'POST',
+    path: '/api/teams/:teamId/codebooks/:codebookId/anomaly-jobs',
     access: 'member',
-    ok: 200,
-    body: 'none',
-    query: () => 'rate=0.01&score=nll',
-    objectScoped: true,
-  },
-  {
-    name: 'anomaly list',
-    method: 'GET',
-    path: '/api/teams/:teamId/codebooks/:codebookId/anomalies',
-    access: 'member',
-    ok: 200,
-    body: 'none',
+    ok: 202,
+    body: 'json',
     // The world's codebook is imported, so it has no held-out images of its own: the set is named.
-    query: (w) => `setId=${w.setId}&limit=5`,
+    valid: (w) => ({ setId: w.setId, rate: 0.01, score: 'nll', limit: 5 }),
+    schema: anomalyJobBody,
     objectScoped: true,
   },
   {
-    name: 'denoise',
-    method: 'GET',
-    path: '/api/teams/:teamId/codebooks/:codebookId/denoise/:imageId',
+    name: 'start a denoise job',
+    method: 'POST',
+    path: '/api/teams/:teamId/codebooks/:codebookId/denoise-jobs',
+    access: 'member',
+    ok: 202,
+    body: 'json',
+    valid: (w) => ({ imageId: w.imageIds[0], sigma: 10, seed: 2, step: 4 }),
+    schema: denoiseJobBody,
+    objectScoped: true,
+  },
+  { name: 'read a model job', method: 'GET', path: '/api/teams/:teamId/model-jobs/:jobId', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  {
+    name: 'cancel a model job',
+    method: 'POST',
+    path: '/api/teams/:teamId/model-jobs/:jobId/cancel',
     access: 'member',
     ok: 200,
     body: 'none',
-    query: () => 'sigma=10&seed=2&step=4',
+    fresh: async (w) => ({ jobId: await newModelJob(w) }),
+    objectScoped: true,
+  },
+  {
+    name: 'a denoise job view',
+    method: 'GET',
+    path: '/api/teams/:teamId/model-jobs/:jobId/views/:view',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    fresh: async (w) => ({ jobId: w.denoisedJobId }),
     objectScoped: true,
   },
   {
@@ -468,6 +483,8 @@ export function defaultParams(w: World): Record<string, number | string> {
     imageId: w.imageIds[0],
     runId: w.runIds[0],
     codebookId: w.codebookId,
+    jobId: w.modelJobId,
+    view: 'noisy',
     userId: w.spare.user.id,
     invitationId: 0,
     token: w.invitationToken,

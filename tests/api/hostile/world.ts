@@ -34,6 +34,10 @@ export interface World {
   /** Two queued runs (the job runner is never started here, so they stay queued). */
   runIds: [number, number];
   codebookId: number;
+  /** A queued anomaly job of the team (the runner never starts, so it stays queued). */
+  modelJobId: number;
+  /** A denoise job of the team that has finished, with its views stored. */
+  denoisedJobId: number;
   /** A pending invitation's raw token, as its e-mail carries it. */
   invitationToken: string;
   /** Ids of the outsider's own team and set, for the "own team id, foreign object id" probes. */
@@ -88,6 +92,29 @@ export async function newImage(w: Pick<World, 't' | 'teamId' | 'engineer'>, setI
     .attach('files', await pngTile(++imageSeed), `scratch-${imageSeed}.png`);
   if (res.status !== 201 || res.body.images.length !== 1) throw new Error(`upload failed: ${res.status} ${JSON.stringify(res.body)}`);
   return res.body.images[0].id as number;
+}
+
+/** A new queued anomaly job: a ranked list over the world's set with the world's (imported) codebook. */
+export async function newModelJob(w: Pick<World, 't' | 'teamId' | 'engineer' | 'setId' | 'codebookId'>): Promise<number> {
+  const res = await request(w.t.app).post(`/api/teams/${w.teamId}/codebooks/${w.codebookId}/anomaly-jobs`).set(bearer(w.engineer)).send({ setId: w.setId, limit: 5 });
+  if (res.status !== 202) throw new Error(`anomaly job failed: ${res.status} ${JSON.stringify(res.body)}`);
+  return res.body.job.id as number;
+}
+
+/**
+ * A denoise job as the runner leaves it when it has succeeded: its row, result and views (the world never starts the
+ * runner; the jobs' own tests run them for real, tests/api/codebook-model.test.ts).
+ */
+async function finishedDenoiseJob(w: Pick<World, 't' | 'teamId' | 'engineer' | 'codebookId'>, imageId: number): Promise<number> {
+  const knex = w.t.db.knex;
+  const payload = { imageId, sigma: 10, seed: 1, step: 4 };
+  const [jobId] = await knex('jobs').insert({ team_id: w.teamId, codebook_id: w.codebookId, kind: 'denoise', state: 'succeeded', payload: JSON.stringify(payload), created_by: w.engineer.user.id });
+  const png = await pngTile(7);
+  const views = `/api/teams/${w.teamId}/model-jobs/${jobId}/views/`;
+  const result = { type: 'denoise', codebookId: w.codebookId, width: 48, height: 32, ...payload, varianceSource: 'stored-distortion', psnr: { noisy: 28, hard: 27, mean: 29 }, views: { clean: `${views}clean`, noisy: `${views}noisy`, hard: `${views}hard`, mean: `${views}mean` }, caution: '' };
+  await knex('model_results').insert({ job_id: jobId, result: JSON.stringify(result) });
+  for (const view of ['clean', 'noisy', 'hard', 'mean']) await knex('model_result_views').insert({ job_id: jobId, view, png });
+  return jobId as number;
 }
 
 export function runBody(w: Pick<World, 'setId'>, name = `Run ${++setCounter}`) {
@@ -150,6 +177,8 @@ export async function buildWorld(env: Record<string, string> = {}): Promise<Worl
   const imported = await request(t.app).post(`/api/teams/${teamId}/codebooks/import`).set(bearer(engineer)).send(codebookDocument());
   if (imported.status !== 201) throw new Error(`import failed: ${imported.status} ${JSON.stringify(imported.body)}`);
   const codebookId = imported.body.codebook.id as number;
+  const modelJobId = await newModelJob({ t, teamId, engineer, setId, codebookId });
+  const denoisedJobId = await finishedDenoiseJob({ t, teamId, engineer, codebookId }, imageIds[0]);
 
   const invitationToken = await newInvitationToken({ t, teamId, admin });
 
@@ -188,6 +217,8 @@ export async function buildWorld(env: Record<string, string> = {}): Promise<Worl
     imageIds,
     runIds,
     codebookId,
+    modelJobId,
+    denoisedJobId,
     invitationToken,
     outsiderTeamId: outsider.teamId,
     expiredToken,

@@ -1,9 +1,7 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { createRng, shutdownEngineWorkers, threadBudget } from '../../../server/engine/training/index';
-import { NearestSearch } from '../../../server/engine/parallel/nearest-search';
-import { exactDistance } from '../../../server/engine/core/exact-distance';
+import { createRng, shardLayout, shutdownEngineWorkers, threadBudget, train } from '../../../server/engine/training/index';
 import { initKmeansPlusPlus, initRandom } from '../../../server/engine/core/init';
-import type { Rng } from '../../../server/engine/core/rng';
+import { referenceKmeansPlusPlus } from '../../helpers/reference-kmeans-plus-plus';
 
 const rowsOf = (a: Float32Array, d: number) =>
   Array.from({ length: a.length / d }, (_, v) => Array.from(a.subarray(v * d, (v + 1) * d)).join(','));
@@ -51,34 +49,29 @@ describe('initKmeansPlusPlus', () => {
     expect(new Set(rowsOf(c, 2)).size).toBe(40);
   });
 
-  it('picks the same on the worker threads as on the calling thread, and as the unpruned rule', async () => {
+  it('picks the same with its D² on worker threads of several shards as the plain rule with the shard-order draw', async () => {
+    // Two shards (N ≥ 2 × 16,384), each large enough (n·d ≥ 2²⁰) that its D² updates go to the worker threads.
     const d = 64;
-    const k = 96;
-    const vectors = clustered(9, 24_000, d, 20);
-    const search = await NearestSearch.open(vectors, d, { threads: threadBudget.total, maxK: k });
-    try {
-      // Large enough that each step goes to the workers (they share the state, not copies of it).
-      const parallel = search.seeding(k)!;
-      expect(search.threads).toBe(threadBudget.total);
-      expect(parallel.state.minDist.buffer).toBeInstanceOf(SharedArrayBuffer);
-      // A step handed to the workers is awaited; one on this thread returns at once.
-      const step = parallel.update(0);
-      expect(step).toBeInstanceOf(Promise);
-      await step;
-      const onWorkers = await initKmeansPlusPlus(vectors, d, k, createRng(31), undefined, parallel);
-      const literal = literalKmeansPlusPlus(vectors, d, k, createRng(31));
-      expect(Buffer.from(onWorkers.buffer).equals(Buffer.from(literal.buffer))).toBe(true);
-    } finally {
-      search.close();
+    const k = 48;
+    const vectors = clustered(9, 2 * 16_384 + 700, d, 20);
+    expect(shardLayout(vectors.length / d).count).toBe(2);
+    const reference = referenceKmeansPlusPlus(vectors, d, k, createRng(31));
+    for (const threads of [1, threadBudget.total]) {
+      // maxIterations 0: the codebook is the seeding itself.
+      const result = await train(vectors, d, { k, init: 'kmeans++', seed: 31, maxIterations: 0, threads });
+      expect(Buffer.from(result.codebooks[0].codewords.buffer).equals(Buffer.from(reference.buffer))).toBe(true);
     }
+    // The same rule on the calling thread, without an executor.
+    const plain = await initKmeansPlusPlus(vectors, d, k, createRng(31));
+    expect(Buffer.from(plain.buffer).equals(Buffer.from(reference.buffer))).toBe(true);
   });
 
-  it('picks exactly what the unpruned D² rule picks, on clustered data and on data with repeats', async () => {
-    for (const [seed, d, k] of [[1, 16, 64], [2, 3, 200], [3, 48, 32]] as const) {
-      const vectors = clustered(seed, 3000, d, 12);
+  it('picks exactly what the unpruned D² rule picks, on clustered data and on data with repeats, in one shard and in three', async () => {
+    for (const [seed, n, d, k] of [[1, 3000, 16, 64], [2, 3000, 3, 200], [3, 3000, 48, 32], [4, 3 * 16_384 + 5, 3, 200]] as const) {
+      const vectors = clustered(seed, n, d, 12);
       const pruned = await initKmeansPlusPlus(vectors, d, k, createRng(seed + 10));
-      const literal = literalKmeansPlusPlus(vectors, d, k, createRng(seed + 10));
-      expect(Buffer.from(pruned.buffer).equals(Buffer.from(literal.buffer))).toBe(true);
+      const reference = referenceKmeansPlusPlus(vectors, d, k, createRng(seed + 10));
+      expect(Buffer.from(pruned.buffer).equals(Buffer.from(reference.buffer))).toBe(true);
     }
   });
 });
@@ -91,34 +84,6 @@ function clustered(seed: number, n: number, d: number, blobs: number): Float32Ar
   for (let v = 0; v < n; v++) {
     const c = centres[rng.nextInt(blobs)];
     for (let i = 0; i < d; i++) out[v * d + i] = Math.round(c[i] + (rng.next() + rng.next() + rng.next() - 1.5) * 12);
-  }
-  return out;
-}
-
-/**
- * The seeding exactly as the paper states it (Arthur & Vassilvitskii 2007, §2.2): every distance to the newest
- * centre computed, the next one drawn by D² weight, with the same random stream and summation order.
- */
-function literalKmeansPlusPlus(vectors: Float32Array, d: number, k: number, rng: Rng): Float32Array {
-  const n = vectors.length / d;
-  const out = new Float32Array(k * d);
-  const minDist = new Float64Array(n).fill(Infinity);
-  let pick = rng.nextInt(n);
-  for (let c = 0; c < k; c++) {
-    if (c > 0) {
-      let total = 0;
-      for (let v = 0; v < n; v++) total += minDist[v];
-      const target = rng.next() * total;
-      let acc = 0;
-      for (let v = 0; v < n; v++) {
-        if (minDist[v] === 0) continue;
-        acc += minDist[v];
-        pick = v;
-        if (acc > target) break;
-      }
-    }
-    out.set(vectors.subarray(pick * d, (pick + 1) * d), c * d);
-    for (let v = 0; v < n; v++) minDist[v] = Math.min(minDist[v], exactDistance(vectors, v * d, out, c * d, d));
   }
   return out;
 }

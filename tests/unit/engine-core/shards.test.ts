@@ -4,6 +4,7 @@ import {
   SearchCrew, ShardState, bruteForceAssign, createRng, shardEnd, shardLayout, shardStart, shutdownEngineWorkers, train,
   type ShardExecutor, type ShardSums,
 } from '../../../server/engine/training/index';
+import { referenceKmeansPlusPlus } from '../../helpers/reference-kmeans-plus-plus';
 
 afterAll(() => shutdownEngineWorkers());
 
@@ -35,13 +36,14 @@ function startCodebook(vectors: Float32Array): Float32Array {
  * holding shard 0 is lost and its shards are opened again on another one, which first repeats the last pass there
  * (as the job engine's coordinator does). Returns an executor for train's openShards.
  */
-function spreadShards(vectors: Float32Array, machines: number, loseAfter: number): ShardExecutor {
+function spreadShards(vectors: Float32Array, machines: number, loseAfter: number, loseAtSeedStep = -1): ShardExecutor {
   const layout = shardLayout(vectors.length / D);
   const owner = Array.from({ length: layout.count }, (_, s) => s % machines);
   const states = new Map<number, ShardState>();
   const crews = new Map<number, SearchCrew>();
   let last: { codewords: Float32Array; k: number } | undefined;
   let passes = 0;
+  const seedCodewords = new Float32Array(64 * D);
   const open = async (s: number, maxK: number) => {
     let state = states.get(s);
     if (state) return state;
@@ -67,6 +69,21 @@ function spreadShards(vectors: Float32Array, machines: number, loseAfter: number
   };
   return {
     count: layout.count,
+    // A shard opened again applies every codeword chosen so far (ShardSeeding.advance), as a host taking it over does.
+    async seed(k, c, choice) {
+      if (c === loseAtSeedStep) lose(owner[0]);
+      let index: number;
+      if ('index' in choice) index = choice.index;
+      else {
+        const chosen = (await open(choice.shard, 64)).seeding(k);
+        await chosen.advance(seedCodewords, c);
+        index = chosen.pick(choice.residual);
+      }
+      seedCodewords.set(vectors.subarray(index * D, (index + 1) * D), c * D);
+      const totals = [];
+      for (let s = 0; s < layout.count; s++) totals.push(await (await open(s, 64)).seeding(k).advance(seedCodewords, c + 1));
+      return { index, totals };
+    },
     async assign(codewords, k) {
       if (++passes === loseAfter) lose(owner[0]);
       const out = [];
@@ -156,6 +173,18 @@ describe('training over shards', () => {
     expect(bytes(two)).toBe(bytes(one));
     expect(bytes(spread)).toBe(bytes(one));
     expect(spread.codebooks[0].trace.map((t) => t.distortion)).toEqual(trace.map((t) => t.distortion));
+  });
+
+  it('seeds by k-means++ bit for bit alike on one thread, two threads and machines lost mid-seeding, as the plain rule with the shard-order draw', async () => {
+    const seeding = { k: 64, init: 'kmeans++' as const, seed: 5, maxIterations: 0 };
+    const reference = referenceKmeansPlusPlus(vectors, D, 64, createRng(5));
+    const bytes = (a: Float32Array) => Buffer.from(a.buffer, a.byteOffset, a.byteLength).toString('hex');
+    const one = await train(vectors, D, { ...seeding, threads: 1 });
+    const two = await train(vectors, D, { ...seeding, threads: 2 });
+    const spread = await train(vectors, D, { ...seeding, openShards: async () => spreadShards(vectors, 2, -1, 20) });
+    expect(bytes(one.codebooks[0].codewords)).toBe(bytes(reference));
+    expect(bytes(two.codebooks[0].codewords)).toBe(bytes(reference));
+    expect(bytes(spread.codebooks[0].codewords)).toBe(bytes(reference));
   });
 
   it('equals the plainly written Lloyd iteration with the shard rule for the sums', async () => {

@@ -19,4 +19,20 @@ describe('checkedInput', () => {
   it('refuses a train job without a run', () => {
     expect(() => checkedInput(job({ kind: 'train' }))).toThrow(/train job's input is malformed.*runId/);
   });
+
+  it('passes an anomaly map, an anomaly list and a denoise job of a codebook', () => {
+    const map = { target: 'map', imageIds: [4], rate: 0.001, score: 'nll', limit: 0 };
+    expect(checkedInput(job({ kind: 'anomaly', codebookId: 9, payload: map }))).toEqual({ runId: null, codebookId: 9, payload: map });
+    const list = { target: 'list', imageIds: [4, 5, 6], rate: 0.01, score: 'distance', limit: 24 };
+    expect(checkedInput(job({ kind: 'anomaly', codebookId: 9, payload: list }))).toEqual({ runId: null, codebookId: 9, payload: list });
+    const denoise = { imageId: 4, sigma: 20, seed: 5, step: 1 };
+    expect(checkedInput(job({ kind: 'denoise', codebookId: 9, payload: denoise }))).toEqual({ runId: null, codebookId: 9, payload: denoise });
+  });
+
+  it('refuses an anomaly job without images or with a rate out of range, and a denoise job without σ or a codebook', () => {
+    expect(() => checkedInput(job({ kind: 'anomaly', codebookId: 9, payload: { target: 'map', imageIds: [], rate: 0.001, score: 'nll', limit: 0 } }))).toThrow(/anomaly job's input is malformed.*imageIds/);
+    expect(() => checkedInput(job({ kind: 'anomaly', codebookId: 9, payload: { target: 'map', imageIds: [4], rate: 0.9, score: 'nll', limit: 0 } }))).toThrow(/anomaly job's input is malformed.*rate/);
+    expect(() => checkedInput(job({ kind: 'denoise', codebookId: 9, payload: { imageId: 4, seed: 5, step: 1 } }))).toThrow(/denoise job's input is malformed.*sigma/);
+    expect(() => checkedInput(job({ kind: 'denoise', payload: { imageId: 4, sigma: 20, seed: 5, step: 1 } }))).toThrow(/denoise job's input is malformed.*codebookId/);
+  });
 });

@@ -10,8 +10,5 @@ export const codebookKeys = {
   evaluations: (teamId: TeamId, codebookId: number) => [...codebookKeys.codebook(teamId, codebookId), 'evaluations'] as const,
   reconstructionInfo: (teamId: TeamId, codebookId: number, imageId: number) =>
     [...codebookKeys.codebook(teamId, codebookId), 'reconstruction', imageId, 'info'] as const,
-  anomalyMap: (teamId: TeamId, codebookId: number, imageId: number, rate: number) => [...codebookKeys.codebook(teamId, codebookId), 'anomaly', imageId, rate] as const,
-  anomalyList: (teamId: TeamId, codebookId: number, rate: number, limit: number) => [...codebookKeys.codebook(teamId, codebookId), 'anomalies', rate, limit] as const,
-  denoise: (teamId: TeamId, codebookId: number, imageId: number, sigma: number, seed: number, step: number) =>
-    [...codebookKeys.codebook(teamId, codebookId), 'denoise', imageId, sigma, seed, step] as const,
+  modelJob: (teamId: TeamId, jobId: number) => [...codebookKeys.team(teamId), 'model-job', jobId] as const,
 };

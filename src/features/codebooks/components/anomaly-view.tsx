@@ -1,10 +1,10 @@
 import { useEffect, useRef, useState } from 'react';
 import { ANOMALY_RATE, type AnomalyMap } from '../../../../server/contracts';
 import { SelectField } from '../../../components/ui/field';
-import { ErrorState, LoadingState } from '../../../components/ui/states';
-import { messageOf } from '../../../lib/api-client';
-import { useAnomalyList, useAnomalyMap } from '../api/get-anomalies';
 import { reconstructionImageUrl } from '../api/get-reconstruction';
+import { startAnomalyJob } from '../api/start-model-job';
+import { useModelJob } from '../hooks/use-model-job';
+import { ModelJobStatus } from './model-job-status';
 
 type Image = { imageId: number; width: number; height: number; fileName: string };
 
@@ -89,14 +89,17 @@ function BlockTile({ url, image, block }: { url: string; image: { width: number;
 
 /**
  * Anomaly scores of held-out images: the heat map of one image at a false-alarm rate measured on the codebook's
- * training patches, and the most unusual blocks over the run's held-out images.
+ * training patches, and the most unusual blocks over the run's held-out images. Each is a job on the workers, started
+ * when its image or rate is chosen and followed until its result is stored.
  */
 export function AnomalyView({ teamId, codebookId, images, trained }: { teamId: number; codebookId: number; images: Image[]; trained: boolean }) {
   const [imageId, setImageId] = useState(images[0].imageId);
   const [rate, setRate] = useState<number>(ANOMALY_RATE.default);
   const image = images.find((i) => i.imageId === imageId) ?? images[0];
-  const map = useAnomalyMap(teamId, codebookId, image.imageId, rate);
-  const list = useAnomalyList(teamId, codebookId, rate, LIST_LIMIT, trained);
+  const mapJob = useModelJob(teamId, `anomaly-map:${codebookId}:${image.imageId}:${rate}`, () => startAnomalyJob(teamId, codebookId, { imageId: image.imageId, rate }));
+  const listJob = useModelJob(teamId, `anomaly-list:${codebookId}:${rate}`, () => startAnomalyJob(teamId, codebookId, { rate, limit: LIST_LIMIT }), trained);
+  const mapData = mapJob.view?.result?.type === 'anomaly-map' ? mapJob.view.result : undefined;
+  const listData = listJob.view?.result?.type === 'anomaly-list' ? listJob.view.result : undefined;
   const sizes = new Map(images.map((i) => [i.imageId, i]));
 
   return (
@@ -117,23 +120,22 @@ export function AnomalyView({ teamId, codebookId, images, trained }: { teamId: n
           ))}
         </SelectField>
       </div>
-      {map.isPending && <LoadingState label="Scoring the blocks…" />}
-      {map.isError && <ErrorState message={messageOf(map.error)} onRetry={() => void map.refetch()} />}
-      {map.data && (
+      <ModelJobStatus job={mapJob} label="Scoring the blocks" />
+      {mapData && (
         <div className="flex flex-col gap-3 lg:flex-row">
-          <HeatMap teamId={teamId} codebookId={codebookId} image={image} map={map.data} />
+          <HeatMap teamId={teamId} codebookId={codebookId} image={image} map={mapData} />
           <dl className="grid h-fit grid-cols-[auto_1fr] gap-x-3 gap-y-1 text-sm" aria-label="Anomaly figures">
             <dt className="text-ink-600">Flagged</dt>
             <dd className="num" data-testid="anomaly-flagged">
-              {map.data.flagged.length} of {map.data.nll.length} blocks
+              {mapData.flagged.length} of {mapData.nll.length} blocks
             </dd>
-            {map.data.thresholds && map.data.flaggedTrainingBlocks ? (
+            {mapData.thresholds && mapData.flaggedTrainingBlocks ? (
               <>
                 <dt className="text-ink-600">Threshold</dt>
-                <dd className="num">{map.data.thresholds.nll.toFixed(1)} nats a block</dd>
+                <dd className="num">{mapData.thresholds.nll.toFixed(1)} nats a block</dd>
                 <dt className="text-ink-600">Training blocks above it</dt>
                 <dd className="num">
-                  {map.data.flaggedTrainingBlocks.nll.toLocaleString('en-GB')} of {map.data.trainingBlocks.toLocaleString('en-GB')}
+                  {mapData.flaggedTrainingBlocks.nll.toLocaleString('en-GB')} of {mapData.trainingBlocks.toLocaleString('en-GB')}
                 </dd>
               </>
             ) : (
@@ -145,11 +147,10 @@ export function AnomalyView({ teamId, codebookId, images, trained }: { teamId: n
       {trained && (
         <div className="flex flex-col gap-2">
           <h3 className="text-sm font-semibold text-ink-900">Most unusual blocks of the held-out images</h3>
-          {list.isPending && <LoadingState label="Ranking the blocks…" />}
-          {list.isError && <ErrorState message={messageOf(list.error)} onRetry={() => void list.refetch()} />}
-          {list.data && (
+          <ModelJobStatus job={listJob} label="Ranking the blocks" />
+          {listData && (
             <ol className="flex flex-wrap gap-3" data-testid="anomaly-list">
-              {list.data.blocks.map((b, rank) => {
+              {listData.blocks.map((b, rank) => {
                 const source = sizes.get(b.imageId) ?? { width: b.x + b.width, height: b.y + b.height };
                 return (
                   <li key={`${b.imageId}:${b.x}:${b.y}`} className="flex w-32 flex-col gap-1 text-xs">

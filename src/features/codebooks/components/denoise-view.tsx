@@ -1,10 +1,10 @@
 import { useState } from 'react';
 import { Button } from '../../../components/ui/button';
 import { SelectField } from '../../../components/ui/field';
-import { ErrorState, LoadingState } from '../../../components/ui/states';
-import { messageOf } from '../../../lib/api-client';
-import { useDenoise } from '../api/get-denoise';
+import { startDenoiseJob } from '../api/start-model-job';
 import { formatDb } from '../format';
+import { useModelJob } from '../hooks/use-model-job';
+import { ModelJobStatus } from './model-job-status';
 
 type Image = { imageId: number; width: number; height: number; fileName: string };
 
@@ -14,7 +14,8 @@ const PANE_WIDTH = 240;
 
 /**
  * Denoising of a held-out image with seeded synthetic noise: noisy, nearest codeword (hard) and posterior mean side by
- * side, each with its PSNR against the image as the codebook sees it.
+ * side, each with its PSNR against the image as the codebook sees it. A job on the workers, started when the image,
+ * σ, step or seed is chosen and followed until its images are stored.
  */
 export function DenoiseView({ teamId, codebookId, images }: { teamId: number; codebookId: number; images: Image[] }) {
   const [imageId, setImageId] = useState(images[0].imageId);
@@ -22,7 +23,8 @@ export function DenoiseView({ teamId, codebookId, images }: { teamId: number; co
   const [step, setStep] = useState(2);
   const [seed, setSeed] = useState(1);
   const image = images.find((i) => i.imageId === imageId) ?? images[0];
-  const result = useDenoise(teamId, codebookId, image.imageId, sigma, seed, step);
+  const job = useModelJob(teamId, `denoise:${codebookId}:${image.imageId}:${sigma}:${seed}:${step}`, () => startDenoiseJob(teamId, codebookId, { imageId: image.imageId, sigma, seed, step }));
+  const data = job.view?.result?.type === 'denoise' ? job.view.result : undefined;
   const scale = Math.min(PANE_WIDTH / image.width, 4);
 
   return (
@@ -54,21 +56,20 @@ export function DenoiseView({ teamId, codebookId, images }: { teamId: number; co
         </Button>
         <span className="num pb-2 text-sm text-ink-600">seed {seed}</span>
       </div>
-      {result.isPending && <LoadingState label="Adding noise and denoising…" />}
-      {result.isError && <ErrorState message={messageOf(result.error)} onRetry={() => void result.refetch()} />}
-      {result.data && (
+      <ModelJobStatus job={job} label="Adding noise and denoising" />
+      {data && (
         <div className="grid gap-3 sm:grid-cols-2 xl:grid-cols-4" data-testid="denoise-views">
           {(
             [
               ['clean', 'Clean', undefined],
-              ['noisy', `Noisy (σ ${sigma})`, result.data.psnr.noisy],
-              ['hard', 'Nearest codeword', result.data.psnr.hard],
-              ['mean', 'Posterior mean', result.data.psnr.mean],
+              ['noisy', `Noisy (σ ${sigma})`, data.psnr.noisy],
+              ['hard', 'Nearest codeword', data.psnr.hard],
+              ['mean', 'Posterior mean', data.psnr.mean],
             ] as const
           ).map(([view, label, psnr]) => (
             <figure key={view} className="flex min-w-0 flex-col gap-1.5">
               <img
-                src={result.data.views[view]}
+                src={data.views[view]}
                 alt={`${label} of ${image.fileName}`}
                 width={Math.round(image.width * scale)}
                 height={Math.round(image.height * scale)}

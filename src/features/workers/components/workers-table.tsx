@@ -8,6 +8,7 @@ const taskLabels: Record<TaskKind, string> = {
   train: 'Training',
   measure: 'Measuring held-out images',
   baselines: 'JPEG baselines',
+  model: 'Anomaly map or denoising',
 };
 
 /** A worker's current task: its kind and job; a job of another team is not named (the API gives no id for it). */

@@ -1,5 +1,6 @@
 import { addRow } from '../core/accumulate-centroids';
 import { exactDistance } from '../core/exact-distance';
+import { seedSteps, ShardSeeding } from '../core/init';
 import type { CellMember, ShardAssignment, ShardExecutor, ShardMove, ShardSums } from '../core/types';
 
 /**
@@ -24,10 +25,23 @@ export function exactShard(vectors: Float32Array, d: number): ShardExecutor & { 
     return { counts, sums };
   };
 
+  // k-means++ over this one shard (a node's 2-means starts from its parent's split, so this serves only callers
+  // that seed): the textbook draw over the node's vectors in index order, on this thread.
+  // Built at the first step, for that seeding's K.
+  let steps: { k: number; seed: ShardExecutor['seed'] } | undefined;
+  const seed: ShardExecutor['seed'] = (k, c, choice, signal) => {
+    if (steps?.k !== k) {
+      const seeding = ShardSeeding.plain(vectors, d, k, 0);
+      steps = { k, ...seedSteps(vectors, d, k, [{ seeding: () => seeding }]) };
+    }
+    return steps.seed(k, c, choice, signal);
+  };
+
   return {
     count: 1,
     indices,
     distances,
+    seed,
     async assign(codewords: Float32Array, k: number): Promise<ShardAssignment[]> {
       const cellDistortion = new Float64Array(k);
       let total = 0;

@@ -6,6 +6,9 @@ import {
   createApiSchemasService,
   createCodebooksService,
   createComparisonService,
+  createReleasesService,
+  createReleaseReportService,
+  createActivityService,
   createEvaluationService,
   createHealthService,
   createImageRecordsService,
@@ -158,6 +161,9 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   // Anomaly scores and denoising share the reconstruction views' pool and bounds: both are per-request views of a codebook.
   const codebookModel = createCodebookModelService({ db, store: contentStore, runTask: modelTaskRunner(reconstructionPool), ...config.reconstructions });
   const comparison = createComparisonService({ db });
+  const releases = createReleasesService({ db, now });
+  const releaseReport = createReleaseReportService({ db, store: contentStore, releases });
+  const activity = createActivityService({ db });
   // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.
   const workerRegistry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: computeKeyPrefix, currentToken: () => workerToken(config, { create: true }) });
   const workers = createWorkersService({
@@ -181,7 +187,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     jobs: { store: jobStore, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
     mail,
-    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel },
+    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel, releases, releaseReport, activity },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();

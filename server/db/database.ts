@@ -15,6 +15,7 @@ import { membershipsRepository } from './repositories/memberships';
 import { outboxRepository } from './repositories/outbox';
 import { passwordResetsRepository } from './repositories/password-resets';
 import { reconstructionsRepository } from './repositories/reconstructions';
+import { releasesRepository } from './repositories/releases';
 import { runsRepository } from './repositories/runs';
 import { sessionsRepository } from './repositories/sessions';
 import { signupLinksRepository } from './repositories/signup-links';
@@ -47,6 +48,7 @@ function buildRepositories(db: Executor, afterCommit: (callback: () => void) => 
     evaluations: translated(evaluationsRepository(db)),
     baselines: translated(baselinesRepository(db)),
     reconstructions: translated(reconstructionsRepository(db)),
+    releases: translated(releasesRepository(db)),
   };
 }
 

@@ -27,6 +27,10 @@ describe('the route table', () => {
       teamCodebooks: href.teamCodebooks(3),
       teamCompare: href.teamCompare(3),
       teamApiReference: href.teamApiReference(3),
+      teamReleases: href.teamReleases(3),
+      teamRelease: href.teamRelease(3, 9),
+      teamReleaseReport: href.teamReleaseReport(3, 9),
+      teamActivity: href.teamActivity(3, { actor: 4, action: 'release.approved' }),
     };
     for (const key of Object.keys(paths) as Array<keyof typeof paths>) {
       expect(matchPath({ path: paths[key], end: true }, built[key]), key).not.toBeNull();

@@ -158,6 +158,39 @@ describe('a released codebook is frozen', () => {
   });
 });
 
+async function waitForJob(jobId: number): Promise<{ state: string; error: string | null }> {
+  for (;;) {
+    const job = await t.db.knex('jobs').where({ id: jobId }).first();
+    if (['succeeded', 'failed', 'cancelled'].includes(job.state)) return job;
+    await new Promise((r) => setTimeout(r, 200));
+  }
+}
+
+describe('images a release was measured on', () => {
+  it('refuses deleting an image or its set that an imported release was evaluated on with 409', async () => {
+    // An imported codebook measured on a set no run uses: only the release holds those images.
+    const exported = await request(t.app).get(url(`/codebooks/${codebooks[1].id}/export`)).set(bearer(team.engineer));
+    const imported = await request(t.app).post(url('/codebooks/import?name=Dock%20copy')).set(bearer(team.engineer)).send(JSON.parse(exported.text));
+    expect(imported.status).toBe(201);
+    const setId = await createSetWith(t.app, team.engineer, 'quay held-out', await seabedPngs(33, 2, 64, 48));
+    const queued = await request(t.app).post(url(`/codebooks/${imported.body.codebook.id}/evaluate`)).set(bearer(team.engineer)).send({ heldOutSetId: setId });
+    expect(queued.status).toBe(202);
+    expect((await waitForJob(queued.body.job.id)).state).toBe('succeeded');
+    const proposed = await propose(team.engineer, imported.body.codebook.id, { name: 'quay-copy', version: '1', note: 'Imported copy' });
+    expect(proposed.status).toBe(201);
+    expect((await approve(reviewer, proposed.body.release.id)).status).toBe(200);
+
+    const images = (await request(t.app).get(url(`/image-sets/${setId}/images`)).set(bearer(team.admin))).body.images as { id: number }[];
+    const image = await request(t.app).delete(url(`/images/${images[0].id}`)).set(bearer(team.admin));
+    expect(image.status).toBe(409);
+    expect(image.body.error.message).toMatch(/quay-copy 1/);
+    const set = await request(t.app).delete(url(`/image-sets/${setId}`)).set(bearer(team.admin));
+    expect(set.status).toBe(409);
+    expect(set.body.error.details.reason).toBe('released');
+    expect((await request(t.app).get(url(`/image-sets/${setId}/images`)).set(bearer(team.admin))).body.images).toHaveLength(2);
+  });
+});
+
 describe('release names and versions', () => {
   it('refuses a name and version the team already has with 409, and takes another version', async () => {
     const clash = await propose(reviewer, codebooks[1].id, { name: 'dock-luma', version: '1.1.0', note: 'Larger table' });

@@ -69,6 +69,7 @@ describe('review and release', () => {
     await review.getByRole('button', { name: 'Approve and release' }).click();
     await expect.poll(() => page.getByText('Released', { exact: true }).count()).toBeGreaterThan(0);
     await expect.poll(() => page.getByRole('list', { name: 'Review thread' }).locator('li').count()).toBe(2);
+    await saveScreenshot(page, 'release-approved');
 
     await page.getByRole('link', { name: 'Release report' }).click();
     await page.waitForURL(/\/report$/);
@@ -99,5 +100,6 @@ describe('review and release', () => {
     const rows = page.getByTestId('activity-table').locator('tbody tr');
     await expect.poll(() => rows.count()).toBe(1);
     expect(await rows.first().textContent()).toContain('Ada Ferrow');
+    await saveScreenshot(page, 'activity-log');
   });
 });

@@ -162,7 +162,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const codebookModel = createCodebookModelService({ db, store: contentStore, runTask: modelTaskRunner(reconstructionPool), ...config.reconstructions });
   const comparison = createComparisonService({ db });
   const releases = createReleasesService({ db, now });
-  const releaseReport = createReleaseReportService({ db, store: contentStore, releases });
+  const releaseReport = createReleaseReportService({ db, store: contentStore, releases, ...config.reconstructions });
   const activity = createActivityService({ db });
   // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.
   const workerRegistry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: computeKeyPrefix, currentToken: () => workerToken(config, { create: true }) });

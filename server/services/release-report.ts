@@ -6,6 +6,7 @@ import { encode, firmwareBundle, fixedPointCost, loadImage, psnrForJson, tileErr
 import { DEFAULT_BD_METHOD } from '../engine/vocabulary';
 import { conflict, notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
+import { createComputeSlots } from './compute-slots';
 import { codebookSummaryOf, engineCodebookOf } from './codebooks';
 import { toImageMetrics } from './evaluation-results';
 import { heldOutHash } from './held-out-hash';
@@ -45,9 +46,17 @@ function pointOf(codebookId: number, bits: number, size: number, o: EvaluationRe
  * evaluation are read back; the worst tiles and the fixed-point rounding cost are measured here once per release
  * (decoding the held-out originals) and then kept, since nothing they depend on can change.
  */
-export function createReleaseReportService(deps: { db: Database; store: { path(sha256: string): string }; releases: ReleasesService }) {
+export function createReleaseReportService(deps: {
+  db: Database;
+  store: { path(sha256: string): string };
+  releases: ReleasesService;
+  /** Measurements at once and waiting (the reconstruction views' bounds: both decode and code held-out images). */
+  maxConcurrent: number;
+  maxQueued: number;
+}) {
   const { db } = deps;
   const memo = new Map<number, Promise<Computed>>();
+  const slots = createComputeSlots({ maxRunning: deps.maxConcurrent, maxQueued: deps.maxQueued, what: 'release reports' });
 
   async function measure(book: Codebook, images: { id: number; sha256: string; fileName: string; width: number; height: number }[]): Promise<Computed> {
     const color = book.patch!.color;
@@ -86,7 +95,14 @@ export function createReleaseReportService(deps: { db: Database; store: { path(s
   function measured(releaseId: number, start: () => Promise<Computed>): Promise<Computed> {
     let entry = memo.get(releaseId);
     if (!entry) {
-      entry = start();
+      // Shared by every request for the release, so no one request's disconnect may stop it.
+      entry = slots.acquire(new AbortController().signal).then(async (release) => {
+        try {
+          return await start();
+        } finally {
+          release();
+        }
+      });
       memo.set(releaseId, entry);
       // A failure is not kept: the next request measures again.
       entry.catch(() => memo.delete(releaseId));

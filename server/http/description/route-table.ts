@@ -251,7 +251,7 @@ const releaseRoutes: RouteDescription[] = [
   {
     method: 'get', path: '/api/teams/:teamId/releases/:releaseId/report', tag: 'Releases', summary: 'The release report: configuration, hashes, RD curve with BD-rate, per-image table, worst tiles, decoder cost, checksums, sign-off', access: 'member', input: { params: releaseParams },
     responses: { 200: json(releaseReportResponse, 'The report’s figures') },
-    errors: { 409: 'The codebook has not been released' },
+    errors: { 409: 'The codebook has not been released', 429: 'Too many reports being measured; Retry-After says when' },
   },
   {
     method: 'post', path: '/api/teams/:teamId/releases/:releaseId/approve', tag: 'Releases', summary: 'Approve a proposal: the codebook becomes a frozen release (never by its proposer)', access: 'engineer', input: { params: releaseParams, body: approveReleaseBody },

@@ -33,7 +33,7 @@ export const auditAction = z.enum(auditActions);
 export type AuditActionName = z.infer<typeof auditAction>;
 
 /** The kinds of object an entry names (its target type). */
-export const auditTargetTypes = ['user', 'team', 'member', 'invitation', 'image_set', 'image', 'run', 'codebook', 'release'] as const;
+export const auditTargetTypes = ['user', 'team', 'invitation', 'image_set', 'image', 'run', 'codebook', 'release'] as const;
 
 /** Entries a page holds by default and at most. */
 export const ACTIVITY_PAGE_DEFAULT = 50;

@@ -1,5 +1,7 @@
 // Review and release in the browser: an engineer proposes a demo codebook, an admin approves it, and the printable
 // report opens with every section; in print media the studio's navigation is hidden.
+import { writeFileSync } from 'node:fs';
+import path from 'node:path';
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { startServer, type StartedServer } from '../helpers/server';
@@ -90,10 +92,10 @@ describe('review and release', () => {
     expect(await page.getByTestId('report-actions').isVisible()).toBe(false);
     expect(await page.locator('header').filter({ hasText: 'Cellwright' }).first().isVisible()).toBe(false);
     expect(await page.getByRole('heading', { name: 'bramblecove-luma 1.0.0' }).isVisible()).toBe(true);
-    await saveScreenshot(page, 'release-report-print');
     // Chromium's own print to PDF, as a person's "Save as PDF" does.
     const pdf = await page.pdf({ format: 'A4', printBackground: true });
     expect(pdf.subarray(0, 5).toString('latin1')).toBe('%PDF-');
+    writeFileSync(path.join(path.dirname(await saveScreenshot(page, 'release-report-print')), 'release-report.pdf'), pdf);
     await page.emulateMedia({ media: 'screen' });
 
     await page.goto(`${server.url}/teams/${teamId}/activity?action=release.approved`);

@@ -142,6 +142,7 @@ export function DecoderCostSection({ report }: { report: ReleaseReport }) {
   return (
     <Facts
       rows={[
+        ['Table', `${report.codebook.size.toLocaleString('en-GB')} codewords × ${report.codebook.dimension} components`],
         ['Firmware table', `${d.tableBytes.toLocaleString('en-GB')} bytes (${d.tableType}${d.fractionBits ? `, ${d.fractionBits} fraction bits` : ''})`],
         ['Saturated entries', String(d.saturated)],
         ['PSNR, float decoder', db(d.rounding.psnrFloat)],

@@ -63,11 +63,16 @@ function ReleasePage({ teamId, teamName, release, canReview, canPropose }: { tea
           </>
         }
         actions={
-          r.state === 'approved' && (
-            <Link to={href.teamReleaseReport(teamId, r.id)} className={buttonClass('primary', 'sm')}>
-              Release report
+          <div className="flex flex-wrap gap-2">
+            <Link to={href.teamActivity(teamId, { targetType: 'release', targetId: String(r.id) })} className={buttonClass('secondary', 'sm')}>
+              Activity
             </Link>
-          )
+            {r.state === 'approved' && (
+              <Link to={href.teamReleaseReport(teamId, r.id)} className={buttonClass('primary', 'sm')}>
+                Release report
+              </Link>
+            )}
+          </div>
         }
       />
       <div className="flex flex-col gap-6">

@@ -85,6 +85,8 @@ export type ReleaseDetail = z.infer<typeof releaseDetail>;
 
 export const releasesResponse = z.object({ releases: z.array(releaseSummary) });
 export const releaseResponse = z.object({ release: releaseDetail });
+/** GET /api/teams/:teamId/codebooks/:codebookId/proposal: the codebook's review, null before it is proposed. */
+export const codebookProposalResponse = z.object({ release: releaseDetail.nullable() });
 
 /** A square of a held-out image, in pixels, with the released codebook's error on it. */
 export const reportTile = z.object({

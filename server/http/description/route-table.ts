@@ -6,6 +6,7 @@ import {
   activityQuery,
   activityResponse,
   approveReleaseBody,
+  codebookProposalResponse,
   proposalParams,
   proposeReleaseBody,
   releaseParams,
@@ -240,7 +241,7 @@ const codebookRoutes: RouteDescription[] = [
 ];
 
 const releaseRoutes: RouteDescription[] = [
-  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/proposal', tag: 'Releases', summary: 'A codebook’s review and release, or null before it is proposed', access: 'member', input: { params: proposalParams }, responses: { 200: json(releaseResponse.extend({ release: releaseResponse.shape.release.nullable() }), 'The review, with its thread') } },
+  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/proposal', tag: 'Releases', summary: 'A codebook’s review and release, or null before it is proposed', access: 'member', input: { params: proposalParams }, responses: { 200: json(codebookProposalResponse, 'The review, with its thread') } },
   {
     method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/proposal', tag: 'Releases', summary: 'Propose a codebook for release (or propose it again after a return) with a name, version and note', access: 'engineer', input: { params: proposalParams, body: proposeReleaseBody },
     responses: { 201: json(releaseResponse, 'The proposal, awaiting review') },

@@ -1,10 +1,7 @@
 import { queryOptions, useQuery } from '@tanstack/react-query';
-import { z } from 'zod';
-import { releaseDetail, type ReleaseDetail } from '../../../../server/contracts';
+import { codebookProposalResponse, type ReleaseDetail } from '../../../../server/contracts';
 import { apiRequest } from '../../../lib/api-client';
 import { releaseKeys } from './keys';
-
-const codebookProposalResponse = z.object({ release: releaseDetail.nullable() });
 
 /** The codebook's review and release, or null when it was never proposed. */
 export function getCodebookProposal(teamId: number, codebookId: number, { signal }: { signal?: AbortSignal } = {}): Promise<ReleaseDetail | null> {

@@ -110,8 +110,13 @@ export function createReleasesService(deps: { db: Database; now?: () => Date }) 
         return releaseId;
       });
     } catch (err) {
-      // Two proposals racing for one name and version: the unique index decides, and the loser hears why.
-      if (isAppError(err) && err.status === 409 && err.details === undefined) throw nameTaken(body);
+      // Two proposals racing (for one name and version, or of one codebook): a unique index decides, and the loser
+      // hears which.
+      if (isAppError(err) && err.status === 409 && err.details === undefined) {
+        const holder = await db.repos.releases.findByNameVersion(teamId, body.name, body.version);
+        if (holder && holder.codebookId !== codebookId) throw nameTaken(body);
+        throw conflict('The codebook was proposed by someone else at the same moment', { reason: 'proposed' });
+      }
       throw err;
     }
     return detail(await mustFind(teamId, id));

@@ -20,6 +20,7 @@ import { createTeamEventStreams } from './http/middleware/sse';
 import { apiDescriptionRouter } from './http/routes/api-description';
 import { authRouter } from './http/routes/auth';
 import { codebooksRouter } from './http/routes/codebooks';
+import { activityRouter, codebookProposalRouter, releasesRouter } from './http/routes/releases';
 import { compareRouter } from './http/routes/compare';
 import { codebookEvaluationsRouter, runResultsRouter } from './http/routes/curves';
 import type { RouteDeps } from './http/routes/deps';
@@ -157,6 +158,9 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/codebooks', reconstructionsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', codebookModelRouter(routeDeps));
   app.use('/api/teams/:teamId/model-jobs', modelJobsRouter(routeDeps));
+  app.use('/api/teams/:teamId/codebooks', codebookProposalRouter(routeDeps));
+  app.use('/api/teams/:teamId/releases', releasesRouter(routeDeps));
+  app.use('/api/teams/:teamId/activity', activityRouter(routeDeps));
   app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
   app.use('/api/teams/:teamId/workers', teamWorkersRouter(routeDeps));
   app.use('/api', apiDescriptionRouter(routeDeps));

@@ -6,6 +6,9 @@ import {
   createApiSchemasService,
   createCodebooksService,
   createComparisonService,
+  createReleasesService,
+  createReleaseReportService,
+  createActivityService,
   createEvaluationService,
   createHealthService,
   createImageRecordsService,
@@ -157,6 +160,9 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   // Anomaly maps and denoising are jobs on the workers (server/jobs/handlers/model.ts); the service queues and reads them.
   const codebookModel = createCodebookModelService({ db, bus });
   const comparison = createComparisonService({ db });
+  const releases = createReleasesService({ db, now });
+  const releaseReport = createReleaseReportService({ db, store: contentStore, releases, ...config.reconstructions });
+  const activity = createActivityService({ db });
   // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.
   const workerRegistry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: computeKeyPrefix, currentToken: () => workerToken(config, { create: true }) });
   const workers = createWorkersService({
@@ -180,7 +186,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     jobs: { store: jobStore, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
     mail,
-    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel },
+    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel, releases, releaseReport, activity },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();

@@ -15,3 +15,5 @@ export * from './compare';
 export * from './workers';
 export * from './api-description';
 export * from './codebook-model';
+export * from './activity';
+export * from './releases';

@@ -16,6 +16,7 @@ import { modelResultsRepository } from './repositories/model-results';
 import { outboxRepository } from './repositories/outbox';
 import { passwordResetsRepository } from './repositories/password-resets';
 import { reconstructionsRepository } from './repositories/reconstructions';
+import { releasesRepository } from './repositories/releases';
 import { runsRepository } from './repositories/runs';
 import { sessionsRepository } from './repositories/sessions';
 import { signupLinksRepository } from './repositories/signup-links';
@@ -49,6 +50,7 @@ function buildRepositories(db: Executor, afterCommit: (callback: () => void) => 
     baselines: translated(baselinesRepository(db)),
     reconstructions: translated(reconstructionsRepository(db)),
     modelResults: translated(modelResultsRepository(db)),
+    releases: translated(releasesRepository(db)),
   };
 }
 

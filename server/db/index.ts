@@ -15,3 +15,5 @@ export type { RunRecord, RunImageRecord } from './repositories/runs';
 export type { JobRecord, NewJob } from './repositories/jobs';
 export type { CodebookRecord, CodebookSummaryRecord, CodebookWithCodewords, NewCodebook } from './repositories/codebooks';
 export type { ReconstructionRecord } from './repositories/reconstructions';
+export type { ReleaseCommentRecord, ReleaseRecord, ReleaseState } from './repositories/releases';
+export type { AuditFilter, AuditPageRecord } from './repositories/audit';

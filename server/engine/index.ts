@@ -72,6 +72,7 @@ export { readNpy, writeNpy, writeNpyArray, type NpyMatrix, type NpyWritable } fr
 export { indexMapNpy, meanCodesNpy } from './format/index-map';
 export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
 export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
+export { tileErrors, type TileError } from './metrics/tile-error';
 export { poolSsim, ssimGrey, ssimOfImages } from './metrics/ssim';
 export {
   curveCsv, imageEvaluationCsv, readCurveCsv, runCurveCsv, runMetricsCsv, csvNumber, csvPsnr, csvText, CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS, type CurveCsvPoint,

@@ -4,7 +4,8 @@ import { codewordChecksum, EngineInputError, parseCodebook, serializeCodebook, t
 import { notFound, validationFailed } from '../errors';
 import { recordAudit } from './audit';
 
-function toSummary(c: CodebookSummaryRecord): CodebookSummary {
+/** The API's summary of a stored codebook (lists, and the release report's header). */
+export function codebookSummaryOf(c: CodebookSummaryRecord): CodebookSummary {
   return {
     id: c.id,
     name: c.name,
@@ -99,7 +100,7 @@ export function createCodebooksService(deps: { db: Database }) {
     // The trace is sent once, at the top level, not a second time inside training.
     const { trace: _trace, ...training } = (c.metadata.training ?? {}) as Record<string, unknown>;
     return {
-      ...toSummary(c),
+      ...codebookSummaryOf(c),
       usage: c.usage,
       cellDistortion: c.cellDistortion,
       trace: c.trace,
@@ -111,7 +112,7 @@ export function createCodebooksService(deps: { db: Database }) {
 
   return {
     async list(teamId: number): Promise<CodebookSummary[]> {
-      return (await db.repos.codebooks.listForTeam(teamId)).map(toSummary);
+      return (await db.repos.codebooks.listForTeam(teamId)).map(codebookSummaryOf);
     },
 
     async get(teamId: number, id: number): Promise<CodebookDetail> {

@@ -4,6 +4,7 @@ import type { RunImageRecord } from '../db/repositories/runs';
 import { badRequest, notFound } from '../errors';
 import { recordAudit } from './audit';
 import { heldOutHash as heldOutHashOf } from './held-out-hash';
+import { refuseIfReleased } from './releases';
 
 async function resolveImages(repos: Repositories, teamId: number, body: EvaluateCodebookBody): Promise<RunImageRecord[]> {
   if (body.heldOutSetId !== undefined) {
@@ -30,6 +31,7 @@ export function createEvaluationRequests(deps: { db: Database; jobQueued?: () =>
       const queued = await db.transaction(async (tx) => {
         const codebook = await tx.codebooks.findForTeam(teamId, codebookId);
         if (!codebook) throw notFound('Codebook');
+        await refuseIfReleased(tx, [codebookId], 'The codebook cannot be evaluated again');
         const images = await resolveImages(tx, teamId, body);
         const heldOutHash = heldOutHashOf(images.map((i) => i.sha256));
         const heldOutImageIds = images.map((i) => i.id);

@@ -8,7 +8,7 @@ import { againstEachCodec } from './bd-figures';
 
 const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
 
-function toImageMetrics(m: EvaluationImageMetrics, image: { fileName: string; width: number; height: number }): ImageMetrics {
+export function toImageMetrics(m: EvaluationImageMetrics, image: { fileName: string; width: number; height: number }): ImageMetrics {
   return {
     imageId: m.imageId,
     fileName: image.fileName,

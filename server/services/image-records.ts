@@ -4,6 +4,7 @@ import { notFound } from '../errors';
 import type { ContentStore, ThumbnailType } from '../storage/content-store';
 import { recordAudit } from './audit';
 import { inUseConflict } from './image-sets';
+import { refuseIfImagesReleased } from './releases';
 import { contentTypeOf, makeThumbnail } from './uploads/inspect-image';
 
 export interface ImageBytes {
@@ -47,6 +48,7 @@ export function createImageRecordsService(deps: { db: Database; store: ContentSt
         await db.transaction(async (tx) => {
           const image = await tx.images.find(teamId, imageId);
           if (!image) throw notFound('Image');
+          await refuseIfImagesReleased(tx, teamId, [imageId], 'The image');
           await tx.imageSets.lock(teamId, image.setId);
           await tx.images.remove(teamId, imageId);
           await tx.imageSets.touch(teamId, image.setId);

@@ -3,6 +3,7 @@ import type { Database } from '../db';
 import { createRng } from '../engine';
 import { AppError, badRequest, conflict, isAppError, notFound } from '../errors';
 import { recordAudit } from './audit';
+import { refuseIfImagesReleased } from './releases';
 
 /**
  * The images chosen to be held out: image ids in ascending order, shuffled by Fisher–Yates (Durstenfeld's
@@ -148,6 +149,7 @@ export function createImageSetsService(deps: { db: Database }) {
           const set = await tx.imageSets.find(teamId, setId);
           const images = await tx.images.listBySet(teamId, setId);
           imageIds = images.map((i) => i.id);
+          await refuseIfImagesReleased(tx, teamId, imageIds, 'The image set');
           await tx.imageSets.remove(teamId, setId);
           await recordAudit(tx, {
             teamId,

@@ -25,3 +25,5 @@ export * from './compute-slots';
 export * from './workers';
 export * from './api-schemas';
 export * from './codebook-model';
+export * from './releases';
+export * from './release-report';

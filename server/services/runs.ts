@@ -15,6 +15,7 @@ import type { JobEvent, JobEventBus } from '../jobs/events';
 import { heldOutHash } from './held-out-hash';
 import { recordAudit } from './audit';
 import { refreshRunState } from './run-state';
+import { refuseIfReleased } from './releases';
 import { runTrainingMemory, trainingMemoryExcess, type TrainingLimits } from './training-memory';
 
 // Defaults of the optional run settings are the run vocabulary's (server/engine/vocabulary.ts), as the engine's are.
@@ -242,6 +243,8 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
       await db.transaction(async (tx) => {
         const run = await tx.runs.findForTeam(teamId, runId);
         if (!run) throw notFound('Run');
+        // The run's name is the released codebook's origin and export file name: frozen with it.
+        await refuseIfReleased(tx, (await tx.codebooks.listForRun(runId)).map((c) => c.id), 'The run cannot be renamed');
         await tx.runs.rename(runId, body.name);
         await recordAudit(tx, { teamId, actorUserId: userId, action: 'run.renamed', targetType: 'run', targetId: runId, details: { from: run.name, to: body.name } });
       });
@@ -260,6 +263,10 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
         const open = await tx.runs.lockOpenJobs(runId);
         if (open.some((j) => j.state === 'running')) throw conflict('The run is still running: cancel it first, then delete it', { state: run.state });
         const codebooks = await tx.codebooks.listForRun(runId);
+        // Deleting the run would take its codebooks with it: a released one is refused here (and its RESTRICT
+        // reference would refuse it in the database too); reviews not yet approved go with their codebooks.
+        await refuseIfReleased(tx, codebooks.map((c) => c.id), 'The run cannot be deleted');
+        await tx.releases.removeUnreleased(codebooks.map((c) => c.id));
         await tx.runs.remove(runId);
         await recordAudit(tx, {
           teamId,

@@ -25,6 +25,10 @@ export const paths = {
   teamCodebooks: '/teams/:teamId/codebooks',
   teamCompare: '/teams/:teamId/compare',
   teamApiReference: '/teams/:teamId/api',
+  teamReleases: '/teams/:teamId/releases',
+  teamRelease: '/teams/:teamId/releases/:releaseId',
+  teamReleaseReport: '/teams/:teamId/releases/:releaseId/report',
+  teamActivity: '/teams/:teamId/activity',
 } as const;
 
 type TeamId = number | string;
@@ -75,6 +79,17 @@ export const href = {
   teamCompare: (teamId: TeamId, runIds?: readonly number[]) =>
     `${fillPath(paths.teamCompare, { teamId })}${runIds && runIds.length > 0 ? `?runs=${runIds.join(',')}` : ''}`,
   teamApiReference: (teamId: TeamId) => fillPath(paths.teamApiReference, { teamId }),
+  teamReleases: (teamId: TeamId) => fillPath(paths.teamReleases, { teamId }),
+  teamRelease: (teamId: TeamId, releaseId: number | string) => fillPath(paths.teamRelease, { teamId, releaseId }),
+  teamReleaseReport: (teamId: TeamId, releaseId: number | string) => fillPath(paths.teamReleaseReport, { teamId, releaseId }),
+  /** Filters as the activity page reads them from its query string. */
+  teamActivity: (teamId: TeamId, filters: { actor?: number; action?: string; targetType?: string; targetId?: string } = {}) =>
+    `${fillPath(paths.teamActivity, { teamId })}${query([
+      ['actor', filters.actor === undefined ? undefined : String(filters.actor)],
+      ['action', filters.action],
+      ['targetType', filters.targetType],
+      ['targetId', filters.targetId],
+    ])}`,
 } as const;
 
 export type TeamNavEntry = {
@@ -99,6 +114,7 @@ export const teamNavigation: readonly TeamNavSection[] = [
     entries: [
       { label: 'Home', to: href.team, end: true },
       { label: 'Members', to: href.teamMembers },
+      { label: 'Activity', to: (teamId) => href.teamActivity(teamId) },
       { label: 'Outbox', to: href.teamOutbox, roles: ['admin'] },
       { label: 'Workers', to: href.teamWorkers, roles: ['admin'] },
       { label: 'API', to: href.teamApiReference },
@@ -111,6 +127,7 @@ export const teamNavigation: readonly TeamNavSection[] = [
       { label: 'Runs', to: href.teamRuns },
       { label: 'Compare', to: (teamId) => href.teamCompare(teamId) },
       { label: 'Codebooks', to: href.teamCodebooks },
+      { label: 'Releases', to: href.teamReleases },
     ],
   },
 ];

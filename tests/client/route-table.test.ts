@@ -27,6 +27,10 @@ describe('the route table', () => {
       teamCodebooks: href.teamCodebooks(3),
       teamCompare: href.teamCompare(3),
       teamApiReference: href.teamApiReference(3),
+      teamReleases: href.teamReleases(3),
+      teamRelease: href.teamRelease(3, 9),
+      teamReleaseReport: href.teamReleaseReport(3, 9),
+      teamActivity: href.teamActivity(3),
     };
     for (const key of Object.keys(paths) as Array<keyof typeof paths>) {
       expect(matchPath({ path: paths[key], end: true }, built[key]), key).not.toBeNull();
@@ -38,6 +42,7 @@ describe('the route table', () => {
     expect(href.resetPassword('a/b?c')).toBe('/reset-password/a%2Fb%3Fc');
     expect(href.teamNewRun(3, 7)).toBe('/teams/3/runs/new?from=7');
     expect(href.teamCompare(3, [5, 2])).toBe('/teams/3/compare?runs=5,2');
+    expect(href.teamActivity(3, { actor: 4, action: 'release.approved' })).toBe('/teams/3/activity?actor=4&action=release.approved');
     expect(href.signIn('/teams/3?x=1', 'a@b.example')).toBe('/sign-in?returnTo=%2Fteams%2F3%3Fx%3D1&email=a%40b.example');
     expect(href.signIn('/')).toBe('/sign-in');
   });

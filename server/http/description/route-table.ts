@@ -3,6 +3,17 @@ import {
   bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
   anomalyJobBody, denoiseJobBody, modelJobParams, modelJobResponse, modelJobViewParams,
   acceptedResponse,
+  activityQuery,
+  activityResponse,
+  approveReleaseBody,
+  codebookProposalResponse,
+  proposalParams,
+  proposeReleaseBody,
+  releaseParams,
+  releaseReportResponse,
+  releaseResponse,
+  releasesResponse,
+  returnReleaseBody,
   acceptInvitationBody,
   acceptInvitationResponse,
   changePasswordBody,
@@ -117,6 +128,7 @@ const csvOrJson = (schema: z.ZodType, what: string): ResponseDescription => ({
   description: `${what}: JSON, or CSV with format=csv (an attachment)`,
   content: { 'application/json': schema, 'text/csv': 'text' },
 });
+const frozen = 'The codebook is released and frozen';
 const tooManyAttempts = { 429: 'Too many attempts from this network address; Retry-After says when to try again' };
 
 const accountRoutes: RouteDescription[] = [
@@ -152,7 +164,7 @@ const imageRoutes: RouteDescription[] = [
   { method: 'post', path: '/api/teams/:teamId/image-sets', tag: 'Images', summary: 'Create an image set', access: 'engineer', input: { params: teamParams, body: createImageSetBody }, responses: { 201: json(imageSetResponse, 'The new set') }, errors: { 409: 'A set of that name exists' } },
   { method: 'get', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Read an image set', access: 'member', input: { params: imageSetParams }, responses: { 200: json(imageSetResponse, 'The set') } },
   { method: 'patch', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Rename, describe or reassign image roles in a set', access: 'engineer', input: { params: imageSetParams, body: updateImageSetBody }, responses: { 200: json(imageSetResponse, 'The set') }, errors: { 409: 'A set of that name exists' } },
-  { method: 'delete', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Delete an image set', access: 'admin', input: { params: imageSetParams }, responses: { 204: noContent }, errors: { 409: 'A run uses images of the set' } },
+  { method: 'delete', path: '/api/teams/:teamId/image-sets/:setId', tag: 'Images', summary: 'Delete an image set', access: 'admin', input: { params: imageSetParams }, responses: { 204: noContent }, errors: { 409: 'A run uses images of the set, or a release’s evaluation measured them' } },
   {
     method: 'post', path: '/api/teams/:teamId/image-sets/:setId/images', tag: 'Images', summary: 'Upload images (files, or zip archives of them)', access: 'engineer', input: { params: imageSetParams },
     rawBody: { mediaType: 'multipart/form-data', content: 'binary', description: 'One or more parts named "files": PNG, JPEG, WebP, TIFF, AVIF, GIF or a zip of them' },
@@ -163,7 +175,7 @@ const imageRoutes: RouteDescription[] = [
   { method: 'post', path: '/api/teams/:teamId/image-sets/:setId/split', tag: 'Images', summary: 'Split a set’s images into training and held-out at random', access: 'engineer', input: { params: imageSetParams, body: splitImageSetBody }, responses: { 200: json(splitResponse, 'The set and its images with their new roles') } },
   { method: 'get', path: '/api/teams/:teamId/images/:imageId', tag: 'Images', summary: 'Read an image’s record', access: 'member', input: { params: imageParams }, responses: { 200: json(imageResponse, 'The image') } },
   { method: 'patch', path: '/api/teams/:teamId/images/:imageId', tag: 'Images', summary: 'Set an image’s role (training or held-out)', access: 'engineer', input: { params: imageParams, body: updateImageBody }, responses: { 200: json(imageResponse, 'The image') } },
-  { method: 'delete', path: '/api/teams/:teamId/images/:imageId', tag: 'Images', summary: 'Delete an image', access: 'admin', input: { params: imageParams }, responses: { 204: noContent }, errors: { 409: 'A run still uses the image' } },
+  { method: 'delete', path: '/api/teams/:teamId/images/:imageId', tag: 'Images', summary: 'Delete an image', access: 'admin', input: { params: imageParams }, responses: { 204: noContent }, errors: { 409: 'A run still uses the image, or a release’s evaluation measured it' } },
   { method: 'get', path: '/api/teams/:teamId/images/:imageId/thumbnail', tag: 'Images', summary: 'An image’s thumbnail (ETag, private caching)', access: 'member', input: { params: imageParams }, responses: { 200: { description: 'The thumbnail', content: { 'image/webp': 'binary' } }, 304: { description: 'Not modified (If-None-Match)' } } },
   { method: 'get', path: '/api/teams/:teamId/images/:imageId/original', tag: 'Images', summary: 'An image’s original file as uploaded', access: 'member', input: { params: imageParams }, responses: { 200: { description: 'The original, in its own format', content: { 'image/*': 'binary' } } } },
 ];
@@ -178,8 +190,8 @@ const runRoutes: RouteDescription[] = [
   },
   { method: 'post', path: '/api/teams/:teamId/runs', tag: 'Runs', summary: 'Start a training run', access: 'engineer', input: { params: teamParams, body: createRunBody }, responses: { 201: json(runResponse, 'The run, queued') } },
   { method: 'post', path: '/api/teams/:teamId/runs/:runId/cancel', tag: 'Runs', summary: 'Cancel a queued or running run', access: 'engineer', input: { params: runParams }, responses: { 200: json(runResponse, 'The run') }, errors: { 409: 'The run has already finished' } },
-  { method: 'patch', path: '/api/teams/:teamId/runs/:runId', tag: 'Runs', summary: 'Rename a run', access: 'engineer', input: { params: runParams, body: renameRunBody }, responses: { 200: json(runResponse, 'The run') } },
-  { method: 'delete', path: '/api/teams/:teamId/runs/:runId', tag: 'Runs', summary: 'Delete a run and its codebooks', access: 'admin', input: { params: runParams }, responses: { 204: noContent }, errors: { 409: 'The run is still running' } },
+  { method: 'patch', path: '/api/teams/:teamId/runs/:runId', tag: 'Runs', summary: 'Rename a run', access: 'engineer', input: { params: runParams, body: renameRunBody }, responses: { 200: json(runResponse, 'The run') }, errors: { 409: `${frozen}: its run keeps its name` } },
+  { method: 'delete', path: '/api/teams/:teamId/runs/:runId', tag: 'Runs', summary: 'Delete a run and its codebooks', access: 'admin', input: { params: runParams }, responses: { 204: noContent }, errors: { 409: `The run is still running, or ${frozen.toLowerCase()}` } },
   { method: 'get', path: '/api/teams/:teamId/runs/:runId/curve', tag: 'Results', summary: 'A run’s rate–distortion curve with the baseline codecs', access: 'member', input: { params: runResultParams, query: exportFormatQuery }, responses: { 200: csvOrJson(runCurveResponse, 'The curve') } },
   { method: 'get', path: '/api/teams/:teamId/runs/:runId/metrics', tag: 'Results', summary: 'A run’s per-image metrics', access: 'member', input: { params: runResultParams, query: exportFormatQuery }, responses: { 200: csvOrJson(runMetricsResponse, 'The metrics') } },
   { method: 'get', path: '/api/teams/:teamId/compare/bd-table', tag: 'Results', summary: 'The Bjøntegaard table of a comparison (each run against the others and against JPEG, WebP and AVIF) as a download', access: 'member', input: { params: teamParams, query: bdTableQuery }, responses: { 200: csvOrJson(bdTableResponse, 'The BD table') } },
@@ -204,7 +216,7 @@ const codebookRoutes: RouteDescription[] = [
     responses: { 201: json(codebookResponse, 'The imported codebook') },
     errors: { 413: 'The document is too large' },
   },
-  { method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/evaluate', tag: 'Codebooks', summary: 'Evaluate a codebook on held-out images (a job)', access: 'engineer', input: { params: evaluateCodebookParams, body: evaluateCodebookBody }, responses: { 202: json(evaluateCodebookResponse, 'The evaluation job, queued') } },
+  { method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/evaluate', tag: 'Codebooks', summary: 'Evaluate a codebook on held-out images (a job)', access: 'engineer', input: { params: evaluateCodebookParams, body: evaluateCodebookBody }, responses: { 202: json(evaluateCodebookResponse, 'The evaluation job, queued') }, errors: { 409: frozen } },
   { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/evaluations', tag: 'Codebooks', summary: 'A codebook’s evaluations with per-image rows', access: 'member', input: { params: evaluateCodebookParams }, responses: { 200: json(codebookEvaluationsResponse, 'The evaluations') } },
   {
     method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId', tag: 'Codebooks', summary: 'An image coded with a codebook: original, reconstruction or error as PNG, or the figures (view=info)', access: 'member', input: { params: reconstructionParams, query: reconstructionQuery },
@@ -224,10 +236,37 @@ const codebookRoutes: RouteDescription[] = [
   { method: 'get', path: '/api/teams/:teamId/model-jobs/:jobId/views/:view', tag: 'Codebooks', summary: 'One image of a finished denoise job: clean, noisy, hard or mean', access: 'member', input: { params: modelJobViewParams }, responses: { 200: { description: 'The PNG', content: { 'image/png': 'binary' } } } },
 ];
 
+const releaseRoutes: RouteDescription[] = [
+  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/proposal', tag: 'Releases', summary: 'A codebook’s review and release, or null before it is proposed', access: 'member', input: { params: proposalParams }, responses: { 200: json(codebookProposalResponse, 'The review, with its thread') } },
+  {
+    method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/proposal', tag: 'Releases', summary: 'Propose a codebook for release (or propose it again after a return) with a name, version and note', access: 'engineer', input: { params: proposalParams, body: proposeReleaseBody },
+    responses: { 201: json(releaseResponse, 'The proposal, awaiting review') },
+    errors: { 409: 'Already proposed or released, not evaluated yet, or the team already has a release of that name and version' },
+  },
+  { method: 'get', path: '/api/teams/:teamId/releases', tag: 'Releases', summary: 'The team’s releases and proposals, newest first', access: 'member', input: { params: teamParams }, responses: { 200: json(releasesResponse, 'The releases') } },
+  { method: 'get', path: '/api/teams/:teamId/releases/:releaseId', tag: 'Releases', summary: 'A release or proposal with its review thread', access: 'member', input: { params: releaseParams }, responses: { 200: json(releaseResponse, 'The release') } },
+  {
+    method: 'get', path: '/api/teams/:teamId/releases/:releaseId/report', tag: 'Releases', summary: 'The release report: configuration, hashes, RD curve with BD-rate, per-image table, worst tiles, decoder cost, checksums, sign-off', access: 'member', input: { params: releaseParams },
+    responses: { 200: json(releaseReportResponse, 'The report’s figures') },
+    errors: { 409: 'The codebook has not been released', 429: 'Too many reports being measured; Retry-After says when' },
+  },
+  {
+    method: 'post', path: '/api/teams/:teamId/releases/:releaseId/approve', tag: 'Releases', summary: 'Approve a proposal: the codebook becomes a frozen release (never by its proposer)', access: 'engineer', input: { params: releaseParams, body: approveReleaseBody },
+    responses: { 200: json(releaseResponse, 'The release') },
+    errors: { 403: 'The caller proposed it: another engineer or an admin reviews it', 409: 'Not awaiting review, or a job for the codebook has not finished' },
+  },
+  {
+    method: 'post', path: '/api/teams/:teamId/releases/:releaseId/return', tag: 'Releases', summary: 'Send a proposal back with a comment (never by its proposer)', access: 'engineer', input: { params: releaseParams, body: returnReleaseBody },
+    responses: { 200: json(releaseResponse, 'The returned proposal') },
+    errors: { 403: 'The caller proposed it: another engineer or an admin reviews it', 409: 'Not awaiting review' },
+  },
+  { method: 'get', path: '/api/teams/:teamId/activity', tag: 'Team', summary: 'The team’s activity log, newest first, filtered by person, action and object', access: 'member', input: { params: teamParams, query: activityQuery }, responses: { 200: json(activityResponse, 'One page of entries') } },
+];
+
 const workerRoutes: RouteDescription[] = [
   { method: 'post', path: '/internal/v1/workers', tag: 'Compute workers (internal)', summary: 'A compute worker joins with the worker token', access: 'worker', input: { body: registerWorkerBody }, responses: { 201: json(registerWorkerResponse, 'The worker’s session and queue settings') } },
   { method: 'get', path: '/internal/v1/originals/:sha256', tag: 'Compute workers (internal)', summary: 'An original image a task granted to this worker', access: 'worker', input: { params: originalParams }, validatedInside: true, responses: { 200: { description: 'The bytes', content: { 'application/octet-stream': 'binary' } } } },
 ];
 
 /** Every route the app mounts, in the order of its tags on the reference page. */
-export const routeTable: readonly RouteDescription[] = [...accountRoutes, ...teamRoutes, ...imageRoutes, ...runRoutes, ...codebookRoutes, ...workerRoutes];
+export const routeTable: readonly RouteDescription[] = [...accountRoutes, ...teamRoutes, ...imageRoutes, ...runRoutes, ...codebookRoutes, ...releaseRoutes, ...workerRoutes];

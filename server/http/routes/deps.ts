@@ -13,6 +13,9 @@ import type {
   InvitationsService,
   OutboxService,
   ReconstructionsService,
+  ReleaseReportService,
+  ReleasesService,
+  ActivityService,
   RunsService,
   TeamsService,
   WorkersService,
@@ -38,6 +41,9 @@ export interface Services {
   comparison: ComparisonService;
   workers: WorkersService;
   apiSchemas: ApiSchemasService;
+  releases: ReleasesService;
+  releaseReport: ReleaseReportService;
+  activity: ActivityService;
 }
 
 export interface RouteDeps extends Services {

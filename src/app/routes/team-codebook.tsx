@@ -27,6 +27,7 @@ import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';
 import { EvaluateCodebookForm } from '../../features/codebook-import/components/evaluate-codebook-form';
 import { codebookKeys } from '../../features/codebooks/api/keys';
+import { CodebookReleasePanel } from '../../features/releases/components/codebook-release-panel';
 
 export { RouteError as ErrorBoundary } from './route-error';
 
@@ -87,6 +88,8 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
           <Stat label="Training MSE" value={<span className="num">{formatMse(codebook.distortion)}</span>} note="per component, 0..255 scale" />
           <Stat label="Unused cells" value={<span className="num">{unused}</span>} note={`of ${codebook.size} on ${totalUsage.toLocaleString('en-GB')} vectors`} />
         </dl>
+
+        <CodebookReleasePanel teamId={teamId} codebookId={codebook.id} canPropose={canEvaluate} />
 
         <Panel
           title="Codewords"

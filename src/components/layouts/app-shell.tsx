@@ -25,11 +25,11 @@ export function AppShell({
     <div className="flex min-h-dvh flex-col">
       <a
         href="#main"
-        className="sr-only z-50 rounded-md bg-surface px-3 py-2 text-sm font-medium text-ink-900 shadow-pop focus:not-sr-only focus:fixed focus:top-2 focus:left-2"
+        className="sr-only z-50 rounded-md print:hidden bg-surface px-3 py-2 text-sm font-medium text-ink-900 shadow-pop focus:not-sr-only focus:fixed focus:top-2 focus:left-2"
       >
         Skip to content
       </a>
-      <header className="relative bg-ink-900 text-white">
+      <header className="relative bg-ink-900 text-white print:hidden">
         <div className="flex h-14 items-center gap-3 px-4 sm:gap-4 sm:px-6">
           <Wordmark tone="light" compact />
           <span aria-hidden="true" className="hidden h-6 w-px bg-ink-700 sm:block" />
@@ -42,14 +42,14 @@ export function AppShell({
         />
       </header>
       <div className="flex flex-1 flex-col md:flex-row">
-        <nav aria-label="Team" className="border-b border-ink-200 bg-ink-50 md:w-56 md:shrink-0 md:border-r md:border-b-0">
+        <nav aria-label="Team" className="print:hidden border-b border-ink-200 bg-ink-50 md:w-56 md:shrink-0 md:border-r md:border-b-0">
           {navigation}
         </nav>
         <div className="flex min-w-0 flex-1 flex-col">
           <main id="main" tabIndex={-1} className="flex-1 px-5 py-8 outline-none sm:px-8 lg:px-10" aria-busy={busy || undefined}>
             <div className="mx-auto max-w-6xl">{children}</div>
           </main>
-          <footer className="border-t border-ink-200 px-5 py-4 sm:px-8 lg:px-10">
+          <footer className="border-t border-ink-200 print:hidden px-5 py-4 sm:px-8 lg:px-10">
             <CautionNote variant="footer" className="mx-auto max-w-6xl" />
           </footer>
         </div>

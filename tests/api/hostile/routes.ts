@@ -10,7 +10,10 @@ import {
   createImageSetBody,
   createInvitationBody,
   createRunBody,
+  approveReleaseBody,
   evaluateCodebookBody,
+  proposeReleaseBody,
+  returnReleaseBody,
   loginBody,
   passwordResetConfirmBody,
   passwordResetRequestBody,
@@ -24,7 +27,7 @@ import {
 } from '../../../server/contracts';
 import { codebookDocumentSchema } from '../../../server/engine';
 import { addMember, type Session } from '../../helpers/api';
-import { codebookDocument, newImage, newInvitation, newInvitationToken, newModelJob, newRun, newSet, newSignupToken, pngTile, runBody, type World } from './world';
+import { codebookDocument, newImage, newInvitation, newInvitationToken, newModelJob, newProposal, newRun, newSet, newSignupToken, pngTile, runBody, type World } from './world';
 
 /**
  * public: no session needed. session: any signed-in user. member/engineer/admin: the least team role
@@ -473,6 +476,49 @@ export const routes: RouteCase[] = [
     query: (w) => `runs=${w.runIds.join(',')}&format=csv&method=cubic`,
     objectScoped: true,
   },
+  { name: 'a codebook’s review', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/proposal', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  {
+    // The world's codebook is already proposed (and never evaluated: no job runner here), so a valid proposal is
+    // refused with 409 and changes nothing; tests/api/releases.test.ts proposes evaluated codebooks.
+    name: 'propose a codebook for release',
+    method: 'POST',
+    path: '/api/teams/:teamId/codebooks/:codebookId/proposal',
+    access: 'engineer',
+    ok: 409,
+    body: 'json',
+    valid: () => ({ name: 'reef-luma', version: `1.0.${++n}`, note: 'Ready for the survey cameras' }),
+    schema: proposeReleaseBody,
+    objectScoped: true,
+  },
+  { name: 'list releases', method: 'GET', path: '/api/teams/:teamId/releases', access: 'member', ok: 200, body: 'none', objectScoped: false },
+  { name: 'read a release', method: 'GET', path: '/api/teams/:teamId/releases/:releaseId', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  // The world's proposal is not released, so its report is refused with 409; tests/api/releases.test.ts reads one.
+  { name: 'release report', method: 'GET', path: '/api/teams/:teamId/releases/:releaseId/report', access: 'member', ok: 409, body: 'none', objectScoped: true },
+  {
+    // Not evaluated, so approval is refused with 409 after every check of the caller (see world.ts).
+    name: 'approve a release',
+    method: 'POST',
+    path: '/api/teams/:teamId/releases/:releaseId/approve',
+    access: 'engineer',
+    ok: 409,
+    body: 'json',
+    valid: () => ({ comment: 'Checked the worst tiles' }),
+    schema: approveReleaseBody,
+    objectScoped: true,
+  },
+  {
+    name: 'return a proposal',
+    method: 'POST',
+    path: '/api/teams/:teamId/releases/:releaseId/return',
+    access: 'engineer',
+    ok: 200,
+    body: 'json',
+    valid: () => ({ comment: 'Evaluate it on the night set first' }),
+    schema: returnReleaseBody,
+    fresh: async (w) => ({ releaseId: await newProposal(w) }),
+    objectScoped: true,
+  },
+  { name: 'activity log', method: 'GET', path: '/api/teams/:teamId/activity', access: 'member', ok: 200, body: 'none', query: () => 'limit=20&action=run.created', objectScoped: false },
 ];
 
 /** The world's value for each path parameter. */
@@ -485,6 +531,7 @@ export function defaultParams(w: World): Record<string, number | string> {
     codebookId: w.codebookId,
     jobId: w.modelJobId,
     view: 'noisy',
+    releaseId: w.releaseId,
     userId: w.spare.user.id,
     invitationId: 0,
     token: w.invitationToken,

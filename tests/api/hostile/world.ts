@@ -38,6 +38,8 @@ export interface World {
   modelJobId: number;
   /** A denoise job of the team that has finished, with its views stored. */
   denoisedJobId: number;
+  /** A proposal of that codebook for release by `removed` (not evaluated, so approving it is refused with 409). */
+  releaseId: number;
   /** A pending invitation's raw token, as its e-mail carries it. */
   invitationToken: string;
   /** Ids of the outsider's own team and set, for the "own team id, foreign object id" probes. */
@@ -149,6 +151,28 @@ export async function newSignupToken(w: Pick<World, 't'>): Promise<string> {
   return linkToken(await waitForMail(w.t.db.knex, email, { subject: /finish creating/i }), 'sign-up').token;
 }
 
+let releaseCounter = 0;
+
+/**
+ * A proposal written through the releases repository, as the service writes it, by someone who is none of the
+ * world's callers (so every engineer and admin may review it). The service would refuse to propose a codebook that
+ * was never evaluated, and the world has no job runner to evaluate one.
+ */
+async function proposeBy(t: TestApp, teamId: number, codebookId: number, userId: number): Promise<number> {
+  const n = ++releaseCounter;
+  const now = new Date();
+  const id = await t.composition.db.repos.releases.insertProposal({ teamId, codebookId, name: `world-release-${n}`, version: `${n}`, note: 'Proposed for the world', proposedBy: userId, now });
+  await t.composition.db.repos.releases.addComment({ releaseId: id, authorUserId: userId, kind: 'proposed', body: 'Proposed for the world', now });
+  return id;
+}
+
+/** A fresh proposal of a freshly imported codebook, for calls that consume one (a return). */
+export async function newProposal(w: Pick<World, 't' | 'teamId' | 'engineer' | 'removed'>): Promise<number> {
+  const imported = await request(w.t.app).post(`/api/teams/${w.teamId}/codebooks/import`).set(bearer(w.engineer)).send(codebookDocument(1000 + releaseCounter));
+  if (imported.status !== 201) throw new Error(`import failed: ${imported.status}`);
+  return proposeBy(w.t, w.teamId, imported.body.codebook.id as number, w.removed.user.id);
+}
+
 export async function buildWorld(env: Record<string, string> = {}): Promise<World> {
   const t = await createTestApp(env);
   const admin = await signUp(t.app, { teamName: 'Reef Survey', email: worldEmail('admin') });
@@ -179,6 +203,8 @@ export async function buildWorld(env: Record<string, string> = {}): Promise<Worl
   const codebookId = imported.body.codebook.id as number;
   const modelJobId = await newModelJob({ t, teamId, engineer, setId, codebookId });
   const denoisedJobId = await finishedDenoiseJob({ t, teamId, engineer, codebookId }, imageIds[0]);
+
+  const releaseId = await proposeBy(t, teamId, codebookId, removed.user.id);
 
   const invitationToken = await newInvitationToken({ t, teamId, admin });
 
@@ -219,6 +245,7 @@ export async function buildWorld(env: Record<string, string> = {}): Promise<Worl
     codebookId,
     modelJobId,
     denoisedJobId,
+    releaseId,
     invitationToken,
     outsiderTeamId: outsider.teamId,
     expiredToken,

@@ -1,0 +1,170 @@
+import { createHash } from 'node:crypto';
+import type { CurvePoint, ReleaseReport } from '../contracts';
+import type { CodebookWithCodewords, Database } from '../db';
+import type { EvaluationRecord } from '../db/repositories/evaluations';
+import { encode, firmwareBundle, fixedPointCost, loadImage, psnrForJson, tileErrors, type Codebook, type PixelImage } from '../engine';
+import { DEFAULT_BD_METHOD } from '../engine/vocabulary';
+import { conflict, notFound } from '../errors';
+import { againstEachCodec } from './bd-figures';
+import { createComputeSlots } from './compute-slots';
+import { codebookSummaryOf, engineCodebookOf } from './codebooks';
+import { toImageMetrics } from './evaluation-results';
+import { heldOutHash } from './held-out-hash';
+import type { ReleasesService } from './releases';
+
+/** Tiles of the worst-tiles table: 32 × 32 pixels, and the eight worst over all held-out images. */
+export const REPORT_TILE_SIZE = 32;
+export const REPORT_WORST_TILES = 8;
+/** Held-out images the report decodes for its tiles and rounding cost; a longer list is measured on its first ones. */
+export const REPORT_MAX_IMAGES = 64;
+/** Computed reports kept in memory: a release never changes, so an entry never goes stale. */
+const REPORT_MEMO_ENTRIES = 16;
+
+const ELEMENT_BYTES = { uint8: 1, int8: 1, int16: 2 } as const;
+
+type Computed = Pick<ReleaseReport, 'worstTiles' | 'decoderCost' | 'checksums'>;
+
+const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
+
+function pointOf(codebookId: number, bits: number, size: number, o: EvaluationRecord['overall']): CurvePoint {
+  return {
+    codebookId,
+    bits,
+    size,
+    bppFixed: o.bppFixed,
+    bppEntropy: o.bppEntropy,
+    bppActual: o.bppActual,
+    mse: o.mse,
+    psnr: o.psnr,
+    ssim: o.ssim,
+    lossless: lossless(o.psnr, o.mse),
+  };
+}
+
+/**
+ * The printable report of a release, from its frozen codebook and pinned evaluation. The figures stored at
+ * evaluation are read back; the worst tiles and the fixed-point rounding cost are measured here once per release
+ * (decoding the held-out originals) and then kept, since nothing they depend on can change.
+ */
+export function createReleaseReportService(deps: {
+  db: Database;
+  store: { path(sha256: string): string };
+  releases: ReleasesService;
+  /** Measurements at once and waiting (the reconstruction views' bounds: both decode and code held-out images). */
+  maxConcurrent: number;
+  maxQueued: number;
+}) {
+  const { db } = deps;
+  const memo = new Map<number, Promise<Computed>>();
+  const slots = createComputeSlots({ maxRunning: deps.maxConcurrent, maxQueued: deps.maxQueued, what: 'release reports' });
+
+  async function measure(book: Codebook, images: { id: number; sha256: string; fileName: string; width: number; height: number }[]): Promise<Computed> {
+    const color = book.patch!.color;
+    const pixels: PixelImage[] = [];
+    const tiles: ReleaseReport['worstTiles']['tiles'] = [];
+    for (const image of images.slice(0, REPORT_MAX_IMAGES)) {
+      const decoded = await loadImage(deps.store.path(image.sha256), color, image.fileName);
+      const { reconstruction } = await encode(book, decoded);
+      for (const t of tileErrors(decoded.pixels, reconstruction, decoded.width, decoded.height, decoded.channels, REPORT_TILE_SIZE).slice(0, REPORT_WORST_TILES)) {
+        tiles.push({ imageId: image.id, fileName: image.fileName, imageWidth: decoded.width, imageHeight: decoded.height, ...t, psnr: psnrForJson(t.psnr) });
+      }
+      pixels.push(decoded);
+    }
+    tiles.sort((a, b) => b.mse - a.mse || a.imageId - b.imageId || a.y - b.y || a.x - b.x);
+    const bundle = firmwareBundle(book);
+    const rounding = await fixedPointCost(book, bundle.table, pixels);
+    return {
+      worstTiles: { tileSize: REPORT_TILE_SIZE, tiles: tiles.slice(0, REPORT_WORST_TILES), imagesMeasured: pixels.length },
+      decoderCost: {
+        tableType: bundle.table.type,
+        fractionBits: bundle.table.fractionBits,
+        saturated: bundle.table.saturated,
+        tableBytes: bundle.table.values.length * ELEMENT_BYTES[bundle.table.type],
+        rounding: { psnrFloat: psnrForJson(rounding.psnrFloat), psnrFixed: psnrForJson(rounding.psnrFixed), costDb: rounding.costDb, differing: rounding.differing },
+      },
+      checksums: {
+        codewords: book.checksum,
+        firmwareFiles: bundle.files.map((f) => {
+          const bytes = Buffer.from(f.text, 'utf8');
+          return { name: f.name, bytes: bytes.length, sha256: createHash('sha256').update(bytes).digest('hex') };
+        }),
+      },
+    };
+  }
+
+  function measured(releaseId: number, start: () => Promise<Computed>): Promise<Computed> {
+    let entry = memo.get(releaseId);
+    if (!entry) {
+      // Shared by every request for the release, so no one request's disconnect may stop it.
+      entry = slots.acquire(new AbortController().signal).then(async (release) => {
+        try {
+          return await start();
+        } finally {
+          release();
+        }
+      });
+      memo.set(releaseId, entry);
+      // A failure is not kept: the next request measures again.
+      entry.catch(() => memo.delete(releaseId));
+      if (memo.size > REPORT_MEMO_ENTRIES) memo.delete(memo.keys().next().value!);
+    }
+    return entry;
+  }
+
+  async function curveOf(codebook: CodebookWithCodewords, evaluation: EvaluationRecord): Promise<ReleaseReport['curve']> {
+    const points = codebook.runId === null
+      ? [pointOf(codebook.id, codebook.bits, codebook.size, evaluation.overall)]
+      : (await db.repos.evaluations.curveOfRun(codebook.runId, evaluation.heldOutHash)).map((r) => pointOf(r.codebookId, r.bits, r.size, r.overall));
+    const baselines: ReleaseReport['curve']['baselines'] = { jpeg: [], webp: [], avif: [] };
+    for (const p of await db.repos.baselines.list(evaluation.heldOutHash, codebook.color)) {
+      baselines[p.codec].push({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });
+    }
+    // As on a run's page: the codecs' rate is their files' bytes, so the codebooks stand beside them on the actual rate.
+    const actual = points.map((p) => ({ bpp: p.bppActual, psnr: p.psnr }));
+    return { points, baselines, bd: { method: DEFAULT_BD_METHOD, againstBaselines: againstEachCodec(actual, baselines, DEFAULT_BD_METHOD) } };
+  }
+
+  return {
+    async report(teamId: number, releaseId: number): Promise<ReleaseReport> {
+      const release = await deps.releases.get(teamId, releaseId);
+      const pinned = await db.repos.releases.find(teamId, releaseId);
+      if (release.state !== 'approved' || !pinned?.evaluationId) {
+        throw conflict('The report is made for a released codebook: this one has not been approved', { state: release.state });
+      }
+      const codebook = await db.repos.codebooks.findForTeam(teamId, release.codebookId);
+      if (!codebook) throw notFound('Codebook');
+      const evaluation = (await db.repos.evaluations.listForCodebook(codebook.id)).find((e) => e.id === pinned.evaluationId);
+      if (!evaluation) throw notFound('Evaluation');
+      const rows = await db.repos.evaluations.imagesOf(evaluation.id);
+      const imageRecords = new Map((await db.repos.runs.teamImages(teamId, rows.map((r) => r.imageId))).map((i) => [i.id, i]));
+      const images = rows.filter((r) => imageRecords.has(r.imageId)).map((r) => toImageMetrics(r, imageRecords.get(r.imageId)!));
+      const training = codebook.runId === null ? null : await db.repos.runs.imagesOf(codebook.runId, 'training');
+      const book = engineCodebookOf(codebook);
+      const [curve, computed] = await Promise.all([
+        curveOf(codebook, evaluation),
+        measured(releaseId, () => measure(book, rows.flatMap((r) => (imageRecords.has(r.imageId) ? [imageRecords.get(r.imageId)!] : [])))),
+      ]);
+      const { trace: _trace, ...trainingConfig } = (codebook.metadata.training ?? {}) as Record<string, unknown>;
+      return {
+        release,
+        codebook: codebookSummaryOf(codebook),
+        configuration: {
+          color: codebook.color,
+          preprocessing: (codebook.metadata.preprocessing ?? {}) as Record<string, unknown>,
+          training: trainingConfig,
+        },
+        hashes: {
+          trainingData: training ? heldOutHash(training.map((i) => i.sha256)) : null,
+          heldOut: evaluation.heldOutHash,
+          trainingImages: training ? training.length : null,
+          heldOutImages: rows.length,
+        },
+        curve,
+        images,
+        ...computed,
+      };
+    },
+  };
+}
+
+export type ReleaseReportService = ReturnType<typeof createReleaseReportService>;

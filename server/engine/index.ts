@@ -40,11 +40,13 @@ export {
   type CanonicalCode,
 } from './core/huffman';
 export {
-  CODEBOOK_FORMAT, CODEBOOK_VERSION, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
+  CODEBOOK_FORMAT, CODEBOOK_VERSION, CODEBOOK_VERSIONS, structureFromInfo, structureInfo, structureSchema, type StructureInfo, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
   serializeCodebook, toCodebookDocument, type Codebook, type CodebookDocument, type PatchInfo, type PreprocessingInfo, type TrainingInfo,
 } from './format/codebook-schema';
 export { codebookJsonSchemaText } from './format/codebook-json-schema';
 export { codewordChecksum } from './format/checksum';
+export { STRUCTURE_KINDS, type CodebookStructure, type EntropyConstrainedStructure, type FullStructure, type ResidualStructure, type StructureKind, type TreeStructure } from './structures/types';
+export { stageOffsets, structureProblems, treeShape } from './format/structure-check';
 export {
   readContainer,
   readContainerHeader,

@@ -33,6 +33,38 @@ export const initMethodSchema = z.enum(INIT_METHODS, { error: `expected ${quoted
 /** Split init trains every size 1, 2, 4, … up to K in one pass; the others train K alone. */
 export const trainsEverySize = (init: InitMethod): boolean => init === INIT.split;
 
+// ---- codebook structure ----
+
+/**
+ * What a run trains (CLI --structure, the run form): full search (with an optional λ list, which makes it
+ * entropy-constrained), a binary tree, or residual stages. The codebook's own structure kinds (full,
+ * entropy-constrained, tree, residual) are server/engine/structures/types.ts; a run's "full" with λ gives
+ * "entropy-constrained" codebooks.
+ */
+export const RUN_STRUCTURES = ['full', 'tree', 'residual'] as const;
+export type RunStructure = (typeof RUN_STRUCTURES)[number];
+export const RUN_STRUCTURE_LABELS: Record<RunStructure, string> = {
+  full: 'Full search',
+  tree: 'Tree-structured',
+  residual: 'Residual (multistage)',
+};
+/** The structures this build trains; the others parse but are refused until their training is wired in. */
+export const TRAINABLE_STRUCTURES: readonly RunStructure[] = ['full'];
+export const runStructureSchema = z.enum(RUN_STRUCTURES, { error: `expected ${RUN_STRUCTURES.map((s) => `"${s}"`).join(', ')}` });
+
+/**
+ * λ, the price of one index bit in squared error per vector (entropy-constrained VQ minimises ‖x − c‖² + λ·ℓ).
+ * 0 is plain Lloyd with empty cells dropped; 10^9 is far past the point where one codeword remains for 8-bit pixels
+ * in any patch up to 16×16×3 (each vector's squared error is at most 768 · 255² ≈ 5·10^7).
+ */
+export const LAMBDA = { min: 0, max: 1e9 } as const;
+/** λ values one run or one `train --lambda` sweeps at most: one codebook each, like the sizes of a b range (15 of them). */
+export const MAX_LAMBDAS = 16;
+/** Residual stages S (CLI --stages): at least one; 8 stages of 1..14 bits already reach far past any useful rate. */
+export const STAGES = { min: 1, max: 8 } as const;
+/** M of the residual M-best search (keep the M best partial sums per stage). */
+export const M_BEST = { min: 1, max: 64 } as const;
+
 // ---- colour ----
 export const COLOR_MODES = ['luma', 'rgb'] as const;
 export type ColorMode = (typeof COLOR_MODES)[number];

@@ -32,11 +32,17 @@ const SPEC: OptionSpec = {
   csv: { type: 'string' },
 };
 
+/** The codebook's structure kind, and λ for an entropy-constrained one. */
+function structureFields(book: Codebook): { structure: string; lambda?: number } {
+  return book.structure.kind === 'entropy-constrained' ? { structure: book.structure.kind, lambda: book.structure.lambda } : { structure: book.structure.kind };
+}
+
 export function imageReportJson(book: Codebook, report: ImageSetEvaluation) {
   const o = report.overall;
   return {
     command: 'eval',
     input: 'images',
+    ...structureFields(book),
     bits: book.bits,
     size: book.size,
     dimension: book.dimension,
@@ -54,6 +60,7 @@ export function vectorReportJson(book: Codebook, report: VectorSetEvaluation) {
   return {
     command: 'eval',
     input: 'vectors',
+    ...structureFields(book),
     bits: book.bits,
     size: book.size,
     dimension: book.dimension,

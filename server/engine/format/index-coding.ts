@@ -164,3 +164,14 @@ export function indexCodingOf(codebook: Pick<Codebook, 'size' | 'structure'>): I
       return residualCoding(st.bits);
   }
 }
+
+/**
+ * Bits a fixed-length index of this structure takes per block (the "fixed" rate): ceil(log2 K) for full search and
+ * for an entropy-constrained table (what its indices would cost without the Huffman code), the longest path of a tree,
+ * Σ bits[s] of residual stages.
+ */
+export function fixedRateBits(codebook: Pick<Codebook, 'size' | 'structure'>): number {
+  const s = codebook.structure;
+  if (s.kind === 'full' || s.kind === 'entropy-constrained') return indexBits(codebook.size);
+  return indexCodingOf(codebook).headerBits;
+}

@@ -4,6 +4,7 @@
  * depends on zod alone, so the contracts can share it without pulling in the engine (sharp, workers).
  */
 import { z } from 'zod';
+import type { StructureKind } from './structures/types';
 
 // ---- codebook initialisation ----
 
@@ -51,6 +52,15 @@ export const RUN_STRUCTURE_LABELS: Record<RunStructure, string> = {
 /** The structures this build trains; the others parse but are refused until their training is wired in. */
 export const TRAINABLE_STRUCTURES: readonly RunStructure[] = ['full'];
 export const runStructureSchema = z.enum(RUN_STRUCTURES, { error: `expected ${RUN_STRUCTURES.map((s) => `"${s}"`).join(', ')}` });
+
+export { STRUCTURE_KINDS, type StructureKind } from './structures/types';
+/** What a codebook's structure is called wherever a person reads it (codebook page, run page, lists). */
+export const STRUCTURE_LABELS: Record<StructureKind, string> = {
+  full: 'Full search',
+  'entropy-constrained': 'Entropy-constrained',
+  tree: 'Tree-structured',
+  residual: 'Residual (multistage)',
+};
 
 /**
  * λ, the price of one index bit in squared error per vector (entropy-constrained VQ minimises ‖x − c‖² + λ·ℓ).

@@ -18,6 +18,8 @@ function toSummary(c: CodebookSummaryRecord): CodebookSummary {
     color: c.color,
     channels: c.channels,
     meanBits: c.meanBits,
+    structure: c.structure,
+    lambda: c.lambda,
     checksum: c.checksum,
     distortion: c.distortion,
     createdAt: c.createdAt,

@@ -129,6 +129,15 @@ describe('cellwright train --lambda', () => {
   });
 });
 
+describe('cellwright export --target c of an entropy-constrained codebook', () => {
+  it('is refused with one line, since the C decoder reads fixed-length indices only', async () => {
+    const r = await cli('export', '--codebook', p('ecvq.lambda-300.json'), '--target', 'c', '--out', p('firmware'));
+    expect(r.status).toBe(1);
+    expect(r.stderr).toBe('cellwright: error: the C export decodes full-search codebooks (fixed-length indices); this codebook is entropy-constrained\n');
+    expect(existsSync(p('firmware', 'cw_codebook.h'))).toBe(false);
+  });
+});
+
 describe('cellwright sweep --lambda', () => {
   it('draws one curve point per λ, which bd reads against JPEG', async () => {
     const swept = await cli('sweep', '--images', p('train'), '--held-out', p('held'), '--patch', '2x2', '--bits', '6', '--lambda', '10..2000:3', '--baseline', 'jpeg', '--qualities', '10,40,70,90', '--out', p('curve.csv'));

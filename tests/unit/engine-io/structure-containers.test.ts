@@ -1,7 +1,8 @@
+import { readFileSync } from 'node:fs';
 import { crc32 } from 'node:zlib';
 import { afterAll, describe, expect, it } from 'vitest';
 import {
-  canonicalCode, codedBits, decode, encode, entropyBits, huffmanCodeLengths, makeCodebook, reconstruct, shutdownEngineWorkers, trainEcvq,
+  canonicalCode, codedBits, decode, encode, entropyBits, huffmanCodeLengths, makeCodebook, parseCodebookJson, reconstruct, shutdownEngineWorkers, trainEcvq,
   type Codebook, type CodebookStructure, type EncodedImage, type PixelImage,
 } from '../../../server/engine';
 import { HEADER_BYTES_V3, readContainer, readContainerHeader, STREAM_LENGTH_BYTES, writeContainer } from '../../../server/engine/format/container';
@@ -170,5 +171,25 @@ describe('entropy-constrained coding end to end', () => {
     expect(result.codedBitsPerVector).toBeGreaterThanOrEqual(result.entropy - 1e-12);
     expect(result.codedBitsPerVector).toBeLessThan(result.entropy + 1);
     expect(huffmanCodeLengths(result.usage)).toEqual(result.codeLengths);
+  });
+});
+
+describe('container version 2, written before version 3 existed', () => {
+  const dir = new URL('../../fixtures/container-v2/', import.meta.url);
+  // Written by the previous writer (an invented revision 1 codebook, mean-removed, markers every 2 block rows).
+  const book = parseCodebookJson(readFileSync(new URL('codebook.json', dir), 'utf8'));
+  const fixture = readFileSync(new URL('image.cwvq', dir));
+
+  it('still decodes to the pixels it decoded to when written', () => {
+    expect(readContainerHeader(fixture)).toMatchObject({ version: 2, resyncRows: 2, layout: 'fixed', headerBytes: 68 });
+    expect(Buffer.from(decode(book, fixture).pixels).equals(readFileSync(new URL('decoded.grey', dir)))).toBe(true);
+  });
+
+  it('is what the writer still writes for a full-search codebook with markers, byte for byte', async () => {
+    const [width, height] = [9, 7];
+    const pixels = new Float32Array(width * height);
+    for (let i = 0; i < pixels.length; i += 1) pixels[i] = (i * 71) % 256; // the fixture's own image
+    const { container } = await encode(book, { name: 'fixture', width, height, color: 'luma', channels: 1, pixels }, { payload: 'raw', resyncRows: 2 });
+    expect(container.equals(fixture)).toBe(true);
   });
 });

@@ -1,4 +1,4 @@
-import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
@@ -7,7 +7,7 @@ import type { CliContext } from '../../../server/cli/context';
 import { main } from '../../../server/cli/main';
 import { TRAIN_HELP } from '../../../server/cli/commands/train';
 import {
-  canonicalCode, codedBits, encode, entropyBits, kraftSum, loadImage, parseCodebookJson, readContainerHeader, readCurveCsv, shutdownEngineWorkers, type Codebook,
+  canonicalCode, codedBits, encode, entropyBits, kraftSum, loadImage, makeCodebook, parseCodebookJson, readContainerHeader, readCurveCsv, serializeCodebook, shutdownEngineWorkers, writeContainer, type Codebook,
 } from '../../../server/engine';
 import { HEADER_BYTES_V3, STREAM_LENGTH_BYTES } from '../../../server/engine/format/container';
 
@@ -175,6 +175,36 @@ describe('structure options', () => {
   it('documents --lambda in the help and keeps structures that do not train yet out of it', () => {
     expect(TRAIN_HELP).toContain('--lambda LIST');
     expect(TRAIN_HELP).not.toContain('--structure');
+  });
+});
+
+describe('cellwright decode of tree and residual files', () => {
+  // Hand-made tables of flat 2×2 codewords at 10, 20, 30, …; the files are written by the engine's container writer.
+  const flat = (size: number, structure: Codebook['structure']) => {
+    const codewords = new Float32Array(size * 4);
+    for (let j = 0; j < size; j += 1) codewords.fill(10 * (j + 1), j * 4, j * 4 + 4);
+    const training = { source: 'hand-made', vectorCount: size, init: 'random' as const, epsilon: 0, seed: null, iterations: 0, distortion: 0, trace: [] };
+    return makeCodebook({ size, dimension: 4, patch: { width: 2, height: 2, channels: 1, color: 'luma' }, preprocessing: { kind: 'none' }, codewords, usage: new Uint32Array(size), training, structure });
+  };
+  it.each([
+    // Unbalanced tree: leaves 2, 3, 4 (codewords 30, 40, 50).
+    ['an unbalanced tree', flat(5, { kind: 'tree', balanced: false, children: Int32Array.from([1, 2, 3, 4, -1, -1, -1, -1, -1, -1]) }), [2, 3, 4], [30, 40, 50]],
+    // Residual stages of 2 and 1 bits: (0, 4) → 10 + 50, (3, 5) → 40 + 60, (1, 4) → 20 + 50.
+    ['residual stages', flat(6, { kind: 'residual', bits: [2, 1], search: { kind: 'greedy' } }), [0, 4, 3, 5, 1, 4], [60, 100, 70]],
+  ])('decodes %s by table lookup', async (what, cb, indices, levels) => {
+    const name = what.replace(/\W+/g, '-');
+    writeFileSync(p(`${name}.json`), serializeCodebook(cb));
+    writeFileSync(p(`${name}.cwq`), writeContainer(cb, { width: 6, height: 2, blocksX: 3, blocksY: 1, indices: Uint32Array.from(indices), meanCodes: null }));
+    const r = await cli('decode', '--codebook', p(`${name}.json`), '--in', p(`${name}.cwq`), '--out', p(`${name}.png`));
+    expect(r.status, r.stderr).toBe(0);
+    const { data, info } = await sharp(p(`${name}.png`)).raw().toBuffer({ resolveWithObject: true });
+    const firstRow = Array.from({ length: 6 }, (_, x) => data[x * info.channels]);
+    expect(firstRow).toEqual(levels.flatMap((v) => [v, v]));
+  });
+
+  it('says that encoding with a tree codebook is not wired in yet, with one line', async () => {
+    const r = await cli('encode', '--codebook', p('an-unbalanced-tree.json'), '--image', p('held', 'c.png'), '--out', p('tree.cwq'));
+    expect(r).toMatchObject({ status: 1, stderr: 'cellwright: error: encoding with a tree codebook is not wired into this build yet; it can decode such files\n' });
   });
 });
 

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { COLOR_MODES } from '../engine/vocabulary';
+import { COLOR_MODES, STRUCTURE_KINDS } from '../engine/vocabulary';
 import { pathId } from './common';
 
 export const codebookParams = z.object({ teamId: pathId, codebookId: pathId });
@@ -18,6 +18,10 @@ export const codebookSummary = z.object({
   color: z.enum(COLOR_MODES),
   channels: z.number().int(),
   meanBits: z.number().int(),
+  /** How the table is searched and its indices coded (the codebook JSON's structure.kind). */
+  structure: z.enum(STRUCTURE_KINDS),
+  /** λ of an entropy-constrained codebook (squared error per vector traded for one index bit), else null. */
+  lambda: z.number().nullable(),
   checksum: z.string(),
   /** MSE per component on the training vectors. */
   distortion: z.number(),

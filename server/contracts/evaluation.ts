@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { BD_METHODS, COLOR_MODES } from '../engine/vocabulary';
+import { BD_METHODS, COLOR_MODES, STRUCTURE_KINDS } from '../engine/vocabulary';
 import { bdValues } from './bd';
 import { idParam, pathId } from './common';
 
@@ -25,6 +25,9 @@ export const curvePoint = rateDistortion.extend({
   codebookId: z.number().int(),
   bits: z.number().int(),
   size: z.number().int(),
+  /** The codebook's structure: each structure (and an entropy-constrained run's λ sweep) is a series of its own. */
+  structure: z.enum(STRUCTURE_KINDS),
+  lambda: z.number().nullable(),
 });
 export type CurvePoint = z.infer<typeof curvePoint>;
 

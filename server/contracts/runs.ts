@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SIDE, SEED, VECTOR_CAP } from '../engine/vocabulary';
+import { BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, SEED, STRUCTURE_KINDS, VECTOR_CAP } from '../engine/vocabulary';
 import { idParam, pathId } from './common';
 import { job, jobState } from './jobs';
 
@@ -39,6 +39,11 @@ export const createRunBody = z
     maxIterations: int(ITERATIONS.runMin, ITERATIONS.max).optional(),
     maxVectors: int(VECTOR_CAP.min, VECTOR_CAP.max).optional(),
     seed: int(SEED.min, SEED.max).optional(),
+    /**
+     * Entropy-constrained VQ: one codebook per λ (squared error per vector traded for one index bit), each trained from
+     * the run's largest full-search codebook (2^bits.to), beside the full-search codebooks.
+     */
+    lambdas: z.array(z.number().min(LAMBDA.min).max(LAMBDA.max)).min(1).max(MAX_LAMBDAS).optional(),
   })
   .strict()
   .superRefine((b, ctx) => {
@@ -67,6 +72,8 @@ export const normalizedRunConfig = z.object({
   maxIterations: z.number().int(),
   maxVectors: z.number().int(),
   seed: z.number().int(),
+  /** λ values of the run's entropy-constrained codebooks, distinct, in the order given; absent: full search only. */
+  lambdas: z.array(z.number()).optional(),
 });
 export type NormalizedRunConfig = z.infer<typeof normalizedRunConfig>;
 
@@ -107,6 +114,9 @@ export const runCodebookSummary = z.object({
   size: z.number().int(),
   distortion: z.number(),
   iterations: z.number().int(),
+  /** The codebook's structure (full search, or entropy-constrained with its λ). */
+  structure: z.enum(STRUCTURE_KINDS),
+  lambda: z.number().nullable(),
   checksum: z.string(),
 });
 

@@ -17,7 +17,9 @@ import { extractTrainingVectors, streamTrainingVectors, vectorDimension, type Tr
 import { readNpy, type NpyMatrix } from './io/npy';
 import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
-import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SIDE, SEED, type InitMethod } from './vocabulary';
+import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, SEED, type InitMethod } from './vocabulary';
+import { trainEcvq } from './training/ecvq';
+import { MAX_CODE_LENGTH } from './core/huffman';
 import { encodePng } from './io/png';
 import { codebookMixture as mixtureOf, mixtureWithVariances, scoreVectors as scoreMixture, type PatchMixture, type VarianceSource, type VectorScores } from './model/mixture';
 import { anomalyMapPixels, calibrateAnomaly, modelFromScores, scoreImage, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type ImageAnomalies } from './model/anomaly';
@@ -40,11 +42,13 @@ export {
   type CanonicalCode,
 } from './core/huffman';
 export {
-  CODEBOOK_FORMAT, CODEBOOK_VERSION, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
+  CODEBOOK_FORMAT, CODEBOOK_VERSION, CODEBOOK_VERSIONS, structureFromInfo, structureInfo, structureSchema, type StructureInfo, FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, codebookDocumentSchema, makeCodebook, parseCodebook, parseCodebookJson,
   serializeCodebook, toCodebookDocument, type Codebook, type CodebookDocument, type PatchInfo, type PreprocessingInfo, type TrainingInfo,
 } from './format/codebook-schema';
 export { codebookJsonSchemaText } from './format/codebook-json-schema';
 export { codewordChecksum } from './format/checksum';
+export { STRUCTURE_KINDS, type CodebookStructure, type EntropyConstrainedStructure, type FullStructure, type ResidualStructure, type StructureKind, type TreeStructure } from './structures/types';
+export { stageOffsets, structureProblems, treeShape } from './format/structure-check';
 export {
   readContainer,
   readContainerHeader,
@@ -273,6 +277,54 @@ export async function trainCodebooks(vectors: Float32Array, dimension: number, o
     };
     return makeCodebook({ size: book.size, dimension, patch: o.patch, preprocessing: o.preprocessing, codewords: book.codewords, usage: book.usage, training });
   });
+}
+
+// ---- entropy-constrained training ----
+
+const ecvqSchema = z.object({
+  lambdas: z.array(z.number().min(LAMBDA.min).max(LAMBDA.max)).min(1).max(MAX_LAMBDAS),
+  maxCodeLength: int(1, MAX_CODE_LENGTH).optional(),
+});
+
+export interface TrainEntropyConstrainedOptions extends Omit<TrainCodebooksOptions, 'size' | 'onIteration'> {
+  /** The starting full-search codebook has 2^bits codewords: the most any λ keeps. */
+  bits: number;
+  /** One codebook per λ, in this order (λ: squared error per vector traded for one index bit). */
+  lambdas: number[];
+  /** Longest Huffman code, 1..16 (default 16). */
+  maxCodeLength?: number;
+  onLambda?: (done: number, total: number, lambda: number) => void;
+}
+
+/**
+ * Entropy-constrained codebooks (training/ecvq.ts): a full-search codebook of 2^bits codewords trained as
+ * trainCodebooks does, then one ECVQ training from it per λ. Each codebook keeps the cells its λ leaves used, with the
+ * canonical Huffman lengths of its training usage in its structure.
+ * @param vectors N × dimension, row-major (already mean-removed when `preprocessing` says so)
+ */
+export async function trainEntropyConstrained(vectors: Float32Array, dimension: number, options: TrainEntropyConstrainedOptions): Promise<Codebook[]> {
+  const { lambdas, maxCodeLength, onLambda, ...rest } = options;
+  check(ecvqSchema, { lambdas, maxCodeLength }, 'trainEntropyConstrained');
+  const [start] = (await trainCodebooks(vectors, dimension, rest)).slice(-1);
+  const out: Codebook[] = [];
+  for (const [i, lambda] of lambdas.entries()) {
+    onLambda?.(i, lambdas.length, lambda);
+    const r = await trainEcvq(vectors, dimension, start.codewords, {
+      lambda, epsilon: start.training.epsilon, maxIterations: start.training.maxIterations, maxCodeLength, signal: options.signal,
+    });
+    const training: TrainingInfo = {
+      ...start.training,
+      iterations: r.iterations,
+      distortion: r.distortion,
+      trace: r.trace.map((t) => ({ size: t.size, iteration: t.iteration, distortion: t.distortion, emptyRepaired: t.emptied, elapsedMs: t.elapsedMs })),
+    };
+    out.push(makeCodebook({
+      size: r.size, dimension, patch: start.patch, preprocessing: start.preprocessing, codewords: r.codewords, usage: r.usage, training,
+      structure: { kind: 'entropy-constrained', lambda, codeLengths: r.codeLengths },
+    }));
+  }
+  onLambda?.(lambdas.length, lambdas.length, lambdas.at(-1)!);
+  return out;
 }
 
 // ---- coding ----

@@ -33,6 +33,92 @@ export const initMethodSchema = z.enum(INIT_METHODS, { error: `expected ${quoted
 /** Split init trains every size 1, 2, 4, … up to K in one pass; the others train K alone. */
 export const trainsEverySize = (init: InitMethod): boolean => init === INIT.split;
 
+// ---- codebook structure ----
+
+/**
+ * What a run trains (CLI --structure, the run form): full search (with an optional λ list, which makes it
+ * entropy-constrained), a binary tree, or residual stages. The codebook's own structure kinds (full,
+ * entropy-constrained, tree, residual) are server/engine/structures/types.ts; a run's "full" with λ gives
+ * "entropy-constrained" codebooks.
+ */
+export const RUN_STRUCTURES = ['full', 'tree', 'residual'] as const;
+export type RunStructure = (typeof RUN_STRUCTURES)[number];
+export const RUN_STRUCTURE_LABELS: Record<RunStructure, string> = {
+  full: 'Full search',
+  tree: 'Tree-structured',
+  residual: 'Residual (multistage)',
+};
+/** The structures this build trains; the others parse but are refused until their training is wired in. */
+export const TRAINABLE_STRUCTURES: readonly RunStructure[] = ['full'];
+export const runStructureSchema = z.enum(RUN_STRUCTURES, { error: `expected ${RUN_STRUCTURES.map((s) => `"${s}"`).join(', ')}` });
+
+/** How a codebook's table is searched and its indices coded (engine structures/types.ts holds each kind's shape). */
+export const STRUCTURE_KINDS = ['full', 'entropy-constrained', 'tree', 'residual'] as const;
+export type StructureKind = (typeof STRUCTURE_KINDS)[number];
+/** What a codebook's structure is called wherever a person reads it (codebook page, run page, lists). */
+export const STRUCTURE_LABELS: Record<StructureKind, string> = {
+  full: 'Full search',
+  'entropy-constrained': 'Entropy-constrained',
+  tree: 'Tree-structured',
+  residual: 'Residual (multistage)',
+};
+
+/**
+ * λ, the price of one index bit in squared error per vector (entropy-constrained VQ minimises ‖x − c‖² + λ·ℓ).
+ * 0 is plain Lloyd with empty cells dropped; 10^9 is far past the point where one codeword remains for 8-bit pixels
+ * in any patch up to 16×16×3 (each vector's squared error is at most 768 · 255² ≈ 5·10^7).
+ */
+export const LAMBDA = { min: 0, max: 1e9 } as const;
+/** λ values one run or one `train --lambda` sweeps at most: one codebook each, like the sizes of a b range (15 of them). */
+export const MAX_LAMBDAS = 16;
+/** Residual stages S (CLI --stages): at least one; 8 stages of 1..14 bits already reach far past any useful rate. */
+export const STAGES = { min: 1, max: 8 } as const;
+
+/**
+ * A λ list as a person writes it (CLI --lambda, the run form): comma-separated values ("50,200,800"), or A..B:N for
+ * N values spaced evenly in log λ from A to B (A > 0), which is how rate falls with λ. Duplicates are dropped; the
+ * order given is kept (each codebook starts from the same full-search codebook, so order changes nothing but output order).
+ */
+export function parseLambdaList(text: string): { values: number[] } | { error: string } {
+  const num = (t: string) => (/^[+]?(\d+\.?\d*|\.\d+)(e[+-]?\d+)?$/i.test(t.trim()) ? Number(t) : Number.NaN);
+  const inRange = (v: number) => Number.isFinite(v) && v >= LAMBDA.min && v <= LAMBDA.max;
+  const range = /^\s*([^.:,]+(?:\.\d*)?(?:e[+-]?\d+)?)\.\.([^:,]+):(\d+)\s*$/i.exec(text);
+  let values: number[];
+  if (range) {
+    const [a, b, n] = [num(range[1]), num(range[2]), Number(range[3])];
+    if (!inRange(a) || !inRange(b) || a <= 0 || b <= a || n < 2 || n > MAX_LAMBDAS) {
+      return { error: `a λ range is A..B:N with 0 < A < B ≤ ${LAMBDA.max} and N from 2 to ${MAX_LAMBDAS}, got "${text}"` };
+    }
+    values = Array.from({ length: n }, (_, i) => (i === n - 1 ? b : Number((a * (b / a) ** (i / (n - 1))).toPrecision(6))));
+  } else {
+    values = text.split(',').map(num);
+    if (values.length === 0 || values.some((v) => !inRange(v))) return { error: `λ takes numbers from ${LAMBDA.min} to ${LAMBDA.max}, comma-separated, or a range A..B:N, got "${text}"` };
+  }
+  values = [...new Set(values)];
+  if (values.length > MAX_LAMBDAS) return { error: `at most ${MAX_LAMBDAS} λ values, got ${values.length}` };
+  return { values };
+}
+
+/**
+ * Bits of each residual stage (CLI --stages with --bits B): S stages share B as evenly as possible, the earlier stages
+ * taking the extra bit (the first stages carry most of the signal); or an explicit list "b1,b2,…".
+ */
+export function parseStages(text: string, totalBits: number | undefined): { bits: number[] } | { error: string } {
+  if (/^\d+$/.test(text.trim())) {
+    const s = Number(text);
+    if (s < STAGES.min || s > STAGES.max) return { error: `--stages must be from ${STAGES.min} to ${STAGES.max}, got "${text}"` };
+    if (totalBits === undefined || totalBits < s) return { error: `${s} stages need --bits B with B ≥ ${s} (one bit a stage at least)` };
+    return { bits: Array.from({ length: s }, (_, i) => Math.floor(totalBits / s) + (i < totalBits % s ? 1 : 0)) };
+  }
+  const bits = text.split(',').map((t) => (/^\d+$/.test(t.trim()) ? Number(t) : Number.NaN));
+  if (bits.length < STAGES.min || bits.length > STAGES.max || bits.some((b) => !(b >= 1 && b <= BITS.max))) {
+    return { error: `--stages takes a count S (${STAGES.min}..${STAGES.max}) or the bits of each stage, 1..${BITS.max}, comma-separated, got "${text}"` };
+  }
+  return { bits };
+}
+/** M of the residual M-best search (keep the M best partial sums per stage). */
+export const M_BEST = { min: 1, max: 64 } as const;
+
 // ---- colour ----
 export const COLOR_MODES = ['luma', 'rgb'] as const;
 export type ColorMode = (typeof COLOR_MODES)[number];

@@ -19,6 +19,8 @@ export function codebookSummaryOf(c: CodebookSummaryRecord): CodebookSummary {
     color: c.color,
     channels: c.channels,
     meanBits: c.meanBits,
+    structure: c.structure,
+    lambda: c.lambda,
     checksum: c.checksum,
     distortion: c.distortion,
     createdAt: c.createdAt,

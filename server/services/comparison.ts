@@ -49,7 +49,9 @@ export function createComparisonService(deps: { db: Database }) {
         const run = await db.repos.runs.findForTeam(teamId, id);
         if (!run) throw notFound(`Run ${id}`);
         const color = run.normalized.color;
-        const rows = await db.repos.evaluations.curveOfRun(run.id, run.heldOutHash);
+        // A run's full-search codebooks form its curve here; its entropy-constrained ones (a λ sweep) are another
+        // curve, which the run page draws and the compare page does not yet.
+        const rows = (await db.repos.evaluations.curveOfRun(run.id, run.heldOutHash)).filter((r) => r.structure === 'full');
         const baselines: BaselineCurves = { jpeg: [], webp: [], avif: [] };
         for (const p of await db.repos.baselines.list(run.heldOutHash, color)) {
           baselines[p.codec].push({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });

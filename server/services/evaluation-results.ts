@@ -2,7 +2,7 @@ import type { BaselineCurves, CodebookEvaluations, ImageMetrics, RunCurve, RunMe
 import type { Database } from '../db';
 import type { EvaluationImageMetrics } from '../db/repositories/evaluations';
 import type { RunRecord } from '../db/repositories/runs';
-import { DEFAULT_BD_METHOD } from '../engine/vocabulary';
+import { DEFAULT_BD_METHOD, type StructureKind } from '../engine/vocabulary';
 import { notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
 
@@ -51,8 +51,9 @@ export function createEvaluationResults(deps: { db: Database }) {
       db.repos.evaluations.curveOfRun(run.id, run.heldOutHash),
       baselineCurves(run.heldOutHash, run.normalized?.color ?? null),
     ]);
-    // The codecs' rate is their files' bytes, so the codebooks stand beside them on theirs: the actual rate.
-    const actual = rows.map((r) => ({ bpp: r.overall.bppActual, psnr: r.overall.psnr }));
+    // The codecs' rate is their files' bytes, so the codebooks stand beside them on theirs: the actual rate. The
+    // deltas are the full-search series' (a run's entropy-constrained codebooks form a curve of their own).
+    const actual = rows.filter((r) => r.structure === 'full').map((r) => ({ bpp: r.overall.bppActual, psnr: r.overall.psnr }));
     return {
       run: { id: run.id, name: run.name, state: run.state },
       heldOutHash: run.heldOutHash,
@@ -62,6 +63,8 @@ export function createEvaluationResults(deps: { db: Database }) {
         codebookId: r.codebookId,
         bits: r.bits,
         size: r.size,
+        structure: r.structure as StructureKind,
+        lambda: r.lambda,
         bppFixed: r.overall.bppFixed,
         bppEntropy: r.overall.bppEntropy,
         bppActual: r.overall.bppActual,

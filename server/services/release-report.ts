@@ -3,7 +3,7 @@ import type { CurvePoint, ReleaseReport } from '../contracts';
 import type { CodebookWithCodewords, Database } from '../db';
 import type { EvaluationRecord } from '../db/repositories/evaluations';
 import { encode, firmwareBundle, fixedPointCost, loadImage, psnrForJson, tileErrors, type Codebook, type PixelImage } from '../engine';
-import { DEFAULT_BD_METHOD } from '../engine/vocabulary';
+import { DEFAULT_BD_METHOD, type StructureKind } from '../engine/vocabulary';
 import { conflict, notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
 import { createComputeSlots } from './compute-slots';
@@ -26,11 +26,13 @@ type Computed = Pick<ReleaseReport, 'worstTiles' | 'decoderCost' | 'checksums'>;
 
 const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
 
-function pointOf(codebookId: number, bits: number, size: number, o: EvaluationRecord['overall']): CurvePoint {
+function pointOf(codebookId: number, bits: number, size: number, structure: StructureKind, lambda: number | null, o: EvaluationRecord['overall']): CurvePoint {
   return {
     codebookId,
     bits,
     size,
+    structure,
+    lambda,
     bppFixed: o.bppFixed,
     bppEntropy: o.bppEntropy,
     bppActual: o.bppActual,
@@ -113,8 +115,11 @@ export function createReleaseReportService(deps: {
 
   async function curveOf(codebook: CodebookWithCodewords, evaluation: EvaluationRecord): Promise<ReleaseReport['curve']> {
     const points = codebook.runId === null
-      ? [pointOf(codebook.id, codebook.bits, codebook.size, evaluation.overall)]
-      : (await db.repos.evaluations.curveOfRun(codebook.runId, evaluation.heldOutHash)).map((r) => pointOf(r.codebookId, r.bits, r.size, r.overall));
+      ? [pointOf(codebook.id, codebook.bits, codebook.size, codebook.structure, codebook.lambda, evaluation.overall)]
+      // The released codebook's own family: a λ sweep's curve for an entropy-constrained release, the sizes otherwise.
+      : (await db.repos.evaluations.curveOfRun(codebook.runId, evaluation.heldOutHash))
+        .filter((r) => r.structure === codebook.structure)
+        .map((r) => pointOf(r.codebookId, r.bits, r.size, r.structure as StructureKind, r.lambda, r.overall));
     const baselines: ReleaseReport['curve']['baselines'] = { jpeg: [], webp: [], avif: [] };
     for (const p of await db.repos.baselines.list(evaluation.heldOutHash, codebook.color)) {
       baselines[p.codec].push({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });

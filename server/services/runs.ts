@@ -114,6 +114,7 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
       maxIterations: body.maxIterations ?? DEFAULTS.maxIterations,
       maxVectors: body.maxVectors ?? DEFAULTS.maxVectors,
       seed: body.seed ?? DEFAULTS.seed,
+      ...(body.lambdas ? { lambdas: [...new Set(body.lambdas)] } : {}),
     };
     const memory = runTrainingMemory(cfg, training, deps.training);
     const usable = memory.vectors;
@@ -149,6 +150,8 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
         size: c.size,
         distortion: c.distortion,
         iterations: c.iterations,
+        structure: c.structure,
+        lambda: c.lambda,
         checksum: c.checksum,
       })),
     };

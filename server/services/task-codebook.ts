@@ -6,7 +6,7 @@ export type EvaluationTaskRunner = (task: EvaluateTask, signal?: AbortSignal) =>
 
 /** A stored codebook as the evaluation tasks take it. */
 export function toTaskCodebook(c: CodebookWithCodewords): TaskCodebook {
-  const meta = c.metadata as { training?: TaskCodebook['training']; preprocessing?: TaskCodebook['preprocessing'] };
+  const meta = c.metadata as { training?: TaskCodebook['training']; preprocessing?: TaskCodebook['preprocessing']; structure?: TaskCodebook['structure'] };
   return {
     size: c.size,
     dimension: c.dimension,
@@ -15,6 +15,7 @@ export function toTaskCodebook(c: CodebookWithCodewords): TaskCodebook {
     codewords: c.codewords,
     usage: c.usage,
     training: meta.training as TaskCodebook['training'],
+    ...(meta.structure ? { structure: meta.structure } : {}),
     checksum: c.checksum,
   };
 }

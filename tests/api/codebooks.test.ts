@@ -20,7 +20,7 @@ function handMade(size = 2, dimension = 4, scale = 1) {
   const codewords = Array.from({ length: size }, (_, k) => Array.from({ length: dimension }, (_, i) => Math.fround(((k * 37 + i * 11) % 256) / scale)));
   return {
     format: 'cellwright-codebook',
-    version: 1,
+    version: 2,
     bits: Math.ceil(Math.log2(size)),
     size,
     dimension,
@@ -29,6 +29,7 @@ function handMade(size = 2, dimension = 4, scale = 1) {
     codewords,
     usage: codewords.map(() => 3),
     training: { source: 'hand-made', vectorCount: size * 3, init: 'random', epsilon: 0, seed: null, iterations: 0, distortion: 0, trace: [] },
+    structure: { kind: 'full' } as Record<string, unknown>,
     checksum: checksumOf(codewords),
   };
 }
@@ -48,12 +49,42 @@ afterAll(async () => {
 describe('codebook import and export', () => {
   let id: number;
 
+  it('imports a revision 1 document as full search and exports it as revision 2', async () => {
+    const { structure: _none, ...v1 } = { ...handMade(4), version: 1 };
+    const res = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send(v1);
+    expect(res.status).toBe(201);
+    expect(res.body.codebook).toMatchObject({ structure: 'full', lambda: null });
+    const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${res.body.codebook.id}/export`).set(bearer(team.engineer));
+    expect(exported.body).toEqual({ ...v1, version: 2, structure: { kind: 'full' } });
+  });
+
+  it('imports an entropy-constrained document, lists its structure and λ, and exports it back', async () => {
+    const doc = { ...handMade(4), structure: { kind: 'entropy-constrained', lambda: 120.5, codeLengths: [1, 2, 3, 3] } };
+    const res = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send(doc);
+    expect(res.status).toBe(201);
+    expect(res.body.codebook).toMatchObject({ structure: 'entropy-constrained', lambda: 120.5 });
+    const list = await request(t.app).get(`/api/teams/${team.teamId}/codebooks`).set(bearer(team.viewer));
+    expect(list.body.codebooks.find((c: { id: number }) => c.id === res.body.codebook.id)).toMatchObject({ structure: 'entropy-constrained', lambda: 120.5 });
+    const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${res.body.codebook.id}/export`).set(bearer(team.engineer));
+    expect(exported.body).toEqual(doc);
+  });
+
+  it('refuses Huffman lengths that break Kraft\'s inequality with 400 and stores nothing', async () => {
+    const before = await importedCount();
+    // 2^−1 + 2^−1 + 2^−2 + 2^−3 > 1 (Cover & Thomas, Elements of Information Theory, Thm 5.2.1).
+    const doc = { ...handMade(4), structure: { kind: 'entropy-constrained', lambda: 1, codeLengths: [1, 1, 2, 3] } };
+    const res = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send(doc);
+    expect(res.status).toBe(400);
+    expect(res.body.error.message).toMatch(/structure\.codeLengths: the lengths over-subscribe the code space/);
+    expect(await importedCount()).toBe(before);
+  });
+
   it('imports a hand-written document and exports the same document back', async () => {
     const doc = handMade();
     const res = await request(t.app).post(importUrl()).set(bearer(team.engineer)).send(doc);
     expect(res.status).toBe(201);
     id = res.body.codebook.id;
-    expect(res.body.codebook).toMatchObject({ source: 'imported', origin: 'imported', name: 'hand-made', bits: 1, size: 2, checksum: doc.checksum, cellDistortion: null });
+    expect(res.body.codebook).toMatchObject({ source: 'imported', origin: 'imported', name: 'hand-made', bits: 1, size: 2, checksum: doc.checksum, cellDistortion: null, structure: 'full', lambda: null });
     expect(res.body.codebook.codewords).toEqual(doc.codewords);
 
     const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${id}/export`).set(bearer(team.engineer));

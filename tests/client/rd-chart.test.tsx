@@ -15,6 +15,8 @@ const curve: RunCurve = {
     codebookId: 100 + bits,
     bits,
     size: 2 ** bits,
+    structure: 'full' as const,
+    lambda: null,
     bppFixed: bits / 16,
     bppEntropy: (bits - 0.3) / 16,
     bppActual: (bits + 0.4) / 16,

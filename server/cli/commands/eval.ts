@@ -14,8 +14,10 @@ export const EVAL_HELP = `Usage: cellwright eval --codebook CODEBOOK.json (--vec
 
 Measures rate and distortion of a codebook on held-out data.
   images:  MSE per pixel component and PSNR (10·log10(255²/MSE)) of the decoded 8-bit image, SSIM (Wang et al. 2004,
-           on luma), and rates in bits per pixel: fixed ((ceil(log2 K) + mean bits) / patch pixels), entropy (empirical
-           entropy of the indices and means over the set) and actual (coded file bytes × 8 / pixels).
+           on luma), and rates in bits per pixel: fixed ((index bits + mean bits) / patch pixels; index bits ceil(log2 K),
+           or Σ stage bits for residual stages, the longest path for a tree), entropy (empirical entropy of the
+           indices, per stage for residual stages, and means over the set) and actual (coded file bytes × 8 / pixels:
+           for an entropy-constrained codebook, its Huffman code's length on the images, plus the file's header).
   vectors: MSE per component of the unrounded reconstruction and the fixed and entropy rates (per pixel of the codebook's
            patch; per component when it has none).
   --csv FILE.csv   also write the per-image figures, one row per image, with the columns of the studio's per-image
@@ -32,11 +34,17 @@ const SPEC: OptionSpec = {
   csv: { type: 'string' },
 };
 
+/** The codebook's structure kind, and λ for an entropy-constrained one. */
+function structureFields(book: Codebook): { structure: string; lambda?: number } {
+  return book.structure.kind === 'entropy-constrained' ? { structure: book.structure.kind, lambda: book.structure.lambda } : { structure: book.structure.kind };
+}
+
 export function imageReportJson(book: Codebook, report: ImageSetEvaluation) {
   const o = report.overall;
   return {
     command: 'eval',
     input: 'images',
+    ...structureFields(book),
     bits: book.bits,
     size: book.size,
     dimension: book.dimension,
@@ -54,6 +62,7 @@ export function vectorReportJson(book: Codebook, report: VectorSetEvaluation) {
   return {
     command: 'eval',
     input: 'vectors',
+    ...structureFields(book),
     bits: book.bits,
     size: book.size,
     dimension: book.dimension,

@@ -10,6 +10,7 @@ import { loadImageFolder, trainingVectorsFromFolder } from '../inputs';
 import { progressBar } from '../progress';
 import { fmt, table } from '../text-output';
 import { aliased, imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
+import { structureOptionSpec, structurePlan, trainStructured } from '../structure-training';
 
 export const SWEEP_HELP = `Usage: cellwright sweep --images TRAIN_DIR --held-out DIR --patch WxH --bits A..B --out CURVE.csv [options]
 
@@ -20,6 +21,8 @@ and writes the rate–distortion curve as CSV.
   --held-out DIR        the held-out images (--heldout DIR is the same option, its older name)
   --baseline LIST       comma-separated jpeg, webp, avif (avif only where this build encodes it)
   --qualities LIST      codec qualities to sweep (default ${DEFAULT_QUALITIES.join(',')})
+  --lambda LIST         entropy-constrained codebooks instead, one per λ, from the 2^B-codeword codebook (give --bits B,
+                        one size); as for "cellwright train"
   --color, --stride, --mean-bits, --vector-cap, --init, --epsilon, --max-iterations, --seed, --threads
                         as for "cellwright train"
 CSV columns, those of the studio's curve download (RFC 4180: comma-separated, CRLF line ends):
@@ -38,6 +41,7 @@ const SPEC: OptionSpec = {
   qualities: { type: 'string' },
   ...imageOptionSpec,
   ...trainingOptionSpec,
+  ...structureOptionSpec,
   out: { type: 'string' },
 };
 
@@ -52,6 +56,10 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   const out = requiredString(values, 'out', 'sweep');
   const range = rangeOption(values, 'bits', { min: 0, max: MAX_BITS });
   if (!range) throw new CliUsageError('"cellwright sweep" needs --bits A..B');
+  const plan = structurePlan(values, range[1]);
+  if (plan.structure === 'full' && plan.lambdas !== null && range[0] !== range[1]) {
+    throw new CliUsageError('--lambda draws its curve from one starting size: give --bits B, not a range');
+  }
   const img = imageSettings(values);
   if (!img.patch) throw new CliUsageError('"cellwright sweep" needs --patch WxH');
   const settings = trainingSettings(values);
@@ -77,7 +85,9 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   const books: Codebook[] = [];
   try {
     const common = { ...settings, signal: ctx.signal, patch, preprocessing: img.preprocessing, source: trainDir, stride: img.stride, sample: img.sample };
-    if (trainsEverySize(settings.init)) {
+    if (plan.structure !== 'full' || plan.lambdas !== null) {
+      books.push(...(await trainStructured(plan, vectors, dimension, { ...common, bits: hi }, (d, t, lambda) => bar.update(d / t, `λ=${lambda}`))));
+    } else if (trainsEverySize(settings.init)) {
       // One LBG pass to 2^B yields every smaller power of two on the way.
       const all = await trainCodebooks(vectors, dimension, { ...common, bits: hi, onProgress: (p) => bar.update(p.fraction, `K=${p.size}`) });
       books.push(...all.filter((b) => b.bits >= lo));
@@ -98,7 +108,8 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
     for (const [i, book] of books.entries()) {
       const r = (await evaluate(book, heldout, { threads: settings.threads, signal: ctx.signal })).overall;
       rows.push({ codec: 'vq', codebook: null, bits: book.bits, codebookSize: book.size, quality: null, bppFixed: r.bppFixed, bppEntropy: r.bppEntropy, bppActual: r.bppActual, mse: r.mse, psnr: r.psnr, ssim: r.ssim });
-      shown.push([`vq K=${book.size}`, fmt.bpp(r.bppFixed), fmt.bpp(r.bppEntropy), fmt.bpp(r.bppActual), fmt.mse(r.mse), fmt.psnr(r.psnr), fmt.ssim(r.ssim)]);
+      const label = book.structure.kind === 'entropy-constrained' ? `ecvq λ=${book.structure.lambda} K=${book.size}` : `vq K=${book.size}`;
+      shown.push([label, fmt.bpp(r.bppFixed), fmt.bpp(r.bppEntropy), fmt.bpp(r.bppActual), fmt.mse(r.mse), fmt.psnr(r.psnr), fmt.ssim(r.ssim)]);
       evalBar.update((i + 1) / books.length, `K=${book.size}`);
     }
     if (codecs.length > 0) {

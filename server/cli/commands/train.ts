@@ -1,7 +1,8 @@
 import {
-  BITS, COLOR_MODES, EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, type InitMethod, serializeCodebook, trainCodebooks, type Codebook, type PatchInfo,
-  type PreprocessingInfo,
+  BITS, COLOR_MODES, EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, type InitMethod,
+  serializeCodebook, type Codebook, type PatchInfo, type PreprocessingInfo,
 } from '../../engine';
+import { huffmanFigures, lambdaOutPath, structureOptionSpec, structurePlan, trainStructured } from '../structure-training';
 import { choiceOption, intOption, numberOption, parseOptions, requiredString, stringOption, type OptionSpec, type ParsedOptions } from '../args';
 import { CliUsageError } from '../cli-error';
 import type { CliContext } from '../context';
@@ -12,7 +13,8 @@ import { fmt, jsonLine, table } from '../text-output';
 
 export const TRAIN_HELP = `Usage: cellwright train (--vectors FILE.npy | --images DIR --patch WxH) --bits B --out CODEBOOK.json [options]
 
-Trains a codebook of 2^B codewords with the generalised Lloyd algorithm and writes it as codebook JSON.
+Trains a codebook of 2^B codewords with the generalised Lloyd algorithm and writes it as codebook JSON; with
+--lambda, entropy-constrained codebooks from it, one per λ.
 
 Input (one of):
   --vectors FILE.npy    training vectors, a float32/float64 little-endian C-order .npy array (N × d; 1-D is N × 1)
@@ -34,8 +36,13 @@ Training:
                         codebook size, ${ITERATIONS.min}..${ITERATIONS.max} (default ${RUN_DEFAULTS.maxIterations}); --max-iter N is the same option, its older name
   --seed N              random seed, ${SEED.min}..${SEED.max} (default ${RUN_DEFAULTS.seed})
   --threads N           worker threads (default: all cores the engine may use)
+Entropy-constrained VQ (Chou, Lookabaugh & Gray 1989):
+  --lambda LIST         λ values, ${LAMBDA.min}..${LAMBDA.max}: comma-separated (50,200,800) or A..B:N, N values evenly spaced in
+                        log λ; at most ${MAX_LAMBDAS}. Each trains from the 2^B-codeword codebook, minimising squared error + λ·bits
+                        per vector, drops the cells that empty out (larger λ: fewer codewords, lower rate), and stores the
+                        canonical Huffman code (lengths ≤ 16 bits) of its training usage; encode writes indices in that code
 Output:
-  --out FILE            codebook JSON to write (written atomically)
+  --out FILE            codebook JSON to write (written atomically); with several λ values, FILE.lambda-<λ>.json each
   --json                print one JSON object with the result on stdout
 `;
 
@@ -66,6 +73,7 @@ const SPEC: OptionSpec = {
   bits: { type: 'string' },
   ...imageOptionSpec,
   ...trainingOptionSpec,
+  ...structureOptionSpec,
   out: { type: 'string' },
   json: { type: 'boolean' },
 };
@@ -119,6 +127,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
   const bits = intOption(values, 'bits', BITS);
   if (bits === undefined) throw new CliUsageError('"cellwright train" needs --bits');
   const out = requiredString(values, 'out', 'train');
+  const plan = structurePlan(values, bits);
   const settings = trainingSettings(values);
   const img = imageSettings(values);
   await checkOutputFolder(out);
@@ -163,19 +172,29 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
   const bar = progressBar(ctx, 'training');
   let codebooks: Codebook[];
   try {
-    codebooks = await trainCodebooks(vectors, dimension, {
-      bits,
-      ...settings,
-      signal: ctx.signal,
-      patch,
-      preprocessing: vectorsPath !== undefined ? { kind: 'none' } : img.preprocessing,
-      source,
-      stride: img.stride,
-      sample: img.sample,
-      onProgress: (p) => bar.update(p.fraction, `K=${p.size} it ${p.iteration} D=${p.distortion.toPrecision(5)}`),
-    });
+    codebooks = await trainStructured(
+      plan,
+      vectors,
+      dimension,
+      {
+        bits,
+        ...settings,
+        signal: ctx.signal,
+        patch,
+        preprocessing: vectorsPath !== undefined ? { kind: 'none' } : img.preprocessing,
+        source,
+        stride: img.stride,
+        sample: img.sample,
+        onProgress: (p) => bar.update(p.fraction, `K=${p.size} it ${p.iteration} D=${p.distortion.toPrecision(5)}`),
+      },
+      (done, total, lambda) => bar.update(done / total, `λ=${lambda} (${done}/${total})`),
+    );
   } finally {
     bar.done();
+  }
+  if (plan.structure === 'full' && plan.lambdas !== null) {
+    await writeLambdaBooks(ctx, codebooks, out, Date.now() - started, values.json === true);
+    return;
   }
   const book = codebooks[codebooks.length - 1];
   await writeOutputsAtomically([{ path: out, data: serializeCodebook(book) }]);
@@ -197,6 +216,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
         epsilon: book.training.epsilon,
         patch: book.patch,
         preprocessing: book.preprocessing,
+        structure: book.structure.kind,
         checksum: book.checksum,
         elapsedMs,
         sizes: codebooks.map((c) => ({ size: c.size, iterations: c.training.iterations, distortion: c.training.distortion })),
@@ -211,5 +231,30 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
         codebooks.map((c) => [c.size, c.training.iterations, fmt.mse(c.training.distortion)]),
       ) +
       `wrote ${out}\n`,
+  );
+}
+
+/** Writes one entropy-constrained codebook per λ (one file, or FILE.lambda-<λ>.json each) and reports their figures. */
+async function writeLambdaBooks(ctx: CliContext, books: Codebook[], out: string, elapsedMs: number, json: boolean): Promise<void> {
+  const rows = books.map((book) => {
+    const h = huffmanFigures(book)!;
+    return { book, path: books.length === 1 ? out : lambdaOutPath(out, h.lambda), ...h };
+  });
+  await writeOutputsAtomically(rows.map((r) => ({ path: r.path, data: serializeCodebook(r.book) })));
+  if (json) {
+    const codebooks = rows.map((r) => ({
+      out: r.path, lambda: r.lambda, size: r.book.size, iterations: r.book.training.iterations, distortion: r.book.training.distortion,
+      indexEntropy: r.entropy, huffmanBits: r.huffmanBits, maxCodeLength: Math.max(...(r.book.structure.kind === 'entropy-constrained' ? r.book.structure.codeLengths : [0])), checksum: r.book.checksum,
+    }));
+    ctx.stdout.write(jsonLine({ command: 'train', structure: 'entropy-constrained', vectorCount: books[0].training.vectorCount, dimension: books[0].dimension, elapsedMs, codebooks }));
+    return;
+  }
+  ctx.stdout.write(
+    `trained ${books.length} entropy-constrained codebook${books.length > 1 ? 's' : ''} of dimension ${books[0].dimension} on ${books[0].training.vectorCount} vectors (${(elapsedMs / 1000).toFixed(1)} s)\n` +
+      table(
+        ['λ', 'size', 'iterations', 'MSE/component', 'entropy bits/vector', 'Huffman bits/vector'],
+        rows.map((r) => [r.lambda, r.book.size, r.book.training.iterations, fmt.mse(r.book.training.distortion), r.entropy.toFixed(4), r.huffmanBits.toFixed(4)]),
+      ) +
+      `wrote ${rows.map((r) => r.path).join(', ')}\n`,
   );
 }

@@ -1,3 +1,4 @@
+import type { StructureKind } from '../../engine/vocabulary';
 import { iso, parseJson } from '../rows';
 import { insertedId, type Executor } from './executor';
 
@@ -50,6 +51,9 @@ export interface CodebookSummaryRecord {
   channels: 1 | 3;
   color: 'luma' | 'rgb';
   meanBits: number;
+  /** The structure's kind (the document's structure.kind; full for revision 1), and λ when entropy-constrained. */
+  structure: StructureKind;
+  lambda: number | null;
   checksum: string;
   /** training.distortion: MSE per vector component on the training vectors. */
   distortion: number;
@@ -85,6 +89,8 @@ interface CodebookRow {
   channels: number;
   color: 'luma' | 'rgb';
   mean_bits: number;
+  structure: StructureKind;
+  lambda: number | null;
   checksum: string;
   distortion: number;
   iterations: number;
@@ -117,7 +123,7 @@ export function bytesToCodewords(bytes: Buffer): Float32Array {
 // Only what a list shows: never metadata (training source), usage, cell distortion, trace or codewords.
 const summaryColumns = [
   'c.id', 'c.team_id', 'c.run_id', 'r.name as run_name', 'c.name', 'c.source', 'c.bits', 'c.size', 'c.dimension',
-  'c.patch_width', 'c.patch_height', 'c.channels', 'c.color', 'c.mean_bits', 'c.checksum', 'c.distortion', 'c.iterations',
+  'c.patch_width', 'c.patch_height', 'c.channels', 'c.color', 'c.mean_bits', 'c.structure', 'c.lambda', 'c.checksum', 'c.distortion', 'c.iterations',
   'c.created_at',
 ];
 const fullColumns = [...summaryColumns, 'c.usage', 'c.cell_distortion', 'c.trace', 'c.metadata', 'c.codewords'];
@@ -136,6 +142,8 @@ const toSummaryRecord = (r: CodebookRow): CodebookSummaryRecord => ({
   channels: r.channels === 3 ? 3 : 1,
   color: r.color,
   meanBits: r.mean_bits,
+  structure: r.structure,
+  lambda: r.lambda,
   checksum: r.checksum,
   distortion: r.distortion,
   iterations: r.iterations,
@@ -167,6 +175,13 @@ function toFullRecord(r: FullCodebookRow): CodebookWithCodewords {
   };
 }
 
+/** The document's structure kind and λ (a revision 1 document has no structure: full search). */
+function structureIn(metadata: Record<string, unknown>): { structure: string; lambda: number | null } {
+  const s = metadata.structure as { kind?: unknown; lambda?: unknown } | undefined;
+  const kind = typeof s?.kind === 'string' ? s.kind : 'full';
+  return { structure: kind, lambda: typeof s?.lambda === 'number' ? s.lambda : null };
+}
+
 const numberIn = (metadata: Record<string, unknown>, key: 'distortion' | 'iterations'): number => {
   const value = (metadata.training as Training | undefined)?.[key];
   if (typeof value !== 'number' || !Number.isFinite(value)) throw new Error(`codebook metadata has no finite training.${key}`);
@@ -192,6 +207,7 @@ export function codebooksRepository(db: Executor) {
           channels: c.channels,
           color: c.color,
           mean_bits: c.meanBits,
+          ...structureIn(c.metadata),
           codewords: codewordsToBytes(c.codewords),
           usage: JSON.stringify(c.usage),
           cell_distortion: c.cellDistortion ? JSON.stringify(c.cellDistortion) : null,

@@ -32,6 +32,9 @@ export interface RunCurveRow {
   codebookId: number;
   bits: number;
   size: number;
+  /** The codebook's structure kind (codebooks.structure) and λ when entropy-constrained. */
+  structure: string;
+  lambda: number | null;
   overall: EvaluationOverall;
 }
 
@@ -132,8 +135,8 @@ export function evaluationsRepository(db: Executor) {
         .join('codebooks as c', 'c.id', 'e.codebook_id')
         .where({ 'c.run_id': runId, 'e.held_out_hash': heldOutHash })
         .orderBy('c.size')
-        .select('c.id as codebook_id', 'c.bits', 'c.size', 'e.overall')) as { codebook_id: number; bits: number; size: number; overall: unknown }[];
-      return rows.map((r) => ({ codebookId: r.codebook_id, bits: r.bits, size: r.size, overall: parseJson<EvaluationOverall>(r.overall)! }));
+        .select('c.id as codebook_id', 'c.bits', 'c.size', 'c.structure', 'c.lambda', 'e.overall')) as { codebook_id: number; bits: number; size: number; structure: string; lambda: number | null; overall: unknown }[];
+      return rows.map((r) => ({ codebookId: r.codebook_id, bits: r.bits, size: r.size, structure: r.structure, lambda: r.lambda, overall: parseJson<EvaluationOverall>(r.overall)! }));
     },
 
     /** Per-image rows of every codebook of the run on `heldOutHash`: by codebook size, then image id. */

@@ -131,6 +131,10 @@ ${pixelRule}
 export function buildFirmwareBundle(codebook: Codebook, residualWidth: ResidualWidth = 'int16'): FirmwareBundle {
   const patch = codebook.patch;
   if (!patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook was trained on raw vectors and has no patch geometry, so no image decoder can be built for it');
+  // The reference decoder reads fixed-length indices (container versions 1 and 2) only.
+  if (codebook.structure.kind !== 'full') {
+    throw new EngineInputError('ENGINE_UNSUPPORTED', `the C export decodes full-search codebooks (fixed-length indices); this codebook is ${codebook.structure.kind}`);
+  }
   const table = fixedPointTable(codebook, residualWidth);
   const files: BundleFile[] = [
     { name: 'README.md', text: readme(codebook, patch, table) },

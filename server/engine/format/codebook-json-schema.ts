@@ -10,7 +10,7 @@ import { codebookDocumentSchema } from './codebook-schema';
  */
 export function codebookJsonSchemaText(): string {
   const schema = z.toJSONSchema(codebookDocumentSchema, { target: 'draft-2020-12', io: 'input' });
-  return `${JSON.stringify({ title: 'Cellwright codebook, version 1', ...schema }, null, 2)}\n`;
+  return `${JSON.stringify({ title: 'Cellwright codebook, revision 2 (reads revision 1)', ...schema }, null, 2)}\n`;
 }
 
 export const CODEBOOK_JSON_SCHEMA_PATH = fileURLToPath(new URL('./codebook.schema.json', import.meta.url));

@@ -1,17 +1,24 @@
 import { z } from 'zod';
 import { EngineInputError } from '../input-error';
 import { codewordChecksum } from './checksum';
-import { COLOR_MODES, initMethodSchema, MEAN_BITS } from '../vocabulary';
+import { COLOR_MODES, initMethodSchema, LAMBDA, MEAN_BITS, M_BEST, STAGES } from '../vocabulary';
 import { FLOAT32_ROUNDING_LIMIT, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH, maxTraceLength } from './limits';
 import { indexBits } from './rate-bits';
+import { MAX_CODE_LENGTH } from '../core/huffman';
+import type { CodebookStructure } from '../structures/types';
+import { structureProblems } from './structure-check';
 
 /**
- * The codebook export format ("cellwright-codebook", version 1). This zod schema is its single definition;
+ * The codebook export format ("cellwright-codebook", revision 2: revision 1 plus `structure`; a revision 1 document
+ * reads as a full-search codebook). This zod schema is its single definition;
  * codebook.schema.json beside it is generated from it (codebook-json-schema.ts) and checked by a test.
  * Codewords are float32 values written as the shortest decimal that reads back to the same float32.
  */
 export const CODEBOOK_FORMAT = 'cellwright-codebook';
-export const CODEBOOK_VERSION = 1;
+/** The revision this build writes. */
+export const CODEBOOK_VERSION = 2;
+/** Every revision this build reads. */
+export const CODEBOOK_VERSIONS = [1, 2] as const;
 export { FLOAT32_MAX, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, MAX_TRACE_LENGTH } from './limits';
 
 const finite = () => z.number({ error: 'expected a finite number' });
@@ -77,10 +84,55 @@ export const trainingSchema = z.strictObject({
   maxIterations: integer(0, MAX_ITERATIONS).optional(),
 });
 
+/**
+ * How the table is searched and its indices coded (structures/types.ts, the shared in-memory shape), as JSON arrays.
+ * Cross-field rules (one length per codeword, Kraft, a proper tree, stage sizes) are checked in structure-check.ts.
+ */
+export const structureSchema = z.discriminatedUnion(
+  'kind',
+  [
+    z.strictObject({ kind: z.literal('full') }).describe('full search; index = ceil(log2 size) bits'),
+    z
+      .strictObject({
+        kind: z.literal('entropy-constrained'),
+        lambda: finite().min(LAMBDA.min, { error: `expected a number ≥ ${LAMBDA.min}` }).max(LAMBDA.max, { error: `expected a number ≤ ${LAMBDA.max}` }).describe('λ: squared error per vector traded for one index bit'),
+        codeLengths: z.array(integer(1, MAX_CODE_LENGTH), { error: 'expected an array of code lengths' }).describe(`canonical Huffman code length of each codeword, 1..${MAX_CODE_LENGTH} bits`),
+      })
+      .describe('full search minimising squared error + λ·length; indices coded with the canonical Huffman code of these lengths'),
+    z
+      .strictObject({
+        kind: z.literal('tree'),
+        balanced: z.boolean({ error: 'expected true or false' }).describe('every leaf at the same depth b: paths are b bits'),
+        children: z.array(integer(-1, MAX_SIZE - 1), { error: 'expected an array of node numbers' }).describe('2 entries per node (left, right), −1 for a leaf; node 0 the root, nodes in breadth-first order'),
+      })
+      .describe('binary tree over the table (every node has a codeword); the index is the path from the root, 0 = left'),
+    z
+      .strictObject({
+        kind: z.literal('residual'),
+        bits: z
+          .array(integer(1, MAX_BITS), { error: 'expected an array of stage bits' })
+          .min(STAGES.min, { error: `expected at least ${STAGES.min} stage` })
+          .max(STAGES.max, { error: `expected at most ${STAGES.max} stages` })
+          .describe('bits of each stage; stage s has 2^bits[s] codewords, stored one stage after another'),
+        search: z.discriminatedUnion(
+          'kind',
+          [
+            z.strictObject({ kind: z.literal('greedy') }),
+            z.strictObject({ kind: z.literal('m-best'), m: integer(M_BEST.min, M_BEST.max) }),
+          ],
+          { error: `expected {"kind":"greedy"} or {"kind":"m-best","m":${M_BEST.min}..${M_BEST.max}}` },
+        ),
+      })
+      .describe('residual stages; a block is the sum of one codeword per stage, its index the stage indices'),
+  ],
+  { error: 'expected a structure of kind "full", "entropy-constrained", "tree" or "residual"' },
+);
+export type StructureInfo = z.infer<typeof structureSchema>;
+
 export const codebookDocumentSchema = z
   .strictObject({
     format: z.literal(CODEBOOK_FORMAT, { error: `expected "${CODEBOOK_FORMAT}"` }),
-    version: z.literal(CODEBOOK_VERSION, { error: `expected ${CODEBOOK_VERSION}` }),
+    version: z.union(CODEBOOK_VERSIONS.map((v) => z.literal(v)), { error: `expected ${CODEBOOK_VERSIONS.join(' or ')}` }),
     bits: integer(0, MAX_BITS).describe('fixed-length index bits, ceil(log2 size)'),
     size: integer(1, MAX_SIZE).describe('number of codewords K'),
     dimension: integer(1).describe('components per codeword'),
@@ -89,12 +141,16 @@ export const codebookDocumentSchema = z
     codewords: z.array(z.array(float32(), { error: 'expected an array of numbers' }), { error: 'expected an array of codewords' }),
     usage: z.array(integer(0), { error: 'expected an array of counts' }).describe('training vectors per cell'),
     training: trainingSchema,
+    structure: structureSchema.optional().describe('required from revision 2; absent in revision 1, which is full search'),
     checksum: z
       .string({ error: 'expected a string' })
       .regex(/^[0-9a-f]{64}$/, { error: 'expected 64 lowercase hex digits' })
       .describe('SHA-256 of the codewords as float32 little-endian bytes, row-major'),
   })
   .superRefine((doc, ctx) => {
+    if (doc.version === 1 && doc.structure !== undefined) ctx.addIssue({ code: 'custom', path: ['structure'], message: 'revision 1 has no structure member (write version 2)' });
+    if (doc.version >= 2 && doc.structure === undefined) ctx.addIssue({ code: 'custom', path: ['structure'], message: `expected a structure (revision ${doc.version})` });
+    if (doc.structure) for (const p of structureProblems(doc.structure, doc.size)) ctx.addIssue({ code: 'custom', path: ['structure', ...p.path], message: p.message });
     if (doc.bits !== indexBits(doc.size)) {
       ctx.addIssue({ code: 'custom', path: ['bits'], message: `expected ${indexBits(doc.size)} (ceil(log2 ${doc.size}))` });
     }
@@ -133,7 +189,25 @@ export interface Codebook {
   codewords: Float32Array; // size × dimension, row-major
   usage: Uint32Array; // size
   training: TrainingInfo;
+  /** How the table is searched and its indices coded; `{ kind: 'full' }` for every revision 1 document. */
+  structure: CodebookStructure;
   checksum: string;
+}
+
+/** The in-memory structure (typed arrays) of its JSON form. */
+export function structureFromInfo(info: StructureInfo | undefined): CodebookStructure {
+  if (!info || info.kind === 'full') return { kind: 'full' };
+  if (info.kind === 'entropy-constrained') return { kind: info.kind, lambda: info.lambda, codeLengths: Uint8Array.from(info.codeLengths) };
+  if (info.kind === 'tree') return { kind: 'tree', balanced: info.balanced, children: Int32Array.from(info.children) };
+  return { kind: 'residual', bits: [...info.bits], search: info.search.kind === 'greedy' ? { kind: 'greedy' } : { kind: 'm-best', m: info.search.m } };
+}
+
+/** The JSON form of a structure (members in a fixed order). */
+export function structureInfo(structure: CodebookStructure): StructureInfo {
+  if (structure.kind === 'full') return { kind: 'full' };
+  if (structure.kind === 'entropy-constrained') return { kind: structure.kind, lambda: structure.lambda, codeLengths: Array.from(structure.codeLengths) };
+  if (structure.kind === 'tree') return { kind: 'tree', balanced: structure.balanced, children: Array.from(structure.children) };
+  return { kind: 'residual', bits: [...structure.bits], search: structure.search.kind === 'greedy' ? { kind: 'greedy' } : { kind: 'm-best', m: structure.search.m } };
 }
 
 /** `codewords[3][7]` style path of a zod issue. */
@@ -170,6 +244,7 @@ export function parseCodebook(value: unknown, what = 'codebook'): Codebook {
     codewords,
     usage: Uint32Array.from(doc.usage),
     training: doc.training,
+    structure: structureFromInfo(doc.structure),
     checksum: doc.checksum,
   };
 }
@@ -221,6 +296,7 @@ export function toCodebookDocument(codebook: Codebook, { exact = true } = {}): C
     codewords: rows,
     usage: Array.from(codebook.usage),
     training: codebook.training,
+    structure: structureInfo(codebook.structure),
     checksum: codebook.checksum,
   };
 }
@@ -249,10 +325,10 @@ export function serializeCodebook(codebook: Codebook): string {
 }
 
 /** Builds an in-memory codebook, computing bits and checksum, and validates it through the same schema as a parsed file. */
-export function makeCodebook(fields: Omit<Codebook, 'bits' | 'checksum'>): Codebook {
+export function makeCodebook(fields: Omit<Codebook, 'bits' | 'checksum' | 'structure'> & { structure?: CodebookStructure }): Codebook {
   // −0 becomes +0: JSON writes both as 0, and the checksum must describe the codewords a reader will see.
   const codewords = fields.codewords.map((v) => (v === 0 ? 0 : v));
-  const codebook: Codebook = { ...fields, codewords, bits: indexBits(fields.size), checksum: codewordChecksum(codewords) };
+  const codebook: Codebook = { ...fields, structure: fields.structure ?? { kind: 'full' }, codewords, bits: indexBits(fields.size), checksum: codewordChecksum(codewords) };
   const parsed = codebookDocumentSchema.safeParse(toCodebookDocument(codebook, { exact: false }));
   if (!parsed.success) throw toEngineError(parsed.error, 'codebook');
   return codebook;

@@ -1,9 +1,10 @@
-import { assign } from '../training';
 import { EngineInputError } from '../input-error';
 import type { Codebook } from './codebook-schema';
 import type { PixelImage } from '../io/image';
 import { blockGrid, tile, untile } from '../io/patches';
 import { meanLevel, removeMeans } from '../io/mean-removal';
+import { indicesPerBlock, searchStructure } from './structure-search';
+import { stageOffsets } from './structure-check';
 
 /** An image coded against a codebook: one index per block (raster order of blocks) and, when mean-removed, one mean code per block. */
 export interface EncodedImage {
@@ -11,7 +12,8 @@ export interface EncodedImage {
   height: number;
   blocksX: number;
   blocksY: number;
-  indices: Uint32Array; // blocksX·blocksY
+  /** blocksX·blocksY table indices (a tree's: the leaf's node), or blocksX·blocksY × S for residual (structure-search.ts) */
+  indices: Uint32Array;
   meanCodes: Uint8Array | null; // blocksX·blocksY, or null without mean removal
 }
 
@@ -32,7 +34,8 @@ export function checkImageMatchesCodebook(codebook: Codebook, image: PixelImage)
 
 /**
  * Vector-quantizes an image: tile into blocks, remove quantized block means when the codebook is mean-removed,
- * and pick each block's nearest codeword (exact squared error; ties to the lowest index, as the core guarantees).
+ * and search the codebook as its structure says (structure-search.ts: full search picks the nearest codeword, exact
+ * squared error, ties to the lowest index).
  * @returns the coded image plus `distances`, the squared error of each block's (residual) vector to its codeword
  */
 export async function encodeImage(codebook: Codebook, image: PixelImage, options: EncodeOptions = {}): Promise<EncodedImage & { distances: Float64Array }> {
@@ -43,13 +46,49 @@ export async function encodeImage(codebook: Codebook, image: PixelImage, options
   }
   const meanCodes =
     codebook.preprocessing.kind === 'mean-removed' ? removeMeans(tiled.vectors, tiled.dimension, codebook.preprocessing.meanBits) : null;
-  const { indices, distances } = await assign(tiled.vectors, tiled.dimension, codebook.codewords, { threads: options.threads, signal: options.signal });
+  const { indices, distances } = await searchStructure(codebook, tiled.vectors, tiled.dimension, { threads: options.threads, signal: options.signal });
   return { width: image.width, height: image.height, blocksX: tiled.blocksX, blocksY: tiled.blocksY, indices, meanCodes, distances };
 }
 
 /**
- * Decoder: codeword (+ mean level), clamped to 0..255 and rounded half up, blocks written back and the padding cropped.
- * This is the only function that turns indices into pixels, so eval, encode and decode all see the same image.
+ * Which table entries a block may name, per structure: any codeword (full, entropy-constrained), a leaf (tree), or
+ * per stage one codeword of that stage (residual).
+ * @returns per stage (one entry unless residual): [first, end) table range and, for a tree, the leaf flags
+ */
+function allowedEntries(codebook: Codebook): { ranges: [number, number][]; leaf: Uint8Array | null } {
+  const s = codebook.structure;
+  if (s.kind === 'residual') {
+    const { offsets } = stageOffsets(s.bits);
+    return { ranges: s.bits.map((b, i) => [offsets[i], offsets[i] + 2 ** b]), leaf: null };
+  }
+  if (s.kind === 'tree') {
+    const leaf = new Uint8Array(codebook.size);
+    for (let n = 0; n < codebook.size; n += 1) leaf[n] = s.children[2 * n] === -1 ? 1 : 0;
+    return { ranges: [[0, codebook.size]], leaf };
+  }
+  return { ranges: [[0, codebook.size]], leaf: null };
+}
+
+/**
+ * Checks every index of a coded image against the codebook's structure; the message names the first bad block.
+ * @param indices blocks × indicesPerBlock(codebook)
+ */
+export function checkCodedIndices(codebook: Codebook, indices: Uint32Array, fail: (message: string) => never): void {
+  const { ranges, leaf } = allowedEntries(codebook);
+  const per = ranges.length;
+  for (let i = 0; i < indices.length; i += 1) {
+    const [lo, hi] = ranges[i % per];
+    const j = indices[i];
+    const block = Math.floor(i / per);
+    if (j < lo || j >= hi) fail(per > 1 ? `block ${block} stage ${i % per} refers to codeword ${j}, the stage holds ${lo}..${hi - 1}` : `block ${block} refers to codeword ${j}, codebook has ${codebook.size}`);
+    if (leaf && !leaf[j]) fail(`block ${block} refers to node ${j}, which is not a leaf of the tree`);
+  }
+}
+
+/**
+ * Decoder: the block's codeword (residual: the sum of its stage codewords, in stage order, in float64) plus the mean
+ * level, clamped to 0..255 and rounded half up, blocks written back and the padding cropped. Table lookup for every
+ * structure. This is the only function that turns indices into pixels, so eval, encode and decode all see the same image.
  * @returns height × width × channels, 8-bit
  */
 export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Array {
@@ -57,21 +96,36 @@ export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Arr
   if (!patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook has no patch geometry, so it cannot reconstruct images');
   const grid = blockGrid(encoded.width, encoded.height, patch);
   const blocks = grid.blocksX * grid.blocksY;
-  if (grid.blocksX !== encoded.blocksX || grid.blocksY !== encoded.blocksY || encoded.indices.length !== blocks) {
-    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `coded image has ${encoded.indices.length} blocks, its geometry needs ${blocks}`);
+  const per = indicesPerBlock(codebook);
+  if (grid.blocksX !== encoded.blocksX || grid.blocksY !== encoded.blocksY || encoded.indices.length !== blocks * per) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `coded image has ${encoded.indices.length} indices, its geometry needs ${blocks * per}`);
   }
   const d = codebook.dimension;
   const bits = codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
   if ((bits > 0) !== (encoded.meanCodes !== null)) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'mean codes do not match the codebook preprocessing');
+  checkCodedIndices(codebook, encoded.indices, (message) => {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', message);
+  });
   const blockPixels = new Uint8Array(blocks * d);
+  const sum = new Float64Array(d);
   for (let b = 0; b < blocks; b += 1) {
-    const index = encoded.indices[b];
-    if (index >= codebook.size) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `block ${b} refers to codeword ${index}, codebook has ${codebook.size}`);
     const level = encoded.meanCodes ? meanLevel(encoded.meanCodes[b], bits) : 0;
-    const src = index * d;
     const dst = b * d;
+    if (per === 1) {
+      const src = encoded.indices[b] * d;
+      for (let k = 0; k < d; k += 1) {
+        const v = codebook.codewords[src + k] + level;
+        blockPixels[dst + k] = v <= 0 ? 0 : v >= 255 ? 255 : Math.floor(v + 0.5);
+      }
+      continue;
+    }
+    sum.fill(0);
+    for (let s = 0; s < per; s += 1) {
+      const src = encoded.indices[b * per + s] * d;
+      for (let k = 0; k < d; k += 1) sum[k] += codebook.codewords[src + k];
+    }
     for (let k = 0; k < d; k += 1) {
-      const v = codebook.codewords[src + k] + level;
+      const v = sum[k] + level;
       blockPixels[dst + k] = v <= 0 ? 0 : v >= 255 ? 255 : Math.floor(v + 0.5);
     }
   }

@@ -5,16 +5,26 @@ import type { EncodedImage } from './codec';
 import { packBits, packedLength, unpackBits } from './bit-packing';
 import { blockGrid } from '../io/patches';
 import { indexBits } from './rate-bits';
+import { INDEX_LAYOUTS, indexCodingOf, type IndexCoding, type IndexLayout } from './index-coding';
+import { checkCodedIndices } from './codec';
+import { MAX_TREE_DEPTH } from './limits';
 
 /** Layout is documented byte by byte in FORMAT.md; keep the two in step. */
 export const CONTAINER_MAGIC = Uint8Array.from([0x43, 0x57, 0x56, 0x51]); // "CWVQ"
 /**
  * The newest version this build reads and writes. Version 2 added resynchronisation markers (header byte 11 holds
- * their interval); a file without markers is still written as version 1, byte for byte as before, so every earlier
- * reader keeps reading it.
+ * their interval); version 3 added the index layouts of the codebook structures (a 72-byte header whose byte 68
+ * names the layout). A full-search codebook's file is still written as version 1 without markers and version 2 with
+ * them, byte for byte as before, so every earlier reader keeps reading it; other structures write version 3.
  */
-export const CONTAINER_VERSION = 2;
+export const CONTAINER_VERSION = 3;
+/** Header length of versions 1 and 2. */
 export const HEADER_BYTES = 68;
+/** Header length of version 3: the version 2 fields, then layout, stages and two reserved zero bytes. */
+export const HEADER_BYTES_V3 = 72;
+export const headerBytesOf = (version: number): number => (version >= 3 ? HEADER_BYTES_V3 : HEADER_BYTES);
+/** A variable-length index stream is preceded in each segment by its byte length, uint32 little-endian. */
+export const STREAM_LENGTH_BYTES = 4;
 /** 2^28 blocks (over 10^9 pixels in 2×2 blocks): far beyond any image sharp decodes by default. */
 export const MAX_BLOCKS = 2 ** 28;
 
@@ -46,6 +56,12 @@ export interface ContainerOptions {
 export interface ContainerHeader {
   version: number;
   coding: PayloadCoding;
+  /** How the payload holds the indices (version 3 byte 68; `fixed` in versions 1 and 2). */
+  layout: IndexLayout;
+  /** Residual stages (version 3 byte 69); 0 for other layouts. */
+  stages: number;
+  /** Header bytes: 68 (versions 1, 2) or 72 (version 3). */
+  headerBytes: number;
   color: 'luma' | 'rgb';
   patchWidth: number;
   patchHeight: number;
@@ -125,8 +141,7 @@ function codedCandidates(payload: Uint8Array, choice: PayloadChoice): [PayloadCo
  * among several candidates the smallest wins, ties keeping the earlier, cheaper-to-decode coding.
  */
 export function writeContainer(codebook: Codebook, encoded: EncodedImage, options: ContainerOptions = {}): Buffer {
-  const patch = codebook.patch;
-  if (!patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook has no patch geometry, so it cannot code images');
+  if (!codebook.patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook has no patch geometry, so it cannot code images');
   const choice = options.payload ?? 'auto';
   const resyncRows = options.resyncRows ?? 0;
   if (!Number.isInteger(resyncRows) || resyncRows < 0 || resyncRows > MAX_RESYNC_ROWS) {
@@ -136,16 +151,27 @@ export function writeContainer(codebook: Codebook, encoded: EncodedImage, option
   if (resyncRows > 0 && choice !== 'raw') {
     throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'resynchronisation markers need the raw payload (a compressed payload hides them)', 'resyncRows');
   }
+  const indexCoding = indexCodingOf(codebook);
+  if (indexCoding.layout !== 'fixed') return writeContainerV3(codebook, encoded, indexCoding, choice, resyncRows);
   const payload = payloadFor(codebook, encoded, resyncRows);
   const [coding, stored] = codedCandidates(payload, choice).reduce((best, c) => (c[1].length < best[1].length ? c : best));
   const out = Buffer.alloc(HEADER_BYTES + stored.length);
+  writeHeaderFields(out, codebook, encoded, resyncRows > 0 ? 2 : 1, coding, indexBits(codebook.size), resyncRows, payload, stored);
+  return out;
+}
+
+/** Bytes 0..67, the fields every version shares (FORMAT.md, "Header"), and the stored payload after the header. */
+function writeHeaderFields(
+  out: Buffer, codebook: Codebook, encoded: EncodedImage, version: number, coding: PayloadCoding, headerBits: number, resyncRows: number, payload: Uint8Array, stored: Uint8Array,
+): void {
+  const patch = codebook.patch!;
   out.set(CONTAINER_MAGIC, 0);
-  out[4] = resyncRows > 0 ? 2 : 1;
+  out[4] = version;
   out[5] = CODING_IDS[coding];
   out[6] = patch.color === 'rgb' ? 1 : 0;
   out[7] = patch.width;
   out[8] = patch.height;
-  out[9] = indexBits(codebook.size);
+  out[9] = headerBits;
   out[10] = codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
   out[11] = resyncRows;
   out.writeUInt32LE(encoded.width, 12);
@@ -155,7 +181,57 @@ export function writeContainer(codebook: Codebook, encoded: EncodedImage, option
   out.writeUInt32LE(payload.length, 56);
   out.writeUInt32LE(crc32(payload), 60);
   out.writeUInt32LE(stored.length, 64);
-  out.set(stored, HEADER_BYTES);
+  out.set(stored, headerBytesOf(version));
+}
+
+/**
+ * The version 3 payload before coding: per segment (as in version 2) an optional marker, the index stream in the
+ * codebook's layout (preceded by its byte length when variable-length), then the mean codes.
+ */
+function payloadV3(codebook: Codebook, encoded: EncodedImage, coding: IndexCoding, resyncRows: number): Uint8Array {
+  const m = codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
+  const rowsPer = resyncRows > 0 ? resyncRows : Math.max(1, encoded.blocksY);
+  const parts: Uint8Array[] = [];
+  let n = 0;
+  for (let row = 0; row < encoded.blocksY; row += rowsPer, n += 1) {
+    if (n > 0) parts.push(Uint8Array.from([...RESYNC_MARKER_PREFIX, n & 0xff, (n >> 8) & 0xff]));
+    const first = row * encoded.blocksX;
+    const stop = Math.min(encoded.blocksY, row + rowsPer) * encoded.blocksX;
+    const stream = coding.write(encoded.indices.subarray(first * coding.perBlock, stop * coding.perBlock));
+    if (coding.bitsPerBlock === null) {
+      const length = new Uint8Array(STREAM_LENGTH_BYTES);
+      new DataView(length.buffer).setUint32(0, stream.length, true);
+      parts.push(length);
+    }
+    parts.push(stream);
+    const means = new Uint8Array(packedLength(stop - first, m));
+    if (m > 0 && encoded.meanCodes) packBits(encoded.meanCodes.subarray(first, stop), m, means);
+    parts.push(means);
+  }
+  return Buffer.concat(parts);
+}
+
+/**
+ * Version 3. A variable-length (entropy-coded) index stream is stored raw: its length is the rate the code gives, and
+ * a general-purpose coder on top would blur that; `auto` stores it raw and `packed` is refused.
+ */
+function writeContainerV3(codebook: Codebook, encoded: EncodedImage, coding: IndexCoding, choice: PayloadChoice, resyncRows: number): Buffer {
+  if (coding.bitsPerBlock === null && choice === 'packed') {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `a ${coding.layout} index stream is already entropy-coded and is stored raw; use --payload raw or auto`, 'payload');
+  }
+  if (encoded.indices.length !== encoded.blocksX * encoded.blocksY * coding.perBlock) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `coded image has ${encoded.indices.length} indices, its geometry needs ${encoded.blocksX * encoded.blocksY * coding.perBlock}`);
+  }
+  checkCodedIndices(codebook, encoded.indices, (message) => {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', message);
+  });
+  const payload = payloadV3(codebook, encoded, coding, resyncRows);
+  const candidates = coding.bitsPerBlock === null ? codedCandidates(payload, 'raw') : codedCandidates(payload, choice);
+  const [pc, stored] = candidates.reduce((best, c) => (c[1].length < best[1].length ? c : best));
+  const out = Buffer.alloc(HEADER_BYTES_V3 + stored.length);
+  writeHeaderFields(out, codebook, encoded, 3, pc, coding.headerBits, resyncRows, payload, stored);
+  out[68] = INDEX_LAYOUTS.indexOf(coding.layout);
+  out[69] = coding.stages;
   return out;
 }
 
@@ -168,12 +244,19 @@ export function readContainerHeader(bytes: Uint8Array): ContainerHeader {
   const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   const version = buf[4];
   if (version < 1 || version > CONTAINER_VERSION) invalid(`unsupported container version ${version} (this build reads 1 to ${CONTAINER_VERSION})`);
+  const headerBytes = headerBytesOf(version);
+  if (bytes.length < headerBytes) invalid(`truncated: ${bytes.length} bytes, a version ${version} header alone is ${headerBytes}`);
   const coding = CODINGS[buf[5]];
   if (!coding) invalid(`unknown payload coding ${buf[5]}`);
   if (buf[6] > 1) invalid(`unknown colour mode ${buf[6]}`);
+  const layout = version >= 3 ? INDEX_LAYOUTS[buf[68]] : 'fixed';
+  if (!layout) invalid(`unknown index layout ${buf[68]}`);
   const header: ContainerHeader = {
     version,
     coding,
+    layout,
+    stages: version >= 3 ? buf[69] : 0,
+    headerBytes,
     color: buf[6] === 1 ? 'rgb' : 'luma',
     patchWidth: buf[7],
     patchHeight: buf[8],
@@ -195,13 +278,40 @@ export function readContainerHeader(bytes: Uint8Array): ContainerHeader {
   }
   if (header.meanBits > 8) invalid(`mean bits ${header.meanBits} is outside 0..8`);
   if (header.width < 1 || header.height < 1) invalid(`image size ${header.width}×${header.height} is empty`);
-  if (header.codebookSize < 1 || header.indexBits !== indexBits(header.codebookSize)) {
+  if (header.codebookSize < 1) invalid('the codebook size is 0');
+  if (version >= 3) {
+    if (layout === 'fixed') invalid('version 3 with the fixed layout (a fixed-length file is written as version 1 or 2)');
+    if (buf[70] !== 0 || buf[71] !== 0) invalid('reserved header bytes 70 and 71 are not zero');
+    if ((layout === 'residual-stages') !== (header.stages > 0)) invalid(`${header.stages} stages with the ${layout} layout`);
+    if (header.indexBits > MAX_TREE_DEPTH) invalid(`index bits ${header.indexBits} is above ${MAX_TREE_DEPTH}`);
+  } else if (header.indexBits !== indexBits(header.codebookSize)) {
     invalid(`index bits ${header.indexBits} do not fit a codebook of ${header.codebookSize}`);
   }
-  const actual = bytes.length - HEADER_BYTES;
+  const actual = bytes.length - headerBytes;
   if (actual < header.storedLength) invalid(`truncated: payload should be ${header.storedLength} bytes, file holds ${actual}`);
   if (actual > header.storedLength) invalid(`${actual - header.storedLength} unexpected bytes after the payload`);
   return header;
+}
+
+/** The stored payload, decoded (raw, inflated or brotli-decompressed) into at most `limit` bytes and checked by length and CRC-32. */
+function payloadOf(header: ContainerHeader, bytes: Uint8Array, limit: number, exact: boolean): Uint8Array {
+  const stored = bytes.subarray(header.headerBytes);
+  let payload: Uint8Array;
+  try {
+    const max = { maxOutputLength: Math.max(1, limit) };
+    payload = header.coding === 'raw' ? stored : header.coding === 'deflate' ? inflateRawSync(stored, max) : brotliDecompressSync(stored, max);
+  } catch (error) {
+    invalid(`corrupt ${header.coding} payload (${error instanceof Error ? error.message : String(error)})`);
+  }
+  if (payload.length !== header.payloadLength || (exact && payload.length !== limit)) invalid(`payload decodes to ${payload.length} bytes, expected ${exact ? limit : header.payloadLength}`);
+  if (crc32(payload) !== header.payloadCrc32) invalid('payload CRC-32 does not match (file is corrupt)');
+  return payload;
+}
+
+function checkMarker(payload: Uint8Array, at: number, n: number): void {
+  if (at + RESYNC_MARKER_BYTES > payload.length || payload[at] !== RESYNC_MARKER_PREFIX[0] || payload[at + 1] !== RESYNC_MARKER_PREFIX[1] || payload[at + 2] + 256 * payload[at + 3] !== (n & 0xffff)) {
+    invalid(`resynchronisation marker ${n} at payload byte ${at} is damaged`);
+  }
 }
 
 /**
@@ -229,37 +339,81 @@ export function readContainer(codebook: Codebook, bytes: Uint8Array): EncodedIma
   ) {
     invalid('header geometry (patch, colour, mean bits or codebook size) does not match the codebook');
   }
+  const coding = indexCodingOf(codebook);
+  if (coding.layout !== header.layout || coding.headerBits !== header.indexBits || coding.stages !== header.stages) {
+    invalid(`the file's index layout (${header.layout}, ${header.indexBits} bits${header.stages ? `, ${header.stages} stages` : ''}) is not this ${codebook.structure.kind} codebook's (${coding.layout}, ${coding.headerBits} bits${coding.stages ? `, ${coding.stages} stages` : ''})`);
+  }
   const { blocksX, blocksY } = blockGrid(header.width, header.height, patch);
   const blocks = blocksX * blocksY;
   if (blocks > MAX_BLOCKS) invalid(`image size ${header.width}×${header.height} is beyond what this reader accepts`);
+  const decoded = header.version >= 3 ? readPayloadV3(header, bytes, coding, blocksX, blocksY) : readPayloadFixed(header, bytes, blocksX, blocksY);
+  checkCodedIndices(codebook, decoded.indices, invalid);
+  return { width: header.width, height: header.height, blocksX, blocksY, ...decoded, header };
+}
+
+/** Versions 1 and 2: fixed-length indices, the payload length known from the header before anything is inflated. */
+function readPayloadFixed(header: ContainerHeader, bytes: Uint8Array, blocksX: number, blocksY: number): { indices: Uint32Array; meanCodes: Uint8Array | null } {
+  const blocks = blocksX * blocksY;
   const { segments, length: expected } = payloadLayout(blocksX, blocksY, header.indexBits, header.meanBits, header.resyncRows);
   // Checked before inflating, and the inflater capped at that size, so a hostile payload cannot balloon in memory.
   if (header.payloadLength !== expected) {
     const markers = header.resyncRows > 0 ? ` with a marker every ${header.resyncRows} block rows` : '';
-    invalid(`header says the payload is ${header.payloadLength} bytes, ${header.width}×${header.height} in ${patch.width}×${patch.height} blocks${markers} needs ${expected}`);
+    invalid(`header says the payload is ${header.payloadLength} bytes, ${header.width}×${header.height} in ${header.patchWidth}×${header.patchHeight} blocks${markers} needs ${expected}`);
   }
-  const stored = bytes.subarray(HEADER_BYTES);
-  let payload: Uint8Array;
-  try {
-    const limit = { maxOutputLength: Math.max(1, expected) };
-    payload = header.coding === 'raw' ? stored : header.coding === 'deflate' ? inflateRawSync(stored, limit) : brotliDecompressSync(stored, limit);
-  } catch (error) {
-    invalid(`corrupt ${header.coding} payload (${error instanceof Error ? error.message : String(error)})`);
-  }
-  if (payload.length !== expected) invalid(`payload decodes to ${payload.length} bytes, expected ${expected}`);
-  if (crc32(payload) !== header.payloadCrc32) invalid('payload CRC-32 does not match (file is corrupt)');
+  const payload = payloadOf(header, bytes, expected, true);
   const indices = new Uint32Array(blocks);
   const meanCodes = header.meanBits > 0 ? new Uint8Array(blocks) : null;
   segments.forEach((s, n) => {
-    const m = s.markerOffset;
-    if (m >= 0 && (payload[m] !== RESYNC_MARKER_PREFIX[0] || payload[m + 1] !== RESYNC_MARKER_PREFIX[1] || payload[m + 2] + 256 * payload[m + 3] !== (n & 0xffff))) {
-      invalid(`resynchronisation marker ${n} at payload byte ${m} is damaged`);
-    }
+    if (s.markerOffset >= 0) checkMarker(payload, s.markerOffset, n);
     unpackBits(payload, s.indexOffset, s.blocks, header.indexBits, indices.subarray(s.firstBlock, s.firstBlock + s.blocks));
     if (meanCodes) unpackBits(payload, s.meanOffset, s.blocks, header.meanBits, meanCodes.subarray(s.firstBlock, s.firstBlock + s.blocks));
   });
-  for (let i = 0; i < blocks; i += 1) {
-    if (indices[i] >= codebook.size) invalid(`block ${i} refers to codeword ${indices[i]}, codebook has ${codebook.size}`);
+  return { indices, meanCodes };
+}
+
+/**
+ * Version 3: segments as in version 2, the index stream in the codebook's layout. A variable-length stream's size is
+ * bounded by the longest code before anything is inflated, and each segment's length prefix is checked against the
+ * bytes that remain and against that bound.
+ */
+function readPayloadV3(header: ContainerHeader, bytes: Uint8Array, coding: IndexCoding, blocksX: number, blocksY: number): { indices: Uint32Array; meanCodes: Uint8Array | null } {
+  const blocks = blocksX * blocksY;
+  const m = header.meanBits;
+  const rowsPer = header.resyncRows > 0 ? header.resyncRows : Math.max(1, blocksY);
+  const variable = coding.bitsPerBlock === null;
+  const segments: { first: number; count: number }[] = [];
+  for (let row = 0; row < blocksY; row += rowsPer) segments.push({ first: row * blocksX, count: (Math.min(blocksY, row + rowsPer) - row) * blocksX });
+  let bound = 0;
+  for (const [n, sg] of segments.entries()) {
+    bound += (n > 0 ? RESYNC_MARKER_BYTES : 0) + (variable ? STREAM_LENGTH_BYTES : 0) + packedLength(sg.count, coding.maxBitsPerBlock) + packedLength(sg.count, m);
   }
-  return { width: header.width, height: header.height, blocksX, blocksY, indices, meanCodes, header };
+  if (variable ? header.payloadLength > bound : header.payloadLength !== bound) {
+    invalid(`header says the payload is ${header.payloadLength} bytes, ${header.width}×${header.height} in ${header.patchWidth}×${header.patchHeight} blocks needs ${variable ? `at most ${bound}` : bound}`);
+  }
+  const payload = payloadOf(header, bytes, variable ? header.payloadLength : bound, !variable);
+  const view = new DataView(payload.buffer, payload.byteOffset, payload.byteLength);
+  const indices = new Uint32Array(blocks * coding.perBlock);
+  const meanCodes = m > 0 ? new Uint8Array(blocks) : null;
+  let pos = 0;
+  for (const [n, sg] of segments.entries()) {
+    if (n > 0) {
+      checkMarker(payload, pos, n);
+      pos += RESYNC_MARKER_BYTES;
+    }
+    let length = packedLength(sg.count, coding.bitsPerBlock ?? 0);
+    if (variable) {
+      if (pos + STREAM_LENGTH_BYTES > payload.length) invalid(`the payload ends before segment ${n}'s stream length`);
+      length = view.getUint32(pos, true);
+      pos += STREAM_LENGTH_BYTES;
+      if (length > packedLength(sg.count, coding.maxBitsPerBlock)) invalid(`segment ${n}'s index stream of ${length} bytes is longer than ${sg.count} blocks of at most ${coding.maxBitsPerBlock} bits`);
+    }
+    const meansLength = packedLength(sg.count, m);
+    if (pos + length + meansLength > payload.length) invalid(`segment ${n} runs past the end of the payload`);
+    indices.set(coding.read(payload.subarray(pos, pos + length), sg.count), sg.first * coding.perBlock);
+    pos += length;
+    if (meanCodes) unpackBits(payload, pos, sg.count, m, meanCodes.subarray(sg.first, sg.first + sg.count));
+    pos += meansLength;
+  }
+  if (pos !== payload.length) invalid(`${payload.length - pos} unexpected bytes after the last segment`);
+  return { indices, meanCodes };
 }

@@ -36,3 +36,10 @@ export const MAX_SOURCE_LENGTH = 4096;
  */
 export const FLOAT32_MAX = 3.4028234663852886e38;
 export const FLOAT32_ROUNDING_LIMIT = 2 ** 128 - 2 ** 103;
+
+/**
+ * Longest root-to-leaf path of a tree-structured codebook, in bits: a path then fits one 32-bit word, which a
+ * decoder on a 32-bit microcontroller reads in one register (common practice). A balanced tree of the largest table
+ * (2^14 nodes) is 13 deep; the rest is room for greedy-grown unbalanced trees.
+ */
+export const MAX_TREE_DEPTH = 32;

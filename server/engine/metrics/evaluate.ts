@@ -1,12 +1,14 @@
-import { assign } from '../training';
 import type { Codebook } from '../format/codebook-schema';
+import { fixedRateBits } from '../format/index-coding';
+import { stageOffsets } from '../format/structure-check';
+import { indicesPerBlock, searchStructure } from '../format/structure-search';
 import { encodeImage, reconstruct } from '../format/codec';
 import { writeContainer } from '../format/container';
 import { EngineInputError } from '../input-error';
 import type { PixelImage } from '../io/image';
 import { removeMeans } from '../io/mean-removal';
 import { psnrForJson, psnrFromMse, sumSquaredError } from './distortion';
-import { bppFixed, entropyBits, histogram } from './rate';
+import { entropyBits, histogram } from './rate';
 import { poolSsim, ssimOfImages } from './ssim';
 
 /**
@@ -98,6 +100,28 @@ export interface EvaluateOptions {
   onImage?: (done: number, total: number) => void;
 }
 
+/** Fixed-length rate in bits per pixel: (the structure's fixed index bits + mean bits) / pixels a block stands for. */
+function bppFixedOf(codebook: Codebook, meanBits: number, pixelsPerBlock: number): number {
+  return (fixedRateBits(codebook) + meanBits) / pixelsPerBlock;
+}
+
+/**
+ * Empirical entropy of a block's index in bits, from per-table-entry counts: of the one index (full,
+ * entropy-constrained, tree leaves), or the sum of each residual stage's own, its indices coded stage by stage.
+ */
+export function indexEntropyOf(codebook: Pick<Codebook, 'structure'>, usage: Uint32Array): number {
+  const s = codebook.structure;
+  if (s.kind !== 'residual') return entropyBits(usage);
+  const { offsets } = stageOffsets(s.bits);
+  return s.bits.reduce((h, b, i) => h + entropyBits(usage.subarray(offsets[i], offsets[i] + 2 ** b)), 0);
+}
+
+/** Adds each block's squared error to its cell: the block's codeword, or for residual its last stage's. */
+function addCellDistortion(codebook: Codebook, indices: Uint32Array, distances: Float64Array, into: Float64Array): void {
+  const per = indicesPerBlock(codebook);
+  for (let i = 0; i < distances.length; i += 1) into[indices[i * per + per - 1]] += distances[i];
+}
+
 function meanBitsOf(codebook: Codebook): number {
   return codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
 }
@@ -128,12 +152,12 @@ export async function measureImage(codebook: Codebook, image: PixelImage, option
   const container = writeContainer(codebook, encoded);
   const sse = sumSquaredError(image.pixels, recon);
   const imagePixels = image.width * image.height;
-  const n = encoded.indices.length;
+  const n = encoded.blocksX * encoded.blocksY;
   const usage = histogram(encoded.indices, codebook.size);
   const meanCounts = encoded.meanCodes ? histogram(encoded.meanCodes, 2 ** meanBits) : new Uint32Array(1);
   const imageMeanEntropy = encoded.meanCodes ? entropyBits(meanCounts) : 0;
   const cellDistortion = new Float64Array(codebook.size);
-  for (let i = 0; i < n; i += 1) cellDistortion[encoded.indices[i]] += encoded.distances[i];
+  addCellDistortion(codebook, encoded.indices, encoded.distances, cellDistortion);
   const mse = sse / image.pixels.length;
   const evaluation: ImageEvaluation = {
     name: image.name,
@@ -144,8 +168,8 @@ export async function measureImage(codebook: Codebook, image: PixelImage, option
     mse,
     psnr: psnrFromMse(mse),
     ssim: ssimOfImages(image.pixels, recon, image.width, image.height, image.channels),
-    bppFixed: bppFixed(codebook.size, meanBits, patchPixels),
-    bppEntropy: ((entropyBits(usage) + imageMeanEntropy) * n) / imagePixels,
+    bppFixed: bppFixedOf(codebook, meanBits, patchPixels),
+    bppEntropy: ((indexEntropyOf(codebook, usage) + imageMeanEntropy) * n) / imagePixels,
     bppActual: (container.length * 8) / imagePixels,
     bytes: container.length,
   };
@@ -185,7 +209,7 @@ export function poolImageMeasurements(codebook: Codebook, measurements: readonly
     bytes += m.evaluation.bytes;
   }
   const results = measurements.map((m) => m.evaluation);
-  const indexEntropy = entropyBits(usage);
+  const indexEntropy = indexEntropyOf(codebook, usage);
   const meanEntropy = meanBits > 0 ? entropyBits(meanCounts) : 0;
   const mse = sse / components;
   return {
@@ -197,7 +221,7 @@ export function poolImageMeasurements(codebook: Codebook, measurements: readonly
       mse,
       psnr: psnrFromMse(mse),
       ssim: poolSsim(results),
-      bppFixed: bppFixed(codebook.size, meanBits, codebook.patch!.width * codebook.patch!.height),
+      bppFixed: bppFixedOf(codebook, meanBits, codebook.patch!.width * codebook.patch!.height),
       bppEntropy: ((indexEntropy + meanEntropy) * blocks) / pixels,
       bppActual: (bytes * 8) / pixels,
       bytes,
@@ -234,23 +258,21 @@ export async function evaluateVectors(codebook: Codebook, vectors: Float32Array,
   const meanBits = meanBitsOf(codebook);
   const work = meanBits > 0 ? Float32Array.from(vectors) : vectors;
   const meanCodes = meanBits > 0 ? removeMeans(work, dimension, meanBits) : null;
-  const { indices, distances } = await assign(work, dimension, codebook.codewords, { threads: options.threads, signal: options.signal });
+  const { indices, distances } = await searchStructure(codebook, work, dimension, { threads: options.threads, signal: options.signal });
   const usage = histogram(indices, codebook.size);
   const cellDistortion = new Float64Array(codebook.size);
+  addCellDistortion(codebook, indices, distances, cellDistortion);
   let sse = 0;
-  for (let i = 0; i < count; i += 1) {
-    cellDistortion[indices[i]] += distances[i];
-    sse += distances[i];
-  }
+  for (let i = 0; i < count; i += 1) sse += distances[i];
   const pixelsPerVector = codebook.patch ? codebook.patch.width * codebook.patch.height : dimension;
-  const indexEntropy = entropyBits(usage);
+  const indexEntropy = indexEntropyOf(codebook, usage);
   const meanEntropy = meanCodes ? entropyBits(histogram(meanCodes, 2 ** meanBits)) : 0;
   return {
     kind: 'vectors',
     vectorCount: count,
     pixelsPerVector,
     mse: sse / (count * dimension),
-    bppFixed: bppFixed(codebook.size, meanBits, pixelsPerVector),
+    bppFixed: bppFixedOf(codebook, meanBits, pixelsPerVector),
     bppEntropy: (indexEntropy + meanEntropy) / pixelsPerVector,
     indexEntropy,
     meanEntropy,

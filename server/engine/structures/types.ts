@@ -1,6 +1,5 @@
-/** How a codebook's table is searched and its indices coded. One definition; the JSON format and the container mirror it. */
-export type StructureKind = 'full' | 'entropy-constrained' | 'tree' | 'residual';
-export const STRUCTURE_KINDS = ['full', 'entropy-constrained', 'tree', 'residual'] as const satisfies readonly StructureKind[];
+// The kinds are the run vocabulary's (one definition); the JSON format and the container mirror them.
+export { STRUCTURE_KINDS, type StructureKind } from '../vocabulary';
 
 /** Full search over K codewords; index = fixed-length ceil(log2 K) bits. */
 export interface FullStructure { kind: 'full' }

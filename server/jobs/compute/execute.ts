@@ -1,5 +1,5 @@
 import type { JobProgress } from '../../contracts';
-import { shardLayout, train } from '../../engine';
+import { assignEcvq, shardLayout, train, trainEcvq } from '../../engine';
 import type { TaskPool } from '../pool';
 import type { ImageMeasurement } from '../../engine';
 import type { BaselineResultPoint, EvaluateTask, TaskImage } from '../tasks/evaluate.task';
@@ -7,7 +7,7 @@ import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
 import type { ShardSpread } from './shard-coordinator';
 import type { TrainingSample } from './shard-wire';
 import type { AnomalyTaskResult, DenoiseTaskResult, ModelTask, TaskCalibration } from '../tasks/model.task';
-import type { ComputeTask, ImageRef, ModelComputeTask, TrainOutcome, TrainTask } from './tasks';
+import type { ComputeTask, ImageRef, ModelComputeTask, TrainedSize, TrainOutcome, TrainTask } from './tasks';
 
 const trainingVectorsTask = new URL('../tasks/training-vectors.task.ts', import.meta.url).href;
 const evaluateTask = new URL('../tasks/evaluate.task.ts', import.meta.url).href;
@@ -99,6 +99,7 @@ async function trainTask(task: TrainTask, ctx: ExecuteContext): Promise<TrainOut
     }
     doneWeight += pass.k;
   }
+  if (task.lambdas && task.lambdas.length > 0) codebooks.push(...(await entropyConstrained(task, task.lambdas, vectors, codebooks, ctx)));
   return { vectorCount, codebooks };
 }
 
@@ -123,6 +124,33 @@ async function modelComputeTask(task: ModelComputeTask, ctx: ExecuteContext): Pr
   return run<AnomalyTaskResult>({
     op: 'anomaly', codebook: task.codebook, cellDistortion: task.cellDistortion, calibration, images: images.slice(task.training), rate: task.rate, score: task.score, limit: task.limit,
   });
+}
+
+/**
+ * One entropy-constrained codebook per λ (engine training/ecvq.ts), each from the largest full-search codebook of the
+ * run. Its per-cell errors are those of the encoder it will be coded with (Huffman lengths), on the training vectors.
+ */
+async function entropyConstrained(task: TrainTask, lambdas: number[], vectors: Float32Array, full: TrainedSize[], ctx: ExecuteContext): Promise<TrainedSize[]> {
+  const start = full.reduce((a, b) => (b.size > a.size ? b : a));
+  const out: TrainedSize[] = [];
+  for (const [i, lambda] of lambdas.entries()) {
+    ctx.progress({ phase: 'training', fraction: TRAINED, message: `entropy-constrained codebook ${i + 1} of ${lambdas.length} (λ = ${lambda})` });
+    const r = await trainEcvq(vectors, task.dimension, start.codewords, { lambda, epsilon: task.epsilon, maxIterations: task.maxIterations, signal: ctx.signal });
+    const { indices, errors } = assignEcvq(vectors, task.dimension, r.codewords, r.codeLengths, lambda);
+    const cellDistortion = new Float64Array(r.size);
+    for (let v = 0; v < indices.length; v += 1) cellDistortion[indices[v]] += errors[v];
+    out.push({
+      size: r.size,
+      codewords: r.codewords,
+      usage: r.usage,
+      cellDistortion,
+      distortion: r.distortion,
+      iterations: r.iterations,
+      trace: r.trace.map((t) => ({ size: t.size, iteration: t.iteration, distortion: t.distortion, emptyRepaired: t.emptied, elapsedMs: t.elapsedMs })),
+      structure: { kind: 'entropy-constrained', lambda, codeLengths: Array.from(r.codeLengths) },
+    });
+  }
+  return out;
 }
 
 /** Runs one compute task where the worker is; the result goes back to the job that asked for it. */

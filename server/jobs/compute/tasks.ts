@@ -35,6 +35,8 @@ export interface TrainTask {
   seed: number;
   /** Largest size of each training pass and the sizes of its output to keep (see trainingPasses). */
   passes: { k: number; keep: number[] }[];
+  /** Entropy-constrained codebooks to train after the passes, one per λ, from the largest codebook kept. */
+  lambdas?: number[];
 }
 
 export interface TrainedSize {
@@ -44,8 +46,10 @@ export interface TrainedSize {
   cellDistortion: Float64Array;
   distortion: number;
   iterations: number;
-  /** The LBG path that led to this size (every smaller size first, for split). */
+  /** The LBG path that led to this size (every smaller size first, for split); an entropy-constrained codebook's own passes. */
   trace: IterationStat[];
+  /** Absent: full search. Else the entropy-constrained structure, its Huffman code lengths as a plain list. */
+  structure?: { kind: 'entropy-constrained'; lambda: number; codeLengths: number[] };
 }
 
 export interface TrainOutcome {

@@ -4,6 +4,8 @@
  * plain data; it never touches the database, HTTP or services, so it can run in any thread of the pool.
  */
 import {
+  structureFromInfo,
+  type StructureInfo,
   availableBaselineCodecs,
   baselines,
   codewordChecksum,
@@ -47,6 +49,8 @@ export interface TaskCodebook {
   codewords: Float32Array;
   usage: ArrayLike<number>;
   training: TrainingInfo;
+  /** The document's structure member (JSON form, so the task travels as plain data); absent: full search. */
+  structure?: StructureInfo;
   checksum: string;
 }
 
@@ -124,6 +128,7 @@ export function toCodebook(c: TaskCodebook): Codebook {
     codewords,
     usage: Uint32Array.from(c.usage),
     training: c.training,
+    structure: structureFromInfo(c.structure),
     checksum: c.checksum,
   };
 }

@@ -2,7 +2,7 @@ import { useQueryClient } from '@tanstack/react-query';
 import type { QueryClient } from '@tanstack/react-query';
 import { useMemo, useState } from 'react';
 import { data, Link, useParams, type LoaderFunctionArgs } from 'react-router-dom';
-import { MODEL_CAUTION, type CodebookDetail } from '../../../server/contracts';
+import { MODEL_CAUTION, STRUCTURE_LABELS, type CodebookDetail } from '../../../server/contracts';
 import { href } from '../../config/routes';
 import { messageOf } from '../../lib/api-client';
 import { formatDateTime } from '../../lib/format';
@@ -79,7 +79,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
           )
         }
         title={codebook.name}
-        description={`${codebook.size.toLocaleString('en-GB')} codewords of ${codebook.dimension} components: ${codebook.patch.width}×${codebook.patch.height} ${codebook.color} blocks${meanRemoved ? `, block mean coded in ${codebook.meanBits} bits and removed` : ''}.`}
+        description={`${STRUCTURE_LABELS[codebook.structure]}${codebook.lambda !== null ? ` (λ = ${codebook.lambda})` : ''}: ${codebook.size.toLocaleString('en-GB')} codewords of ${codebook.dimension} components: ${codebook.patch.width}×${codebook.patch.height} ${codebook.color} blocks${meanRemoved ? `, block mean coded in ${codebook.meanBits} bits and removed` : ''}.`}
       />
       <div className="flex flex-col gap-6">
         <dl className="grid grid-cols-2 gap-3 md:grid-cols-4">

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { COLOR_MODES, createRunBody, initMethodSchema, RUN_DEFAULTS, SETTING_LABELS, type ColorMode, type CreateRunBody, type InitMethod } from '../../../server/contracts';
+import { COLOR_MODES, createRunBody, initMethodSchema, parseLambdaList, RUN_DEFAULTS, SETTING_LABELS, type ColorMode, type CreateRunBody, type InitMethod } from '../../../server/contracts';
 import { planRun, type ImageCatalog, type PlanInput } from './run-plan';
 
 export type RunFormValues = {
@@ -23,7 +23,15 @@ export type RunFormValues = {
   maxIterations: number;
   maxVectors: number;
   seed: number;
+  /** Entropy-constrained VQ: a λ list as a person writes it ("50,200,800" or A..B:N); empty for full search only. */
+  lambdas: string;
 };
+
+/** The form's λ list: none when the field is empty, else the values or what is wrong with the text. */
+function lambdasOf(v: RunFormValues): { values: number[] } | { error: string } | null {
+  const text = v.lambdas.trim();
+  return text === '' ? null : parseLambdaList(text);
+}
 
 export const emptyRunForm: RunFormValues = {
   name: '',
@@ -46,6 +54,7 @@ export const emptyRunForm: RunFormValues = {
   maxIterations: RUN_DEFAULTS.maxIterations,
   maxVectors: RUN_DEFAULTS.maxVectors,
   seed: RUN_DEFAULTS.seed,
+  lambdas: '',
 };
 
 /** The POST body the form's values stand for; every option is sent, so the run records exactly what was chosen. */
@@ -65,6 +74,10 @@ export function toRunBody(v: RunFormValues): Record<string, unknown> {
     maxIterations: v.maxIterations,
     maxVectors: v.maxVectors,
     seed: v.seed,
+    ...(() => {
+      const parsed = lambdasOf(v);
+      return parsed && 'values' in parsed ? { lambdas: parsed.values } : {};
+    })(),
   };
 }
 
@@ -93,6 +106,7 @@ export function fromRunConfig(config: CreateRunBody, name: string): RunFormValue
     maxIterations: config.maxIterations ?? RUN_DEFAULTS.maxIterations,
     maxVectors: config.maxVectors ?? RUN_DEFAULTS.maxVectors,
     seed: config.seed ?? RUN_DEFAULTS.seed,
+    lambdas: config.lambdas?.join(',') ?? '',
   };
 }
 
@@ -121,6 +135,7 @@ const labels: Record<string, string> = {
   maxIterations: 'Maximum iterations',
   maxVectors: 'Vector cap',
   seed: 'Seed',
+  lambdas: 'λ list',
 };
 
 /** Where a contract issue about the body belongs in the form. */
@@ -182,6 +197,7 @@ const formFields = z.object({
   maxIterations: num('maximum iterations'),
   maxVectors: num(`the ${SETTING_LABELS.maxVectors.toLowerCase()}`),
   seed: num('the seed'),
+  lambdas: z.string(),
 });
 
 /**
@@ -202,6 +218,11 @@ export function runFormSchema(catalog: ImageCatalog) {
           seen.add(path);
           ctx.addIssue({ code: 'custom', path: path.split('.'), message: explain(issue, path) });
         }
+      }
+      const lambdas = lambdasOf(v);
+      if (lambdas && 'error' in lambdas && !seen.has('lambdas')) {
+        seen.add('lambdas');
+        ctx.addIssue({ code: 'custom', path: ['lambdas'], message: `λ list: ${lambdas.error}` });
       }
       for (const problem of planRun(toPlanInput(v), catalog).problems) {
         const path =

@@ -69,7 +69,7 @@ describe('codebook JSON', () => {
     ['bits out of range', (d: EditableDoc) => (d.bits = 15), 'bits: expected an integer ≤ 14'],
     ['a usage list of the wrong length', (d: EditableDoc) => d.usage.push(1), 'usage: expected 3 counts (size), got 4'],
     ['a wrong format tag', (d: EditableDoc) => (d.format = 'something-else'), 'format: expected "cellwright-codebook"'],
-    ['a later version', (d: EditableDoc) => (d.version = 2), 'version: expected 1'],
+    ['a later version', (d: EditableDoc) => (d.version = 3), 'version: expected 1 or 2'],
     ['mean bits out of range', (d: EditableDoc) => (d.preprocessing.meanBits = 9), 'preprocessing.meanBits: expected an integer ≤ 8'],
     ['an unknown init', (d: EditableDoc) => (d.training.init = 'magic'), 'training.init: expected "split", "kmeans++" or "random"'],
     ['a negative trace distortion', (d: EditableDoc) => (d.training.trace[0].distortion = -1), 'training.trace[0].distortion: expected a number ≥ 0'],
@@ -124,5 +124,83 @@ describe('codebook JSON', () => {
     expect(readFileSync(CODEBOOK_JSON_SCHEMA_PATH, 'utf8')).toBe(codebookJsonSchemaText());
     const schema = JSON.parse(codebookJsonSchemaText());
     expect(schema.required).toEqual(expect.arrayContaining(['format', 'version', 'bits', 'size', 'dimension', 'patch', 'preprocessing', 'codewords', 'usage', 'training', 'checksum']));
+    expect(schema.properties.structure.oneOf.map((s: { properties: { kind: { const: string } } }) => s.properties.kind.const)).toEqual(['full', 'entropy-constrained', 'tree', 'residual']);
+  });
+});
+
+/** A codebook of `size` 1-component codewords 0, 1, 2, … with the given structure. */
+function structured(size: number, structure: Codebook['structure']): Codebook {
+  return makeCodebook({
+    size,
+    dimension: 4,
+    patch: { width: 2, height: 2, channels: 1, color: 'luma' },
+    preprocessing: { kind: 'none' },
+    codewords: Float32Array.from({ length: size * 4 }, (_, i) => i),
+    usage: new Uint32Array(size).fill(1),
+    training: { source: 'made up', vectorCount: size, init: 'split', epsilon: 0, seed: 1, iterations: 0, distortion: 0, trace: [] },
+    structure,
+  });
+}
+
+function docOf(book: Codebook): Record<string, unknown> & { structure: Record<string, unknown> } {
+  return JSON.parse(serializeCodebook(book));
+}
+
+describe('codebook JSON revision 2: the structure', () => {
+  it('writes revision 2 with {"kind":"full"} for a full-search codebook', () => {
+    const doc = docOf(sample());
+    expect(doc.version).toBe(2);
+    expect(doc.structure).toEqual({ kind: 'full' });
+  });
+
+  it('reads a revision 1 file, written before structures existed, as a full-search codebook', () => {
+    const text = readFileSync(new URL('../../fixtures/container-v1/codebook.json', import.meta.url), 'utf8');
+    expect(JSON.parse(text).version).toBe(1);
+    const book = parseCodebookJson(text);
+    expect(book.structure).toEqual({ kind: 'full' });
+    // Re-exported as revision 2 with the same codewords and checksum.
+    const again = parseCodebookJson(serializeCodebook(book));
+    expect(again.checksum).toBe(book.checksum);
+    expect(docOf(book).version).toBe(2);
+  });
+
+  it('refuses a structure in revision 1 and its absence in revision 2', () => {
+    const v1 = { ...docOf(sample()), version: 1 };
+    expect(() => parseCodebookJson(JSON.stringify(v1))).toThrow('structure: revision 1 has no structure member');
+    const { structure: _gone, ...v2 } = docOf(sample());
+    expect(() => parseCodebookJson(JSON.stringify(v2))).toThrow('structure: expected a structure (revision 2)');
+  });
+
+  it('round-trips every kind of structure', () => {
+    const books = [
+      structured(3, { kind: 'entropy-constrained', lambda: 12.5, codeLengths: Uint8Array.from([1, 2, 2]) }),
+      structured(3, { kind: 'tree', balanced: true, children: Int32Array.from([1, 2, -1, -1, -1, -1]) }),
+      structured(5, { kind: 'tree', balanced: false, children: Int32Array.from([1, 2, 3, 4, -1, -1, -1, -1, -1, -1]) }),
+      structured(6, { kind: 'residual', bits: [2, 1], search: { kind: 'm-best', m: 4 } }),
+    ];
+    for (const book of books) expect(parseCodebookJson(serializeCodebook(book)).structure).toEqual(book.structure);
+  });
+
+  const ecvq = () => docOf(structured(3, { kind: 'entropy-constrained', lambda: 1, codeLengths: Uint8Array.from([1, 2, 2]) }));
+  const tree = () => docOf(structured(5, { kind: 'tree', balanced: false, children: Int32Array.from([1, 2, 3, 4, -1, -1, -1, -1, -1, -1]) }));
+  const residual = () => docOf(structured(6, { kind: 'residual', bits: [2, 1], search: { kind: 'greedy' } }));
+  it.each([
+    // Kraft's inequality (Cover & Thomas, Elements of Information Theory, Thm 5.2.1): 2^−1 + 2^−1 + 2^−2 = 1.25 > 1.
+    ['Huffman lengths that break Kraft\'s inequality', ecvq, (s: Record<string, unknown>) => (s.codeLengths = [1, 1, 2]), 'structure.codeLengths: the lengths over-subscribe the code space (Σ 2^−l = 1.25 > 1'],
+    ['a Huffman length above the maximum of 16', ecvq, (s: Record<string, unknown>) => (s.codeLengths = [1, 2, 17]), 'structure.codeLengths[2]: expected an integer ≤ 16'],
+    ['a codeword without a Huffman length', ecvq, (s: Record<string, unknown>) => (s.codeLengths = [1, 1]), 'structure.codeLengths: expected 3 code lengths (one per codeword), got 2'],
+    ['a negative λ', ecvq, (s: Record<string, unknown>) => (s.lambda = -1), 'structure.lambda: expected a number ≥ 0'],
+    ['a node with one child', tree, (s: Record<string, unknown>) => (s.children = [1, 2, 3, -1, -1, -1, -1, -1, -1, -1]), 'structure.children[3]: node 1 has one child'],
+    ['children out of breadth-first order', tree, (s: Record<string, unknown>) => (s.children = [2, 1, 3, 4, -1, -1, -1, -1, -1, -1]), "structure.children[0]: node 0's children are 2 and 1; breadth-first order makes them 1 and 2"],
+    ['a node no other node reaches', tree, (s: Record<string, unknown>) => (s.children = [1, 2, -1, -1, -1, -1, -1, -1, -1, -1]), "structure.children: node 3 is no node's child"],
+    ['a children list of the wrong length', tree, (s: Record<string, unknown>) => (s.children = [1, 2, -1, -1]), 'structure.children: expected 10 entries (two per node), got 4'],
+    ['an unbalanced tree called balanced', tree, (s: Record<string, unknown>) => (s.balanced = true), 'structure.balanced: the leaves lie at depths other than 2'],
+    ['stages that do not fill the table', residual, (s: Record<string, unknown>) => (s.bits = [2, 2]), 'structure.bits: stages of 2^2 + 2^2 = 8 codewords; the table holds 6'],
+    ['an M-best search with M = 0', residual, (s: Record<string, unknown>) => (s.search = { kind: 'm-best', m: 0 }), 'structure.search'],
+    ['an unknown kind', residual, (s: Record<string, unknown>) => (s.kind = 'lattice'), 'structure.kind'],
+  ])('rejects %s', (_what, make, edit, message) => {
+    const doc = make();
+    edit(doc.structure);
+    expect(() => parseCodebookJson(JSON.stringify(doc))).toThrow(message);
   });
 });

@@ -68,9 +68,9 @@ describe('coded image container', () => {
   });
 
   it('rejects an unknown version or coding', () => {
-    const v3 = Buffer.from(file);
-    v3[4] = 3;
-    expect(() => decode(book, v3)).toThrow(/unsupported container version 3/);
+    const v4 = Buffer.from(file);
+    v4[4] = 4;
+    expect(() => decode(book, v4)).toThrow(/unsupported container version 4 \(this build reads 1 to 3\)/);
     const coding = Buffer.from(file);
     coding[5] = 9;
     expect(() => decode(book, coding)).toThrow(/unknown payload coding 9/);

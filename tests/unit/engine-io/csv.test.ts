@@ -120,7 +120,7 @@ describe("the studio's downloads", () => {
   it('writes the curve as the API returns it in the columns of cellwright sweep, codebooks then baselines by codec', () => {
     const curve: RunCurve = {
       run: { id: 1, name: 'r', state: 'succeeded' }, heldOutHash: 'h', color: 'luma', bd: { method: 'pchip', againstBaselines: [] },
-      points: [{ ...figures, codebookId: 31, bits: 1, size: 2 }, { ...exact, codebookId: 32, bits: 2, size: 4 }],
+      points: [{ ...figures, codebookId: 31, bits: 1, size: 2, structure: 'full', lambda: null }, { ...exact, codebookId: 32, bits: 2, size: 4, structure: 'full', lambda: null }],
       baselines: { jpeg: [{ quality: 20, bpp: 0.9, mse: 30, psnr: 33.4, ssim: 0.8 }], webp: [], avif: [{ quality: 50, bpp: 0.5, mse: 20, psnr: 35.1, ssim: null }] },
     };
     expect(readRfc4180(runCurveCsv(curve))).toEqual([

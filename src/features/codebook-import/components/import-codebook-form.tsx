@@ -88,7 +88,7 @@ export function ImportCodebookForm({ teamId, onImported }: { teamId: number; onI
           onChange={(event) => take(event.target.value, null)}
           rows={8}
           spellCheck={false}
-          placeholder='{ "format": "cellwright-codebook", "version": 1, … }'
+          placeholder='{ "format": "cellwright-codebook", "version": 2, … }'
           aria-invalid={check && !check.ok ? true : undefined}
           className="num block w-full rounded-md border border-ink-300 bg-surface px-3 py-2 text-sm text-ink-900 hover:border-ink-400"
         />

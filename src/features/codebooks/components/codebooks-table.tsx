@@ -9,7 +9,7 @@ import {
 } from '@tanstack/react-table';
 import { useState } from 'react';
 import { Link } from 'react-router-dom';
-import type { CodebookSummary } from '../../../../server/contracts';
+import { STRUCTURE_LABELS, type CodebookSummary } from '../../../../server/contracts';
 import { href } from '../../../config/routes';
 import { SortableHeader } from '../../../components/ui/sortable-header';
 import { cx } from '../../../lib/cx';
@@ -35,6 +35,7 @@ export function CodebooksTable({ teamId, codebooks }: { teamId: number; codebook
       }),
       helper.accessor('origin', { header: 'From', sortFn: 'alphanumeric' }),
       helper.accessor('size', { header: 'K', cell: (c) => c.getValue().toLocaleString('en-GB') }),
+      helper.accessor((row) => `${STRUCTURE_LABELS[row.structure]}${row.lambda !== null ? ` · λ = ${row.lambda}` : ''}`, { id: 'structure', header: 'Structure', sortFn: 'alphanumeric' }),
       helper.accessor((row) => `${row.patch.width}×${row.patch.height} ${row.color}`, { id: 'patch', header: 'Patch', sortFn: 'alphanumeric' }),
       helper.accessor((row) => fixedRate(row.bits, row.meanBits, row.patch), { id: 'rate', header: 'Fixed rate', cell: (c) => formatBpp(c.getValue()) }),
       helper.accessor('distortion', { header: 'Training MSE', cell: (c) => formatMse(c.getValue()) }),

@@ -1,7 +1,7 @@
 import { zodResolver } from '@hookform/resolvers/zod';
 import { useMemo, useRef, type ReactNode } from 'react';
 import { useForm, type Resolver } from 'react-hook-form';
-import { EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, SETTING_LABELS, type CreateRunBody, type ImageSet, type RunDetail } from '../../../../server/contracts';
+import { EPSILON, LAMBDA, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, SETTING_LABELS, type CreateRunBody, type ImageSet, type RunDetail } from '../../../../server/contracts';
 import { isApiError, messageOf } from '../../../lib/api-client';
 import { plural } from '../../../lib/format';
 import { Alert } from '../../../components/ui/alert';
@@ -238,6 +238,14 @@ export function RunForm({
             {numberField('maxVectors', SETTING_LABELS.maxVectors, 'Training vectors at most.')}
             {numberField('seed', SETTING_LABELS.seed, 'Same seed, same codebook.')}
           </div>
+          <TextField
+            label="Entropy-constrained (λ list)"
+            autoComplete="off"
+            placeholder="e.g. 50,200,800 or 10..1000:5"
+            hint={`Optional. One entropy-constrained codebook per λ (${LAMBDA.min}..${LAMBDA.max}, at most ${MAX_LAMBDAS}), each trained from the largest codebook above; a larger λ keeps fewer codewords and codes their indices with a Huffman code.`}
+            error={errors.lambdas?.message}
+            {...form.register('lambdas')}
+          />
         </Section>
       </div>
 

@@ -20,9 +20,30 @@ const rateDefinitions = [
 
 const codecLabels: Record<BaselineCodecName, string> = { jpeg: 'JPEG', webp: 'WebP', avif: 'AVIF' };
 
-/** Chart series of a run's curve: three rate definitions of the same codebooks, then every reference codec measured. */
+/** An entropy-constrained run's λ sweep: its own curve, on the entropy rate and on the Huffman-coded files' rate. */
+const lambdaDefinitions = [
+  { key: 'bppEntropy', id: 'ecvq-entropy', label: 'Entropy-constrained · entropy rate', style: 4 },
+  { key: 'bppActual', id: 'ecvq-actual', label: 'Entropy-constrained · actual (Huffman-coded)', style: 5 },
+] as const;
+
+/**
+ * Chart series of a run's curve: three rate definitions of the full-search codebooks, the λ sweep of its
+ * entropy-constrained codebooks (when it has one) as a curve of its own, then every reference codec measured.
+ */
 export function curveSeries(curve: RunCurve, metric: QualityMetric): RdSeries[] {
-  const points = [...curve.points].sort((a, b) => a.bits - b.bits);
+  const points = curve.points.filter((p) => p.structure === 'full').sort((a, b) => a.bits - b.bits);
+  const swept = curve.points.filter((p) => p.structure === 'entropy-constrained').sort((a, b) => (b.lambda ?? 0) - (a.lambda ?? 0));
+  const lambdaSeries: RdSeries[] = swept.length === 0 ? [] : lambdaDefinitions.map((definition) => {
+    const style = seriesStyle(definition.style);
+    return {
+      id: definition.id,
+      label: definition.label,
+      kind: 'vq',
+      color: style.color,
+      dash: style.dash,
+      points: swept.map((p) => ({ x: p[definition.key], y: p[metric], label: `λ = ${p.lambda} (K = ${p.size})`, target: String(p.codebookId) })),
+    };
+  });
   const vq: RdSeries[] = rateDefinitions.map((definition) => {
     const style = seriesStyle(definition.style);
     return {
@@ -45,7 +66,7 @@ export function curveSeries(curve: RunCurve, metric: QualityMetric): RdSeries[] 
       marker: referenceStyles[codec].marker,
       points: curve.baselines[codec].map((p) => ({ x: p.bpp, y: p[metric], label: `quality ${p.quality}` })),
     }));
-  return [...vq, ...references];
+  return [...vq, ...lambdaSeries, ...references];
 }
 
 export function RdPanel({ curve, onOpenCodebook }: { curve: RunCurve; onOpenCodebook: (codebookId: number) => void }) {

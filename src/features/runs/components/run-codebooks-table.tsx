@@ -1,5 +1,5 @@
 import { Link } from 'react-router-dom';
-import type { RunDetail } from '../../../../server/contracts';
+import { STRUCTURE_LABELS, type RunDetail } from '../../../../server/contracts';
 import { href } from '../../../config/routes';
 import { formatMse } from '../format';
 
@@ -11,6 +11,7 @@ export function RunCodebooksTable({ teamId, codebooks }: { teamId: number; codeb
       <thead>
         <tr className="border-b border-ink-200 text-xs tracking-[0.06em] text-ink-600 uppercase">
           <th scope="col" className="py-2 pr-3 font-medium">Codebook</th>
+          <th scope="col" className="py-2 pr-3 font-medium">Structure</th>
           <th scope="col" className="py-2 pr-3 text-right font-medium">Iterations</th>
           <th scope="col" className="py-2 pr-3 text-right font-medium">Training MSE</th>
           <th scope="col" className="py-2 font-medium">SHA-256</th>
@@ -18,13 +19,17 @@ export function RunCodebooksTable({ teamId, codebooks }: { teamId: number; codeb
       </thead>
       <tbody>
         {[...codebooks]
-          .sort((a, b) => a.size - b.size)
+          .sort((a, b) => (a.lambda ?? -1) - (b.lambda ?? -1) || a.size - b.size)
           .map((c) => (
             <tr key={c.id} className="border-b border-ink-100 last:border-b-0">
               <td className="py-2 pr-3">
                 <Link to={href.teamCodebook(teamId, c.id)} className="num font-medium text-ink-950 hover:text-ember-700 hover:underline">
                   K = {c.size} · b = {c.bits}
                 </Link>
+              </td>
+              <td className="py-2 pr-3">
+                {STRUCTURE_LABELS[c.structure]}
+                {c.lambda !== null && <span className="num text-ink-600">{` · λ = ${c.lambda}`}</span>}
               </td>
               <td className="num py-2 pr-3 text-right">{c.iterations}</td>
               <td className="num py-2 pr-3 text-right">{formatMse(c.distortion)}</td>

@@ -1,0 +1,102 @@
+// A run with a λ list trains entropy-constrained codebooks beside its full-search ones, through the real runner and
+// job engine, and the studio stores, lists, evaluates and exports them with their structure.
+import sharp from 'sharp';
+import request from 'supertest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { kraftSum, parseCodebook } from '../../server/engine';
+import { seabedSet } from '../../server/seed/seabed-tiles';
+import { bearer, createTestApp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
+
+let t: TestApp;
+let team: Awaited<ReturnType<typeof teamWithRoles>>;
+let runId: number;
+const LAMBDAS = [20, 400];
+
+async function uploadSet(session: Session, name: string): Promise<number> {
+  const created = await request(t.app).post(`/api/teams/${session.teamId}/image-sets`).set(bearer(session)).send({ name });
+  expect(created.status).toBe(201);
+  const id = created.body.imageSet.id as number;
+  let req = request(t.app).post(`/api/teams/${session.teamId}/image-sets/${id}/images`).set(bearer(session));
+  for (const [i, tile] of seabedSet(31, 4, 48, 32).entries()) {
+    const png = await sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toBuffer();
+    req = req.attach('files', png, `tile-${i}.png`);
+  }
+  expect((await req).status).toBe(201);
+  const split = await request(t.app).post(`/api/teams/${session.teamId}/image-sets/${id}/split`).set(bearer(session)).send({ heldOutFraction: 0.25, seed: 3 });
+  expect(split.status).toBe(200);
+  return id;
+}
+
+async function untilEvaluated(id: number): Promise<void> {
+  for (let i = 0; i < 1200; i += 1) {
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${id}`).set(bearer(team.engineer));
+    if (res.body.run.state === 'succeeded' && res.body.run.jobs.every((j: { state: string }) => j.state === 'succeeded')) return;
+    if (['failed', 'cancelled'].includes(res.body.run.state)) throw new Error(`run ended ${res.body.run.state}: ${res.body.run.error}`);
+    await new Promise((r) => setTimeout(r, 100));
+  }
+  throw new Error('the run did not finish');
+}
+
+beforeAll(async () => {
+  t = await createTestApp();
+  team = await teamWithRoles(t, 'Entropy Team');
+  const setId = await uploadSet(team.engineer, 'Seabed tiles');
+  await t.composition.jobs.runner.start();
+  const created = await request(t.app).post(`/api/teams/${team.teamId}/runs`).set(bearer(team.engineer)).send({
+    name: 'ecvq', trainingSetId: setId, heldOutSetId: setId, patch: { width: 2, height: 2 }, bits: 5, maxIterations: 10, seed: 4, lambdas: LAMBDAS,
+  });
+  expect(created.status, JSON.stringify(created.body)).toBe(201);
+  runId = created.body.run.id;
+  await untilEvaluated(runId);
+}, 240_000);
+
+afterAll(async () => {
+  await t?.composition.jobs.runner.stop();
+  await t?.composition.jobs.pool.destroy();
+  await t?.close();
+});
+
+describe('a run with a λ list', () => {
+  it('keeps the full-search codebook and one entropy-constrained codebook per λ, listed with structure and λ', async () => {
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}`).set(bearer(team.viewer));
+    expect(res.body.run.normalized.lambdas).toEqual(LAMBDAS);
+    const books = res.body.run.codebooks as { size: number; structure: string; lambda: number | null }[];
+    expect(books.filter((b) => b.structure === 'full').map((b) => b.size)).toEqual([32]);
+    const ecvq = LAMBDAS.map((l) => books.find((b) => b.lambda === l)!);
+    expect(ecvq.map((b) => b.structure)).toEqual(['entropy-constrained', 'entropy-constrained']);
+    // A larger λ prices bits higher: no more codewords survive.
+    expect(ecvq[1].size).toBeLessThanOrEqual(ecvq[0].size);
+  });
+
+  it('exports each entropy-constrained codebook as revision 2 with a complete Huffman code', async () => {
+    const list = await request(t.app).get(`/api/teams/${team.teamId}/codebooks`).set(bearer(team.viewer));
+    for (const summary of list.body.codebooks.filter((c: { structure: string }) => c.structure === 'entropy-constrained')) {
+      const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${summary.id}/export`).set(bearer(team.viewer));
+      expect(exported.status).toBe(200);
+      expect(exported.body).toMatchObject({ version: 2, structure: { kind: 'entropy-constrained', lambda: summary.lambda } });
+      const book = parseCodebook(exported.body);
+      // Kraft equality of a complete prefix code (Cover & Thomas, Elements of Information Theory, Thm 5.2.1).
+      if (book.structure.kind === 'entropy-constrained' && book.size > 1) expect(kraftSum(book.structure.codeLengths)).toBe(1);
+    }
+  });
+
+  it('draws the curve with a point per codebook, each with its structure, measured on the Huffman-coded files', async () => {
+    const curve = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/curve`).set(bearer(team.viewer));
+    expect(curve.status).toBe(200);
+    const points = curve.body.points as { codebookId: number; structure: string; lambda: number | null }[];
+    expect(points.map((p) => p.structure).sort()).toEqual(['entropy-constrained', 'entropy-constrained', 'full']);
+    const metrics = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/metrics`).set(bearer(team.viewer));
+    expect(metrics.status).toBe(200);
+    for (const p of points.filter((q) => q.structure === 'entropy-constrained')) {
+      const images = metrics.body.codebooks.find((c: { codebookId: number }) => c.codebookId === p.codebookId).images as { containerBytes: number; width: number; height: number; bppEntropy: number }[];
+      expect(images.length).toBeGreaterThan(0);
+      for (const image of images) {
+        // The file is the 72-byte version 3 header, the 4-byte stream length and the Huffman code (zero-padded to a byte):
+        // the code part is never shorter than the image's own index entropy, since any prefix code's lengths satisfy
+        // Kraft's inequality (Cover & Thomas, Elements of Information Theory, Thm 5.3.1).
+        const codeBits = (image.containerBytes - 76) * 8;
+        expect(codeBits).toBeGreaterThanOrEqual(image.bppEntropy * image.width * image.height - 1e-6);
+      }
+    }
+  });
+});

@@ -22,6 +22,7 @@ import { authRouter } from './http/routes/auth';
 import { codebooksRouter } from './http/routes/codebooks';
 import { compareRouter } from './http/routes/compare';
 import { codebookEvaluationsRouter, runResultsRouter } from './http/routes/curves';
+import { evaluationBatchesRouter } from './http/routes/evaluation-batches';
 import type { RouteDeps } from './http/routes/deps';
 import { healthRouter } from './http/routes/health';
 import { internalRouter, teamWorkersRouter } from './http/routes/internal';
@@ -156,6 +157,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/codebooks', codebookEvaluationsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', reconstructionsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', codebookModelRouter(routeDeps));
+  app.use('/api/teams/:teamId/evaluation-batches', evaluationBatchesRouter(routeDeps));
   app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
   app.use('/api/teams/:teamId/workers', teamWorkersRouter(routeDeps));
   app.use('/api', apiDescriptionRouter(routeDeps));

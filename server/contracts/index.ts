@@ -10,6 +10,7 @@ export * from './runs';
 export * from './codebooks';
 export * from './image-sets';
 export * from './evaluation';
+export * from './evaluation-batches';
 export * from './bd';
 export * from './compare';
 export * from './workers';

@@ -18,6 +18,7 @@ export type AuditAction =
   | 'images.uploaded'
   | 'image.deleted'
   | 'evaluation.requested'
+  | 'evaluation.cancelled'
   | 'run.created'
   | 'run.cancelled'
   | 'run.renamed'

@@ -1,4 +1,4 @@
-import type { EvaluateCodebookBody, EvaluateCodebookPayload } from '../contracts';
+import type { EvaluateBatchPayload, EvaluateCodebookBody } from '../contracts';
 import type { Database, Repositories } from '../db';
 import type { RunImageRecord } from '../db/repositories/runs';
 import { badRequest, notFound } from '../errors';
@@ -21,7 +21,7 @@ async function resolveImages(repos: Repositories, teamId: number, body: Evaluate
   return images;
 }
 
-/** Queues evaluations: the evaluate job itself lives with its handler (server/jobs/handlers/evaluate.ts). */
+/** Queues evaluations: the evaluate job itself lives with its handler (server/jobs/handlers/evaluate.ts); batches in evaluation-batches.ts. */
 export function createEvaluationRequests(deps: { db: Database; jobQueued?: () => void }) {
   const { db } = deps;
   return {
@@ -33,7 +33,12 @@ export function createEvaluationRequests(deps: { db: Database; jobQueued?: () =>
         const images = await resolveImages(tx, teamId, body);
         const heldOutHash = heldOutHashOf(images.map((i) => i.sha256));
         const heldOutImageIds = images.map((i) => i.id);
-        const payload: EvaluateCodebookPayload = { heldOutImageIds, heldOutHash };
+        const setName = body.heldOutSetId === undefined ? null : ((await tx.imageSets.find(teamId, body.heldOutSetId))?.name ?? null);
+        // A batch of one codebook on one list: the batch routes give its status, cancel it and show its failure.
+        const payload: EvaluateBatchPayload = {
+          codebookIds: [codebookId],
+          sets: [{ setId: body.heldOutSetId ?? null, name: setName ?? 'chosen images', imageIds: heldOutImageIds, heldOutHash }],
+        };
         const jobId = await tx.jobs.insert({ teamId, codebookId, kind: 'evaluate', payload, createdBy: actorUserId });
         await recordAudit(tx, {
           teamId,

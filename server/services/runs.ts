@@ -24,7 +24,8 @@ const TRAIN_SHARE = 0.8;
 
 const isTerminal = (s: JobState) => terminalJobStates.includes(s);
 
-function toJobSummary(j: JobRecord): JobSummary {
+/** A job as the API shows it (runs and evaluation batches alike). */
+export function toJobSummary(j: JobRecord): JobSummary {
   return {
     id: j.id,
     kind: j.kind,

@@ -11,6 +11,7 @@ export * from './codebooks';
 export * from './image-sets';
 export * from './evaluation';
 export * from './evaluation-batches';
+export * from './rate-plan';
 export * from './bd';
 export * from './compare';
 export * from './workers';

@@ -68,6 +68,13 @@ export const ITERATIONS = { min: 0, runMin: 1, max: 1000 } as const;
  */
 export const EPSILON = { min: 0, max: 1, runMax: 0.1 } as const;
 
+/**
+ * Training vectors per codeword below which a codebook is under-trained: most cells are then fitted to a few
+ * vectors, and the held-out distortion drifts well above the training one. 40 is a rule of thumb (common practice,
+ * quoted from memory), not a published bound; the rate planner warns below it.
+ */
+export const MIN_VECTORS_PER_CODEWORD = 40;
+
 // ---- defaults of every optional run setting ----
 export const RUN_DEFAULTS = {
   color: 'luma',

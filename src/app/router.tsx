@@ -60,6 +60,8 @@ export function createRoutes(queryClient: QueryClient): RouteObject[] {
             { path: paths.teamCodebooks, ...page(queryClient, () => import('./routes/team-codebooks')) },
             { path: paths.teamCodebook, ...page(queryClient, () => import('./routes/team-codebook')) },
             { path: paths.teamCompare, ...page(queryClient, () => import('./routes/team-compare')) },
+            { path: paths.teamEvaluations, ...page(queryClient, () => import('./routes/team-evaluations')) },
+            { path: paths.teamEvaluation, ...page(queryClient, () => import('./routes/team-evaluation')) },
             { path: paths.teamApiReference, ...page(queryClient, () => import('./routes/team-api-reference')) },
           ],
         },

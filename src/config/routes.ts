@@ -24,6 +24,8 @@ export const paths = {
   teamCodebook: '/teams/:teamId/codebooks/:codebookId',
   teamCodebooks: '/teams/:teamId/codebooks',
   teamCompare: '/teams/:teamId/compare',
+  teamEvaluations: '/teams/:teamId/evaluations',
+  teamEvaluation: '/teams/:teamId/evaluations/:jobId',
   teamApiReference: '/teams/:teamId/api',
 } as const;
 
@@ -74,6 +76,8 @@ export const href = {
   /** `runIds` in order: the first is the reference of every pair (commas kept readable in the link). */
   teamCompare: (teamId: TeamId, runIds?: readonly number[]) =>
     `${fillPath(paths.teamCompare, { teamId })}${runIds && runIds.length > 0 ? `?runs=${runIds.join(',')}` : ''}`,
+  teamEvaluations: (teamId: TeamId) => fillPath(paths.teamEvaluations, { teamId }),
+  teamEvaluation: (teamId: TeamId, jobId: number | string) => fillPath(paths.teamEvaluation, { teamId, jobId }),
   teamApiReference: (teamId: TeamId) => fillPath(paths.teamApiReference, { teamId }),
 } as const;
 
@@ -111,6 +115,7 @@ export const teamNavigation: readonly TeamNavSection[] = [
       { label: 'Runs', to: href.teamRuns },
       { label: 'Compare', to: (teamId) => href.teamCompare(teamId) },
       { label: 'Codebooks', to: href.teamCodebooks },
+      { label: 'Evaluations', to: href.teamEvaluations },
     ],
   },
 ];

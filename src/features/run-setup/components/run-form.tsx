@@ -14,6 +14,7 @@ import { planRun, type ImageCatalog } from '../run-plan';
 import { BitBudgetField } from './bit-budget-field';
 import { ChoiceGroup } from './choice-group';
 import { ImagePicker } from './image-picker';
+import { RatePlanner } from './rate-planner';
 import { RunSummary } from './run-summary';
 
 const patchPresets = [
@@ -169,6 +170,21 @@ export function RunForm({
             {sideField('training')}
             {sideField('heldOut')}
           </div>
+        </Section>
+
+        <Section title="Rate planner" description="Start from the rate you must reach: pick a configuration to fill the patch, mean removal and b below.">
+          <RatePlanner
+            images={plan.training}
+            color={values.color}
+            maxVectors={values.maxVectors}
+            onPick={(row) => {
+              const validate = { shouldValidate: form.formState.isSubmitted };
+              form.setValue('patch', { ...row.patch }, validate);
+              form.setValue('meanBits', row.meanBits, validate);
+              form.setValue('bitsMode', 'single', validate);
+              form.setValue('bits', row.bits, validate);
+            }}
+          />
         </Section>
 
         <Section title="Patch and colour" description="Each image is cut into non-overlapping w × h patches; each patch is one vector.">

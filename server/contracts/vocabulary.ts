@@ -2,6 +2,6 @@
 // label, limit and default. The client reaches it only through server/contracts.
 export {
   BD_METHOD_LABELS, BD_METHODS, BD_MIN_OVERLAP_FRACTION, BITS, bdMethodSchema, COLOR_MODES, DEFAULT_BD_METHOD, CONFIG_KEY_LABELS, EPSILON, EXACT, INIT, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS,
-  RUN_STATE_LABELS, RUN_STATES, SEED, SETTING_LABELS, VECTOR_CAP, initMethodSchema, patchPositions, positionsAlong, trainsEverySize, type ColorMode,
+  RUN_STATE_LABELS, RUN_STATES, SEED, SETTING_LABELS, STRIDE, VECTOR_CAP, initMethodSchema, patchPositions, positionsAlong, trainsEverySize, type ColorMode,
   type BdMethod, type InitMethod, type RunStateName,
 } from '../engine/vocabulary';

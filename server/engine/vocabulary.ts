@@ -43,6 +43,12 @@ export type ColorMode = (typeof COLOR_MODES)[number];
 export const BITS = { min: 0, max: 14 } as const;
 /** Patch width and height in pixels. */
 export const PATCH_SIDE = { min: 2, max: 16 } as const;
+/**
+ * Step between training patches in pixels (field `stride`, CLI --stride); absent: the patch side (non-overlapping).
+ * A step below the side overlaps patches (more vectors from the same images); above it skips pixels. Up to the largest
+ * patch side, so every pixel row can still be reached.
+ */
+export const STRIDE = { min: 1, max: 16 } as const;
 /** Bits of the coded block mean; 0 means no mean removal. */
 export const MEAN_BITS = { min: 0, max: 8 } as const;
 /**
@@ -96,6 +102,7 @@ export const SETTING_LABELS = {
   patch: 'Patch',
   color: 'Colour',
   meanBits: 'Mean removal',
+  stride: 'Patch stride',
   bits: 'Index bits b',
   sizes: 'Codebook sizes',
   trainingImageIds: 'Training images',

@@ -105,6 +105,7 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
       trainingImageIds: training.map((i) => i.id),
       heldOutImageIds: heldOut.map((i) => i.id),
       patch: { width: body.patch.width, height: body.patch.height },
+      ...(body.stride === undefined ? {} : { stride: body.stride }),
       color: body.color ?? DEFAULTS.color,
       meanBits: body.meanBits ?? DEFAULTS.meanBits,
       bits,

@@ -16,11 +16,14 @@ const vectorsText = (r: PlanRow) => (r.vectorsPerCodeword === null ? '—' : gro
  */
 export function RatePlanner({
   images,
+  stride,
   color,
   maxVectors,
   onPick,
 }: {
   images: readonly { width: number; height: number }[];
+  /** The form's patch stride; absent: each shape's own side (non-overlapping). */
+  stride?: number;
   color: ColorMode;
   maxVectors: number;
   onPick: (row: PlanRow) => void;
@@ -29,7 +32,7 @@ export function RatePlanner({
   const [showAll, setShowAll] = useState(false);
   const targetBpp = Number(target);
   const valid = target.trim() !== '' && Number.isFinite(targetBpp) && targetBpp > 0;
-  const rows = valid ? planRates({ targetBpp, color, images, maxVectors: Number.isInteger(maxVectors) && maxVectors > 0 ? maxVectors : undefined }) : [];
+  const rows = valid ? planRates({ targetBpp, color, images, stride, maxVectors: Number.isInteger(maxVectors) && maxVectors > 0 ? maxVectors : undefined }) : [];
   const shown = showAll ? rows : rows.slice(0, FIRST_ROWS);
 
   return (

@@ -33,7 +33,11 @@ export function createEvaluationRequests(deps: { db: Database; jobQueued?: () =>
         const images = await resolveImages(tx, teamId, body);
         const heldOutHash = heldOutHashOf(images.map((i) => i.sha256));
         const heldOutImageIds = images.map((i) => i.id);
-        const setName = body.heldOutSetId === undefined ? null : ((await tx.imageSets.find(teamId, body.heldOutSetId))?.name ?? null);
+        // A list's name says where its images come from: the set named, or the one set every chosen image is in.
+        const setIds = [...new Set(images.map((i) => i.setId))];
+        const fromSet = body.heldOutSetId ?? (setIds.length === 1 ? setIds[0] : undefined);
+        const sourceName = fromSet === undefined ? null : ((await tx.imageSets.find(teamId, fromSet))?.name ?? null);
+        const setName = sourceName === null ? null : body.heldOutSetId !== undefined ? sourceName : `${sourceName} (${images.length} chosen images)`;
         // A batch of one codebook on one list: the batch routes give its status, cancel it and show its failure.
         const payload: EvaluateBatchPayload = {
           codebookIds: [codebookId],

@@ -143,6 +143,15 @@ describe('one codebook evaluated on its own', () => {
     expect(b.sets).toEqual([{ setId: setB, name: 'reef held-out', imageCount: 3, heldOutHash: res.body.job.heldOutHash }]);
     expect(b.cells[0].result).not.toBeNull();
   });
+
+  it('names a list of chosen images after the one set they come from', async () => {
+    const images = await request(t.app).get(`/api/teams/${team.teamId}/image-sets/${setB}/images`).set(bearer(team.viewer));
+    const ids = (images.body.images as { id: number }[]).slice(0, 2).map((i) => i.id);
+    const res = await request(t.app).post(`/api/teams/${team.teamId}/codebooks/${codebookIds[1]}/evaluate`).set(bearer(team.engineer)).send({ heldOutImageIds: ids });
+    expect(res.status).toBe(202);
+    const b = await batch(res.body.job.id);
+    expect(b.sets).toEqual([{ setId: null, name: 'reef held-out (2 chosen images)', imageCount: 2, heldOutHash: res.body.job.heldOutHash }]);
+  });
 });
 
 describe('cancelling and failing', () => {

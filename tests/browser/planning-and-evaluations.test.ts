@@ -123,4 +123,33 @@ describe('planning and batch evaluation in the browser', () => {
     expect((await csv.text()).split('\r\n')[0]).toBe('codebook,codebook_name,bits,codebook_size,image_set,set_name,images,bpp_fixed,bpp_entropy,bpp_actual,mse,psnr_db,ssim');
     await saveScreenshot(page, 'studio-evaluation-matrix');
   });
+
+  it('follows an imported codebook\u2019s evaluation from its page to the evaluation\u2019s own page, to the end', async () => {
+    const { codebooks } = await get<{ codebooks: Array<{ id: number; size: number }> }>(server, api, '/codebooks');
+    const source = codebooks.find((c) => c.size === 16)!;
+    const document = await get<object>(server, api, `/codebooks/${source.id}/export`);
+    const imported = await fetch(`${server.url}/api/teams/${api.teamId}/codebooks/import?name=${encodeURIComponent('Harbour copy for evaluation')}`, {
+      method: 'POST',
+      headers: { Authorization: `Bearer ${api.token}`, 'Content-Type': 'application/json' },
+      body: JSON.stringify(document),
+    });
+    expect(imported.status).toBe(201);
+    const { codebook } = (await imported.json()) as { codebook: { id: number } };
+    const heldOut = sets.find((s) => s.name.endsWith('held-out'))!;
+
+    browser = await launchBrowser();
+    const { page } = browser;
+    await signIn(page, server, engineer);
+    await page.goto(`${server.url}/teams/${api.teamId}/codebooks/${codebook.id}`);
+    const form = page.getByRole('form', { name: 'Evaluate on a held-out set' });
+    await form.getByLabel('Held-out images of').selectOption({ label: `${heldOut.name} — 3 held-out images` });
+    await form.getByRole('button', { name: 'Evaluate' }).click();
+    await form.getByRole('link', { name: 'follow its progress' }).click();
+    await page.waitForURL(/\/evaluations\/\d+$/);
+    await expect.poll(() => page.getByTestId('batch-state').textContent(), { timeout: 120_000, interval: 500 }).toBe('Finished');
+    const matrix = page.getByRole('table', { name: 'Evaluation matrix' });
+    expect(await matrix.locator('tbody th').allTextContents()).toEqual(['Harbour copy for evaluationK = 16']);
+    expect(await matrix.locator('thead th').nth(1).textContent()).toBe(`${heldOut.name} (3 chosen images)`);
+    expect(await matrix.locator('tbody td').first().textContent()).toMatch(/^\d+\.\d\d$/);
+  });
 });

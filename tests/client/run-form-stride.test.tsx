@@ -57,6 +57,7 @@ describe('the patch stride on the new-run form', () => {
     expect(figure('Training vectors')).toBe('128');
     await user.type(screen.getByLabelText(`${SETTING_LABELS.stride} (px)`), '2');
     expect(figure('Training vectors')).toBe('450');
+    expect(screen.getByLabelText('Run summary').textContent).toContain('4×4 patches every 2 px of 2 training images');
     await user.click(screen.getByRole('button', { name: 'Start run' }));
     await expect.poll(() => server.requests.length).toBe(1);
     expect(JSON.parse(server.requests[0].body)).toMatchObject({ patch: { width: 4, height: 4 }, stride: 2 });

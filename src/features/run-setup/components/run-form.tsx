@@ -269,7 +269,7 @@ export function RunForm({
       </div>
 
       <aside className="flex flex-col gap-4 rounded-lg border border-ink-200 bg-surface px-5 py-4 shadow-card lg:sticky lg:top-4">
-        <RunSummary plan={plan} patch={values.patch} meanBits={Number.isFinite(values.meanBits) ? values.meanBits : 0} />
+        <RunSummary plan={plan} patch={values.patch} meanBits={Number.isFinite(values.meanBits) ? values.meanBits : 0} stride={Number.isInteger(values.stride) ? values.stride : null} />
         {create.isError && (
           <Alert tone="error" title="The run was not started">
             {messageOf(create.error)}

@@ -214,6 +214,15 @@ describe('refusals', () => {
     expect(await t.db.knex('jobs').count({ n: '*' }).first()).toEqual(before);
   });
 
+  it('refuses a set without images with 400 naming it, and writes no job', async () => {
+    const empty = await request(t.app).post(`/api/teams/${team.teamId}/image-sets`).set(bearer(team.engineer)).send({ name: 'empty held-out' });
+    const before = await t.db.knex('jobs').count({ n: '*' }).first();
+    const res = await request(t.app).post(url()).set(bearer(team.engineer)).send({ codebookIds, imageSetIds: [setA, empty.body.imageSet.id] });
+    expect(res.status).toBe(400);
+    expect(res.body.error.message).toBe('The image set “empty held-out” has no images');
+    expect(await t.db.knex('jobs').count({ n: '*' }).first()).toEqual(before);
+  });
+
   it('refuses a codebook named twice with 400', async () => {
     const res = await request(t.app).post(url()).set(bearer(team.engineer)).send({ codebookIds: [codebookIds[0], codebookIds[0]], imageSetIds: [setA] });
     expect(res.status).toBe(400);

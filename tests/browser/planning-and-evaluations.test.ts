@@ -67,7 +67,7 @@ describe('planning and batch evaluation in the browser', () => {
     const table = page.getByRole('table', { name: 'Configurations that reach the target rate' });
     await page.getByRole('button', { name: /^Show all \d+ configurations$/ }).click();
     // 4 wide × 8 high is 32 pixels: 0.375 bpp is 12 bits a block, b = 8 with the mean in m = 4 bits.
-    const row = table.getByRole('row').filter({ has: page.getByRole('button', { name: 'Use Mean-removed 4×8 b = 8 m = 4' }) });
+    const row = table.getByRole('row').filter({ has: page.getByRole('button', { name: 'Use Mean-removed, 4 × 8 patches, b = 8, m = 4' }) });
     const cells = await row.getByRole('cell').allTextContents();
     expect(cells.slice(0, 7)).toEqual(['Mean-removed', '4×8', '8', '4', '0.375', '256', '32 KiB']);
     // Vectors a codeword from the set's own image sizes, by the planner's rule (non-overlapping 4×8 patches).
@@ -77,7 +77,7 @@ describe('planning and batch evaluation in the browser', () => {
     expect(shown).toBeCloseTo(Math.floor(perCodeword * 10) / 10, 6);
     expect(cells[7].includes('under 40')).toBe(perCodeword < 40);
 
-    await row.getByRole('button', { name: 'Use Mean-removed 4×8 b = 8 m = 4' }).click();
+    await row.getByRole('button', { name: 'Use Mean-removed, 4 × 8 patches, b = 8, m = 4' }).click();
     expect(await page.getByLabel('Width (px)').inputValue()).toBe('4');
     expect(await page.getByLabel('Height (px)').inputValue()).toBe('8');
     expect(await page.getByLabel('Mean removal').inputValue()).toBe('4');

@@ -68,7 +68,8 @@ export function RatePlanner({
             </thead>
             <tbody>
               {shown.map((r) => {
-                const name = `${r.structureLabel} ${r.patch.width}×${r.patch.height} b = ${r.bits}${r.meanBits > 0 ? ` m = ${r.meanBits}` : ''}`;
+                // Spelled "4 × 8 patches" (spaced), so the name never reads as one of the form's own shape buttons ("4×4").
+                const name = `${r.structureLabel}, ${r.patch.width} × ${r.patch.height} patches, b = ${r.bits}${r.meanBits > 0 ? `, m = ${r.meanBits}` : ''}`;
                 return (
                   <tr key={`${r.structure}-${r.patch.width}x${r.patch.height}-${r.meanBits}`} className="border-b border-ink-100">
                     <td className="py-1.5 pr-3">{r.structureLabel}</td>

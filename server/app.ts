@@ -23,6 +23,7 @@ import { codebooksRouter } from './http/routes/codebooks';
 import { activityRouter, codebookProposalRouter, releasesRouter } from './http/routes/releases';
 import { compareRouter } from './http/routes/compare';
 import { codebookEvaluationsRouter, runResultsRouter } from './http/routes/curves';
+import { evaluationBatchesRouter } from './http/routes/evaluation-batches';
 import type { RouteDeps } from './http/routes/deps';
 import { healthRouter } from './http/routes/health';
 import { internalRouter, teamWorkersRouter } from './http/routes/internal';
@@ -161,6 +162,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/codebooks', codebookProposalRouter(routeDeps));
   app.use('/api/teams/:teamId/releases', releasesRouter(routeDeps));
   app.use('/api/teams/:teamId/activity', activityRouter(routeDeps));
+  app.use('/api/teams/:teamId/evaluation-batches', evaluationBatchesRouter(routeDeps));
   app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
   app.use('/api/teams/:teamId/workers', teamWorkersRouter(routeDeps));
   app.use('/api', apiDescriptionRouter(routeDeps));

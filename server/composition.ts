@@ -149,7 +149,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   });
   const runs = createRunsService({ db, bus, training });
   const codebooks = createCodebooksService({ db });
-  const evaluation = createEvaluationService({ db, jobQueued: () => bus.jobQueued() });
+  const evaluation = createEvaluationService({ db, jobQueued: () => bus.jobQueued(), requestCancel: (jobId) => bus.requestCancel(jobId) });
   const reconstructionPool = createTaskPool({ maxThreads: config.reconstructions.maxConcurrent, maxHeapMb: config.jobTaskMaxHeapMb });
   const reconstructions = createReconstructionsService({
     db,

@@ -19,6 +19,7 @@ export const auditActions = [
   'images.uploaded',
   'image.deleted',
   'evaluation.requested',
+  'evaluation.cancelled',
   'anomaly.requested',
   'anomaly.cancelled',
   'denoise.requested',

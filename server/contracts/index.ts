@@ -10,6 +10,8 @@ export * from './runs';
 export * from './codebooks';
 export * from './image-sets';
 export * from './evaluation';
+export * from './evaluation-batches';
+export * from './rate-plan';
 export * from './bd';
 export * from './compare';
 export * from './workers';

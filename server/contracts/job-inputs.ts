@@ -41,13 +41,29 @@ export const denoiseJobPayload = z
   .strict();
 export type DenoiseJobPayload = z.infer<typeof denoiseJobPayload>;
 
+/**
+ * The payload of an evaluate job that measures several codebooks on several image lists (a batch; one codebook on
+ * one list is the smallest batch). Each list's images and key are fixed when it is queued, as a run's are.
+ */
+export const evaluateBatchPayload = z
+  .object({
+    codebookIds: z.array(rowId).min(1),
+    sets: z.array(z.object({ setId: rowId.nullable(), name: z.string(), imageIds: z.array(rowId).min(1), heldOutHash: sha256Hex }).strict()).min(1),
+  })
+  .strict();
+export type EvaluateBatchPayload = z.infer<typeof evaluateBatchPayload>;
+
 export const jobInputs = {
   /** Trains every size of a run. */
   train: z.object({ runId: rowId, codebookId: z.null(), payload: z.null() }),
-  /** Measures every codebook of a run on its held-out images, or one codebook on the list in its payload. */
+  /**
+   * Measures every codebook of a run on its held-out images, one codebook on the list in its payload (as queued
+   * before batches), or a batch of codebooks on several lists (codebookId names the codebook of a one-codebook batch).
+   */
   evaluate: z.union([
     z.object({ runId: rowId, codebookId: z.null(), payload: z.null() }),
     z.object({ runId: z.null(), codebookId: rowId, payload: evaluateCodebookPayload }),
+    z.object({ runId: z.null(), codebookId: rowId.nullable(), payload: evaluateBatchPayload }),
   ]),
   /** Scores one image's blocks or ranks a set's under one codebook, with thresholds from its run's training images. */
   anomaly: z.object({ runId: z.null(), codebookId: rowId, payload: anomalyJobPayload }),

@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, SEED, STRUCTURE_KINDS, VECTOR_CAP } from '../engine/vocabulary';
+import { BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, SEED, STRIDE, STRUCTURE_KINDS, VECTOR_CAP } from '../engine/vocabulary';
 import { idParam, pathId } from './common';
 import { job, jobState } from './jobs';
 
@@ -30,6 +30,8 @@ export const createRunBody = z
     heldOutImageIds: imageIds.optional(),
     heldOutSetId: idParam.optional(),
     patch: z.object({ width: int(PATCH_SIDE.min, PATCH_SIDE.max), height: int(PATCH_SIDE.min, PATCH_SIDE.max) }).strict(),
+    /** Step between training patches in pixels; absent: the patch side (non-overlapping). */
+    stride: int(STRIDE.min, STRIDE.max).optional(),
     color: z.enum(COLOR_MODES).optional(),
     /** 0: no mean removal; 1..8: the block mean is coded with this many bits and removed before quantizing. */
     meanBits: int(MEAN_BITS.min, MEAN_BITS.max).optional(),
@@ -62,6 +64,8 @@ export const normalizedRunConfig = z.object({
   trainingImageIds: z.array(z.number().int()),
   heldOutImageIds: z.array(z.number().int()),
   patch: z.object({ width: z.number().int(), height: z.number().int() }),
+  /** Absent for non-overlapping patches (and in runs made before the stride could be chosen). */
+  stride: z.number().int().optional(),
   color: z.enum(COLOR_MODES),
   meanBits: z.number().int(),
   bits: z.object({ from: z.number().int(), to: z.number().int() }),

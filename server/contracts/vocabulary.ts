@@ -3,6 +3,6 @@
 export {
   LAMBDA, MAX_LAMBDAS, parseLambdaList, STRUCTURE_KINDS, STRUCTURE_LABELS, type StructureKind,
   BD_METHOD_LABELS, BD_METHODS, BD_MIN_OVERLAP_FRACTION, BITS, bdMethodSchema, COLOR_MODES, DEFAULT_BD_METHOD, CONFIG_KEY_LABELS, EPSILON, EXACT, INIT, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS,
-  RUN_STATE_LABELS, RUN_STATES, SEED, SETTING_LABELS, VECTOR_CAP, initMethodSchema, patchPositions, positionsAlong, trainsEverySize, type ColorMode,
+  RUN_STATE_LABELS, RUN_STATES, SEED, SETTING_LABELS, STRIDE, VECTOR_CAP, initMethodSchema, patchPositions, positionsAlong, trainsEverySize, type ColorMode,
   type BdMethod, type InitMethod, type RunStateName,
 } from '../engine/vocabulary';

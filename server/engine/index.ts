@@ -82,6 +82,7 @@ export {
   curveCsv, imageEvaluationCsv, readCurveCsv, runCurveCsv, runMetricsCsv, csvNumber, csvPsnr, csvText, CURVE_CSV_COLUMNS, IMAGE_CSV_COLUMNS, type CurveCsvPoint,
   type ImageCsvRow,
 } from './metrics/evaluation-csv';
+export { evaluationMatrixCsv, MATRIX_CSV_COLUMNS, type MatrixCsvRow } from './metrics/evaluation-csv';
 export { readCsv, writeCsv, csvField, CSV_LINE_END } from './io/csv';
 export { bppFixed, entropyBits, indexBits } from './metrics/rate';
 export { availableBaselineCodecs, canEncodeAvif, DEFAULT_QUALITIES, BASELINE_CODECS, type BaselineCodec, type BaselinePoint } from './metrics/baselines';

@@ -129,6 +129,12 @@ export type ColorMode = (typeof COLOR_MODES)[number];
 export const BITS = { min: 0, max: 14 } as const;
 /** Patch width and height in pixels. */
 export const PATCH_SIDE = { min: 2, max: 16 } as const;
+/**
+ * Step between training patches in pixels (field `stride`, CLI --stride); absent: the patch side (non-overlapping).
+ * A step below the side overlaps patches (more vectors from the same images); above it skips pixels. Up to the largest
+ * patch side, so every pixel row can still be reached.
+ */
+export const STRIDE = { min: 1, max: 16 } as const;
 /** Bits of the coded block mean; 0 means no mean removal. */
 export const MEAN_BITS = { min: 0, max: 8 } as const;
 /**
@@ -154,6 +160,13 @@ export const ITERATIONS = { min: 0, runMin: 1, max: 1000 } as const;
  */
 export const EPSILON = { min: 0, max: 1, runMax: 0.1 } as const;
 
+/**
+ * Training vectors per codeword below which a codebook is under-trained: most cells are then fitted to a few
+ * vectors, and the held-out distortion drifts well above the training one. 40 is a rule of thumb (common practice,
+ * quoted from memory), not a published bound; the rate planner warns below it.
+ */
+export const MIN_VECTORS_PER_CODEWORD = 40;
+
 // ---- defaults of every optional run setting ----
 export const RUN_DEFAULTS = {
   color: 'luma',
@@ -175,6 +188,7 @@ export const SETTING_LABELS = {
   patch: 'Patch',
   color: 'Colour',
   meanBits: 'Mean removal',
+  stride: 'Patch stride',
   bits: 'Index bits b',
   sizes: 'Codebook sizes',
   trainingImageIds: 'Training images',

@@ -1,4 +1,4 @@
-import type { EvaluateCodebookBody, EvaluateCodebookPayload } from '../contracts';
+import type { EvaluateBatchPayload, EvaluateCodebookBody } from '../contracts';
 import type { Database, Repositories } from '../db';
 import type { RunImageRecord } from '../db/repositories/runs';
 import { badRequest, notFound } from '../errors';
@@ -22,7 +22,7 @@ async function resolveImages(repos: Repositories, teamId: number, body: Evaluate
   return images;
 }
 
-/** Queues evaluations: the evaluate job itself lives with its handler (server/jobs/handlers/evaluate.ts). */
+/** Queues evaluations: the evaluate job itself lives with its handler (server/jobs/handlers/evaluate.ts); batches in evaluation-batches.ts. */
 export function createEvaluationRequests(deps: { db: Database; jobQueued?: () => void }) {
   const { db } = deps;
   return {
@@ -35,7 +35,16 @@ export function createEvaluationRequests(deps: { db: Database; jobQueued?: () =>
         const images = await resolveImages(tx, teamId, body);
         const heldOutHash = heldOutHashOf(images.map((i) => i.sha256));
         const heldOutImageIds = images.map((i) => i.id);
-        const payload: EvaluateCodebookPayload = { heldOutImageIds, heldOutHash };
+        // A list's name says where its images come from: the set named, or the one set every chosen image is in.
+        const setIds = [...new Set(images.map((i) => i.setId))];
+        const fromSet = body.heldOutSetId ?? (setIds.length === 1 ? setIds[0] : undefined);
+        const sourceName = fromSet === undefined ? null : ((await tx.imageSets.find(teamId, fromSet))?.name ?? null);
+        const setName = sourceName === null ? null : body.heldOutSetId !== undefined ? sourceName : `${sourceName} (${images.length} chosen images)`;
+        // A batch of one codebook on one list: the batch routes give its status, cancel it and show its failure.
+        const payload: EvaluateBatchPayload = {
+          codebookIds: [codebookId],
+          sets: [{ setId: body.heldOutSetId ?? null, name: setName ?? 'chosen images', imageIds: heldOutImageIds, heldOutHash }],
+        };
         const jobId = await tx.jobs.insert({ teamId, codebookId, kind: 'evaluate', payload, createdBy: actorUserId });
         await recordAudit(tx, {
           teamId,

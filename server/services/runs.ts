@@ -25,6 +25,7 @@ const TRAIN_SHARE = 0.8;
 
 const isTerminal = (s: JobState) => terminalJobStates.includes(s);
 
+/** A job as the API shows it (runs and evaluation batches alike). */
 export function toJobSummary(j: JobRecord): JobSummary {
   return {
     id: j.id,
@@ -105,6 +106,7 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
       trainingImageIds: training.map((i) => i.id),
       heldOutImageIds: heldOut.map((i) => i.id),
       patch: { width: body.patch.width, height: body.patch.height },
+      ...(body.stride === undefined ? {} : { stride: body.stride }),
       color: body.color ?? DEFAULTS.color,
       meanBits: body.meanBits ?? DEFAULTS.meanBits,
       bits,

@@ -15,11 +15,11 @@ export interface RunTrainingMemory extends TrainingMemory {
   largestImage: { width: number; height: number } | null;
 }
 
-type RunShape = Pick<NormalizedRunConfig, 'patch' | 'color' | 'maxVectors' | 'sizes'>;
+type RunShape = Pick<NormalizedRunConfig, 'patch' | 'stride' | 'color' | 'maxVectors' | 'sizes'>;
 
 /** What training this run will hold at its peak (engine/memory/training-memory.ts), from its settings and image sizes. */
 export function runTrainingMemory(cfg: RunShape, training: { width: number; height: number }[], limits: Pick<TrainingLimits, 'engineThreads'>): RunTrainingMemory {
-  const available = training.reduce((n, img) => n + patchPositions(img.width, img.height, cfg.patch), 0);
+  const available = training.reduce((n, img) => n + patchPositions(img.width, img.height, cfg.patch, cfg.stride), 0);
   const vectors = Math.min(available, cfg.maxVectors);
   const dimension = cfg.patch.width * cfg.patch.height * (cfg.color === 'rgb' ? 3 : 1);
   let largestImage: { width: number; height: number } | null = null;

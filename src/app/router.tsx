@@ -64,6 +64,8 @@ export function createRoutes(queryClient: QueryClient): RouteObject[] {
             { path: paths.teamReleaseReport, ...page(queryClient, () => import('./routes/team-release-report')) },
             { path: paths.teamActivity, ...page(queryClient, () => import('./routes/team-activity')) },
             { path: paths.teamCompare, ...page(queryClient, () => import('./routes/team-compare')) },
+            { path: paths.teamEvaluations, ...page(queryClient, () => import('./routes/team-evaluations')) },
+            { path: paths.teamEvaluation, ...page(queryClient, () => import('./routes/team-evaluation')) },
             { path: paths.teamApiReference, ...page(queryClient, () => import('./routes/team-api-reference')) },
           ],
         },

@@ -24,6 +24,8 @@ export const paths = {
   teamCodebook: '/teams/:teamId/codebooks/:codebookId',
   teamCodebooks: '/teams/:teamId/codebooks',
   teamCompare: '/teams/:teamId/compare',
+  teamEvaluations: '/teams/:teamId/evaluations',
+  teamEvaluation: '/teams/:teamId/evaluations/:jobId',
   teamApiReference: '/teams/:teamId/api',
   teamReleases: '/teams/:teamId/releases',
   teamRelease: '/teams/:teamId/releases/:releaseId',
@@ -78,6 +80,8 @@ export const href = {
   /** `runIds` in order: the first is the reference of every pair (commas kept readable in the link). */
   teamCompare: (teamId: TeamId, runIds?: readonly number[]) =>
     `${fillPath(paths.teamCompare, { teamId })}${runIds && runIds.length > 0 ? `?runs=${runIds.join(',')}` : ''}`,
+  teamEvaluations: (teamId: TeamId) => fillPath(paths.teamEvaluations, { teamId }),
+  teamEvaluation: (teamId: TeamId, jobId: number | string) => fillPath(paths.teamEvaluation, { teamId, jobId }),
   teamApiReference: (teamId: TeamId) => fillPath(paths.teamApiReference, { teamId }),
   teamReleases: (teamId: TeamId) => fillPath(paths.teamReleases, { teamId }),
   teamRelease: (teamId: TeamId, releaseId: number | string) => fillPath(paths.teamRelease, { teamId, releaseId }),
@@ -128,6 +132,7 @@ export const teamNavigation: readonly TeamNavSection[] = [
       { label: 'Compare', to: (teamId) => href.teamCompare(teamId) },
       { label: 'Codebooks', to: href.teamCodebooks },
       { label: 'Releases', to: href.teamReleases },
+      { label: 'Evaluations', to: href.teamEvaluations },
     ],
   },
 ];

@@ -26,6 +26,8 @@ describe('the route table', () => {
       teamCodebook: href.teamCodebook(3, 9),
       teamCodebooks: href.teamCodebooks(3),
       teamCompare: href.teamCompare(3),
+      teamEvaluations: href.teamEvaluations(3),
+      teamEvaluation: href.teamEvaluation(3, 9),
       teamApiReference: href.teamApiReference(3),
       teamReleases: href.teamReleases(3),
       teamRelease: href.teamRelease(3, 9),

@@ -34,10 +34,12 @@ const SPEC: OptionSpec = {
   json: { type: 'boolean' },
 };
 
-const signed = (v: number | null, digits: number, unit: string) => (v === null ? '—' : `${v > 0 ? '+' : ''}${v.toFixed(digits)} ${unit}`);
+/** A figure with its sign, or a dash when it could not be computed; `sweep` prints its figures the same way. */
+export const signedFigure = (v: number | null, digits: number, unit: string) => (v === null ? '—' : `${v > 0 ? '+' : ''}${v.toFixed(digits)} ${unit}`);
 const span = (s: readonly [number, number] | null, digits: number, unit: string) => (s ? `${s[0].toFixed(digits)}–${s[1].toFixed(digits)} ${unit}` : '—');
 
-function note(r: BdTableRow): string {
+/** Why a figure is missing, or its short-overlap flag; `sweep` uses the same words. */
+export function bdNote(r: BdTableRow): string {
   if (r.reason) return r.reason;
   return r.shortOverlap ? `short overlap (${Math.round(r.sharedFraction.bpp * 100)} % of rate, ${Math.round(r.sharedFraction.psnr * 100)} % of PSNR range)` : '';
 }
@@ -67,7 +69,7 @@ export async function runBd(argv: string[], ctx: CliContext): Promise<void> {
   ctx.stdout.write(
     table(
       ['against', 'BD-rate', 'BD-PSNR', 'shared rate', 'shared PSNR', 'note'],
-      rows.map((r) => [r.reference, signed(r.bdRate, 2, '%'), signed(r.bdPsnr, 3, 'dB'), span(r.shared.bpp, 4, 'bpp'), span(r.shared.psnr, 2, 'dB'), note(r)]),
+      rows.map((r) => [r.reference, signedFigure(r.bdRate, 2, '%'), signedFigure(r.bdPsnr, 3, 'dB'), span(r.shared.bpp, 4, 'bpp'), span(r.shared.psnr, 2, 'dB'), bdNote(r)]),
     ) + `curves drawn by ${BD_METHOD_LABELS[method]}; codebooks on the ${rate} rate${out ? `; wrote ${out}` : ''}\n`,
   );
 }

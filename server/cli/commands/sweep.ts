@@ -1,14 +1,17 @@
 import {
-  availableBaselineCodecs, baselines, CURVE_CSV_COLUMNS, curveCsv, DEFAULT_QUALITIES, evaluate, EXACT, MAX_BITS, trainCodebooks, trainsEverySize,
-  type BaselineCodec, type Codebook, type CurveCsvPoint, type PatchInfo,
+  availableBaselineCodecs, BD_METHOD_LABELS, BD_METHODS, BD_MIN_OVERLAP_FRACTION, baselines, bdAgainstCodecs, CURVE_CSV_COLUMNS, curveCsv, DEFAULT_BD_METHOD,
+  DEFAULT_QUALITIES, evaluate, EXACT, MAX_BITS, trainCodebooks, trainsEverySize,
+  type BaselineCodec, type BdTableRow, type Codebook, type CurveCsvPoint, type PatchInfo,
 } from '../../engine';
-import { intListOption, listOption, parseOptions, rangeOption, requiredString, type OptionSpec } from '../args';
+import { choiceOption, intListOption, listOption, parseOptions, rangeOption, requiredString, stringOption, type OptionSpec } from '../args';
 import { CliInputError, CliUsageError } from '../cli-error';
+import { checkKeepFolder, codebookFileName, writeCodebookFiles } from '../codebook-files';
 import type { CliContext } from '../context';
 import { checkOutputFolder, writeOutputsAtomically } from '../files';
 import { loadImageFolder, trainingVectorsFromFolder } from '../inputs';
 import { progressBar } from '../progress';
-import { fmt, table } from '../text-output';
+import { fmt, jsonLine, table } from '../text-output';
+import { bdNote, signedFigure } from './bd';
 import { aliased, imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
 import { structureOptionSpec, structurePlan, trainStructured } from '../structure-training';
 
@@ -23,12 +26,28 @@ and writes the rate–distortion curve as CSV.
   --qualities LIST      codec qualities to sweep (default ${DEFAULT_QUALITIES.join(',')})
   --lambda LIST         entropy-constrained codebooks instead, one per λ, from the 2^B-codeword codebook (give --bits B,
                         one size); as for "cellwright train"
-  --color, --stride, --mean-bits, --vector-cap, --init, --epsilon, --max-iterations, --seed, --threads
+  --stride S            step between training patches in pixels (default: the patch size, non-overlapping)
+  --color, --mean-bits, --vector-cap, --init, --epsilon, --max-iterations, --seed, --threads
                         as for "cellwright train"
+  --out-dir DIR         also keep every codebook the sweep trains in DIR (an existing folder), one codebook JSON file
+                        each, named by its configuration: WxH-COLOR[-meanM][-sS]-bB.json (e.g. 4x4-luma-b6.json)
+  --method M            how the Bjøntegaard figures draw each curve (default ${DEFAULT_BD_METHOD}): ${BD_METHODS.map((m) => `${m}, ${BD_METHOD_LABELS[m]}`).join('; ')}
+  --json                print one JSON object on stdout instead of the tables (shape below)
+With --baseline the sweep also gives BD-rate (mean rate change at equal PSNR, percent; negative: fewer bits) and
+BD-PSNR (mean PSNR change at equal rate, dB) of the codebooks on their actual rate against each codec, exactly as
+"cellwright bd" gives them for the curve file: averaged only over the interval both curves share, flagged "short
+overlap" under ${Math.round(BD_MIN_OVERLAP_FRACTION * 100)} % of the shorter curve's range.
 CSV columns, those of the studio's curve download (RFC 4180: comma-separated, CRLF line ends):
   ${CURVE_CSV_COLUMNS.join(', ')}
 Empty where a column does not apply (codebook is the studio's codebook id, so empty here); psnr_db is ${EXACT.csv} for an
 exact reconstruction.
+JSON (--json), one object:
+  { "command": "sweep", "out": CURVE.csv, "outDir": DIR or null,
+    "points": [ one per CSV row: codec, bits, codebookSize, quality, bppFixed, bppEntropy, bppActual, mse, psnr, ssim,
+                and for a codebook "file" (its path under --out-dir, else null) ],
+    "codebooks": [ { bits, size, file, checksum, iterations, distortion } ],
+    "bd": { "method", "rate": "actual", "minOverlapFraction", "rows": [ the rows of "cellwright bd --json" ] } }
+  psnr is null for an exact reconstruction (JSON has no infinity); bd.rows is empty without --baseline.
 `;
 
 const SPEC: OptionSpec = {
@@ -43,6 +62,9 @@ const SPEC: OptionSpec = {
   ...trainingOptionSpec,
   ...structureOptionSpec,
   out: { type: 'string' },
+  'out-dir': { type: 'string' },
+  method: { type: 'string' },
+  json: { type: 'boolean' },
 };
 
 export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
@@ -65,8 +87,11 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   const settings = trainingSettings(values);
   const codecs = listOption(values, 'baseline', ['jpeg', 'webp', 'avif'] as const) ?? [];
   const qualities = intListOption(values, 'qualities', { min: 1, max: 100 }) ?? [...DEFAULT_QUALITIES];
+  const method = choiceOption(values, 'method', BD_METHODS) ?? DEFAULT_BD_METHOD;
+  const outDir = stringOption(values, 'out-dir');
   if (codecs.includes('avif') && !(await availableBaselineCodecs()).includes('avif')) throw new CliInputError('this build of sharp cannot encode AVIF; drop it from --baseline');
   await checkOutputFolder(out);
+  if (outDir !== undefined) await checkKeepFolder(outDir, '--out-dir');
 
   const patch: PatchInfo = { ...img.patch, channels: img.color === 'rgb' ? 3 : 1, color: img.color };
   const [lo, hi] = range;
@@ -122,6 +147,32 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   } finally {
     evalBar.done();
   }
+  // Codebook files first: a curve file never names codebooks that were not written.
+  const files = outDir === undefined ? books.map(() => null) : await writeCodebookFiles(outDir, books);
   await writeOutputsAtomically([{ path: out, data: curveCsv(rows) }]);
-  ctx.stdout.write(table(['point', 'bpp fixed', 'bpp entropy', 'bpp actual', 'MSE', 'PSNR', 'SSIM'], shown) + `wrote ${out}\n`);
+  const bd = bdAgainstCodecs(rows, 'actual', method);
+  if (values.json) {
+    ctx.stdout.write(jsonLine(sweepJson({ out, outDir: outDir ?? null, rows, books, files, method, bd })));
+    return;
+  }
+  const bdTable =
+    bd.length === 0
+      ? ''
+      : table(['against', 'BD-rate', 'BD-PSNR', 'note'], bd.map((r) => [r.reference, signedFigure(r.bdRate, 2, '%'), signedFigure(r.bdPsnr, 3, 'dB'), bdNote(r)])) +
+        `BD figures: codebooks on the actual rate, curves drawn by ${BD_METHOD_LABELS[method]}, over the interval each pair shares\n`;
+  const kept = outDir === undefined ? '' : `kept ${books.length} codebooks in ${outDir}: ${books.map(codebookFileName).join(', ')}\n`;
+  ctx.stdout.write(table(['point', 'bpp fixed', 'bpp entropy', 'bpp actual', 'MSE', 'PSNR', 'SSIM'], shown) + bdTable + kept + `wrote ${out}\n`);
+}
+
+/** The documented --json object (see SWEEP_HELP). */
+function sweepJson(r: { out: string; outDir: string | null; rows: CurveCsvPoint[]; books: Codebook[]; files: (string | null)[]; method: string; bd: BdTableRow[] }) {
+  const fileOf = new Map(r.books.map((b, i) => [b.size, r.files[i]]));
+  return {
+    command: 'sweep',
+    out: r.out,
+    outDir: r.outDir,
+    points: r.rows.map(({ codebook: _studioId, ...p }) => ({ ...p, file: p.codec === 'vq' ? (fileOf.get(p.codebookSize!) ?? null) : null })),
+    codebooks: r.books.map((b, i) => ({ bits: b.bits, size: b.size, file: r.files[i], checksum: b.checksum, iterations: b.training.iterations, distortion: b.training.distortion })),
+    bd: { method: r.method, rate: 'actual', minOverlapFraction: BD_MIN_OVERLAP_FRACTION, rows: r.bd },
+  };
 }

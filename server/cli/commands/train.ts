@@ -1,10 +1,11 @@
 import {
-  BITS, COLOR_MODES, EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, type InitMethod,
+  BITS, COLOR_MODES, EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, trainsEverySize, type InitMethod,
   serializeCodebook, type Codebook, type PatchInfo, type PreprocessingInfo,
 } from '../../engine';
 import { huffmanFigures, lambdaOutPath, structureOptionSpec, structurePlan, trainStructured } from '../structure-training';
 import { choiceOption, intOption, numberOption, parseOptions, requiredString, stringOption, type OptionSpec, type ParsedOptions } from '../args';
 import { CliUsageError } from '../cli-error';
+import { checkKeepFolder, writeCodebookFiles } from '../codebook-files';
 import type { CliContext } from '../context';
 import { checkOutputFolder, writeOutputsAtomically } from '../files';
 import { loadVectors, trainingVectorsFromFolder } from '../inputs';
@@ -43,6 +44,8 @@ Entropy-constrained VQ (Chou, Lookabaugh & Gray 1989):
                         canonical Huffman code (lengths ≤ 16 bits) of its training usage; encode writes indices in that code
 Output:
   --out FILE            codebook JSON to write (written atomically); with several λ values, FILE.lambda-<λ>.json each
+  --keep-sizes DIR      also keep every size the pass trained on the way (with --init split: 2^0 … 2^B codewords) in
+                        DIR, an existing folder, one codebook JSON file each named WxH-COLOR[-meanM][-sS]-bB.json
   --json                print one JSON object with the result on stdout
 `;
 
@@ -75,6 +78,7 @@ const SPEC: OptionSpec = {
   ...trainingOptionSpec,
   ...structureOptionSpec,
   out: { type: 'string' },
+  'keep-sizes': { type: 'string' },
   json: { type: 'boolean' },
 };
 
@@ -130,7 +134,12 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
   const plan = structurePlan(values, bits);
   const settings = trainingSettings(values);
   const img = imageSettings(values);
+  const keepDir = stringOption(values, 'keep-sizes');
+  if (keepDir !== undefined && !trainsEverySize(settings.init)) {
+    throw new CliUsageError(`--keep-sizes needs an init that trains every size in one pass (split); ${settings.init} trains 2^${bits} codewords only`);
+  }
   await checkOutputFolder(out);
+  if (keepDir !== undefined) await checkKeepFolder(keepDir, '--keep-sizes');
 
   let vectors: Float32Array;
   let dimension: number;
@@ -197,6 +206,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
     return;
   }
   const book = codebooks[codebooks.length - 1];
+  const kept = keepDir === undefined ? null : await writeCodebookFiles(keepDir, codebooks);
   await writeOutputsAtomically([{ path: out, data: serializeCodebook(book) }]);
   const elapsedMs = Date.now() - started;
 
@@ -219,7 +229,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
         structure: book.structure.kind,
         checksum: book.checksum,
         elapsedMs,
-        sizes: codebooks.map((c) => ({ size: c.size, iterations: c.training.iterations, distortion: c.training.distortion })),
+        sizes: codebooks.map((c, i) => ({ size: c.size, iterations: c.training.iterations, distortion: c.training.distortion, file: kept?.[i] ?? null })),
       }),
     );
     return;
@@ -230,6 +240,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
         ['size', 'iterations', 'MSE/component'],
         codebooks.map((c) => [c.size, c.training.iterations, fmt.mse(c.training.distortion)]),
       ) +
+      (kept ? `kept ${kept.length} sizes in ${keepDir}\n` : '') +
       `wrote ${out}\n`,
   );
 }

@@ -235,6 +235,12 @@ export function codebooksRepository(db: Executor) {
       const rows = (await base().where({ 'c.team_id': teamId }).orderBy('c.id', 'desc').limit(limit).select(summaryColumns)) as CodebookRow[];
       return rows.map(toSummaryRecord);
     },
+    /** The team's codebooks among these ids, summary columns only. */
+    async summariesForTeam(teamId: number, ids: number[]): Promise<CodebookSummaryRecord[]> {
+      if (ids.length === 0) return [];
+      const rows = (await base().where({ 'c.team_id': teamId }).whereIn('c.id', ids).orderBy('c.id').select(summaryColumns)) as CodebookRow[];
+      return rows.map(toSummaryRecord);
+    },
     /** A run's codebooks, smallest first. */
     async listForRun(runId: number): Promise<CodebookSummaryRecord[]> {
       const rows = (await base().where({ 'c.run_id': runId }).orderBy('c.size').select(summaryColumns)) as CodebookRow[];

@@ -119,6 +119,13 @@ export function evaluationsRepository(db: Executor) {
       return row ? toEvaluation(row) : null;
     },
 
+    /** The evaluations of any of these codebooks on any of these lists (a batch's matrix), in one query. */
+    async findAll(codebookIds: number[], heldOutHashes: string[]): Promise<EvaluationRecord[]> {
+      if (codebookIds.length === 0 || heldOutHashes.length === 0) return [];
+      const rows = (await db('evaluations').whereIn('codebook_id', codebookIds).whereIn('held_out_hash', heldOutHashes).orderBy('id')) as EvaluationRow[];
+      return rows.map(toEvaluation);
+    },
+
     async listForCodebook(codebookId: number): Promise<EvaluationRecord[]> {
       const rows = (await db('evaluations').where({ codebook_id: codebookId }).orderBy('id')) as EvaluationRow[];
       return rows.map(toEvaluation);

@@ -106,6 +106,11 @@ export function jobsRepository(db: Executor) {
       if (options.forUpdate) q.forUpdate();
       return ((await q) as JobRow[]).map(toJob);
     },
+    /** The team's evaluate jobs without a run (batches and single codebooks' evaluations), newest first. */
+    async listTeamEvaluations(teamId: number, limit: number): Promise<JobRecord[]> {
+      const rows = (await db('jobs').where({ team_id: teamId, kind: 'evaluate' }).whereNull('run_id').orderBy('id', 'desc').limit(limit)) as JobRow[];
+      return rows.map(toJob);
+    },
     async listForRuns(runIds: number[]): Promise<JobRecord[]> {
       if (runIds.length === 0) return [];
       return ((await db('jobs').whereIn('run_id', runIds).orderBy('id')) as JobRow[]).map(toJob);

@@ -157,6 +157,39 @@ export function runMetricsCsv(metrics: {
   );
 }
 
+/** The studio's batch matrix download (GET …/evaluation-batches/:jobId/matrix?format=csv): one row per codebook and set. */
+export const MATRIX_CSV_COLUMNS = [
+  'codebook', 'codebook_name', 'bits', 'codebook_size', 'image_set', 'set_name', 'images', 'bpp_fixed', 'bpp_entropy', 'bpp_actual', 'mse', 'psnr_db', 'ssim',
+] as const;
+
+export interface MatrixCsvRow {
+  codebook: number;
+  codebookName: string;
+  bits: number | null;
+  codebookSize: number | null;
+  /** null for a list of images chosen one by one. */
+  imageSet: number | null;
+  setName: string;
+  images: number;
+  /** null until the cell is measured: its figure columns are then empty. */
+  figures: StoredFigures | null;
+}
+
+/** A batch's codebooks × sets matrix as an RFC 4180 file with MATRIX_CSV_COLUMNS (units as in the curve file). */
+export function evaluationMatrixCsv(rows: readonly MatrixCsvRow[]): string {
+  return writeCsv(
+    MATRIX_CSV_COLUMNS,
+    rows.map((r) => {
+      const f = r.figures;
+      return [
+        String(r.codebook), csvText(r.codebookName), csvNumber(r.bits), csvNumber(r.codebookSize), idText(r.imageSet), csvText(r.setName), csvNumber(r.images),
+        csvNumber(f?.bppFixed ?? null), csvNumber(f?.bppEntropy ?? null), csvNumber(f?.bppActual ?? null), csvNumber(f?.mse ?? null),
+        f ? csvPsnr(f.psnr, f.mse) : '', csvNumber(f?.ssim ?? null),
+      ];
+    }),
+  );
+}
+
 // ---- reading a curve file back (the command line's `bd`) ----
 
 /** A CSV value as a number: empty → null, EXACT.csv → +∞; anything else must be a decimal number. */

@@ -81,6 +81,13 @@ import {
   uploadResponse,
   workersResponse,
 } from '../../contracts';
+import {
+  createEvaluationBatchBody,
+  evaluationBatchesResponse,
+  evaluationBatchListParams,
+  evaluationBatchParams,
+  evaluationBatchResponse,
+} from '../../contracts/evaluation-batches';
 
 /**
  * Who may call a route. public: anyone; optional-session: anyone, and a signed-in caller is recognised;
@@ -263,10 +270,18 @@ const releaseRoutes: RouteDescription[] = [
   { method: 'get', path: '/api/teams/:teamId/activity', tag: 'Team', summary: 'The team’s activity log, newest first, filtered by person, action and object', access: 'member', input: { params: teamParams, query: activityQuery }, responses: { 200: json(activityResponse, 'One page of entries') } },
 ];
 
+const evaluationBatchRoutes: RouteDescription[] = [
+  { method: 'get', path: '/api/teams/:teamId/evaluation-batches', tag: 'Results', summary: 'List evaluation batches (and single codebooks\u2019 evaluations), newest first', access: 'member', input: { params: evaluationBatchListParams }, responses: { 200: json(evaluationBatchesResponse, 'The batches') } },
+  { method: 'post', path: '/api/teams/:teamId/evaluation-batches', tag: 'Results', summary: 'Evaluate several codebooks on several image sets as one job', access: 'engineer', input: { params: teamParams, body: createEvaluationBatchBody }, responses: { 202: json(evaluationBatchResponse, 'The batch, queued') } },
+  { method: 'get', path: '/api/teams/:teamId/evaluation-batches/:jobId', tag: 'Results', summary: 'An evaluation batch: its job\u2019s state, progress and error, and the cells measured so far', access: 'member', input: { params: evaluationBatchParams }, responses: { 200: json(evaluationBatchResponse, 'The batch') } },
+  { method: 'post', path: '/api/teams/:teamId/evaluation-batches/:jobId/cancel', tag: 'Results', summary: 'Cancel a queued or running evaluation batch', access: 'engineer', input: { params: evaluationBatchParams }, responses: { 200: json(evaluationBatchResponse, 'The batch') }, errors: { 409: 'The evaluation has already finished' } },
+  { method: 'get', path: '/api/teams/:teamId/evaluation-batches/:jobId/matrix', tag: 'Results', summary: 'A batch\u2019s codebooks \u00d7 sets matrix (PSNR, SSIM, rates)', access: 'member', input: { params: evaluationBatchParams, query: exportFormatQuery }, responses: { 200: csvOrJson(evaluationBatchResponse, 'The matrix') } },
+];
+
 const workerRoutes: RouteDescription[] = [
   { method: 'post', path: '/internal/v1/workers', tag: 'Compute workers (internal)', summary: 'A compute worker joins with the worker token', access: 'worker', input: { body: registerWorkerBody }, responses: { 201: json(registerWorkerResponse, 'The worker’s session and queue settings') } },
   { method: 'get', path: '/internal/v1/originals/:sha256', tag: 'Compute workers (internal)', summary: 'An original image a task granted to this worker', access: 'worker', input: { params: originalParams }, validatedInside: true, responses: { 200: { description: 'The bytes', content: { 'application/octet-stream': 'binary' } } } },
 ];
 
 /** Every route the app mounts, in the order of its tags on the reference page. */
-export const routeTable: readonly RouteDescription[] = [...accountRoutes, ...teamRoutes, ...imageRoutes, ...runRoutes, ...codebookRoutes, ...releaseRoutes, ...workerRoutes];
+export const routeTable: readonly RouteDescription[] = [...accountRoutes, ...teamRoutes, ...imageRoutes, ...runRoutes, ...codebookRoutes, ...releaseRoutes, ...evaluationBatchRoutes, ...workerRoutes];

@@ -43,7 +43,7 @@ async function localImages(images: ImageRef[], ctx: SampleContext): Promise<Task
 /** Draws a run's training vectors: the same sample for a given image list and seed wherever it runs. */
 export async function loadTrainingSample(sample: TrainingSample, ctx: SampleContext): Promise<Float32Array> {
   const files = await localImages(sample.images, ctx);
-  const input: TrainingVectorsInput = { files, color: sample.color, patch: sample.patch, sample: sample.maxVectors, seed: sample.seed, meanBits: sample.meanBits };
+  const input: TrainingVectorsInput = { files, color: sample.color, patch: sample.patch, stride: sample.stride, sample: sample.maxVectors, seed: sample.seed, meanBits: sample.meanBits };
   // The pool thread hands the vectors over in shared memory: every pass's search threads read this one copy.
   return ctx.pool.run<TrainingVectorsInput, Float32Array>(trainingVectorsTask, input, { signal: ctx.signal });
 }
@@ -52,7 +52,7 @@ export async function loadTrainingSample(sample: TrainingSample, ctx: SampleCont
 async function trainTask(task: TrainTask, ctx: ExecuteContext): Promise<TrainOutcome> {
   ctx.progress({ phase: 'loading', fraction: 0, message: `decoding ${task.images.length} training images` });
   const sample: TrainingSample = {
-    images: task.images, color: task.color, patch: task.patch, maxVectors: task.maxVectors, seed: task.seed, meanBits: task.meanBits, dimension: task.dimension,
+    images: task.images, color: task.color, patch: task.patch, ...(task.stride === undefined ? {} : { stride: task.stride }), maxVectors: task.maxVectors, seed: task.seed, meanBits: task.meanBits, dimension: task.dimension,
   };
   const vectors = await loadTrainingSample(sample, ctx);
   const vectorCount = vectors.length / task.dimension;

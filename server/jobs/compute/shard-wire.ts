@@ -14,6 +14,8 @@ export interface TrainingSample {
   images: ImageRef[];
   color: ColorMode;
   patch: { width: number; height: number };
+  /** Absent: the patch side (and so the same key as a sample drawn before strides existed). */
+  stride?: number;
   maxVectors: number;
   seed: number;
   meanBits: number;

@@ -27,6 +27,8 @@ export interface TrainTask {
   dimension: number;
   color: ColorMode;
   patch: { width: number; height: number };
+  /** Step between training patches; absent: the patch side. */
+  stride?: number;
   meanBits: number;
   init: InitMethod;
   epsilon: number;

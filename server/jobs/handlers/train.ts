@@ -44,6 +44,7 @@ function toNewCodebook(run: RunRecord, book: TrainedSize, path: IterationStat[],
       trace: path,
       maxIterations: cfg.maxIterations,
       sample: cfg.maxVectors,
+      ...(cfg.stride === undefined ? {} : { stride: cfg.stride }),
     },
   });
   const { codewords: _omit, ...metadata } = toCodebookDocument(codebook);
@@ -103,6 +104,7 @@ export const trainHandler: JobHandler<'train'> = async (job, ctx) => {
       dimension,
       color: cfg.color,
       patch: cfg.patch,
+      ...(cfg.stride === undefined ? {} : { stride: cfg.stride }),
       meanBits: cfg.meanBits,
       init: cfg.init,
       epsilon: cfg.epsilon,

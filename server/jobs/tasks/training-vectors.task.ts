@@ -10,6 +10,8 @@ export interface TrainingVectorsInput {
   files: { path: string; name: string; width: number; height: number }[];
   color: 'luma' | 'rgb';
   patch: { width: number; height: number };
+  /** Step between patches in pixels; absent: the patch side. */
+  stride?: number;
   /** Cap on the number of vectors, drawn at random with `seed` when the images hold more. */
   sample: number;
   seed: number;
@@ -45,6 +47,7 @@ export default async function trainingVectors(input: TrainingVectorsInput, conte
   });
   const { vectors } = await streamImagesToTrainingVectors(sources, {
     patch: input.patch,
+    stride: input.stride,
     color: input.color,
     sample: input.sample,
     seed: input.seed,

@@ -12,6 +12,8 @@ export type RunFormValues = {
   heldOutSetId: number | null;
   heldOutImageIds: number[];
   patch: { width: number; height: number };
+  /** null: the patch side (non-overlapping patches). */
+  stride: number | null;
   color: ColorMode;
   meanBits: number;
   bitsMode: 'single' | 'range';
@@ -43,6 +45,7 @@ export const emptyRunForm: RunFormValues = {
   heldOutSetId: null,
   heldOutImageIds: [],
   patch: { width: 4, height: 4 },
+  stride: null,
   color: RUN_DEFAULTS.color,
   meanBits: RUN_DEFAULTS.meanBits,
   bitsMode: 'single',
@@ -66,6 +69,7 @@ export function toRunBody(v: RunFormValues): Record<string, unknown> {
     ...(v.trainingBy === 'set' ? { trainingSetId: v.trainingSetId ?? undefined } : { trainingImageIds: v.trainingImageIds }),
     ...(v.heldOutBy === 'set' ? { heldOutSetId: v.heldOutSetId ?? undefined } : { heldOutImageIds: v.heldOutImageIds }),
     patch: { width: v.patch.width, height: v.patch.height },
+    ...(v.stride === null ? {} : { stride: v.stride }),
     color: v.color,
     meanBits: v.meanBits,
     bits: v.bitsMode === 'single' ? v.bits : { from: v.bitsFrom, to: v.bitsTo },
@@ -95,6 +99,7 @@ export function fromRunConfig(config: CreateRunBody, name: string): RunFormValue
     heldOutSetId: config.heldOutSetId ?? null,
     heldOutImageIds: config.heldOutImageIds ?? [],
     patch: { ...config.patch },
+    stride: config.stride ?? null,
     color: config.color ?? RUN_DEFAULTS.color,
     meanBits: config.meanBits ?? RUN_DEFAULTS.meanBits,
     bitsMode: range ? 'range' : 'single',
@@ -115,6 +120,7 @@ export function toPlanInput(v: RunFormValues): PlanInput {
     training: v.trainingBy === 'set' ? { by: 'set', setId: v.trainingSetId } : { by: 'images', imageIds: v.trainingImageIds },
     heldOut: v.heldOutBy === 'set' ? { by: 'set', setId: v.heldOutSetId } : { by: 'images', imageIds: v.heldOutImageIds },
     patch: v.patch,
+    stride: v.stride,
     color: v.color,
     meanBits: v.meanBits,
     bits: v.bitsMode === 'single' ? { from: v.bits, to: v.bits } : { from: v.bitsFrom, to: v.bitsTo },
@@ -127,6 +133,7 @@ const labels: Record<string, string> = {
   notes: 'Notes',
   'patch.width': 'Patch width',
   'patch.height': 'Patch height',
+  stride: SETTING_LABELS.stride,
   meanBits: 'Mean bits',
   bits: 'Bit budget b',
   bitsFrom: 'Lowest b',
@@ -186,6 +193,7 @@ const formFields = z.object({
   heldOutSetId: z.number().nullable(),
   heldOutImageIds: z.array(z.number()),
   patch: z.object({ width: num('patch width'), height: num('patch height') }),
+  stride: num('the patch stride').nullable(),
   color: z.enum(COLOR_MODES),
   meanBits: num('mean bits'),
   bitsMode: z.enum(['single', 'range']),

@@ -1,4 +1,4 @@
-import { BITS, PATCH_SIDE, patchPositions, RUN_DEFAULTS, type ColorMode, type Image } from '../../../server/contracts';
+import { BITS, PATCH_SIDE, patchPositions, RUN_DEFAULTS, STRIDE, type ColorMode, type Image } from '../../../server/contracts';
 import { groupDigits } from './format';
 
 /** What the form knows about the team's images: every set's images, by set id. */
@@ -10,6 +10,8 @@ export type PlanInput = {
   training: ImageSource;
   heldOut: ImageSource;
   patch: { width: number; height: number };
+  /** null: the patch side (non-overlapping). */
+  stride: number | null;
   color: ColorMode;
   meanBits: number;
   bits: { from: number; to: number };
@@ -37,7 +39,7 @@ export type RunPlan = {
   sizes: SizePlan[];
   training: Image[];
   heldOut: Image[];
-  /** Non-overlapping patches in the training images (stride = patch size). */
+  /** Patches in the training images at the chosen stride (the patch side unless one is chosen). */
   availableVectors: number;
   /** What training actually uses: availableVectors capped by maxVectors. */
   trainingVectors: number;
@@ -45,11 +47,11 @@ export type RunPlan = {
 };
 
 /**
- * Patches of one image, by the run vocabulary's rule (stride = patch side) — the server's count, so the estimate and
- * the server's "too few vectors" check agree.
+ * Patches of one image, by the run vocabulary's rule (stride default: the patch side) — the server's count, so the
+ * estimate and the server's "too few vectors" check agree.
  */
-export function patchesIn(image: { width: number; height: number }, patch: { width: number; height: number }): number {
-  return patchPositions(image.width, image.height, patch);
+export function patchesIn(image: { width: number; height: number }, patch: { width: number; height: number }, stride?: number | null): number {
+  return patchPositions(image.width, image.height, patch, stride ?? undefined);
 }
 
 function allImages(catalog: ImageCatalog): Map<number, Image> {
@@ -77,6 +79,7 @@ export function resolveImages(training: ImageSource, heldOut: ImageSource, catal
 
 const validBits = (b: number) => Number.isInteger(b) && b >= BITS.min && b <= BITS.max;
 const validSide = (s: number) => Number.isInteger(s) && s >= PATCH_SIDE.min && s <= PATCH_SIDE.max;
+const validStride = (s: number | null): s is number => s !== null && Number.isInteger(s) && s >= STRIDE.min && s <= STRIDE.max;
 
 export function planRun(input: PlanInput, catalog: ImageCatalog): RunPlan {
   const channels = input.color === 'rgb' ? 3 : 1;
@@ -94,7 +97,7 @@ export function planRun(input: PlanInput, catalog: ImageCatalog): RunPlan {
   }
 
   const { training, heldOut } = resolveImages(input.training, input.heldOut, catalog);
-  const availableVectors = geometryKnown ? training.reduce((n, image) => n + patchesIn(image, input.patch), 0) : 0;
+  const availableVectors = geometryKnown ? training.reduce((n, image) => n + patchesIn(image, input.patch, validStride(input.stride) ? input.stride : null), 0) : 0;
   const cap = Number.isInteger(input.maxVectors) && input.maxVectors > 0 ? input.maxVectors : RUN_DEFAULTS.maxVectors;
   const trainingVectors = Math.min(availableVectors, cap);
 

@@ -9,6 +9,7 @@ import {
   changePasswordBody,
   createImageSetBody,
   createInvitationBody,
+  createEvaluationBatchBody,
   createRunBody,
   approveReleaseBody,
   evaluateCodebookBody,
@@ -73,6 +74,12 @@ export interface RouteCase {
  * a route's limit must be refused whatever the route.
  */
 export const jsonBodyLimit = 1024 * 1024;
+
+/** A queued batch of the world's codebook on its set (no runner here, so it stays queued). */
+async function newBatch(w: World): Promise<number> {
+  const batch = await w.t.composition.services.evaluation.requestBatch(w.teamId, w.engineer.user.id, { codebookIds: [w.codebookId], imageSetIds: [w.setId] });
+  return batch.job.id;
+}
 
 // A counter, not the clock: each test file has a database of its own, and the same run sends the same bodies.
 let n = 0;
@@ -389,6 +396,31 @@ export const routes: RouteCase[] = [
     body: 'json',
     valid: (w) => ({ heldOutImageIds: w.imageIds.slice(0, 2) }),
     schema: evaluateCodebookBody,
+    objectScoped: true,
+  },
+  { name: 'evaluation batches', method: 'GET', path: '/api/teams/:teamId/evaluation-batches', access: 'member', ok: 200, body: 'none', objectScoped: false },
+  {
+    name: 'evaluate a batch',
+    method: 'POST',
+    path: '/api/teams/:teamId/evaluation-batches',
+    access: 'engineer',
+    ok: 202,
+    body: 'json',
+    valid: (w) => ({ codebookIds: [w.codebookId], imageSetIds: [w.setId] }),
+    schema: createEvaluationBatchBody,
+    objectScoped: false,
+  },
+  { name: 'evaluation batch', method: 'GET', path: '/api/teams/:teamId/evaluation-batches/:jobId', access: 'member', ok: 200, body: 'none', fresh: async (w) => ({ jobId: await newBatch(w) }), objectScoped: true },
+  { name: 'cancel an evaluation batch', method: 'POST', path: '/api/teams/:teamId/evaluation-batches/:jobId/cancel', access: 'engineer', ok: 200, body: 'none', fresh: async (w) => ({ jobId: await newBatch(w) }), objectScoped: true },
+  {
+    name: 'evaluation batch matrix',
+    method: 'GET',
+    path: '/api/teams/:teamId/evaluation-batches/:jobId/matrix',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    query: () => 'format=csv',
+    fresh: async (w) => ({ jobId: await newBatch(w) }),
     objectScoped: true,
   },
   { name: 'codebook evaluations', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/evaluations', access: 'member', ok: 200, body: 'none', objectScoped: true },

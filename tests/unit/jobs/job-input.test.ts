@@ -16,6 +16,18 @@ describe('checkedInput', () => {
     expect(() => checkedInput(job({ codebookId: 9, payload: { heldOutImageIds: ['4'], heldOutHash: hash } }))).toThrow(/evaluate job's input is malformed.*heldOutImageIds/);
   });
 
+  it('passes a batch of codebooks on image lists, with or without its one codebook named', () => {
+    const payload = { codebookIds: [9, 10], sets: [{ setId: 2, name: 'reef', imageIds: [4, 5], heldOutHash: hash }, { setId: null, name: 'chosen images', imageIds: [6], heldOutHash: hash }] };
+    expect(checkedInput(job({ payload }))).toEqual({ runId: null, codebookId: null, payload });
+    const one = { codebookIds: [9], sets: [payload.sets[0]] };
+    expect(checkedInput(job({ codebookId: 9, payload: one }))).toEqual({ runId: null, codebookId: 9, payload: one });
+  });
+
+  it('refuses a batch without codebooks or with an empty image list', () => {
+    expect(() => checkedInput(job({ payload: { codebookIds: [], sets: [{ setId: 2, name: 'reef', imageIds: [4], heldOutHash: hash }] } }))).toThrow(/evaluate job's input is malformed/);
+    expect(() => checkedInput(job({ payload: { codebookIds: [9], sets: [{ setId: 2, name: 'reef', imageIds: [], heldOutHash: hash }] } }))).toThrow(/evaluate job's input is malformed/);
+  });
+
   it('refuses a train job without a run', () => {
     expect(() => checkedInput(job({ kind: 'train' }))).toThrow(/train job's input is malformed.*runId/);
   });

@@ -68,7 +68,11 @@ export function EvaluateCodebookForm({ teamId, codebookId, onQueued }: { teamId:
       {evaluate.isError && <Alert tone="error">{messageOf(evaluate.error)}</Alert>}
       {evaluate.isSuccess && (
         <Alert tone="success">
-          Evaluation queued on {plural(evaluate.data.imageCount, 'held-out image')}; its rate and distortion appear on{' '}
+          Evaluation queued on {plural(evaluate.data.imageCount, 'held-out image')};{' '}
+          <Link to={href.teamEvaluation(teamId, evaluate.data.id)} className="font-medium underline">
+            follow its progress
+          </Link>
+          . Its rate and distortion appear on{' '}
           <Link to={href.teamCodebook(teamId, codebookId)} className="font-medium underline">
             the codebook's page
           </Link>{' '}

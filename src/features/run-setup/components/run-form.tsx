@@ -1,7 +1,7 @@
 import { zodResolver } from '@hookform/resolvers/zod';
 import { useMemo, useRef, type ReactNode } from 'react';
 import { useForm, type Resolver } from 'react-hook-form';
-import { EPSILON, LAMBDA, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, SETTING_LABELS, type CreateRunBody, type ImageSet, type RunDetail } from '../../../../server/contracts';
+import { EPSILON, LAMBDA, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, SETTING_LABELS, STRIDE, type CreateRunBody, type ImageSet, type RunDetail } from '../../../../server/contracts';
 import { isApiError, messageOf } from '../../../lib/api-client';
 import { plural } from '../../../lib/format';
 import { Alert } from '../../../components/ui/alert';
@@ -14,6 +14,7 @@ import { planRun, type ImageCatalog } from '../run-plan';
 import { BitBudgetField } from './bit-budget-field';
 import { ChoiceGroup } from './choice-group';
 import { ImagePicker } from './image-picker';
+import { RatePlanner } from './rate-planner';
 import { RunSummary } from './run-summary';
 
 const patchPresets = [
@@ -171,10 +172,36 @@ export function RunForm({
           </div>
         </Section>
 
-        <Section title="Patch and colour" description="Each image is cut into non-overlapping w × h patches; each patch is one vector.">
-          <div className="grid gap-4 sm:grid-cols-[8rem_8rem_1fr] sm:items-start">
+        <Section title="Rate planner" description="Start from the rate you must reach: pick a configuration to fill the patch, mean removal and b below.">
+          <RatePlanner
+            images={plan.training}
+            stride={Number.isInteger(values.stride) ? (values.stride as number) : undefined}
+            color={values.color}
+            maxVectors={values.maxVectors}
+            onPick={(row) => {
+              const validate = { shouldValidate: form.formState.isSubmitted };
+              form.setValue('patch', { ...row.patch }, validate);
+              form.setValue('meanBits', row.meanBits, validate);
+              form.setValue('bitsMode', 'single', validate);
+              form.setValue('bits', row.bits, validate);
+            }}
+          />
+        </Section>
+
+        <Section title="Patch and colour" description="Training cuts each image into w × h patches, one every stride pixels (non-overlapping unless a smaller stride is given); each patch is one vector.">
+          <div className="grid gap-4 sm:grid-cols-[8rem_8rem_12rem_1fr] sm:items-start">
             <TextField label="Width (px)" type="number" min={2} max={16} error={errors.patch?.width?.message} {...form.register('patch.width', { valueAsNumber: true })} />
             <TextField label="Height (px)" type="number" min={2} max={16} error={errors.patch?.height?.message} {...form.register('patch.height', { valueAsNumber: true })} />
+            <TextField
+              label={`${SETTING_LABELS.stride} (px)`}
+              type="number"
+              min={STRIDE.min}
+              max={STRIDE.max}
+              placeholder="patch size"
+              hint="Blank: the patch size. Smaller overlaps patches and gives more training vectors."
+              error={errors.stride?.message}
+              {...form.register('stride', { setValueAs: (v: unknown) => (v === '' || v === null || v === undefined ? null : Number(v)) })}
+            />
             <div className="flex flex-col gap-1.5">
               <span className="text-sm font-medium text-ink-800" id="patch-presets">
                 Common shapes
@@ -250,7 +277,7 @@ export function RunForm({
       </div>
 
       <aside className="flex flex-col gap-4 rounded-lg border border-ink-200 bg-surface px-5 py-4 shadow-card lg:sticky lg:top-4">
-        <RunSummary plan={plan} patch={values.patch} meanBits={Number.isFinite(values.meanBits) ? values.meanBits : 0} />
+        <RunSummary plan={plan} patch={values.patch} meanBits={Number.isFinite(values.meanBits) ? values.meanBits : 0} stride={Number.isInteger(values.stride) ? values.stride : null} />
         {create.isError && (
           <Alert tone="error" title="The run was not started">
             {messageOf(create.error)}

@@ -28,7 +28,7 @@ function Bytes({ bytes }: { bytes: number }) {
  * sizes and the training vectors the images give. Every figure follows from the definitions: K = 2^b,
  * d = w·h·channels, rate (b + m)/(w·h) bpp, K·d·4 bytes as float32 and K·d as 8-bit samples.
  */
-export function RunSummary({ plan, patch, meanBits }: { plan: RunPlan; patch: { width: number; height: number }; meanBits: number }) {
+export function RunSummary({ plan, patch, meanBits, stride = null }: { plan: RunPlan; patch: { width: number; height: number }; meanBits: number; stride?: number | null }) {
   const single = plan.sizes.length === 1 ? plan.sizes[0] : null;
   return (
     <section aria-labelledby="run-summary-title" className="flex flex-col gap-4">
@@ -64,7 +64,7 @@ export function RunSummary({ plan, patch, meanBits }: { plan: RunPlan; patch: { 
           note={
             plan.availableVectors > plan.trainingVectors
               ? `${groupDigits(plan.availableVectors)} patches available, capped by the vector cap`
-              : `non-overlapping ${patch.width}×${patch.height} patches of ${plural(plan.training.length, 'training image')}`
+              : `${stride === null ? 'non-overlapping ' : ''}${patch.width}×${patch.height} patches${stride === null ? '' : ` every ${stride} px`} of ${plural(plan.training.length, 'training image')}`
           }
         >
           {groupDigits(plan.trainingVectors)}

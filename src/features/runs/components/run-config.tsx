@@ -7,6 +7,7 @@ export function RunConfig({ run }: { run: RunDetail }) {
   const dimension = n.patch.width * n.patch.height * channels;
   const rows: Array<[string, string]> = [
     [SETTING_LABELS.patch, `${n.patch.width}×${n.patch.height} ${n.color}`],
+    [SETTING_LABELS.stride, n.stride === undefined ? `${n.patch.width}×${n.patch.height} (non-overlapping)` : `${n.stride} px`],
     ['Vector dimension', String(dimension)],
     [SETTING_LABELS.bits, n.bits.from === n.bits.to ? String(n.bits.from) : `${n.bits.from} … ${n.bits.to}`],
     [SETTING_LABELS.sizes, n.sizes.join(', ')],

@@ -18,6 +18,7 @@ import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/i
 import { removeMeans } from './io/mean-removal';
 import { extractTrainingVectors, streamTrainingVectors, vectorDimension, type TrainingImageSource } from './io/patches';
 import { readNpy, type NpyMatrix } from './io/npy';
+import { writeZip } from './io/zip';
 import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
 import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, MEAN_BITS, PATCH_SIDE, SEED, type InitMethod } from './vocabulary';
@@ -73,6 +74,7 @@ export { trainingMemory, type TrainingMemory, type TrainingMemoryInput } from '.
 export { checkMeanBits, quantizeMean, meanLevel, removeMeans, MEAN_BITS_MIN, MEAN_BITS_MAX, type Preprocessing } from './io/mean-removal';
 export { readNpy, writeNpy, writeNpyArray, type NpyMatrix, type NpyWritable } from './io/npy';
 export { indexMapNpy, meanCodesNpy } from './format/index-map';
+export { writeZip, type ZipEntry } from './io/zip';
 export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
 export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
 export { poolSsim, ssimGrey, ssimOfImages } from './metrics/ssim';
@@ -318,6 +320,12 @@ const firmwareSchema = z.object({ residual: z.enum(RESIDUAL_WIDTHS).optional() }
 export function firmwareBundle(codebook: Codebook, options: { residual?: (typeof RESIDUAL_WIDTHS)[number] } = {}): FirmwareBundle {
   check(firmwareSchema, options, 'firmwareBundle');
   return buildFirmwareBundle(codebook, options.residual);
+}
+
+/** The firmware bundle as one zip archive of stored files (the same files `cellwright export --target c` writes), dated `modified`. */
+export function firmwareZip(codebook: Codebook, options: { residual?: (typeof RESIDUAL_WIDTHS)[number]; modified?: Date } = {}): Buffer {
+  check(firmwareSchema.extend({ modified: z.date().optional() }), options, 'firmwareZip');
+  return writeZip(buildFirmwareBundle(codebook, options.residual).files.map((f) => ({ name: f.name, data: f.text })), options.modified);
 }
 
 /** The PSNR cost of a firmware table's rounding on images: each coded once, decoded with float and fixed-point codewords. */

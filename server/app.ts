@@ -33,6 +33,7 @@ import { membersRouter } from './http/routes/members';
 import { outboxRouter } from './http/routes/outbox';
 import { reconstructionsRouter } from './http/routes/reconstructions';
 import { codebookModelRouter } from './http/routes/codebook-model';
+import { codebookChannelRouter } from './http/routes/codebook-channel';
 import { runsRouter } from './http/routes/runs';
 import { teamInvitationsRouter } from './http/routes/team-invitations';
 import './http/types';
@@ -156,6 +157,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/codebooks', codebookEvaluationsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', reconstructionsRouter(routeDeps));
   app.use('/api/teams/:teamId/codebooks', codebookModelRouter(routeDeps));
+  app.use('/api/teams/:teamId/codebooks', codebookChannelRouter(routeDeps));
   app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
   app.use('/api/teams/:teamId/workers', teamWorkersRouter(routeDeps));
   app.use('/api', apiDescriptionRouter(routeDeps));

@@ -18,6 +18,7 @@ import {
   createOutboxService,
   createReconstructionsService,
   createCodebookModelService,
+  createCodebookChannelService,
   createPasswordHasher,
   createRunsService,
   createSessionTokens,
@@ -34,6 +35,7 @@ import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/evaluation-tasks';
 import { modelTaskRunner } from './jobs/model-tasks';
+import { channelTaskRunner } from './jobs/channel-tasks';
 import { createComputeClient } from './jobs/compute/client';
 import { executeComputeTask, loadTrainingSample } from './jobs/compute/execute';
 import { createComputeWorker } from './jobs/compute/worker';
@@ -157,6 +159,8 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   });
   // Anomaly scores and denoising share the reconstruction views' pool and bounds: both are per-request views of a codebook.
   const codebookModel = createCodebookModelService({ db, store: contentStore, runTask: modelTaskRunner(reconstructionPool), ...config.reconstructions });
+  // Channel curves and index assignment too: per-request computations of seconds on a codebook.
+  const codebookChannel = createCodebookChannelService({ db, store: contentStore, codebooks, runTask: channelTaskRunner(reconstructionPool), ...config.reconstructions });
   const comparison = createComparisonService({ db });
   // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.
   const workerRegistry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: computeKeyPrefix, currentToken: () => workerToken(config, { create: true }) });
@@ -181,7 +185,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     jobs: { store: jobStore, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
     mail,
-    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel },
+    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel, codebookChannel },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();

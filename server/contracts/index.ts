@@ -15,3 +15,4 @@ export * from './compare';
 export * from './workers';
 export * from './api-description';
 export * from './codebook-model';
+export * from './codebook-channel';

@@ -23,7 +23,8 @@ export type AuditAction =
   | 'run.renamed'
   | 'run.deleted'
   | 'codebook.exported'
-  | 'codebook.imported';
+  | 'codebook.imported'
+  | 'codebook.reordered';
 
 /** Written through the caller's transaction so the trail and the change commit together. */
 export function recordAudit(repos: Repositories, entry: AuditEntry & { action: AuditAction }): Promise<void> {

@@ -25,3 +25,4 @@ export * from './compute-slots';
 export * from './workers';
 export * from './api-schemas';
 export * from './codebook-model';
+export * from './codebook-channel';

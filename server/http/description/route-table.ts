@@ -1,6 +1,7 @@
 import type { z } from 'zod';
 import {
   bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
+  channelQuery, channelResponse, firmwareQuery, reorderBody, reorderResponse,
   anomalyImageParams, anomalyListQuery, anomalyListResponse, anomalyMapResponse, anomalyQuery, denoiseQuery, denoiseResponse,
   acceptedResponse,
   acceptInvitationBody,
@@ -225,6 +226,20 @@ const codebookRoutes: RouteDescription[] = [
     method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/denoise/:imageId', tag: 'Codebooks', summary: 'Seeded noise added to an image and removed by the nearest-codeword and posterior-mean estimators, with PSNR', access: 'member', input: { params: anomalyImageParams, query: denoiseQuery },
     responses: { 200: json(denoiseResponse, 'The four images and their PSNR') },
     errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/channel', tag: 'Codebooks', summary: 'PSNR against bit-error rate on a binary symmetric channel over the raw payload, measured over seeds and expected from the closed form, on held-out images', access: 'member', input: { params: codebookParams, query: channelQuery },
+    responses: { 200: json(channelResponse, 'The curve') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/reorder', tag: 'Codebooks', summary: 'Index assignment for a noisy channel (binary switching): the reordered codebook saved as a new one', access: 'engineer', input: { params: codebookParams, body: reorderBody },
+    responses: { 201: json(reorderResponse, 'The new codebook and the expected channel distortion before and after') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/firmware', tag: 'Codebooks', summary: 'The firmware bundle (fixed-point header, C99 reference decoder, example program, README) as a zip attachment', access: 'member', input: { params: codebookParams, query: firmwareQuery },
+    responses: { 200: { description: 'The zip file (stored entries)', content: { 'application/zip': 'binary' } } },
   },
 ];
 

@@ -64,6 +64,7 @@ export {
   type PayloadChoice,
 } from './format/container';
 export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
+export { rawContainerBytes } from './format/raw-size';
 export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
 export {

@@ -15,6 +15,7 @@ let team: Awaited<ReturnType<typeof teamWithRoles>>;
 let outsider: Session;
 let heldOutIds: number[];
 let codebookId: number;
+let runId: number;
 let root: string;
 
 const W = 48;
@@ -42,7 +43,7 @@ beforeAll(async () => {
   const trainingSetId = await createSetWith(t.app, team.engineer, 'training', await seabedPngs(51, 3, W, H));
   const heldOutSetId = await createSetWith(t.app, team.engineer, 'held-out', await seabedPngs(52, 2, W, H));
   heldOutIds = await t.db.knex('images').where({ set_id: heldOutSetId }).orderBy('id').pluck('id');
-  const runId = await finishedRun(t.app, team.engineer, {
+  runId = await finishedRun(t.app, team.engineer, {
     name: 'luma 4x4', trainingSetId, heldOutSetId, bits: { from: 5, to: 5 }, init: 'kmeans++', seed: 3, patch: { width: 4, height: 4 }, color: 'luma',
   });
   codebookId = (await t.db.knex('codebooks').where({ run_id: runId }).first()).id;
@@ -139,5 +140,28 @@ describe('firmware zip', () => {
   it('refuses an unknown residual width with 400 and another team with 404', async () => {
     expect((await request(t.app).get(url(`${codebookId}/firmware?residual=int4`)).set(bearer(team.viewer))).status).toBe(400);
     expect((await request(t.app).get(url(`${codebookId}/firmware`)).set(bearer(outsider))).status).toBe(404);
+  });
+});
+
+describe('raw rate beside the actual one', () => {
+  it('reports per image the bytes encode --payload raw writes, and their bits over pixels on the codebook and the run curve', async () => {
+    const book = await exported(codebookId);
+    const evaluations = await request(t.app).get(url(`${codebookId}/evaluations`)).set(bearer(team.viewer));
+    expect(evaluations.status).toBe(200);
+    const latest = evaluations.body.evaluations.at(-1);
+    let bytes = 0;
+    for (const row of latest.images) {
+      const image = await decodeImage(await originalOf(row.imageId), 'luma');
+      const { container } = await encode(book, image, { payload: 'raw' });
+      expect(row.rawBytes).toBe(container.length);
+      expect(row.bppRaw).toBeCloseTo((container.length * 8) / (W * H), 12);
+      bytes += container.length;
+    }
+    expect(latest.bppRaw).toBeCloseTo((bytes * 8) / (latest.images.length * W * H), 12);
+    const curve = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/curve`).set(bearer(team.viewer));
+    expect(curve.status).toBe(200);
+    expect(curve.body.points[0].bppRaw).toBeCloseTo(latest.bppRaw, 12);
+    // 5 index bits per 4×4 block and 12 × 8 blocks fill 60 bytes exactly: the fixed rate 5/16 bpp plus the 68-byte header.
+    expect(latest.bppRaw).toBeCloseTo(5 / 16 + (68 * 8) / (W * H), 12);
   });
 });

@@ -16,11 +16,12 @@ const rateDefinitions = [
   { key: 'bppFixed', id: 'fixed', label: 'VQ · fixed rate', style: 1 },
   { key: 'bppEntropy', id: 'entropy', label: 'VQ · entropy rate', style: 2 },
   { key: 'bppActual', id: 'actual', label: 'VQ · actual (container)', style: 3 },
+  { key: 'bppRaw', id: 'raw', label: 'VQ · raw (fixed-rate container)', style: 4 },
 ] as const;
 
 const codecLabels: Record<BaselineCodecName, string> = { jpeg: 'JPEG', webp: 'WebP', avif: 'AVIF' };
 
-/** Chart series of a run's curve: three rate definitions of the same codebooks, then every reference codec measured. */
+/** Chart series of a run's curve: four rate definitions of the same codebooks, then every reference codec measured. */
 export function curveSeries(curve: RunCurve, metric: QualityMetric): RdSeries[] {
   const points = [...curve.points].sort((a, b) => a.bits - b.bits);
   const vq: RdSeries[] = rateDefinitions.map((definition) => {

@@ -13,6 +13,7 @@ import { writeNpy } from '../server/engine/io/npy';
 import { INIT, trainsEverySize } from '../server/engine/vocabulary';
 import { seabedSet } from '../server/seed/seabed-tiles';
 import { modelBench } from './bench-model';
+import { channelBench } from './bench-channel';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const imageDir = path.join(root, 'data', 'test-images');
@@ -237,6 +238,7 @@ async function main() {
     rmSync(memDir, { recursive: true, force: true });
   }
   await modelBench();
+  await channelBench();
   // Data-parallel Lloyd over worker processes, in processes of its own (a private Redis and shard hosts).
   spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-shards.ts')], { cwd: root, stdio: 'inherit' });
   console.log('\nnote: the cores are shared with other work on this machine; figures may be noisy.');

@@ -86,7 +86,10 @@ export class Switching {
     const qx = prior[x];
     const qy = prior[y];
     const dxy = this.dist[x * K + y];
-    const [wuu, wuv, wvu, wvv] = [w[u * K + u], w[u * K + v], w[v * K + u], w[v * K + v]];
+    const wuu = w[u * K + u];
+    const wuv = w[u * K + v];
+    const wvu = w[v * K + u];
+    const wvv = w[v * K + v];
     const full = h[u * K + y] - h[u * K + x] - h[v * K + y] + h[v * K + x];
     // H's sums run over every r; the terms with r or s in {u, v} are replaced by what the swap really does to them.
     const included = ((wuu - wvu) * qy - (wuv - wvv) * qx + qx * (wuu - wuv) - qy * (wvu - wvv)) * dxy;

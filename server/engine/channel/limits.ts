@@ -26,8 +26,9 @@ export const EXPECTED_MAX_BITS = 12;
  */
 export const REORDER_MAX_BITS = 10;
 /**
- * The studio reorders while the request waits, so it offers index assignment up to 8 index bits (256 codewords: about
- * 3 s on one core of the development machine; 1024 codewords took 214 s, `npm run bench`). The command line goes to REORDER_MAX_BITS.
+ * The studio reorders while the request waits (on a pool thread), so it offers index assignment up to 8 index bits
+ * (256 codewords: 3 to 10 s on one core of the development machine, `npm run bench`; 1024 made-up codewords took
+ * 214 s). The command line goes to REORDER_MAX_BITS.
  */
 export const STUDIO_REORDER_MAX_BITS = 8;
 /** The bit-error rate index assignment designs for when none is given: 10^-2, where reordering visibly pays. */

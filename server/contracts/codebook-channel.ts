@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import { BER, CHANNEL_SEEDS, DEFAULT_BERS, DEFAULT_REORDER_BER, MAX_BERS, STUDIO_REORDER_MAX_BITS } from '../engine/channel/limits';
-import { RESIDUAL_WIDTHS } from '../engine/firmware/fixed-point';
-import { MAX_RESYNC_ROWS } from '../engine/format/container';
+import { RESIDUAL_WIDTHS } from '../engine/firmware/widths';
+import { MAX_RESYNC_ROWS } from '../engine/format/limits';
 import { codebookDetail } from './codebooks';
 
 // Channel errors and index assignment (server/engine/channel) and the firmware bundle, for the studio. The limits are

@@ -36,3 +36,6 @@ export const MAX_SOURCE_LENGTH = 4096;
  */
 export const FLOAT32_MAX = 3.4028234663852886e38;
 export const FLOAT32_ROUNDING_LIMIT = 2 ** 128 - 2 ** 103;
+
+/** The resynchronisation marker interval is one container header byte, so 1..255 block rows (0: no markers). */
+export const MAX_RESYNC_ROWS = 255;

@@ -195,7 +195,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
         <Panel
           title="Export"
           titleId="codebook-export"
-          description="The codebook document (format cellwright-codebook, version 1) with its SHA-256 checksum, or its codewords alone as a NumPy .npy file (float32, codewords × components)"
+          description="The codebook document (format cellwright-codebook, version 1) with its SHA-256 checksum, its codewords alone as a NumPy .npy file (float32, codewords × components), or the firmware bundle: fixed-point C header, C99 reference decoder, example program and README in one zip"
         >
           <div className="flex flex-col gap-4">
             <div className="flex flex-wrap items-center gap-4">

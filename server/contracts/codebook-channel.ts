@@ -11,6 +11,12 @@ export { BER, CHANNEL_SEEDS, DEFAULT_BERS, DEFAULT_REORDER_BER, MAX_BERS, STUDIO
 const NUMBER = /^(\d+\.?\d*|\.\d+)(e[+-]?\d+)?$/i;
 /** Seeds per rate the studio computes while a request waits (the command line goes to CHANNEL_SEEDS.max). */
 export const STUDIO_CHANNEL_SEEDS = Object.freeze({ min: CHANNEL_SEEDS.min, max: 16, default: CHANNEL_SEEDS.default });
+/**
+ * Most pixel decodes one studio curve may cost (images' pixels × seeds × rates): about a minute of one pool thread at
+ * the 3 Mpx/s `npm run bench` measured for simulation and decoding, since the request waits for it. Larger sets
+ * take fewer seeds or rates, or `cellwright channel`.
+ */
+export const STUDIO_CHANNEL_MAX_PIXEL_RUNS = 200_000_000;
 const queryInt = (min: number, max: number) => z.string().regex(/^\d{1,10}$/, 'Expected a whole number').transform(Number).pipe(z.number().int().min(min).max(max));
 
 /** GET /api/teams/:teamId/codebooks/:codebookId/channel?ber=1e-4,1e-3&seeds=5&resync=0&setId=… */

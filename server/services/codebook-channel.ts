@@ -1,5 +1,5 @@
 import type { ChannelQuery, ChannelResponse, ReorderBody, ReorderResponse } from '../contracts';
-import { DEFAULT_BERS, STUDIO_REORDER_MAX_BITS } from '../contracts';
+import { DEFAULT_BERS, STUDIO_CHANNEL_MAX_PIXEL_RUNS, STUDIO_REORDER_MAX_BITS } from '../contracts';
 import type { Database } from '../db';
 import type { CodebookWithCodewords } from '../db/repositories/codebooks';
 import type { RunImageRecord } from '../db/repositories/runs';
@@ -75,7 +75,14 @@ export function createCodebookChannelService(deps: CodebookChannelDeps) {
       const codebook = await mustFind(teamId, codebookId);
       const images = await imagesFor(teamId, codebook, q.setId);
       if (images.length === 0) throw badRequest('There are no images to send through the channel');
-      const task: ChannelTask = { op: 'curve', codebook: toTaskCodebook(codebook), images: images.map(taskImage), bers: q.ber ?? [...DEFAULT_BERS], seeds: q.seeds, resyncRows: q.resync };
+      const bers = q.ber ?? [...DEFAULT_BERS];
+      const runs = images.reduce((n, i) => n + i.width * i.height, 0) * q.seeds * bers.length;
+      if (runs > STUDIO_CHANNEL_MAX_PIXEL_RUNS) {
+        throw badRequest(
+          `${images.length} images × ${q.seeds} seeds × ${bers.length} rates is ${runs.toExponential(2)} pixel decodes, over the studio's ${STUDIO_CHANNEL_MAX_PIXEL_RUNS.toExponential(0)}; take fewer seeds or rates, or use cellwright channel`,
+        );
+      }
+      const task: ChannelTask = { op: 'curve', codebook: toTaskCodebook(codebook), images: images.map(taskImage), bers, seeds: q.seeds, resyncRows: q.resync };
       return curveJson(codebookId, images.length, await run<ChannelCurve>(task, signal));
     },
 

@@ -4,6 +4,7 @@ import { execFileSync, spawnSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { channelCurve, decodeImage, encode, firmwareBundle, parseCodebook, shutdownEngineWorkers, type Codebook } from '../../server/engine';
@@ -79,6 +80,20 @@ describe('channel curve', () => {
       expect(res.body.error.code).toBeTruthy();
     }
     expect((await request(t.app).get(url(`${codebookId}/channel`)).set(bearer(outsider))).status).toBe(404);
+  });
+
+  it('refuses a curve that would cost more pixel decodes than the studio allows, naming the figures', async () => {
+    // 1100 × 1000 pixels × 16 seeds × 12 rates = 2.1 × 10^8 decodes, over STUDIO_CHANNEL_MAX_PIXEL_RUNS (2 × 10^8).
+    const big = await sharp({ create: { width: 1100, height: 1000, channels: 3, background: { r: 90, g: 110, b: 120 } } }).png().toBuffer();
+    const setId = await createSetWith(t.app, team.engineer, 'large', [big]);
+    const bers = Array.from({ length: 12 }, (_, i) => (i + 1) / 100).join(',');
+    const res = await request(t.app).get(url(`${codebookId}/channel?setId=${setId}&seeds=16&ber=${bers}`)).set(bearer(team.viewer));
+    expect(res.status).toBe(400);
+    expect(res.body.error.message).toMatch(/^1 images × 16 seeds × 12 rates is 2\.11e\+8 pixel decodes, over the studio's 2e\+8/);
+    // One seed at one rate fits.
+    const fits = await request(t.app).get(url(`${codebookId}/channel?setId=${setId}&seeds=1&ber=0.01`)).set(bearer(team.viewer));
+    expect(fits.status).toBe(200);
+    expect(fits.body.images).toBe(1);
   });
 });
 

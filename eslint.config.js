@@ -14,7 +14,7 @@ const databasePackages = ['knex', 'mysql2'];
 
 // The engine's inner layers, lowest first (DEVELOPERS.md, "Layers"): a file may import its own layer and those
 // below it, never one above. Root files other than index.ts (vocabulary, input-error) are leaves; index.ts is the top.
-const engineLayers = ['(leaf)', 'core', 'wasm', 'parallel', 'training', 'structures', 'io', 'format', 'metrics', 'memory', 'firmware', 'model', '(entry)'];
+const engineLayers = ['(leaf)', 'core', 'wasm', 'parallel', 'training', 'structures', 'io', 'format', 'metrics', 'memory', 'firmware', 'channel', 'model', '(entry)'];
 function engineLayer(p) {
   const inner = p.slice('server/engine/'.length).replace(/\.(ts|tsx|js|mjs)$/, '');
   const slash = inner.indexOf('/');

@@ -16,6 +16,7 @@ import { modelBench } from './bench-model';
 import { codecFigures } from './bench-codec';
 import { benchPython, blasSettings, faissImports, faissLloyd, kernelName, sklearnLadder, sklearnLloyd, withNpy } from './bench-peers';
 import { structuresBench } from './bench-structures';
+import { channelBench } from './bench-channel';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const imageDir = path.join(root, 'data', 'test-images');
@@ -276,6 +277,7 @@ async function main() {
   }
   await modelBench();
   await structuresBench();
+  await channelBench();
   // Data-parallel Lloyd over worker processes, in processes of its own (a private Redis and shard hosts).
   spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-shards.ts')], { cwd: root, stdio: 'inherit' });
   console.log('\nnote: the cores are shared with other work on this machine; figures may be noisy.');

@@ -35,6 +35,7 @@ import { membersRouter } from './http/routes/members';
 import { outboxRouter } from './http/routes/outbox';
 import { reconstructionsRouter } from './http/routes/reconstructions';
 import { codebookModelRouter, modelJobsRouter } from './http/routes/codebook-model';
+import { codebookChannelRouter } from './http/routes/codebook-channel';
 import { runsRouter } from './http/routes/runs';
 import { teamInvitationsRouter } from './http/routes/team-invitations';
 import './http/types';
@@ -163,6 +164,7 @@ export function createApp(deps: AppDeps): Express {
   app.use('/api/teams/:teamId/releases', releasesRouter(routeDeps));
   app.use('/api/teams/:teamId/activity', activityRouter(routeDeps));
   app.use('/api/teams/:teamId/evaluation-batches', evaluationBatchesRouter(routeDeps));
+  app.use('/api/teams/:teamId/codebooks', codebookChannelRouter(routeDeps));
   app.use('/api/teams/:teamId/compare', compareRouter(routeDeps));
   app.use('/api/teams/:teamId/workers', teamWorkersRouter(routeDeps));
   app.use('/api', apiDescriptionRouter(routeDeps));

@@ -21,6 +21,7 @@ import {
   createOutboxService,
   createReconstructionsService,
   createCodebookModelService,
+  createCodebookChannelService,
   createPasswordHasher,
   createRunsService,
   createSessionTokens,
@@ -36,6 +37,7 @@ import { createSpool } from './storage/spool';
 import { createJobEventBus, type JobEventBus } from './jobs/events';
 import { jobHandlers } from './jobs/handlers';
 import { evaluationTaskRunner } from './jobs/evaluation-tasks';
+import { channelTaskRunner } from './jobs/channel-tasks';
 import { createComputeClient } from './jobs/compute/client';
 import { executeComputeTask, loadTrainingSample } from './jobs/compute/execute';
 import { createComputeWorker } from './jobs/compute/worker';
@@ -159,6 +161,8 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   });
   // Anomaly maps and denoising are jobs on the workers (server/jobs/handlers/model.ts); the service queues and reads them.
   const codebookModel = createCodebookModelService({ db, bus });
+  // Channel curves and index assignment too: per-request computations of seconds on a codebook.
+  const codebookChannel = createCodebookChannelService({ db, store: contentStore, codebooks, runTask: channelTaskRunner(reconstructionPool), ...config.reconstructions });
   const comparison = createComparisonService({ db });
   const releases = createReleasesService({ db, now });
   const releaseReport = createReleaseReportService({ db, store: contentStore, releases, ...config.reconstructions });
@@ -186,7 +190,7 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
     jobs: { store: jobStore, bus, pool, runner, deps: jobDeps },
     reconstructionPool,
     mail,
-    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel, releases, releaseReport, activity },
+    services: { accounts, teams, invitations, outbox, health, imageSets, imageRecords, imageUploads, runs, codebooks, evaluation, reconstructions, comparison, workers, apiSchemas, codebookModel, releases, releaseReport, activity, codebookChannel },
     async close() {
       // Running jobs go back to the queue before the pool they write through closes.
       await runner.stop();

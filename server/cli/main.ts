@@ -4,11 +4,13 @@ import { CliUsageError, oneLine } from './cli-error';
 import { processContext, type CliContext } from './context';
 import { ANOMALY_HELP, runAnomaly } from './commands/anomaly';
 import { BD_HELP, runBd } from './commands/bd';
+import { CHANNEL_HELP, runChannel } from './commands/channel';
 import { DECODE_HELP, runDecode } from './commands/decode';
 import { DENOISE_HELP, runDenoise } from './commands/denoise';
 import { ENCODE_HELP, runEncode } from './commands/encode';
 import { EVAL_HELP, runEval } from './commands/eval';
 import { EXPORT_HELP, runExport } from './commands/export';
+import { REORDER_HELP, runReorder } from './commands/reorder';
 import { runSweep, SWEEP_HELP } from './commands/sweep';
 import { runTrain, TRAIN_HELP } from './commands/train';
 
@@ -22,6 +24,8 @@ const COMMANDS: Record<string, { run: (argv: string[], ctx: CliContext) => Promi
   anomaly: { run: runAnomaly, help: ANOMALY_HELP, summary: 'flag the blocks of held-out images that the codebook\'s training patches rarely reach' },
   denoise: { run: runDenoise, help: DENOISE_HELP, summary: 'remove Gaussian noise with the codebook as a model of its training patches' },
   bd: { run: runBd, help: BD_HELP, summary: 'BD-rate and BD-PSNR of a curve file\'s codebooks against JPEG, WebP and AVIF' },
+  channel: { run: runChannel, help: CHANNEL_HELP, summary: 'PSNR against bit-error rate on a binary symmetric channel, measured and expected' },
+  reorder: { run: runReorder, help: REORDER_HELP, summary: 'reorder a codebook\'s indices for a noisy channel (a new codebook)' },
 };
 
 export const MAIN_HELP = `Usage: cellwright <command> [options]

@@ -30,6 +30,7 @@ export const auditActions = [
   'run.deleted',
   'codebook.exported',
   'codebook.imported',
+  'codebook.reordered',
   'release.proposed',
   'release.returned',
   'release.approved',

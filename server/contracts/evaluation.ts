@@ -7,7 +7,9 @@ import { idParam, pathId } from './common';
  * Rate–distortion results. Units: bpp in bits per pixel; MSE per pixel component on the 0..255 scale; PSNR in dB,
  * null when the reconstruction is exact (then `lossless` is true); SSIM unitless, null for images smaller than its
  * 11×11 window. Rates: fixed = (index bits + mean bits) per block over the block's pixels; entropy = the empirical
- * entropy of the coded symbols over the held-out set; actual = container bytes × 8 over pixels.
+ * entropy of the coded symbols over the held-out set; actual = container bytes × 8 over pixels; raw = the bytes of the
+ * container with the raw payload (header, packed indices and mean codes, no markers: what a table-lookup decoder reads)
+ * × 8 over pixels.
  * Pooled figures: MSE over all pixel components, PSNR from that MSE, SSIM weighted by pixels, rates total bits over
  * total pixels.
  */
@@ -15,6 +17,7 @@ export const rateDistortion = z.object({
   bppFixed: z.number(),
   bppEntropy: z.number(),
   bppActual: z.number(),
+  bppRaw: z.number(),
   mse: z.number(),
   psnr: z.number().nullable(),
   ssim: z.number().nullable(),
@@ -70,6 +73,8 @@ export const imageMetrics = rateDistortion.extend({
   width: z.number().int(),
   height: z.number().int(),
   containerBytes: z.number().int(),
+  /** bytes of the same image's container with the raw payload (see bppRaw) */
+  rawBytes: z.number().int(),
 });
 export type ImageMetrics = z.infer<typeof imageMetrics>;
 

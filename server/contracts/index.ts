@@ -19,3 +19,4 @@ export * from './api-description';
 export * from './codebook-model';
 export * from './activity';
 export * from './releases';
+export * from './codebook-channel';

@@ -9,12 +9,16 @@ import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train
 import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
 import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 import { MAX_RESYNC_ROWS, PAYLOAD_CHOICES, readContainer, writeContainer, type ContainerOptions } from './format/container';
+import {
+  assignIndices, BER, CHANNEL_SEEDS, DEFAULT_BERS, DEFAULT_REORDER_BER, MAX_BERS, REORDER_MAX_BITS, simulateChannel, type ChannelCurve, type IndexAssignment,
+} from './channel';
 import { buildFirmwareBundle, measureFixedPointCost, RESIDUAL_WIDTHS, type FirmwareBundle, type FixedPointTable, type RoundingCost } from './firmware';
 import { EngineInputError } from './input-error';
 import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/image';
 import { removeMeans } from './io/mean-removal';
 import { extractTrainingVectors, streamTrainingVectors, vectorDimension, type TrainingImageSource } from './io/patches';
 import { readNpy, type NpyMatrix } from './io/npy';
+import { writeZip } from './io/zip';
 import { baselineCurve, type BaselineCodec, type BaselinePoint } from './metrics/baselines';
 import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSetEvaluation } from './metrics/evaluate';
 import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, SEED, type InitMethod } from './vocabulary';
@@ -64,6 +68,7 @@ export {
   type PayloadChoice,
 } from './format/container';
 export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
+export { rawContainerBytes } from './format/raw-size';
 export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
 export {
@@ -74,6 +79,7 @@ export { trainingMemory, type TrainingMemory, type TrainingMemoryInput } from '.
 export { checkMeanBits, quantizeMean, meanLevel, removeMeans, MEAN_BITS_MIN, MEAN_BITS_MAX, type Preprocessing } from './io/mean-removal';
 export { readNpy, writeNpy, writeNpyArray, type NpyMatrix, type NpyWritable } from './io/npy';
 export { indexMapNpy, meanCodesNpy } from './format/index-map';
+export { writeZip, type ZipEntry } from './io/zip';
 export { encodePng, encodeErrorMapPng, errorMap, ERROR_MAP_GAIN } from './io/png';
 export { meanSquaredError, psnrFromMse, psnrForJson, formatPsnr } from './metrics/distortion';
 export { tileErrors, type TileError } from './metrics/tile-error';
@@ -371,10 +377,61 @@ export function firmwareBundle(codebook: Codebook, options: { residual?: (typeof
   return buildFirmwareBundle(codebook, options.residual);
 }
 
+/** The firmware bundle as one zip archive of stored files (the same files `cellwright export --target c` writes), dated `modified`. */
+export function firmwareZip(codebook: Codebook, options: { residual?: (typeof RESIDUAL_WIDTHS)[number]; modified?: Date } = {}): Buffer {
+  check(firmwareSchema.extend({ modified: z.date().optional() }), options, 'firmwareZip');
+  return writeZip(buildFirmwareBundle(codebook, options.residual).files.map((f) => ({ name: f.name, data: f.text })), options.modified);
+}
+
 /** The PSNR cost of a firmware table's rounding on images: each coded once, decoded with float and fixed-point codewords. */
 export async function fixedPointCost(codebook: Codebook, table: FixedPointTable, images: PixelImage[], options: { threads?: number; signal?: AbortSignal } = {}): Promise<RoundingCost> {
   check(z.object({ threads: threadsSchema, signal: signalSchema }), options, 'fixedPointCost');
   return measureFixedPointCost(codebook, table, images, options);
+}
+
+// ---- channel errors ----
+
+export {
+  BER, CHANNEL_SEEDS, DEFAULT_BERS, DEFAULT_REORDER_BER, EXPECTED_MAX_BITS, MAX_BERS, REORDER_MAX_BITS, STUDIO_REORDER_MAX_BITS, channelDistortion, concealIndex, decodeDamaged, flipBits,
+  popcount, transitionByDistance, type ChannelCurve, type ChannelPoint, type IndexAssignment,
+} from './channel';
+
+const berSchema = z.number().min(BER.min).max(BER.max);
+const channelSchema = z.object({
+  bers: z.array(berSchema).min(1).max(MAX_BERS).optional(),
+  seeds: int(CHANNEL_SEEDS.min, CHANNEL_SEEDS.max).optional(),
+  seed: int(SEED.min, SEED.max).optional(),
+  resyncRows: int(0, MAX_RESYNC_ROWS).optional(),
+  threads: threadsSchema,
+  signal: signalSchema,
+});
+export type ChannelOptions = z.infer<typeof channelSchema>;
+
+/**
+ * PSNR against bit-error rate on images (server/engine/channel): each image coded once (raw payload, markers every
+ * `resyncRows` block rows), its payload sent through a binary symmetric channel `seeds` times per rate and decoded,
+ * with the closed-form expected MSE beside the measured one. Defaults: DEFAULT_BERS, CHANNEL_SEEDS.default, seed 0, no markers.
+ */
+export async function channelCurve(codebook: Codebook, images: PixelImage[], options: ChannelOptions = {}): Promise<ChannelCurve> {
+  const o = check(channelSchema, options, 'channelCurve');
+  if (images.length === 0) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'channelCurve: no images');
+  const coded = [];
+  for (const image of images) coded.push({ image, encoded: await encodeImage(codebook, image, { threads: o.threads, signal: o.signal }) });
+  return simulateChannel(codebook, coded, {
+    bers: o.bers ?? DEFAULT_BERS, seeds: o.seeds ?? CHANNEL_SEEDS.default, seed: o.seed ?? 0, resyncRows: o.resyncRows ?? 0, signal: o.signal,
+  });
+}
+
+/**
+ * Index assignment for a noisy channel (binary switching; server/engine/channel/index-assignment.ts): a new codebook
+ * with the same codewords in the order that lowers the expected channel distortion at bit-error rate `ber`.
+ */
+export function reorderCodebook(codebook: Codebook, options: { ber?: number } = {}): IndexAssignment {
+  const o = check(z.object({ ber: berSchema.optional() }), options, 'reorderCodebook');
+  if (codebook.bits > REORDER_MAX_BITS) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `index assignment is offered up to ${REORDER_MAX_BITS} index bits (${2 ** REORDER_MAX_BITS} codewords); this codebook has ${codebook.size}`, 'codebook');
+  }
+  return assignIndices(codebook, o.ber ?? DEFAULT_REORDER_BER);
 }
 
 // ---- evaluation and baselines ----

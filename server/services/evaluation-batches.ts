@@ -14,6 +14,7 @@ import { recordAudit } from './audit';
 import type { CsvFile } from './evaluation-csv';
 import { heldOutHash as heldOutHashOf } from './held-out-hash';
 import { toJobSummary } from './runs';
+import { bppRawOf } from './evaluation-results';
 
 /** The batches a list shows: the newest this many. */
 const BATCH_LIST_LIMIT = 100;
@@ -61,10 +62,12 @@ export function createEvaluationBatches(deps: { db: Database; jobQueued?: () => 
 
   async function get(teamId: number, jobId: number): Promise<EvaluationBatch> {
     const { job, batch } = await batchJob(db.repos, teamId, jobId);
-    const [codebooks, evaluations] = await Promise.all([
+    const [codebooks, evaluations, images] = await Promise.all([
       db.repos.codebooks.summariesForTeam(teamId, batch.codebookIds),
       db.repos.evaluations.findAll(batch.codebookIds, batch.sets.map((s) => s.heldOutHash)),
+      db.repos.runs.teamImages(teamId, [...new Set(batch.sets.flatMap((s) => s.imageIds))]),
     ]);
+    const sizes = new Map(images.map((i) => [i.id, i]));
     const byId = new Map(codebooks.map((c) => [c.id, c]));
     const measured = new Map(evaluations.map((e) => [`${e.codebookId}:${e.heldOutHash}`, e.overall]));
     return {
@@ -77,7 +80,10 @@ export function createEvaluationBatches(deps: { db: Database; jobQueued?: () => 
       cells: batch.codebookIds.flatMap((codebookId) =>
         batch.sets.map((s, setIndex) => {
           const o = measured.get(`${codebookId}:${s.heldOutHash}`);
-          const result = o ? { bppFixed: o.bppFixed, bppEntropy: o.bppEntropy, bppActual: o.bppActual, mse: o.mse, psnr: o.psnr, ssim: o.ssim, lossless: lossless(o.psnr, o.mse) } : null;
+          const c = byId.get(codebookId);
+          // The raw rate follows from the geometry and the images' sizes (nothing is coded again).
+          const bppRaw = c ? bppRawOf(c, s.imageIds.flatMap((id) => (sizes.has(id) ? [sizes.get(id)!] : []))) : 0;
+          const result = o ? { bppFixed: o.bppFixed, bppEntropy: o.bppEntropy, bppActual: o.bppActual, bppRaw, mse: o.mse, psnr: o.psnr, ssim: o.ssim, lossless: lossless(o.psnr, o.mse) } : null;
           return { codebookId, setIndex, result };
         }),
       ),

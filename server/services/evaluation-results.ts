@@ -2,14 +2,34 @@ import type { BaselineCurves, CodebookEvaluations, ImageMetrics, RunCurve, RunMe
 import type { Database } from '../db';
 import type { EvaluationImageMetrics } from '../db/repositories/evaluations';
 import type { RunRecord } from '../db/repositories/runs';
+import { rawContainerBytes } from '../engine';
 import { DEFAULT_BD_METHOD, type StructureKind } from '../engine/vocabulary';
 import { notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
 
 const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
 
-export function toImageMetrics(m: EvaluationImageMetrics, image: { fileName: string; width: number; height: number }): ImageMetrics {
+/** What the raw rate needs of a codebook: its patch, size and mean bits. */
+export interface RawGeometry {
+  patch: { width: number; height: number };
+  size: number;
+  meanBits: number;
+}
+
+const rawBytesOf = (g: RawGeometry, image: { width: number; height: number }) => rawContainerBytes(image.width, image.height, g.patch, g.size, g.meanBits);
+
+/** Raw bits over pixels of a set of images (rawContainerBytes: known from the geometry, nothing is coded again). */
+export function bppRawOf(g: RawGeometry, images: { width: number; height: number }[]): number {
+  const pixels = images.reduce((n, i) => n + i.width * i.height, 0);
+  return pixels === 0 ? 0 : (images.reduce((n, i) => n + rawBytesOf(g, i), 0) * 8) / pixels;
+}
+
+/** One image's figures as the API shows them, with its raw rate from the codebook's geometry. */
+export function toImageMetrics(m: EvaluationImageMetrics, image: { fileName: string; width: number; height: number }, g: RawGeometry): ImageMetrics {
+  const rawBytes = rawBytesOf(g, image);
   return {
+    rawBytes,
+    bppRaw: (rawBytes * 8) / (image.width * image.height),
     imageId: m.imageId,
     fileName: image.fileName,
     width: image.width,
@@ -47,10 +67,13 @@ export function createEvaluationResults(deps: { db: Database }) {
   async function curve(teamId: number, runId: number): Promise<RunCurve> {
     const run = await runOf(teamId, runId);
     // Independent reads: issued together so the request waits for one round trip, not two.
-    const [rows, baselines] = await Promise.all([
+    const [rows, baselines, codebooks, heldOut] = await Promise.all([
       db.repos.evaluations.curveOfRun(run.id, run.heldOutHash),
       baselineCurves(run.heldOutHash, run.normalized?.color ?? null),
+      db.repos.codebooks.listForRun(run.id),
+      db.repos.runs.imagesOf(run.id, 'held-out'),
     ]);
+    const geometry = new Map(codebooks.map((c) => [c.id, c]));
     // The codecs' rate is their files' bytes, so the codebooks stand beside them on theirs: the actual rate. The
     // deltas are the full-search series' (a run's entropy-constrained codebooks form a curve of their own).
     const actual = rows.filter((r) => r.structure === 'full').map((r) => ({ bpp: r.overall.bppActual, psnr: r.overall.psnr }));
@@ -68,6 +91,7 @@ export function createEvaluationResults(deps: { db: Database }) {
         bppFixed: r.overall.bppFixed,
         bppEntropy: r.overall.bppEntropy,
         bppActual: r.overall.bppActual,
+        bppRaw: bppRawOf(geometry.get(r.codebookId)!, heldOut),
         mse: r.overall.mse,
         psnr: r.overall.psnr,
         ssim: r.overall.ssim,
@@ -79,12 +103,13 @@ export function createEvaluationResults(deps: { db: Database }) {
 
   async function metrics(teamId: number, runId: number): Promise<RunMetrics> {
     const run = await runOf(teamId, runId);
-    const rows = await db.repos.evaluations.imageMetricsOfRun(run.id, run.heldOutHash);
+    const [rows, codebooks] = await Promise.all([db.repos.evaluations.imageMetricsOfRun(run.id, run.heldOutHash), db.repos.codebooks.listForRun(run.id)]);
+    const geometry = new Map(codebooks.map((c) => [c.id, c]));
     const byCodebook = new Map<number, RunMetrics['codebooks'][number]>();
     for (const r of rows) {
       let entry = byCodebook.get(r.codebookId);
       if (!entry) byCodebook.set(r.codebookId, (entry = { codebookId: r.codebookId, bits: r.bits, size: r.size, images: [] }));
-      entry.images.push(toImageMetrics(r, r));
+      entry.images.push(toImageMetrics(r, r, geometry.get(r.codebookId)!));
     }
     return { run: { id: run.id, name: run.name, state: run.state }, heldOutHash: run.heldOutHash, codebooks: [...byCodebook.values()] };
   }
@@ -97,6 +122,7 @@ export function createEvaluationResults(deps: { db: Database }) {
     for (const e of evaluations) {
       const rows = await db.repos.evaluations.imagesOf(e.id);
       const images = new Map((await db.repos.runs.teamImages(teamId, rows.map((r) => r.imageId))).map((i) => [i.id, i]));
+      const kept = rows.filter((r) => images.has(r.imageId));
       out.push({
         id: e.id,
         heldOutHash: e.heldOutHash,
@@ -105,11 +131,12 @@ export function createEvaluationResults(deps: { db: Database }) {
         bppFixed: e.overall.bppFixed,
         bppEntropy: e.overall.bppEntropy,
         bppActual: e.overall.bppActual,
+        bppRaw: bppRawOf(codebook, kept.map((r) => images.get(r.imageId)!)),
         mse: e.overall.mse,
         psnr: e.overall.psnr,
         ssim: e.overall.ssim,
         lossless: lossless(e.overall.psnr, e.overall.mse),
-        images: rows.filter((r) => images.has(r.imageId)).map((r) => toImageMetrics(r, images.get(r.imageId)!)),
+        images: kept.map((r) => toImageMetrics(r, images.get(r.imageId)!, codebook)),
       });
     }
     return { evaluations: out };

@@ -27,3 +27,4 @@ export * from './api-schemas';
 export * from './codebook-model';
 export * from './releases';
 export * from './release-report';
+export * from './codebook-channel';

@@ -8,7 +8,7 @@ import { conflict, notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
 import { createComputeSlots } from './compute-slots';
 import { codebookSummaryOf, engineCodebookOf } from './codebooks';
-import { toImageMetrics } from './evaluation-results';
+import { bppRawOf, toImageMetrics, type RawGeometry } from './evaluation-results';
 import { heldOutHash } from './held-out-hash';
 import type { ReleasesService } from './releases';
 
@@ -26,7 +26,7 @@ type Computed = Pick<ReleaseReport, 'worstTiles' | 'decoderCost' | 'checksums'>;
 
 const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
 
-function pointOf(codebookId: number, bits: number, size: number, structure: StructureKind, lambda: number | null, o: EvaluationRecord['overall']): CurvePoint {
+function pointOf(codebookId: number, bits: number, size: number, structure: StructureKind, lambda: number | null, o: EvaluationRecord['overall'], bppRaw: number): CurvePoint {
   return {
     codebookId,
     bits,
@@ -36,6 +36,7 @@ function pointOf(codebookId: number, bits: number, size: number, structure: Stru
     bppFixed: o.bppFixed,
     bppEntropy: o.bppEntropy,
     bppActual: o.bppActual,
+    bppRaw,
     mse: o.mse,
     psnr: o.psnr,
     ssim: o.ssim,
@@ -113,13 +114,15 @@ export function createReleaseReportService(deps: {
     return entry;
   }
 
-  async function curveOf(codebook: CodebookWithCodewords, evaluation: EvaluationRecord): Promise<ReleaseReport['curve']> {
+  async function curveOf(codebook: CodebookWithCodewords, evaluation: EvaluationRecord, heldOut: { width: number; height: number }[]): Promise<ReleaseReport['curve']> {
+    const geometry = new Map<number, RawGeometry>([[codebook.id, codebook]]);
+    if (codebook.runId !== null) for (const c of await db.repos.codebooks.listForRun(codebook.runId)) geometry.set(c.id, c);
     const points = codebook.runId === null
-      ? [pointOf(codebook.id, codebook.bits, codebook.size, codebook.structure, codebook.lambda, evaluation.overall)]
+      ? [pointOf(codebook.id, codebook.bits, codebook.size, codebook.structure, codebook.lambda, evaluation.overall, bppRawOf(codebook, heldOut))]
       // The released codebook's own family: a λ sweep's curve for an entropy-constrained release, the sizes otherwise.
       : (await db.repos.evaluations.curveOfRun(codebook.runId, evaluation.heldOutHash))
         .filter((r) => r.structure === codebook.structure)
-        .map((r) => pointOf(r.codebookId, r.bits, r.size, r.structure as StructureKind, r.lambda, r.overall));
+        .map((r) => pointOf(r.codebookId, r.bits, r.size, r.structure as StructureKind, r.lambda, r.overall, bppRawOf(geometry.get(r.codebookId) ?? codebook, heldOut)));
     const baselines: ReleaseReport['curve']['baselines'] = { jpeg: [], webp: [], avif: [] };
     for (const p of await db.repos.baselines.list(evaluation.heldOutHash, codebook.color)) {
       baselines[p.codec].push({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });
@@ -142,11 +145,11 @@ export function createReleaseReportService(deps: {
       if (!evaluation) throw notFound('Evaluation');
       const rows = await db.repos.evaluations.imagesOf(evaluation.id);
       const imageRecords = new Map((await db.repos.runs.teamImages(teamId, rows.map((r) => r.imageId))).map((i) => [i.id, i]));
-      const images = rows.filter((r) => imageRecords.has(r.imageId)).map((r) => toImageMetrics(r, imageRecords.get(r.imageId)!));
+      const images = rows.filter((r) => imageRecords.has(r.imageId)).map((r) => toImageMetrics(r, imageRecords.get(r.imageId)!, codebook));
       const training = codebook.runId === null ? null : await db.repos.runs.imagesOf(codebook.runId, 'training');
       const book = engineCodebookOf(codebook);
       const [curve, computed] = await Promise.all([
-        curveOf(codebook, evaluation),
+        curveOf(codebook, evaluation, [...imageRecords.values()]),
         measured(releaseId, () => measure(book, rows.flatMap((r) => (imageRecords.has(r.imageId) ? [imageRecords.get(r.imageId)!] : [])))),
       ]);
       const { trace: _trace, ...trainingConfig } = (codebook.metadata.training ?? {}) as Record<string, unknown>;

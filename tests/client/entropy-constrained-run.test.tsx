@@ -3,7 +3,7 @@ import type { CreateRunBody, RunCurve } from '../../server/contracts';
 import { emptyRunForm, fromRunConfig, runFormSchema, toRunBody } from '../../src/features/run-setup/run-form-schema';
 import { curveSeries } from '../../src/features/runs/components/rd-panel';
 
-const figures = (bpp: number) => ({ bppFixed: bpp + 0.1, bppEntropy: bpp - 0.05, bppActual: bpp, mse: 50 / bpp, psnr: 30 + bpp, ssim: 0.9, lossless: false });
+const figures = (bpp: number) => ({ bppFixed: bpp + 0.1, bppEntropy: bpp - 0.05, bppActual: bpp, bppRaw: bpp + 0.12, mse: 50 / bpp, psnr: 30 + bpp, ssim: 0.9, lossless: false });
 
 const curve: RunCurve = {
   run: { id: 3, name: 'λ sweep', state: 'succeeded' },

@@ -20,6 +20,7 @@ const curve: RunCurve = {
     bppFixed: bits / 16,
     bppEntropy: (bits - 0.3) / 16,
     bppActual: (bits + 0.4) / 16,
+    bppRaw: (bits + 0.35) / 16,
     mse: 200 / bits,
     psnr: 10 * Math.log10((255 * 255 * bits) / 200),
     ssim: 0.5 + bits / 10,
@@ -41,10 +42,10 @@ describe('rate–distortion chart', () => {
     const series = curveSeries(curve, 'psnr');
     const { container } = render(<RdChart title="RD" series={series} yLabel="PSNR" yUnit="dB" />);
     const drawn = paths(container);
-    expect(drawn.map((p) => p.dataset.series)).toEqual(['fixed', 'entropy', 'actual', 'jpeg']);
-    // Dashes of --series-dash-1…3 and --series-dash-7 (src/styles/app.css): solid, long, short, dense.
-    expect(drawn.map((p) => p.getAttribute('stroke-dasharray'))).toEqual([null, '8 4', '3 3', '5 2']);
-    expect(new Set(drawn.map((p) => p.getAttribute('stroke'))).size).toBe(4);
+    expect(drawn.map((p) => p.dataset.series)).toEqual(['fixed', 'entropy', 'actual', 'raw', 'jpeg']);
+    // Dashes of --series-dash-1…4 and --series-dash-7 (src/styles/app.css): solid, long, short, dash-dot, dense.
+    expect(drawn.map((p) => p.getAttribute('stroke-dasharray'))).toEqual([null, '8 4', '3 3', '8 3 2 3', '5 2']);
+    expect(new Set(drawn.map((p) => p.getAttribute('stroke'))).size).toBe(5);
     // Every path passes through all its points: one move and (n − 1) line segments.
     for (const p of drawn) expect(p.getAttribute('d')?.match(/L/g)).toHaveLength(2);
   });
@@ -52,7 +53,7 @@ describe('rate–distortion chart', () => {
   it('leaves out codecs the server could not measure', () => {
     const withWebp = { ...curve, baselines: { ...curve.baselines, webp: curve.baselines.jpeg } };
     const { container } = render(<RdChart title="RD" series={curveSeries(withWebp, 'psnr')} yLabel="PSNR" yUnit="dB" />);
-    expect(paths(container).map((p) => p.dataset.series)).toEqual(['fixed', 'entropy', 'actual', 'jpeg', 'webp']);
+    expect(paths(container).map((p) => p.dataset.series)).toEqual(['fixed', 'entropy', 'actual', 'raw', 'jpeg', 'webp']);
   });
 
   it('orders each VQ line by bit budget, so the path runs left to right', () => {
@@ -68,8 +69,8 @@ describe('rate–distortion chart', () => {
     render(<RdChart title="RD" series={curveSeries(curve, 'psnr')} yLabel="PSNR" yUnit="dB" onSelectPoint={(point) => onSelect(point.target)} />);
     const figure = screen.getByRole('img', { name: 'RD' });
     const links = within(figure).getAllByRole('link');
-    // Three codebooks on three rate definitions; JPEG points open nothing.
-    expect(links).toHaveLength(9);
+    // Three codebooks on four rate definitions; JPEG points open nothing.
+    expect(links).toHaveLength(12);
     fireEvent.click(links[0]);
     fireEvent.keyDown(links[1], { key: 'Enter' });
     expect(onSelect.mock.calls.map((c) => c[0])).toEqual(['101', '102']);
@@ -89,7 +90,7 @@ describe('rate–distortion chart', () => {
     const series: RdSeries[] = curveSeries(curve, 'ssim');
     expect(series[0].points.map((p) => p.y)).toEqual([0.6, 0.7, 0.8]);
     const { container } = render(<RdChart title="RD" series={series} yLabel="SSIM" yUnit="" yDigits={4} />);
-    expect(paths(container)).toHaveLength(4);
+    expect(paths(container)).toHaveLength(5);
     const yLabels = [...container.querySelectorAll('text')].map((t) => t.textContent);
     expect(yLabels).toContain('SSIM');
   });

@@ -2,8 +2,8 @@ import { EngineInputError } from '../input-error';
 import type { Codebook } from '../format/codebook-schema';
 
 /** Storage of a mean-removed codebook's residual codewords in the firmware table; plain codebooks are always uint8. */
-export const RESIDUAL_WIDTHS = ['int16', 'int8'] as const;
-export type ResidualWidth = (typeof RESIDUAL_WIDTHS)[number];
+import { RESIDUAL_WIDTHS, type ResidualWidth } from './widths';
+export { RESIDUAL_WIDTHS, type ResidualWidth };
 
 /**
  * Fraction bits are capped at 12 so the C decoder's sum stays inside int32: a codeword of at most 2^15 scaled by

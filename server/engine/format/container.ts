@@ -7,7 +7,7 @@ import { blockGrid } from '../io/patches';
 import { indexBits } from './rate-bits';
 import { INDEX_LAYOUTS, indexCodingOf, type IndexCoding, type IndexLayout } from './index-coding';
 import { checkCodedIndices } from './codec';
-import { MAX_TREE_DEPTH } from './limits';
+import { MAX_RESYNC_ROWS, MAX_TREE_DEPTH } from './limits';
 
 /** Layout is documented byte by byte in FORMAT.md; keep the two in step. */
 export const CONTAINER_MAGIC = Uint8Array.from([0x43, 0x57, 0x56, 0x51]); // "CWVQ"
@@ -31,8 +31,9 @@ export const MAX_BLOCKS = 2 ** 28;
 /** A resynchronisation marker: `FF 52` ("R" after an all-ones byte), then the number of the segment that follows (uint16 LE, mod 65536). */
 export const RESYNC_MARKER_PREFIX = [0xff, 0x52] as const;
 export const RESYNC_MARKER_BYTES = 4;
-/** The marker interval is one header byte, so 1..255 block rows (0: no markers). */
-export const MAX_RESYNC_ROWS = 255;
+// The marker interval's limit (one header byte) lives with the format's other limits, which the contracts read
+// without this file's node:zlib.
+export { MAX_RESYNC_ROWS };
 
 export type PayloadCoding = 'raw' | 'deflate' | 'brotli';
 const CODING_IDS: Record<PayloadCoding, number> = { raw: 0, deflate: 1, brotli: 2 };

@@ -43,3 +43,5 @@ export const FLOAT32_ROUNDING_LIMIT = 2 ** 128 - 2 ** 103;
  * (2^14 nodes) is 13 deep; the rest is room for greedy-grown unbalanced trees.
  */
 export const MAX_TREE_DEPTH = 32;
+/** The resynchronisation marker interval is one container header byte, so 1..255 block rows (0: no markers). */
+export const MAX_RESYNC_ROWS = 255;

@@ -2,6 +2,7 @@ import type { z } from 'zod';
 import {
   bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
   anomalyJobBody, denoiseJobBody, modelJobParams, modelJobResponse, modelJobViewParams,
+  channelQuery, channelResponse, firmwareQuery, reorderBody, reorderResponse,
   acceptedResponse,
   activityQuery,
   activityResponse,
@@ -241,6 +242,20 @@ const codebookRoutes: RouteDescription[] = [
   { method: 'get', path: '/api/teams/:teamId/model-jobs/:jobId', tag: 'Codebooks', summary: 'An anomaly or denoise job: state, progress and, once it has succeeded, its result', access: 'member', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job') } },
   { method: 'post', path: '/api/teams/:teamId/model-jobs/:jobId/cancel', tag: 'Codebooks', summary: 'Cancel an anomaly or denoise job', access: 'member', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job, cancelled or asked to stop') }, errors: { 409: 'The job has already ended' } },
   { method: 'get', path: '/api/teams/:teamId/model-jobs/:jobId/views/:view', tag: 'Codebooks', summary: 'One image of a finished denoise job: clean, noisy, hard or mean', access: 'member', input: { params: modelJobViewParams }, responses: { 200: { description: 'The PNG', content: { 'image/png': 'binary' } } } },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/channel', tag: 'Codebooks', summary: 'PSNR against bit-error rate on a binary symmetric channel over the raw payload, measured over seeds and expected from the closed form, on held-out images', access: 'member', input: { params: codebookParams, query: channelQuery },
+    responses: { 200: json(channelResponse, 'The curve') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/reorder', tag: 'Codebooks', summary: 'Index assignment for a noisy channel (binary switching): the reordered codebook saved as a new one', access: 'engineer', input: { params: codebookParams, body: reorderBody },
+    responses: { 201: json(reorderResponse, 'The new codebook and the expected channel distortion before and after') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/firmware', tag: 'Codebooks', summary: 'The firmware bundle (fixed-point header, C99 reference decoder, example program, README) as a zip attachment', access: 'member', input: { params: codebookParams, query: firmwareQuery },
+    responses: { 200: { description: 'The zip file (stored entries)', content: { 'application/zip': 'binary' } } },
+  },
 ];
 
 const releaseRoutes: RouteDescription[] = [

@@ -3,6 +3,7 @@ import type {
   AccountsService,
   ApiSchemasService,
   CodebookModelService,
+  CodebookChannelService,
   CodebooksService,
   ComparisonService,
   EvaluationService,
@@ -38,6 +39,7 @@ export interface Services {
   evaluation: EvaluationService;
   reconstructions: ReconstructionsService;
   codebookModel: CodebookModelService;
+  codebookChannel: CodebookChannelService;
   comparison: ComparisonService;
   workers: WorkersService;
   apiSchemas: ApiSchemasService;

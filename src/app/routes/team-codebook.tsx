@@ -21,6 +21,8 @@ import { atlasOrder, CodewordAtlas, type AtlasOrder } from '../../features/codeb
 import { ReconstructionViewer } from '../../features/codebooks/components/reconstruction-viewer';
 import { AnomalyView } from '../../features/codebooks/components/anomaly-view';
 import { DenoiseView } from '../../features/codebooks/components/denoise-view';
+import { ChannelCurveView, ReorderAction } from '../../features/codebooks/components/channel-view';
+import { firmwareZipUrl } from '../../features/codebooks/api/get-channel';
 import { cellMse, codewordMean, usagePercent, usageSummary } from '../../features/codebooks/cell-stats';
 import { fixedRate, formatBpp, formatBytes, formatDb, formatMse } from '../../features/codebooks/format';
 import { requireTeam } from '../session';
@@ -167,6 +169,21 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
 
         <ModelPanels teamId={teamId} codebookId={codebook.id} trained={codebook.runId !== null} />
 
+        <Panel
+          title="Channel errors"
+          titleId="codebook-channel"
+          description="PSNR against bit-error rate: the raw payload of each held-out image sent through a binary symmetric channel and decoded, beside the expected PSNR of the closed form"
+        >
+          <div className="flex flex-col gap-6">
+            {codebook.runId !== null ? (
+              <ChannelCurveView teamId={teamId} codebookId={codebook.id} />
+            ) : (
+              <p className="text-sm text-ink-600">An imported codebook has no held-out images of its own; cellwright channel measures it on any folder.</p>
+            )}
+            {canEvaluate && <ReorderAction teamId={teamId} codebookId={codebook.id} />}
+          </div>
+        </Panel>
+
         {/* A trained codebook is evaluated by its run; an imported one only here (or right after its import). */}
         {canEvaluate && codebook.runId === null && (
           <Panel title="Evaluate on a held-out set" titleId="codebook-evaluate" description="Rate, MSE, PSNR and SSIM on images the codebook never saw.">
@@ -181,7 +198,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
         <Panel
           title="Export"
           titleId="codebook-export"
-          description="The codebook document (format cellwright-codebook, version 1) with its SHA-256 checksum, or its codewords alone as a NumPy .npy file (float32, codewords × components)"
+          description="The codebook document (format cellwright-codebook, version 1) with its SHA-256 checksum, its codewords alone as a NumPy .npy file (float32, codewords × components), or the firmware bundle: fixed-point C header, C99 reference decoder, example program and README in one zip"
         >
           <div className="flex flex-col gap-4">
             <div className="flex flex-wrap items-center gap-4">
@@ -191,6 +208,9 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
               </a>
               <a href={codebookExportUrl(teamId, codebook.id, 'npy')} download className={buttonClass('secondary')}>
                 Codewords .npy
+              </a>
+              <a href={firmwareZipUrl(teamId, codebook.id)} download className={buttonClass('secondary')}>
+                Firmware bundle .zip
               </a>
               <p className="text-sm text-ink-700">
                 SHA-256 <span className="num break-all text-ink-900">{codebook.checksum}</span>
@@ -245,6 +265,12 @@ function HeldOutPanel({ teamId, codebookId, meanRemoved }: { teamId: number; cod
                   <div className="flex gap-1.5">
                     <dt className="text-ink-600">Rate</dt>
                     <dd className="num">{formatBpp(info.data.bpp)}</dd>
+                  </div>
+                  <div className="flex gap-1.5">
+                    <dt className="text-ink-600">Raw rate</dt>
+                    <dd className="num" data-testid="raw-rate">
+                      {formatBpp(image.bppRaw)} ({formatBytes(image.rawBytes)})
+                    </dd>
                   </div>
                   <div className="flex gap-1.5">
                     <dt className="text-ink-600">PSNR</dt>

@@ -3,6 +3,7 @@
 // the routers mounted in server/app.ts.
 import type { ZodType } from 'zod';
 import {
+  reorderBody,
   acceptInvitationBody,
   anomalyJobBody,
   denoiseJobBody,
@@ -432,6 +433,37 @@ export const routes: RouteCase[] = [
     ok: 200,
     body: 'none',
     query: () => 'view=info',
+    objectScoped: true,
+  },
+  {
+    name: 'channel curve',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/channel',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    // The world's codebook is imported, so it has no held-out images of its own: the set is named.
+    query: (w) => `setId=${w.setId}&ber=0.001,0.01&seeds=1`,
+    objectScoped: true,
+  },
+  {
+    name: 'reorder a codebook for the channel',
+    method: 'POST',
+    path: '/api/teams/:teamId/codebooks/:codebookId/reorder',
+    access: 'engineer',
+    ok: 201,
+    body: 'json',
+    valid: () => ({ ber: 0.01 }),
+    schema: reorderBody,
+    objectScoped: true,
+  },
+  {
+    name: 'firmware bundle as zip',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/firmware',
+    access: 'member',
+    ok: 200,
+    body: 'none',
     objectScoped: true,
   },
   {

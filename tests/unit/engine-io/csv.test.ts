@@ -114,7 +114,7 @@ describe('the evaluation CSV files', () => {
 });
 
 describe("the studio's downloads", () => {
-  const figures = { bppFixed: 0.25, bppEntropy: 0.2, bppActual: 0.3, mse: 4, psnr: 42.1, ssim: 0.97, lossless: false };
+  const figures = { bppFixed: 0.25, bppEntropy: 0.2, bppActual: 0.3, bppRaw: 0.5, mse: 4, psnr: 42.1, ssim: 0.97, lossless: false };
   const exact = { ...figures, mse: 0, psnr: null, ssim: 1, lossless: true };
 
   it('writes the curve as the API returns it in the columns of cellwright sweep, codebooks then baselines by codec', () => {
@@ -135,7 +135,7 @@ describe("the studio's downloads", () => {
   it('writes the per-image metrics as the API returns them in the columns of cellwright eval --csv', () => {
     const metrics: RunMetrics = {
       run: { id: 1, name: 'r', state: 'succeeded' }, heldOutHash: 'h',
-      codebooks: [{ codebookId: 31, bits: 1, size: 2, images: [{ ...exact, imageId: 5, fileName: 'tile,1.png', width: 8, height: 6, containerBytes: 21 }] }],
+      codebooks: [{ codebookId: 31, bits: 1, size: 2, images: [{ ...exact, imageId: 5, fileName: 'tile,1.png', width: 8, height: 6, containerBytes: 21, rawBytes: 74 }] }],
     };
     expect(readRfc4180(runMetricsCsv(metrics))).toEqual([
       [...IMAGE_CSV_COLUMNS],

@@ -27,6 +27,7 @@ const columns = helper.columns([
   helper.accessor('bppFixed', { header: 'Fixed', cell: (c) => formatBpp(c.getValue()) }),
   helper.accessor('bppEntropy', { header: 'Entropy', cell: (c) => formatBpp(c.getValue()) }),
   helper.accessor('bppActual', { header: 'Actual', cell: (c) => formatBpp(c.getValue()) }),
+  helper.accessor('bppRaw', { header: 'Raw', cell: (c) => formatBpp(c.getValue()) }),
   helper.accessor('containerBytes', { header: 'Encoded', cell: (c) => formatBytes(c.getValue()) }),
   helper.accessor('mse', { header: 'MSE', cell: (c) => formatMse(c.getValue()) }),
   helper.accessor('psnr', { header: 'PSNR', sortUndefined: 'last', cell: (c) => formatDb(c.getValue()) }),

@@ -16,6 +16,7 @@ const rateDefinitions = [
   { key: 'bppFixed', id: 'fixed', label: 'VQ · fixed rate', style: 1 },
   { key: 'bppEntropy', id: 'entropy', label: 'VQ · entropy rate', style: 2 },
   { key: 'bppActual', id: 'actual', label: 'VQ · actual (container)', style: 3 },
+  { key: 'bppRaw', id: 'raw', label: 'VQ · raw (fixed-rate container)', style: 4 },
 ] as const;
 
 const codecLabels: Record<BaselineCodecName, string> = { jpeg: 'JPEG', webp: 'WebP', avif: 'AVIF' };
@@ -27,7 +28,7 @@ const lambdaDefinitions = [
 ] as const;
 
 /**
- * Chart series of a run's curve: three rate definitions of the full-search codebooks, the λ sweep of its
+ * Chart series of a run's curve: four rate definitions of the full-search codebooks, the λ sweep of its
  * entropy-constrained codebooks (when it has one) as a curve of its own, then every reference codec measured.
  */
 export function curveSeries(curve: RunCurve, metric: QualityMetric): RdSeries[] {

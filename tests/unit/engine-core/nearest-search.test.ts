@@ -51,18 +51,23 @@ describe('NearestSearch', () => {
     expect(boundLayout(12_000, 1, 4096).bytes).toBe(0);
   });
 
-  for (const threads of [1, threadBudget.total]) {
-    it(`keeps full-search results with grouped bounds on near-tie data, K > 64·d (threads = ${threads})`, async () => {
+  // Two shapes: 16 groups of 2 blocks searched on workers, and 8 groups of 4 blocks small enough to stay on this thread.
+  const groupedCases = [
+    { threads: 1, n: 12_000, d: 4, workers: 1 },
+    { threads: threadBudget.total, n: 12_000, d: 4, workers: threadBudget.total },
+    { threads: 1, n: 3_000, d: 2, workers: 0 },
+  ];
+  for (const { threads, n, d, workers } of groupedCases) {
+    it(`keeps full-search results with grouped bounds on near-tie data, K > 64·d (d = ${d}, worker threads: ${workers})`, async () => {
       const rng = createRng(33);
-      const n = 12_000;
-      const d = 4;
       const k = 512;
+      expect(boundLayout(n, d, k).groupShift).toBeGreaterThan(0);
       // Small integers: many vectors lie at exactly equal distances from several codewords on the same grid.
       const vectors = new Float32Array(n * d).map(() => Math.round(rng.normal() * 3));
       const codewords = new Float32Array(k * d).map(() => Math.round(rng.normal() * 6) / 2);
       const search = await NearestSearch.open(vectors, d, { threads, maxK: k });
       try {
-        expect(search.threads).toBe(threads);
+        expect(search.threads).toBe(workers);
         let searchedLater = Infinity;
         for (let pass = 0; pass < 8; pass++) {
           const step = 2 / (1 + pass * pass);

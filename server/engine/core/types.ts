@@ -14,8 +14,9 @@ export interface IterationStat {
   /** Vectors whose nearest codeword was re-decided by the exact search (near-ties). */
   redecided?: number;
   /**
-   * Vectors whose search went beyond the block of their current codeword; the others had
-   * every other block excluded by the bounds.
+   * Vectors whose search went beyond the bound group (a block of 16 codewords, or several
+   * for large codebooks) of their current codeword; the others had every other group
+   * excluded by the bounds.
    */
   searched?: number;
 }
@@ -91,7 +92,7 @@ export interface Assignment {
 export interface PassStats {
   /** Vectors whose near-tie was re-decided by the exact float64 search. */
   redecided: number;
-  /** Vectors that searched beyond their current codeword's block (see assignBounded). */
+  /** Vectors that searched beyond their current codeword's bound group (see assignBounded). */
   searched: number;
 }
 

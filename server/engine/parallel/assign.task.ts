@@ -73,7 +73,7 @@ port.on('message', (message: WorkerJob) => {
     };
     const drift: Drift | undefined = job.drift && { blockMoved: new Float64Array(job.drift.blockMoved) };
     const control = new Int32Array(job.control);
-    kernel.setCodebook(codewords, job.k, job.d, new Uint32Array(job.order, 0, job.k));
+    kernel.setCodebook(codewords, job.k, job.d, new Uint32Array(job.order, 0, job.k), job.groupShift);
     for (;;) {
       if (Atomics.load(control, 1) !== 0) break; // cancelled: stop after the current chunk
       const chunk = Atomics.add(control, 0, 1);

@@ -8,12 +8,13 @@ export interface AssignJob {
   codewords: SharedArrayBuffer; // K × d f32, row-major
   k: number;
   order: SharedArrayBuffer; // K u32: the codeword at each position of the block layout
+  groupShift: number; // bound groups of 2^groupShift blocks of 16 positions
   indices: SharedArrayBuffer; // N u32, written (read too in a bounded pass)
   distances: SharedArrayBuffer; // N f64, written
-  blockLower: SharedArrayBuffer; // N × ⌈K/16⌉ f32, block bounds, written (read too in a bounded pass)
+  blockLower: SharedArrayBuffer; // N × ⌈K/(16·2^groupShift)⌉ f32, group bounds, written (read too in a bounded pass)
   control: SharedArrayBuffer; // Int32 [next chunk, cancel flag]
   chunkSize: number;
-  /** Present for a bounded pass: ⌈K/16⌉ f64, the largest codeword move within each block. */
+  /** Present for a bounded pass: one f64 per bound group, the largest codeword move within it. */
   drift?: { blockMoved: SharedArrayBuffer };
 }
 

@@ -16,29 +16,48 @@ const MIN_PARALLEL_WORK = 1 << 22;
 const MAX_BOUND_BYTES = 256 * 1024 * 1024;
 /**
  * …and never more than this many times the training vectors' own bytes, so that training memory stays a small
- * multiple of the training set (blocks ≤ 4d, that is K ≤ 64·d keeps the bounds). Measured by `npm run bench`.
+ * multiple of the training set (one bound per block of 16 up to K = 64·d; larger codebooks bound groups of several
+ * blocks, see boundLayout). Measured by `npm run bench`.
  */
 const MAX_BOUND_RATIO = 4;
+/**
+ * Fewest groups worth keeping bounds for when groups span several blocks: with only a handful, nearly every vector
+ * scans most of the codebook anyway. (Ding et al. 2015 use about K/10 groups; this is a floor, not a target.)
+ */
+const MIN_GROUPS = 8;
 
 let nextJobId = 1;
 
 /**
- * Bytes of the block-bound table a search over N vectors of dimension d keeps with K codewords: N × ⌈K/16⌉
- * float32, or 0 when that passes MAX_BOUND_BYTES or MAX_BOUND_RATIO × the vectors (every pass then runs in full).
+ * The bound table a search over N vectors of dimension d keeps with K codewords: one float32 per vector and group
+ * of 2^groupShift blocks of 16 codewords, with the smallest group size whose table stays within MAX_BOUND_BYTES and
+ * MAX_BOUND_RATIO × the vectors. bytes is 0 (every pass runs in full) when even groups that leave MIN_GROUPS of them
+ * do not fit. Groups of one block (shift 0) whenever they fit, so K ≤ 64·d keeps per-block bounds.
  */
+export function boundLayout(n: number, d: number, k: number): { groupShift: number; bytes: number } {
+  const limit = Math.min(MAX_BOUND_BYTES, MAX_BOUND_RATIO * n * d * 4);
+  const blocks = Math.ceil(k / 16);
+  for (let shift = 0; ; shift++) {
+    const groups = Math.ceil(blocks / 2 ** shift);
+    if (shift > 0 && groups < MIN_GROUPS) return { groupShift: 0, bytes: 0 };
+    if (n * groups * 4 <= limit) return { groupShift: shift, bytes: n * groups * 4 };
+  }
+}
+
+/** Bytes of the bound table (see boundLayout). */
 export function boundTableBytes(n: number, d: number, k: number): number {
-  const bytes = n * Math.ceil(k / 16) * 4;
-  return bytes <= Math.min(MAX_BOUND_BYTES, MAX_BOUND_RATIO * n * d * 4) ? bytes : 0;
+  return boundLayout(n, d, k).bytes;
 }
 
 /**
- * Orders codewords so that each block of 16 consecutive positions holds codewords lying
- * close together: recursive halving (at a multiple of 16) along each subset's principal
- * direction, found by power iteration. Compact blocks make the per-block bounds tight, so
- * a vector skips the blocks far from it. Any order gives the same results; this one
- * depends only on the codebook, so every thread uses the same.
+ * Orders codewords so that each group of `unit` consecutive positions (16 or a multiple,
+ * the bound groups) holds codewords lying close together: recursive halving (at a multiple
+ * of unit) along each subset's principal direction, found by power iteration. Compact
+ * groups make the bounds tight, so a vector skips the groups far from it. Any order gives
+ * the same results; this one depends only on the codebook and unit, so every thread uses
+ * the same.
  */
-export function blockOrder(codewords: Float32Array, k: number, d: number): Uint32Array {
+export function blockOrder(codewords: Float32Array, k: number, d: number, unit = 16): Uint32Array {
   const order = Uint32Array.from({ length: k }, (_, j) => j);
   const mean = new Float64Array(d);
   const dir = new Float64Array(d);
@@ -46,7 +65,7 @@ export function blockOrder(codewords: Float32Array, k: number, d: number): Uint3
   const proj = new Float64Array(k);
   const split = (from: number, to: number) => {
     const count = to - from;
-    if (count <= 16) return;
+    if (count <= unit) return;
     mean.fill(0);
     for (let p = from; p < to; p++) for (let i = 0; i < d; i++) mean[i] += codewords[order[p] * d + i];
     for (let i = 0; i < d; i++) mean[i] /= count;
@@ -73,7 +92,7 @@ export function blockOrder(codewords: Float32Array, k: number, d: number): Uint3
     }
     const part = Array.from(order.subarray(from, to)).sort((a, b) => proj[a] - proj[b] || a - b);
     order.set(part, from);
-    const half = from + Math.ceil(count / 32) * 16;
+    const half = from + Math.ceil(count / (2 * unit)) * unit;
     split(from, half);
     split(half, to);
   };
@@ -156,6 +175,8 @@ export class NearestSearch implements PassSearch {
   private previous?: Float32Array;
   /** Block layout order of the codewords, fixed while the bounds are kept. */
   private order?: Uint32Array;
+  /** Blocks of 16 per bound group, as a power of two (boundLayout), fixed with the order. */
+  private groupShift = 0;
   private closed = false;
 
   private constructor(
@@ -218,13 +239,16 @@ export class NearestSearch implements PassSearch {
     // Full and bounded passes give the same result; a bounded pass needs the bounds of a
     // completed pass with a codebook of the same size.
     const sameSize = this.previous !== undefined && this.previous.length === cw.length;
+    // Bounds take N × (groups) float32, the groups as small as MAX_BOUND_BYTES and MAX_BOUND_RATIO × the vectors
+    // allow (boundLayout); when none fit every pass runs in full.
+    const layout = boundLayout(this.n, this.d, k);
     if (!sameSize || !this.order) {
-      const order = blockOrder(cw, k, this.d);
+      this.groupShift = layout.groupShift;
+      const order = blockOrder(cw, k, this.d, 16 << this.groupShift);
       this.order = new Uint32Array(new SharedArrayBuffer(k * 4));
       this.order.set(order);
     }
-    // Bounds take N × ⌈K/16⌉ float32; beyond MAX_BOUND_BYTES, or MAX_BOUND_RATIO × the vectors, every pass runs in full.
-    const boundEntries = boundTableBytes(this.n, this.d, k) / 4;
+    const boundEntries = layout.bytes / 4;
     const drift = sameSize && boundEntries > 0 ? this.driftFrom(this.previous!, cw, k) : undefined;
     // Until the pass completes the bounds are stale: a failed pass must not be trusted.
     this.previous = undefined;
@@ -245,11 +269,11 @@ export class NearestSearch implements PassSearch {
     const d = this.d;
     const position = new Uint32Array(k);
     for (let p = 0; p < k; p++) position[this.order![p]] = p;
-    const blockMoved = new Float64Array(new SharedArrayBuffer(Math.ceil(k / 16) * 8));
+    const blockMoved = new Float64Array(new SharedArrayBuffer(Math.ceil(k / (16 << this.groupShift)) * 8));
     for (let j = 0; j < k; j++) {
       // Rounded up so that the bound test stays conservative.
       const m = Math.sqrt(exactDistance(previous, j * d, next, j * d, d)) * (1 + 1e-12);
-      const b = position[j] >> 4;
+      const b = position[j] >> (4 + this.groupShift);
       if (m > blockMoved[b]) blockMoved[b] = m;
     }
     return { blockMoved };
@@ -257,7 +281,7 @@ export class NearestSearch implements PassSearch {
 
   private runLocal(codewords: Float32Array, k: number, drift: Drift | undefined): PassStats {
     const kernel = sharedLocalKernel();
-    kernel.setCodebook(codewords, k, this.d, this.order);
+    kernel.setCodebook(codewords, k, this.d, this.order, this.groupShift);
     if (drift) return kernel.assignBounded(this.vectors, 0, this.n, this.state, drift);
     const redecided = kernel.assignRange(
       this.vectors, 0, this.n, this.state.indices, this.state.distances, undefined,
@@ -284,6 +308,7 @@ export class NearestSearch implements PassSearch {
         codewords: cw,
         k,
         order: this.order!.buffer as SharedArrayBuffer,
+        groupShift: this.groupShift,
         indices: this.buffers.indices,
         distances: this.buffers.distances,
         blockLower: this.buffers.blockLower,

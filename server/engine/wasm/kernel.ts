@@ -5,7 +5,7 @@ interface KernelExports {
   resetState(statePtr: number, n: number, bminPtr: number, g: number): void;
   prepareRows(xoPtr: number, xPtr: number, n: number, d: number, dp: number, shiftPtr: number): void;
   planBlocks(
-    n: number, d: number, g: number, full: boolean, xoPtr: number, cPtr: number, blowPtr: number, movedPtr: number,
+    n: number, d: number, g: number, gshift: number, full: boolean, xoPtr: number, cPtr: number, blowPtr: number, movedPtr: number,
     curPtr: number, ownPtr: number, upperPtr: number, curDistPtr: number,
     listPtr: number, listStride: number, countPtr: number, skippedMinPtr: number,
   ): number;
@@ -17,7 +17,7 @@ interface KernelExports {
     xPtr: number, xoPtr: number, n: number, d: number, dp: number, ctPtr: number, cnPtr: number, kp: number,
     cPtr: number, k: number, maxNorm: number, bandPtr: number,
     statePtr: number, idxPtr: number, distPtr: number, lowerPtr: number,
-    g: number, bminPtr: number, blowPtr: number, permPtr: number,
+    g: number, gshift: number, bminPtr: number, blowPtr: number, permPtr: number,
     haveCur: boolean, curPtr: number, curDistPtr: number, pendingPtr: number,
   ): number;
 }
@@ -27,15 +27,15 @@ export interface SearchState {
   indices: Uint32Array;
   distances: Float64Array;
   /**
-   * N × G (G = ⌈K/16⌉ blocks of 16 codewords, G entries per vector): a lower bound on the
-   * distance (not squared) from the vector to every codeword of each block.
+   * N × G (G groups of 16·2^s codewords, see setCodebook; G entries per vector): a lower bound on the
+   * distance (not squared) from the vector to every codeword of each group.
    */
   blockLower: Float32Array;
 }
 
 /** How far the codewords moved since the pass that produced a SearchState. */
 export interface Drift {
-  /** G entries: the largest move within each block of 16 positions (see setCodebook). */
+  /** G entries: the largest move within each group of 16·2^s positions (see setCodebook). */
   blockMoved: Float64Array;
 }
 
@@ -74,6 +74,10 @@ export class NearestKernel {
   private maxNorm = 0;
   /** Blocks of 16 codewords. */
   private g = 0;
+  /** Blocks per bound group: 2^gshift. */
+  private gshift = 0;
+  /** Bound groups: ⌈g / 2^gshift⌉. */
+  private gg = 0;
   /** Vectors per batch (BATCH unless the codebook is huge). */
   private batch = BATCH;
   private cnPtr = 0;
@@ -114,10 +118,11 @@ export class NearestKernel {
 
   /**
    * Loads a codebook: codewords K × d, row-major. `order` (K entries, a permutation)
-   * lists the codeword placed at each position of the block layout; block bounds refer to
-   * blocks of 16 consecutive positions. Must precede assignRange.
+   * lists the codeword placed at each position of the block layout; bounds refer to groups
+   * of 16·2^groupShift consecutive positions (2^groupShift blocks of 16; the last group may
+   * be shorter). Must precede assignRange.
    */
-  setCodebook(codewords: Float32Array, k: number, d: number, order?: Uint32Array): void {
+  setCodebook(codewords: Float32Array, k: number, d: number, order?: Uint32Array, groupShift = 0): void {
     const dp = align(d, 4);
     const kp = align(k, 16);
     this.k = k;
@@ -125,6 +130,8 @@ export class NearestKernel {
     this.dp = dp;
     this.kp = kp;
     this.g = kp / 16;
+    this.gshift = groupShift;
+    this.gg = Math.ceil(this.g / 2 ** groupShift);
     // Huge codebooks get smaller batches, so the block tables stay a few megabytes.
     this.batch = Math.max(2, Math.min(BATCH, Math.floor(BATCH_BLOCK_ENTRIES / this.g)));
     const batch = this.batch;
@@ -145,7 +152,7 @@ export class NearestKernel {
     this.blowPtr = align(this.bminPtr + batch * this.g * 4, 64);
     this.permPtr = align(this.blowPtr + batch * this.g * 4, 64);
     this.movedPtr = align(this.permPtr + k * 4, 64);
-    this.upperPtr = align(this.movedPtr + this.g * 8, 64);
+    this.upperPtr = align(this.movedPtr + this.gg * 8, 64);
     this.ownPtr = align(this.upperPtr + batch * 8, 64);
     this.curPtr = align(this.ownPtr + batch * 4, 64);
     this.skippedPtr = align(this.curPtr + batch * 4, 64);
@@ -191,16 +198,16 @@ export class NearestKernel {
     this.maxNorm = Math.sqrt(maxSq) * (1 + 1e-12);
   }
 
-  /** Blocks of 16 codewords of the loaded codebook: the G of SearchState.blockLower. */
+  /** Bound groups of the loaded codebook: the G of SearchState.blockLower. */
   get blocks(): number {
-    return this.g;
+    return this.gg;
   }
 
   /**
    * Assigns vectors [start, end) of `vectors` (N × d, row-major) and writes their nearest
    * codeword and exact squared distance to outIdx/outDist at the same positions (and, when
    * given, the lower bound on the distance to every other codeword to outLower and the
-   * block bounds, N × blocks, to outBlocks).
+   * group bounds, N × blocks, to outBlocks).
    * Returns how many vectors needed the exact re-decision.
    */
   assignRange(
@@ -213,12 +220,12 @@ export class NearestKernel {
   }
 
   /**
-   * Bounded pass, with one bound per vector and block of 16 codewords (the grouping of
+   * Bounded pass, with one bound per vector and group of codewords (the grouping of
    * Y. Ding et al., "Yinyang K-means", ICML 2015; the bound update with the codeword
    * drift follows G. Hamerly, "Making k-means even faster", SDM 2010): with u the exact
    * distance from a vector to its current codeword a, only the blocks whose bound,
-   * lowered by the block's largest move, is not above u are scanned, and always a's own
-   * block. Every codeword of a skipped block is provably farther than a, so it can neither
+   * lowered by the group's largest move, is not above u are scanned, and always a's own
+   * group. Every codeword of a skipped group is provably farther than a, so it can neither
    * be the nearest nor tie with it, and the scanned set decides exactly as a full search
    * would; the distance written is exact. Vectors [start, end); state is read and updated
    * in place. Returns how many vectors searched beyond their own block and how many were
@@ -247,7 +254,7 @@ export class NearestKernel {
     outIdx: Uint32Array, outDist: Float64Array, outLower?: Float64Array, outBlocks?: Float32Array,
     drift?: Drift,
   ): number {
-    const { d, dp, k, kp, g, batch } = this;
+    const { d, dp, k, kp, g, gg, gshift, batch } = this;
     if (k === 0) throw new Error('NearestKernel: setCodebook must be called first');
     const rows = this.rows;
     const e = this.exports;
@@ -256,12 +263,12 @@ export class NearestKernel {
     const idx = new Uint32Array(buf, this.idxPtr, batch);
     const dist = new Float64Array(buf, this.distPtr, batch);
     const low = new Float64Array(buf, this.lowerPtr, batch);
-    const blow = new Float32Array(buf, this.blowPtr, batch * g);
+    const blow = new Float32Array(buf, this.blowPtr, batch * gg);
     const cur = new Int32Array(buf, this.curPtr, batch);
     const own = new Int32Array(buf, this.ownPtr, batch);
     const skippedMin = new Float64Array(buf, this.skippedPtr, batch);
     const bounded = drift !== undefined && outBlocks !== undefined;
-    if (bounded) new Float64Array(buf, this.movedPtr, g).set(drift.blockMoved);
+    if (bounded) new Float64Array(buf, this.movedPtr, gg).set(drift.blockMoved);
     let redecided = 0;
     for (let b = 0; b < count; b += batch) {
       const n = Math.min(batch, count - b);
@@ -271,18 +278,18 @@ export class NearestKernel {
         let run = 1;
         while (v + run < n && rows[b + v + run] === first + run) run++;
         xo.set(vectors.subarray(first * d, (first + run) * d), v * d);
-        if (bounded) blow.set(outBlocks.subarray(first * g, (first + run) * g), v * g);
+        if (bounded) blow.set(outBlocks.subarray(first * gg, (first + run) * gg), v * gg);
         v += run;
       }
       if (bounded) {
         for (let v = 0; v < n; v++) {
           const a = outIdx[rows[b + v]];
           cur[v] = a;
-          own[v] = this.position[a] >> 4;
+          own[v] = this.position[a] >> (4 + gshift);
         }
       }
       this.pruned += e.planBlocks(
-        n, d, g, !bounded, this.xoPtr, this.cPtr, this.blowPtr, this.movedPtr,
+        n, d, g, gshift, !bounded, this.xoPtr, this.cPtr, this.blowPtr, this.movedPtr,
         this.curPtr, this.ownPtr, this.upperPtr, this.curDistPtr, this.listPtr, batch, this.countPtr, this.skippedPtr,
       );
       e.prepareRows(this.xoPtr, this.xPtr, n, d, dp, this.shiftPtr);
@@ -290,7 +297,7 @@ export class NearestKernel {
       e.scanBlocks(this.xPtr, dp, this.ctPtr, this.cnPtr, this.statePtr, g, this.listPtr, batch, this.countPtr, this.bminPtr);
       redecided += e.finishRows(
         this.xPtr, this.xoPtr, n, d, dp, this.ctPtr, this.cnPtr, kp, this.cPtr, k, this.maxNorm, this.bandPtr,
-        this.statePtr, this.idxPtr, this.distPtr, this.lowerPtr, g, this.bminPtr, this.blowPtr,
+        this.statePtr, this.idxPtr, this.distPtr, this.lowerPtr, g, gshift, this.bminPtr, this.blowPtr,
         this.permPtr, bounded, this.curPtr, this.curDistPtr, this.pendingPtr,
       );
       for (let v = 0; v < n; v++) {
@@ -305,7 +312,7 @@ export class NearestKernel {
           const first = rows[b + v];
           let run = 1;
           while (v + run < n && rows[b + v + run] === first + run) run++;
-          outBlocks.set(blow.subarray(v * g, (v + run) * g), first * g);
+          outBlocks.set(blow.subarray(v * gg, (v + run) * gg), first * gg);
           v += run;
         }
       }

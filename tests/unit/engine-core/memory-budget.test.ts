@@ -61,14 +61,18 @@ describe('training memory estimate', () => {
     expect(m.totalBytes).toBeGreaterThan(6e9);
   });
 
-  it('keeps the bound table only while it is at most four times the vectors (K ≤ 64·d), as the search does', () => {
+  it('keeps the bound table at most four times the vectors, grouping blocks beyond K = 64·d, as the search does', () => {
     const small = trainingMemory({ vectors: 100_000, dimension: 4, codebookSize: 256, threads: 1, largestImage: null, color: 'luma' });
     // The vectors take N × 4 × 4 = 1.6 MB. At K = 256 (= 64·d) the table is N × 16 × 4 = 6.4 MB, exactly four times
     // that: kept; at K/2 it is N × 8 × 4 = 3.2 MB: kept.
     expect(small.boundBytes).toBe(100_000 * 16 * 4 + 100_000 * 8 * 4);
     const large = trainingMemory({ vectors: 100_000, dimension: 4, codebookSize: 1024, threads: 1, largestImage: null, color: 'luma' });
-    // K = 1024 > 64·d: the table (N × 64 × 4 = 25.6 MB) passes four times the vectors; at K/2 (12.8 MB) too.
-    expect(large.boundBytes).toBe(0);
+    // K = 1024 > 64·d: one bound per block (N × 64 × 4 = 25.6 MB) passes four times the vectors, so blocks are
+    // grouped four at a time (16 groups, 6.4 MB); at K/2, two at a time (16 groups again).
+    expect(large.boundBytes).toBe(2 * 100_000 * 16 * 4);
+    const huge = trainingMemory({ vectors: 100_000, dimension: 1, codebookSize: 4096, threads: 1, largestImage: null, color: 'luma' });
+    // d = 1: four bounds per vector at most, fewer groups than are worth keeping (at K and K/2): no table.
+    expect(huge.boundBytes).toBe(0);
   });
 
   it('grows with the threads, each of which holds the codebook', () => {

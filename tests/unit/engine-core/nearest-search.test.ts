@@ -1,6 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { bruteForceAssign, createRng, shutdownEngineWorkers, threadBudget } from '../../../server/engine/training/index';
-import { NearestSearch, sharedVectors } from '../../../server/engine/parallel/nearest-search';
+import { NearestSearch, boundLayout, sharedVectors } from '../../../server/engine/parallel/nearest-search';
 import { train } from '../../../server/engine/training/index';
 import { NearestKernel } from '../../../server/engine/wasm/kernel';
 import { accumulateCentroids } from '../../../server/engine/core/accumulate-centroids';
@@ -34,6 +34,53 @@ describe('NearestSearch', () => {
           if (pass === 0) expect(stats.searched).toBe(n);
           else searchedLater = Math.min(searchedLater, stats.searched);
         }
+        expect(searchedLater).toBeLessThan(n);
+      } finally {
+        search.close();
+      }
+    });
+  }
+
+  it('bounds groups of several blocks once per-block bounds would outgrow the vectors (worked example)', () => {
+    // Per block of 16 the table would be N × 32 float32, 8× the vectors (N × 4 float32); groups of two blocks
+    // give 16 per vector, 4× the vectors, the limit.
+    expect(boundLayout(12_000, 4, 512)).toEqual({ groupShift: 1, bytes: 12_000 * 16 * 4 });
+    // K ≤ 64·d keeps one bound per block of 16.
+    expect(boundLayout(12_000, 16, 1024)).toEqual({ groupShift: 0, bytes: 12_000 * 64 * 4 });
+    // Groups so large that fewer than a handful remain are not worth keeping: every pass runs in full.
+    expect(boundLayout(12_000, 1, 4096).bytes).toBe(0);
+  });
+
+  // Two shapes: 16 groups of 2 blocks searched on workers, and 8 groups of 4 blocks small enough to stay on this thread.
+  const groupedCases = [
+    { threads: 1, n: 12_000, d: 4, workers: 1 },
+    { threads: threadBudget.total, n: 12_000, d: 4, workers: threadBudget.total },
+    { threads: 1, n: 3_000, d: 2, workers: 0 },
+  ];
+  for (const { threads, n, d, workers } of groupedCases) {
+    it(`keeps full-search results with grouped bounds on near-tie data, K > 64·d (d = ${d}, worker threads: ${workers})`, async () => {
+      const rng = createRng(33);
+      const k = 512;
+      expect(boundLayout(n, d, k).groupShift).toBeGreaterThan(0);
+      // Small integers: many vectors lie at exactly equal distances from several codewords on the same grid.
+      const vectors = new Float32Array(n * d).map(() => Math.round(rng.normal() * 3));
+      const codewords = new Float32Array(k * d).map(() => Math.round(rng.normal() * 6) / 2);
+      const search = await NearestSearch.open(vectors, d, { threads, maxK: k });
+      try {
+        expect(search.threads).toBe(workers);
+        let searchedLater = Infinity;
+        for (let pass = 0; pass < 8; pass++) {
+          const step = 2 / (1 + pass * pass);
+          for (let i = 0; i < codewords.length; i++) codewords[i] += Math.round(rng.normal() * step * 8) / 16;
+          // Exact duplicates far apart in index (so in different groups): ties go to the lower index.
+          for (let j = 0; j < 32; j++) codewords.copyWithin((k - 1 - j) * d, j * 7 * d, (j * 7 + 1) * d);
+          const stats = await search.run(codewords, k);
+          const ref = bruteForceAssign(vectors, d, codewords);
+          expect(Array.from(search.indices)).toEqual(Array.from(ref.indices));
+          expect(Array.from(search.distances)).toEqual(Array.from(ref.distances));
+          if (pass > 0) searchedLater = Math.min(searchedLater, stats.searched);
+        }
+        // The grouped bounds are in use: some vectors scan only their own group.
         expect(searchedLater).toBeLessThan(n);
       } finally {
         search.close();

@@ -25,8 +25,10 @@
 //          lists + g × stride × 4, count[g] entries
 //   bmin   n × g f32: per vector and block, the smallest expanded value of the block;
 //          +Infinity marks a block the vector did not scan
-//   blow   n × g f32 in/out: per vector and block, a lower bound on the distance (not
-//          squared) to every codeword of the block; rewritten for the scanned blocks
+//   blow   n × gg f32 in/out: per vector and group, a lower bound on the distance (not
+//          squared) to every codeword of the group; rewritten for the scanned groups. A
+//          group is 2^gshift consecutive blocks (gg = ⌈g / 2^gshift⌉; the last may be
+//          shorter), so large codebooks keep one bound per group instead of per block
 
 const U32: f64 = 5.9604644775390625e-8; // 2^-24, unit roundoff of float32
 const U64: f64 = 1.1102230246251565e-16; // 2^-53, unit roundoff of float64
@@ -166,18 +168,18 @@ export function scanBlocks(
 
 /**
  * Chooses the blocks each of n vectors scans in a bounded pass. Vector v (batch position,
- * unshifted copy in xo) has current codeword cur[v], in block own[v]; blow holds its block
- * bounds from the previous pass and moved (g f64) each block's largest move. With u its
- * exact distance to cur[v] (rounded up), a block other than own[v] whose lowered bound
+ * unshifted copy in xo) has current codeword cur[v], in group own[v]; blow holds its group
+ * bounds from the previous pass and moved (gg f64) each group's largest move. With u its
+ * exact distance to cur[v] (rounded up), a group other than own[v] whose lowered bound
  * exceeds u holds only codewords farther than the current one: it is skipped and its
- * bound kept, lowered (the float32 step down covers the rounding); every other block is
- * listed for the scan. skippedMin[v] receives the smallest bound of the skipped blocks
- * (+Infinity when none), curDist[v] the exact squared distance to cur[v] (exactDistance's
- * bits). With full set (no bounds yet) every block is listed.
- * Returns how many vectors scan only their own block.
+ * bound kept, lowered (the float32 step down covers the rounding); every block of every
+ * other group is listed for the scan. skippedMin[v] receives the smallest bound of the
+ * skipped groups (+Infinity when none), curDist[v] the exact squared distance to cur[v]
+ * (exactDistance's bits). With full set (no bounds yet) every block is listed.
+ * Returns how many vectors scan only their own group.
  */
 export function planBlocks(
-  n: i32, d: i32, g: i32, full: bool, xoPtr: usize, cPtr: usize, blowPtr: usize, movedPtr: usize,
+  n: i32, d: i32, g: i32, gshift: i32, full: bool, xoPtr: usize, cPtr: usize, blowPtr: usize, movedPtr: usize,
   curPtr: usize, ownPtr: usize, upperPtr: usize, curDistPtr: usize,
   listPtr: usize, listStride: i32, countPtr: usize, skippedMinPtr: usize,
 ): i32 {
@@ -225,21 +227,25 @@ export function planBlocks(
     store<f64>(upperPtr + <usize>v3 * 8, Math.sqrt(s3) * (1 + 1e-12));
   }
   let pruned = 0;
+  const gg = (g + (1 << gshift) - 1) >> gshift;
   for (let v = 0; v < n; v++) {
-    const row = blowPtr + <usize>v * <usize>g * 4;
+    const row = blowPtr + <usize>v * <usize>gg * 4;
     let minSkipped: f64 = Infinity;
     const u = load<f64>(upperPtr + <usize>v * 8);
     const own = load<i32>(ownPtr + <usize>v * 4);
     let listed = 0;
-    for (let b = 0; b < g; b++) {
-      const bound = (<f64>load<f32>(row + <usize>b * 4) - load<f64>(movedPtr + <usize>b * 8)) * (1 - 1e-12);
-      if (b != own && u < bound) {
-        store<f32>(row + <usize>b * 4, <f32>(bound * (1 - 1e-6)));
+    for (let q = 0; q < gg; q++) {
+      const bound = (<f64>load<f32>(row + <usize>q * 4) - load<f64>(movedPtr + <usize>q * 8)) * (1 - 1e-12);
+      if (q != own && u < bound) {
+        store<f32>(row + <usize>q * 4, <f32>(bound * (1 - 1e-6)));
         if (bound < minSkipped) minSkipped = bound;
       } else {
-        const c = load<i32>(countPtr + <usize>b * 4);
-        store<i32>(listPtr + (<usize>b * <usize>listStride + <usize>c) * 4, v);
-        store<i32>(countPtr + <usize>b * 4, c + 1);
+        const last = min(g, (q + 1) << gshift);
+        for (let b = q << gshift; b < last; b++) {
+          const c = load<i32>(countPtr + <usize>b * 4);
+          store<i32>(listPtr + (<usize>b * <usize>listStride + <usize>c) * 4, v);
+          store<i32>(countPtr + <usize>b * 4, c + 1);
+        }
         listed++;
       }
     }
@@ -303,7 +309,7 @@ export function finishRows(
   xPtr: usize, xoPtr: usize, n: i32, d: i32, dp: i32, ctPtr: usize, cnPtr: usize, kp: i32,
   cPtr: usize, k: i32, maxNorm: f64, bandPtr: usize,
   statePtr: usize, idxPtr: usize, distPtr: usize, lowerPtr: usize,
-  g: i32, bminPtr: usize, blowPtr: usize, permPtr: usize,
+  g: i32, gshift: i32, bminPtr: usize, blowPtr: usize, permPtr: usize,
   haveCur: bool, curPtr: usize, curDistPtr: usize, pendingPtr: usize,
 ): i32 {
   const m = <f64>(dp + 2);
@@ -442,18 +448,26 @@ export function finishRows(
       lower = Math.min(sd * (1 - 1e-12), outsideLower);
     }
     if (!(lower > 0)) lower = 0;
-    // Block bounds of the scanned blocks: every codeword of block b has an expanded value
-    // of at least bmin − e, so its distance is at least the square root of that plus
+    // Group bounds of the scanned groups: every codeword of group q has an expanded value
+    // of at least bmin − e, bmin the smallest of its blocks' minima (a group is scanned
+    // whole or not at all), so its distance is at least the square root of that plus
     // ‖x'‖². Stored in float32 after a relative step down larger than its rounding, so
     // the stored bound never exceeds the proven one. Unsafe vectors keep no bounds.
     const brow = <usize>v * <usize>g * 4;
-    for (let b = 0; b < g; b++) {
-      const bm = <f64>load<f32>(bminPtr + brow + <usize>b * 4);
+    const gg = (g + (1 << gshift) - 1) >> gshift;
+    const grow = <usize>v * <usize>gg * 4;
+    for (let q = 0; q < gg; q++) {
+      const last = min(g, (q + 1) << gshift);
+      let bm: f64 = Infinity;
+      for (let b = q << gshift; b < last; b++) {
+        const m = <f64>load<f32>(bminPtr + brow + <usize>b * 4);
+        if (m < bm) bm = m;
+      }
       if (!safe) {
-        store<f32>(blowPtr + brow + <usize>b * 4, 0);
+        store<f32>(blowPtr + grow + <usize>q * 4, 0);
       } else if (bm < Infinity) {
         const sq = (bm - e + xn2) * (1 - 1e-12);
-        store<f32>(blowPtr + brow + <usize>b * 4, sq > 0 ? <f32>(Math.sqrt(sq) * (1 - 1e-6)) : 0);
+        store<f32>(blowPtr + grow + <usize>q * 4, sq > 0 ? <f32>(Math.sqrt(sq) * (1 - 1e-6)) : 0);
       }
     }
     store<f64>(lowerPtr + <usize>v * 8, lower);

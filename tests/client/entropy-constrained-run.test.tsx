@@ -22,16 +22,16 @@ const curve: RunCurve = {
 describe('an entropy-constrained run on the rate–distortion chart', () => {
   it('draws the λ sweep as a curve of its own, apart from the full-search series', () => {
     const series = curveSeries(curve, 'psnr');
-    expect(series.map((s) => s.id)).toEqual(['fixed', 'entropy', 'actual', 'ecvq-entropy', 'ecvq-actual']);
+    expect(series.map((s) => s.id)).toEqual(['fixed', 'entropy', 'actual', 'raw', 'ecvq-entropy', 'ecvq-actual']);
     expect(series[2].points.map((p) => p.target)).toEqual(['1']);
     // Largest λ first: the curve runs from the lowest rate up.
-    expect(series[4].points.map((p) => p.label)).toEqual(['λ = 500 (K = 6)', 'λ = 100 (K = 12)', 'λ = 10 (K = 30)']);
-    expect(series[4].points.map((p) => p.x)).toEqual([0.4, 0.7, 1.1]);
+    expect(series[5].points.map((p) => p.label)).toEqual(['λ = 500 (K = 6)', 'λ = 100 (K = 12)', 'λ = 10 (K = 30)']);
+    expect(series[5].points.map((p) => p.x)).toEqual([0.4, 0.7, 1.1]);
   });
 
   it('draws no λ series for a run without entropy-constrained codebooks', () => {
     const plain = { ...curve, points: curve.points.slice(0, 1) };
-    expect(curveSeries(plain, 'psnr').map((s) => s.id)).toEqual(['fixed', 'entropy', 'actual']);
+    expect(curveSeries(plain, 'psnr').map((s) => s.id)).toEqual(['fixed', 'entropy', 'actual', 'raw']);
   });
 });
 

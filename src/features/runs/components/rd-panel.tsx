@@ -23,8 +23,8 @@ const codecLabels: Record<BaselineCodecName, string> = { jpeg: 'JPEG', webp: 'We
 
 /** An entropy-constrained run's λ sweep: its own curve, on the entropy rate and on the Huffman-coded files' rate. */
 const lambdaDefinitions = [
-  { key: 'bppEntropy', id: 'ecvq-entropy', label: 'Entropy-constrained · entropy rate', style: 4 },
-  { key: 'bppActual', id: 'ecvq-actual', label: 'Entropy-constrained · actual (Huffman-coded)', style: 5 },
+  { key: 'bppEntropy', id: 'ecvq-entropy', label: 'Entropy-constrained · entropy rate', style: 5 },
+  { key: 'bppActual', id: 'ecvq-actual', label: 'Entropy-constrained · actual (Huffman-coded)', style: 6 },
 ] as const;
 
 /**

@@ -49,6 +49,7 @@ import { createTaskPool, type TaskPool } from './jobs/pool';
 import type { JobStore } from './jobs/queue';
 import type { JobDeps } from './jobs/types';
 import { createJobRunner, type JobRunner } from './jobs/runner';
+import { channelQuery } from './contracts';
 import { threadBudget } from './engine';
 import type { AppDeps } from './app';
 
@@ -165,7 +166,10 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const codebookChannel = createCodebookChannelService({ db, store: contentStore, codebooks, runTask: channelTaskRunner(reconstructionPool), ...config.reconstructions });
   const comparison = createComparisonService({ db });
   const releases = createReleasesService({ db, now });
-  const releaseReport = createReleaseReportService({ db, store: contentStore, releases, ...config.reconstructions });
+  const releaseReport = createReleaseReportService({
+    db, store: contentStore, releases, ...config.reconstructions,
+    channelCurve: (teamId, codebookId, signal) => codebookChannel.curve(teamId, codebookId, channelQuery.parse({}), signal),
+  });
   const activity = createActivityService({ db });
   // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.
   const workerRegistry = createWorkerRegistry({ redisUrl: config.redis.url, prefix: computeKeyPrefix, currentToken: () => workerToken(config, { create: true }) });

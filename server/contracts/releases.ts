@@ -4,6 +4,7 @@ import { bdValues } from './bd';
 import { codebookSummary } from './codebooks';
 import { baselineCodec, baselineCurves, curvePoint, imageMetrics } from './evaluation';
 import { pathId } from './common';
+import { channelResponse } from './codebook-channel';
 
 export const releaseStates = ['proposed', 'returned', 'approved'] as const;
 export const releaseState = z.enum(releaseStates);
@@ -144,5 +145,10 @@ export const releaseReportResponse = z.object({
     codewords: z.string(),
     firmwareFiles: z.array(z.object({ name: z.string(), bytes: z.number().int(), sha256: z.string() })),
   }),
+  /**
+   * Channel robustness: PSNR against bit-error rate of the raw payload over a binary symmetric channel on the held-out
+   * images (GET …/codebooks/:codebookId/channel at its defaults), or null with the reason it was not measured.
+   */
+  channel: z.object({ curve: channelResponse.nullable(), note: z.string().nullable() }),
 });
 export type ReleaseReport = z.infer<typeof releaseReportResponse>;

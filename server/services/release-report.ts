@@ -1,10 +1,10 @@
 import { createHash } from 'node:crypto';
-import type { CurvePoint, ReleaseReport } from '../contracts';
+import type { ChannelResponse, CurvePoint, ReleaseReport } from '../contracts';
 import type { CodebookWithCodewords, Database } from '../db';
 import type { EvaluationRecord } from '../db/repositories/evaluations';
 import { encode, firmwareBundle, fixedPointCost, loadImage, psnrForJson, tileErrors, type Codebook, type PixelImage } from '../engine';
 import { DEFAULT_BD_METHOD, type StructureKind } from '../engine/vocabulary';
-import { conflict, notFound } from '../errors';
+import { AppError, conflict, notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
 import { createComputeSlots } from './compute-slots';
 import { codebookSummaryOf, engineCodebookOf } from './codebooks';
@@ -22,7 +22,7 @@ const REPORT_MEMO_ENTRIES = 16;
 
 const ELEMENT_BYTES = { uint8: 1, int8: 1, int16: 2 } as const;
 
-type Computed = Pick<ReleaseReport, 'worstTiles' | 'decoderCost' | 'checksums'>;
+type Computed = Pick<ReleaseReport, 'worstTiles' | 'decoderCost' | 'checksums' | 'channel'>;
 
 const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
 
@@ -53,6 +53,8 @@ export function createReleaseReportService(deps: {
   db: Database;
   store: { path(sha256: string): string };
   releases: ReleasesService;
+  /** The channel curve of a codebook at the studio's defaults (codebook-channel.ts), for the report's robustness section. */
+  channelCurve: (teamId: number, codebookId: number, signal: AbortSignal) => Promise<ChannelResponse>;
   /** Measurements at once and waiting (the reconstruction views' bounds: both decode and code held-out images). */
   maxConcurrent: number;
   maxQueued: number;
@@ -61,7 +63,20 @@ export function createReleaseReportService(deps: {
   const memo = new Map<number, Promise<Computed>>();
   const slots = createComputeSlots({ maxRunning: deps.maxConcurrent, maxQueued: deps.maxQueued, what: 'release reports' });
 
-  async function measure(book: Codebook, images: { id: number; sha256: string; fileName: string; width: number; height: number }[]): Promise<Computed> {
+  /** Only a full-search codebook trained here has a raw fixed-rate payload and its own held-out images to send. */
+  async function channelOf(teamId: number, codebook: CodebookWithCodewords): Promise<Computed['channel']> {
+    if (codebook.structure !== 'full') return { curve: null, note: `Not measured: the channel model covers fixed-rate full-search payloads; this codebook is ${codebook.structure}.` };
+    if (codebook.runId === null) return { curve: null, note: 'Not measured here: an imported codebook has no held-out images of its own (measure it on the codebook page with a set).' };
+    try {
+      return { curve: await deps.channelCurve(teamId, codebook.id, new AbortController().signal), note: null };
+    } catch (error) {
+      // A bound of the channel computation (too many pixel decodes): the report says so instead of failing.
+      if (error instanceof AppError && error.status === 400) return { curve: null, note: `Not measured: ${error.message}` };
+      throw error;
+    }
+  }
+
+  async function measure(book: Codebook, images: { id: number; sha256: string; fileName: string; width: number; height: number }[], channel: () => Promise<Computed['channel']>): Promise<Computed> {
     const color = book.patch!.color;
     const pixels: PixelImage[] = [];
     const tiles: ReleaseReport['worstTiles']['tiles'] = [];
@@ -77,6 +92,7 @@ export function createReleaseReportService(deps: {
     const bundle = firmwareBundle(book);
     const rounding = await fixedPointCost(book, bundle.table, pixels);
     return {
+      channel: await channel(),
       worstTiles: { tileSize: REPORT_TILE_SIZE, tiles: tiles.slice(0, REPORT_WORST_TILES), imagesMeasured: pixels.length },
       decoderCost: {
         tableType: bundle.table.type,
@@ -150,7 +166,7 @@ export function createReleaseReportService(deps: {
       const book = engineCodebookOf(codebook);
       const [curve, computed] = await Promise.all([
         curveOf(codebook, evaluation, [...imageRecords.values()]),
-        measured(releaseId, () => measure(book, rows.flatMap((r) => (imageRecords.has(r.imageId) ? [imageRecords.get(r.imageId)!] : [])))),
+        measured(releaseId, () => measure(book, rows.flatMap((r) => (imageRecords.has(r.imageId) ? [imageRecords.get(r.imageId)!] : [])), () => channelOf(teamId, codebook))),
       ]);
       const { trace: _trace, ...trainingConfig } = (codebook.metadata.training ?? {}) as Record<string, unknown>;
       return {

@@ -229,6 +229,14 @@ describe('release report', () => {
     expect(detail.dimension).toBe(16);
     expect(report.decoderCost).toMatchObject({ tableType: 'uint8', tableBytes: detail.size * 16 });
     expect(report.checksums.codewords).toBe(codebooks[0].checksum);
+    // Channel robustness: the codebook page's curve at its defaults, on the run's held-out images. The expected PSNR
+    // (closed form, Zeger & Gersho 1990) can only fall as the bit-error rate rises; the engine's own tests check it
+    // against the simulation.
+    const channel = (await request(t.app).get(url(`/codebooks/${codebooks[0].id}/channel`)).set(bearer(team.viewer))).body;
+    expect(report.channel.note).toBeNull();
+    expect(report.channel.curve).toEqual(channel);
+    const expected = (report.channel.curve.points as { expectedMse: number }[]).map((p) => p.expectedMse);
+    for (let i = 1; i < expected.length; i++) expect(expected[i]).toBeGreaterThanOrEqual(expected[i - 1]);
     expect(report.checksums.firmwareFiles.length).toBeGreaterThan(0);
     for (const f of report.checksums.firmwareFiles) expect(f.sha256).toMatch(/^[0-9a-f]{64}$/);
   });

@@ -75,7 +75,7 @@ describe('review and release', () => {
 
     await page.getByRole('link', { name: 'Release report' }).click();
     await page.waitForURL(/\/report$/);
-    const sections = ['Configuration', 'Training data and held-out images', 'Rate and distortion against JPEG, WebP and AVIF', 'Per image', 'Worst tiles', 'Decoder cost', 'Checksums', 'Sign-off'];
+    const sections = ['Configuration', 'Training data and held-out images', 'Rate and distortion against JPEG, WebP and AVIF', 'Per image', 'Worst tiles', 'Decoder cost', 'Channel robustness', 'Checksums', 'Sign-off'];
     await expect.poll(() => page.locator('article.release-report h2').allTextContents(), { timeout: 60_000 }).toEqual(sections.map((s, i) => `${i + 1}. ${s}`));
     expect(await page.getByTestId('report-images').locator('tbody tr').count()).toBeGreaterThan(0);
     expect(await page.getByTestId('worst-tiles').locator('li').count()).toBeGreaterThan(0);

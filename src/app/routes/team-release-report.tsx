@@ -9,6 +9,7 @@ import { ErrorState, LoadingState } from '../../components/ui/states';
 import { reconstructionImageUrl } from '../../features/codebooks/api/get-reconstruction';
 import { releaseReportQueryOptions, useReleaseReport } from '../../features/releases/api/get-release-report';
 import {
+  ChannelSection,
   ChecksumsSection,
   ConfigurationSection,
   DecoderCostSection,
@@ -68,6 +69,7 @@ function sectionsOf(report: ReleaseReport, teamId: number): ReportSection[] {
     { id: 'images', title: 'Per image', content: <ImagesSection report={report} /> },
     { id: 'worst-tiles', title: 'Worst tiles', content: <WorstTilesSection report={report} viewUrl={(imageId, view) => reconstructionImageUrl(teamId, codebookId, imageId, view)} /> },
     { id: 'decoder-cost', title: 'Decoder cost', content: <DecoderCostSection report={report} /> },
+    { id: 'channel', title: 'Channel robustness', content: <ChannelSection report={report} /> },
     { id: 'checksums', title: 'Checksums', content: <ChecksumsSection report={report} /> },
     { id: 'sign-off', title: 'Sign-off', content: <SignOffSection report={report} /> },
   ];

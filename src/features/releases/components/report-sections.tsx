@@ -1,5 +1,6 @@
 import type { ReactNode } from 'react';
 import { EXACT, type ReleaseReport } from '../../../../server/contracts';
+import { ChannelChart } from '../../../components/charts/channel-chart';
 import { formatDateTime } from '../../../lib/format';
 import { ReviewThread } from './review-thread';
 
@@ -10,7 +11,7 @@ const mse = (v: number) => (v >= 100 ? v.toFixed(1) : v.toPrecision(3));
 
 /**
  * One section of the printable release report. The page renders its sections in order from a list, so a further
- * section (channel robustness, once the channel simulation lands) is one more entry built from one more report field.
+ * section is one more entry built from one more report field.
  */
 export type ReportSection = { id: string; title: string; content: ReactNode };
 
@@ -150,6 +151,39 @@ export function DecoderCostSection({ report }: { report: ReleaseReport }) {
         ['Rounding cost', `${d.rounding.costDb.toFixed(3)}${thin}dB (${d.rounding.differing} output values differ)`],
       ]}
     />
+  );
+}
+
+/** PSNR against bit-error rate of the raw payload (measured over seeds, and the closed form's expectation). */
+export function ChannelSection({ report }: { report: ReleaseReport }) {
+  const { curve, note } = report.channel;
+  if (!curve) return <p className="text-sm text-ink-700">{note}</p>;
+  return (
+    <div className="flex flex-col gap-3">
+      <ChannelChart title="PSNR against bit-error rate" points={curve.points.map((p) => ({ ber: p.ber, measured: p.psnr, expected: p.expectedPsnr }))} />
+      <table className="text-sm">
+        <thead>
+          <tr className="text-left text-ink-700">
+            <th className="pr-6 font-medium">Bit-error rate</th>
+            <th className="pr-6 font-medium">PSNR measured</th>
+            <th className="font-medium">PSNR expected</th>
+          </tr>
+        </thead>
+        <tbody>
+          {curve.points.map((p) => (
+            <tr key={p.ber}>
+              <td className="pr-6 tabular-nums">{p.ber.toExponential(0)}</td>
+              <td className="pr-6 tabular-nums">{db(p.psnr)}</td>
+              <td className="tabular-nums">{p.expectedMse === null ? '—' : db(p.expectedPsnr)}</td>
+            </tr>
+          ))}
+        </tbody>
+      </table>
+      <p className="text-sm text-ink-700">
+        {curve.images} held-out images; raw payload {bpp(curve.rawBpp)}, sent through a binary symmetric channel with the header taken as received
+        intact; {curve.seeds} seeds per rate.{curve.expectedNote ? ` ${curve.expectedNote}` : ''}
+      </p>
+    </div>
   );
 }
 

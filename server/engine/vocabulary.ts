@@ -48,8 +48,11 @@ export const RUN_STRUCTURE_LABELS: Record<RunStructure, string> = {
   tree: 'Tree-structured',
   residual: 'Residual (multistage)',
 };
-/** The structures this build trains; the others parse but are refused until their training is wired in. */
-export const TRAINABLE_STRUCTURES: readonly RunStructure[] = ['full'];
+/** The structures this build trains; any other would parse but be refused until its training is wired in. */
+export const TRAINABLE_STRUCTURES: readonly RunStructure[] = ['full', 'tree', 'residual'];
+/** How a tree grows (CLI --growth, the run form): balanced to depth b, or greedily, best split per bit first (Riskin & Gray 1991). */
+export const TREE_GROWTHS = ['balanced', 'greedy'] as const;
+export type TreeGrowthKind = (typeof TREE_GROWTHS)[number];
 export const runStructureSchema = z.enum(RUN_STRUCTURES, { error: `expected ${RUN_STRUCTURES.map((s) => `"${s}"`).join(', ')}` });
 
 /** How a codebook's table is searched and its indices coded (engine structures/types.ts holds each kind's shape). */

@@ -1,5 +1,5 @@
 import {
-  BITS, codedBits, entropyBits, M_BEST, MAX_SIZE, parseLambdaList, parseStages, RESIDUAL_MAX_REFINEMENT_PASSES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, STAGES,
+  BITS, codedBits, entropyBits, M_BEST, MAX_SIZE, parseLambdaList, parseStages, RESIDUAL_DEFAULT_STAGES, RESIDUAL_MAX_REFINEMENT_PASSES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, STAGES,
   TRAINABLE_STRUCTURES, trainCodebooks, trainEntropyConstrained, trainResidualCodebook, trainTreeCodebook, TREE_GROWTHS, TREE_MAX_DEPTH,
   type Codebook, type RunStructure, type TrainCodebooksOptions, type TreeGrowthKind,
 } from '../engine';
@@ -65,7 +65,7 @@ export function structurePlan(values: ParsedOptions, bits: number | undefined): 
   }
   let plan: StructurePlan;
   if (structure === 'residual') {
-    const text = stagesText ?? '2';
+    const text = stagesText ?? String(RESIDUAL_DEFAULT_STAGES);
     const parsed = parseStages(text, bits);
     if ('error' in parsed) throw new CliUsageError(parsed.error);
     const total = parsed.bits.reduce((a, b) => a + b, 0);

@@ -76,6 +76,8 @@ export const LAMBDA = { min: 0, max: 1e9 } as const;
 export const MAX_LAMBDAS = 16;
 /** Residual stages S (CLI --stages): at least one; 8 stages of 1..14 bits already reach far past any useful rate. */
 export const STAGES = { min: 1, max: 8 } as const;
+/** Residual stages when none are named (CLI --stages, the run form): two, sharing the b bits. */
+export const RESIDUAL_DEFAULT_STAGES = 2;
 
 /**
  * A λ list as a person writes it (CLI --lambda, the run form): comma-separated values ("50,200,800"), or A..B:N for
@@ -121,6 +123,8 @@ export function parseStages(text: string, totalBits: number | undefined): { bits
 }
 /** M of the residual M-best search (keep the M best partial sums per stage). */
 export const M_BEST = { min: 1, max: 64 } as const;
+/** Joint refinement passes of a residual codebook after its stage-by-stage design (CLI --refine, the run form). */
+export const REFINEMENT_PASSES = { min: 0, max: 20 } as const;
 
 // ---- colour ----
 export const COLOR_MODES = ['luma', 'rgb'] as const;

@@ -7,3 +7,5 @@ export {
   type BdMethod, type InitMethod, type RunStateName,
   M_BEST, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, STAGES, parseStages, type RunStructure,
 } from '../engine/vocabulary';
+// What each structure costs a device (pure arithmetic): the run form's live summary uses the engine's one formula.
+export { structureCost, type StructureCost, type StructurePlan as StructureCostPlan } from '../engine/structures/cost';

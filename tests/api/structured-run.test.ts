@@ -81,6 +81,18 @@ describe('a residual run', () => {
     expect(stages.sort((a, b) => a[0] - b[0])).toEqual([[2, 2], [3, 2]]);
   });
 
+  it('shows each codebook\'s stages and index bits Σ b_s on its page, not ceil(log2 K) of its table', async () => {
+    const list = await request(t.app).get(`/api/teams/${team.teamId}/codebooks`).set(bearer(team.viewer));
+    const details = [];
+    for (const summary of list.body.codebooks) {
+      const res = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${summary.id}`).set(bearer(team.viewer));
+      expect(res.status).toBe(200);
+      details.push([res.body.codebook.size, res.body.codebook.indexBits, res.body.codebook.stages]);
+    }
+    // 8 codewords (4 + 4) code 4 bits a block, 12 codewords (8 + 4) code 5: ceil(log2 12) = 4 would be wrong.
+    expect(details.sort((a, b) => Number(a[0]) - Number(b[0]))).toEqual([[8, 4, [2, 2]], [12, 5, [3, 2]]]);
+  });
+
   it('draws the curve at the fixed rate Σ b_s / (w·h) of each codebook', async () => {
     const curve = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/curve`).set(bearer(team.viewer));
     expect(curve.status).toBe(200);

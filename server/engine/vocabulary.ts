@@ -195,6 +195,14 @@ export const CONFIG_KEY_LABELS: Record<string, string> = {
   'patch.height': 'Patch height',
   'bits.from': 'Lowest b',
   'bits.to': 'Highest b',
+  structure: 'Structure',
+  stages: 'Residual stages',
+  mBest: 'M-best search M',
+  refinementPasses: 'Refinement passes',
+  'structure.kind': 'Structure',
+  'structure.stages': 'Residual stages',
+  'structure.mBest': 'M-best search M',
+  'structure.refinementPasses': 'Refinement passes',
 };
 
 // ---- what a person reads for a run's or job's state (badge, home page, run page, compare picker, CLI, e-mail) ----

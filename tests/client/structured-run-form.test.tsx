@@ -1,7 +1,8 @@
 import { cleanup, render, screen } from '@testing-library/react';
 import { afterEach, describe, expect, it } from 'vitest';
-import type { CreateRunBody } from '../../server/contracts';
+import type { CreateRunBody, RunDetail } from '../../server/contracts';
 import { StructureSummary, structureFigures } from '../../src/features/run-setup/components/structure-summary';
+import { structureText } from '../../src/features/runs/components/run-config';
 import { emptyRunForm, fromRunConfig, runFormSchema, toRunBody } from '../../src/features/run-setup/run-form-schema';
 
 afterEach(cleanup);
@@ -46,5 +47,19 @@ describe('the run form\'s structure', () => {
     expect(summary.textContent).toContain('8 bits per block, 0.5000 bpp (stages 4 + 4)');
     expect(summary.textContent).toContain('32 codewords');
     expect(summary.textContent).toContain('512 multiply-adds per block');
+  });
+});
+
+describe('the run page\'s structure row', () => {
+  const normalized: RunDetail['normalized'] = {
+    trainingImageIds: [1], heldOutImageIds: [2], patch: { width: 4, height: 4 }, color: 'luma', meanBits: 0, bits: { from: 6, to: 8 }, sizes: [64, 128, 256],
+    init: 'split', epsilon: 0.001, maxIterations: 20, maxVectors: 1000, seed: 1,
+  };
+  it('names the structure and the residual search the run trained with', () => {
+    expect(structureText({ ...normalized })).toBe('Full search');
+    expect(structureText({ ...normalized, structure: { kind: 'tree' } })).toBe('Tree-structured, balanced to depth b');
+    expect(structureText({ ...normalized, structure: { kind: 'residual', stages: 2, mBest: 8, refinementPasses: 1 } })).toBe(
+      'Residual (multistage): 2 stages sharing b, M-best search, M = 8, 1 refinement passes',
+    );
   });
 });

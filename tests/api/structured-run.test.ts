@@ -10,6 +10,7 @@ import { bearer, createTestApp, teamWithRoles, type Session, type TestApp } from
 let t: TestApp;
 let team: Awaited<ReturnType<typeof teamWithRoles>>;
 let runId: number;
+let treeRunId: number;
 
 async function uploadSet(session: Session, name: string): Promise<number> {
   const created = await request(t.app).post(`/api/teams/${session.teamId}/image-sets`).set(bearer(session)).send({ name });
@@ -47,7 +48,13 @@ beforeAll(async () => {
   });
   expect(created.status, JSON.stringify(created.body)).toBe(201);
   runId = created.body.run.id;
+  const tree = await request(t.app).post(`/api/teams/${team.teamId}/runs`).set(bearer(team.engineer)).send({
+    name: 'tsvq', trainingSetId: setId, heldOutSetId: setId, patch: { width: 2, height: 2 }, bits: 3, maxIterations: 10, seed: 4, structure: 'tree',
+  });
+  expect(tree.status, JSON.stringify(tree.body)).toBe(201);
+  treeRunId = tree.body.run.id;
   await untilEvaluated(runId);
+  await untilEvaluated(treeRunId);
 }, 240_000);
 
 afterAll(async () => {
@@ -81,7 +88,7 @@ describe('a residual run', () => {
     expect(stages.sort((a, b) => a[0] - b[0])).toEqual([[2, 2], [3, 2]]);
   });
 
-  it('shows each codebook\'s stages and index bits Σ b_s on its page, not ceil(log2 K) of its table', async () => {
+  it('shows each codebook\'s stages and index bits (Σ b_s, a tree\'s depth) on its page, not ceil(log2 K) of its table', async () => {
     const list = await request(t.app).get(`/api/teams/${team.teamId}/codebooks`).set(bearer(team.viewer));
     const details = [];
     for (const summary of list.body.codebooks) {
@@ -89,8 +96,9 @@ describe('a residual run', () => {
       expect(res.status).toBe(200);
       details.push([res.body.codebook.size, res.body.codebook.indexBits, res.body.codebook.stages]);
     }
-    // 8 codewords (4 + 4) code 4 bits a block, 12 codewords (8 + 4) code 5: ceil(log2 12) = 4 would be wrong.
-    expect(details.sort((a, b) => Number(a[0]) - Number(b[0]))).toEqual([[8, 4, [2, 2]], [12, 5, [3, 2]]]);
+    // 8 codewords (4 + 4) code 4 bits a block, 12 codewords (8 + 4) code 5: ceil(log2 12) = 4 would be wrong; the tree
+    // run's 15 nodes code 3 path bits, not ceil(log2 15) = 4.
+    expect(details.sort((a, b) => Number(a[0]) - Number(b[0]))).toEqual([[8, 4, [2, 2]], [12, 5, [3, 2]], [15, 3, null]]);
   });
 
   it('draws the curve at the fixed rate Σ b_s / (w·h) of each codebook', async () => {
@@ -99,6 +107,15 @@ describe('a residual run', () => {
     const points = curve.body.points as { structure: string; bppFixed: number }[];
     // Hand-computed: 4 and 5 bits per 2×2 block.
     expect(points.map((p) => [p.structure, p.bppFixed]).sort((a, b) => Number(a[1]) - Number(b[1]))).toEqual([['residual', 1], ['residual', 1.25]]);
+  });
+
+  it('trains a tree run into a balanced tree of depth b, drawn at b/(w·h) bpp', async () => {
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${treeRunId}`).set(bearer(team.viewer));
+    // Depth 3: 2^4 − 1 = 15 nodes in the table.
+    expect(res.body.run.codebooks.map((b: { structure: string; size: number }) => [b.structure, b.size])).toEqual([['tree', 15]]);
+    const curve = await request(t.app).get(`/api/teams/${team.teamId}/runs/${treeRunId}/curve`).set(bearer(team.viewer));
+    // Hand-computed: 3 path bits per 2×2 block.
+    expect(curve.body.points.map((p: { bppFixed: number }) => p.bppFixed)).toEqual([3 / 4]);
   });
 
   it.each([

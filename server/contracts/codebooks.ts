@@ -47,6 +47,10 @@ export const codebookDetail = codebookSummary.extend({
   /** size × dimension; components ((row·width)+column)·channels+channel. */
   codewords: z.array(z.array(z.number())),
   training: z.record(z.string(), z.unknown()),
+  /** Index bits per block at fixed rate: ceil(log2 K), a tree's longest path, or Σ b_s of residual stages. */
+  indexBits: z.number().int(),
+  /** Residual stages' bits, stage 0 first; null for other structures. */
+  stages: z.array(z.number().int()).nullable(),
 });
 export type CodebookDetail = z.infer<typeof codebookDetail>;
 

@@ -1,5 +1,7 @@
 import { z } from 'zod';
-import { BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, SEED, STRIDE, STRUCTURE_KINDS, VECTOR_CAP } from '../engine/vocabulary';
+import {
+  BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, M_BEST, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, runStructureSchema, SEED, STAGES, STRIDE, STRUCTURE_KINDS, VECTOR_CAP,
+} from '../engine/vocabulary';
 import { idParam, pathId } from './common';
 import { job, jobState } from './jobs';
 
@@ -46,6 +48,15 @@ export const createRunBody = z
      * the run's largest full-search codebook (2^bits.to), beside the full-search codebooks.
      */
     lambdas: z.array(z.number().min(LAMBDA.min).max(LAMBDA.max)).min(1).max(MAX_LAMBDAS).optional(),
+    /**
+     * What the run trains per b (default full): full search, a tree balanced to depth b (b ≤ BITS.max − 1: its table
+     * holds every node), or residual stages sharing b bits (`stages` of them, earlier stages taking the extra bit),
+     * searched greedily or keeping `mBest` candidates, with `refinementPasses` joint passes.
+     */
+    structure: runStructureSchema.optional(),
+    stages: int(STAGES.min, STAGES.max).optional(),
+    mBest: int(M_BEST.min, M_BEST.max).optional(),
+    refinementPasses: int(REFINEMENT_PASSES.min, REFINEMENT_PASSES.max).optional(),
   })
   .strict()
   .superRefine((b, ctx) => {
@@ -56,6 +67,18 @@ export const createRunBody = z
     };
     one(b.trainingImageIds, b.trainingSetId, ['trainingImageIds', 'trainingSetId']);
     one(b.heldOutImageIds, b.heldOutSetId, ['heldOutImageIds', 'heldOutSetId']);
+    const structure = b.structure ?? 'full';
+    const [from, to] = typeof b.bits === 'number' ? [b.bits, b.bits] : [b.bits.from, b.bits.to];
+    if (b.lambdas && structure !== 'full') ctx.addIssue({ code: 'custom', path: ['lambdas'], message: `λ values train entropy-constrained full-search codebooks; they do not combine with structure "${structure}"` });
+    for (const name of ['stages', 'mBest', 'refinementPasses'] as const) {
+      if (b[name] !== undefined && structure !== 'residual') ctx.addIssue({ code: 'custom', path: [name], message: `${name} needs structure "residual"` });
+    }
+    if (structure === 'residual' && from < (b.stages ?? RESIDUAL_DEFAULT_STAGES)) {
+      ctx.addIssue({ code: 'custom', path: ['bits'], message: `${b.stages ?? RESIDUAL_DEFAULT_STAGES} residual stages need b ≥ ${b.stages ?? RESIDUAL_DEFAULT_STAGES} (one bit a stage at least)` });
+    }
+    if (structure === 'tree' && to > BITS.max - 1) {
+      ctx.addIssue({ code: 'custom', path: ['bits'], message: `a balanced tree of depth ${to} has ${2 ** (to + 1) - 1} nodes; its table holds ${2 ** BITS.max}: b at most ${BITS.max - 1}` });
+    }
   });
 export type CreateRunBody = z.infer<typeof createRunBody>;
 
@@ -78,6 +101,13 @@ export const normalizedRunConfig = z.object({
   seed: z.number().int(),
   /** λ values of the run's entropy-constrained codebooks, distinct, in the order given; absent: full search only. */
   lambdas: z.array(z.number()).optional(),
+  /** Absent: full search. A tree per b (balanced to depth b), or residual stages sharing each b. */
+  structure: z
+    .discriminatedUnion('kind', [
+      z.object({ kind: z.literal('tree') }),
+      z.object({ kind: z.literal('residual'), stages: z.number().int(), mBest: z.number().int().nullable(), refinementPasses: z.number().int() }),
+    ])
+    .optional(),
 });
 export type NormalizedRunConfig = z.infer<typeof normalizedRunConfig>;
 

@@ -5,4 +5,7 @@ export {
   BD_METHOD_LABELS, BD_METHODS, BD_MIN_OVERLAP_FRACTION, BITS, bdMethodSchema, COLOR_MODES, DEFAULT_BD_METHOD, CONFIG_KEY_LABELS, EPSILON, EXACT, INIT, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS,
   RUN_STATE_LABELS, RUN_STATES, SEED, SETTING_LABELS, STRIDE, VECTOR_CAP, initMethodSchema, patchPositions, positionsAlong, trainsEverySize, type ColorMode,
   type BdMethod, type InitMethod, type RunStateName,
+  M_BEST, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, STAGES, parseStages, type RunStructure,
 } from '../engine/vocabulary';
+// What each structure costs a device (pure arithmetic): the run form's live summary uses the engine's one formula.
+export { structureCost, type StructureCost, type StructurePlan as StructureCostPlan } from '../engine/structures/cost';

@@ -6,7 +6,7 @@
 import { readFile } from 'node:fs/promises';
 import { z } from 'zod';
 import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './training';
-import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
+import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
 import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 import { MAX_RESYNC_ROWS, PAYLOAD_CHOICES, readContainer, writeContainer, type ContainerOptions } from './format/container';
 import {
@@ -24,6 +24,10 @@ import { evaluateImages, evaluateVectors, type ImageSetEvaluation, type VectorSe
 import { COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, SEED, type InitMethod } from './vocabulary';
 import { trainEcvq } from './training/ecvq';
 import { MAX_CODE_LENGTH } from './core/huffman';
+import { maxTraceLength } from './format/limits';
+import { indexBits as tableIndexBits } from './format/rate-bits';
+import { encodeResidual, trainResidual, type ResidualSearch } from './structures/residual';
+import { trainTree, type TreeGrowth } from './structures/tree';
 import { encodePng } from './io/png';
 import { codebookMixture as mixtureOf, mixtureWithVariances, scoreVectors as scoreMixture, type PatchMixture, type VarianceSource, type VectorScores } from './model/mixture';
 import { anomalyMapPixels, calibrateAnomaly, modelFromScores, scoreImage, type AnomalyCalibration, type AnomalyModel, type AnomalyScore, type ImageAnomalies } from './model/anomaly';
@@ -69,6 +73,7 @@ export {
 } from './format/container';
 export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
 export { rawContainerBytes } from './format/raw-size';
+export { fixedRateBits } from './format/index-coding';
 export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
 export {
@@ -332,6 +337,122 @@ export async function trainEntropyConstrained(vectors: Float32Array, dimension: 
   }
   onLambda?.(lambdas.length, lambdas.length, lambdas.at(-1)!);
   return out;
+}
+
+// ---- tree-structured and residual training ----
+
+export interface TrainStructuredCodebookOptions extends Omit<TrainCodebooksOptions, 'bits' | 'size' | 'onIteration' | 'onProgress'> {
+  /** Called after every split (tree) or every stage and refinement step (residual) with the training MSE so far. */
+  onStep?: (p: { step: number; distortion: number }) => void;
+}
+
+/** What trainTreeCodebook returns: the codebook and its two training distortions (tree search, full search over the leaves). */
+export interface TrainedTree {
+  codebook: Codebook;
+  /** Mean path length on the training vectors, bits per block. */
+  rate: number;
+  treeDistortion: number;
+  fullSearchDistortion: number;
+}
+
+/** The trace a structured codebook records: one entry per step, the last ones kept when the format's cap is reached. */
+function structuredTrace(steps: readonly { size: number; distortion: number }[], tableSize: number, maxIterations: number): IterationStat[] {
+  const cap = maxTraceLength(tableIndexBits(tableSize), maxIterations);
+  return steps.slice(-cap).map((t) => ({ size: Math.max(1, Math.min(t.size, MAX_SIZE)), iteration: 0, distortion: t.distortion, emptyRepaired: 0, elapsedMs: 0 }));
+}
+
+function structuredPatch(options: TrainStructuredCodebookOptions, dimension: number): void {
+  if (options.patch && vectorDimension(options.patch, options.patch.channels) !== dimension) {
+    throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', `vectors have ${dimension} components, a ${options.patch.width}×${options.patch.height} ${options.patch.color} patch has ${vectorDimension(options.patch, options.patch.channels)}`);
+  }
+}
+
+/**
+ * A tree-structured codebook (structures/tree.ts): balanced to depth b, or greedy-grown and optionally pruned. The table
+ * holds every node (the encoder descends through them), usage counts the training vectors reaching each node, and the
+ * trace is the growth (one entry per level or split: leaves and tree-search MSE).
+ * @param vectors N × dimension, row-major (already mean-removed when `preprocessing` says so)
+ */
+export async function trainTreeCodebook(
+  vectors: Float32Array, dimension: number, options: TrainStructuredCodebookOptions & { growth: TreeGrowth; prune?: { rate: number } },
+): Promise<TrainedTree> {
+  structuredPatch(options, dimension);
+  const most = options.growth.kind === 'balanced' ? 2 ** (options.growth.depth + 1) - 1 : 2 * (options.growth.leaves ?? MAX_SIZE) - 1;
+  if (options.growth.kind === 'balanced' && most > MAX_SIZE) {
+    throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `a balanced tree of depth ${options.growth.depth} has ${most} nodes; a codebook table holds at most ${MAX_SIZE} (depth ≤ ${MAX_BITS - 1})`);
+  }
+  const seed = options.seed ?? DEFAULT_SEED;
+  const epsilon = options.epsilon ?? DEFAULT_EPSILON;
+  const maxIterations = options.maxIterations ?? DEFAULT_MAX_ITERATIONS;
+  let step = 0;
+  const r = await trainTree(vectors, dimension, {
+    growth: options.growth, prune: options.prune, seed, epsilon, maxIterations, signal: options.signal,
+    onProgress: (p) => options.onStep?.({ step: ++step, distortion: p.distortion }),
+  });
+  const size = r.codewords.length / dimension;
+  if (size > MAX_SIZE) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `the grown tree has ${size} nodes; a codebook table holds at most ${MAX_SIZE}`);
+  const steps = [...r.growth, ...(r.pruning ?? []).slice(1)].map((g) => ({ size: g.leaves, distortion: g.distortion }));
+  const training: TrainingInfo = {
+    source: options.source, vectorCount: vectors.length / dimension, init: options.init, epsilon, seed,
+    // The sum over every node's 2-means, capped at what the format records.
+    iterations: Math.min(r.iterations, MAX_ITERATIONS),
+    distortion: r.treeDistortion,
+    trace: structuredTrace(steps, size, maxIterations),
+    maxIterations,
+    ...(options.stride !== undefined ? { stride: options.stride } : {}),
+    ...(options.sample !== undefined ? { sample: options.sample } : {}),
+  };
+  const codebook = makeCodebook({
+    size, dimension, patch: options.patch, preprocessing: options.preprocessing, codewords: r.codewords, usage: r.usage, training, structure: r.structure,
+  });
+  return { codebook, rate: r.rate, treeDistortion: r.treeDistortion, fullSearchDistortion: r.fullSearchDistortion };
+}
+
+/**
+ * A residual (multistage) codebook (structures/residual.ts): stages of 2^{b_s} codewords trained in turn on the earlier
+ * stages' residuals, optional joint refinement passes, searched greedily or by M-best. Usage counts, per table entry,
+ * the training vectors whose code names it under the codebook's search; the trace has one entry per stage (table
+ * codewords so far, greedy MSE) and per refinement step (whole table, MSE under the search).
+ * @param vectors N × dimension, row-major (already mean-removed when `preprocessing` says so)
+ */
+export async function trainResidualCodebook(
+  vectors: Float32Array, dimension: number, options: TrainStructuredCodebookOptions & { stageBits: number[]; search?: ResidualSearch; refinementPasses?: number },
+): Promise<{ codebook: Codebook; greedyDistortion: number; distortion: number }> {
+  structuredPatch(options, dimension);
+  const seed = options.seed ?? DEFAULT_SEED;
+  const epsilon = options.epsilon ?? DEFAULT_EPSILON;
+  const maxIterations = options.maxIterations ?? DEFAULT_MAX_ITERATIONS;
+  let step = 0;
+  const r = await trainResidual(vectors, dimension, {
+    bits: options.stageBits, init: options.init, search: options.search, refinementPasses: options.refinementPasses, seed, epsilon, maxIterations,
+    threads: options.threads, signal: options.signal, onProgress: (p) => options.onStep?.({ step: ++step, distortion: p.distortion }),
+  });
+  const size = r.tableCodewords;
+  const codes = encodeResidual(r.codewords, r.structure, vectors, dimension);
+  const usage = new Uint32Array(size);
+  let offset = 0;
+  codes.indices.forEach((stage, s) => {
+    for (const j of stage) usage[offset + j] += 1;
+    offset += 2 ** options.stageBits[s];
+  });
+  let tableSoFar = 0;
+  const steps = [
+    ...r.stages.map((st) => ({ size: (tableSoFar += 2 ** st.bits), distortion: st.distortion })),
+    ...r.refinement.map((st) => ({ size, distortion: st.kept ? st.after : st.before })),
+  ];
+  const training: TrainingInfo = {
+    source: options.source, vectorCount: vectors.length / dimension, init: options.init, epsilon, seed,
+    iterations: Math.min(r.stages.reduce((a, st) => a + st.iterations, 0), MAX_ITERATIONS),
+    distortion: r.distortion,
+    trace: structuredTrace(steps, size, maxIterations),
+    maxIterations,
+    ...(options.stride !== undefined ? { stride: options.stride } : {}),
+    ...(options.sample !== undefined ? { sample: options.sample } : {}),
+  };
+  const codebook = makeCodebook({
+    size, dimension, patch: options.patch, preprocessing: options.preprocessing, codewords: r.codewords, usage, training, structure: r.structure,
+  });
+  return { codebook, greedyDistortion: r.greedyDistortion, distortion: r.distortion };
 }
 
 // ---- coding ----

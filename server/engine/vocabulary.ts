@@ -48,8 +48,11 @@ export const RUN_STRUCTURE_LABELS: Record<RunStructure, string> = {
   tree: 'Tree-structured',
   residual: 'Residual (multistage)',
 };
-/** The structures this build trains; the others parse but are refused until their training is wired in. */
-export const TRAINABLE_STRUCTURES: readonly RunStructure[] = ['full'];
+/** The structures this build trains; any other would parse but be refused until its training is wired in. */
+export const TRAINABLE_STRUCTURES: readonly RunStructure[] = ['full', 'tree', 'residual'];
+/** How a tree grows (CLI --growth, the run form): balanced to depth b, or greedily, best split per bit first (Riskin & Gray 1991). */
+export const TREE_GROWTHS = ['balanced', 'greedy'] as const;
+export type TreeGrowthKind = (typeof TREE_GROWTHS)[number];
 export const runStructureSchema = z.enum(RUN_STRUCTURES, { error: `expected ${RUN_STRUCTURES.map((s) => `"${s}"`).join(', ')}` });
 
 /** How a codebook's table is searched and its indices coded (engine structures/types.ts holds each kind's shape). */
@@ -73,6 +76,8 @@ export const LAMBDA = { min: 0, max: 1e9 } as const;
 export const MAX_LAMBDAS = 16;
 /** Residual stages S (CLI --stages): at least one; 8 stages of 1..14 bits already reach far past any useful rate. */
 export const STAGES = { min: 1, max: 8 } as const;
+/** Residual stages when none are named (CLI --stages, the run form): two, sharing the b bits. */
+export const RESIDUAL_DEFAULT_STAGES = 2;
 
 /**
  * A λ list as a person writes it (CLI --lambda, the run form): comma-separated values ("50,200,800"), or A..B:N for
@@ -118,6 +123,8 @@ export function parseStages(text: string, totalBits: number | undefined): { bits
 }
 /** M of the residual M-best search (keep the M best partial sums per stage). */
 export const M_BEST = { min: 1, max: 64 } as const;
+/** Joint refinement passes of a residual codebook after its stage-by-stage design (CLI --refine, the run form). */
+export const REFINEMENT_PASSES = { min: 0, max: 20 } as const;
 
 // ---- colour ----
 export const COLOR_MODES = ['luma', 'rgb'] as const;
@@ -202,6 +209,14 @@ export const CONFIG_KEY_LABELS: Record<string, string> = {
   'patch.height': 'Patch height',
   'bits.from': 'Lowest b',
   'bits.to': 'Highest b',
+  structure: 'Structure',
+  stages: 'Residual stages',
+  mBest: 'M-best search M',
+  refinementPasses: 'Refinement passes',
+  'structure.kind': 'Structure',
+  'structure.stages': 'Residual stages',
+  'structure.mBest': 'M-best search M',
+  'structure.refinementPasses': 'Refinement passes',
 };
 
 // ---- what a person reads for a run's or job's state (badge, home page, run page, compare picker, CLI, e-mail) ----

@@ -1,6 +1,8 @@
 import type { CodebookDetail, CodebookSummary, ExportTarget } from '../contracts';
 import type { CodebookSummaryRecord, CodebookWithCodewords, Database } from '../db';
-import { codewordChecksum, EngineInputError, parseCodebook, serializeCodebook, toCodebookDocument, writeNpy, type Codebook } from '../engine';
+import {
+  codewordChecksum, EngineInputError, fixedRateBits, parseCodebook, serializeCodebook, structureFromInfo, toCodebookDocument, writeNpy, type Codebook, type StructureInfo,
+} from '../engine';
 import { notFound, validationFailed } from '../errors';
 import { recordAudit } from './audit';
 
@@ -109,7 +111,14 @@ export function createCodebooksService(deps: { db: Database }) {
       // Shortest decimals that read back to the same float32, exactly as the export writes them.
       codewords: codewordRows.get(c),
       training,
+      ...structureFigures(c),
     };
+  }
+
+  /** The stored document's structure (absent in revision 1: full search) as the page's index bits and stages. */
+  function structureFigures(c: CodebookWithCodewords): Pick<CodebookDetail, 'indexBits' | 'stages'> {
+    const structure = structureFromInfo(c.metadata.structure as StructureInfo | undefined);
+    return { indexBits: fixedRateBits({ size: c.size, structure }), stages: structure.kind === 'residual' ? [...structure.bits] : null };
   }
 
   return {

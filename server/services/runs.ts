@@ -1,4 +1,5 @@
 import {
+  RESIDUAL_DEFAULT_STAGES,
   RUN_DEFAULTS as DEFAULTS,
   terminalJobStates,
   type CreateRunBody,
@@ -117,6 +118,10 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
       maxVectors: body.maxVectors ?? DEFAULTS.maxVectors,
       seed: body.seed ?? DEFAULTS.seed,
       ...(body.lambdas ? { lambdas: [...new Set(body.lambdas)] } : {}),
+      ...(body.structure === 'tree' ? { structure: { kind: 'tree' as const } } : {}),
+      ...(body.structure === 'residual'
+        ? { structure: { kind: 'residual' as const, stages: body.stages ?? RESIDUAL_DEFAULT_STAGES, mBest: body.mBest ?? null, refinementPasses: body.refinementPasses ?? 0 } }
+        : {}),
     };
     const memory = runTrainingMemory(cfg, training, deps.training);
     const usable = memory.vectors;

@@ -20,6 +20,8 @@ Measures rate and distortion of a codebook on held-out data.
            for an entropy-constrained codebook, its Huffman code's length on the images, plus the file's header).
   vectors: MSE per component of the unrounded reconstruction and the fixed and entropy rates (per pixel of the codebook's
            patch; per component when it has none).
+  tree codebooks: --json adds treeSearch { treeMse, fullSearchMse }, MSE per component of the blocks (less their means)
+           under the tree's descent and under a full search over the same leaves: what tree search costs.
   --csv FILE.csv   also write the per-image figures, one row per image, with the columns of the studio's per-image
                    download: ${IMAGE_CSV_COLUMNS.join(', ')} (RFC 4180: comma-separated, CRLF line ends)
 An exact reconstruction (MSE 0) has PSNR ${EXACT.text}: null in --json, ${EXACT.csv} in the CSV.
@@ -55,6 +57,7 @@ export function imageReportJson(book: Codebook, report: ImageSetEvaluation) {
     perImage: report.images.map((r) => ({ name: r.name, width: r.width, height: r.height, ...measuredFigures(r) })),
     usage: Array.from(report.usage),
     cellDistortion: Array.from(report.cellDistortion),
+    ...(report.treeSearch ? { treeSearch: report.treeSearch } : {}),
   };
 }
 
@@ -75,6 +78,7 @@ export function vectorReportJson(book: Codebook, report: VectorSetEvaluation) {
     meanEntropy: report.meanEntropy,
     usage: Array.from(report.usage),
     cellDistortion: Array.from(report.cellDistortion),
+    ...(report.treeSearch ? { treeSearch: report.treeSearch } : {}),
   };
 }
 

@@ -1,5 +1,5 @@
 import {
-  availableBaselineCodecs, BD_METHOD_LABELS, BD_METHODS, BD_MIN_OVERLAP_FRACTION, baselines, bdAgainstCodecs, CURVE_CSV_COLUMNS, curveCsv, DEFAULT_BD_METHOD,
+  availableBaselineCodecs, BD_METHOD_LABELS, BD_METHODS, BD_MIN_OVERLAP_FRACTION, baselines, bdAgainstCodecs, CURVE_CSV_COLUMNS, curveCsv, DEFAULT_BD_METHOD, fixedRateBits,
   DEFAULT_QUALITIES, evaluate, EXACT, MAX_BITS, trainCodebooks, trainsEverySize,
   type BaselineCodec, type BdTableRow, type Codebook, type CurveCsvPoint, type PatchInfo,
 } from '../../engine';
@@ -13,7 +13,7 @@ import { progressBar } from '../progress';
 import { fmt, jsonLine, table } from '../text-output';
 import { bdNote, signedFigure } from './bd';
 import { aliased, imageOptionSpec, imageSettings, trainingOptionSpec, trainingSettings } from './train';
-import { structureOptionSpec, structurePlan, trainStructured } from '../structure-training';
+import { bitsRange, STRUCTURE_HELP, structureOptionSpec, structurePlan, trainingTableSize, trainStructured } from '../structure-training';
 
 export const SWEEP_HELP = `Usage: cellwright sweep --images TRAIN_DIR --held-out DIR --patch WxH --bits A..B --out CURVE.csv [options]
 
@@ -27,6 +27,8 @@ and writes the rate–distortion curve as CSV.
   --lambda LIST         entropy-constrained codebooks instead, one per λ, from the 2^B-codeword codebook (give --bits B,
                         one size); as for "cellwright train"
   --stride S            step between training patches in pixels (default: the patch size, non-overlapping)
+  --structure tree|residual and its options below: one tree or residual codebook per b from A to B (residual: --stages
+                        S shares each b; a stage list is one b, their sum)
   --color, --mean-bits, --vector-cap, --init, --epsilon, --max-iterations, --seed, --threads
                         as for "cellwright train"
   --out-dir DIR         also keep every codebook the sweep trains in DIR (an existing folder), one codebook JSON file
@@ -37,7 +39,7 @@ With --baseline the sweep also gives BD-rate (mean rate change at equal PSNR, pe
 BD-PSNR (mean PSNR change at equal rate, dB) of the codebooks on their actual rate against each codec, exactly as
 "cellwright bd" gives them for the curve file: averaged only over the interval both curves share, flagged "short
 overlap" under ${Math.round(BD_MIN_OVERLAP_FRACTION * 100)} % of the shorter curve's range.
-CSV columns, those of the studio's curve download (RFC 4180: comma-separated, CRLF line ends):
+${STRUCTURE_HELP}CSV columns, those of the studio's curve download (RFC 4180: comma-separated, CRLF line ends):
   ${CURVE_CSV_COLUMNS.join(', ')}
 Empty where a column does not apply (codebook is the studio's codebook id, so empty here); psnr_db is ${EXACT.csv} for an
 exact reconstruction.
@@ -76,9 +78,12 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   const trainDir = requiredString(values, 'images', 'sweep');
   const heldoutDir = requiredString(values, aliased(values, 'held-out', 'heldout'), 'sweep');
   const out = requiredString(values, 'out', 'sweep');
-  const range = rangeOption(values, 'bits', { min: 0, max: MAX_BITS });
+  const range = rangeOption(values, 'bits', values.structure === 'residual' ? bitsRange(values) : { min: 0, max: MAX_BITS });
   if (!range) throw new CliUsageError('"cellwright sweep" needs --bits A..B');
   const plan = structurePlan(values, range[1]);
+  if (plan.structure === 'residual' && plan.stagesText.includes(',') && range[0] !== range[1]) {
+    throw new CliUsageError('a residual stage list is one rate: give --bits B (their sum), or --stages S to share each b of a range');
+  }
   if (plan.structure === 'full' && plan.lambdas !== null && range[0] !== range[1]) {
     throw new CliUsageError('--lambda draws its curve from one starting size: give --bits B, not a range');
   }
@@ -100,7 +105,7 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
     ctx,
     trainDir,
     'training folder',
-    { patch: img.patch, color: img.color, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing, codebookSize: 2 ** hi, threads: settings.threads },
+    { patch: img.patch, color: img.color, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing, codebookSize: trainingTableSize(plan, hi), threads: settings.threads },
     loading,
   );
   const heldout = await loadImageFolder(heldoutDir, img.color, 'held-out folder', loading);
@@ -110,7 +115,14 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   const books: Codebook[] = [];
   try {
     const common = { ...settings, signal: ctx.signal, patch, preprocessing: img.preprocessing, source: trainDir, stride: img.stride, sample: img.sample };
-    if (plan.structure !== 'full' || plan.lambdas !== null) {
+    if (plan.structure !== 'full') {
+      // One codebook per b: a tree balanced to depth b, or residual stages sharing b bits.
+      for (let b = lo; b <= hi; b += 1) {
+        const bPlan = plan.structure === 'residual' ? structurePlan(values, b) : plan;
+        bar.update((b - lo) / (hi - lo + 1), `b=${b}`);
+        books.push(...(await trainStructured(bPlan, vectors, dimension, { ...common, bits: b })));
+      }
+    } else if (plan.lambdas !== null) {
       books.push(...(await trainStructured(plan, vectors, dimension, { ...common, bits: hi }, (d, t, lambda) => bar.update(d / t, `λ=${lambda}`))));
     } else if (trainsEverySize(settings.init)) {
       // One LBG pass to 2^B yields every smaller power of two on the way.
@@ -132,8 +144,10 @@ export async function runSweep(argv: string[], ctx: CliContext): Promise<void> {
   try {
     for (const [i, book] of books.entries()) {
       const r = (await evaluate(book, heldout, { threads: settings.threads, signal: ctx.signal })).overall;
-      rows.push({ codec: 'vq', codebook: null, bits: book.bits, codebookSize: book.size, quality: null, bppFixed: r.bppFixed, bppEntropy: r.bppEntropy, bppActual: r.bppActual, mse: r.mse, psnr: r.psnr, ssim: r.ssim });
-      const label = book.structure.kind === 'entropy-constrained' ? `ecvq λ=${book.structure.lambda} K=${book.size}` : `vq K=${book.size}`;
+      rows.push({ codec: 'vq', codebook: null, bits: fixedRateBits(book), codebookSize: book.size, quality: null, bppFixed: r.bppFixed, bppEntropy: r.bppEntropy, bppActual: r.bppActual, mse: r.mse, psnr: r.psnr, ssim: r.ssim });
+      const label = book.structure.kind === 'entropy-constrained' ? `ecvq λ=${book.structure.lambda} K=${book.size}`
+        : book.structure.kind === 'tree' ? `tree b=${fixedRateBits(book)} K=${book.size}`
+        : book.structure.kind === 'residual' ? `residual ${book.structure.bits.join('+')} K=${book.size}` : `vq K=${book.size}`;
       shown.push([label, fmt.bpp(r.bppFixed), fmt.bpp(r.bppEntropy), fmt.bpp(r.bppActual), fmt.mse(r.mse), fmt.psnr(r.psnr), fmt.ssim(r.ssim)]);
       evalBar.update((i + 1) / books.length, `K=${book.size}`);
     }

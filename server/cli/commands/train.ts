@@ -1,8 +1,8 @@
 import {
-  BITS, COLOR_MODES, EPSILON, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, trainsEverySize, type InitMethod,
+  BITS, COLOR_MODES, EPSILON, STAGES, INIT_HINTS, INIT_LABELS, INIT_METHODS, ITERATIONS, LAMBDA, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, RUN_DEFAULTS, SEED, VECTOR_CAP, parsePatchShape, trainsEverySize, type InitMethod,
   serializeCodebook, type Codebook, type PatchInfo, type PreprocessingInfo,
 } from '../../engine';
-import { huffmanFigures, lambdaOutPath, structureOptionSpec, structurePlan, trainStructured } from '../structure-training';
+import { bitsRange, huffmanFigures, impliedBits, lambdaOutPath, STRUCTURE_HELP, structureOptionSpec, structurePlan, trainingTableSize, trainStructured } from '../structure-training';
 import { choiceOption, intOption, numberOption, parseOptions, requiredString, stringOption, type OptionSpec, type ParsedOptions } from '../args';
 import { CliUsageError } from '../cli-error';
 import { checkKeepFolder, writeCodebookFiles } from '../codebook-files';
@@ -15,7 +15,8 @@ import { fmt, jsonLine, table } from '../text-output';
 export const TRAIN_HELP = `Usage: cellwright train (--vectors FILE.npy | --images DIR --patch WxH) --bits B --out CODEBOOK.json [options]
 
 Trains a codebook of 2^B codewords with the generalised Lloyd algorithm and writes it as codebook JSON; with
---lambda, entropy-constrained codebooks from it, one per λ.
+--lambda, entropy-constrained codebooks from it, one per λ; with --structure tree or residual, a tree-structured
+codebook (B bits a block by descent) or a residual one (stages summing to B bits).
 
 Input (one of):
   --vectors FILE.npy    training vectors, a float32/float64 little-endian C-order .npy array (N × d; 1-D is N × 1)
@@ -29,7 +30,8 @@ Image options:
                         drawn at random (seeded) across images in proportion to area (default: every patch);
                         --max-vectors N and --sample N are the same option under its older names
 Training:
-  --bits B              codebook size 2^B, B from ${BITS.min} to ${BITS.max} (required)
+  --bits B              codebook size 2^B, B from ${BITS.min} to ${BITS.max} (required; residual: index bits a block, up to
+                        ${STAGES.max * BITS.max}, or left out with a stage list)
   --init METHOD         ${INIT_METHODS.map((m) => `${m}: ${INIT_LABELS[m]}${m === RUN_DEFAULTS.init ? ' (default)' : ''}, ${INIT_HINTS[m]}`).join('\n                        ')}
   --epsilon E           stop when the relative drop in distortion is below E, ${EPSILON.min}..${EPSILON.max} (default ${RUN_DEFAULTS.epsilon});
                         training also stops when the distortion no longer drops
@@ -42,7 +44,7 @@ Entropy-constrained VQ (Chou, Lookabaugh & Gray 1989):
                         log λ; at most ${MAX_LAMBDAS}. Each trains from the 2^B-codeword codebook, minimising squared error + λ·bits
                         per vector, drops the cells that empty out (larger λ: fewer codewords, lower rate), and stores the
                         canonical Huffman code (lengths ≤ 16 bits) of its training usage; encode writes indices in that code
-Output:
+${STRUCTURE_HELP}Output:
   --out FILE            codebook JSON to write (written atomically); with several λ values, FILE.lambda-<λ>.json each
   --keep-sizes DIR      also keep every size the pass trained on the way (with --init split: 2^0 … 2^B codewords) in
                         DIR, an existing folder, one codebook JSON file each named WxH-COLOR[-meanM][-sS]-bB.json
@@ -128,7 +130,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
   const vectorsPath = stringOption(values, 'vectors');
   const imagesDir = stringOption(values, 'images');
   if ((vectorsPath === undefined) === (imagesDir === undefined)) throw new CliUsageError('"cellwright train" needs exactly one of --vectors and --images');
-  const bits = intOption(values, 'bits', BITS);
+  const bits = intOption(values, 'bits', bitsRange(values)) ?? impliedBits(values);
   if (bits === undefined) throw new CliUsageError('"cellwright train" needs --bits');
   const out = requiredString(values, 'out', 'train');
   const plan = structurePlan(values, bits);
@@ -168,7 +170,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
       ctx,
       imagesDir!,
       'image folder',
-      { patch: img.patch, color: img.color, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing, codebookSize: 2 ** bits, threads: settings.threads },
+      { patch: img.patch, color: img.color, stride: img.stride, sample: img.sample, seed: settings.seed, preprocessing: img.preprocessing, codebookSize: trainingTableSize(plan, bits), threads: settings.threads },
       loading,
     );
     loading.done();
@@ -197,6 +199,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
         onProgress: (p) => bar.update(p.fraction, `K=${p.size} it ${p.iteration} D=${p.distortion.toPrecision(5)}`),
       },
       (done, total, lambda) => bar.update(done / total, `λ=${lambda} (${done}/${total})`),
+      (p) => bar.update(0, `step ${p.step} D=${p.distortion.toPrecision(5)}`),
     );
   } finally {
     bar.done();
@@ -227,6 +230,8 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
         patch: book.patch,
         preprocessing: book.preprocessing,
         structure: book.structure.kind,
+        ...(book.structure.kind === 'residual' ? { stages: book.structure.bits, search: book.structure.search } : {}),
+        ...(book.structure.kind === 'tree' ? { balanced: book.structure.balanced } : {}),
         checksum: book.checksum,
         elapsedMs,
         sizes: codebooks.map((c, i) => ({ size: c.size, iterations: c.training.iterations, distortion: c.training.distortion, file: kept?.[i] ?? null })),
@@ -235,7 +240,7 @@ export async function runTrain(argv: string[], ctx: CliContext): Promise<void> {
     return;
   }
   ctx.stdout.write(
-    `trained ${book.size} codewords of dimension ${book.dimension} on ${book.training.vectorCount} vectors (${book.training.init}, ${(elapsedMs / 1000).toFixed(1)} s)\n` +
+    `trained ${book.size} ${book.structure.kind === 'full' ? '' : `${book.structure.kind} table `}codewords of dimension ${book.dimension} on ${book.training.vectorCount} vectors (${book.training.init}, ${(elapsedMs / 1000).toFixed(1)} s)\n` +
       table(
         ['size', 'iterations', 'MSE/component'],
         codebooks.map((c) => [c.size, c.training.iterations, fmt.mse(c.training.distortion)]),

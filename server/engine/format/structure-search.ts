@@ -10,6 +10,8 @@
 import { assign } from '../training';
 import { assignEcvq } from '../training/ecvq';
 import { EngineInputError } from '../input-error';
+import { encodeResidual } from '../structures/residual';
+import { encodeTree } from '../structures/tree';
 import type { StructureKind } from '../structures/types';
 import type { Codebook } from './codebook-schema';
 
@@ -40,6 +42,34 @@ const entropyConstrainedSearch: StructureSearch = async (codebook, vectors, dime
   return { indices, distances: errors };
 };
 
+/** Descent from the root to the nearer child at every level (structures/tree.ts); the index is the leaf's node number. */
+const treeSearch: StructureSearch = async (codebook, vectors, dimension, options) => {
+  if (codebook.structure.kind !== 'tree') throw new Error('tree search on another structure');
+  options.signal?.throwIfAborted();
+  const { leaves, distances } = encodeTree(codebook.codewords, codebook.structure, vectors, dimension);
+  return { indices: leaves, distances };
+};
+
+/**
+ * Stage by stage (structures/residual.ts), greedy or M-best as the codebook's structure.search says; each block's S
+ * indices are written block-major as table indices (the stage's offset plus its local index).
+ */
+const residualSearch: StructureSearch = async (codebook, vectors, dimension, options) => {
+  const s = codebook.structure;
+  if (s.kind !== 'residual') throw new Error('residual search on another structure');
+  options.signal?.throwIfAborted();
+  const { indices: stages, distances } = encodeResidual(codebook.codewords, s, vectors, dimension);
+  const per = s.bits.length;
+  const indices = new Uint32Array(distances.length * per);
+  let offset = 0;
+  for (let t = 0; t < per; t++) {
+    const local = stages[t];
+    for (let v = 0; v < local.length; v++) indices[v * per + t] = offset + local[v];
+    offset += 2 ** s.bits[t];
+  }
+  return { indices, distances };
+};
+
 /**
  * Per kind, its search; null where this build cannot yet encode the kind (its decoding still works: the decoder is
  * table lookup for every kind, codec.ts `reconstruct`).
@@ -47,8 +77,8 @@ const entropyConstrainedSearch: StructureSearch = async (codebook, vectors, dime
 export const STRUCTURE_SEARCHES: Record<StructureKind, StructureSearch | null> = {
   full: fullSearch,
   'entropy-constrained': entropyConstrainedSearch,
-  tree: null,
-  residual: null,
+  tree: treeSearch,
+  residual: residualSearch,
 };
 
 /** Runs the codebook's own search over its block vectors. */

@@ -7,6 +7,8 @@ import { writeContainer } from '../format/container';
 import { EngineInputError } from '../input-error';
 import type { PixelImage } from '../io/image';
 import { removeMeans } from '../io/mean-removal';
+import { tile } from '../io/patches';
+import { treeDistortions } from '../structures/tree';
 import { psnrForJson, psnrFromMse, sumSquaredError } from './distortion';
 import { entropyBits, histogram } from './rate';
 import { poolSsim, ssimOfImages } from './ssim';
@@ -77,7 +79,38 @@ export interface ImageSetEvaluation {
   overall: RateDistortion & { indexEntropy: number; meanEntropy: number };
   usage: Uint32Array; // blocks per cell, size K
   cellDistortion: Float64Array; // total squared error per cell in the vector (residual) domain, size K
+  /** A tree codebook's search against a full search over its leaves on the same blocks; null for other structures. */
+  treeSearch: TreeSearchFigures | null;
 }
+
+/**
+ * What tree search costs on the evaluated blocks: MSE per component in the vector (residual) domain, unrounded, of the
+ * tree's descent and of a full search over the same leaves (never above the tree's). The decoded image's own MSE is
+ * the evaluation's `mse`.
+ */
+export interface TreeSearchFigures {
+  treeMse: number;
+  fullSearchMse: number;
+}
+
+/** Sums of squared error (tree search, full search over the leaves) and the components they cover. */
+interface TreeSearchSums {
+  tree: number;
+  full: number;
+  components: number;
+}
+
+/** Tree and full-search squared error of a tree codebook on vectors; null for other structures. */
+function treeSearchSums(codebook: Codebook, vectors: Float32Array): TreeSearchSums | null {
+  if (codebook.structure.kind !== 'tree') return null;
+  const components = vectors.length;
+  if (components === 0) return { tree: 0, full: 0, components };
+  const r = treeDistortions(codebook.codewords, codebook.structure, vectors, codebook.dimension);
+  return { tree: r.tree * components, full: r.fullSearch * components, components };
+}
+
+const treeFigures = (s: TreeSearchSums | null): TreeSearchFigures | null =>
+  s === null ? null : { treeMse: s.components > 0 ? s.tree / s.components : 0, fullSearchMse: s.components > 0 ? s.full / s.components : 0 };
 
 export interface VectorSetEvaluation {
   kind: 'vectors';
@@ -91,6 +124,8 @@ export interface VectorSetEvaluation {
   meanEntropy: number;
   usage: Uint32Array;
   cellDistortion: Float64Array;
+  /** For a tree codebook, its search against a full search over its leaves on these vectors; else null. */
+  treeSearch: TreeSearchFigures | null;
 }
 
 export interface EvaluateOptions {
@@ -140,6 +175,8 @@ export interface ImageMeasurement {
   meanCounts: Uint32Array;
   /** Squared error per cell in the vector (residual) domain, summed over this image's blocks (size K). */
   cellDistortion: Float64Array;
+  /** A tree codebook's tree- and full-search squared error over this image's blocks; null for other structures. */
+  treeSearch: TreeSearchSums | null;
 }
 
 /** Measures one image: encodes, decodes, writes the container and takes every figure of it. */
@@ -177,7 +214,14 @@ export async function measureImage(codebook: Codebook, image: PixelImage, option
     evaluation.reconstruction = recon;
     evaluation.container = container;
   }
-  return { evaluation, sse, components: image.pixels.length, usage, meanCounts, cellDistortion };
+  let treeSearch: TreeSearchSums | null = null;
+  if (codebook.structure.kind === 'tree') {
+    // The blocks the encoder searched: tiled as encodeImage tiles them, less their coded means.
+    const tiled = tile(image, codebook.patch);
+    if (meanBits > 0) removeMeans(tiled.vectors, tiled.dimension, meanBits);
+    treeSearch = treeSearchSums(codebook, tiled.vectors);
+  }
+  return { evaluation, sse, components: image.pixels.length, usage, meanCounts, cellDistortion, treeSearch };
 }
 
 /**
@@ -196,7 +240,14 @@ export function poolImageMeasurements(codebook: Codebook, measurements: readonly
   let pixels = 0;
   let blocks = 0;
   let bytes = 0;
+  // Null unless every image carries its sums (a measurement passed along without them leaves the figure out).
+  const tree: TreeSearchSums | null = codebook.structure.kind === 'tree' && measurements.every((m) => m.treeSearch) ? { tree: 0, full: 0, components: 0 } : null;
   for (const m of measurements) {
+    if (tree && m.treeSearch) {
+      tree.tree += m.treeSearch.tree;
+      tree.full += m.treeSearch.full;
+      tree.components += m.treeSearch.components;
+    }
     for (let i = 0; i < codebook.size; i += 1) {
       usage[i] += m.usage[i];
       cellDistortion[i] += m.cellDistortion[i];
@@ -230,6 +281,7 @@ export function poolImageMeasurements(codebook: Codebook, measurements: readonly
     },
     usage,
     cellDistortion,
+    treeSearch: treeFigures(tree),
   };
 }
 
@@ -278,5 +330,6 @@ export async function evaluateVectors(codebook: Codebook, vectors: Float32Array,
     meanEntropy,
     usage,
     cellDistortion,
+    treeSearch: treeFigures(treeSearchSums(codebook, work)),
   };
 }

@@ -1,5 +1,5 @@
 // Limits of the structured codebooks, one definition for the engine, the format and the command line.
-import { BITS } from '../vocabulary';
+import { BITS, REFINEMENT_PASSES } from '../vocabulary';
 
 /** Deepest balanced tree: as many leaves as the largest full-search codebook (2^BITS.max). */
 export const TREE_MAX_BALANCED_DEPTH = BITS.max;
@@ -17,7 +17,7 @@ export const RESIDUAL_STAGE_BITS = { min: 1, max: BITS.max } as const;
 /** Candidates an M-best residual search keeps per stage, at most. */
 export const M_BEST_MAX = 64;
 /** Joint refinement passes of a residual codebook, at most. */
-export const RESIDUAL_MAX_REFINEMENT_PASSES = 20;
+export const RESIDUAL_MAX_REFINEMENT_PASSES = REFINEMENT_PASSES.max;
 /**
  * Size of the perturbation that starts a node's 2-means: the children start at c ± δσ·u, σ the node's RMS error per
  * component and u a seeded random direction of length √d (the length of (1, …, 1), as LBG splitting uses).

@@ -1,5 +1,7 @@
 import type { JobProgress } from '../../contracts';
-import { assignEcvq, shardLayout, train, trainEcvq } from '../../engine';
+import {
+  assignEcvq, encodeResidual, encodeTree, MAX_ITERATIONS, parseStages, shardLayout, structureInfo, train, trainEcvq, trainResidual, trainTree,
+} from '../../engine';
 import type { TaskPool } from '../pool';
 import type { ImageMeasurement } from '../../engine';
 import type { BaselineResultPoint, EvaluateTask, TaskImage } from '../tasks/evaluate.task';
@@ -100,6 +102,7 @@ async function trainTask(task: TrainTask, ctx: ExecuteContext): Promise<TrainOut
     doneWeight += pass.k;
   }
   if (task.lambdas && task.lambdas.length > 0) codebooks.push(...(await entropyConstrained(task, task.lambdas, vectors, codebooks, ctx)));
+  if (task.structured) codebooks.push(...(await structuredBooks(task, task.structured, vectors, ctx)));
   return { vectorCount, codebooks };
 }
 
@@ -148,6 +151,60 @@ async function entropyConstrained(task: TrainTask, lambdas: number[], vectors: F
       iterations: r.iterations,
       trace: r.trace.map((t) => ({ size: t.size, iteration: t.iteration, distortion: t.distortion, emptyRepaired: t.emptied, elapsedMs: t.elapsedMs })),
       structure: { kind: 'entropy-constrained', lambda, codeLengths: Array.from(r.codeLengths) },
+    });
+  }
+  return out;
+}
+
+/**
+ * One tree (balanced to depth b) or residual codebook (stages sharing b) per b of the run (engine structures/). Usage
+ * and per-cell errors are those of the codebook's own search on the training vectors: per node reached for a tree
+ * (its leaves hold the errors), per table entry for residual stages (the last stage's entry holds a block's error).
+ */
+async function structuredBooks(task: TrainTask, plan: NonNullable<TrainTask['structured']>, vectors: Float32Array, ctx: ExecuteContext): Promise<TrainedSize[]> {
+  const d = task.dimension;
+  const out: TrainedSize[] = [];
+  for (const [i, b] of plan.bits.entries()) {
+    const fraction = LOADED + ((TRAINED - LOADED) * i) / plan.bits.length;
+    const lloyd = { seed: task.seed, epsilon: task.epsilon, maxIterations: task.maxIterations, signal: ctx.signal };
+    if (plan.kind === 'tree') {
+      ctx.progress({ phase: 'training', fraction, message: `tree of depth ${b} (${i + 1} of ${plan.bits.length})` });
+      const r = await trainTree(vectors, d, { growth: { kind: 'balanced', depth: b }, ...lloyd });
+      const codes = encodeTree(r.codewords, r.structure, vectors, d);
+      const cellDistortion = new Float64Array(r.usage.length);
+      for (let v = 0; v < codes.leaves.length; v += 1) cellDistortion[codes.leaves[v]] += codes.distances[v];
+      out.push({
+        size: r.usage.length, codewords: r.codewords, usage: r.usage, cellDistortion, distortion: r.treeDistortion,
+        // The sum over every node's 2-means, capped at what the codebook format records.
+        iterations: Math.min(r.iterations, MAX_ITERATIONS),
+        trace: r.growth.map((g) => ({ size: g.leaves, iteration: 0, distortion: g.distortion, emptyRepaired: 0, elapsedMs: 0 })),
+        structure: structureInfo(r.structure) as TrainedSize['structure'],
+      });
+      continue;
+    }
+    const parsed = parseStages(String(plan.stages), b);
+    if ('error' in parsed) throw new Error(parsed.error);
+    ctx.progress({ phase: 'training', fraction, message: `residual stages ${parsed.bits.join(' + ')} (${i + 1} of ${plan.bits.length})` });
+    const r = await trainResidual(vectors, d, {
+      bits: parsed.bits, init: task.init, search: plan.mBest === null ? { kind: 'greedy' } : { kind: 'm-best', m: plan.mBest }, refinementPasses: plan.refinementPasses, ...lloyd,
+    });
+    const codes = encodeResidual(r.codewords, r.structure, vectors, d);
+    const usage = new Uint32Array(r.tableCodewords);
+    const cellDistortion = new Float64Array(r.tableCodewords);
+    let offset = 0;
+    codes.indices.forEach((stage, s) => {
+      for (let v = 0; v < stage.length; v += 1) {
+        usage[offset + stage[v]] += 1;
+        if (s === codes.indices.length - 1) cellDistortion[offset + stage[v]] += codes.distances[v];
+      }
+      offset += 2 ** parsed.bits[s];
+    });
+    let table = 0;
+    out.push({
+      size: r.tableCodewords, codewords: r.codewords, usage, cellDistortion, distortion: r.distortion,
+      iterations: Math.min(r.stages.reduce((a, st) => a + st.iterations, 0), MAX_ITERATIONS),
+      trace: r.stages.map((st) => ({ size: (table += 2 ** st.bits), iteration: 0, distortion: st.distortion, emptyRepaired: 0, elapsedMs: 0 })),
+      structure: structureInfo(r.structure) as TrainedSize['structure'],
     });
   }
   return out;

@@ -1,4 +1,4 @@
-import type { ColorMode, IterationStat } from '../../engine';
+import type { ColorMode, IterationStat, StructureInfo } from '../../engine';
 import type { InitMethod } from '../../engine/vocabulary';
 import type { ImageMeasurement } from '../../engine';
 import type { BaselineResultPoint, TaskCodebook } from '../tasks/evaluate.task';
@@ -39,6 +39,11 @@ export interface TrainTask {
   passes: { k: number; keep: number[] }[];
   /** Entropy-constrained codebooks to train after the passes, one per λ, from the largest codebook kept. */
   lambdas?: number[];
+  /**
+   * Tree or residual codebooks instead of the passes (which are then empty), one per b: a tree balanced to depth b, or
+   * `stages` residual stages sharing b bits (vocabulary parseStages), searched keeping `mBest` candidates (null: greedy).
+   */
+  structured?: { kind: 'tree'; bits: number[] } | { kind: 'residual'; bits: number[]; stages: number; mBest: number | null; refinementPasses: number };
 }
 
 export interface TrainedSize {
@@ -50,8 +55,8 @@ export interface TrainedSize {
   iterations: number;
   /** The LBG path that led to this size (every smaller size first, for split); an entropy-constrained codebook's own passes. */
   trace: IterationStat[];
-  /** Absent: full search. Else the entropy-constrained structure, its Huffman code lengths as a plain list. */
-  structure?: { kind: 'entropy-constrained'; lambda: number; codeLengths: number[] };
+  /** Absent: full search. Else the structure in its JSON form (plain lists: Huffman lengths, tree children, stage bits). */
+  structure?: Exclude<StructureInfo, { kind: 'full' }>;
 }
 
 export interface TrainOutcome {

@@ -1,6 +1,6 @@
 import type { NormalizedRunConfig } from '../../contracts';
 import type { NewCodebook, RunRecord } from '../../db';
-import { makeCodebook, toCodebookDocument, trainsEverySize, type IterationStat } from '../../engine';
+import { makeCodebook, structureFromInfo, toCodebookDocument, trainsEverySize, type IterationStat } from '../../engine';
 import { runTrainingMemory, trainingMemoryExcess } from '../../services/training-memory';
 import { TRAINED } from '../compute/execute';
 import type { TrainedSize } from '../compute/tasks';
@@ -21,6 +21,15 @@ export function trainingPasses(cfg: Pick<NormalizedRunConfig, 'init' | 'sizes'>)
   return cfg.sizes.map((k) => ({ k, keep: new Set([k]) }));
 }
 
+/** A stored codebook's name: the run's, with what sets it apart from the run's other codebooks. */
+function codebookName(runName: string, book: TrainedSize, bits: number): string {
+  const s = book.structure;
+  if (!s) return `${runName} b${bits}`;
+  if (s.kind === 'entropy-constrained') return `${runName} λ${s.lambda}`;
+  if (s.kind === 'residual') return `${runName} residual ${s.bits.join('+')}`;
+  return `${runName} tree ${book.trace.length - 1} levels`;
+}
+
 function toNewCodebook(run: RunRecord, book: TrainedSize, path: IterationStat[], vectorCount: number, dimension: number): NewCodebook {
   const cfg = run.normalized;
   const channels = cfg.color === 'rgb' ? 3 : 1;
@@ -32,7 +41,7 @@ function toNewCodebook(run: RunRecord, book: TrainedSize, path: IterationStat[],
     preprocessing,
     codewords: book.codewords,
     usage: book.usage,
-    ...(book.structure ? { structure: { ...book.structure, codeLengths: Uint8Array.from(book.structure.codeLengths) } } : {}),
+    ...(book.structure ? { structure: structureFromInfo(book.structure) } : {}),
     training: {
       source: `run ${run.id} "${run.name}" (${cfg.trainingImageIds.length} training images)`,
       vectorCount,
@@ -51,7 +60,7 @@ function toNewCodebook(run: RunRecord, book: TrainedSize, path: IterationStat[],
   return {
     teamId: run.teamId,
     runId: run.id,
-    name: book.structure ? `${run.name} λ${book.structure.lambda}` : `${run.name} b${codebook.bits}`,
+    name: codebookName(run.name, book, codebook.bits),
     source: 'trained',
     bits: codebook.bits,
     size: codebook.size,
@@ -111,8 +120,9 @@ export const trainHandler: JobHandler<'train'> = async (job, ctx) => {
       maxIterations: cfg.maxIterations,
       maxVectors: cfg.maxVectors,
       seed: cfg.seed,
-      passes: trainingPasses(cfg).map((p) => ({ k: p.k, keep: [...p.keep] })),
+      passes: cfg.structure ? [] : trainingPasses(cfg).map((p) => ({ k: p.k, keep: [...p.keep] })),
       ...(cfg.lambdas ? { lambdas: cfg.lambdas } : {}),
+      ...(cfg.structure ? { structured: { ...cfg.structure, bits: cfg.sizes.map((k) => Math.log2(k)) } } : {}),
     },
     { signal: ctx.signal, progress: (p) => ctx.progress(p) },
   );

@@ -81,12 +81,12 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
           )
         }
         title={codebook.name}
-        description={`${STRUCTURE_LABELS[codebook.structure]}${codebook.lambda !== null ? ` (λ = ${codebook.lambda})` : ''}: ${codebook.size.toLocaleString('en-GB')} codewords of ${codebook.dimension} components: ${codebook.patch.width}×${codebook.patch.height} ${codebook.color} blocks${meanRemoved ? `, block mean coded in ${codebook.meanBits} bits and removed` : ''}.`}
+        description={`${STRUCTURE_LABELS[codebook.structure]}${codebook.lambda !== null ? ` (λ = ${codebook.lambda})` : ''}${codebook.stages ? ` (stages of ${codebook.stages.join(' + ')} bits)` : ''}: ${codebook.size.toLocaleString('en-GB')} codewords of ${codebook.dimension} components: ${codebook.patch.width}×${codebook.patch.height} ${codebook.color} blocks${meanRemoved ? `, block mean coded in ${codebook.meanBits} bits and removed` : ''}.`}
       />
       <div className="flex flex-col gap-6">
         <dl className="grid grid-cols-2 gap-3 md:grid-cols-4">
-          <Stat label="Index bits" value={<span className="num">{codebook.bits}</span>} note={`K = ${codebook.size.toLocaleString('en-GB')}`} />
-          <Stat label="Fixed rate" value={<span className="num">{formatBpp(fixedRate(codebook.bits, codebook.meanBits, codebook.patch))}</span>} note="(b + mean bits) / pixels per block" />
+          <Stat label="Index bits" value={<span className="num">{codebook.indexBits}</span>} note={`table K = ${codebook.size.toLocaleString('en-GB')}`} />
+          <Stat label="Fixed rate" value={<span className="num">{formatBpp(fixedRate(codebook.indexBits, codebook.meanBits, codebook.patch))}</span>} note="(b + mean bits) / pixels per block" />
           <Stat label="Training MSE" value={<span className="num">{formatMse(codebook.distortion)}</span>} note="per component, 0..255 scale" />
           <Stat label="Unused cells" value={<span className="num">{unused}</span>} note={`of ${codebook.size} on ${totalUsage.toLocaleString('en-GB')} vectors`} />
         </dl>

@@ -1,5 +1,8 @@
 import { z } from 'zod';
-import { COLOR_MODES, createRunBody, initMethodSchema, parseLambdaList, RUN_DEFAULTS, SETTING_LABELS, type ColorMode, type CreateRunBody, type InitMethod } from '../../../server/contracts';
+import {
+  COLOR_MODES, createRunBody, initMethodSchema, parseLambdaList, RESIDUAL_DEFAULT_STAGES, RUN_DEFAULTS, RUN_STRUCTURES, SETTING_LABELS, type ColorMode, type CreateRunBody, type InitMethod,
+  type RunStructure,
+} from '../../../server/contracts';
 import { planRun, type ImageCatalog, type PlanInput } from './run-plan';
 
 export type RunFormValues = {
@@ -27,6 +30,12 @@ export type RunFormValues = {
   seed: number;
   /** Entropy-constrained VQ: a λ list as a person writes it ("50,200,800" or A..B:N); empty for full search only. */
   lambdas: string;
+  /** What the run trains per b: full search, a tree balanced to depth b, or residual stages sharing b. */
+  structure: RunStructure;
+  /** Residual: stages S; M of the M-best search (1 is greedy); joint refinement passes. */
+  stages: number;
+  mBest: number;
+  refinementPasses: number;
 };
 
 /** The form's λ list: none when the field is empty, else the values or what is wrong with the text. */
@@ -58,6 +67,10 @@ export const emptyRunForm: RunFormValues = {
   maxVectors: RUN_DEFAULTS.maxVectors,
   seed: RUN_DEFAULTS.seed,
   lambdas: '',
+  structure: 'full',
+  stages: RESIDUAL_DEFAULT_STAGES,
+  mBest: 1,
+  refinementPasses: 0,
 };
 
 /** The POST body the form's values stand for; every option is sent, so the run records exactly what was chosen. */
@@ -82,6 +95,10 @@ export function toRunBody(v: RunFormValues): Record<string, unknown> {
       const parsed = lambdasOf(v);
       return parsed && 'values' in parsed ? { lambdas: parsed.values } : {};
     })(),
+    ...(v.structure === 'full' ? {} : { structure: v.structure }),
+    ...(v.structure === 'residual'
+      ? { stages: v.stages, ...(v.mBest > 1 ? { mBest: v.mBest } : {}), ...(v.refinementPasses > 0 ? { refinementPasses: v.refinementPasses } : {}) }
+      : {}),
   };
 }
 
@@ -112,6 +129,10 @@ export function fromRunConfig(config: CreateRunBody, name: string): RunFormValue
     maxVectors: config.maxVectors ?? RUN_DEFAULTS.maxVectors,
     seed: config.seed ?? RUN_DEFAULTS.seed,
     lambdas: config.lambdas?.join(',') ?? '',
+    structure: config.structure ?? 'full',
+    stages: config.stages ?? RESIDUAL_DEFAULT_STAGES,
+    mBest: config.mBest ?? 1,
+    refinementPasses: config.refinementPasses ?? 0,
   };
 }
 
@@ -143,6 +164,9 @@ const labels: Record<string, string> = {
   maxVectors: 'Vector cap',
   seed: 'Seed',
   lambdas: 'λ list',
+  stages: 'Stages',
+  mBest: 'M (M-best search)',
+  refinementPasses: 'Refinement passes',
 };
 
 /** Where a contract issue about the body belongs in the form. */
@@ -206,6 +230,10 @@ const formFields = z.object({
   maxVectors: num(`the ${SETTING_LABELS.maxVectors.toLowerCase()}`),
   seed: num('the seed'),
   lambdas: z.string(),
+  structure: z.enum(RUN_STRUCTURES),
+  stages: num('the stages'),
+  mBest: num('M'),
+  refinementPasses: num('the refinement passes'),
 });
 
 /**

@@ -1,7 +1,10 @@
 import { zodResolver } from '@hookform/resolvers/zod';
 import { useMemo, useRef, type ReactNode } from 'react';
 import { useForm, type Resolver } from 'react-hook-form';
-import { EPSILON, LAMBDA, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, SETTING_LABELS, STRIDE, type CreateRunBody, type ImageSet, type RunDetail } from '../../../../server/contracts';
+import {
+  EPSILON, LAMBDA, M_BEST, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, REFINEMENT_PASSES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, SETTING_LABELS, STAGES, STRIDE,
+  type CreateRunBody, type ImageSet, type RunDetail,
+} from '../../../../server/contracts';
 import { isApiError, messageOf } from '../../../lib/api-client';
 import { plural } from '../../../lib/format';
 import { Alert } from '../../../components/ui/alert';
@@ -16,6 +19,7 @@ import { ChoiceGroup } from './choice-group';
 import { ImagePicker } from './image-picker';
 import { RatePlanner } from './rate-planner';
 import { RunSummary } from './run-summary';
+import { StructureSummary } from './structure-summary';
 
 const patchPresets = [
   { width: 2, height: 2 },
@@ -139,7 +143,7 @@ export function RunForm({
     );
   };
 
-  const numberField = (name: 'epsilon' | 'maxIterations' | 'maxVectors' | 'seed', label: string, hint: string, step = '1') => (
+  const numberField = (name: 'epsilon' | 'maxIterations' | 'maxVectors' | 'seed' | 'stages' | 'mBest' | 'refinementPasses', label: string, hint: string, step = '1') => (
     <TextField label={label} type="number" step={step} inputMode="decimal" hint={hint} error={errors[name]?.message} {...form.register(name, { valueAsNumber: true })} />
   );
 
@@ -251,6 +255,31 @@ export function RunForm({
 
         <Section title="Bit budget" description="b index bits per block: 2^b codewords.">
           <BitBudgetField form={form} />
+        </Section>
+
+        <Section title="Structure" description="How the codebook is searched: every codeword, down a binary tree, or stage by stage.">
+          <SelectField label="Structure" error={errors.structure?.message} {...form.register('structure')}>
+            {RUN_STRUCTURES.map((k) => (
+              <option key={k} value={k}>
+                {RUN_STRUCTURE_LABELS[k]}
+              </option>
+            ))}
+          </SelectField>
+          {values.structure === 'residual' && (
+            <div className="grid gap-4 sm:grid-cols-3">
+              {numberField('stages', 'Stages', `${STAGES.min}..${STAGES.max}, sharing b bits (earlier stages take the extra bit).`)}
+              {numberField('mBest', 'M (M-best search)', `${M_BEST.min}..${M_BEST.max}; 1 is greedy.`)}
+              {numberField('refinementPasses', 'Refinement passes', `${REFINEMENT_PASSES.min}..${REFINEMENT_PASSES.max} joint passes after the stages.`)}
+            </div>
+          )}
+          <StructureSummary
+            structure={values.structure}
+            bits={values.bitsMode === 'single' ? values.bits : values.bitsTo}
+            stages={values.stages}
+            mBest={values.mBest}
+            dimension={plan.dimension}
+            pixelsPerBlock={values.patch.width * values.patch.height}
+          />
         </Section>
 
         <Section title="Training" description="Generalised Lloyd iterations until the relative drop in distortion is below ε.">

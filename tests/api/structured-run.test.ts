@@ -1,0 +1,133 @@
+// A residual run trains stages sharing each b through the real runner and job engine; the studio stores, lists,
+// evaluates and exports the codebooks with their structure, and refuses structure options that do not fit.
+import sharp from 'sharp';
+import request from 'supertest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { parseCodebook } from '../../server/engine';
+import { seabedSet } from '../../server/seed/seabed-tiles';
+import { bearer, createTestApp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
+
+let t: TestApp;
+let team: Awaited<ReturnType<typeof teamWithRoles>>;
+let runId: number;
+let treeRunId: number;
+
+async function uploadSet(session: Session, name: string): Promise<number> {
+  const created = await request(t.app).post(`/api/teams/${session.teamId}/image-sets`).set(bearer(session)).send({ name });
+  expect(created.status).toBe(201);
+  const id = created.body.imageSet.id as number;
+  let req = request(t.app).post(`/api/teams/${session.teamId}/image-sets/${id}/images`).set(bearer(session));
+  for (const [i, tile] of seabedSet(31, 4, 48, 32).entries()) {
+    const png = await sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toBuffer();
+    req = req.attach('files', png, `tile-${i}.png`);
+  }
+  expect((await req).status).toBe(201);
+  const split = await request(t.app).post(`/api/teams/${session.teamId}/image-sets/${id}/split`).set(bearer(session)).send({ heldOutFraction: 0.25, seed: 3 });
+  expect(split.status).toBe(200);
+  return id;
+}
+
+async function untilEvaluated(id: number): Promise<void> {
+  for (let i = 0; i < 1200; i += 1) {
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${id}`).set(bearer(team.engineer));
+    if (res.body.run.state === 'succeeded' && res.body.run.jobs.every((j: { state: string }) => j.state === 'succeeded')) return;
+    if (['failed', 'cancelled'].includes(res.body.run.state)) throw new Error(`run ended ${res.body.run.state}: ${res.body.run.error}`);
+    await new Promise((r) => setTimeout(r, 100));
+  }
+  throw new Error('the run did not finish');
+}
+
+beforeAll(async () => {
+  t = await createTestApp();
+  team = await teamWithRoles(t, 'Stages Team');
+  const setId = await uploadSet(team.engineer, 'Seabed tiles');
+  await t.composition.jobs.runner.start();
+  const created = await request(t.app).post(`/api/teams/${team.teamId}/runs`).set(bearer(team.engineer)).send({
+    name: 'rvq', trainingSetId: setId, heldOutSetId: setId, patch: { width: 2, height: 2 }, bits: { from: 4, to: 5 }, maxIterations: 10, seed: 4,
+    structure: 'residual', stages: 2, mBest: 4,
+  });
+  expect(created.status, JSON.stringify(created.body)).toBe(201);
+  runId = created.body.run.id;
+  const tree = await request(t.app).post(`/api/teams/${team.teamId}/runs`).set(bearer(team.engineer)).send({
+    name: 'tsvq', trainingSetId: setId, heldOutSetId: setId, patch: { width: 2, height: 2 }, bits: 3, maxIterations: 10, seed: 4, structure: 'tree',
+  });
+  expect(tree.status, JSON.stringify(tree.body)).toBe(201);
+  treeRunId = tree.body.run.id;
+  await untilEvaluated(runId);
+  await untilEvaluated(treeRunId);
+}, 240_000);
+
+afterAll(async () => {
+  await t?.composition.jobs.runner.stop();
+  await t?.composition.jobs.pool.destroy();
+  await t?.close();
+});
+
+describe('a residual run', () => {
+  it('keeps one residual codebook per b, its table Σ 2^{b_s} codewords', async () => {
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}`).set(bearer(team.viewer));
+    expect(res.body.run.normalized.structure).toEqual({ kind: 'residual', stages: 2, mBest: 4, refinementPasses: 0 });
+    const books = res.body.run.codebooks as { size: number; structure: string }[];
+    expect(books.map((b) => b.structure)).toEqual(['residual', 'residual']);
+    // b = 4: stages 2 + 2, 4 + 4 codewords; b = 5: stages 3 + 2, 8 + 4 codewords (vocabulary parseStages).
+    expect(books.map((b) => b.size).sort((a, b) => a - b)).toEqual([8, 12]);
+  });
+
+  it('exports each as revision 2 with its stages and M-best search', async () => {
+    const list = await request(t.app).get(`/api/teams/${team.teamId}/codebooks`).set(bearer(team.viewer));
+    const residual = list.body.codebooks.filter((c: { structure: string }) => c.structure === 'residual');
+    expect(residual).toHaveLength(2);
+    const stages: number[][] = [];
+    for (const summary of residual) {
+      const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${summary.id}/export`).set(bearer(team.viewer));
+      expect(exported.status).toBe(200);
+      expect(exported.body).toMatchObject({ version: 2, structure: { kind: 'residual', search: { kind: 'm-best', m: 4 } } });
+      const book = parseCodebook(exported.body);
+      if (book.structure.kind === 'residual') stages.push(book.structure.bits);
+    }
+    expect(stages.sort((a, b) => a[0] - b[0])).toEqual([[2, 2], [3, 2]]);
+  });
+
+  it('shows each codebook\'s stages and index bits (Σ b_s, a tree\'s depth) on its page, not ceil(log2 K) of its table', async () => {
+    const list = await request(t.app).get(`/api/teams/${team.teamId}/codebooks`).set(bearer(team.viewer));
+    const details = [];
+    for (const summary of list.body.codebooks) {
+      const res = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${summary.id}`).set(bearer(team.viewer));
+      expect(res.status).toBe(200);
+      details.push([res.body.codebook.size, res.body.codebook.indexBits, res.body.codebook.stages]);
+    }
+    // 8 codewords (4 + 4) code 4 bits a block, 12 codewords (8 + 4) code 5: ceil(log2 12) = 4 would be wrong; the tree
+    // run's 15 nodes code 3 path bits, not ceil(log2 15) = 4.
+    expect(details.sort((a, b) => Number(a[0]) - Number(b[0]))).toEqual([[8, 4, [2, 2]], [12, 5, [3, 2]], [15, 3, null]]);
+  });
+
+  it('draws the curve at the fixed rate Σ b_s / (w·h) of each codebook', async () => {
+    const curve = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/curve`).set(bearer(team.viewer));
+    expect(curve.status).toBe(200);
+    const points = curve.body.points as { structure: string; bppFixed: number }[];
+    // Hand-computed: 4 and 5 bits per 2×2 block.
+    expect(points.map((p) => [p.structure, p.bppFixed]).sort((a, b) => Number(a[1]) - Number(b[1]))).toEqual([['residual', 1], ['residual', 1.25]]);
+  });
+
+  it('trains a tree run into a balanced tree of depth b, drawn at b/(w·h) bpp', async () => {
+    const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${treeRunId}`).set(bearer(team.viewer));
+    // Depth 3: 2^4 − 1 = 15 nodes in the table.
+    expect(res.body.run.codebooks.map((b: { structure: string; size: number }) => [b.structure, b.size])).toEqual([['tree', 15]]);
+    const curve = await request(t.app).get(`/api/teams/${team.teamId}/runs/${treeRunId}/curve`).set(bearer(team.viewer));
+    // Hand-computed: 3 path bits per 2×2 block.
+    expect(curve.body.points.map((p: { bppFixed: number }) => p.bppFixed)).toEqual([3 / 4]);
+  });
+
+  it.each([
+    [{ structure: 'tree', stages: 2 }, 'stages'],
+    [{ structure: 'residual', lambdas: [5] }, 'lambdas'],
+    [{ structure: 'tree', bits: 14 }, 'bits'],
+    [{ structure: 'residual', stages: 3, bits: 2 }, 'bits'],
+  ])('refuses %j with 400 on its field', async (extra, field) => {
+    const res = await request(t.app).post(`/api/teams/${team.teamId}/runs`).set(bearer(team.engineer)).send({
+      name: 'bad', trainingImageIds: [1], heldOutImageIds: [2], patch: { width: 2, height: 2 }, bits: 4, ...extra,
+    });
+    expect(res.status).toBe(400);
+    expect(JSON.stringify(res.body.error.details)).toContain(field);
+  });
+});

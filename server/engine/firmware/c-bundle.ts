@@ -28,7 +28,7 @@ function tableRows(values: Int32Array, perRow: number): string {
 function qFormatText(table: FixedPointTable): string {
   if (table.type === 'uint8') return 'uint8, integer pixel values 0..255 (Q8.0 unsigned)';
   const bits = table.type === 'int8' ? 8 : 16;
-  return `${table.type}, signed Q${bits - 1 - table.fractionBits}.${table.fractionBits}: a stored value v is the residual v / 2^${table.fractionBits}`;
+  return `${table.type}, signed Q${bits - 1 - table.fractionBits}.${table.fractionBits}: a stored value v stands for v / 2^${table.fractionBits}`;
 }
 
 const STRUCTURE_TEXT = {
@@ -87,6 +87,16 @@ ${tableRows(Int32Array.from(st.bits), 16)}
   return '';
 }
 
+const STRUCTURE_README = {
+  full: 'Each block\'s index is b = ceil(log2 K) bits (header byte 9), packed most significant bit first; an index >= K is refused.',
+  'entropy-constrained':
+    'Each segment\'s index stream is preceded by its byte length N (uint32): the blocks\' canonical Huffman codes (RFC 1951 section 3.2.2: codes of one length are consecutive, in codeword order), most significant bit first. `cw_codebook.h` holds the code as `cw_huff_count[l]` (codes of length l) and `cw_huff_symbols` (codewords in code order); the decoder reads a code bit by bit and, after l bits, checks whether it lies among the codes of length l. A pattern no code starts with, a stream that ends inside a code, more than 7 bits or non-zero bits after the last code, and an N longer than every block at the longest code are refused.',
+  tree:
+    'Each block names a leaf by its path from the root (0 left, 1 right, first decision first). `cw_tree_children[2n]` and `[2n + 1]` are node n\'s children, -1 for a leaf; every node has a row in `cw_codewords`. A balanced tree\'s paths all have its depth d bits (header byte 9) and the stream length follows from the block count; an unbalanced tree\'s stream is preceded by its byte length N (uint32). A stream that ends inside a path, and more than 7 bits or non-zero bits after the last path, are refused.',
+  residual:
+    'Each block holds one index per stage, stage s in `cw_stage_bits[s]` bits, in stage order; stage s\'s codewords are rows `cw_stage_offset[s]` onwards of `cw_codewords`. The block is the sum of its stage codewords, added in int32 (see *Fixed point*). Non-zero padding after the last block is refused.',
+} as const;
+
 function codebookHeader(codebook: Codebook, patch: NonNullable<Codebook['patch']>, table: FixedPointTable, coding: IndexCoding): string {
   const meanBits = codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
   const sha = Buffer.from(codebook.checksum, 'hex');
@@ -132,14 +142,17 @@ ${structureTables(codebook)}
 
 function readme(codebook: Codebook, patch: NonNullable<Codebook['patch']>, table: FixedPointTable): string {
   const meanBits = codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
+  const sumText = codebook.structure.kind === 'residual' ? ' Residual stages: c is the sum of the block\'s stage entries, in int32 (eight int16 stages stay below 2^19).' : '';
   const pixelRule =
     table.type === 'uint8'
       ? 'Each entry is already the decoded pixel value: the studio rounds every codeword component half up and clamps it to 0..255, exactly what its own decoder does to a pixel, so this decoder reproduces the studio\'s output byte for byte.'
-      : `Each entry v is a residual r = v / 2^F (F = ${table.fractionBits}) around the block mean. With the block's m-bit mean code q (m = ${meanBits}), the pixel is clamp(r + (2q + 1) · 255 / 2^(m+1), 0, 255) rounded half up. The decoder computes the sum exactly in int32 units of 2^-(F+m+1), so it reproduces, byte for byte, the studio's decoder run with these rounded codewords; the cost of the rounding itself against the float codewords is what \`cellwright export\` prints.${table.saturated > 0 ? ` ${table.saturated} components did not fit ${table.type} and were saturated.` : ''}`;
+      : meanBits > 0
+        ? `Each entry v is a residual r = v / 2^F (F = ${table.fractionBits}) around the block mean.${sumText} With the block's m-bit mean code q (m = ${meanBits}), the pixel is clamp(c / 2^F + (2q + 1) · 255 / 2^(m+1), 0, 255) rounded half up. The decoder computes the sum exactly in int32 units of 2^-(F+m+1), so it reproduces, byte for byte, the studio's decoder run with these rounded codewords; the cost of the rounding itself against the float codewords is what \`cellwright export\` prints.${table.saturated > 0 ? ` ${table.saturated} components did not fit ${table.type} and were saturated.` : ''}`
+        : `Each entry v stands for v / 2^F (F = ${table.fractionBits}).${sumText} The pixel is clamp(c / 2^F, 0, 255) rounded half up, computed exactly in integers as (c + 2^(F-1)) >> F, so it reproduces, byte for byte, the studio's decoder run with these rounded codewords; the cost of the rounding against the float codewords is what \`cellwright export\` prints.${table.saturated > 0 ? ` ${table.saturated} components did not fit ${table.type} and were saturated.` : ''}`;
   return `# Cellwright reference decoder
 
 A decoder in portable C99 for images coded with one codebook (SHA-256 \`${codebook.checksum}\`):
-${codebook.size} codewords of ${patch.width} × ${patch.height} ${patch.color === 'rgb' ? 'RGB' : 'luma'} pixels${meanBits > 0 ? `, block means coded with ${meanBits} bits` : ''}.
+${codebook.size} codewords of ${patch.width} × ${patch.height} ${patch.color === 'rgb' ? 'RGB' : 'luma'} pixels${meanBits > 0 ? `, block means coded with ${meanBits} bits` : ''}; ${STRUCTURE_TEXT[codebook.structure.kind]}.
 It allocates nothing, uses no floating point and keeps no global state.
 
 ## Build
@@ -153,7 +166,7 @@ It allocates nothing, uses no floating point and keeps no global state.
 
 | file | what it is |
 |---|---|
-| \`cw_codebook.h\` | generated: geometry macros, the codebook checksum and the codeword table; included by \`cw_decode.c\` only |
+| \`cw_codebook.h\` | generated: geometry and layout macros, the codebook checksum, the codeword table and the structure's tables (Huffman code, tree children or stage offsets); included by \`cw_decode.c\` only |
 | \`cw_decode.h\`, \`cw_decode.c\` | the decoder (the API below) |
 | \`decode_file.c\` | the example program (it, not the decoder, uses the heap for the file and the image) |
 
@@ -165,20 +178,26 @@ It allocates nothing, uses no floating point and keeps no global state.
 
 \`cw_read_info\` checks the header and fills \`info\` (width, height, channels, and \`bytes\` = width × height × channels,
 the output size). \`cw_decode\` checks everything — every length, the CRC-32 of the payload, the markers, every index,
-and that the file was coded with this codebook (checksum, patch, colour, mean bits, size) — before writing a pixel,
+and that the file was coded with this codebook (checksum, patch, colour, mean bits, size, index layout) — before writing a pixel,
 then writes rows top to bottom, pixels left to right, channels R, G, B interleaved. It never reads outside
 \`in[0, in_len)\` nor writes outside \`out[0, info->bytes)\`. \`CW_OK\` is 0; each failure has its own code (see the
-header), among them \`CW_ERR_COMPRESSED\` for a deflate or brotli payload.
+header), among them \`CW_ERR_COMPRESSED\` for a deflate or brotli payload and \`CW_ERR_INDEX\` for a code that names no
+codeword.
 
 ## Container
 
-Container versions 1 and 2 (this studio writes up to ${CONTAINER_VERSION}), raw payload only (coding byte 0): encode with
+Container versions 1 to 3 (this studio writes up to ${CONTAINER_VERSION}), raw payload only (coding byte 0): encode with
 \`cellwright encode --payload raw\`, optionally \`--resync N\` for a resynchronisation marker (\`FF 52\` and the segment
-number, uint16 little-endian) before every N block rows. All integers little-endian; the 68-byte header holds the
-magic \`CWVQ\`, version, coding, colour, patch size, index bits, mean bits, marker interval, width, height, codebook size,
-the codebook's SHA-256, the payload length, its CRC-32 (ISO-HDLC) and the stored length. The payload is, per segment,
-the blocks' indices (b bits each, most significant bit first, zero-padded to a byte) and then their mean codes (m bits,
-the same). Images of more than 2^${Math.log2(MAX_BLOCKS)} blocks are refused. The studio's FORMAT.md is the full description.
+number, uint16 little-endian) before every N block rows. All integers little-endian; the 68-byte header (72 bytes in
+version 3) holds the magic \`CWVQ\`, version, coding, colour, patch size, index bits, mean bits, marker interval, width,
+height, codebook size, the codebook's SHA-256, the payload length, its CRC-32 (ISO-HDLC) and the stored length;
+version 3 adds the index layout (byte 68) and the residual stage count (byte 69). The payload is, per segment, the
+blocks' index stream and then their mean codes (m bits, most significant bit first, zero-padded to a byte).
+Images of more than 2^${Math.log2(MAX_BLOCKS)} blocks are refused. The studio's FORMAT.md is the full description.
+
+## Structure: ${STRUCTURE_TEXT[codebook.structure.kind]}
+
+${STRUCTURE_README[codebook.structure.kind]}
 
 ## Fixed point
 

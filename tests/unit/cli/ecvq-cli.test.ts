@@ -142,7 +142,8 @@ describe('cellwright export --target c of an entropy-constrained codebook', () =
     expect(run.status).toBe(0);
     const pgm = readFileSync(p('c.pgm'));
     const head = /^P5\n(\d+) (\d+)\n255\n/.exec(pgm.subarray(0, 32).toString('latin1'))!;
-    const decoded = await sharp(p('c-decoded.png')).raw().toBuffer({ resolveWithObject: true });
+    // The grey PNG reads back with its grey level in every channel; channel 0 is the decoded luma.
+    const decoded = await sharp(p('c-decoded.png')).extractChannel(0).raw().toBuffer({ resolveWithObject: true });
     expect([Number(head[1]), Number(head[2])]).toEqual([decoded.info.width, decoded.info.height]);
     expect(pgm.subarray(head[0].length).equals(decoded.data)).toBe(true);
   });

@@ -202,6 +202,15 @@ describe('exported C decoder, every structure', () => {
     expect(firmwareBundle(built.get('residual-luma-plain-432-int16')!.book, { residual: 'int16' }).table.fractionBits).toBe(6);
   });
 
+  it('allocates nothing and uses no floating point for any structure (general registers only, no allocator symbol)', () => {
+    const flags = process.arch === 'x64' || process.arch === 'arm64' ? ['-mgeneral-regs-only'] : [];
+    for (const b of built.values()) {
+      gcc([...STRICT, ...flags, '-c', 'cw_decode.c', '-o', 'cw_decode.o'], b.dir);
+      const undefinedSymbols = execFileSync('nm', ['-u', join(b.dir, 'cw_decode.o')], { encoding: 'utf8' });
+      expect(undefinedSymbols, b.dir).not.toMatch(/\b(malloc|calloc|realloc|free|alloca)\b/);
+    }
+  });
+
   it('returns an error for a few hundred seeded truncations and corruptions of version 3 containers, with no sanitizer report', () => {
     const next = lcg(20261206);
     let [rejected, accepted] = [0, 0];
@@ -253,7 +262,7 @@ describe('exported C decoder, every structure', () => {
     }
     expect(rejected + accepted).toBe(300);
     // Every truncation is caught by the lengths; most corruptions by the CRC-32 or the stream checks.
-    expect(rejected).toBeGreaterThanOrEqual(150);
+    expect(rejected).toBeGreaterThanOrEqual(200); // 247 of 300 in this seeded run
   });
 });
 

@@ -63,11 +63,14 @@ ${tableRows(symbols, 16)}
 `;
   }
   if (st.kind === 'tree') {
+    const { internal, children, root } = compactTree(st.children, codebook.size);
     return `
-/* The tree: node n's left and right child are cw_tree_children[2n] and [2n + 1], -1 for a leaf; node 0 is the root.
- * Every node has a row in cw_codewords; a block names a leaf. */
-static const int16_t cw_tree_children[${st.children.length}] = {
-${tableRows(Int32Array.from(st.children), 16)}
+/* The tree, internal nodes only, numbered in breadth-first order (0 the root when CW_CB_TREE_ROOT is 0): internal
+ * node i's left and right child are cw_tree_children[2i] and [2i + 1]; a value v >= 0 is another internal node, a
+ * value v < 0 the leaf whose codeword is row -1 - v of cw_codewords (only leaves have rows). */
+#define CW_CB_TREE_ROOT ${root}
+static const int16_t cw_tree_children[${Math.max(2, children.length)}] = {
+${tableRows(internal > 0 ? children : Int32Array.from([-1, -1]), 16)}
 };
 `;
   }
@@ -92,10 +95,47 @@ const STRUCTURE_README = {
   'entropy-constrained':
     'Each segment\'s index stream is preceded by its byte length N (uint32): the blocks\' canonical Huffman codes (RFC 1951 section 3.2.2: codes of one length are consecutive, in codeword order), most significant bit first. `cw_codebook.h` holds the code as `cw_huff_count[l]` (codes of length l) and `cw_huff_symbols` (codewords in code order); the decoder reads a code bit by bit and, after l bits, checks whether it lies among the codes of length l. A pattern no code starts with, a stream that ends inside a code, more than 7 bits or non-zero bits after the last code, and an N longer than every block at the longest code are refused.',
   tree:
-    'Each block names a leaf by its path from the root (0 left, 1 right, first decision first). `cw_tree_children[2n]` and `[2n + 1]` are node n\'s children, -1 for a leaf; every node has a row in `cw_codewords`. A balanced tree\'s paths all have its depth d bits (header byte 9) and the stream length follows from the block count; an unbalanced tree\'s stream is preceded by its byte length N (uint32). A stream that ends inside a path, and more than 7 bits or non-zero bits after the last path, are refused.',
+    'Each block names a leaf by its path from the root (0 left, 1 right, first decision first). `cw_tree_children[2i]` and `[2i + 1]` are internal node i\'s children (internal nodes numbered in breadth-first order, the root 0): a value v >= 0 is an internal node, v < 0 the leaf whose codeword is row -1 - v of `cw_codewords`, which holds the leaves only. A balanced tree\'s paths all have its depth d bits (header byte 9) and the stream length follows from the block count; an unbalanced tree\'s stream is preceded by its byte length N (uint32). A stream that ends inside a path, and more than 7 bits or non-zero bits after the last path, are refused.',
   residual:
     'Each block holds one index per stage, stage s in `cw_stage_bits[s]` bits, in stage order; stage s\'s codewords are rows `cw_stage_offset[s]` onwards of `cw_codewords`. The block is the sum of its stage codewords, added in int32 (see *Fixed point*). Non-zero padding after the last block is refused.',
 } as const;
+
+/**
+ * The tree as the C table holds it: internal nodes renumbered 0.. in node order, leaves as −1 − (their row among the
+ * leaves, in node order). `root` is 0, or −1 when the root itself is the only leaf.
+ */
+function compactTree(children: Int32Array, size: number): { internal: number; children: Int32Array; root: number; leaves: number[] } {
+  const id = new Int32Array(size);
+  const leaves: number[] = [];
+  let internal = 0;
+  for (let n = 0; n < size; n += 1) {
+    if (children[2 * n] === -1) {
+      id[n] = -1 - leaves.length;
+      leaves.push(n);
+    } else {
+      id[n] = internal;
+      internal += 1;
+    }
+  }
+  const out = new Int32Array(2 * internal);
+  for (let n = 0; n < size; n += 1) {
+    if (children[2 * n] === -1) continue;
+    out[2 * id[n]] = id[children[2 * n]];
+    out[2 * id[n] + 1] = id[children[2 * n + 1]];
+  }
+  return { internal, children: out, root: id[0] >= 0 ? 0 : -1, leaves };
+}
+
+/** The codeword rows the C table holds: a tree's leaves (in node order), every entry otherwise. */
+function emittedRows(codebook: Codebook, table: FixedPointTable): Int32Array {
+  const st = codebook.structure;
+  if (st.kind !== 'tree') return table.values;
+  const d = codebook.dimension;
+  const { leaves } = compactTree(st.children, codebook.size);
+  const out = new Int32Array(leaves.length * d);
+  leaves.forEach((n, row) => out.set(table.values.subarray(n * d, (n + 1) * d), row * d));
+  return out;
+}
 
 function codebookHeader(codebook: Codebook, patch: NonNullable<Codebook['patch']>, table: FixedPointTable, coding: IndexCoding): string {
   const meanBits = codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
@@ -104,7 +144,7 @@ function codebookHeader(codebook: Codebook, patch: NonNullable<Codebook['patch']
  * Generated by Cellwright from the codebook with SHA-256 ${codebook.checksum}.
  * Do not edit: export the codebook again instead. Include it from cw_decode.c only (it defines the tables).
  * Structure: ${STRUCTURE_TEXT[codebook.structure.kind]}.
- * Codewords: ${codebook.size} x ${codebook.dimension} components, row-major; component ((row * ${patch.width}) + column) * ${patch.channels} + channel.
+ * Codewords: ${emittedRows(codebook, table).length / codebook.dimension} x ${codebook.dimension} components${codebook.structure.kind === 'tree' ? ' (the leaves, in node order)' : ''}, row-major; component ((row * ${patch.width}) + column) * ${patch.channels} + channel.
  * Format: ${qFormatText(table)}.
  */
 #ifndef CW_CODEBOOK_H
@@ -132,8 +172,8 @@ static const uint8_t cw_codebook_sha256[32] = {
 ${tableRows(Int32Array.from(sha), 16)}
 };
 
-static const cw_codeword_t cw_codewords[${codebook.size * codebook.dimension}] = {
-${tableRows(table.values, Math.max(1, Math.min(16, codebook.dimension)))}
+static const cw_codeword_t cw_codewords[${emittedRows(codebook, table).length}] = {
+${tableRows(emittedRows(codebook, table), Math.max(1, Math.min(16, codebook.dimension)))}
 };
 ${structureTables(codebook)}
 #endif

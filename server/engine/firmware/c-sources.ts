@@ -262,17 +262,17 @@ static cw_status next_huffman(cw_bits *r, uint32_t *symbol) {
 #endif
 
 #if CW_CB_LAYOUT == 2
-/* A tree path: from the root, one bit per level (0 left, 1 right) until a leaf. */
+/* A tree path: from the root, one bit per level (0 left, 1 right) until a leaf, named by its row in cw_codewords. */
 static cw_status next_leaf(cw_bits *r, uint32_t *leaf) {
-  uint32_t n = 0;
-  while (cw_tree_children[2u * n] >= 0) {
+  int32_t v = CW_CB_TREE_ROOT;
+  while (v >= 0) {
     uint32_t bit;
     if (r->pos >= r->bits) return CW_ERR_INDEX; /* the stream ends inside a path */
     bit = (r->p[r->pos >> 3] >> (7u - (uint32_t)(r->pos & 7u))) & 1u;
     r->pos++;
-    n = (uint32_t)cw_tree_children[2u * n + bit];
+    v = cw_tree_children[2u * (uint32_t)v + bit];
   }
-  *leaf = n;
+  *leaf = (uint32_t)(-1 - v);
   return CW_OK;
 }
 #endif

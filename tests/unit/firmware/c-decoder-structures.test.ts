@@ -192,6 +192,12 @@ describe('exported C decoder, every structure', () => {
     });
   }
 
+  it('holds a tree\'s leaves only: 8 rows of the 15-node balanced tree, 13 of the 25-node comb', () => {
+    const rows = (name: string) => readFileSync(join(built.get(name)!.dir, 'cw_codebook.h'), 'utf8').match(/cw_codewords\[(\d+)\]/)![1];
+    expect(rows('tree-balanced-luma-plain-d3')).toBe(String(8 * 16));
+    expect(rows('tree-comb-luma-mean4-d12-int8')).toBe(String(13 * 6));
+  });
+
   it('holds residual stages in a signed table, and plain single-table structures in uint8', () => {
     const types = Object.fromEntries(CASES.map((c) => [c.name, firmwareBundle(built.get(c.name)!.book, { residual: c.residual }).table.type]));
     expect(types).toEqual({

@@ -17,8 +17,10 @@ export const EXPORT_C_HELP = `Target c: cellwright export --codebook CODEBOOK.js
                     cw_codebook.h (the codewords in fixed point), cw_decode.h and cw_decode.c (a reference decoder in
                     portable C99: no heap, no floating point, raw payloads only), decode_file.c (decode_file IN OUT
                     writes a PGM or PPM) and README.md (build: gcc -std=c99 -O2 -o decode_file *.c; the Q format; the API).
-                    Plain codebooks are stored as uint8 and decode byte for byte as the studio decodes; mean-removed
-                    residuals as signed Q format (--residual, default int16), with the largest fraction that fits.
+                    Every structure: full search, entropy-constrained (the Huffman code tables), tree (leaves and
+                    children) and residual stages. Plain codebooks are stored as uint8 and decode byte for byte as the
+                    studio decodes; mean-removed residuals and residual stages as signed Q format (--residual, default
+                    int16), with the largest fraction that fits.
   --images DIR      measure the PSNR cost of the fixed-point rounding on these (held-out) images: each is coded once
                     and decoded with the float and with the fixed-point codewords
   --threads N       worker threads for --images

@@ -3,7 +3,7 @@
 // (not files read at run time) so the engine stays pure and the bundle is the same wherever the studio runs.
 
 export const CW_DECODE_H = String.raw`/*
- * Cellwright reference decoder for coded images (container versions 1 and 2, raw payload only).
+ * Cellwright reference decoder for coded images (container versions 1 to 3, raw payload only).
  * Portable C99: no heap allocation, no floating point, no global state; safe to call from several threads.
  * The codebook it decodes with is compiled in from cw_codebook.h.
  */
@@ -19,15 +19,15 @@ typedef enum {
   CW_ERR_ARGUMENT = 1,      /* a null pointer where a buffer is needed */
   CW_ERR_MAGIC = 2,         /* not a coded image: the first four bytes are not "CWVQ" */
   CW_ERR_TRUNCATED = 3,     /* shorter than the 68-byte header or than the payload length the header gives */
-  CW_ERR_VERSION = 4,       /* a container version this decoder does not read (it reads 1 and 2) */
+  CW_ERR_VERSION = 4,       /* a container version this decoder does not read (it reads 1 to 3) */
   CW_ERR_COMPRESSED = 5,    /* a deflate or brotli payload: this decoder reads the raw payload only */
   CW_ERR_HEADER = 6,        /* a header field out of range (unknown coding or colour, patch side, bits, reserved byte) */
-  CW_ERR_CODEBOOK = 7,      /* coded with another codebook (checksum) or for another geometry than the compiled one */
-  CW_ERR_LENGTH = 8,        /* bytes after the payload, or a payload length that does not fit the image geometry */
+  CW_ERR_CODEBOOK = 7,      /* coded with another codebook (checksum), geometry or index layout than the compiled one */
+  CW_ERR_LENGTH = 8,        /* bytes after the payload or a stream, or a length that does not fit the image geometry */
   CW_ERR_TOO_LARGE = 9,     /* more than 2^28 blocks */
   CW_ERR_CRC = 10,          /* the payload's CRC-32 does not match the header */
   CW_ERR_MARKER = 11,       /* a resynchronisation marker is damaged */
-  CW_ERR_INDEX = 12,        /* a block refers to a codeword the codebook does not have */
+  CW_ERR_INDEX = 12,        /* a block's code names no codeword, a stream ends inside a code, or its padding is not zero */
   CW_ERR_BUFFER = 13        /* the output buffer is smaller than width x height x channels bytes */
 } cw_status;
 
@@ -60,21 +60,35 @@ const char *cw_status_message(cw_status status);
 
 export const CW_DECODE_C = String.raw`/*
  * Cellwright reference decoder. The container layout is FORMAT.md's "Coded image container" (summarised in this
- * bundle's README.md). Arithmetic is in 32-bit integers throughout; the bounds that keep it from overflowing are
- * given where they matter.
+ * bundle's README.md). Arithmetic is in 32-bit integers (64-bit for bit counts); the bounds that keep it from
+ * overflowing are given where they matter.
  */
 #include "cw_decode.h"
 #include "cw_codebook.h"
 
 #define CW_HEADER_BYTES 68u
+#define CW_HEADER_BYTES_V3 72u
 #define CW_MAX_BLOCKS ((uint32_t)1 << 28)
 #define CW_MARKER_BYTES 4u
+#define CW_LENGTH_BYTES 4u
+/* Index layouts (version 3 header byte 68); 0 is the fixed-length layout of versions 1 and 2. */
+#define CW_LAYOUT_FIXED 0u
+#define CW_LAYOUT_HUFFMAN 1u
+#define CW_LAYOUT_TREE 2u
+#define CW_LAYOUT_RESIDUAL 3u
 
 typedef struct {
   uint32_t version, coding, colour, patch_width, patch_height, index_bits, mean_bits, resync_rows;
-  uint32_t width, height, size, payload_length, payload_crc, stored_length;
+  uint32_t width, height, size, payload_length, payload_crc, stored_length, header_bytes;
   uint32_t blocks_x, blocks_y;
 } cw_header;
+
+/* A most-significant-bit-first reader over bytes p[0 .. bits / 8). */
+typedef struct {
+  const uint8_t *p;
+  uint64_t bits;
+  uint64_t pos;
+} cw_bits;
 
 static uint32_t read_u32(const uint8_t *p) {
   return (uint32_t)p[0] | ((uint32_t)p[1] << 8) | ((uint32_t)p[2] << 16) | ((uint32_t)p[3] << 24);
@@ -99,16 +113,16 @@ static uint32_t index_bits_for(uint32_t k) {
   return b;
 }
 
-/* Bytes of n values of "bits" bits, packed and zero-padded to a byte. n <= 2^28 and bits <= 14 keep n * bits < 2^32. */
-static uint32_t packed_length(uint32_t n, uint32_t bits) {
-  return (n * bits + 7u) / 8u;
+/* Bytes of n values of "bits" bits (0..32), packed and zero-padded to a byte; in 64 bits, as n * 32 may pass 2^32. */
+static uint64_t packed_length(uint32_t n, uint32_t bits) {
+  return ((uint64_t)n * bits + 7u) / 8u;
 }
 
-/* Reads "bits" (0..14) bits most significant first, starting "bit" bits into p. */
-static uint32_t read_bits(const uint8_t *p, uint32_t bit, uint32_t bits) {
+/* Reads "bits" (0..16) bits most significant first, starting "bit" bits into p. */
+static uint32_t read_bits(const uint8_t *p, uint64_t bit, uint32_t bits) {
   uint32_t value = 0;
   while (bits > 0u) {
-    uint32_t left = 8u - (bit & 7u);
+    uint32_t left = 8u - (uint32_t)(bit & 7u);
     uint32_t take = bits < left ? bits : left;
     uint32_t byte = p[bit >> 3];
     value = (value << take) | ((byte >> (left - take)) & (((uint32_t)1 << take) - 1u));
@@ -123,19 +137,26 @@ static uint32_t rows_per_segment(const cw_header *h) {
   return h->resync_rows > 0u ? h->resync_rows : h->blocks_y;
 }
 
+/* Index bits a block takes when the layout is fixed-length (CW_CB_VARIABLE 0), and the most it can take. */
+static uint32_t max_bits_per_block(const cw_header *h) {
+  return h->index_bits;
+}
+
 /*
- * The payload length the geometry needs. At most 2^28 blocks: per block at most 14 + 8 bits, per segment at most
- * two padding bytes and a 4-byte marker, and at most 2^28 segments, so the sum stays below 7 * 2^28 < 2^31.
+ * The payload length the geometry needs (fixed-length layouts) or allows at most (variable-length ones: every block
+ * at its longest code). In 64 bits: at most 2^28 blocks of at most 32 + 8 bits plus 8 bytes per segment.
  */
-static uint32_t payload_length_for(const cw_header *h) {
+static uint64_t payload_bound(const cw_header *h) {
   uint32_t per = rows_per_segment(h);
-  uint32_t total = 0;
+  uint64_t total = 0;
   uint32_t row;
   for (row = 0; row < h->blocks_y; row += per) {
     uint32_t rows = h->blocks_y - row < per ? h->blocks_y - row : per;
     uint32_t n = rows * h->blocks_x;
     if (row > 0u) total += CW_MARKER_BYTES;
-    total += packed_length(n, h->index_bits) + packed_length(n, h->mean_bits);
+    if (CW_CB_VARIABLE) total += CW_LENGTH_BYTES;
+    total += packed_length(n, max_bits_per_block(h)) + packed_length(n, h->mean_bits);
+    if (h->blocks_y - row <= per) break; /* the last segment: row + per could wrap near 2^32 */
   }
   return total;
 }
@@ -143,12 +164,16 @@ static uint32_t payload_length_for(const cw_header *h) {
 static cw_status parse_header(const uint8_t *in, size_t in_len, cw_header *h, cw_image_info *info) {
   static const uint8_t magic[4] = {0x43, 0x57, 0x56, 0x51};
   uint32_t i;
+  uint64_t bound;
   size_t pixels;
   if (in == NULL || info == NULL) return CW_ERR_ARGUMENT;
   if (in_len < 4u) return CW_ERR_MAGIC;
   for (i = 0; i < 4u; i++) if (in[i] != magic[i]) return CW_ERR_MAGIC;
   if (in_len < CW_HEADER_BYTES) return CW_ERR_TRUNCATED;
   h->version = in[4];
+  if (h->version < 1u || h->version > 3u) return CW_ERR_VERSION;
+  h->header_bytes = h->version >= 3u ? CW_HEADER_BYTES_V3 : CW_HEADER_BYTES;
+  if (in_len < h->header_bytes) return CW_ERR_TRUNCATED;
   h->coding = in[5];
   h->colour = in[6];
   h->patch_width = in[7];
@@ -162,25 +187,37 @@ static cw_status parse_header(const uint8_t *in, size_t in_len, cw_header *h, cw
   h->payload_length = read_u32(in + 56);
   h->payload_crc = read_u32(in + 60);
   h->stored_length = read_u32(in + 64);
-  if (h->version < 1u || h->version > 2u) return CW_ERR_VERSION;
   if (h->coding == 1u || h->coding == 2u) return CW_ERR_COMPRESSED;
   if (h->coding != 0u || h->colour > 1u) return CW_ERR_HEADER;
   if (h->version == 1u && in[11] != 0u) return CW_ERR_HEADER;
   if (h->patch_width < 2u || h->patch_width > 16u || h->patch_height < 2u || h->patch_height > 16u) return CW_ERR_HEADER;
-  if (h->mean_bits > 8u || h->width < 1u || h->height < 1u) return CW_ERR_HEADER;
-  if (h->size < 1u || h->index_bits != index_bits_for(h->size)) return CW_ERR_HEADER;
-  if (in_len - CW_HEADER_BYTES < h->stored_length) return CW_ERR_TRUNCATED;
-  if (in_len - CW_HEADER_BYTES > h->stored_length) return CW_ERR_LENGTH;
+  if (h->mean_bits > 8u || h->width < 1u || h->height < 1u || h->size < 1u) return CW_ERR_HEADER;
+  if (h->version >= 3u) {
+    /* Layout 0 is never written as version 3; stages only with the residual layout; bytes 70, 71 reserved. */
+    if (in[68] < 1u || in[68] > 3u || in[70] != 0u || in[71] != 0u || h->index_bits > 32u) return CW_ERR_HEADER;
+    if ((in[68] == CW_LAYOUT_RESIDUAL) != (in[69] > 0u)) return CW_ERR_HEADER;
+  } else if (h->index_bits != index_bits_for(h->size)) {
+    return CW_ERR_HEADER;
+  }
+  if (in_len - h->header_bytes < h->stored_length) return CW_ERR_TRUNCATED;
+  if (in_len - h->header_bytes > h->stored_length) return CW_ERR_LENGTH;
   for (i = 0; i < 32u; i++) if (in[24 + i] != cw_codebook_sha256[i]) return CW_ERR_CODEBOOK;
   if (h->colour != CW_CB_COLOUR || h->patch_width != CW_CB_PATCH_WIDTH || h->patch_height != CW_CB_PATCH_HEIGHT ||
       h->mean_bits != CW_CB_MEAN_BITS || h->size != CW_CB_SIZE) {
+    return CW_ERR_CODEBOOK;
+  }
+  /* The layout, index bits and stages must be the compiled codebook's (full search: versions 1 and 2 only). */
+  if ((h->version >= 3u ? in[68] : CW_LAYOUT_FIXED) != CW_CB_LAYOUT || h->index_bits != CW_CB_HEADER_BITS ||
+      (h->version >= 3u ? in[69] : 0u) != CW_CB_STAGES) {
     return CW_ERR_CODEBOOK;
   }
   /* Written so that nothing overflows: ceil(a / b) as (a - 1) / b + 1 for a >= 1. */
   h->blocks_x = (h->width - 1u) / h->patch_width + 1u;
   h->blocks_y = (h->height - 1u) / h->patch_height + 1u;
   if (h->blocks_x > CW_MAX_BLOCKS / h->blocks_y) return CW_ERR_TOO_LARGE;
-  if (h->payload_length != payload_length_for(h) || h->stored_length != h->payload_length) return CW_ERR_LENGTH;
+  bound = payload_bound(h);
+  if (CW_CB_VARIABLE ? h->payload_length > bound : h->payload_length != bound) return CW_ERR_LENGTH;
+  if (h->stored_length != h->payload_length) return CW_ERR_LENGTH;
   info->width = h->width;
   info->height = h->height;
   info->channels = CW_CB_CHANNELS;
@@ -198,92 +235,189 @@ cw_status cw_read_info(const uint8_t *in, size_t in_len, cw_image_info *info) {
   return parse_header(in, in_len, &h, info);
 }
 
-/* Checks the markers and that every index names a codeword. */
-static cw_status check_payload(const uint8_t *payload, const cw_header *h) {
-  uint32_t per = rows_per_segment(h);
-  uint32_t offset = 0;
-  uint32_t segment = 0;
-  uint32_t row;
-  for (row = 0; row < h->blocks_y; row += per, segment++) {
-    uint32_t rows = h->blocks_y - row < per ? h->blocks_y - row : per;
-    uint32_t n = rows * h->blocks_x;
-    uint32_t i;
-    if (row > 0u) {
-      const uint8_t *m = payload + offset;
-      if (m[0] != 0xFFu || m[1] != 0x52u || m[2] != (segment & 0xFFu) || m[3] != ((segment >> 8) & 0xFFu)) return CW_ERR_MARKER;
-      offset += CW_MARKER_BYTES;
+#if CW_CB_LAYOUT == 1
+/*
+ * One canonical Huffman code (RFC 1951 section 3.2.2: codes of one length are consecutive, in codeword order), read
+ * bit by bit: after l bits the code is a code of length l exactly when it lies in [first_l, first_l + count_l), and
+ * then it names symbol cw_huff_symbols[offset_l + code - first_l] (symbols sorted by code length, then number).
+ */
+static cw_status next_huffman(cw_bits *r, uint32_t *symbol) {
+  int32_t code = 0, first = 0, offset = 0;
+  uint32_t len;
+  for (len = 1; len <= CW_CB_HEADER_BITS; len++) {
+    int32_t count = (int32_t)cw_huff_count[len];
+    if (r->pos >= r->bits) return CW_ERR_INDEX; /* the stream ends inside a code */
+    code |= (int32_t)((r->p[r->pos >> 3] >> (7u - (uint32_t)(r->pos & 7u))) & 1u);
+    r->pos++;
+    if (code - first < count) {
+      *symbol = cw_huff_symbols[offset + (code - first)];
+      return CW_OK;
     }
-    for (i = 0; i < n; i++) {
-      if (read_bits(payload + offset, i * h->index_bits, h->index_bits) >= CW_CB_SIZE) return CW_ERR_INDEX;
-    }
-    offset += packed_length(n, h->index_bits) + packed_length(n, h->mean_bits);
+    offset += count;
+    first = (first + count) << 1;
+    code <<= 1;
+  }
+  return CW_ERR_INDEX; /* no code starts with these bits */
+}
+#endif
+
+#if CW_CB_LAYOUT == 2
+/* A tree path: from the root, one bit per level (0 left, 1 right) until a leaf, named by its row in cw_codewords. */
+static cw_status next_leaf(cw_bits *r, uint32_t *leaf) {
+  int32_t v = CW_CB_TREE_ROOT;
+  while (v >= 0) {
+    uint32_t bit;
+    if (r->pos >= r->bits) return CW_ERR_INDEX; /* the stream ends inside a path */
+    bit = (r->p[r->pos >> 3] >> (7u - (uint32_t)(r->pos & 7u))) & 1u;
+    r->pos++;
+    v = cw_tree_children[2u * (uint32_t)v + bit];
+  }
+  *leaf = (uint32_t)(-1 - v);
+  return CW_OK;
+}
+#endif
+
+/*
+ * One block's table entries: stage codewords (residual: CW_CB_STAGES of them, as table rows) or the one codeword.
+ * Fixed-length reads stay inside the stream because its length was checked against the block count.
+ */
+static cw_status next_block(cw_bits *r, uint32_t *rows) {
+#if CW_CB_LAYOUT == 1
+  return next_huffman(r, rows);
+#elif CW_CB_LAYOUT == 2
+  return next_leaf(r, rows);
+#elif CW_CB_LAYOUT == 3
+  uint32_t s;
+  for (s = 0; s < CW_CB_STAGES; s++) {
+    rows[s] = cw_stage_offset[s] + read_bits(r->p, r->pos, cw_stage_bits[s]);
+    r->pos += cw_stage_bits[s];
   }
   return CW_OK;
+#else
+  rows[0] = read_bits(r->p, r->pos, CW_CB_HEADER_BITS);
+  r->pos += CW_CB_HEADER_BITS;
+  return rows[0] < CW_CB_SIZE ? CW_OK : CW_ERR_INDEX;
+#endif
 }
 
 /*
- * One output component. Plain codebooks store the decoder's own rounding of each component (clamped to 0..255), so
- * the entry is the pixel. Mean-removed ones store residual c in Q(F) and the pixel is clamp(c / 2^F + level(q))
- * rounded half up, level(q) = (2q + 1) * 255 / 2^(m + 1) as in FORMAT.md; both terms are exact in units of
- * 2^-(F + m + 1), so the sum is exact and the rounding is the float decoder's.
+ * One output component from the (stage-summed) stored value c and the mean code q. Plain codebooks (uint8 table)
+ * store the decoder's own rounding of each component, so c is the pixel. Signed tables hold c in Q(F); the pixel is
+ * clamp(c / 2^F + level(q), 0, 255) rounded half up, level(q) = (2q + 1) * 255 / 2^(m + 1) as in FORMAT.md; both
+ * terms are exact in units of 2^-(F + m + 1), so the sum is exact and the rounding is the float decoder's.
  */
-static uint8_t component(int32_t c, uint32_t q) {
 #if CW_CB_MEAN_BITS > 0
-  const int32_t shift = CW_CB_FRACTION_BITS + CW_CB_MEAN_BITS + 1;
-  /* |c| <= 2^15, so c * 2^(m + 1) < 2^24; (2q + 1) * 255 * 2^F < 2^29 for F <= 12: the sum fits int32. */
-  int32_t sum = c * ((int32_t)1 << (CW_CB_MEAN_BITS + 1)) + (int32_t)(2u * q + 1u) * 255 * ((int32_t)1 << CW_CB_FRACTION_BITS);
-  if (sum <= 0) return 0;
-  if (sum >= (int32_t)255 << shift) return 255;
-  return (uint8_t)((sum + ((int32_t)1 << (shift - 1))) >> shift);
+#define CW_SHIFT (CW_CB_FRACTION_BITS + CW_CB_MEAN_BITS + 1)
+#else
+#define CW_SHIFT CW_CB_FRACTION_BITS
+#endif
+static uint8_t component(int32_t c, uint32_t q) {
+  int32_t sum;
+#if CW_CB_MEAN_BITS > 0
+  /* |c| <= 8 * 2^15 (eight int16 stages), so c * 2^(m + 1) <= 2^27; (2q + 1) * 255 * 2^F < 2^29 for F <= 12. */
+  sum = c * ((int32_t)1 << (CW_CB_MEAN_BITS + 1)) + (int32_t)(2u * q + 1u) * 255 * ((int32_t)1 << CW_CB_FRACTION_BITS);
 #else
   (void)q;
-  return (uint8_t)c;
+  sum = c;
 #endif
+  if (sum <= 0) return 0;
+  if (sum >= (int32_t)255 << CW_SHIFT) return 255;
+#if CW_SHIFT > 0
+  return (uint8_t)((sum + ((int32_t)1 << (CW_SHIFT - 1))) >> CW_SHIFT);
+#else
+  return (uint8_t)sum;
+#endif
+}
+
+/* Writes one block: its codeword (residual: the stages summed in int32), plus the mean, cropped to the image. */
+static void put_block(uint8_t *out, const cw_header *h, uint32_t block_row, uint32_t block_col, const uint32_t *rows, uint32_t q) {
+  uint32_t x0 = block_col * CW_CB_PATCH_WIDTH;
+  uint32_t y0 = block_row * CW_CB_PATCH_HEIGHT;
+  uint32_t r, col, ch;
+  /* x0 < width and y0 < height, so the differences cannot wrap where a sum near 2^32 could. */
+  for (r = 0; r < CW_CB_PATCH_HEIGHT && r < h->height - y0; r++) {
+    for (col = 0; col < CW_CB_PATCH_WIDTH && col < h->width - x0; col++) {
+      size_t at = ((size_t)(y0 + r) * h->width + (x0 + col)) * CW_CB_CHANNELS;
+      for (ch = 0; ch < CW_CB_CHANNELS; ch++) {
+        uint32_t k = (r * CW_CB_PATCH_WIDTH + col) * CW_CB_CHANNELS + ch;
+        int32_t c = 0;
+        uint32_t s;
+        for (s = 0; s < CW_CB_ROWS_PER_BLOCK; s++) c += (int32_t)cw_codewords[(size_t)rows[s] * CW_CB_DIMENSION + k];
+        out[at + ch] = component(c, q);
+      }
+    }
+  }
+}
+
+/*
+ * Walks the payload segment by segment: markers, each variable-length stream's length, every code, the zero padding
+ * after a version 3 stream, and that the segments fill the payload exactly. With out == NULL it only checks; cw_decode
+ * runs it twice, so nothing is written unless everything checks out.
+ */
+static cw_status walk_payload(const uint8_t *payload, const cw_header *h, uint8_t *out) {
+  uint32_t per = rows_per_segment(h);
+  uint64_t pos = 0;
+  uint32_t segment = 0;
+  uint32_t row = 0;
+  uint32_t rows[CW_CB_ROWS_PER_BLOCK];
+  for (;;) {
+    uint32_t seg_rows = h->blocks_y - row < per ? h->blocks_y - row : per;
+    uint32_t n = seg_rows * h->blocks_x;
+    uint64_t length = packed_length(n, max_bits_per_block(h));
+    uint64_t means_length = packed_length(n, h->mean_bits);
+    uint64_t means;
+    cw_bits r;
+    uint32_t i;
+    if (segment > 0u) {
+      const uint8_t *m = payload + pos;
+      if (h->payload_length - pos < CW_MARKER_BYTES) return CW_ERR_MARKER;
+      if (m[0] != 0xFFu || m[1] != 0x52u || m[2] != (segment & 0xFFu) || m[3] != ((segment >> 8) & 0xFFu)) return CW_ERR_MARKER;
+      pos += CW_MARKER_BYTES;
+    }
+    if (CW_CB_VARIABLE) {
+      uint32_t given;
+      if (h->payload_length - pos < CW_LENGTH_BYTES) return CW_ERR_LENGTH;
+      given = read_u32(payload + pos);
+      pos += CW_LENGTH_BYTES;
+      if (given > length) return CW_ERR_LENGTH; /* longer than every block at its longest code */
+      length = given;
+    }
+    if (h->payload_length - pos < length || h->payload_length - pos - length < means_length) return CW_ERR_LENGTH;
+    r.p = payload + pos;
+    r.bits = length * 8u;
+    r.pos = 0;
+    means = pos + length;
+    for (i = 0; i < n; i++) {
+      cw_status status = next_block(&r, rows);
+      if (status != CW_OK) return status;
+      if (out != NULL) put_block(out, h, row + i / h->blocks_x, i % h->blocks_x, rows, read_bits(payload + means, (uint64_t)i * h->mean_bits, h->mean_bits));
+    }
+    /* Version 3 streams hold exactly n codes: fewer than 8 bits, all zero, may follow the last. */
+    if (h->version >= 3u) {
+      uint64_t left = r.bits - r.pos;
+      if (left >= 8u) return CW_ERR_LENGTH;
+      if (left > 0u && read_bits(r.p, r.pos, (uint32_t)left) != 0u) return CW_ERR_INDEX;
+    }
+    pos += length + means_length;
+    segment++;
+    if (h->blocks_y - row <= per) break; /* the last segment: row + per could wrap near 2^32 */
+    row += per;
+  }
+  return pos == h->payload_length ? CW_OK : CW_ERR_LENGTH;
 }
 
 cw_status cw_decode(const uint8_t *in, size_t in_len, uint8_t *out, size_t out_cap, cw_image_info *info) {
   cw_header h;
   const uint8_t *payload;
-  uint32_t per, offset = 0, row;
   cw_status status = parse_header(in, in_len, &h, info);
   if (status != CW_OK) return status;
-  payload = in + CW_HEADER_BYTES;
+  payload = in + h.header_bytes;
   if (crc32_iso_hdlc(payload, h.payload_length) != h.payload_crc) return CW_ERR_CRC;
-  status = check_payload(payload, &h);
+  status = walk_payload(payload, &h, NULL);
   if (status != CW_OK) return status;
   if (out == NULL) return CW_ERR_ARGUMENT;
   if (out_cap < info->bytes) return CW_ERR_BUFFER;
-  per = rows_per_segment(&h);
-  for (row = 0; row < h.blocks_y; row += per) {
-    uint32_t rows = h.blocks_y - row < per ? h.blocks_y - row : per;
-    uint32_t n = rows * h.blocks_x;
-    uint32_t i;
-    const uint8_t *indices;
-    const uint8_t *means;
-    if (row > 0u) offset += CW_MARKER_BYTES;
-    indices = payload + offset;
-    means = indices + packed_length(n, h.index_bits);
-    for (i = 0; i < n; i++) {
-      uint32_t index = read_bits(indices, i * h.index_bits, h.index_bits);
-      uint32_t q = read_bits(means, i * h.mean_bits, h.mean_bits);
-      const cw_codeword_t *codeword = cw_codewords + (size_t)index * CW_CB_DIMENSION;
-      uint32_t x0 = (i % h.blocks_x) * CW_CB_PATCH_WIDTH;
-      uint32_t y0 = (row + i / h.blocks_x) * CW_CB_PATCH_HEIGHT;
-      uint32_t r, col, ch;
-      /* Pixels of edge blocks beyond the image were padding: cropped here. */
-      /* x0 < width and y0 < height, so the differences cannot wrap where a sum near 2^32 could. */
-      for (r = 0; r < CW_CB_PATCH_HEIGHT && r < h.height - y0; r++) {
-        for (col = 0; col < CW_CB_PATCH_WIDTH && col < h.width - x0; col++) {
-          size_t at = ((size_t)(y0 + r) * h.width + (x0 + col)) * CW_CB_CHANNELS;
-          for (ch = 0; ch < CW_CB_CHANNELS; ch++) {
-            out[at + ch] = component((int32_t)codeword[(r * CW_CB_PATCH_WIDTH + col) * CW_CB_CHANNELS + ch], q);
-          }
-        }
-      }
-    }
-    offset += packed_length(n, h.index_bits) + packed_length(n, h.mean_bits);
-  }
-  return CW_OK;
+  return walk_payload(payload, &h, out);
 }
 
 const char *cw_status_message(cw_status status) {
@@ -292,15 +426,15 @@ const char *cw_status_message(cw_status status) {
     case CW_ERR_ARGUMENT: return "a required buffer is missing";
     case CW_ERR_MAGIC: return "not a Cellwright coded image (wrong magic bytes)";
     case CW_ERR_TRUNCATED: return "truncated: the file is shorter than its header says";
-    case CW_ERR_VERSION: return "unsupported container version (this decoder reads 1 and 2)";
+    case CW_ERR_VERSION: return "unsupported container version (this decoder reads 1 to 3)";
     case CW_ERR_COMPRESSED: return "compressed (deflate or brotli) payload: this decoder reads raw payloads only; encode with --payload raw";
     case CW_ERR_HEADER: return "a header field is out of range";
-    case CW_ERR_CODEBOOK: return "coded with a different codebook or geometry than this decoder's";
-    case CW_ERR_LENGTH: return "the payload length does not fit the image, or bytes follow the payload";
+    case CW_ERR_CODEBOOK: return "coded with a different codebook, geometry or index layout than this decoder's";
+    case CW_ERR_LENGTH: return "the payload length does not fit the image, or bytes follow the payload or a stream";
     case CW_ERR_TOO_LARGE: return "the image is larger than this decoder accepts";
     case CW_ERR_CRC: return "payload CRC-32 does not match (the file is corrupt)";
     case CW_ERR_MARKER: return "a resynchronisation marker is damaged";
-    case CW_ERR_INDEX: return "a block refers to a codeword the codebook does not have";
+    case CW_ERR_INDEX: return "a block's code names no codeword, or a stream ends inside a code or has non-zero padding";
     case CW_ERR_BUFFER: return "the output buffer is too small";
   }
   return "unknown status";

@@ -15,7 +15,7 @@ const RANGES = { uint8: [0, 255], int8: [-128, 127], int16: [-32768, 32767] } as
 
 /** The codewords as the exported C table holds them. */
 export interface FixedPointTable {
-  /** C element type: uint8_t for plain codebooks, int8_t or int16_t for mean-removed residuals */
+  /** C element type: uint8_t for plain codebooks, int8_t or int16_t for mean-removed residuals and residual stages */
   type: keyof typeof RANGES;
   /** F of the Q format: a stored value v stands for v / 2^F (0 for uint8) */
   fractionBits: number;
@@ -35,12 +35,15 @@ function roundHalfUp(x: number): number {
 /**
  * Plain codebooks: each component rounded half up and clamped to 0..255, exactly what the decoder does to a pixel,
  * so a table-lookup decoder reproduces the float decoder bit for bit.
- * Mean-removed codebooks: residuals in signed Q(F) (`width` bits, two's complement), F the largest number of fraction
- * bits (≤ MAX_FRACTION_BITS) at which every component still fits; at F = 0 the values that do not fit saturate.
+ * Mean-removed codebooks and residual stages (mean-removed or not): signed Q(F) (`width` bits, two's complement), one F
+ * for the whole table, the largest number of fraction bits (≤ MAX_FRACTION_BITS) at which every component still fits;
+ * at F = 0 the values that do not fit saturate. Every stored value v / 2^F is exact in float32 and a sum of at most
+ * 8 stages of them is exact in float64, so the engine's decoder with these values equals the C decoder's integer sum.
  */
 export function fixedPointTable(codebook: Codebook, width: ResidualWidth = 'int16'): FixedPointTable {
   const src = codebook.codewords;
-  if (codebook.preprocessing.kind === 'none') {
+  // Residual stages are summed before the pixel rule, so only signed values (later stages are differences) fit them.
+  if (codebook.preprocessing.kind === 'none' && codebook.structure.kind !== 'residual') {
     const values = new Int32Array(src.length);
     // The decoder clamps to 0..255 before it rounds, so an entry clamped here decodes exactly as its float value does:
     // nothing is lost, and nothing counts as saturated.

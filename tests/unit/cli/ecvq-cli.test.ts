@@ -1,3 +1,4 @@
+import { execFileSync, spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -130,11 +131,21 @@ describe('cellwright train --lambda', () => {
 });
 
 describe('cellwright export --target c of an entropy-constrained codebook', () => {
-  it('is refused with one line, since the C decoder reads fixed-length indices only', async () => {
+  it('writes a C decoder that decodes the CLI\'s Huffman-coded file byte for byte as cellwright decode does', async () => {
     const r = await cli('export', '--codebook', p('ecvq.lambda-300.json'), '--target', 'c', '--out', p('firmware'));
-    expect(r.status).toBe(1);
-    expect(r.stderr).toBe('cellwright: error: the C export decodes full-search codebooks (fixed-length indices); this codebook is entropy-constrained\n');
-    expect(existsSync(p('firmware', 'cw_codebook.h'))).toBe(false);
+    expect(r.status, r.stderr).toBe(0);
+    expect(readFileSync(p('firmware', 'cw_codebook.h'), 'utf8')).toMatch(/#define CW_CB_LAYOUT 1 /);
+    // Debian's gcc, as tests/unit/firmware does (scripts/ensure-gcc.sh installs it when missing).
+    execFileSync('gcc', ['-std=c99', '-Wall', '-Wextra', '-Werror', '-O2', '-o', 'decode_file', 'cw_decode.c', 'decode_file.c'], { cwd: p('firmware'), stdio: ['ignore', 'ignore', 'pipe'] });
+    const run = spawnSync(p('firmware', 'decode_file'), [p('c.cwq'), p('c.pgm')], { encoding: 'utf8' });
+    expect(run.stderr).toBe('');
+    expect(run.status).toBe(0);
+    const pgm = readFileSync(p('c.pgm'));
+    const head = /^P5\n(\d+) (\d+)\n255\n/.exec(pgm.subarray(0, 32).toString('latin1'))!;
+    // The grey PNG reads back with its grey level in every channel; channel 0 is the decoded luma.
+    const decoded = await sharp(p('c-decoded.png')).extractChannel(0).raw().toBuffer({ resolveWithObject: true });
+    expect([Number(head[1]), Number(head[2])]).toEqual([decoded.info.width, decoded.info.height]);
+    expect(pgm.subarray(head[0].length).equals(decoded.data)).toBe(true);
   });
 });
 

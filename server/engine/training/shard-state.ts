@@ -1,6 +1,7 @@
 import { cellStatistics } from '../core/accumulate-centroids';
 import { shardEnd, shardStart, type ShardLayout } from '../core/shard-layout';
-import type { CellMember, ShardAssignment, ShardMove, ShardSums } from '../core/types';
+import { shardSplitSums } from '../core/split';
+import type { CellMember, ShardAssignment, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../core/types';
 import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
 
 /**
@@ -14,6 +15,9 @@ export class ShardState {
     /** Index of the shard's first vector in the whole training set. */
     readonly offset: number,
     private readonly search: NearestSearch,
+    /** The shard's vectors, n × d. */
+    private readonly vectors: Float32Array,
+    private readonly d: number,
   ) {}
 
   /** Shard s of `vectors` (the whole training set, N × d) in `layout`, on the crew's threads. */
@@ -22,7 +26,7 @@ export class ShardState {
   ): Promise<ShardState> {
     const start = shardStart(layout, s);
     const slice = vectors.subarray(start * d, shardEnd(layout, s) * d);
-    return new ShardState(s, start, await NearestSearch.open(slice, d, { crew, maxK, signal }));
+    return new ShardState(s, start, await NearestSearch.open(slice, d, { crew, maxK, signal }), slice, d);
   }
 
   /** A nearest-codeword pass with codewords K × d: the shard's statistics and centroid sums. */
@@ -52,6 +56,11 @@ export class ShardState {
       distances[v] = 0;
     }
     return this.search.partialSums(k, signal);
+  }
+
+  /** The sums for splitting the cells asked along their directions, on the last pass's partition (core/split.ts). */
+  splitSums(request: SplitRequest): ShardSplitSums {
+    return shardSplitSums(this.vectors, this.d, this.search.indices, request);
   }
 
   /** Whether a vector of the whole training set is this shard's. */

@@ -1,5 +1,5 @@
 import { createHash } from 'node:crypto';
-import type { CellMember, ShardAssignment, ShardMove, ShardSums } from '../../engine';
+import type { CellMember, ShardAssignment, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../../engine';
 import type { ColorMode } from '../../engine';
 import type { ImageRef } from './tasks';
 
@@ -40,6 +40,8 @@ export type ShardOp =
   | { op: 'assign'; k: number; codewords: Float32Array }
   | { op: 'members'; cell: number; asks: { shard: number; skip: number; take: number }[] }
   | { op: 'move'; k: number; moves: ShardMove[] }
+  /** The sums an LBG split along principal directions needs (engine core/split.ts), on the last pass's partition. */
+  | { op: 'splitSums'; request: SplitRequest }
   | { op: 'close' };
 
 export interface ShardMessage {
@@ -55,7 +57,7 @@ export interface ShardMessage {
   op: ShardOp;
 }
 
-export type ShardValue = ShardAssignment | CellMember[] | ShardSums;
+export type ShardValue = ShardAssignment | CellMember[] | ShardSums | ShardSplitSums;
 
 export interface ShardReply {
   seq: number;

@@ -1,7 +1,7 @@
 import { throwIfAborted } from './errors';
 import { runLloyd, type LloydContext } from './lloyd';
 import { principalHalves } from './split';
-import type { TrainedCodebook } from './types';
+import type { IterationStat, TrainedCodebook } from './types';
 
 /**
  * Re-seeding after Lloyd has converged, in the manner of the enhanced LBG (Patanè & Russo 2001): a cell's share of
@@ -28,7 +28,7 @@ export async function shiftCodewords(ctx: LloydContext, book: TrainedCodebook): 
   const { d } = ctx;
   const k = book.size;
   const count = Math.floor(k / SHIFT_FRACTION) || 1;
-  if (k < 3 || k > SHIFT_MAX_SIZE) return book;
+  if (k < 3 || k > SHIFT_MAX_SIZE || ctx.maxIterations === 0) return book;
   let best = book;
   for (let round = 0; round < SHIFT_ROUNDS; round++) {
     throwIfAborted(ctx.signal);
@@ -44,15 +44,20 @@ export async function shiftCodewords(ctx: LloydContext, book: TrainedCodebook): 
       start.set(upper.subarray(r * d, (r + 1) * d), j * d);
       start.set(lower.subarray(r * d, (r + 1) * d), donors[r] * d);
     });
-    // A trial reports nothing while it runs (it may be dropped); a kept one's updates are reported once kept.
-    const trial = await runLloyd({ ...ctx, onIteration: undefined, progress: undefined }, start, k);
+    // A trial reports nothing while it runs (it may be dropped), and may take as many updates as the size's own run
+    // did (at least one), so a round costs at most that run again.
+    const budget = Math.max(1, Math.min(ctx.maxIterations, book.iterations));
+    const trial = await runLloyd({ ...ctx, maxIterations: budget, onIteration: undefined, progress: undefined }, start, k);
     if (trial.distortion < best.distortion) {
-      // One trace for the size: the trial's updates continue the numbering (its iteration 0, the shifted start, is
-      // not a centroid update).
-      const done = best.iterations;
-      const more = trial.trace.slice(1).map((t) => ({ ...t, iteration: done + t.iteration }));
-      best = { ...trial, iterations: done + trial.iterations, trace: [...best.trace, ...more] };
-      for (const t of more) ctx.onIteration?.(t);
+      // A kept shift is one entry of the size's trace: the updates it took and the distortion it reached, so the
+      // trace still never rises (the trial's own start is above the converged codebook it left).
+      const elapsedMs = trial.trace.reduce((sum, t) => sum + t.elapsedMs, 0);
+      const entry: IterationStat = {
+        size: k, iteration: best.iterations + trial.iterations, distortion: trial.distortion,
+        emptyRepaired: trial.trace.reduce((sum, t) => sum + t.emptyRepaired, 0), elapsedMs,
+      };
+      best = { ...trial, iterations: entry.iteration, trace: [...best.trace, entry] };
+      ctx.onIteration?.(entry);
       continue;
     }
     // Not kept: the shards go back to the kept codebook's partition for the next split.

@@ -5,7 +5,6 @@ import { EngineError, abortError, throwIfAborted } from '../core/errors';
 import { initKmeansPlusPlus, initRandom } from '../core/init';
 import { runLloyd, type LloydContext } from '../core/lloyd';
 import { createRng } from '../core/rng';
-import { shiftCodewords } from '../core/shift-codewords';
 import { splitAlongPrincipalDirections } from '../core/split';
 import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook } from '../core/types';
 import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from '../core/validate';
@@ -138,7 +137,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
       for (let i = 1; i < sizes.length; i++) {
         throwIfAborted(signal);
         const next = await splitAlongPrincipalDirections(book, d, sizes[i], shards, signal);
-        book = await shiftCodewords(ctx, await runLloyd(ctx, next, sizes[i]));
+        book = await runLloyd(ctx, next, sizes[i]);
         codebooks.push(book);
         doneWeight += sizes[i];
       }

@@ -1,4 +1,4 @@
-import type { CellStatistics, ShardAssignment, ShardSums } from './types';
+import type { CellStatistics, ShardAssignment, ShardSplitSums, ShardSums } from './types';
 
 /*
  * The shard rule, in one place. A shard's statistics are formed from zero in vector order (its counts, per-cell
@@ -50,4 +50,34 @@ export function foldCentroids(
     for (let i = 0; i < d; i++) codewords[o + i] = total[o + i] / c;
   }
   return usage;
+}
+
+/**
+ * Split sums of every shard (in shard order) folded by the same rule: a cell's scatter starts with the first shard
+ * holding any of its vectors, its upper (lower) sums with the first shard holding any of its upper (lower) vectors.
+ */
+export function foldSplitSums(parts: readonly ShardSplitSums[], m: number, d: number): ShardSplitSums {
+  const counts = new Uint32Array(m);
+  const upperCounts = new Uint32Array(m);
+  const scatter = new Float64Array(m * d);
+  const upperSums = new Float64Array(m * d);
+  const lowerSums = new Float64Array(m * d);
+  const add = (into: Float64Array, from: Float64Array, o: number, first: boolean) => {
+    if (first) for (let i = 0; i < d; i++) into[o + i] = from[o + i];
+    else for (let i = 0; i < d; i++) into[o + i] += from[o + i];
+  };
+  for (const part of parts) {
+    for (let r = 0; r < m; r++) {
+      const n = part.counts[r];
+      if (n === 0) continue;
+      const o = r * d;
+      const up = part.upperCounts[r];
+      add(scatter, part.scatter, o, counts[r] === 0);
+      if (up > 0) add(upperSums, part.upperSums, o, upperCounts[r] === 0);
+      if (n - up > 0) add(lowerSums, part.lowerSums, o, counts[r] - upperCounts[r] === 0);
+      counts[r] += n;
+      upperCounts[r] += up;
+    }
+  }
+  return { counts, scatter, upperCounts, upperSums, lowerSums };
 }

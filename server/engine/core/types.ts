@@ -40,11 +40,6 @@ export interface TrainOptions {
   maxIterations?: number;
   /** Default 1. */
   seed?: number;
-  /**
-   * LBG splitting: each codeword c becomes c ± δσ·(1, …, 1), σ the RMS error per component
-   * of its cell. Default 0.01: small enough to start both halves inside the parent cell.
-   */
-  splitDelta?: number;
   /** K × d, row-major: when given, initialisation is skipped and one codebook is trained. */
   initialCodewords?: Float32Array;
   /** Default: what the shared thread budget grants. */
@@ -124,6 +119,31 @@ export interface ShardAssignment extends ShardSums {
   searched: number;
 }
 
+/**
+ * One shard's sums for splitting cells along given directions (core/split.ts), from its last pass's partition, each
+ * formed from zero in vector order. For cell r of the request, with centre c and direction u, and t = (x − c)·u
+ * summed over i = 0..d−1 in that order:
+ */
+export interface ShardSplitSums {
+  /** m: the shard's vectors of each cell asked. */
+  counts: Uint32Array;
+  /** m × d: Σ (x − c)·t, the cell's scatter about c applied to u (one power-iteration step). */
+  scatter: Float64Array;
+  /** m: the vectors with t > 0. */
+  upperCounts: Uint32Array;
+  /** m × d: their float64 sum. */
+  upperSums: Float64Array;
+  /** m × d: the float64 sum of the others (t ≤ 0). */
+  lowerSums: Float64Array;
+}
+
+/** Cells to split (ascending), their centres (m × d) and directions (m × d, float64), one row per cell. */
+export interface SplitRequest {
+  cells: Uint32Array;
+  centres: Float32Array;
+  directions: Float64Array;
+}
+
 /** A vector of a cell, by its index in the whole training set, and its squared distance to its codeword. */
 export interface CellMember {
   index: number;
@@ -171,6 +191,8 @@ export interface ShardExecutor {
    * applies it to its D². Steps come in order c = 0, 1, …; a seeding comes before the first pass.
    */
   seed(k: number, c: number, choice: SeedChoice, signal?: AbortSignal): Promise<SeedStep>;
+  /** Every shard's sums for splitting the cells asked along their directions, on the last pass's partition. */
+  splitSums(request: SplitRequest, signal?: AbortSignal): Promise<ShardSplitSums[]>;
   close(): Promise<void>;
 }
 

@@ -1,7 +1,8 @@
 import { addRow } from '../core/accumulate-centroids';
 import { exactDistance } from '../core/exact-distance';
 import { seedSteps, ShardSeeding } from '../core/init';
-import type { CellMember, ShardAssignment, ShardExecutor, ShardMove, ShardSums } from '../core/types';
+import { shardSplitSums } from '../core/split';
+import type { CellMember, ShardAssignment, ShardExecutor, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../core/types';
 
 /**
  * One shard over a small vector set (N × d, row-major) whose nearest search is a brute-force scan with exact float64
@@ -74,6 +75,9 @@ export function exactShard(vectors: Float32Array, d: number): ShardExecutor & { 
         distances[m.index] = 0;
       }
       return new Map([[0, sumsOf(k)]]);
+    },
+    async splitSums(request: SplitRequest): Promise<ShardSplitSums[]> {
+      return [shardSplitSums(vectors, d, indices, request)];
     },
     async close() {},
   };

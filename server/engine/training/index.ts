@@ -5,7 +5,7 @@ import { EngineError, abortError, throwIfAborted } from '../core/errors';
 import { initRandom, seedOverShards } from '../core/init';
 import { runLloyd, type LloydContext } from '../core/lloyd';
 import { createRng } from '../core/rng';
-import { splitCodebook } from '../core/split';
+import { splitAlongPrincipalDirections } from '../core/split';
 import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook } from '../core/types';
 import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from '../core/validate';
 import { NearestSearch } from '../parallel/nearest-search';
@@ -14,7 +14,7 @@ import { NearestKernel } from '../wasm/kernel';
 import { INIT, INIT_METHODS, RUN_DEFAULTS, SEED } from '../vocabulary';
 
 export type {
-  CellMember, SeedChoice, SeedStep, ShardAssignment, ShardExecutor, ShardMove, ShardSums,
+  CellMember, SeedChoice, SeedStep, ShardAssignment, ShardExecutor, ShardMove, ShardSplitSums, ShardSums, SplitRequest,
   Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook,
 } from '../core/types';
 export { createRng, type Rng } from '../core/rng';
@@ -29,7 +29,6 @@ export { threadBudget, ThreadBudget, shutdownEngineWorkers, engineWorkerStats, s
 export const DEFAULT_EPSILON = RUN_DEFAULTS.epsilon;
 export const DEFAULT_MAX_ITERATIONS = RUN_DEFAULTS.maxIterations;
 export const DEFAULT_SEED = RUN_DEFAULTS.seed;
-export const DEFAULT_SPLIT_DELTA = 0.01;
 /** Largest codebook the engine accepts (2^24; b = 14 needs 2^14). */
 export const MAX_K = 1 << 24;
 
@@ -55,9 +54,6 @@ export async function train(vectors: Float32Array, dimension: number, options: T
     ? DEFAULT_MAX_ITERATIONS
     : checkInteger('maxIterations', options.maxIterations, 0, 1_000_000);
   const seed = options.seed === undefined ? DEFAULT_SEED : checkInteger('seed', options.seed, SEED.min, SEED.max);
-  const delta = options.splitDelta === undefined
-    ? DEFAULT_SPLIT_DELTA
-    : checkNumber('splitDelta', options.splitDelta, 0, 1, true);
   if (options.threads !== undefined) checkInteger('threads', options.threads, 1, 1024);
   if (options.initialCodewords !== undefined) {
     checkVectors(options.initialCodewords, d, 'initialCodewords');
@@ -130,7 +126,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
       doneWeight += 1;
       for (let i = 1; i < sizes.length; i++) {
         throwIfAborted(signal);
-        const next = splitCodebook(book, d, sizes[i], delta);
+        const next = await splitAlongPrincipalDirections(book, d, sizes[i], shards, signal);
         book = await runLloyd(ctx, next, sizes[i]);
         codebooks.push(book);
         doneWeight += sizes[i];

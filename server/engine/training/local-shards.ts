@@ -41,6 +41,9 @@ export async function openLocalShards(
       }
       return out;
     },
+    async splitSums(request) {
+      return shards.map((shard) => shard.splitSums(request));
+    },
     async close() {
       for (const shard of shards) shard.close();
       crew.close();

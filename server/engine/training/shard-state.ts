@@ -1,7 +1,8 @@
 import { cellStatistics } from '../core/accumulate-centroids';
 import { shardEnd, shardStart, type ShardLayout } from '../core/shard-layout';
-import type { CellMember, ShardAssignment, ShardMove, ShardSums } from '../core/types';
+import type { CellMember, ShardAssignment, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../core/types';
 import { ShardSeeding } from '../core/init';
+import { shardSplitSums } from '../core/split';
 import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
 
 /**
@@ -75,6 +76,11 @@ export class ShardState {
       distances[v] = 0;
     }
     return this.search.partialSums(k, signal);
+  }
+
+  /** The sums for splitting the cells asked along their directions, on the last pass's partition (core/split.ts). */
+  splitSums(request: SplitRequest): ShardSplitSums {
+    return shardSplitSums(this.vectors, this.d, this.search.indices, request);
   }
 
   /** Whether a vector of the whole training set is this shard's. */

@@ -1,7 +1,7 @@
 import { randomUUID } from 'node:crypto';
 import { Redis } from 'ioredis';
 import type { Logger } from '../../config';
-import { shardLayout, type CellMember, type SeedChoice, type SeedStep, type ShardAssignment, type ShardExecutor, type ShardSums } from '../../engine';
+import { shardLayout, type CellMember, type SeedChoice, type SeedStep, type ShardAssignment, type ShardExecutor, type ShardSplitSums, type ShardSums } from '../../engine';
 import { computeKeys } from './keys';
 import { borrowSample } from './sample-cache';
 import { fromWire, toWire } from './tasks';
@@ -234,6 +234,10 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
           const touched = all.filter((s) => moves.some((mv) => mv.index >= s * layout.size && mv.index < Math.min(n, (s + 1) * layout.size)));
           const values = await request(touched, { op: 'move', k, moves: [...moves] }, signal);
           return new Map(touched.map((s) => [s, values.get(s) as ShardSums]));
+        },
+        async splitSums(split, signal) {
+          const values = await request(all, { op: 'splitSums', request: split }, signal);
+          return all.map((s) => values.get(s) as ShardSplitSums);
         },
         async close() {
           input.signal?.removeEventListener('abort', onAbort);

@@ -188,6 +188,7 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
           hosted.passOf.set(shard, message.seq);
         }
         else if (op.op === 'move') value = await state.move(op.moves, op.k, signal);
+        else if (op.op === 'splitSums') value = state.splitSums(op.request);
         else {
           const ask = op.asks.find((a) => a.shard === shard)!;
           value = state.members(op.cell, ask.skip, ask.take) satisfies CellMember[];

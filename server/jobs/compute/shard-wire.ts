@@ -1,5 +1,5 @@
 import { createHash } from 'node:crypto';
-import type { CellMember, ShardAssignment, ShardMove, ShardSums } from '../../engine';
+import type { CellMember, ShardAssignment, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../../engine';
 import type { ColorMode } from '../../engine';
 import type { ImageRef } from './tasks';
 
@@ -48,6 +48,8 @@ export type ShardOp =
    * applies codeword c to its D² and answers with its total.
    */
   | { op: 'seed'; k: number; c: number; index?: number; pick?: { shard: number; residual: number } }
+  /** The sums an LBG split along principal directions needs (engine core/split.ts), on the last pass's partition. */
+  | { op: 'splitSums'; request: SplitRequest }
   | { op: 'close' };
 
 export interface ShardMessage {
@@ -65,8 +67,8 @@ export interface ShardMessage {
   op: ShardOp;
 }
 
-/** A pass's partial, a cell's members, a move's sums, or (seed) the shard's D² total. */
-export type ShardValue = ShardAssignment | CellMember[] | ShardSums | number;
+/** A pass's partial, a cell's members, a move's sums, a split's sums, or (seed) the shard's D² total. */
+export type ShardValue = ShardAssignment | CellMember[] | ShardSums | ShardSplitSums | number;
 
 export interface ShardReply {
   seq: number;

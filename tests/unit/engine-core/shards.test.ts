@@ -103,6 +103,11 @@ function spreadShards(vectors: Float32Array, machines: number, loseAfter: number
       }
       return out;
     },
+    async splitSums(request) {
+      const out = [];
+      for (let s = 0; s < layout.count; s++) out.push((await open(s, 64)).splitSums(request));
+      return out;
+    },
     async close() {
       for (const state of states.values()) state.close();
       for (const crew of crews.values()) crew.close();
@@ -185,6 +190,18 @@ describe('training over shards', () => {
     expect(bytes(one.codebooks[0].codewords)).toBe(bytes(reference));
     expect(bytes(two.codebooks[0].codewords)).toBe(bytes(reference));
     expect(bytes(spread.codebooks[0].codewords)).toBe(bytes(reference));
+  });
+
+  it('gives the same split-trained ladder bit for bit on one thread, two threads and shards spread over machines', async () => {
+    // Every split asks the shards for its direction and halves' sums (ShardExecutor.splitSums), folded in shard order.
+    const ladder = { k: 16, init: 'split' as const, epsilon: 1e-4, maxIterations: 8 };
+    const one = await train(vectors, D, { ...ladder, threads: 1 });
+    const two = await train(vectors, D, { ...ladder, threads: 2 });
+    const spread = await train(vectors, D, { ...ladder, openShards: async () => spreadShards(vectors, 2, 5) });
+    const bytes = (r: typeof one) => r.codebooks.map((b) => Buffer.from(b.codewords.buffer).toString('hex'));
+    expect(one.codebooks.map((b) => b.size)).toEqual([1, 2, 4, 8, 16]);
+    expect(bytes(two)).toEqual(bytes(one));
+    expect(bytes(spread)).toEqual(bytes(one));
   });
 
   it('equals the plainly written Lloyd iteration with the shard rule for the sums', async () => {

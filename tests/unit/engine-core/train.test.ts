@@ -40,7 +40,6 @@ describe('train', () => {
       [v, 2, { k: 2, init: 'median' }],
       [v, 2, { k: 2, init: 'split', epsilon: -1 }],
       [v, 2, { k: 2, init: 'split', maxIterations: -1 }],
-      [v, 2, { k: 2, init: 'split', splitDelta: 0 }],
       [v, 2, { k: 2, init: 'random', initialCodewords: new Float32Array(3) }],
       [v, 2, { k: 2, init: 'random', threads: 0 }],
     ];

@@ -79,3 +79,28 @@ export type ReorderResponse = z.infer<typeof reorderResponse>;
 
 /** GET /api/teams/:teamId/codebooks/:codebookId/firmware?residual=int16 → the C bundle as a zip attachment. */
 export const firmwareQuery = z.object({ residual: z.enum(RESIDUAL_WIDTHS).default('int16') }).strict();
+
+/**
+ * GET /api/teams/:teamId/codebooks/:codebookId/firmware/rounding?residual=int16&setId=… → what the firmware table's fixed
+ * point costs on the held-out images (the run's, or a named set's) before the bundle is exported.
+ */
+export const roundingQuery = z
+  .object({ residual: z.enum(RESIDUAL_WIDTHS).default('int16'), setId: queryInt(1, 2 ** 31 - 1).optional() })
+  .strict();
+export type RoundingQuery = z.infer<typeof roundingQuery>;
+export const roundingResponse = z.object({
+  codebookId: z.number().int(),
+  images: z.number().int(),
+  tableType: z.string(),
+  fractionBits: z.number().int(),
+  saturated: z.number().int(),
+  /** Bytes of the firmware's codeword table (entries × element size). */
+  tableBytes: z.number().int(),
+  /** PSNR of the float decoder and of the fixed-point table (null when exact), and the difference in dB. */
+  psnrFloat: psnr,
+  psnrFixed: psnr,
+  costDb: z.number(),
+  /** Output values (pixel × channel) on which the two decoders differ. */
+  differing: z.number().int(),
+});
+export type RoundingResponse = z.infer<typeof roundingResponse>;

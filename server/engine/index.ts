@@ -102,7 +102,7 @@ export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasure
 export { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type BdResult, type BdSummary, type RdPoint } from './metrics/bd-rate';
 export { bdAgainstCodecs, bdTableCsv, BD_TABLE_CSV_COLUMNS, type BdTableRow, type CurveRate } from './metrics/bd-table';
 export {
-  fixedPointTable, withFixedPointCodewords, RESIDUAL_WIDTHS,
+  fixedPointTable, fixedPointTableBytes, withFixedPointCodewords, RESIDUAL_WIDTHS,
   type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
 } from './firmware';
 

@@ -1,9 +1,9 @@
-import type { ChannelQuery, ChannelResponse, ReorderBody, ReorderResponse } from '../contracts';
+import type { ChannelQuery, ChannelResponse, ReorderBody, ReorderResponse, RoundingQuery, RoundingResponse } from '../contracts';
 import { DEFAULT_BERS, STUDIO_CHANNEL_MAX_PIXEL_RUNS, STUDIO_REORDER_MAX_BITS } from '../contracts';
 import type { Database } from '../db';
 import type { CodebookWithCodewords } from '../db/repositories/codebooks';
 import type { RunImageRecord } from '../db/repositories/runs';
-import { firmwareZip, psnrForJson, type ChannelCurve } from '../engine';
+import { firmwareBundle, firmwareZip, fixedPointCost, fixedPointTableBytes, loadImage, psnrForJson, type ChannelCurve } from '../engine';
 import { badRequest, notFound } from '../errors';
 import type { ChannelTask, ReorderTaskResult } from '../jobs/tasks/channel.task';
 import { recordAudit } from './audit';
@@ -106,6 +106,34 @@ export function createCodebookChannelService(deps: CodebookChannelDeps) {
         return newId;
       });
       return { codebook: await deps.codebooks.get(teamId, id), ber: body.ber, channelDistortionBefore: r.before, channelDistortionAfter: r.after, swaps: r.swaps };
+    },
+
+    /**
+     * The PSNR cost of the firmware table's fixed point on held-out images (the run's, or a named set's), shown before
+     * the bundle is exported: the engine's float decoder against the table's, on this thread under the slots' bounds.
+     */
+    async rounding(teamId: number, codebookId: number, q: RoundingQuery, signal: AbortSignal): Promise<RoundingResponse> {
+      const codebook = await mustFind(teamId, codebookId);
+      const images = await imagesFor(teamId, codebook, q.setId);
+      if (images.length === 0) throw badRequest('There are no images to measure the rounding on');
+      const release = await slots.acquire(signal);
+      try {
+        const book = engineCodebookOf(codebook);
+        const { table } = firmwareBundle(book, { residual: q.residual });
+        const pixels = [];
+        for (const image of images) {
+          signal.throwIfAborted();
+          pixels.push(await loadImage(deps.store.path(image.sha256), codebook.color, image.fileName));
+        }
+        const cost = await fixedPointCost(book, table, pixels, { signal });
+        return {
+          codebookId, images: images.length, tableType: table.type, fractionBits: table.fractionBits, saturated: table.saturated,
+          tableBytes: fixedPointTableBytes(table),
+          psnrFloat: psnrForJson(cost.psnrFloat), psnrFixed: psnrForJson(cost.psnrFixed), costDb: cost.costDb, differing: cost.differing,
+        };
+      } finally {
+        release();
+      }
     },
 
     /** The firmware bundle (`cellwright export --target c`) as a zip, dated by the codebook; recorded as an export. */

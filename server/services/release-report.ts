@@ -2,7 +2,7 @@ import { createHash } from 'node:crypto';
 import type { ChannelResponse, CurvePoint, ReleaseReport } from '../contracts';
 import type { CodebookWithCodewords, Database } from '../db';
 import type { EvaluationRecord } from '../db/repositories/evaluations';
-import { encode, firmwareBundle, fixedPointCost, loadImage, psnrForJson, tileErrors, type Codebook, type PixelImage } from '../engine';
+import { encode, firmwareBundle, fixedPointCost, fixedPointTableBytes, loadImage, psnrForJson, tileErrors, type Codebook, type PixelImage } from '../engine';
 import { DEFAULT_BD_METHOD, type StructureKind } from '../engine/vocabulary';
 import { AppError, conflict, notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
@@ -19,8 +19,6 @@ export const REPORT_WORST_TILES = 8;
 export const REPORT_MAX_IMAGES = 64;
 /** Computed reports kept in memory: a release never changes, so an entry never goes stale. */
 const REPORT_MEMO_ENTRIES = 16;
-
-const ELEMENT_BYTES = { uint8: 1, int8: 1, int16: 2 } as const;
 
 type Computed = Pick<ReleaseReport, 'worstTiles' | 'decoderCost' | 'checksums' | 'channel'>;
 
@@ -98,7 +96,7 @@ export function createReleaseReportService(deps: {
         tableType: bundle.table.type,
         fractionBits: bundle.table.fractionBits,
         saturated: bundle.table.saturated,
-        tableBytes: bundle.table.values.length * ELEMENT_BYTES[bundle.table.type],
+        tableBytes: fixedPointTableBytes(bundle.table),
         rounding: { psnrFloat: psnrForJson(rounding.psnrFloat), psnrFixed: psnrForJson(rounding.psnrFixed), costDb: rounding.costDb, differing: rounding.differing },
       },
       checksums: {

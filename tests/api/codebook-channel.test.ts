@@ -7,7 +7,7 @@ import { join } from 'node:path';
 import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { channelCurve, decodeImage, encode, firmwareBundle, parseCodebook, shutdownEngineWorkers, type Codebook } from '../../server/engine';
+import { channelCurve, decodeImage, encode, firmwareBundle, parseCodebook, reconstruct, shutdownEngineWorkers, type Codebook } from '../../server/engine';
 import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
 import { createSetWith, finishedRun, seabedPngs } from '../helpers/studio';
 
@@ -94,6 +94,38 @@ describe('channel curve', () => {
     const fits = await request(t.app).get(url(`${codebookId}/channel?setId=${setId}&seeds=1&ber=0.01`)).set(bearer(team.viewer));
     expect(fits.status).toBe(200);
     expect(fits.body.images).toBe(1);
+  });
+});
+
+describe('fixed-point rounding cost before export', () => {
+  it('gives the float decoder\'s PSNR of the codebook\'s own evaluation, and the table\'s PSNR a hand-rounded table gives', async () => {
+    const res = await request(t.app).get(url(`${codebookId}/firmware/rounding`)).set(bearer(team.viewer));
+    expect(res.status).toBe(200);
+    const book = await exported(codebookId);
+    // The float decoder is the studio's, so its PSNR over the held-out images is the evaluation's (pooled over every
+    // component of every image, PSNR = 10·log10(255²/MSE), common practice).
+    const { evaluations } = (await request(t.app).get(url(`${codebookId}/evaluations`)).set(bearer(team.viewer))).body;
+    expect(res.body.psnrFloat).toBeCloseTo(evaluations.at(-1).psnr, 9);
+    // A plain codebook's table is 8-bit unsigned, one byte per component (issue 13: uint8 for plain codebooks).
+    expect(res.body).toMatchObject({ codebookId, images: heldOutIds.length, tableType: 'uint8', fractionBits: 0, tableBytes: book.size * book.dimension });
+    // The table's PSNR, recomputed here: every codeword rounded half up to 0..255 and the images coded and decoded with it.
+    const rounded = { ...book, codewords: book.codewords.map((v) => Math.min(255, Math.max(0, Math.floor(v + 0.5)))) };
+    let sse = 0;
+    let n = 0;
+    for (const id of heldOutIds) {
+      const image = await decodeImage(await originalOf(id), 'luma');
+      const back = reconstruct(rounded, (await encode(book, image)).encoded);
+      for (let p = 0; p < back.length; p++) sse += (back[p] - image.pixels[p]) ** 2;
+      n += back.length;
+    }
+    expect(res.body.psnrFixed).toBeCloseTo(10 * Math.log10((255 * 255) / (sse / n)), 6);
+    // The decoder rounds codeword values half up to 8 bits anyway, so a plain codebook's uint8 table decodes to the same
+    // pixels: no cost and no differing value (a mean-removed table's cost is checked in tests/unit/firmware).
+    expect(res.body).toMatchObject({ costDb: 0, differing: 0, saturated: 0 });
+  });
+
+  it('refuses a codebook of another team with 404', async () => {
+    expect((await request(t.app).get(url(`${codebookId}/firmware/rounding`)).set(bearer(outsider))).status).toBe(404);
   });
 });
 

@@ -13,6 +13,14 @@ export const MAX_FRACTION_BITS = 12;
 
 const RANGES = { uint8: [0, 255], int8: [-128, 127], int16: [-32768, 32767] } as const;
 
+/** Bytes of one stored value of each C element type. */
+const ELEMENT_BYTES = { uint8: 1, int8: 1, int16: 2 } as const satisfies Record<keyof typeof RANGES, number>;
+
+/** Bytes the exported C codeword table takes on the device (entries × element size). */
+export function fixedPointTableBytes(table: Pick<FixedPointTable, 'type' | 'values'>): number {
+  return table.values.length * ELEMENT_BYTES[table.type];
+}
+
 /** The codewords as the exported C table holds them. */
 export interface FixedPointTable {
   /** C element type: uint8_t for plain codebooks, int8_t or int16_t for mean-removed residuals and residual stages */

@@ -2,7 +2,7 @@ import type { z } from 'zod';
 import {
   bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
   anomalyJobBody, denoiseJobBody, modelJobParams, modelJobResponse, modelJobViewParams,
-  channelQuery, channelResponse, firmwareQuery, reorderBody, reorderResponse,
+  channelQuery, channelResponse, firmwareQuery, reorderBody, reorderResponse, roundingQuery, roundingResponse,
   acceptedResponse,
   activityQuery,
   activityResponse,
@@ -250,6 +250,11 @@ const codebookRoutes: RouteDescription[] = [
   {
     method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/reorder', tag: 'Codebooks', summary: 'Index assignment for a noisy channel (binary switching): the reordered codebook saved as a new one', access: 'engineer', input: { params: codebookParams, body: reorderBody },
     responses: { 201: json(reorderResponse, 'The new codebook and the expected channel distortion before and after') },
+    errors: { 429: 'Too many computations in progress; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/firmware/rounding', tag: 'Codebooks', summary: 'The PSNR cost of the firmware table\u2019s fixed point on held-out images, before export', access: 'member', input: { params: codebookParams, query: roundingQuery },
+    responses: { 200: json(roundingResponse, 'The float and fixed-point PSNR and their difference') },
     errors: { 429: 'Too many computations in progress; Retry-After says when' },
   },
   {

@@ -23,6 +23,7 @@ import { AnomalyView } from '../../features/codebooks/components/anomaly-view';
 import { DenoiseView } from '../../features/codebooks/components/denoise-view';
 import { ChannelCurveView, ReorderAction } from '../../features/codebooks/components/channel-view';
 import { firmwareZipUrl } from '../../features/codebooks/api/get-channel';
+import { FirmwareRounding } from '../../features/codebooks/components/firmware-rounding';
 import { cellMse, codewordMean, usagePercent, usageSummary } from '../../features/codebooks/cell-stats';
 import { fixedRate, formatBpp, formatBytes, formatDb, formatMse } from '../../features/codebooks/format';
 import { requireTeam } from '../session';
@@ -216,6 +217,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
                 SHA-256 <span className="num break-all text-ink-900">{codebook.checksum}</span>
               </p>
             </div>
+            <FirmwareRounding teamId={teamId} codebookId={codebook.id} hasHeldOut={codebook.runId !== null} />
             <CautionNote />
             <p className="text-xs text-ink-600">Created {formatDateTime(codebook.createdAt)}</p>
           </div>

@@ -458,6 +458,17 @@ export const routes: RouteCase[] = [
     objectScoped: true,
   },
   {
+    name: 'firmware rounding cost',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/firmware/rounding',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    // The world's codebook is imported, so it has no held-out images of its own: the set is named.
+    query: (w) => `setId=${w.setId}`,
+    objectScoped: true,
+  },
+  {
     name: 'firmware bundle as zip',
     method: 'GET',
     path: '/api/teams/:teamId/codebooks/:codebookId/firmware',

@@ -1,5 +1,5 @@
 import { queryOptions, useQuery } from '@tanstack/react-query';
-import { channelResponse, type ChannelResponse } from '../../../../server/contracts';
+import { channelResponse, roundingResponse, type ChannelResponse, type RoundingResponse } from '../../../../server/contracts';
 import { env } from '../../../config/env';
 import { apiRequest } from '../../../lib/api-client';
 import { codebookKeys } from './keys';
@@ -24,4 +24,15 @@ export function useChannelCurve(teamId: number, codebookId: number, bers: readon
 /** The firmware bundle (C header, reference decoder, example program, README) as a zip download. */
 export function firmwareZipUrl(teamId: number, codebookId: number): string {
   return `${env.apiBasePath}/teams/${teamId}/codebooks/${codebookId}/firmware`;
+}
+
+/** What the firmware table's fixed point costs on the codebook's held-out images, measured when asked (seconds). */
+export function useFirmwareRounding(teamId: number, codebookId: number, enabled: boolean) {
+  return useQuery({
+    queryKey: codebookKeys.rounding(teamId, codebookId),
+    queryFn: ({ signal }): Promise<RoundingResponse> => apiRequest(`/teams/${teamId}/codebooks/${codebookId}/firmware/rounding`, { signal, schema: roundingResponse }),
+    // The codebook, its held-out images and the table are fixed, so the figure never changes.
+    staleTime: Infinity,
+    enabled,
+  });
 }

@@ -4,7 +4,7 @@
  * Pure arithmetic over the run vocabulary, shared by the studio's rate planner (through server/contracts) and
  * anything else that plans; a structure brings its own rate rule, so a new one is one entry in PLAN_STRUCTURES.
  */
-import { BITS, MEAN_BITS, MIN_VECTORS_PER_CODEWORD, patchPositions, PATCH_SIDE, RUN_DEFAULTS, type ColorMode } from './vocabulary';
+import { BITS, MEAN_BITS, MIN_VECTORS_PER_CODEWORD, parseStages, patchPositions, PATCH_SIDE, RESIDUAL_DEFAULT_STAGES, RUN_DEFAULTS, RUN_STRUCTURE_LABELS, type ColorMode } from './vocabulary';
 
 export { MIN_VECTORS_PER_CODEWORD };
 
@@ -18,6 +18,11 @@ export interface RateStructure {
   blockBits(b: number, meanBits: number): number;
   /** Codewords the decoder stores for index bits b. */
   codewords(b: number): number;
+  /** Cells the training vectors are spread over for index bits b (the vectors per codeword divide by it); default the table. */
+  trainedCells?(b: number): number;
+  /** The index bits this structure can have (default the vocabulary's BITS). */
+  minBits?: number;
+  maxBits?: number;
 }
 
 const range = (from: number, to: number) => Array.from({ length: to - from + 1 }, (_, i) => from + i);
@@ -36,7 +41,28 @@ export const PLAN_STRUCTURES = {
     blockBits: (b: number, m: number) => b + m,
     codewords: (b: number) => 2 ** b,
   },
+  /**
+   * Tree balanced to depth b: the same b-bit index (a path), a table of every node, 2^(b+1) − 1 codewords, which the
+   * table limit of 2^BITS.max entries holds up to depth BITS.max − 1; the training vectors end up spread over its 2^b leaves.
+   */
+  tree: {
+    id: 'tree', label: RUN_STRUCTURE_LABELS.tree, meanBits: [0], blockBits: (b: number, m: number) => b + m,
+    codewords: (b: number) => 2 ** (b + 1) - 1, trainedCells: (b: number) => 2 ** b, maxBits: BITS.max - 1,
+  },
+  /**
+   * Residual, RESIDUAL_DEFAULT_STAGES stages sharing b as the CLI's --stages S does (parseStages): the sum of the
+   * stage tables, each trained on every vector, so the largest stage sets the vectors per codeword.
+   */
+  residual: {
+    id: 'residual', label: `${RUN_STRUCTURE_LABELS.residual}, ${RESIDUAL_DEFAULT_STAGES} stages`, meanBits: [0], blockBits: (b: number, m: number) => b + m,
+    codewords: (b: number) => stageBitsOf(b).reduce((n, s) => n + 2 ** s, 0), trainedCells: (b: number) => 2 ** Math.max(...stageBitsOf(b)), minBits: RESIDUAL_DEFAULT_STAGES,
+  },
 } as const satisfies Record<string, RateStructure>;
+
+function stageBitsOf(b: number): number[] {
+  const r = parseStages(String(RESIDUAL_DEFAULT_STAGES), b);
+  return 'bits' in r ? r.bits : [b];
+}
 export type PlanStructureId = keyof typeof PLAN_STRUCTURES;
 
 /**
@@ -103,7 +129,7 @@ export function planTrainingVectors(images: readonly { width: number; height: nu
 function largestBitsWithin(structure: RateStructure, meanBits: number, pixels: number, targetBpp: number): number | null {
   // A tiny allowance so a rate that equals the target in exact arithmetic is not lost to rounding.
   const limit = targetBpp * (1 + 1e-12);
-  for (let b = BITS.max; b >= BITS.min; b -= 1) if (structure.blockBits(b, meanBits) / pixels <= limit) return b;
+  for (let b = structure.maxBits ?? BITS.max; b >= (structure.minBits ?? BITS.min); b -= 1) if (structure.blockBits(b, meanBits) / pixels <= limit) return b;
   return null;
 }
 
@@ -122,14 +148,14 @@ export function planRates(request: PlanRequest): PlanRow[] {
     const pixels = patch.width * patch.height;
     const dimension = pixels * channels;
     const vectors = request.images.length > 0 ? planTrainingVectors(request.images, patch, request.stride, request.maxVectors) : null;
-    for (const structure of request.structures ?? Object.values(PLAN_STRUCTURES)) {
+    for (const structure of (request.structures ?? Object.values(PLAN_STRUCTURES)) as readonly RateStructure[]) {
       for (const meanBits of structure.meanBits) {
         const bits = largestBitsWithin(structure, meanBits, pixels, targetBpp);
         if (bits === null) continue;
         const bpp = structure.blockBits(bits, meanBits) / pixels;
         if (bpp < (1 - tolerance) * targetBpp) continue;
         const codewords = structure.codewords(bits);
-        const perCodeword = vectors === null ? null : vectors / codewords;
+        const perCodeword = vectors === null ? null : vectors / (structure.trainedCells?.(bits) ?? codewords);
         rows.push({
           structure: structure.id,
           structureLabel: structure.label,

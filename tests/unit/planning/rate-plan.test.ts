@@ -73,6 +73,32 @@ describe('planRates: the rate rule', () => {
   });
 });
 
+describe('planRates: tree and residual structures', () => {
+  it('gives a balanced tree the full-search rate and a table of every node: 4×4 at 0.5 bpp is depth 8, 2^9 − 1 = 511 codewords', () => {
+    const row = find(planRates({ targetBpp: 0.5, color: 'luma', images: [] }), 4, 4, 'tree')!;
+    expect(row).toMatchObject({ bits: 8, bpp: 0.5, codewords: 511, tableBytes: 511 * 16 * 4 });
+  });
+
+  it('stops a tree at depth 13, whose 2^14 − 1 nodes are the largest table: 16×16 at 0.06 bpp (b ≤ 15.36) is depth 13', () => {
+    expect(find(planRates({ targetBpp: 0.06, color: 'luma', images: [] }), 16, 16, 'tree')).toBeUndefined(); // 13/256 = 0.0508 is > 10 % under
+    const row = find(planRates({ targetBpp: 0.052, color: 'luma', images: [] }), 16, 16, 'tree')!;
+    expect(row).toMatchObject({ bits: 13, codewords: 2 ** 14 - 1 });
+  });
+
+  it('splits b over two residual stages as --stages 2 does: 4×4 at 0.5 bpp is 4 + 4 bits, 16 + 16 = 32 codewords', () => {
+    const row = find(planRates({ targetBpp: 0.5, color: 'luma', images: [] }), 4, 4, 'residual')!;
+    expect(row).toMatchObject({ bits: 8, bpp: 0.5, codewords: 32 });
+  });
+
+  it('counts the vectors per codeword of a residual row against its largest stage: 292 vectors over 2^5 at b = 9', () => {
+    const rows = planRates({ targetBpp: 9 / 16, color: 'luma', images: [{ width: 64, height: 48 }, { width: 40, height: 40 }], patches: [{ width: 4, height: 4 }] });
+    // b = 9 → stages 5 + 4 (parseStages gives the first stage the odd bit): tables 32 + 16 = 48; each vector trains every stage.
+    expect(rows.find((r) => r.structure === 'residual')).toMatchObject({ bits: 9, codewords: 48, trainingVectors: 292, vectorsPerCodeword: 292 / 32 });
+    // A tree's vectors end in its 2^9 leaves.
+    expect(rows.find((r) => r.structure === 'tree')).toMatchObject({ bits: 9, codewords: 1023, vectorsPerCodeword: 292 / 512 });
+  });
+});
+
 describe('planRates: training vectors per codeword', () => {
   const images = [{ width: 64, height: 48 }, { width: 40, height: 40 }];
 

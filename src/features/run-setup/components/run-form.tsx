@@ -2,7 +2,7 @@ import { zodResolver } from '@hookform/resolvers/zod';
 import { useMemo, useRef, type ReactNode } from 'react';
 import { useForm, type Resolver } from 'react-hook-form';
 import {
-  EPSILON, LAMBDA, M_BEST, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, REFINEMENT_PASSES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, SETTING_LABELS, STAGES, STRIDE,
+  EPSILON, LAMBDA, M_BEST, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, SETTING_LABELS, STAGES, STRIDE,
   type CreateRunBody, type ImageSet, type RunDetail,
 } from '../../../../server/contracts';
 import { isApiError, messageOf } from '../../../lib/api-client';
@@ -188,6 +188,9 @@ export function RunForm({
               form.setValue('meanBits', row.meanBits, validate);
               form.setValue('bitsMode', 'single', validate);
               form.setValue('bits', row.bits, validate);
+              // The planner's residual rows are RESIDUAL_DEFAULT_STAGES stages sharing b; mean removal is a full-search row's.
+              form.setValue('structure', row.structure === 'tree' || row.structure === 'residual' ? row.structure : 'full', validate);
+              if (row.structure === 'residual') form.setValue('stages', RESIDUAL_DEFAULT_STAGES, validate);
             }}
           />
         </Section>

@@ -240,7 +240,7 @@ const codebookRoutes: RouteDescription[] = [
     responses: { 202: json(modelJobResponse, 'The denoise job, queued') },
   },
   { method: 'get', path: '/api/teams/:teamId/model-jobs/:jobId', tag: 'Codebooks', summary: 'An anomaly or denoise job: state, progress and, once it has succeeded, its result', access: 'member', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job') } },
-  { method: 'post', path: '/api/teams/:teamId/model-jobs/:jobId/cancel', tag: 'Codebooks', summary: 'Cancel an anomaly or denoise job', access: 'member', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job, cancelled or asked to stop') }, errors: { 409: 'The job has already ended' } },
+  { method: 'post', path: '/api/teams/:teamId/model-jobs/:jobId/cancel', tag: 'Codebooks', summary: 'Cancel an anomaly or denoise job', access: 'engineer', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job, cancelled or asked to stop') }, errors: { 409: 'The job has already ended' } },
   { method: 'get', path: '/api/teams/:teamId/model-jobs/:jobId/views/:view', tag: 'Codebooks', summary: 'One image of a finished denoise job: clean, noisy, hard or mean', access: 'member', input: { params: modelJobViewParams }, responses: { 200: { description: 'The PNG', content: { 'image/png': 'binary' } } } },
   {
     method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/channel', tag: 'Codebooks', summary: 'PSNR against bit-error rate on a binary symmetric channel over the raw payload, measured over seeds and expected from the closed form, on held-out images', access: 'member', input: { params: codebookParams, query: channelQuery },

@@ -33,7 +33,7 @@ export function codebookModelRouter(d: RouteDeps): Router {
 /**
  * Mounted at /api/teams/:teamId/model-jobs: an anomaly or denoise job, for any member of its team.
  * GET /:jobId               state, progress and (once succeeded) the result
- * POST /:jobId/cancel       stops it (409 once it has ended)
+ * POST /:jobId/cancel       stops it, engineers and admins (409 once it has ended)
  * GET /:jobId/views/:view   a denoise job's PNG (clean, noisy, hard, mean)
  */
 export function modelJobsRouter(d: RouteDeps): Router {
@@ -44,7 +44,7 @@ export function modelJobsRouter(d: RouteDeps): Router {
     res.json(await d.codebookModel.status(params.teamId, params.jobId));
   });
 
-  r.post('/:jobId/cancel', d.authenticate, d.requireTeamRole(), validate(jobInput), async (req, res) => {
+  r.post('/:jobId/cancel', d.authenticate, d.requireTeamRole('admin', 'engineer'), validate(jobInput), async (req, res) => {
     const { params } = validated(req, jobInput);
     res.json(await d.codebookModel.cancel(params.teamId, req.user!.id, params.jobId));
   });

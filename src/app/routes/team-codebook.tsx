@@ -168,7 +168,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
 
         <HeldOutPanel teamId={teamId} codebookId={codebook.id} meanRemoved={meanRemoved} />
 
-        <ModelPanels teamId={teamId} codebookId={codebook.id} trained={codebook.runId !== null} />
+        <ModelPanels teamId={teamId} codebookId={codebook.id} trained={codebook.runId !== null} canCancel={canEvaluate} />
 
         <Panel
           title="Channel errors"
@@ -309,7 +309,7 @@ function HeldOutPanel({ teamId, codebookId, meanRemoved }: { teamId: number; cod
  * The codebook read as a density of its training patches: anomaly scores and denoising on the held-out images of its
  * latest evaluation, with the caution these views carry.
  */
-function ModelPanels({ teamId, codebookId, trained }: { teamId: number; codebookId: number; trained: boolean }) {
+function ModelPanels({ teamId, codebookId, trained, canCancel }: { teamId: number; codebookId: number; trained: boolean; canCancel: boolean }) {
   const evaluations = useCodebookEvaluations(teamId, codebookId);
   const images = evaluations.data?.[evaluations.data.length - 1]?.images ?? [];
   if (images.length === 0) return null;
@@ -321,13 +321,13 @@ function ModelPanels({ teamId, codebookId, trained }: { teamId: number; codebook
         description="Each block scored against the codebook read as a mixture of its training patches; flagged where fewer than the chosen share of training blocks reach"
       >
         <div className="flex flex-col gap-4">
-          <AnomalyView teamId={teamId} codebookId={codebookId} images={images} trained={trained} />
+          <AnomalyView teamId={teamId} codebookId={codebookId} images={images} trained={trained} canCancel={canCancel} />
           <CautionNote text={MODEL_CAUTION} />
         </div>
       </Panel>
       <Panel title="Denoise" titleId="codebook-denoise" description="Synthetic Gaussian noise added to a held-out image and removed with the codebook's patches">
         <div className="flex flex-col gap-4">
-          <DenoiseView teamId={teamId} codebookId={codebookId} images={images} />
+          <DenoiseView teamId={teamId} codebookId={codebookId} images={images} canCancel={canCancel} />
           <CautionNote text={MODEL_CAUTION} />
         </div>
       </Panel>

@@ -505,7 +505,7 @@ export const routes: RouteCase[] = [
     name: 'cancel a model job',
     method: 'POST',
     path: '/api/teams/:teamId/model-jobs/:jobId/cancel',
-    access: 'member',
+    access: 'engineer',
     ok: 200,
     body: 'none',
     fresh: async (w) => ({ jobId: await newModelJob(w) }),

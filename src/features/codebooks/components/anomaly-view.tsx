@@ -92,7 +92,7 @@ function BlockTile({ url, image, block }: { url: string; image: { width: number;
  * training patches, and the most unusual blocks over the run's held-out images. Each is a job on the workers, started
  * when its image or rate is chosen and followed until its result is stored.
  */
-export function AnomalyView({ teamId, codebookId, images, trained }: { teamId: number; codebookId: number; images: Image[]; trained: boolean }) {
+export function AnomalyView({ teamId, codebookId, images, trained, canCancel }: { teamId: number; codebookId: number; images: Image[]; trained: boolean; canCancel: boolean }) {
   const [imageId, setImageId] = useState(images[0].imageId);
   const [rate, setRate] = useState<number>(ANOMALY_RATE.default);
   const image = images.find((i) => i.imageId === imageId) ?? images[0];
@@ -120,7 +120,7 @@ export function AnomalyView({ teamId, codebookId, images, trained }: { teamId: n
           ))}
         </SelectField>
       </div>
-      <ModelJobStatus job={mapJob} label="Scoring the blocks" />
+      <ModelJobStatus job={mapJob} label="Scoring the blocks" canCancel={canCancel} />
       {mapData && (
         <div className="flex flex-col gap-3 lg:flex-row">
           <HeatMap teamId={teamId} codebookId={codebookId} image={image} map={mapData} />
@@ -147,7 +147,7 @@ export function AnomalyView({ teamId, codebookId, images, trained }: { teamId: n
       {trained && (
         <div className="flex flex-col gap-2">
           <h3 className="text-sm font-semibold text-ink-900">Most unusual blocks of the held-out images</h3>
-          <ModelJobStatus job={listJob} label="Ranking the blocks" />
+          <ModelJobStatus job={listJob} label="Ranking the blocks" canCancel={canCancel} />
           {listData && (
             <ol className="flex flex-wrap gap-3" data-testid="anomaly-list">
               {listData.blocks.map((b, rank) => {

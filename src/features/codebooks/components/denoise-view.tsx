@@ -17,7 +17,7 @@ const PANE_WIDTH = 240;
  * side, each with its PSNR against the image as the codebook sees it. A job on the workers, started when the image,
  * σ, step or seed is chosen and followed until its images are stored.
  */
-export function DenoiseView({ teamId, codebookId, images }: { teamId: number; codebookId: number; images: Image[] }) {
+export function DenoiseView({ teamId, codebookId, images, canCancel }: { teamId: number; codebookId: number; images: Image[]; canCancel: boolean }) {
   const [imageId, setImageId] = useState(images[0].imageId);
   const [sigma, setSigma] = useState(20);
   const [step, setStep] = useState(2);
@@ -56,7 +56,7 @@ export function DenoiseView({ teamId, codebookId, images }: { teamId: number; co
         </Button>
         <span className="num pb-2 text-sm text-ink-600">seed {seed}</span>
       </div>
-      <ModelJobStatus job={job} label="Adding noise and denoising" />
+      <ModelJobStatus job={job} label="Adding noise and denoising" canCancel={canCancel} />
       {data && (
         <div className="grid gap-3 sm:grid-cols-2 xl:grid-cols-4" data-testid="denoise-views">
           {(

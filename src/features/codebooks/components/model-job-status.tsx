@@ -5,10 +5,11 @@ import { messageOf } from '../../../lib/api-client';
 import type { ModelJob } from '../hooks/use-model-job';
 
 /**
- * Where a model job is while it has no result: queued or running with its progress and a Cancel button, failed with
- * its reason, or cancelled; a Start again button after either.
+ * Where a model job is while it has no result: queued or running with its progress and, for engineers and admins, a
+ * Cancel button (a job is shared by every member who asks the same, so stopping it is theirs, as for evaluations),
+ * failed with its reason, or cancelled; a Start again button after either.
  */
-export function ModelJobStatus({ job, label }: { job: ModelJob; label: string }) {
+export function ModelJobStatus({ job, label, canCancel }: { job: ModelJob; label: string; canCancel: boolean }) {
   const { view, error } = job;
   if (error) return <ErrorState message={messageOf(error)} onRetry={job.restart} />;
   const state = view?.job.state;
@@ -33,7 +34,7 @@ export function ModelJobStatus({ job, label }: { job: ModelJob; label: string })
       </span>
       <progress className="h-2 w-40" max={1} value={fraction} aria-label={`${label} progress`} />
       <span className="num">{Math.round(fraction * 100)} %</span>
-      {view && (
+      {view && canCancel && (
         <Button variant="secondary" onClick={job.cancel}>
           Cancel
         </Button>

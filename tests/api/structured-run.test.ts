@@ -1,46 +1,20 @@
 // A residual run trains stages sharing each b through the real runner and job engine; the studio stores, lists,
 // evaluates and exports the codebooks with their structure, and refuses structure options that do not fit.
-import sharp from 'sharp';
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { parseCodebook } from '../../server/engine';
-import { seabedSet } from '../../server/seed/seabed-tiles';
-import { bearer, createTestApp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
+import { bearer, createTestApp, teamWithRoles, type TestApp } from '../helpers/api';
+import { splitSeabedSet, untilEvaluated } from '../helpers/studio';
 
 let t: TestApp;
 let team: Awaited<ReturnType<typeof teamWithRoles>>;
 let runId: number;
 let treeRunId: number;
 
-async function uploadSet(session: Session, name: string): Promise<number> {
-  const created = await request(t.app).post(`/api/teams/${session.teamId}/image-sets`).set(bearer(session)).send({ name });
-  expect(created.status).toBe(201);
-  const id = created.body.imageSet.id as number;
-  let req = request(t.app).post(`/api/teams/${session.teamId}/image-sets/${id}/images`).set(bearer(session));
-  for (const [i, tile] of seabedSet(31, 4, 48, 32).entries()) {
-    const png = await sharp(Buffer.from(tile.rgb), { raw: { width: tile.width, height: tile.height, channels: 3 } }).png().toBuffer();
-    req = req.attach('files', png, `tile-${i}.png`);
-  }
-  expect((await req).status).toBe(201);
-  const split = await request(t.app).post(`/api/teams/${session.teamId}/image-sets/${id}/split`).set(bearer(session)).send({ heldOutFraction: 0.25, seed: 3 });
-  expect(split.status).toBe(200);
-  return id;
-}
-
-async function untilEvaluated(id: number): Promise<void> {
-  for (let i = 0; i < 1200; i += 1) {
-    const res = await request(t.app).get(`/api/teams/${team.teamId}/runs/${id}`).set(bearer(team.engineer));
-    if (res.body.run.state === 'succeeded' && res.body.run.jobs.every((j: { state: string }) => j.state === 'succeeded')) return;
-    if (['failed', 'cancelled'].includes(res.body.run.state)) throw new Error(`run ended ${res.body.run.state}: ${res.body.run.error}`);
-    await new Promise((r) => setTimeout(r, 100));
-  }
-  throw new Error('the run did not finish');
-}
-
 beforeAll(async () => {
   t = await createTestApp();
   team = await teamWithRoles(t, 'Stages Team');
-  const setId = await uploadSet(team.engineer, 'Seabed tiles');
+  const setId = await splitSeabedSet(t.app, team.engineer, 'Seabed tiles', 31, 4, 48, 32);
   await t.composition.jobs.runner.start();
   const created = await request(t.app).post(`/api/teams/${team.teamId}/runs`).set(bearer(team.engineer)).send({
     name: 'rvq', trainingSetId: setId, heldOutSetId: setId, patch: { width: 2, height: 2 }, bits: { from: 4, to: 5 }, maxIterations: 10, seed: 4,
@@ -53,8 +27,8 @@ beforeAll(async () => {
   });
   expect(tree.status, JSON.stringify(tree.body)).toBe(201);
   treeRunId = tree.body.run.id;
-  await untilEvaluated(runId);
-  await untilEvaluated(treeRunId);
+  await untilEvaluated(t.app, team.engineer, runId);
+  await untilEvaluated(t.app, team.engineer, treeRunId);
 }, 240_000);
 
 afterAll(async () => {

@@ -28,6 +28,25 @@ export async function createSetWith(app: Express, s: Session, name: string, file
   return id;
 }
 
+/** A set of `count` seabed tiles, split into training and held-out images (a quarter held out, seeded). */
+export async function splitSeabedSet(app: Express, s: Session, name: string, seed: number, count: number, width: number, height: number): Promise<number> {
+  const id = await createSetWith(app, s, name, await seabedPngs(seed, count, width, height));
+  const split = await request(app).post(`/api/teams/${s.teamId}/image-sets/${id}/split`).set(bearer(s)).send({ heldOutFraction: 0.25, seed: 3 });
+  expect(split.status).toBe(200);
+  return id;
+}
+
+/** Polls the run until it and every job of it (evaluation included) have succeeded; throws if it ends otherwise. */
+export async function untilEvaluated(app: Express, s: Session, id: number): Promise<void> {
+  for (let i = 0; i < 1200; i += 1) {
+    const res = await request(app).get(`/api/teams/${s.teamId}/runs/${id}`).set(bearer(s));
+    if (res.body.run.state === 'succeeded' && res.body.run.jobs.every((j: { state: string }) => j.state === 'succeeded')) return;
+    if (['failed', 'cancelled'].includes(res.body.run.state)) throw new Error(`run ended ${res.body.run.state}: ${res.body.run.error}`);
+    await new Promise((r) => setTimeout(r, 100));
+  }
+  throw new Error('the run did not finish');
+}
+
 /** Polls the run until it reaches a terminal state. */
 export async function waitForRun(app: Express, s: Session, id: number): Promise<{ state: string; error: string | null }> {
   for (;;) {

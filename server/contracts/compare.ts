@@ -1,5 +1,5 @@
 import { z } from 'zod';
-import { bdMethodSchema, BD_METHODS, COLOR_MODES, DEFAULT_BD_METHOD } from '../engine/vocabulary';
+import { bdMethodSchema, BD_METHODS, COLOR_MODES, CURVE_STRUCTURES, DEFAULT_BD_METHOD } from '../engine/vocabulary';
 import { bdValues } from './bd';
 import { baselineCodec, baselineCurves } from './evaluation';
 
@@ -43,6 +43,30 @@ export const comparePoint = z.object({
 /** Flattened configuration: `patch.width`, `bits.from`, image counts instead of id lists. */
 export const flatConfig = z.record(z.string(), z.union([z.string(), z.number(), z.boolean(), z.null()]));
 
+/** A point of a structure's curve: a comparison point, with λ for an entropy-constrained codebook (null otherwise). */
+export const compareSeriesPoint = comparePoint.extend({ lambda: z.number().nullable() });
+
+/**
+ * One structure's curve of a run (CURVE_STRUCTURES in the run vocabulary): the run's evaluated codebooks of that
+ * structure on the chosen rate. Each series has its own BD figures against the codecs and against every other series.
+ */
+export const compareSeries = z.object({
+  /** `<runId>:<structure>`, unique within the answer; the BD rows name series by it. */
+  id: z.string(),
+  runId: z.number().int(),
+  structure: z.enum(CURVE_STRUCTURES),
+  /** Bits of the coded block mean (0: no mean removal). */
+  meanBits: z.number().int(),
+  /** The structure as people read it (curveLabel in the run vocabulary), without the run's name. */
+  label: z.string(),
+  /** By rate: b for a fixed-rate structure, λ (largest first) for a λ sweep. */
+  points: z.array(compareSeriesPoint),
+  /** Points a BD figure can use (positive rate, finite PSNR); below `bdMinPoints` the series has no BD figures. */
+  usablePoints: z.number().int(),
+  enoughPoints: z.boolean(),
+});
+export type CompareSeries = z.infer<typeof compareSeries>;
+
 export const compareRun = z.object({
   id: z.number().int(),
   name: z.string(),
@@ -53,6 +77,8 @@ export const compareRun = z.object({
   points: z.array(comparePoint),
   /** The standard codecs measured on this run's held-out images, on the actual rate (a codec file's bytes). */
   baselines: baselineCurves,
+  /** One curve per structure among the run's evaluated codebooks, in CURVE_STRUCTURES order (`points` is its full-search codebooks alone). */
+  series: z.array(compareSeries),
 });
 
 export const comparePair = bdValues.extend({
@@ -76,17 +102,30 @@ export const compareResponse = z.object({
   method: z.enum(BD_METHODS),
   /** Each run (test) against each standard codec (reference) on the run's own held-out list: JPEG, WebP, AVIF. */
   againstBaselines: z.array(bdValues.extend({ runId: z.number().int(), codec: baselineCodec })),
+  /**
+   * Every ordered pair of series (runs' structures, a run's own structures included) measured on the same held-out
+   * images: `reference` and `test` are series ids. Pairs on different held-out images, or with a series short of
+   * `bdMinPoints`, carry null figures and the reason.
+   */
+  seriesPairs: z.array(bdValues.extend({ reference: z.string(), test: z.string(), sameHeldOut: z.boolean() })),
+  /** Each series (test) against JPEG, WebP and AVIF (reference) on its run's held-out list. */
+  seriesAgainstBaselines: z.array(bdValues.extend({ seriesId: z.string(), runId: z.number().int(), codec: baselineCodec })),
+  /** Usable points a series needs for a BD figure (BD_MIN_POINTS in the run vocabulary). */
+  bdMinPoints: z.number().int(),
 });
 export type CompareResult = z.infer<typeof compareResponse>;
 
 /** One line of the Bjøntegaard table download: a test curve against a reference curve. */
 export const bdTableRow = bdValues.extend({
-  /** A run's name, or a codec's (JPEG, WebP, AVIF). */
+  /** A curve's name, its run's and its structure's ("4×4 · Tree-structured, balanced"), or a codec's (JPEG, WebP, AVIF). */
   reference: z.string(),
   test: z.string(),
   referenceRunId: z.number().int().nullable(),
   testRunId: z.number().int(),
   codec: baselineCodec.nullable(),
+  /** The series (`<runId>:<structure>`) of each side; null for a codec. `reference` and `test` name the run and the structure. */
+  referenceSeries: z.string().nullable(),
+  testSeries: z.string(),
 });
 export const bdTableResponse = z.object({ rate: compareRate, method: z.enum(BD_METHODS), minOverlapFraction: z.number(), rows: z.array(bdTableRow) });
 export type BdTable = z.infer<typeof bdTableResponse>;

@@ -6,6 +6,7 @@ export {
   RUN_STATE_LABELS, RUN_STATES, SEED, SETTING_LABELS, STRIDE, VECTOR_CAP, initMethodSchema, patchPositions, positionsAlong, trainsEverySize, type ColorMode,
   type BdMethod, type InitMethod, type RunStateName,
   M_BEST, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, STAGES, parseStages, type RunStructure,
+  BD_MIN_POINTS, CURVE_STRUCTURE_LABELS, CURVE_STRUCTURES, curveLabel, curveStructureOf, type CurveStructure,
 } from '../engine/vocabulary';
 // What each structure costs a device (pure arithmetic): the run form's live summary uses the engine's one formula.
 export { structureCost, type StructureCost, type StructurePlan as StructureCostPlan } from '../engine/structures/cost';

@@ -67,6 +67,31 @@ export const STRUCTURE_LABELS: Record<StructureKind, string> = {
 };
 
 /**
+ * The rate–distortion curves a run's codebooks form when runs are compared (compare page, BD tables): one per
+ * structure, since each buys rate differently. A tree's growth is told apart (balanced to depth b, or greedy), and an
+ * entropy-constrained run's codebooks form its λ sweep. Mean removal is a run setting on top of any of these
+ * (`curveLabel` names it); the codebook's own kinds are STRUCTURE_KINDS.
+ */
+export const CURVE_STRUCTURES = ['full', 'entropy-constrained', 'tree-balanced', 'tree-greedy', 'residual'] as const;
+export type CurveStructure = (typeof CURVE_STRUCTURES)[number];
+export const CURVE_STRUCTURE_LABELS: Record<CurveStructure, string> = {
+  full: STRUCTURE_LABELS.full,
+  'entropy-constrained': `${STRUCTURE_LABELS['entropy-constrained']} (λ sweep)`,
+  'tree-balanced': `${STRUCTURE_LABELS.tree}, balanced`,
+  'tree-greedy': `${STRUCTURE_LABELS.tree}, greedy`,
+  residual: STRUCTURE_LABELS.residual,
+};
+/** The curve a codebook belongs to: its kind, and for a tree whether it is balanced (a greedy tree is not). */
+export function curveStructureOf(kind: StructureKind, treeBalanced: boolean | null): CurveStructure {
+  if (kind === 'tree') return treeBalanced === false ? 'tree-greedy' : 'tree-balanced';
+  return kind;
+}
+/** What a curve is called wherever a person reads it (legend, BD table): its structure, and mean removal when the block mean is coded apart. */
+export function curveLabel(structure: CurveStructure, meanBits: number): string {
+  return meanBits > 0 ? `${CURVE_STRUCTURE_LABELS[structure]}, mean-removed (${meanBits}-bit mean)` : CURVE_STRUCTURE_LABELS[structure];
+}
+
+/**
  * λ, the price of one index bit in squared error per vector (entropy-constrained VQ minimises ‖x − c‖² + λ·ℓ).
  * 0 is plain Lloyd with empty cells dropped; 10^9 is far past the point where one codeword remains for 8-bit pixels
  * in any patch up to 16×16×3 (each vector's squared error is at most 768 · 255² ≈ 5·10^7).
@@ -262,6 +287,12 @@ export const BD_METHOD_LABELS: Record<BdMethod, string> = {
  */
 export const DEFAULT_BD_METHOD: BdMethod = 'pchip';
 export const bdMethodSchema = z.enum(BD_METHODS, { error: `expected ${BD_METHODS.map((m) => `"${m}"`).join(' or ')}` });
+
+/**
+ * Points a curve needs before a Bjøntegaard figure is drawn from it (points with a positive rate and a finite PSNR):
+ * three, the fewest that fix a curve with a bend (a quadratic; VCEG-M33's cubic takes four, used when there are).
+ */
+export const BD_MIN_POINTS = 3;
 
 /**
  * A delta is averaged only over the interval both curves cover (log rate for BD-PSNR, PSNR for BD-rate). When that

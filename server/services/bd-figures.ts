@@ -1,4 +1,5 @@
 import type { BaselineCodecName, BdMethod, BdValues } from '../contracts';
+import { BD_MIN_POINTS } from '../engine/vocabulary';
 import { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type RdPoint } from '../engine/metrics/bd-rate';
 
 export const BASELINE_CODECS: readonly BaselineCodecName[] = ['jpeg', 'webp', 'avif'];
@@ -33,4 +34,14 @@ export function againstEachCodec(
       ? noBdValues(method, `no ${CODEC_NAMES[codec]} points for this held-out list (not measured yet, or not encodable here)`)
       : bdValuesOf(rdPoints(baselines[codec]), rdPoints(test), method)),
   }));
+}
+
+/** Points a Bjøntegaard fit can use: a positive rate and a finite PSNR (an exact reconstruction has none). */
+export const usablePointCount = (points: readonly { bpp: number; psnr: number | null }[]): number =>
+  points.filter((p) => Number.isFinite(p.bpp) && p.bpp > 0 && p.psnr !== null && Number.isFinite(p.psnr)).length;
+
+/** The reason a curve short of BD_MIN_POINTS usable points has no figures, or null when it has enough. */
+export function notEnoughPoints(name: string, points: readonly { bpp: number; psnr: number | null }[]): string | null {
+  const usable = usablePointCount(points);
+  return usable >= BD_MIN_POINTS ? null : `not enough points: ${name} has ${usable} usable, a BD figure needs ${BD_MIN_POINTS}`;
 }

@@ -1,10 +1,10 @@
-import type { BaselineCurves, BdMethod, BdTable, CompareRate, CompareResult, NormalizedRunConfig } from '../contracts';
+import type { BaselineCurves, BdMethod, BdTable, CompareRate, CompareResult, CompareSeries, NormalizedRunConfig } from '../contracts';
 import type { Database } from '../db';
-import type { EvaluationOverall } from '../db/repositories/evaluations';
-import { BD_MIN_OVERLAP_FRACTION } from '../engine/vocabulary';
+import type { EvaluationOverall, RunCurveRow } from '../db/repositories/evaluations';
+import { BD_MIN_OVERLAP_FRACTION, BD_MIN_POINTS, CURVE_STRUCTURES, curveLabel, curveStructureOf, type StructureKind } from '../engine/vocabulary';
 import { bdTableCsv } from '../engine/metrics/bd-table';
 import { notFound } from '../errors';
-import { againstEachCodec, BASELINE_CODECS, bdValuesOf, CODEC_NAMES, noBdValues, rdPoints } from './bd-figures';
+import { againstEachCodec, BASELINE_CODECS, bdValuesOf, CODEC_NAMES, noBdValues, notEnoughPoints, rdPoints, usablePointCount } from './bd-figures';
 
 type FlatValue = string | number | boolean | null;
 
@@ -34,14 +34,69 @@ function span(values: number[]): [number, number] | null {
   return finite.length ? [Math.min(...finite), Math.max(...finite)] : null;
 }
 
+/**
+ * A run's evaluated codebooks as one curve per structure (CURVE_STRUCTURES order): a λ sweep by λ, largest first (its
+ * rate rises as λ falls), every other structure by b.
+ */
+function seriesOfRun(runId: number, rows: readonly RunCurveRow[], rate: CompareRate): CompareSeries[] {
+  const groups = new Map<string, RunCurveRow[]>();
+  for (const row of rows) {
+    const structure = curveStructureOf(row.structure as StructureKind, row.treeBalanced);
+    groups.set(structure, [...(groups.get(structure) ?? []), row]);
+  }
+  return CURVE_STRUCTURES.filter((structure) => groups.has(structure)).map((structure) => {
+    const members = [...groups.get(structure)!].sort((a, b) => (structure === 'entropy-constrained' ? (b.lambda ?? 0) - (a.lambda ?? 0) : a.bits - b.bits || a.size - b.size));
+    const points = members.map((r) => ({
+      codebookId: r.codebookId, bits: r.bits, size: r.size, lambda: r.lambda,
+      bpp: rateOf(r.overall, rate), mse: r.overall.mse, psnr: r.overall.psnr, ssim: r.overall.ssim,
+    }));
+    const usablePoints = usablePointCount(points);
+    return { id: `${runId}:${structure}`, runId, structure, meanBits: members[0].meanBits, label: curveLabel(structure, members[0].meanBits), points, usablePoints, enoughPoints: usablePoints >= BD_MIN_POINTS };
+  });
+}
+
+/** A series as the BD table and the reasons name it: its run's name and its structure. */
+const seriesName = (runName: string, series: CompareSeries) => `${runName} · ${series.label}`;
+
+/**
+ * BD figures of every ordered pair of series on the same held-out images, and of each series against the codecs of
+ * its run's held-out list, each with the same method and shared-interval rule as the runs' own figures.
+ */
+function seriesFigures(runs: CompareResult['runs'], method: BdMethod): Pick<CompareResult, 'seriesPairs' | 'seriesAgainstBaselines'> {
+  const all = runs.flatMap((run) => run.series.map((series) => ({ run, series, name: seriesName(run.name, series) })));
+  const seriesPairs: CompareResult['seriesPairs'] = [];
+  for (const reference of all) {
+    for (const test of all) {
+      if (reference === test) continue;
+      const sameHeldOut = reference.run.heldOutHash === test.run.heldOutHash;
+      const short = notEnoughPoints(reference.name, reference.series.points) ?? notEnoughPoints(test.name, test.series.points);
+      const values = !sameHeldOut
+        ? noBdValues(method, 'the runs were measured on different held-out images')
+        : short !== null
+          ? noBdValues(method, short)
+          : bdValuesOf(rdPoints(reference.series.points), rdPoints(test.series.points), method);
+      seriesPairs.push({ reference: reference.series.id, test: test.series.id, sameHeldOut, ...values });
+    }
+  }
+  const seriesAgainstBaselines = all.flatMap(({ run, series, name }) => {
+    const short = notEnoughPoints(name, series.points);
+    return againstEachCodec(series.points, run.baselines, method).map((values) => ({
+      seriesId: series.id,
+      runId: run.id,
+      ...(short !== null ? { ...noBdValues(method, short), codec: values.codec } : values),
+    }));
+  });
+  return { seriesPairs, seriesAgainstBaselines };
+}
+
 export function createComparisonService(deps: { db: Database }) {
   const { db } = deps;
   return {
     /**
      * Runs side by side on one rate definition: their configurations (differing keys marked), curves on common axes,
      * BD-rate and BD-PSNR (Bjøntegaard, VCEG-M33; curves drawn by `method`) for every ordered pair measured on the same
-     * held-out images, and each run against JPEG, WebP and AVIF on its own held-out list. Pairs on different held-out
-     * images are never compared.
+     * held-out images, and each run against JPEG, WebP and AVIF on its own held-out list; the same again per structure
+     * series (each run's codebooks grouped by CURVE_STRUCTURES). Pairs on different held-out images are never compared.
      */
     async compare(teamId: number, runIds: number[], rate: CompareRate, method: BdMethod): Promise<CompareResult> {
       const runs: CompareResult['runs'] = [];
@@ -49,9 +104,9 @@ export function createComparisonService(deps: { db: Database }) {
         const run = await db.repos.runs.findForTeam(teamId, id);
         if (!run) throw notFound(`Run ${id}`);
         const color = run.normalized.color;
-        // A run's full-search codebooks form its curve here; its entropy-constrained ones (a λ sweep) are another
-        // curve, which the run page draws and the compare page does not yet.
-        const rows = (await db.repos.evaluations.curveOfRun(run.id, run.heldOutHash)).filter((r) => r.structure === 'full');
+        // `points` stays the run's full-search curve (the run-to-run figures below); every structure is a series of its own.
+        const all = await db.repos.evaluations.curveOfRun(run.id, run.heldOutHash);
+        const rows = all.filter((r) => r.structure === 'full');
         const baselines: BaselineCurves = { jpeg: [], webp: [], avif: [] };
         for (const p of await db.repos.baselines.list(run.heldOutHash, color)) {
           baselines[p.codec].push({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });
@@ -73,6 +128,7 @@ export function createComparisonService(deps: { db: Database }) {
             ssim: r.overall.ssim,
           })),
           baselines,
+          series: seriesOfRun(run.id, all, rate),
         });
       }
 
@@ -92,7 +148,7 @@ export function createComparisonService(deps: { db: Database }) {
       }
       const againstBaselines = runs.flatMap((r) => againstEachCodec(r.points, r.baselines, method).map((values) => ({ runId: r.id, ...values })));
 
-      const everything = runs.flatMap((r) => [...r.points, ...BASELINE_CODECS.flatMap((c) => r.baselines[c])]);
+      const everything = runs.flatMap((r) => [...r.series.flatMap((series) => series.points), ...BASELINE_CODECS.flatMap((c) => r.baselines[c])]);
       return {
         rate,
         runs,
@@ -106,19 +162,25 @@ export function createComparisonService(deps: { db: Database }) {
         pairs,
         method,
         againstBaselines,
+        ...seriesFigures(runs, method),
+        bdMinPoints: BD_MIN_POINTS,
       };
     },
 
-    /** The Bjøntegaard table of a comparison, as JSON or as an RFC 4180 file (server/engine/metrics/bd-table.ts). */
+    /**
+     * The Bjøntegaard table of a comparison, as JSON or as an RFC 4180 file (server/engine/metrics/bd-table.ts): one
+     * row per ordered pair of series and per series against each codec, each curve named by its run and structure.
+     */
     async bdTable(teamId: number, runIds: number[], rate: CompareRate, method: BdMethod): Promise<BdTable> {
       const result = await this.compare(teamId, runIds, rate, method);
-      const name = new Map(result.runs.map((r) => [r.id, r.name]));
+      const named = new Map(result.runs.flatMap((run) => run.series.map((series) => [series.id, { name: seriesName(run.name, series), runId: run.id }] as const)));
       const rows: BdTable['rows'] = [
-        ...result.pairs.map(({ reference, test, sameHeldOut: _, ...values }) => ({
-          ...values, reference: name.get(reference)!, test: name.get(test)!, referenceRunId: reference, testRunId: test, codec: null,
+        ...result.seriesPairs.map(({ reference, test, sameHeldOut: _, ...values }) => ({
+          ...values, reference: named.get(reference)!.name, test: named.get(test)!.name, referenceRunId: named.get(reference)!.runId, testRunId: named.get(test)!.runId,
+          codec: null, referenceSeries: reference, testSeries: test,
         })),
-        ...result.againstBaselines.map(({ runId, codec, ...values }) => ({
-          ...values, reference: CODEC_NAMES[codec], test: name.get(runId)!, referenceRunId: null, testRunId: runId, codec,
+        ...result.seriesAgainstBaselines.map(({ seriesId, runId, codec, ...values }) => ({
+          ...values, reference: CODEC_NAMES[codec], test: named.get(seriesId)!.name, referenceRunId: null, testRunId: runId, codec, referenceSeries: null, testSeries: seriesId,
         })),
       ];
       return { rate, method, minOverlapFraction: BD_MIN_OVERLAP_FRACTION, rows };

@@ -35,6 +35,10 @@ export interface RunCurveRow {
   /** The codebook's structure kind (codebooks.structure) and λ when entropy-constrained. */
   structure: string;
   lambda: number | null;
+  /** Bits of the coded block mean (0: no mean removal). */
+  meanBits: number;
+  /** For a tree, whether it is balanced (the document's structure.balanced); null for any other structure. */
+  treeBalanced: boolean | null;
   overall: EvaluationOverall;
 }
 
@@ -142,8 +146,15 @@ export function evaluationsRepository(db: Executor) {
         .join('codebooks as c', 'c.id', 'e.codebook_id')
         .where({ 'c.run_id': runId, 'e.held_out_hash': heldOutHash })
         .orderBy('c.size')
-        .select('c.id as codebook_id', 'c.bits', 'c.size', 'c.structure', 'c.lambda', 'e.overall')) as { codebook_id: number; bits: number; size: number; structure: string; lambda: number | null; overall: unknown }[];
-      return rows.map((r) => ({ codebookId: r.codebook_id, bits: r.bits, size: r.size, structure: r.structure, lambda: r.lambda, overall: parseJson<EvaluationOverall>(r.overall)! }));
+        // The tree's growth lives only in the document; one scalar of it is read, never the tree itself.
+        .select('c.id as codebook_id', 'c.bits', 'c.size', 'c.structure', 'c.lambda', 'c.mean_bits', db.raw("JSON_VALUE(c.metadata, '$.structure.balanced') as tree_balanced"), 'e.overall')) as {
+        codebook_id: number; bits: number; size: number; structure: string; lambda: number | null; mean_bits: number; tree_balanced: string | null; overall: unknown;
+      }[];
+      return rows.map((r) => ({
+        codebookId: r.codebook_id, bits: r.bits, size: r.size, structure: r.structure, lambda: r.lambda, meanBits: r.mean_bits,
+        treeBalanced: r.structure === 'tree' ? r.tree_balanced !== 'false' : null,
+        overall: parseJson<EvaluationOverall>(r.overall)!,
+      }));
     },
 
     /** Per-image rows of every codebook of the run on `heldOutHash`: by codebook size, then image id. */

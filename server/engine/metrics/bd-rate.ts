@@ -1,4 +1,4 @@
-import { BD_MIN_OVERLAP_FRACTION, DEFAULT_BD_METHOD, type BdMethod } from '../vocabulary';
+import { BD_MIN_OVERLAP_FRACTION, BD_MIN_POINTS, DEFAULT_BD_METHOD, type BdMethod } from '../vocabulary';
 
 /**
  * Bjøntegaard delta metrics between two rate–distortion curves (G. Bjøntegaard, "Calculation of
@@ -189,8 +189,8 @@ function integrateCurve(method: BdMethod, degree: number, xs: readonly number[],
 export function bjontegaard(reference: readonly RdPoint[], test: readonly RdPoint[], method: BdMethod = DEFAULT_BD_METHOD): BdResult {
   const r = usable(reference);
   const t = usable(test);
-  if (r.length < 3 || t.length < 3) {
-    throw new BdRateError('each curve needs at least 3 points with a positive rate and a finite PSNR');
+  if (r.length < BD_MIN_POINTS || t.length < BD_MIN_POINTS) {
+    throw new BdRateError(`each curve needs at least ${BD_MIN_POINTS} points with a positive rate and a finite PSNR`);
   }
   const degree = method === 'cubic' ? Math.min(3, r.length - 1, t.length - 1) : 3;
   const lr = r.map((p) => Math.log(p.rate));

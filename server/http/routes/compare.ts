@@ -7,8 +7,9 @@ const compareInput = { params: teamParams, query: compareQuery };
 const bdTableInput = { params: teamParams, query: bdTableQuery };
 
 /**
- * Mounted at /api/teams/:teamId/compare: GET ?runs=a,b,…&rate=fixed|entropy|actual&method=pchip|cubic, and
- * GET /bd-table?…&format=json|csv, the Bjøntegaard table of the same comparison as a download.
+ * Mounted at /api/teams/:teamId/compare: GET ?runs=a,b,…&rate=fixed|entropy|actual&method=pchip|cubic (each run's
+ * curve per structure, with BD figures per series), and GET /bd-table?…&format=json|csv, the Bjøntegaard table of the
+ * same comparison as a download.
  */
 export function compareRouter(d: RouteDeps): Router {
   const r = Router({ mergeParams: true });

@@ -13,7 +13,9 @@ export interface DbSettings {
 
 export const migrationsDirectory = fileURLToPath(new URL('../../migrations', import.meta.url));
 
-const migrationFile = /^\d{14}-[a-z0-9-]+\.ts$/;
+// A timestamp, optionally with a letter after its date: work prepared side by side on one day takes a letter each
+// (20261205a…), which sorts after that day's plain timestamps and before the next day's.
+const migrationFile = /^\d{8}[a-z]?\d{6}-[a-z0-9-]+\.ts$/;
 
 /**
  * Loads migrations with our own dynamic import rather than knex's, so the same list works under tsx,

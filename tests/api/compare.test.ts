@@ -1,7 +1,7 @@
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { BD_TABLE_CSV_COLUMNS } from '../../server/engine/metrics/bd-table';
-import { BD_MIN_OVERLAP_FRACTION, DEFAULT_BD_METHOD } from '../../server/engine/vocabulary';
+import { BD_MIN_OVERLAP_FRACTION, CURVE_STRUCTURE_LABELS, DEFAULT_BD_METHOD } from '../../server/engine/vocabulary';
 import { bearer, createTestApp, signUp, teamWithRoles, type Session, type TestApp } from '../helpers/api';
 import { seabedPngs, createSetWith, finishedRun as runToSuccess } from '../helpers/studio';
 
@@ -146,7 +146,8 @@ describe('compare', () => {
     const jpegRow = json.body.rows.find((r: { codec: string | null; testRunId: number }) => r.codec === 'jpeg' && r.testRunId === wide);
     const shownJpeg = shown.againstBaselines.find((r: { codec: string; runId: number }) => r.codec === 'jpeg' && r.runId === wide);
     expect(jpegRow.reference).toBe('JPEG');
-    expect(jpegRow.test).toBe('4x2');
+    // Each curve is named by its run and its structure (a full-search run has the one curve).
+    expect(jpegRow.test).toBe(`4x2 · ${CURVE_STRUCTURE_LABELS.full}`);
     expect(jpegRow.bdRate).toBe(shownJpeg.bdRate);
     expect(jpegRow.bdPsnr).toBe(shownJpeg.bdPsnr);
 
@@ -157,7 +158,7 @@ describe('compare', () => {
     expect(lines[0]).toBe(BD_TABLE_CSV_COLUMNS.join(','));
     expect(lines).toHaveLength(1 + json.body.rows.length);
     const col = (name: string) => BD_TABLE_CSV_COLUMNS.indexOf(name as (typeof BD_TABLE_CSV_COLUMNS)[number]);
-    const csvJpeg = lines.map((l) => l.split(',')).find((c) => c[col('reference')] === 'JPEG' && c[col('test')] === '4x2')!;
+    const csvJpeg = lines.map((l) => l.split(',')).find((c) => c[col('reference')] === 'JPEG' && c[col('test')] === `4x2 · ${CURVE_STRUCTURE_LABELS.full}`)!;
     expect(csvJpeg[col('method')]).toBe('cubic');
     expect(csvJpeg[col('rate')]).toBe('fixed');
     expect(csvJpeg[col('bd_psnr_db')]).toBe(jpegRow.bdPsnr === null ? '' : String(jpegRow.bdPsnr));

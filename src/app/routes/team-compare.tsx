@@ -1,11 +1,10 @@
 import type { QueryClient } from '@tanstack/react-query';
 import { useState } from 'react';
 import { useNavigate, useSearchParams, type LoaderFunctionArgs } from 'react-router-dom';
-import { BD_METHOD_LABELS, BD_METHODS, bdMethodSchema, compareRate, DEFAULT_BD_METHOD, type BdMethod, type CompareRate, type CompareResult } from '../../../server/contracts';
+import { BD_METHOD_LABELS, BD_METHODS, bdMethodSchema, compareRate, DEFAULT_BD_METHOD, type BdMethod, type CompareRate } from '../../../server/contracts';
 import { href } from '../../config/routes';
 import { messageOf } from '../../lib/api-client';
-import { focusedExtents, RdChart, type RdSeries } from '../../components/charts/rd-chart';
-import { referenceStyles, seriesStyle } from '../../components/charts/series';
+import { focusedExtents, RdChart } from '../../components/charts/rd-chart';
 import { Alert } from '../../components/ui/alert';
 import { SelectField } from '../../components/ui/field';
 import { PageHeader } from '../../components/ui/page-header';
@@ -15,8 +14,10 @@ import { bdTableDownloadUrl, comparisonQueryOptions, isComparable, useComparison
 import { buttonClass } from '../../components/ui/button';
 import { runsQueryOptions, useRuns } from '../../lib/queries/runs';
 import { BdTable } from '../../features/compare/components/bd-table';
+import { compareChartSeries } from '../../features/compare/components/compare-chart-series';
 import { ConfigDiff } from '../../features/compare/components/config-diff';
 import { RunPicker } from '../../features/compare/components/run-picker';
+import { SeriesList } from '../../features/compare/components/series-list';
 import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';
 
@@ -44,43 +45,7 @@ export const clientLoader = (queryClient: QueryClient) => async ({ request, para
   return null;
 };
 
-const CODEC_LABELS = { jpeg: 'JPEG', webp: 'WebP', avif: 'AVIF' } as const;
-
 const rateLabels: Record<CompareRate, string> = { fixed: 'Fixed rate', entropy: 'Entropy rate', actual: 'Actual (container) rate' };
-
-function compareSeries(result: CompareResult): RdSeries[] {
-  const series: RdSeries[] = result.runs.map((run, i) => {
-    const style = seriesStyle(i + 1);
-    return {
-      id: `run-${run.id}`,
-      label: run.name,
-      kind: 'vq',
-      color: style.color,
-      dash: style.dash,
-      points: [...run.points].sort((a, b) => a.bits - b.bits).map((p) => ({ x: p.bpp, y: p.psnr, label: `b = ${p.bits}`, target: String(p.codebookId) })),
-    };
-  });
-  // The codecs are measured per held-out list; runs on the same images share one curve per codec.
-  const seen = new Set<string>();
-  for (const run of result.runs) {
-    if (seen.has(run.heldOutHash)) continue;
-    seen.add(run.heldOutHash);
-    for (const codec of ['jpeg', 'webp', 'avif'] as const) {
-      const points = run.baselines[codec];
-      if (points.length === 0) continue;
-      series.push({
-        id: `${codec}-${run.heldOutHash.slice(0, 8)}`,
-        label: result.heldOutMismatch ? `${CODEC_LABELS[codec]} (images of ${run.name})` : CODEC_LABELS[codec],
-        kind: 'reference',
-        color: referenceStyles[codec].color,
-        dash: referenceStyles[codec].dash,
-        marker: referenceStyles[codec].marker,
-        points: points.map((p) => ({ x: p.bpp, y: p.psnr, label: `quality ${p.quality}` })),
-      });
-    }
-  }
-  return series;
-}
 
 export function Component() {
   const navigate = useNavigate();
@@ -102,7 +67,7 @@ export function Component() {
   };
 
   const result = isComparable(runIds) ? comparison.data : undefined;
-  const series = result ? compareSeries(result) : [];
+  const series = result ? compareChartSeries(result) : [];
   const focused = focusedExtents(series);
 
   return (
@@ -111,7 +76,7 @@ export function Component() {
       <PageHeader
         eyebrow={team.name}
         title="Compare runs"
-        description="Curves on common axes, configurations side by side, and Bjøntegaard deltas for every pair. The link of this page holds the selection."
+        description="Curves on common axes, one per structure of each run, configurations side by side, and Bjøntegaard deltas for every pair. The link of this page holds the selection."
       />
       <div className="flex flex-col gap-6">
         <Panel title="Selection" titleId="compare-selection">
@@ -163,7 +128,7 @@ export function Component() {
               }
             >
               <RdChart
-                title={`PSNR against ${rateLabels[result.rate].toLowerCase()} for ${result.runs.length} runs`}
+                title={`PSNR against ${rateLabels[result.rate].toLowerCase()} for ${result.runs.length} runs, one curve per structure`}
                 series={series}
                 yLabel="PSNR"
                 yUnit="dB"
@@ -171,6 +136,9 @@ export function Component() {
                 yExtent={fullRange ? result.axes.psnr : (focused?.y ?? result.axes.psnr)}
                 onSelectPoint={(point) => point.target && navigate(href.teamCodebook(team.id, Number(point.target)))}
               />
+              <div className="mt-4">
+                <SeriesList result={result} />
+              </div>
             </Panel>
             <Panel
               title="Bjøntegaard deltas"

@@ -70,7 +70,12 @@ describe('the Bjøntegaard table', () => {
   it('names the run under comparison "Compared run", never "Test"', () => {
     const values = { method: 'pchip', shared: { bpp: [0.2, 1], psnr: [28, 33] }, sharedFraction: { bpp: 1, psnr: 1 }, shortOverlap: false };
     const pair = { reference: 1, test: 2, bdRate: -1, bdPsnr: 0.1, reason: null, ...values };
-    const result = { runs: [{ id: 1, name: 'A' }, { id: 2, name: 'B' }], pairs: [pair], method: 'pchip', againstBaselines: [] } as unknown as CompareResult;
+    const series = (runId: number) => ({ id: `${runId}:full`, runId, structure: 'full', meanBits: 0, label: 'Full search', points: [], usablePoints: 3, enoughPoints: true });
+    const seriesPair = { ...pair, reference: '1:full', test: '2:full', sameHeldOut: true };
+    const result = {
+      runs: [{ id: 1, name: 'A', series: [series(1)] }, { id: 2, name: 'B', series: [series(2)] }], pairs: [pair], method: 'pchip', againstBaselines: [],
+      seriesPairs: [seriesPair], seriesAgainstBaselines: [],
+    } as unknown as CompareResult;
     render(<BdTable result={result} />);
     const headers = within(screen.getByRole('table')).getAllByRole('columnheader').map((th) => th.textContent);
     expect(headers[0]).toBe('Compared run');

@@ -11,17 +11,17 @@ import { allSeries, seriesName } from './compare-chart-series';
 export function BdTable({ result }: { result: CompareResult }) {
   const name = new Map(allSeries(result).map((series) => [series.id, seriesName(result, series)]));
   const rows = [
-    ...result.seriesAgainstBaselines.map((row) => ({
-      ...row,
-      key: `${row.codec}-${row.seriesId}`,
-      referenceName: `${CODEC_LABELS[row.codec]} (same images)`,
-      testName: name.get(row.seriesId) ?? row.seriesId,
-    })),
     ...result.seriesPairs.map((pair) => ({
       ...pair,
       key: `${pair.reference}-${pair.test}`,
       referenceName: name.get(pair.reference) ?? pair.reference,
       testName: name.get(pair.test) ?? pair.test,
+    })),
+    ...result.seriesAgainstBaselines.map((row) => ({
+      ...row,
+      key: `${row.codec}-${row.seriesId}`,
+      referenceName: `${CODEC_LABELS[row.codec]} (same images)`,
+      testName: name.get(row.seriesId) ?? row.seriesId,
     })),
   ];
   return (

@@ -1,4 +1,4 @@
-import { cleanup, render, screen, within } from '@testing-library/react';
+import { cleanup, fireEvent, render, screen, within } from '@testing-library/react';
 import { afterEach, describe, expect, it } from 'vitest';
 import { BD_METHOD_LABELS, compareResponse, type BdValues, type CompareResult } from '../../server/contracts';
 import { BdTable } from '../../src/features/compare/components/bd-table';
@@ -46,6 +46,7 @@ const result: CompareResult = compareResponse.parse({
   seriesPairs: [
     { reference: '1:full', test: '2:full', sameHeldOut: true, bdRate: -12.5, bdPsnr: 0.8, reason: null, ...full },
     { reference: '1:full', test: '2:tree-greedy', sameHeldOut: true, bdRate: null, bdPsnr: null, reason: notEnough, ...full, shared: { bpp: null, psnr: null } },
+    { reference: '2:full', test: '1:full', sameHeldOut: true, bdRate: 14.3, bdPsnr: -0.8, reason: null, ...full },
   ],
   seriesAgainstBaselines: [
     { seriesId: '2:full', runId: 2, codec: 'jpeg', bdRate: -30, bdPsnr: 1.5, reason: null, ...full },
@@ -71,6 +72,19 @@ describe('the Bjøntegaard table', () => {
     const treeRow = rowOf(/Tree-structured, greedy/);
     expect(within(treeRow).getByTestId('bd-rate').textContent).toBe('—');
     expect(within(treeRow).getByTestId('bd-note').textContent).toBe(notEnough);
+  });
+});
+
+describe('the reference curve of the pairs', () => {
+  it('shows the pairs against the first curve, then against the curve chosen, or every pair', () => {
+    render(<BdTable result={result} />);
+    const pairs = () => within(screen.getByRole('table')).getAllByRole('row').slice(1).filter((r) => !/same images/.test(r.children[1].textContent ?? ''))
+      .map((r) => `${r.children[0].textContent} against ${r.children[1].textContent}`);
+    expect(pairs()).toEqual(['Reef · Full search against Kelp · Full search', 'Reef · Tree-structured, greedy against Kelp · Full search']);
+    fireEvent.change(screen.getByLabelText('Reference curve'), { target: { value: '2:full' } });
+    expect(pairs()).toEqual(['Kelp · Full search against Reef · Full search']);
+    fireEvent.change(screen.getByLabelText('Reference curve'), { target: { value: 'every' } });
+    expect(pairs()).toHaveLength(3);
   });
 });
 

@@ -3,7 +3,9 @@
 // implementation of the Bjøntegaard calculation written out below from its published definition.
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { serializeCodebook, trainTreeCodebook } from '../../server/engine';
 import { BD_MIN_POINTS, curveLabel } from '../../server/engine/vocabulary';
+import { seabedSet } from '../../server/seed/seabed-tiles';
 import { bearer, createTestApp, teamWithRoles, type TestApp } from '../helpers/api';
 import { splitSeabedSet, untilEvaluated } from '../helpers/studio';
 
@@ -131,7 +133,46 @@ beforeAll(async () => {
   treeRun = await start({ name: 'tree', bits: { from: 1, to: 3 }, structure: 'tree' });
   residualRun = await start({ name: 'residual', bits: { from: 2, to: 3 }, structure: 'residual', stages: 2 });
   for (const id of [fullRun, treeRun, residualRun]) await untilEvaluated(t.app, team.engineer, id);
+  await addGreedyTrees();
 }, 600_000);
+
+/**
+ * Greedy-grown trees (Riskin & Gray 1991) of 3, 5 and 6 leaves, trained by the engine on 2×2 luma blocks of the same
+ * seabed tiles, imported, filed under the tree run and evaluated on its held-out images through the evaluate route:
+ * the studio's run form trains balanced trees only, so this is how a run comes to hold greedy ones here.
+ */
+async function addGreedyTrees(): Promise<void> {
+  const blocks: number[] = [];
+  for (const tile of seabedSet(31, 4, 48, 32)) {
+    // Rec. ITU-R BT.601 luma weights.
+    const luma = (x: number, y: number) => {
+      const i = (y * tile.width + x) * 3;
+      return 0.299 * tile.rgb[i] + 0.587 * tile.rgb[i + 1] + 0.114 * tile.rgb[i + 2];
+    };
+    for (let y = 0; y + 2 <= tile.height; y += 2) for (let x = 0; x + 2 <= tile.width; x += 2) blocks.push(luma(x, y), luma(x + 1, y), luma(x, y + 1), luma(x + 1, y + 1));
+  }
+  const vectors = Float32Array.from(blocks);
+  const { body: detail } = await request(t.app).get(`/api/teams/${team.teamId}/runs/${treeRun}`).set(bearer(team.engineer));
+  for (const leaves of [3, 5, 6]) {
+    const { codebook } = await trainTreeCodebook(vectors, 4, {
+      growth: { kind: 'greedy', leaves }, init: 'split', seed: 4, maxIterations: 10, source: 'seabed tiles', preprocessing: { kind: 'none' },
+      patch: { width: 2, height: 2, channels: 1, color: 'luma' },
+    });
+    expect(codebook.structure).toMatchObject({ kind: 'tree', balanced: false });
+    const imported = await request(t.app).post(`/api/teams/${team.teamId}/codebooks/import`).set(bearer(team.engineer)).set('Content-Type', 'application/json').send(serializeCodebook(codebook));
+    expect(imported.status, JSON.stringify(imported.body)).toBe(201);
+    const id = imported.body.codebook.id as number;
+    await t.db.knex('codebooks').where({ id }).update({ run_id: treeRun });
+    const queued = await request(t.app).post(`/api/teams/${team.teamId}/codebooks/${id}/evaluate`).set(bearer(team.engineer)).send({ heldOutImageIds: detail.run.normalized.heldOutImageIds });
+    expect(queued.status, JSON.stringify(queued.body)).toBeLessThan(300);
+    for (let i = 0; ; i += 1) {
+      const { body } = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${id}/evaluations`).set(bearer(team.engineer));
+      if (body.evaluations.some((e: { heldOutHash: string }) => e.heldOutHash === detail.run.heldOutHash)) break;
+      if (i > 1200) throw new Error('the greedy tree was not evaluated');
+      await new Promise((r) => setTimeout(r, 100));
+    }
+  }
+}
 
 afterAll(async () => {
   await t?.composition.jobs.runner.stop();
@@ -139,7 +180,7 @@ afterAll(async () => {
   await t?.close();
 });
 
-type Point = { bpp: number; psnr: number | null; codebookId: number; lambda: number | null };
+type Point = { bpp: number; psnr: number | null; codebookId: number; size: number; lambda: number | null };
 type Series = { id: string; runId: number; structure: string; meanBits: number; label: string; points: Point[]; usablePoints: number; enoughPoints: boolean };
 type Figures = { bdRate: number | null; bdPsnr: number | null; reason: string | null; method: string };
 type Compared = {
@@ -179,15 +220,17 @@ describe('compare with one series per structure', () => {
     const body = await compare(`runs=${fullRun},${treeRun},${residualRun}`);
     const series = body.runs.flatMap((r) => r.series);
     expect(series.map((s) => [s.runId, s.structure])).toEqual([
-      [fullRun, 'full'], [fullRun, 'entropy-constrained'], [treeRun, 'tree-balanced'], [residualRun, 'residual'],
+      [fullRun, 'full'], [fullRun, 'entropy-constrained'], [treeRun, 'tree-balanced'], [treeRun, 'tree-greedy'], [residualRun, 'residual'],
     ]);
     for (const s of series) {
       expect(s.id).toBe(`${s.runId}:${s.structure}`);
       expect(s.label).toBe(curveLabel(s.structure as Parameters<typeof curveLabel>[0], 0));
     }
     const bySeries = new Map(series.map((s) => [s.structure, s]));
-    // b = 1..4 full search, three λ, depths 1..3, residual b = 2 and 3.
-    expect(series.map((s) => s.points.length)).toEqual([4, 3, 3, 2]);
+    // b = 1..4 full search, three λ, depths 1..3, three greedy trees, residual b = 2 and 3.
+    expect(series.map((s) => s.points.length)).toEqual([4, 3, 3, 3, 2]);
+    // A greedy tree of L leaves has 2L − 1 nodes in its table.
+    expect(bySeries.get('tree-greedy')!.points.map((p) => p.size)).toEqual([5, 9, 11]);
     // A λ sweep is ordered by λ, largest first; its points are the entropy-constrained codebooks alone.
     expect(bySeries.get('entropy-constrained')!.points.map((p) => p.lambda)).toEqual([400, 30, 2]);
     expect(bySeries.get('full')!.points.every((p) => p.lambda === null)).toBe(true);
@@ -204,8 +247,8 @@ describe('compare with one series per structure', () => {
       if (!s.enoughPoints) continue;
       count(s.id, expectSame(row, plainBd(s.run.baselines[row.codec], s.points, method)));
     }
-    // Every ordered pair of the four series, a run's own two included.
-    expect(body.seriesPairs).toHaveLength(4 * 3);
+    // Every ordered pair of the five series, a run's own two included.
+    expect(body.seriesPairs).toHaveLength(5 * 4);
     for (const pair of body.seriesPairs) {
       const [reference, test] = [series.get(pair.reference)!, series.get(pair.test)!];
       if (!reference.enoughPoints || !test.enoughPoints) continue;
@@ -241,8 +284,8 @@ describe('compare with one series per structure', () => {
     const res = await request(t.app).get(`/api/teams/${team.teamId}/compare/bd-table?runs=${fullRun},${treeRun}&format=json`).set(bearer(team.viewer));
     expect(res.status).toBe(200);
     const rows = res.body.rows as { reference: string; test: string; testSeries: string; referenceSeries: string | null; codec: string | null }[];
-    // Three series: 3 × 2 ordered pairs and 3 × 3 rows against the codecs.
-    expect(rows).toHaveLength(6 + 9);
+    // Four series: 4 × 3 ordered pairs and 4 × 3 rows against the codecs.
+    expect(rows).toHaveLength(12 + 12);
     const treeAgainstJpeg = rows.find((r) => r.codec === 'jpeg' && r.testSeries === `${treeRun}:tree-balanced`)!;
     expect(treeAgainstJpeg).toMatchObject({ reference: 'JPEG', test: 'tree · Tree-structured, balanced', referenceSeries: null });
     const sweepAgainstFull = rows.find((r) => r.referenceSeries === `${fullRun}:full` && r.testSeries === `${fullRun}:entropy-constrained`)!;

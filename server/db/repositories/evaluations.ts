@@ -152,7 +152,8 @@ export function evaluationsRepository(db: Executor) {
       }[];
       return rows.map((r) => ({
         codebookId: r.codebook_id, bits: r.bits, size: r.size, structure: r.structure, lambda: r.lambda, meanBits: r.mean_bits,
-        treeBalanced: r.structure === 'tree' ? r.tree_balanced !== 'false' : null,
+        // JSON_VALUE gives a JSON boolean as '1' / '0' (MariaDB 10.11), as 'true' / 'false' in other versions.
+        treeBalanced: r.structure === 'tree' ? !['0', 'false'].includes(String(r.tree_balanced)) : null,
         overall: parseJson<EvaluationOverall>(r.overall)!,
       }));
     },

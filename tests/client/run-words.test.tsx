@@ -5,7 +5,7 @@ import type { CompareResult, RunDetail, RunSummary } from '../../server/contract
 import { BdTable } from '../../src/features/compare/components/bd-table';
 import { RunPicker } from '../../src/features/compare/components/run-picker';
 import { RecentRuns } from '../../src/features/run-setup/components/recent-runs';
-import { RunProgress } from '../../src/features/runs/components/run-progress';
+import { RunProgress, sizeBars } from '../../src/features/runs/components/run-progress';
 import { RunStateBadge } from '../../src/features/runs/components/run-state-badge';
 import { formatDb } from '../../src/features/runs/format';
 
@@ -106,5 +106,20 @@ describe('the workers that served a run', () => {
     );
     expect(screen.getByText('Computed on vm-1 (3f2a9c1e), vm-2 (b7d04e55)')).toBeTruthy();
     expect(screen.getAllByText(/^Computed on/)).toHaveLength(1);
+  });
+});
+
+describe('the size bars of a run with a λ sweep', () => {
+  it('fill a bar with the ladder codebook of that size, not with a λ codebook that ended with as many codewords', () => {
+    const book = (id: number, lambda: number | null, iterations: number) =>
+      ({ id, bits: 2, size: 4, distortion: 10, iterations, structure: 'full', lambda, checksum: 'c' });
+    const bars = sizeBars({
+      normalized: { sizes: [4] },
+      // The λ codebook comes last, as the run's codebooks are listed: the ladder's own must still win.
+      codebooks: [book(1, null, 11), book(2, 0.5, 23)],
+      jobs: [{ id: 1, kind: 'train', state: 'succeeded', progress: null, servedBy: [] }],
+    } as unknown as RunDetail);
+    expect(bars).toHaveLength(1);
+    expect(bars[0].note).toMatch(/^11 it\./);
   });
 });

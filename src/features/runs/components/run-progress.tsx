@@ -17,7 +17,9 @@ function trainJob(run: RunDetail): JobSummary | undefined {
 export function sizeBars(run: RunDetail): SizeBar[] {
   const job = trainJob(run);
   const progress = job?.progress;
-  const codebooks = new Map(run.codebooks.map((c) => [c.size, c]));
+  // The bars follow the run's size ladder; a λ codebook can end with the same size as a ladder codebook, so only
+  // codebooks without λ fill a bar.
+  const codebooks = new Map(run.codebooks.filter((c) => c.lambda === null).map((c) => [c.size, c]));
   return run.normalized.sizes.map((size) => {
     const bits = Math.round(Math.log2(size));
     const book = codebooks.get(size);

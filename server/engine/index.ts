@@ -103,7 +103,7 @@ export { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, t
 export { bdAgainstCodecs, bdTableCsv, BD_TABLE_CSV_COLUMNS, type BdTableRow, type CurveRate } from './metrics/bd-table';
 export {
   fixedPointTable, fixedPointTableBytes, withFixedPointCodewords, RESIDUAL_WIDTHS, decoderCost, structureTableBytes,
-  type DecoderCost, type FirmwareTableCost, type OperationCounts, type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
+  type CostedCodebook, type DecoderCost, type FirmwareTableCost, type OperationCounts, type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
 } from './firmware';
 
 // ---- entry validation ----

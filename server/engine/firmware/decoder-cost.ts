@@ -58,8 +58,11 @@ export interface DecoderCost {
   fixedRate: boolean;
 }
 
-/** The decoder cost of a codebook with a patch geometry. */
-export function decoderCost(codebook: Codebook): DecoderCost {
+/** What the decoder cost reads of a codebook. */
+export type CostedCodebook = Pick<Codebook, 'size' | 'dimension' | 'codewords' | 'preprocessing' | 'structure'> & { patch: { width: number; height: number } | null };
+
+/** The decoder cost of a codebook (per pixel of its patch; per component when it has none). */
+export function decoderCost(codebook: CostedCodebook): DecoderCost {
   const d = codebook.dimension;
   const pixelsPerBlock = codebook.patch ? codebook.patch.width * codebook.patch.height : d;
   const cost = codebookCost(codebook.structure, codebook.size, d);

@@ -53,7 +53,7 @@ function roundHalfUp(x: number): number {
  * at F = 0 the values that do not fit saturate. Every stored value v / 2^F is exact in float32 and a sum of at most
  * 8 stages of them is exact in float64, so the engine's decoder with these values equals the C decoder's integer sum.
  */
-export function fixedPointTable(codebook: Codebook, width: ResidualWidth = 'int16'): FixedPointTable {
+export function fixedPointTable(codebook: Pick<Codebook, 'codewords' | 'preprocessing' | 'structure'>, width: ResidualWidth = 'int16'): FixedPointTable {
   const src = codebook.codewords;
   // Residual stages are summed before the pixel rule, so only signed values (later stages are differences) fit them.
   if (codebook.preprocessing.kind === 'none' && codebook.structure.kind !== 'residual') {

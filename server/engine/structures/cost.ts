@@ -22,10 +22,10 @@ export interface StructureCost {
   /** Codewords the decoder reads blocks from (a tree's leaves; otherwise the whole table). */
   decoderCodewords: number;
   /**
-   * Encoder multiply-adds per block, worst case: one per component of every squared distance it evaluates
-   * (comparisons and λ·length additions not counted). Full search and ECVQ: K·d. Tree: 2·d per level (both
-   * children's distances; a decoder-side hyperplane test would need d + 1). Residual: d·Σ_s (candidates kept after
-   * stage s−1) · 2^{b_s}, one candidate before stage 0 and min(M, product of the earlier stage sizes) after.
+   * Encoder multiply-adds per block, worst case: one per component of every squared distance it evaluates (ECVQ's K
+   * additions of a precomputed λ·length are not counted; comparisons are, below). Full search and ECVQ: K·d. Tree:
+   * 2·d per level (both children's distances; a hyperplane test would need d + 1). Residual: d·Σ_s (candidates kept
+   * after stage s−1) · 2^{b_s}, one candidate before stage 0 and min(M, product of the earlier stage sizes) after.
    */
   encodeMultiplyAdds: number;
   /**

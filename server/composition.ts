@@ -167,8 +167,9 @@ export function compose(config: Config, options: ComposeOptions = {}): Compositi
   const comparison = createComparisonService({ db });
   const releases = createReleasesService({ db, now });
   const releaseReport = createReleaseReportService({
-    db, store: contentStore, releases, ...config.reconstructions,
+    db, releases, ...config.reconstructions,
     channelCurve: (teamId, codebookId, signal) => codebookChannel.curve(teamId, codebookId, channelQuery.parse({}), signal),
+    measureRounding: codebookChannel.measureRounding,
   });
   const activity = createActivityService({ db });
   // The token file is read at each registration: replacing it (npm run worker-token -- rotate) refuses the old one.

@@ -38,6 +38,52 @@ export const traceEntry = z.object({
   redecided: z.number().int().optional(),
 });
 
+const int = () => z.number().int();
+/** Worst-case operations of one block (or per pixel: divided by the block's pixels), server/engine/structures/cost.ts. */
+const operationCounts = z.object({
+  /** Encoder multiply-adds: one per component of each squared distance evaluated. */
+  encodeMultiplyAdds: z.number(),
+  /** Encoder comparisons picking the nearest candidate(s). */
+  encodeComparisons: z.number(),
+  /** Decoder additions (summing residual stages). */
+  decodeAdds: z.number(),
+  /** Decoder comparisons turning the index bits into a table row (Huffman: one a bit; tree: one leaf test a node). */
+  decodeComparisons: z.number(),
+});
+
+/** What the codebook costs a device (server/engine/firmware/decoder-cost.ts): tables, operations, longest code. */
+export const decoderCost = z.object({
+  structure: z.enum(STRUCTURE_KINDS),
+  dimension: int(),
+  pixelsPerBlock: int(),
+  /** Codewords the encoder searches (every node of a tree) and those a decoder reads blocks from (a tree's leaves). */
+  encoderCodewords: int(),
+  decoderCodewords: int(),
+  /** float32 tables of the encoder and of the decoder, bytes. */
+  encoderFloatBytes: int(),
+  decoderFloatBytes: int(),
+  /** The firmware table at each storage it can take (uint8 for plain codebooks; int16 and int8 for signed ones). */
+  firmware: z.array(
+    z.object({
+      type: z.enum(['uint8', 'int8', 'int16']),
+      fractionBits: int(),
+      saturated: int(),
+      /** Bytes of the C codeword table. */
+      codewordBytes: int(),
+      /** Bytes of the structure's own C tables: Huffman code, tree children or stage offsets. */
+      structureBytes: int(),
+    }),
+  ),
+  perBlock: operationCounts,
+  perPixel: operationCounts,
+  /** Longest index of a block in bits, the mean code's bits, and their sum (the worst-case code length of a block). */
+  maxIndexBits: int(),
+  meanBits: int(),
+  maxBitsPerBlock: int(),
+  fixedRate: z.boolean(),
+});
+export type DecoderCostFigures = z.infer<typeof decoderCost>;
+
 export const codebookDetail = codebookSummary.extend({
   /** Training vectors per cell (the usage histogram). */
   usage: z.array(z.number().int()),
@@ -51,6 +97,8 @@ export const codebookDetail = codebookSummary.extend({
   indexBits: z.number().int(),
   /** Residual stages' bits, stage 0 first; null for other structures. */
   stages: z.array(z.number().int()).nullable(),
+  /** Table bytes, operations per block and per pixel, worst-case code length. */
+  decoderCost,
 });
 export type CodebookDetail = z.infer<typeof codebookDetail>;
 

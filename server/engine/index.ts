@@ -72,7 +72,7 @@ export {
   type PayloadChoice,
 } from './format/container';
 export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
-export { rawContainerBytes } from './format/raw-size';
+export { rawContainerBytes, rawSetBytes, type RawGeometry, type VariableIndexStream } from './format/raw-size';
 export { fixedRateBits } from './format/index-coding';
 export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
@@ -102,8 +102,8 @@ export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasure
 export { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type BdResult, type BdSummary, type RdPoint } from './metrics/bd-rate';
 export { bdAgainstCodecs, bdTableCsv, BD_TABLE_CSV_COLUMNS, type BdTableRow, type CurveRate } from './metrics/bd-table';
 export {
-  fixedPointTable, fixedPointTableBytes, withFixedPointCodewords, RESIDUAL_WIDTHS,
-  type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
+  fixedPointTable, fixedPointTableBytes, withFixedPointCodewords, RESIDUAL_WIDTHS, decoderCost, structureTableBytes,
+  type CostedCodebook, type DecoderCost, type FirmwareTableCost, type OperationCounts, type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,
 } from './firmware';
 
 // ---- entry validation ----

@@ -3,7 +3,7 @@ import { DEFAULT_BERS, STUDIO_CHANNEL_MAX_PIXEL_RUNS, STUDIO_REORDER_MAX_BITS } 
 import type { Database } from '../db';
 import type { CodebookWithCodewords } from '../db/repositories/codebooks';
 import type { RunImageRecord } from '../db/repositories/runs';
-import { firmwareBundle, firmwareZip, fixedPointCost, fixedPointTableBytes, loadImage, psnrForJson, type ChannelCurve } from '../engine';
+import { firmwareBundle, firmwareZip, fixedPointCost, fixedPointTableBytes, loadImage, psnrForJson, type ChannelCurve, type Codebook, type PixelImage, type ResidualWidth } from '../engine';
 import { badRequest, notFound } from '../errors';
 import type { ChannelTask, ReorderTaskResult } from '../jobs/tasks/channel.task';
 import { recordAudit } from './audit';
@@ -23,6 +23,25 @@ export interface CodebookChannelDeps {
   /** Computations at once and waiting; the reconstruction views' bounds (RECONSTRUCTION_MAX_CONCURRENT, …_QUEUED). */
   maxConcurrent: number;
   maxQueued: number;
+}
+
+/** The firmware table's rounding cost as the codebook page and the release report show it. */
+export interface RoundingFigures {
+  images: number;
+  tableType: string;
+  fractionBits: number;
+  saturated: number;
+  tableBytes: number;
+  psnrFloat: number | null;
+  psnrFixed: number | null;
+  costDb: number;
+  differing: number;
+}
+
+/** An image the rounding cost is measured on: its original in the content store. */
+export interface RoundingImage {
+  sha256: string;
+  fileName: string;
 }
 
 function curveJson(codebookId: number, images: number, c: ChannelCurve): ChannelResponse {
@@ -69,7 +88,34 @@ export function createCodebookChannelService(deps: CodebookChannelDeps) {
     return db.repos.runs.imagesOf(codebook.runId, 'held-out');
   }
 
+  /**
+   * The PSNR cost of the firmware table's fixed point (`residual` storage for signed tables) on images: each decoded
+   * once from the store, handed to `onImage` (the release report takes its worst tiles from the same pixels), then the
+   * engine's float decoder measured against the table's. The one measurement behind the codebook page's rounding
+   * route and the release report; the caller holds a compute slot.
+   */
+  async function measureRounding(
+    book: Codebook, images: readonly RoundingImage[], options: { residual: ResidualWidth; signal: AbortSignal; onImage?: (index: number, pixels: PixelImage) => void | Promise<void> },
+  ): Promise<RoundingFigures> {
+    const color = book.patch!.color;
+    const { table } = firmwareBundle(book, { residual: options.residual });
+    const pixels: PixelImage[] = [];
+    for (const image of images) {
+      options.signal.throwIfAborted();
+      const decoded = await loadImage(deps.store.path(image.sha256), color, image.fileName);
+      await options.onImage?.(pixels.length, decoded);
+      pixels.push(decoded);
+    }
+    const cost = await fixedPointCost(book, table, pixels, { signal: options.signal });
+    return {
+      images: pixels.length, tableType: table.type, fractionBits: table.fractionBits, saturated: table.saturated, tableBytes: fixedPointTableBytes(table, book),
+      psnrFloat: psnrForJson(cost.psnrFloat), psnrFixed: psnrForJson(cost.psnrFixed), costDb: cost.costDb, differing: cost.differing,
+    };
+  }
+
   return {
+    measureRounding,
+
     /** PSNR against bit-error rate, measured over seeds and expected from the closed form, on held-out images. */
     async curve(teamId: number, codebookId: number, q: ChannelQuery, signal: AbortSignal): Promise<ChannelResponse> {
       const codebook = await mustFind(teamId, codebookId);
@@ -118,19 +164,7 @@ export function createCodebookChannelService(deps: CodebookChannelDeps) {
       if (images.length === 0) throw badRequest('There are no images to measure the rounding on');
       const release = await slots.acquire(signal);
       try {
-        const book = engineCodebookOf(codebook);
-        const { table } = firmwareBundle(book, { residual: q.residual });
-        const pixels = [];
-        for (const image of images) {
-          signal.throwIfAborted();
-          pixels.push(await loadImage(deps.store.path(image.sha256), codebook.color, image.fileName));
-        }
-        const cost = await fixedPointCost(book, table, pixels, { signal });
-        return {
-          codebookId, images: images.length, tableType: table.type, fractionBits: table.fractionBits, saturated: table.saturated,
-          tableBytes: fixedPointTableBytes(table),
-          psnrFloat: psnrForJson(cost.psnrFloat), psnrFixed: psnrForJson(cost.psnrFixed), costDb: cost.costDb, differing: cost.differing,
-        };
+        return { codebookId, ...(await measureRounding(engineCodebookOf(codebook), images, { residual: q.residual, signal })) };
       } finally {
         release();
       }

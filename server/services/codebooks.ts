@@ -1,7 +1,7 @@
 import type { CodebookDetail, CodebookSummary, ExportTarget } from '../contracts';
 import type { CodebookSummaryRecord, CodebookWithCodewords, Database } from '../db';
 import {
-  codewordChecksum, EngineInputError, fixedRateBits, parseCodebook, serializeCodebook, structureFromInfo, toCodebookDocument, writeNpy, type Codebook, type StructureInfo,
+  codewordChecksum, decoderCost, EngineInputError, fixedRateBits, parseCodebook, serializeCodebook, structureFromInfo, toCodebookDocument, writeNpy, type Codebook, type StructureInfo,
 } from '../engine';
 import { notFound, validationFailed } from '../errors';
 import { recordAudit } from './audit';
@@ -115,10 +115,15 @@ export function createCodebooksService(deps: { db: Database }) {
     };
   }
 
-  /** The stored document's structure (absent in revision 1: full search) as the page's index bits and stages. */
-  function structureFigures(c: CodebookWithCodewords): Pick<CodebookDetail, 'indexBits' | 'stages'> {
+  /** The stored document's structure (absent in revision 1: full search) as the page's index bits, stages and decoder cost. */
+  function structureFigures(c: CodebookWithCodewords): Pick<CodebookDetail, 'indexBits' | 'stages' | 'decoderCost'> {
     const structure = structureFromInfo(c.metadata.structure as StructureInfo | undefined);
-    return { indexBits: fixedRateBits({ size: c.size, structure }), stages: structure.kind === 'residual' ? [...structure.bits] : null };
+    const preprocessing = c.meanBits > 0 ? { kind: 'mean-removed' as const, meanBits: c.meanBits } : { kind: 'none' as const };
+    return {
+      indexBits: fixedRateBits({ size: c.size, structure }),
+      stages: structure.kind === 'residual' ? [...structure.bits] : null,
+      decoderCost: decoderCost({ size: c.size, dimension: c.dimension, codewords: c.codewords, preprocessing, structure, patch: c.patch }),
+    };
   }
 
   return {

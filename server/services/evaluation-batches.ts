@@ -14,7 +14,7 @@ import { recordAudit } from './audit';
 import type { CsvFile } from './evaluation-csv';
 import { heldOutHash as heldOutHashOf } from './held-out-hash';
 import { toJobSummary } from './runs';
-import { bppRawOf } from './evaluation-results';
+import { bppRawOf, rawGeometries } from './evaluation-results';
 
 /** The batches a list shows: the newest this many. */
 const BATCH_LIST_LIMIT = 100;
@@ -69,6 +69,7 @@ export function createEvaluationBatches(deps: { db: Database; jobQueued?: () => 
     ]);
     const sizes = new Map(images.map((i) => [i.id, i]));
     const byId = new Map(codebooks.map((c) => [c.id, c]));
+    const geometry = await rawGeometries(db, codebooks);
     const measured = new Map(evaluations.map((e) => [`${e.codebookId}:${e.heldOutHash}`, e.overall]));
     return {
       job: toJobSummary(job),
@@ -80,9 +81,10 @@ export function createEvaluationBatches(deps: { db: Database; jobQueued?: () => 
       cells: batch.codebookIds.flatMap((codebookId) =>
         batch.sets.map((s, setIndex) => {
           const o = measured.get(`${codebookId}:${s.heldOutHash}`);
-          const c = byId.get(codebookId);
-          // The raw rate follows from the geometry and the images' sizes (nothing is coded again).
-          const bppRaw = c ? bppRawOf(c, s.imageIds.flatMap((id) => (sizes.has(id) ? [sizes.get(id)!] : []))) : 0;
+          const g = geometry.get(codebookId);
+          // The raw rate follows from the geometry and the images' sizes (nothing is coded again), or for a
+          // variable-length index layout from the containers the evaluation wrote.
+          const bppRaw = g && o ? bppRawOf(g, s.imageIds.flatMap((id) => (sizes.has(id) ? [sizes.get(id)!] : [])), o.bytes) : 0;
           const result = o ? { bppFixed: o.bppFixed, bppEntropy: o.bppEntropy, bppActual: o.bppActual, bppRaw, mse: o.mse, psnr: o.psnr, ssim: o.ssim, lossless: lossless(o.psnr, o.mse) } : null;
           return { codebookId, setIndex, result };
         }),

@@ -2,31 +2,40 @@ import type { BaselineCurves, CodebookEvaluations, ImageMetrics, RunCurve, RunMe
 import type { Database } from '../db';
 import type { EvaluationImageMetrics } from '../db/repositories/evaluations';
 import type { RunRecord } from '../db/repositories/runs';
-import { rawContainerBytes } from '../engine';
+import { rawContainerBytes, rawSetBytes, structureFromInfo, type RawGeometry, type StructureInfo } from '../engine';
 import { DEFAULT_BD_METHOD, type StructureKind } from '../engine/vocabulary';
 import { notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
 
 const lossless = (psnr: number | null, mse: number) => psnr === null && mse === 0;
 
-/** What the raw rate needs of a codebook: its patch, size and mean bits. */
-export interface RawGeometry {
-  patch: { width: number; height: number };
-  size: number;
-  meanBits: number;
+export type { RawGeometry };
+
+type StoredGeometry = { patch: { width: number; height: number }; size: number; meanBits: number };
+
+/** What the raw rate needs of a stored codebook: its row's patch, size and mean bits, and its document's structure. */
+export function rawGeometryOf(c: StoredGeometry, structure: unknown): RawGeometry {
+  return { patch: c.patch, size: c.size, meanBits: c.meanBits, structure: structureFromInfo(structure as StructureInfo | undefined) };
 }
 
-const rawBytesOf = (g: RawGeometry, image: { width: number; height: number }) => rawContainerBytes(image.width, image.height, g.patch, g.size, g.meanBits);
+/** Raw geometries of stored codebooks by id, their documents' structures read in one query. */
+export async function rawGeometries(db: Database, codebooks: readonly (StoredGeometry & { id: number })[]): Promise<Map<number, RawGeometry>> {
+  const structures = await db.repos.codebooks.structuresOf(codebooks.map((c) => c.id));
+  return new Map(codebooks.map((c) => [c.id, rawGeometryOf(c, structures.get(c.id))]));
+}
 
-/** Raw bits over pixels of a set of images (rawContainerBytes: known from the geometry, nothing is coded again). */
-export function bppRawOf(g: RawGeometry, images: { width: number; height: number }[]): number {
+/**
+ * Raw bits over pixels of a set of images (rawSetBytes: from the geometry for fixed-length index layouts, nothing coded
+ * again; for variable-length ones the containers the evaluation wrote, `writtenBytes` in all, which are stored raw).
+ */
+export function bppRawOf(g: RawGeometry, images: { width: number; height: number }[], writtenBytes: number): number {
   const pixels = images.reduce((n, i) => n + i.width * i.height, 0);
-  return pixels === 0 ? 0 : (images.reduce((n, i) => n + rawBytesOf(g, i), 0) * 8) / pixels;
+  return pixels === 0 ? 0 : (rawSetBytes(images, g, writtenBytes) * 8) / pixels;
 }
 
-/** One image's figures as the API shows them, with its raw rate from the codebook's geometry. */
+/** One image's figures as the API shows them, with its raw rate from the codebook's geometry (rawContainerBytes). */
 export function toImageMetrics(m: EvaluationImageMetrics, image: { fileName: string; width: number; height: number }, g: RawGeometry): ImageMetrics {
-  const rawBytes = rawBytesOf(g, image);
+  const rawBytes = rawContainerBytes(image.width, image.height, g, { writtenBytes: m.containerBytes });
   return {
     rawBytes,
     bppRaw: (rawBytes * 8) / (image.width * image.height),
@@ -73,7 +82,7 @@ export function createEvaluationResults(deps: { db: Database }) {
       db.repos.codebooks.listForRun(run.id),
       db.repos.runs.imagesOf(run.id, 'held-out'),
     ]);
-    const geometry = new Map(codebooks.map((c) => [c.id, c]));
+    const geometry = await rawGeometries(db, codebooks);
     // The codecs' rate is their files' bytes, so the codebooks stand beside them on theirs: the actual rate. The
     // deltas are the full-search series' (a run's entropy-constrained codebooks form a curve of their own).
     const actual = rows.filter((r) => r.structure === 'full').map((r) => ({ bpp: r.overall.bppActual, psnr: r.overall.psnr }));
@@ -91,7 +100,7 @@ export function createEvaluationResults(deps: { db: Database }) {
         bppFixed: r.overall.bppFixed,
         bppEntropy: r.overall.bppEntropy,
         bppActual: r.overall.bppActual,
-        bppRaw: bppRawOf(geometry.get(r.codebookId)!, heldOut),
+        bppRaw: bppRawOf(geometry.get(r.codebookId)!, heldOut, r.overall.bytes),
         mse: r.overall.mse,
         psnr: r.overall.psnr,
         ssim: r.overall.ssim,
@@ -104,7 +113,7 @@ export function createEvaluationResults(deps: { db: Database }) {
   async function metrics(teamId: number, runId: number): Promise<RunMetrics> {
     const run = await runOf(teamId, runId);
     const [rows, codebooks] = await Promise.all([db.repos.evaluations.imageMetricsOfRun(run.id, run.heldOutHash), db.repos.codebooks.listForRun(run.id)]);
-    const geometry = new Map(codebooks.map((c) => [c.id, c]));
+    const geometry = await rawGeometries(db, codebooks);
     const byCodebook = new Map<number, RunMetrics['codebooks'][number]>();
     for (const r of rows) {
       let entry = byCodebook.get(r.codebookId);
@@ -118,6 +127,7 @@ export function createEvaluationResults(deps: { db: Database }) {
     const codebook = await db.repos.codebooks.findForTeam(teamId, codebookId);
     if (!codebook) throw notFound('Codebook');
     const evaluations = await db.repos.evaluations.listForCodebook(codebookId);
+    const geometry = rawGeometryOf(codebook, codebook.metadata.structure);
     const out: CodebookEvaluations['evaluations'] = [];
     for (const e of evaluations) {
       const rows = await db.repos.evaluations.imagesOf(e.id);
@@ -131,12 +141,12 @@ export function createEvaluationResults(deps: { db: Database }) {
         bppFixed: e.overall.bppFixed,
         bppEntropy: e.overall.bppEntropy,
         bppActual: e.overall.bppActual,
-        bppRaw: bppRawOf(codebook, kept.map((r) => images.get(r.imageId)!)),
+        bppRaw: bppRawOf(geometry, kept.map((r) => images.get(r.imageId)!), kept.reduce((n, r) => n + r.containerBytes, 0)),
         mse: e.overall.mse,
         psnr: e.overall.psnr,
         ssim: e.overall.ssim,
         lossless: lossless(e.overall.psnr, e.overall.mse),
-        images: kept.map((r) => toImageMetrics(r, images.get(r.imageId)!, codebook)),
+        images: kept.map((r) => toImageMetrics(r, images.get(r.imageId)!, geometry)),
       });
     }
     return { evaluations: out };

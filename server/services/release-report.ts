@@ -2,13 +2,14 @@ import { createHash } from 'node:crypto';
 import type { ChannelResponse, CurvePoint, ReleaseReport } from '../contracts';
 import type { CodebookWithCodewords, Database } from '../db';
 import type { EvaluationRecord } from '../db/repositories/evaluations';
-import { encode, firmwareBundle, fixedPointCost, fixedPointTableBytes, loadImage, psnrForJson, tileErrors, type Codebook, type PixelImage } from '../engine';
+import { encode, firmwareBundle, psnrForJson, tileErrors, type Codebook } from '../engine';
 import { DEFAULT_BD_METHOD, type StructureKind } from '../engine/vocabulary';
 import { AppError, conflict, notFound } from '../errors';
 import { againstEachCodec } from './bd-figures';
 import { createComputeSlots } from './compute-slots';
+import type { CodebookChannelService } from './codebook-channel';
 import { codebookSummaryOf, engineCodebookOf } from './codebooks';
-import { bppRawOf, toImageMetrics, type RawGeometry } from './evaluation-results';
+import { bppRawOf, rawGeometries, rawGeometryOf, toImageMetrics, type RawGeometry } from './evaluation-results';
 import { heldOutHash } from './held-out-hash';
 import type { ReleasesService } from './releases';
 
@@ -49,10 +50,11 @@ function pointOf(codebookId: number, bits: number, size: number, structure: Stru
  */
 export function createReleaseReportService(deps: {
   db: Database;
-  store: { path(sha256: string): string };
   releases: ReleasesService;
   /** The channel curve of a codebook at the studio's defaults (codebook-channel.ts), for the report's robustness section. */
   channelCurve: (teamId: number, codebookId: number, signal: AbortSignal) => Promise<ChannelResponse>;
+  /** The firmware table's rounding cost (codebook-channel.ts), the same measurement as the codebook page's. */
+  measureRounding: CodebookChannelService['measureRounding'];
   /** Measurements at once and waiting (the reconstruction views' bounds: both decode and code held-out images). */
   maxConcurrent: number;
   maxQueued: number;
@@ -75,29 +77,33 @@ export function createReleaseReportService(deps: {
   }
 
   async function measure(book: Codebook, images: { id: number; sha256: string; fileName: string; width: number; height: number }[], channel: () => Promise<Computed['channel']>): Promise<Computed> {
-    const color = book.patch!.color;
-    const pixels: PixelImage[] = [];
+    const measured = images.slice(0, REPORT_MAX_IMAGES);
     const tiles: ReleaseReport['worstTiles']['tiles'] = [];
-    for (const image of images.slice(0, REPORT_MAX_IMAGES)) {
-      const decoded = await loadImage(deps.store.path(image.sha256), color, image.fileName);
-      const { reconstruction } = await encode(book, decoded);
-      for (const t of tileErrors(decoded.pixels, reconstruction, decoded.width, decoded.height, decoded.channels, REPORT_TILE_SIZE).slice(0, REPORT_WORST_TILES)) {
-        tiles.push({ imageId: image.id, fileName: image.fileName, imageWidth: decoded.width, imageHeight: decoded.height, ...t, psnr: psnrForJson(t.psnr) });
-      }
-      pixels.push(decoded);
-    }
-    tiles.sort((a, b) => b.mse - a.mse || a.imageId - b.imageId || a.y - b.y || a.x - b.x);
+    // The bundle's default storage (int16 for signed tables), whose files the report's checksums name.
     const bundle = firmwareBundle(book);
-    const rounding = await fixedPointCost(book, bundle.table, pixels);
+    const rounding = await deps.measureRounding(book, measured, {
+      residual: 'int16',
+      // Shared by every request for the release (see measured()), so no one request's disconnect may stop it.
+      signal: new AbortController().signal,
+      // The worst tiles come from the same decoded pixels the rounding is measured on.
+      onImage: async (i, decoded) => {
+        const image = measured[i];
+        const { reconstruction } = await encode(book, decoded);
+        for (const t of tileErrors(decoded.pixels, reconstruction, decoded.width, decoded.height, decoded.channels, REPORT_TILE_SIZE).slice(0, REPORT_WORST_TILES)) {
+          tiles.push({ imageId: image.id, fileName: image.fileName, imageWidth: decoded.width, imageHeight: decoded.height, ...t, psnr: psnrForJson(t.psnr) });
+        }
+      },
+    });
+    tiles.sort((a, b) => b.mse - a.mse || a.imageId - b.imageId || a.y - b.y || a.x - b.x);
     return {
       channel: await channel(),
-      worstTiles: { tileSize: REPORT_TILE_SIZE, tiles: tiles.slice(0, REPORT_WORST_TILES), imagesMeasured: pixels.length },
+      worstTiles: { tileSize: REPORT_TILE_SIZE, tiles: tiles.slice(0, REPORT_WORST_TILES), imagesMeasured: rounding.images },
       decoderCost: {
-        tableType: bundle.table.type,
-        fractionBits: bundle.table.fractionBits,
-        saturated: bundle.table.saturated,
-        tableBytes: fixedPointTableBytes(bundle.table),
-        rounding: { psnrFloat: psnrForJson(rounding.psnrFloat), psnrFixed: psnrForJson(rounding.psnrFixed), costDb: rounding.costDb, differing: rounding.differing },
+        tableType: rounding.tableType,
+        fractionBits: rounding.fractionBits,
+        saturated: rounding.saturated,
+        tableBytes: rounding.tableBytes,
+        rounding: { psnrFloat: rounding.psnrFloat, psnrFixed: rounding.psnrFixed, costDb: rounding.costDb, differing: rounding.differing },
       },
       checksums: {
         codewords: book.checksum,
@@ -129,14 +135,14 @@ export function createReleaseReportService(deps: {
   }
 
   async function curveOf(codebook: CodebookWithCodewords, evaluation: EvaluationRecord, heldOut: { width: number; height: number }[]): Promise<ReleaseReport['curve']> {
-    const geometry = new Map<number, RawGeometry>([[codebook.id, codebook]]);
-    if (codebook.runId !== null) for (const c of await db.repos.codebooks.listForRun(codebook.runId)) geometry.set(c.id, c);
+    const own = rawGeometryOf(codebook, codebook.metadata.structure);
+    const geometry = codebook.runId === null ? new Map<number, RawGeometry>() : await rawGeometries(db, await db.repos.codebooks.listForRun(codebook.runId));
     const points = codebook.runId === null
-      ? [pointOf(codebook.id, codebook.bits, codebook.size, codebook.structure, codebook.lambda, evaluation.overall, bppRawOf(codebook, heldOut))]
+      ? [pointOf(codebook.id, codebook.bits, codebook.size, codebook.structure, codebook.lambda, evaluation.overall, bppRawOf(own, heldOut, evaluation.overall.bytes))]
       // The released codebook's own family: a λ sweep's curve for an entropy-constrained release, the sizes otherwise.
       : (await db.repos.evaluations.curveOfRun(codebook.runId, evaluation.heldOutHash))
         .filter((r) => r.structure === codebook.structure)
-        .map((r) => pointOf(r.codebookId, r.bits, r.size, r.structure as StructureKind, r.lambda, r.overall, bppRawOf(geometry.get(r.codebookId) ?? codebook, heldOut)));
+        .map((r) => pointOf(r.codebookId, r.bits, r.size, r.structure as StructureKind, r.lambda, r.overall, bppRawOf(geometry.get(r.codebookId) ?? own, heldOut, r.overall.bytes)));
     const baselines: ReleaseReport['curve']['baselines'] = { jpeg: [], webp: [], avif: [] };
     for (const p of await db.repos.baselines.list(evaluation.heldOutHash, codebook.color)) {
       baselines[p.codec].push({ quality: p.quality, bpp: p.bpp, mse: p.mse, psnr: p.psnr, ssim: p.ssim });
@@ -159,7 +165,8 @@ export function createReleaseReportService(deps: {
       if (!evaluation) throw notFound('Evaluation');
       const rows = await db.repos.evaluations.imagesOf(evaluation.id);
       const imageRecords = new Map((await db.repos.runs.teamImages(teamId, rows.map((r) => r.imageId))).map((i) => [i.id, i]));
-      const images = rows.filter((r) => imageRecords.has(r.imageId)).map((r) => toImageMetrics(r, imageRecords.get(r.imageId)!, codebook));
+      const geometry = rawGeometryOf(codebook, codebook.metadata.structure);
+      const images = rows.filter((r) => imageRecords.has(r.imageId)).map((r) => toImageMetrics(r, imageRecords.get(r.imageId)!, geometry));
       const training = codebook.runId === null ? null : await db.repos.runs.imagesOf(codebook.runId, 'training');
       const book = engineCodebookOf(codebook);
       const [curve, computed] = await Promise.all([

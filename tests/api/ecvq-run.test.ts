@@ -73,4 +73,25 @@ describe('a run with a λ list', () => {
       }
     }
   });
+
+  it('reports the written file as the raw rate and the longest Huffman code as the decoder cost', async () => {
+    const curve = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/curve`).set(bearer(team.viewer));
+    const metrics = await request(t.app).get(`/api/teams/${team.teamId}/runs/${runId}/metrics`).set(bearer(team.viewer));
+    for (const p of (curve.body.points as { codebookId: number; structure: string; size: number; bppRaw: number; bppActual: number }[]).filter((q) => q.structure === 'entropy-constrained')) {
+      // A Huffman-coded stream is stored raw whatever payload is asked for (FORMAT.md, "Version 3: index layouts"), so
+      // the file the evaluation wrote is the raw container: not ceil(log2 K) bits a block behind a 68-byte header.
+      expect(p.bppRaw).toBeCloseTo(p.bppActual, 12);
+      const images = metrics.body.codebooks.find((c: { codebookId: number }) => c.codebookId === p.codebookId).images as { containerBytes: number; rawBytes: number }[];
+      for (const image of images) expect(image.rawBytes).toBe(image.containerBytes);
+      const exported = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${p.codebookId}/export`).set(bearer(team.viewer));
+      const longest = Math.max(...(exported.body.structure.codeLengths as number[]));
+      const detail = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${p.codebookId}`).set(bearer(team.viewer));
+      // d = 4 (2 × 2 luma): K·4 multiply-adds and K − 1 comparisons to encode, one comparison a code bit to decode.
+      expect(detail.body.codebook.decoderCost).toMatchObject({
+        structure: 'entropy-constrained', pixelsPerBlock: 4, maxIndexBits: longest, maxBitsPerBlock: longest, fixedRate: false,
+        perBlock: { encodeMultiplyAdds: 4 * p.size, encodeComparisons: p.size - 1, decodeAdds: 0, decodeComparisons: longest },
+        firmware: [{ type: 'uint8', codewordBytes: 4 * p.size }],
+      });
+    }
+  });
 });

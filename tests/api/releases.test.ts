@@ -228,6 +228,13 @@ describe('release report', () => {
     const detail = (await request(t.app).get(url(`/codebooks/${codebooks[0].id}`)).set(bearer(team.viewer))).body.codebook;
     expect(detail.dimension).toBe(16);
     expect(report.decoderCost).toMatchObject({ tableType: 'uint8', tableBytes: detail.size * 16 });
+    // The same rounding measurement as the codebook page's, on the same held-out images.
+    const rounding = (await request(t.app).get(url(`/codebooks/${codebooks[0].id}/firmware/rounding`)).set(bearer(team.viewer))).body;
+    expect(rounding.images).toBe(report.worstTiles.imagesMeasured);
+    expect(report.decoderCost).toEqual({
+      tableType: rounding.tableType, fractionBits: rounding.fractionBits, saturated: rounding.saturated, tableBytes: rounding.tableBytes,
+      rounding: { psnrFloat: rounding.psnrFloat, psnrFixed: rounding.psnrFixed, costDb: rounding.costDb, differing: rounding.differing },
+    });
     expect(report.checksums.codewords).toBe(codebooks[0].checksum);
     // Channel robustness: the codebook page's curve at its defaults, on the run's held-out images. The expected PSNR
     // (closed form, Zeger & Gersho 1990) can only fall as the bit-error rate rises; the engine's own tests check it

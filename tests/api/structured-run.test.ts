@@ -92,6 +92,54 @@ describe('a residual run', () => {
     expect(curve.body.points.map((p: { bppFixed: number }) => p.bppFixed)).toEqual([3 / 4]);
   });
 
+  it('reports the raw rate of the version 3 container a table-lookup decoder reads: Σ b_s or the depth in bits a block', async () => {
+    const rawBySize = new Map<number, number[]>();
+    for (const id of [runId, treeRunId]) {
+      const metrics = await request(t.app).get(`/api/teams/${team.teamId}/runs/${id}/metrics`).set(bearer(team.viewer));
+      expect(metrics.status).toBe(200);
+      for (const c of metrics.body.codebooks as { size: number; images: { width: number; height: number; rawBytes: number; containerBytes: number }[] }[]) {
+        for (const image of c.images) {
+          expect([image.width, image.height]).toEqual([48, 32]);
+          // The recorded file is the smallest payload kind, never above raw.
+          expect(image.containerBytes).toBeLessThanOrEqual(image.rawBytes);
+        }
+        rawBySize.set(c.size, c.images.map((i) => i.rawBytes));
+      }
+    }
+    // FORMAT.md by hand: 48 × 32 pixels in 2 × 2 blocks = 24 × 16 = 384 blocks behind a 72-byte version 3 header.
+    // Stages 2 + 2 (8 codewords): 384 × 4 bits = 192 bytes → 264. Stages 3 + 2 (12): 384 × 5 / 8 = 240 → 312.
+    // The depth-3 tree (15 nodes): 384 × 3 / 8 = 144 → 216. (Counting ceil(log2 K) bits behind 68 bytes gave 212, 260, 260.)
+    expect(rawBySize.get(8)!.every((b) => b === 264)).toBe(true);
+    expect(rawBySize.get(12)!.every((b) => b === 312)).toBe(true);
+    expect(rawBySize.get(15)!.every((b) => b === 216)).toBe(true);
+    const curve = await request(t.app).get(`/api/teams/${team.teamId}/runs/${treeRunId}/curve`).set(bearer(team.viewer));
+    expect(curve.body.points[0].bppRaw).toBeCloseTo((216 * 8) / (48 * 32), 12);
+  });
+
+  it('shows the decoder cost of residual stages searched M-best and of a balanced tree', async () => {
+    const list = await request(t.app).get(`/api/teams/${team.teamId}/codebooks`).set(bearer(team.viewer));
+    const costs = new Map<number, Record<string, unknown>>();
+    for (const summary of list.body.codebooks) {
+      const res = await request(t.app).get(`/api/teams/${team.teamId}/codebooks/${summary.id}`).set(bearer(team.viewer));
+      costs.set(res.body.codebook.size, res.body.codebook.decoderCost);
+    }
+    // Stages 3 + 2 with M = 4, d = 4 (2 × 2 luma). Stage 0: 8 candidates, 32 multiply-adds; keeping the best 4 by
+    // insertion, 0 + 1 + 2 + 3 = 6 comparisons for the first four and 4 each for the other 4: 22. Stage 1: 4 sums × 4
+    // codewords = 16 candidates, 64 multiply-adds, 6 + 12 × 4 = 54 comparisons. Decoding adds stage 1's 4 components.
+    expect(costs.get(12)).toMatchObject({
+      encoderCodewords: 12, decoderCodewords: 12, encoderFloatBytes: 12 * 4 * 4, maxIndexBits: 5, maxBitsPerBlock: 5, fixedRate: true,
+      perBlock: { encodeMultiplyAdds: 96, encodeComparisons: 76, decodeAdds: 4, decodeComparisons: 0 },
+      perPixel: { encodeMultiplyAdds: 24, encodeComparisons: 19, decodeAdds: 1, decodeComparisons: 0 },
+    });
+    // The depth-3 tree: 3 levels × 2 children × 4 = 24 multiply-adds, 3 comparisons; the decoder tests 4 nodes for a
+    // leaf and stores the 8 leaves (uint8: 8 × 4 = 32 bytes) and the 7 internal nodes' children (14 int16 = 28 bytes).
+    expect(costs.get(15)).toMatchObject({
+      encoderCodewords: 15, decoderCodewords: 8, maxIndexBits: 3, fixedRate: true,
+      perBlock: { encodeMultiplyAdds: 24, encodeComparisons: 3, decodeAdds: 0, decodeComparisons: 4 },
+      firmware: [{ type: 'uint8', codewordBytes: 32, structureBytes: 28 }],
+    });
+  });
+
   it.each([
     [{ structure: 'tree', stages: 2 }, 'stages'],
     [{ structure: 'residual', lambdas: [5] }, 'lambdas'],

@@ -241,6 +241,12 @@ export function codebooksRepository(db: Executor) {
       const rows = (await base().where({ 'c.team_id': teamId }).whereIn('c.id', ids).orderBy('c.id').select(summaryColumns)) as CodebookRow[];
       return rows.map(toSummaryRecord);
     },
+    /** The stored documents' `structure` members by codebook id (absent from a revision 1 document: full search). */
+    async structuresOf(ids: number[]): Promise<Map<number, unknown>> {
+      if (ids.length === 0) return new Map();
+      const rows = (await db('codebooks').whereIn('id', ids).select('id', 'metadata')) as { id: number; metadata: unknown }[];
+      return new Map(rows.map((r) => [r.id, parseJson<Record<string, unknown>>(r.metadata)?.structure]));
+    },
     /** A run's codebooks, smallest first. */
     async listForRun(runId: number): Promise<CodebookSummaryRecord[]> {
       const rows = (await base().where({ 'c.run_id': runId }).orderBy('c.size').select(summaryColumns)) as CodebookRow[];

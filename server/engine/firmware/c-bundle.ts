@@ -90,6 +90,22 @@ ${tableRows(Int32Array.from(st.bits), 16)}
   return '';
 }
 
+/**
+ * Bytes of the structure's own tables in `cw_codebook.h` (structureTables): the Huffman code's counts and symbols
+ * (uint16 each), the tree's internal-node children (int16, at least one pair), the residual stages' first rows (uint16)
+ * and bits (uint8); none for full search.
+ */
+export function structureTableBytes(codebook: Pick<Codebook, 'structure' | 'size'>): number {
+  const st = codebook.structure;
+  if (st.kind === 'entropy-constrained') {
+    const code = canonicalCode(st.codeLengths);
+    return 2 * (code.maxLength + 1) + 2 * code.lengths.filter((l) => l > 0).length;
+  }
+  if (st.kind === 'tree') return 2 * Math.max(2, compactTree(st.children, codebook.size).children.length);
+  if (st.kind === 'residual') return 3 * st.bits.length;
+  return 0;
+}
+
 const STRUCTURE_README = {
   full: 'Each block\'s index is b = ceil(log2 K) bits (header byte 9), packed most significant bit first; an index >= K is refused.',
   'entropy-constrained':

@@ -1,5 +1,6 @@
 import { EngineInputError } from '../input-error';
 import type { Codebook } from '../format/codebook-schema';
+import { codebookCost } from '../structures/cost';
 
 /** Storage of a mean-removed codebook's residual codewords in the firmware table; plain codebooks are always uint8. */
 import { RESIDUAL_WIDTHS, type ResidualWidth } from './widths';
@@ -16,9 +17,13 @@ const RANGES = { uint8: [0, 255], int8: [-128, 127], int16: [-32768, 32767] } as
 /** Bytes of one stored value of each C element type. */
 const ELEMENT_BYTES = { uint8: 1, int8: 1, int16: 2 } as const satisfies Record<keyof typeof RANGES, number>;
 
-/** Bytes the exported C codeword table takes on the device (entries × element size). */
-export function fixedPointTableBytes(table: Pick<FixedPointTable, 'type' | 'values'>): number {
-  return table.values.length * ELEMENT_BYTES[table.type];
+/**
+ * Bytes the exported C codeword table takes on the device: the rows it holds × d × element size. The rows are the
+ * decoder's codewords (codebookCost): a tree's leaves only (its internal nodes serve the encoder, and the bundle's
+ * `cw_codewords` leaves them out), every entry of other structures.
+ */
+export function fixedPointTableBytes(table: Pick<FixedPointTable, 'type'>, codebook: Pick<Codebook, 'structure' | 'size' | 'dimension'>): number {
+  return codebookCost(codebook.structure, codebook.size, codebook.dimension).decoderCodewords * codebook.dimension * ELEMENT_BYTES[table.type];
 }
 
 /** The codewords as the exported C table holds them. */
@@ -48,7 +53,7 @@ function roundHalfUp(x: number): number {
  * at F = 0 the values that do not fit saturate. Every stored value v / 2^F is exact in float32 and a sum of at most
  * 8 stages of them is exact in float64, so the engine's decoder with these values equals the C decoder's integer sum.
  */
-export function fixedPointTable(codebook: Codebook, width: ResidualWidth = 'int16'): FixedPointTable {
+export function fixedPointTable(codebook: Pick<Codebook, 'codewords' | 'preprocessing' | 'structure'>, width: ResidualWidth = 'int16'): FixedPointTable {
   const src = codebook.codewords;
   // Residual stages are summed before the pixel rule, so only signed values (later stages are differences) fit them.
   if (codebook.preprocessing.kind === 'none' && codebook.structure.kind !== 'residual') {

@@ -3,3 +3,5 @@
 export { buildFirmwareBundle, type BundleFile, type FirmwareBundle } from './c-bundle';
 export { fixedPointTable, fixedPointTableBytes, withFixedPointCodewords, MAX_FRACTION_BITS, RESIDUAL_WIDTHS, type FixedPointTable, type ResidualWidth } from './fixed-point';
 export { measureFixedPointCost, type RoundingCost, type RoundingCostImage } from './rounding-cost';
+export { decoderCost, type CostedCodebook, type DecoderCost, type FirmwareTableCost, type OperationCounts } from './decoder-cost';
+export { structureTableBytes } from './c-bundle';

@@ -26,6 +26,8 @@ export interface IndexCoding {
   maxBitsPerBlock: number;
   /** Table indices per block in an EncodedImage (S for residual, else 1). */
   perBlock: number;
+  /** Bits the stream of these indices (blocks × perBlock entries) takes before its zero padding: what `write` writes. */
+  streamBits(indices: Uint32Array): number;
   /** Codes `blocks` blocks' indices (blocks × perBlock entries) as one byte stream. */
   write(indices: Uint32Array): Uint8Array;
   /** Reads `blocks` blocks' indices from a stream that must hold exactly them (framing and zero padding checked). */
@@ -47,6 +49,7 @@ function fixedCoding(size: number): IndexCoding {
   const b = indexBits(size);
   return {
     layout: 'fixed', headerBits: b, stages: 0, bitsPerBlock: b, maxBitsPerBlock: b, perBlock: 1,
+    streamBits: (indices) => indices.length * b,
     write: (indices) => {
       const out = new Uint8Array(packedLength(indices.length, b));
       packBits(indices, b, out);
@@ -65,6 +68,11 @@ function huffmanCoding(lengths: Uint8Array): IndexCoding {
   let decoder: HuffmanDecoder | null = null;
   return {
     layout: 'huffman', headerBits: code.maxLength, stages: 0, bitsPerBlock: null, maxBitsPerBlock: code.maxLength, perBlock: 1,
+    streamBits: (indices) => {
+      let bits = 0;
+      for (let i = 0; i < indices.length; i += 1) bits += code.lengths[indices[i]];
+      return bits;
+    },
     write: (indices) => {
       const w = new BitWriter();
       for (let i = 0; i < indices.length; i += 1) w.write(code.codes[indices[i]], code.lengths[indices[i]]);
@@ -105,6 +113,11 @@ function treeCoding(children: Int32Array, size: number): IndexCoding {
   }
   return {
     layout: 'tree-path', headerBits: shape.maxDepth, stages: 0, bitsPerBlock: shape.balanced ? shape.maxDepth : null, maxBitsPerBlock: shape.maxDepth, perBlock: 1,
+    streamBits: (indices) => {
+      let bits = 0;
+      for (let i = 0; i < indices.length; i += 1) bits += shape.depth[indices[i]];
+      return bits;
+    },
     write: (indices) => {
       const w = new BitWriter();
       for (let i = 0; i < indices.length; i += 1) writeWide(w, path[indices[i]], shape.depth[indices[i]]);
@@ -134,6 +147,7 @@ function residualCoding(bits: readonly number[]): IndexCoding {
   const total = bits.reduce((a, b) => a + b, 0);
   return {
     layout: 'residual-stages', headerBits: total, stages: s, bitsPerBlock: total, maxBitsPerBlock: total, perBlock: s,
+    streamBits: (indices) => (indices.length / s) * total,
     write: (indices) => {
       const w = new BitWriter();
       for (let i = 0; i < indices.length; i += 1) w.write(indices[i] - offsets[i % s], bits[i % s]);

@@ -22,14 +22,29 @@ export interface StructureCost {
   /** Codewords the decoder reads blocks from (a tree's leaves; otherwise the whole table). */
   decoderCodewords: number;
   /**
-   * Encoder multiply-adds per block, worst case: one per component of every squared distance it evaluates
-   * (comparisons and λ·length additions not counted). Full search and ECVQ: K·d. Tree: 2·d per level (both
-   * children's distances; a decoder-side hyperplane test would need d + 1). Residual: d·Σ_s (candidates kept after
-   * stage s−1) · 2^{b_s}, one candidate before stage 0 and min(M, product of the earlier stage sizes) after.
+   * Encoder multiply-adds per block, worst case: one per component of every squared distance it evaluates (ECVQ's K
+   * additions of a precomputed λ·length are not counted; comparisons are, below). Full search and ECVQ: K·d. Tree:
+   * 2·d per level (both children's distances; a hyperplane test would need d + 1). Residual: d·Σ_s (candidates kept
+   * after stage s−1) · 2^{b_s}, one candidate before stage 0 and min(M, product of the earlier stage sizes) after.
    */
   encodeMultiplyAdds: number;
+  /**
+   * Encoder comparisons per block, worst case: those that pick the nearest (or cheapest) candidate. Full search and
+   * ECVQ: K − 1 (the least of K distances, or of K costs distance + λ·length). Tree: one per level (which child is
+   * nearer). Residual: per stage, keeping the M best of n candidates by insertion into a sorted list: candidate i
+   * (from 0) takes i comparisons while fewer than M are kept, then M (one against the worst kept, M − 1 to find its
+   * place), so L(L − 1)/2 + (n − L)·M with L = min(M, n); greedy search (M = 1) is 2^{b_s} − 1 a stage.
+   */
+  encodeComparisons: number;
   /** Decoder additions per block: a residual block sums S codewords, (S − 1)·d additions; a table look-up needs none. */
   decodeAdds: number;
+  /**
+   * Decoder comparisons per block, worst case, to turn the index bits into a table row (the reference decoder's,
+   * server/engine/firmware/c-sources.ts): none for a fixed-length index (full search, residual stages), one per bit
+   * read for a canonical Huffman code (after l bits, is the code among those of length l: the longest code's length),
+   * one leaf test per node on a tree path (depth + 1, the last one finding the leaf).
+   */
+  decodeComparisons: number;
   /** Longest index of a block, bits (fixed-rate structures: the rate itself). */
   maxIndexBits: number;
   /** Whether every block's index has the same length. */
@@ -38,34 +53,48 @@ export interface StructureCost {
 
 const ceilLog2 = (k: number) => (k <= 1 ? 0 : Math.ceil(Math.log2(k)));
 
+/** Worst-case comparisons to keep the m least of n values by insertion into a sorted list (see encodeComparisons). */
+function keepBestComparisons(n: number, m: number): number {
+  const l = Math.min(m, n);
+  return (l * (l - 1)) / 2 + (n - l) * m;
+}
+
 /** The cost of a planned structure with blocks of d components. */
 export function structureCost(plan: StructurePlan, d: number): StructureCost {
   switch (plan.kind) {
     case 'full':
-      return { tableCodewords: plan.size, decoderCodewords: plan.size, encodeMultiplyAdds: plan.size * d, decodeAdds: 0, maxIndexBits: ceilLog2(plan.size), fixedRate: true };
-    case 'entropy-constrained':
       return {
-        tableCodewords: plan.size, decoderCodewords: plan.size, encodeMultiplyAdds: plan.size * d, decodeAdds: 0,
-        maxIndexBits: Math.min(plan.maxCodeLength, Math.max(1, plan.size - 1)), fixedRate: false,
+        tableCodewords: plan.size, decoderCodewords: plan.size, encodeMultiplyAdds: plan.size * d, encodeComparisons: Math.max(0, plan.size - 1),
+        decodeAdds: 0, decodeComparisons: 0, maxIndexBits: ceilLog2(plan.size), fixedRate: true,
       };
+    case 'entropy-constrained': {
+      const maxIndexBits = Math.min(plan.maxCodeLength, Math.max(1, plan.size - 1));
+      return {
+        tableCodewords: plan.size, decoderCodewords: plan.size, encodeMultiplyAdds: plan.size * d, encodeComparisons: Math.max(0, plan.size - 1),
+        decodeAdds: 0, decodeComparisons: maxIndexBits, maxIndexBits, fixedRate: false,
+      };
+    }
     case 'tree':
       return {
-        tableCodewords: 2 * plan.leaves - 1, decoderCodewords: plan.leaves, encodeMultiplyAdds: 2 * d * plan.depth, decodeAdds: 0,
-        maxIndexBits: plan.depth, fixedRate: plan.leaves === 2 ** plan.depth,
+        tableCodewords: 2 * plan.leaves - 1, decoderCodewords: plan.leaves, encodeMultiplyAdds: 2 * d * plan.depth, encodeComparisons: plan.depth,
+        decodeAdds: 0, decodeComparisons: plan.depth + 1, maxIndexBits: plan.depth, fixedRate: plan.leaves === 2 ** plan.depth,
       };
     case 'residual': {
       let table = 0;
       let work = 0;
+      let comparisons = 0;
       let reach = 1; // distinct partial sums before this stage
       for (const b of plan.bits) {
         const k = 2 ** b;
+        const candidates = Math.min(plan.m, reach) * k;
         table += k;
-        work += Math.min(plan.m, reach) * k * d;
+        work += candidates * d;
+        comparisons += keepBestComparisons(candidates, plan.m);
         reach *= k;
       }
       return {
-        tableCodewords: table, decoderCodewords: table, encodeMultiplyAdds: work, decodeAdds: (plan.bits.length - 1) * d,
-        maxIndexBits: plan.bits.reduce((a, b) => a + b, 0), fixedRate: true,
+        tableCodewords: table, decoderCodewords: table, encodeMultiplyAdds: work, encodeComparisons: comparisons,
+        decodeAdds: (plan.bits.length - 1) * d, decodeComparisons: 0, maxIndexBits: plan.bits.reduce((a, b) => a + b, 0), fixedRate: true,
       };
     }
   }

@@ -208,7 +208,7 @@ const runRoutes: RouteDescription[] = [
 
 const codebookRoutes: RouteDescription[] = [
   { method: 'get', path: '/api/teams/:teamId/codebooks', tag: 'Codebooks', summary: 'List codebooks', access: 'member', input: { params: teamParams }, responses: { 200: json(codebooksResponse, 'The codebooks') } },
-  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId', tag: 'Codebooks', summary: 'Read a codebook with its codewords', access: 'member', input: { params: codebookParams }, responses: { 200: json(codebookResponse, 'The codebook') } },
+  { method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId', tag: 'Codebooks', summary: 'Read a codebook with its codewords and its decoder cost (table bytes, operations per pixel, longest code)', access: 'member', input: { params: codebookParams }, responses: { 200: json(codebookResponse, 'The codebook') } },
   {
     method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/export', tag: 'Codebooks', summary: 'Download a codebook as its export document, or its codewords as NumPy .npy with target=npy (an attachment)', access: 'member', input: { params: codebookParams, query: exportCodebookQuery },
     responses: { 200: { description: 'The codebook document, or the codewords as .npy', content: { 'application/json': codebookDocument, 'application/octet-stream': 'binary' } } },

@@ -24,6 +24,7 @@ import { DenoiseView } from '../../features/codebooks/components/denoise-view';
 import { ChannelCurveView, ReorderAction } from '../../features/codebooks/components/channel-view';
 import { firmwareZipUrl } from '../../features/codebooks/api/get-channel';
 import { FirmwareRounding } from '../../features/codebooks/components/firmware-rounding';
+import { DecoderCostPanel } from '../../features/codebooks/components/decoder-cost';
 import { cellMse, codewordMean, usagePercent, usageSummary } from '../../features/codebooks/cell-stats';
 import { fixedRate, formatBpp, formatBytes, formatDb, formatMse } from '../../features/codebooks/format';
 import { requireTeam } from '../session';
@@ -93,6 +94,8 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
         </dl>
 
         <CodebookReleasePanel teamId={teamId} codebookId={codebook.id} canPropose={canEvaluate} />
+
+        <DecoderCostPanel cost={codebook.decoderCost} />
 
         <Panel
           title="Codewords"

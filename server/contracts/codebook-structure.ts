@@ -1,5 +1,4 @@
 import { z } from 'zod';
-import { reconstructionParams } from './evaluation';
 
 /**
  * GET /api/teams/:teamId/codebooks/:codebookId/structure: how the codebook's table reads level by level (a tree) or
@@ -84,10 +83,16 @@ export const structureStepsResponse = z.object({
 export type StructureStepsInfo = z.infer<typeof structureStepsResponse>;
 export type StructureStepView = z.infer<typeof structureStepView>;
 
-/** GET …/reconstruction/:imageId/steps/:step: that step's reconstruction as a PNG (404 for a step the codebook lacks). */
-export const structureStepParams = reconstructionParams.extend({
-  step: z
-    .string()
-    .regex(/^(0|[1-9][0-9]?)$/, 'Expected a whole number from 0 to 99')
-    .transform(Number),
-});
+/**
+ * GET …/reconstruction/:imageId/steps?step=N: that step's reconstruction as a PNG instead of the figures (404 for a
+ * step the codebook lacks: a tree's levels are 0..depth, residual stages 1..S).
+ */
+export const structureStepsQuery = z
+  .object({
+    step: z
+      .string()
+      .regex(/^(0|[1-9][0-9]?)$/, 'Expected a whole number from 0 to 99')
+      .transform(Number)
+      .optional(),
+  })
+  .strict();

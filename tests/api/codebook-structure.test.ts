@@ -119,7 +119,7 @@ describe('GET …/reconstruction/:imageId/steps', () => {
     expect(res.body.steps.map((s: { step: number }) => s.step)).toEqual([0, 1, 2]);
     const source = await lumaOfOriginal();
     for (const step of res.body.steps as { step: number; mse: number; psnr: number; indexBits: number }[]) {
-      const pixels = await greyOf((await png(`${treeId}/reconstruction/${imageId}/steps/${step.step}`)).body as Buffer);
+      const pixels = await greyOf((await png(`${treeId}/reconstruction/${imageId}/steps?step=${step.step}`)).body as Buffer);
       // The codec holds luma in float32; six significant digits is what that precision leaves of the MSE.
       expect(Math.abs(mseAgainst(source, pixels) - step.mse) / step.mse).toBeLessThan(1e-5);
       // PSNR by its definition (common practice).
@@ -127,7 +127,9 @@ describe('GET …/reconstruction/:imageId/steps', () => {
       expect(step.indexBits).toBeLessThanOrEqual(step.step);
     }
     // Level 0 is the root's codeword (128 everywhere) in every block.
-    const root = await greyOf((await png(`${treeId}/reconstruction/${imageId}/steps/0`)).body as Buffer);
+    const rootRes = await png(`${treeId}/reconstruction/${imageId}/steps?step=0`);
+    expect(rootRes.headers['content-type']).toBe('image/png');
+    const root = await greyOf(rootRes.body as Buffer);
     expect(root.every((v) => v === 128)).toBe(true);
     expect(res.body.steps[0].indexBits).toBe(0);
     // Level 1 names the light leaf (node 2) or dark node 1 for every block, a 1-bit choice.
@@ -135,7 +137,7 @@ describe('GET …/reconstruction/:imageId/steps', () => {
     const full = await get(`${treeId}/reconstruction/${imageId}?view=info`);
     expect(res.body.steps[2].mse).toBe(full.body.mse);
     const fullPng = await greyOf((await png(`${treeId}/reconstruction/${imageId}?view=reconstruction`)).body as Buffer);
-    expect(fullPng.equals(await greyOf((await png(`${treeId}/reconstruction/${imageId}/steps/2`)).body as Buffer))).toBe(true);
+    expect(fullPng.equals(await greyOf((await png(`${treeId}/reconstruction/${imageId}/steps?step=2`)).body as Buffer))).toBe(true);
   });
 
   it('measures a residual codebook after stage 1 and stages 1+2', async () => {
@@ -143,12 +145,12 @@ describe('GET …/reconstruction/:imageId/steps', () => {
     expect(res.status).toBe(200);
     expect(res.body).toMatchObject({ codebookId: residualId, imageId, kind: 'residual-stages' });
     expect(res.body.steps.map((s: { step: number; indexBits: number }) => [s.step, s.indexBits])).toEqual([[1, 1], [2, 3]]);
-    const first = await greyOf((await png(`${residualId}/reconstruction/${imageId}/steps/1`)).body as Buffer);
+    const first = await greyOf((await png(`${residualId}/reconstruction/${imageId}/steps?step=1`)).body as Buffer);
     // Stage 1 alone: every pixel one of its two levels.
     expect(first.every((v) => v === 80 || v === 170)).toBe(true);
     const source = await lumaOfOriginal();
     expect(Math.abs(mseAgainst(source, first) - res.body.steps[0].mse) / res.body.steps[0].mse).toBeLessThan(1e-5);
-    const both = await greyOf((await png(`${residualId}/reconstruction/${imageId}/steps/2`)).body as Buffer);
+    const both = await greyOf((await png(`${residualId}/reconstruction/${imageId}/steps?step=2`)).body as Buffer);
     expect(Math.abs(mseAgainst(source, both) - res.body.steps[1].mse) / res.body.steps[1].mse).toBeLessThan(1e-5);
     const full = await get(`${residualId}/reconstruction/${imageId}?view=info`);
     expect(res.body.steps[1].mse).toBe(full.body.mse);
@@ -158,14 +160,14 @@ describe('GET …/reconstruction/:imageId/steps', () => {
     const flat = await get(`${flatId}/reconstruction/${imageId}/steps`);
     expect(flat.status).toBe(404);
     expect(flat.body.error.message).toMatch(/one flat table/);
-    const beyond = await get(`${treeId}/reconstruction/${imageId}/steps/3`);
+    const beyond = await get(`${treeId}/reconstruction/${imageId}/steps?step=3`);
     expect(beyond.status).toBe(404);
     expect(beyond.body.error.message).toMatch(/levels are 0\.\.2/);
-    expect((await get(`${residualId}/reconstruction/${imageId}/steps/0`)).status).toBe(404);
-    const malformed = await get(`${treeId}/reconstruction/${imageId}/steps/x1`);
+    expect((await get(`${residualId}/reconstruction/${imageId}/steps?step=0`)).status).toBe(404);
+    const malformed = await get(`${treeId}/reconstruction/${imageId}/steps?step=x1`);
     expect(malformed.status).toBe(400);
     expect(malformed.body.error.code).toBeDefined();
     expect((await get(`${treeId}/reconstruction/${imageId}/steps`, outsider)).status).toBe(404);
-    expect((await get(`${treeId}/reconstruction/${imageId}/steps/1`, outsider)).status).toBe(404);
+    expect((await get(`${treeId}/reconstruction/${imageId}/steps?step=1`, outsider)).status).toBe(404);
   });
 });

@@ -1,5 +1,5 @@
 import type { z } from 'zod';
-import { codebookStructureResponse, structureStepParams, structureStepsResponse } from '../../contracts/codebook-structure';
+import { codebookStructureResponse, structureStepsQuery, structureStepsResponse } from '../../contracts/codebook-structure';
 import {
   bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
   anomalyJobBody, denoiseJobBody, modelJobParams, modelJobResponse, modelJobViewParams,
@@ -237,13 +237,8 @@ const codebookRoutes: RouteDescription[] = [
     responses: { 200: json(codebookStructureResponse, 'The levels or stages; a flat codebook answers its kind alone') },
   },
   {
-    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId/steps', tag: 'Codebooks', summary: 'An image through a tree\u2019s levels or a residual codebook\u2019s stages: index bits, MSE and PSNR at each step', access: 'member', input: { params: reconstructionParams },
-    responses: { 200: json(structureStepsResponse, 'Every step, the last the full reconstruction') },
-    errors: { 429: 'Too many reconstructions being computed; Retry-After says when' },
-  },
-  {
-    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId/steps/:step', tag: 'Codebooks', summary: 'An image reconstructed with a tree descended only to one level, or with a residual codebook\u2019s first stages, as PNG', access: 'member', input: { params: structureStepParams },
-    responses: { 200: { description: 'The PNG', content: { 'image/png': 'binary' } } },
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId/steps', tag: 'Codebooks', summary: 'An image through a tree\u2019s levels or a residual codebook\u2019s stages: index bits, MSE and PSNR at each step, or with step=N that step\u2019s reconstruction as PNG', access: 'member', input: { params: reconstructionParams, query: structureStepsQuery },
+    responses: { 200: { description: 'Every step\u2019s figures as JSON (the last the full reconstruction), or with step=N the PNG of a tree descended only to level N / the first N residual stages summed', content: { 'application/json': structureStepsResponse, 'image/png': 'binary' } } },
     errors: { 429: 'Too many reconstructions being computed; Retry-After says when' },
   },
   {

@@ -555,16 +555,6 @@ export const routes: RouteCase[] = [
     objectScoped: true,
   },
   {
-    name: 'one level of a tree as PNG',
-    method: 'GET',
-    path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId/steps/:step',
-    access: 'member',
-    ok: 200,
-    body: 'none',
-    fresh: async (w) => ({ codebookId: await worldTree(w), step: 1 }),
-    objectScoped: true,
-  },
-  {
     name: 'compare runs',
     method: 'GET',
     path: '/api/teams/:teamId/compare',

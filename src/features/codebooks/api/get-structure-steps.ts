@@ -22,5 +22,5 @@ export function useStructureSteps(teamId: number, codebookId: number, imageId: n
 
 /** PNG of one step's reconstruction, for an <img>; the browser's HTTP cache keeps it (private, one hour). */
 export function structureStepImageUrl(teamId: number, codebookId: number, imageId: number, step: number): string {
-  return `${env.apiBasePath}/teams/${teamId}/codebooks/${codebookId}/reconstruction/${imageId}/steps/${step}`;
+  return `${env.apiBasePath}/teams/${teamId}/codebooks/${codebookId}/reconstruction/${imageId}/steps?step=${step}`;
 }

@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { makeCodebook, type Codebook } from '../../../server/engine/format/codebook-schema';
 import { encodeImage, reconstruct } from '../../../server/engine/format/codec';
 import type { PixelImage } from '../../../server/engine/io/image';
+import { removeMeans } from '../../../server/engine/io/mean-removal';
 import { stepRangeOf, structureSteps } from '../../../server/engine/metrics/structure-steps';
 import { ancestorsAtLevel, residualStageTables, treeLevels } from '../../../server/engine/structures/levels';
 import { encodeResidual, trainResidual } from '../../../server/engine/structures/residual';
@@ -122,6 +123,16 @@ describe('tree levels', () => {
     expect(Array.from(ancestorsAtLevel(tree, 3))).toEqual([0, 1, 2, 3, 4, 5, 6]);
   });
 
+  it('splits a balanced tree of depth 3 into levels of 1, 2, 4 and 8 nodes, leaves only at the last', async () => {
+    const codebook = await treeBook({ kind: 'balanced', depth: 3 });
+    const s = codebook.structure as TreeStructure;
+    const tree = treeLevels(s);
+    expect(tree.levels.map((l) => l.length)).toEqual([1, 2, 4, 8]);
+    tree.levels.forEach((nodes, level) => nodes.forEach((n) => expect(s.children[2 * n] < 0).toBe(level === 3)));
+    // Every vector reaches the root, and a balanced tree passes all of them on to each level.
+    expect(tree.levels.map((nodes) => nodes.reduce((a, n) => a + codebook.usage[n], 0))).toEqual([48, 48, 48, 48]);
+  });
+
   for (const growth of [{ kind: 'balanced', depth: 3 } as const, { kind: 'greedy', leaves: 7 } as const]) {
     it(`reconstructs a ${growth.kind} tree at every level as a hand-written descent stopped there`, async () => {
       const codebook = await treeBook(growth);
@@ -214,6 +225,32 @@ describe('residual stages', () => {
       expect(Buffer.from(last.pixels!).equals(Buffer.from(full))).toBe(true);
     });
   }
+
+  it('adds the block mean back at every stage of a mean-removed codebook', async () => {
+    const meanBits = 5;
+    // Training vectors with each block's quantised mean removed, as the codec removes them.
+    const training = vectorsOf(testCard(25));
+    removeMeans(training, D, meanBits);
+    const trained = await trainResidual(training, D, { bits: [2, 1], seed: 4 });
+    const codebook = makeCodebook({ ...book(trained.codewords, new Uint32Array(trained.codewords.length / D), trained.structure), preprocessing: { kind: 'mean-removed', meanBits } });
+    const image = testCard(26);
+    const source = blocksOf(image);
+    // The coding (stage indices and mean codes) is the codec's; the sums, the mean level and the rounding are by hand.
+    const encoded = await encodeImage(codebook, image);
+    const result = await structureSteps(codebook, image);
+    for (const step of result.steps) {
+      const rebuilt = source.map((_, b) => {
+        // Mean level of code c with m bits: the centre of its interval, (c + ½)·255 / 2^m.
+        const sum = new Float64Array(D).fill(((encoded.meanCodes![b] + 0.5) * 255) / 2 ** meanBits);
+        for (let u = 0; u < step.step; u++) {
+          const j = encoded.indices[b * 2 + u];
+          for (let i = 0; i < D; i++) sum[i] += codebook.codewords[j * D + i];
+        }
+        return sum;
+      });
+      expect(step.mse).toBeCloseTo(mseOf(source, rebuilt), 9);
+    }
+  });
 
   it('places each stage in the table and measures how far it swings from zero', () => {
     // Stage 0: 2 codewords of d = 2; stage 1: 4 codewords.

@@ -69,10 +69,21 @@ describe('codebook structure views', () => {
     const page = await signIn();
     await page.goto(`${server.url}/teams/${teamId}/codebooks/${treeId}`);
     const levels = page.getByRole('region', { name: 'Tree levels' });
+    const framePixels = () =>
+      levels.getByTestId('codeword-atlas').evaluate((canvas: HTMLCanvasElement) => {
+        const { data } = canvas.getContext('2d')!.getImageData(0, 0, canvas.width, canvas.height);
+        let n = 0;
+        for (let i = 0; i < data.length; i += 4) if (data[i] === 0xd8 && data[i + 1] === 0x62 && data[i + 2] === 0x1f) n++;
+        return n;
+      });
     await levels.getByLabel('Level', { exact: true }).selectOption({ label: 'Level 2: 2 nodes, 2 leaves' });
     // The hand-made tree: nodes 3 and 4 under node 1, 9 of the 14 training vectors reach level 2.
     await expect.poll(() => levels.getByTestId('tree-level-summary').textContent()).toContain('Level 2: 2 nodes, 2 leaves; 9 of 14 training vectors reach it.');
     expect(await levels.getByTestId('codeword-atlas').getAttribute('aria-label')).toMatch(/^Atlas of 2 node codewords of level 2, 4×4 pixels each, .*leaves framed/);
+    // Both nodes of level 2 are leaves: each framed in the accent (#d8621f) around its tile; the root (level 0) is not.
+    await expect.poll(() => framePixels()).toBeGreaterThan(0);
+    await levels.getByLabel('Level', { exact: true }).selectOption({ label: 'Level 0: 1 node' });
+    await expect.poll(() => framePixels()).toBe(0);
     await levels.getByLabel('Level', { exact: true }).selectOption({ label: 'Level 1: 2 nodes, 1 leaf' });
     await levels.getByTestId('codeword-atlas').focus();
     await page.keyboard.press('End');
@@ -100,6 +111,16 @@ describe('codebook structure views', () => {
     await expect
       .poll(() => stages.getByTestId('residual-stage-scale').textContent())
       .toBe('Stage 2 holds signed corrections: mid-grey is 0, white +12.0, black −12.0 (0..255 units).');
+    // The ramps' components −12, −4, +4, +12 drawn 128 + 127·v/12 (then rounded by the canvas): 1, 86, 170, 255.
+    const greys = () =>
+      stages.getByTestId('codeword-atlas').evaluate((canvas: HTMLCanvasElement) => {
+        const { data } = canvas.getContext('2d')!.getImageData(0, 0, canvas.width, canvas.height);
+        const seen = new Set<number>();
+        // Tiles are grey (R = G = B); the gutter is the paper tone (230, 234, 236).
+        for (let i = 0; i < data.length; i += 4) if (data[i] === data[i + 1] && data[i] === data[i + 2]) seen.add(data[i]);
+        return [...seen].sort((a, b) => a - b);
+      });
+    await expect.poll(greys).toEqual([1, 86, 170, 255]);
 
     const viewer = page.getByRole('region', { name: 'Held-out images' });
     const selector = viewer.getByRole('radiogroup', { name: 'Stages' });

@@ -62,7 +62,9 @@ export type ResidualStageView = z.infer<typeof residualStageView>;
 /**
  * GET …/codebooks/:codebookId/reconstruction/:imageId/steps: one image coded once with a tree or residual codebook,
  * measured at every step: a tree's descent stopped at level 0 … depth, a residual codebook's stages 1, 1+2, … summed.
- * The last step is the full reconstruction. 404 for a flat codebook.
+ * Every step decodes a prefix of the one coding the codebook's own search made (a tree path cut after L branches,
+ * the first s stage indices; with M-best search those need not be the nearest stage-1 codewords alone). The last step
+ * is the full reconstruction. 404 for a flat codebook.
  */
 export const structureStepView = z.object({
   /** Tree: level (0 = the root's codeword for every block). Residual: stages summed (1..S). */

@@ -20,3 +20,4 @@ export * from './codebook-model';
 export * from './activity';
 export * from './releases';
 export * from './codebook-channel';
+export * from './codebook-structure';

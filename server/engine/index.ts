@@ -101,6 +101,7 @@ export type { ImageEvaluation, ImageSetEvaluation, VectorSetEvaluation, RateDist
 export { measuredFigures, measureImage, poolImageMeasurements, type ImageMeasurement } from './metrics/evaluate';
 export { bdMissingReason, bdSummary, bjontegaard, BdRateError, emptyBdSummary, type BdResult, type BdSummary, type RdPoint } from './metrics/bd-rate';
 export { bdAgainstCodecs, bdTableCsv, BD_TABLE_CSV_COLUMNS, type BdTableRow, type CurveRate } from './metrics/bd-table';
+export { structureSteps, stepRangeOf, type StepKind, type StructureStep, type StructureSteps } from './metrics/structure-steps';
 export {
   fixedPointTable, fixedPointTableBytes, withFixedPointCodewords, RESIDUAL_WIDTHS, decoderCost, structureTableBytes,
   type CostedCodebook, type DecoderCost, type FirmwareTableCost, type OperationCounts, type BundleFile, type FirmwareBundle, type FixedPointTable, type ResidualWidth, type RoundingCost, type RoundingCostImage,

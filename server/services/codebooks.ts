@@ -1,10 +1,11 @@
-import type { CodebookDetail, CodebookSummary, ExportTarget } from '../contracts';
+import type { CodebookDetail, CodebookStructureView, CodebookSummary, ExportTarget } from '../contracts';
 import type { CodebookSummaryRecord, CodebookWithCodewords, Database } from '../db';
 import {
   codewordChecksum, decoderCost, EngineInputError, fixedRateBits, parseCodebook, serializeCodebook, structureFromInfo, toCodebookDocument, writeNpy, type Codebook, type StructureInfo,
 } from '../engine';
 import { notFound, validationFailed } from '../errors';
 import { recordAudit } from './audit';
+import { structureViewOf } from './codebook-structure-view';
 
 /** The API's summary of a stored codebook (lists, and the release report's header). */
 export function codebookSummaryOf(c: CodebookSummaryRecord): CodebookSummary {
@@ -133,6 +134,11 @@ export function createCodebooksService(deps: { db: Database }) {
 
     async get(teamId: number, id: number): Promise<CodebookDetail> {
       return toDetail(await mustFind(teamId, id));
+    },
+
+    /** How the codebook's table reads by tree level or residual stage, for the atlas (codebook-structure-view.ts). */
+    async structure(teamId: number, id: number): Promise<CodebookStructureView> {
+      return structureViewOf(await mustFind(teamId, id));
     },
 
     /**

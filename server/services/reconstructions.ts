@@ -1,9 +1,10 @@
-import type { ReconstructionInfo, ReconstructionViewName } from '../contracts';
+import type { ReconstructionInfo, ReconstructionViewName, StructureStepsInfo } from '../contracts';
 import type { Database, ReconstructionRecord } from '../db';
 import type { CodebookWithCodewords } from '../db/repositories/codebooks';
 import type { RunImageRecord } from '../db/repositories/runs';
 import { badRequest, notFound } from '../errors';
-import type { IndexMapResult, ReconstructResult, ReconstructionView } from '../jobs/tasks/evaluate.task';
+import { stepRangeOf, structureFromInfo, type StructureInfo } from '../engine';
+import type { EvaluateTask, IndexMapResult, ReconstructResult, ReconstructionView, StructureStepsResult } from '../jobs/tasks/evaluate.task';
 import { createComputeSlots } from './compute-slots';
 import { toTaskCodebook, type EvaluationTaskRunner } from './task-codebook';
 
@@ -173,6 +174,37 @@ export function createReconstructionsService(deps: ReconstructionsDeps) {
     });
   }
 
+  const taskImage = (image: RunImageRecord) => ({ path: deps.store.path(image.sha256), name: image.fileName, width: image.width, height: image.height });
+
+  /** Runs a task in one of the bounded compute places (429 beyond them); stops it when the client leaves. */
+  async function boundedTask(task: EvaluateTask, signal?: AbortSignal): Promise<unknown> {
+    const controller = new AbortController();
+    const onGone = () => controller.abort(clientGone());
+    signal?.addEventListener('abort', onGone, { once: true });
+    if (signal?.aborted) onGone();
+    try {
+      const release = await slots.acquire(controller.signal);
+      try {
+        return await deps.runTask(task, controller.signal);
+      } finally {
+        release();
+      }
+    } finally {
+      signal?.removeEventListener('abort', onGone);
+    }
+  }
+
+  /** The team's codebook and image for the steps routes, and the codebook's steps (404 for a flat codebook). */
+  async function stepsInput(teamId: number, codebookId: number, imageId: number) {
+    const codebook = await db.repos.codebooks.findForTeam(teamId, codebookId);
+    if (!codebook) throw notFound('Codebook');
+    const range = stepRangeOf(structureFromInfo(codebook.metadata.structure as StructureInfo | undefined));
+    if (!range) throw notFound('Levels or stages (a full-search or entropy-constrained codebook is one flat table)');
+    const [image] = await db.repos.runs.teamImages(teamId, [imageId]);
+    if (!image) throw notFound('Image');
+    return { codebook, image, range };
+  }
+
   return {
     /**
      * One image of the team through one codebook of the team, coded exactly as the evaluation coded it.
@@ -207,27 +239,35 @@ export function createReconstructionsService(deps: ReconstructionsDeps) {
       const [image] = await db.repos.runs.teamImages(teamId, [imageId]);
       if (!image) throw notFound('Image');
       if (plane === 'means' && codebook.meanBits === 0) throw notFound('Block means (this codebook codes no block means)');
-      const controller = new AbortController();
-      const onGone = () => controller.abort(clientGone());
-      signal?.addEventListener('abort', onGone, { once: true });
-      if (signal?.aborted) onGone();
-      const release = await slots.acquire(controller.signal);
-      try {
-        const result = (await deps.runTask(
-          {
-            op: 'index-map',
-            codebook: toTaskCodebook(codebook),
-            image: { path: deps.store.path(image.sha256), name: image.fileName, width: image.width, height: image.height },
-          },
-          controller.signal,
-        )) as IndexMapResult;
-        const bytes = plane === 'means' ? result.means! : result.indices;
-        const stem = image.fileName.replace(/\.[^.]*$/, '').replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^[-.]+|[-.]+$/g, '') || 'image';
-        return { fileName: `${stem}-codebook-${codebookId}.${plane}.npy`, npy: Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength) };
-      } finally {
-        release();
-        signal?.removeEventListener('abort', onGone);
+      const result = (await boundedTask({ op: 'index-map', codebook: toTaskCodebook(codebook), image: taskImage(image) }, signal)) as IndexMapResult;
+      const bytes = plane === 'means' ? result.means! : result.indices;
+      const stem = image.fileName.replace(/\.[^.]*$/, '').replace(/[^A-Za-z0-9._-]+/g, '-').replace(/^[-.]+|[-.]+$/g, '') || 'image';
+      return { fileName: `${stem}-codebook-${codebookId}.${plane}.npy`, npy: Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength) };
+    },
+
+    /**
+     * One image through a tree's levels (0 … its longest path) or a residual codebook's stages (1, 1+2, … S): each
+     * step's mean index bits, MSE and PSNR, coded once with the codebook's own search. Not kept (no SSIM, no PNGs: a
+     * few decodes of one image); it takes one of the bounded compute places like the index map. 404 for a flat codebook.
+     */
+    async steps(teamId: number, codebookId: number, imageId: number, signal?: AbortSignal): Promise<StructureStepsInfo> {
+      const { codebook, image } = await stepsInput(teamId, codebookId, imageId);
+      const result = (await boundedTask({ op: 'structure-steps', codebook: toTaskCodebook(codebook), image: taskImage(image) }, signal)) as StructureStepsResult;
+      return { codebookId, imageId, kind: result.kind, steps: result.steps };
+    },
+
+    /** One step's reconstruction as a PNG (404 for a step outside the codebook's levels or stages). */
+    async stepPng(teamId: number, codebookId: number, imageId: number, step: number, signal?: AbortSignal): Promise<Buffer> {
+      const { codebook, image, range } = await stepsInput(teamId, codebookId, imageId);
+      if (step < range.first || step > range.last) {
+        throw notFound(`Step ${step} (this codebook's ${range.kind === 'tree-level' ? 'levels' : 'stages'} are ${range.first}..${range.last})`);
       }
+      const result = (await boundedTask(
+        { op: 'structure-steps', codebook: toTaskCodebook(codebook), image: taskImage(image), keep: step },
+        signal,
+      )) as StructureStepsResult;
+      const png = result.png!;
+      return Buffer.from(png.buffer, png.byteOffset, png.byteLength);
     },
 
     /** Counters since start; computations running and waiting for a slot now, and the requests waiting on them. */

@@ -1,4 +1,5 @@
 import type { z } from 'zod';
+import { codebookStructureResponse, structureStepsQuery, structureStepsResponse } from '../../contracts/codebook-structure';
 import {
   bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
   anomalyJobBody, denoiseJobBody, modelJobParams, modelJobResponse, modelJobViewParams,
@@ -229,6 +230,15 @@ const codebookRoutes: RouteDescription[] = [
   {
     method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId', tag: 'Codebooks', summary: 'An image coded with a codebook: original, reconstruction or error as PNG, or the figures (view=info)', access: 'member', input: { params: reconstructionParams, query: reconstructionQuery },
     responses: { 200: { description: 'A PNG (X-Encoded-Bytes gives the coded size), or the figures as JSON with view=info', content: { 'image/png': 'binary', 'application/json': reconstructionInfo } } },
+    errors: { 429: 'Too many reconstructions being computed; Retry-After says when' },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/structure', tag: 'Codebooks', summary: 'How the codebook\u2019s table reads by tree level (nodes, cell populations, leaves) or residual stage (rows, signed-tile scale)', access: 'member', input: { params: codebookParams },
+    responses: { 200: json(codebookStructureResponse, 'The levels or stages; a flat codebook answers its kind alone') },
+  },
+  {
+    method: 'get', path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId/steps', tag: 'Codebooks', summary: 'An image through a tree\u2019s levels or a residual codebook\u2019s stages: index bits, MSE and PSNR at each step, or with step=N that step\u2019s reconstruction as PNG', access: 'member', input: { params: reconstructionParams, query: structureStepsQuery },
+    responses: { 200: { description: 'Every step\u2019s figures as JSON (the last the full reconstruction), or with step=N the PNG of a tree descended only to level N / the first N residual stages summed', content: { 'application/json': structureStepsResponse, 'image/png': 'binary' } } },
     errors: { 429: 'Too many reconstructions being computed; Retry-After says when' },
   },
   {

@@ -19,6 +19,12 @@ function readRoutes(r: Router, d: RouteDeps) {
     const { params } = validated(req, oneInput);
     res.json({ codebook: await d.codebooks.get(params.teamId, params.codebookId) });
   });
+
+  // Any member: it names which rows of the table (already in the detail) are which tree level or residual stage.
+  r.get('/:codebookId/structure', d.authenticate, d.requireTeamRole(), validate(oneInput), async (req, res) => {
+    const { params } = validated(req, oneInput);
+    res.json(await d.codebooks.structure(params.teamId, params.codebookId));
+  });
 }
 
 function transferRoutes(r: Router, d: RouteDeps) {

@@ -28,6 +28,8 @@ import {
   type MeasuredFigures,
   psnrFromMse,
   ssimOfImages,
+  structureSteps,
+  type StepKind,
   toUint8,
   type BaselineCodec,
   type MemoryBudget,
@@ -106,11 +108,19 @@ export interface IndexMapResult {
   blocksY: number;
 }
 
+/** A tree's or residual codebook's reconstruction at every step, and the PNG of step `keep` when asked for. */
+export interface StructureStepsResult {
+  kind: StepKind;
+  steps: { step: number; indexBits: number; mse: number; psnr: number | null }[];
+  png: Uint8Array | null;
+}
+
 export type EvaluateTask =
   | { op: 'measure'; codebook: TaskCodebook; images: TaskImage[] }
   | { op: 'baselines'; images: TaskImage[]; color: ColorMode; codecs?: BaselineCodec[]; qualities?: number[] }
   | { op: 'reconstruct'; codebook: TaskCodebook; image: TaskImage }
-  | { op: 'index-map'; codebook: TaskCodebook; image: TaskImage };
+  | { op: 'index-map'; codebook: TaskCodebook; image: TaskImage }
+  | { op: 'structure-steps'; codebook: TaskCodebook; image: TaskImage; keep?: number };
 
 /** Everything runs on this worker's own thread: the pool already spends one core per task. */
 const ON_THIS_THREAD = { threads: 1 } as const;
@@ -225,7 +235,21 @@ export async function indexMapOf(codebook: TaskCodebook, image: TaskImage, memor
   return { indices: bytesOf(indexMapNpy(encoded, book.size)), means: means && bytesOf(means), blocksX: encoded.blocksX, blocksY: encoded.blocksY };
 }
 
-export default async function run(task: EvaluateTask, context?: TaskContext): Promise<ImageMeasurement[] | BaselineResultPoint[] | ReconstructResult | IndexMapResult> {
+/** One image through a tree's levels or a residual codebook's stages (engine metrics/structure-steps.ts). */
+export async function structureStepsOf(codebook: TaskCodebook, image: TaskImage, memory: MemoryBudget, keep?: number): Promise<StructureStepsResult> {
+  const book = toCodebook(codebook);
+  const source = await loadCharged(image, codebook.patch.color, memory);
+  const { kind, steps, pixels } = await structureSteps(book, source, { ...ON_THIS_THREAD, keep });
+  return {
+    kind,
+    steps: steps.map((s) => ({ step: s.step, indexBits: s.indexBits, mse: s.mse, psnr: psnrForJson(s.psnr) })),
+    png: pixels && bytesOf(await encodePng(pixels, source.width, source.height, source.channels)),
+  };
+}
+
+export default async function run(
+  task: EvaluateTask, context?: TaskContext,
+): Promise<ImageMeasurement[] | BaselineResultPoint[] | ReconstructResult | IndexMapResult | StructureStepsResult> {
   const memory = taskMemory(context);
   switch (task.op) {
     case 'measure':
@@ -236,5 +260,7 @@ export default async function run(task: EvaluateTask, context?: TaskContext): Pr
       return reconstructImage(task.codebook, task.image, memory);
     case 'index-map':
       return indexMapOf(task.codebook, task.image, memory);
+    case 'structure-steps':
+      return structureStepsOf(task.codebook, task.image, memory, task.keep);
   }
 }

@@ -19,6 +19,8 @@ import { useCodebookEvaluations } from '../../features/codebooks/api/get-codeboo
 import { indexMapUrl, useReconstructionInfo } from '../../features/codebooks/api/get-reconstruction';
 import { atlasOrder, CodewordAtlas, type AtlasOrder } from '../../features/codebooks/components/codeword-atlas';
 import { ReconstructionViewer } from '../../features/codebooks/components/reconstruction-viewer';
+import { StructureAtlas } from '../../features/codebooks/components/structure-atlas';
+import { StructureStepsViewer } from '../../features/codebooks/components/structure-steps-viewer';
 import { AnomalyView } from '../../features/codebooks/components/anomaly-view';
 import { DenoiseView } from '../../features/codebooks/components/denoise-view';
 import { ChannelCurveView, ReorderAction } from '../../features/codebooks/components/channel-view';
@@ -156,6 +158,8 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
           </div>
         </Panel>
 
+        <StructureAtlas teamId={teamId} codebook={codebook} />
+
         <div className="grid gap-6 lg:grid-cols-2">
           <Panel title="Usage" titleId="codebook-usage" description="Training vectors per cell, in atlas order">
             <HistogramChart title="Training vectors per cell" values={sequence.map((i) => codebook.usage[i])} valueLabel="vectors" categoryLabel="cell (atlas order)" highlight={highlight} />
@@ -169,7 +173,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
           </Panel>
         </div>
 
-        <HeldOutPanel teamId={teamId} codebookId={codebook.id} meanRemoved={meanRemoved} />
+        <HeldOutPanel teamId={teamId} codebookId={codebook.id} meanRemoved={meanRemoved} structured={codebook.structure === 'tree' || codebook.structure === 'residual'} />
 
         <ModelPanels teamId={teamId} codebookId={codebook.id} trained={codebook.runId !== null} canCancel={canEvaluate} />
 
@@ -230,7 +234,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
   );
 }
 
-function HeldOutPanel({ teamId, codebookId, meanRemoved }: { teamId: number; codebookId: number; meanRemoved: boolean }) {
+function HeldOutPanel({ teamId, codebookId, meanRemoved, structured = false }: { teamId: number; codebookId: number; meanRemoved: boolean; structured?: boolean }) {
   const evaluations = useCodebookEvaluations(teamId, codebookId);
   const latest = evaluations.data?.[evaluations.data.length - 1];
   const [imageId, setImageId] = useState<number | null>(null);
@@ -302,6 +306,7 @@ function HeldOutPanel({ teamId, codebookId, meanRemoved }: { teamId: number; cod
             </div>
           </div>
           <ReconstructionViewer teamId={teamId} codebookId={codebookId} image={image} />
+          {structured && <StructureStepsViewer teamId={teamId} codebookId={codebookId} image={image} />}
         </div>
       )}
     </Panel>

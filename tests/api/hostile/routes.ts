@@ -29,6 +29,7 @@ import {
 } from '../../../server/contracts';
 import { codebookDocumentSchema } from '../../../server/engine';
 import { addMember, type Session } from '../../helpers/api';
+import { treeCodebookDocument } from '../../helpers/structure-documents';
 import { codebookDocument, newImage, newInvitation, newInvitationToken, newModelJob, newProposal, newRun, newSet, newSignupToken, pngTile, runBody, type World } from './world';
 
 /**
@@ -80,6 +81,17 @@ export const jsonBodyLimit = 1024 * 1024;
 async function newBatch(w: World): Promise<number> {
   const batch = await w.t.composition.services.evaluation.requestBatch(w.teamId, w.engineer.user.id, { codebookIds: [w.codebookId], imageSetIds: [w.setId] });
   return batch.job.id;
+}
+
+/** One tree codebook per world (tests/helpers/structure-documents.ts), imported the first time a route asks. */
+const worldTrees = new WeakMap<World, Promise<number>>();
+function worldTree(w: World): Promise<number> {
+  let id = worldTrees.get(w);
+  if (!id) {
+    id = w.t.composition.services.codebooks.import(w.teamId, w.engineer.user.id, treeCodebookDocument()).then((c) => c.id);
+    worldTrees.set(w, id);
+  }
+  return id;
 }
 
 // A counter, not the clock: each test file has a database of its own, and the same run sends the same bodies.
@@ -528,6 +540,18 @@ export const routes: RouteCase[] = [
     access: 'member',
     ok: 200,
     body: 'none',
+    objectScoped: true,
+  },
+  { name: 'codebook structure (levels or stages)', method: 'GET', path: '/api/teams/:teamId/codebooks/:codebookId/structure', access: 'member', ok: 200, body: 'none', objectScoped: true },
+  {
+    name: 'an image through a tree’s levels',
+    method: 'GET',
+    path: '/api/teams/:teamId/codebooks/:codebookId/reconstruction/:imageId/steps',
+    access: 'member',
+    ok: 200,
+    body: 'none',
+    // The world's codebook is flat (one table, no steps): a tree of the team is named instead.
+    fresh: async (w) => ({ codebookId: await worldTree(w) }),
     objectScoped: true,
   },
   {

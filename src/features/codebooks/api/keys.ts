@@ -10,6 +10,9 @@ export const codebookKeys = {
   evaluations: (teamId: TeamId, codebookId: number) => [...codebookKeys.codebook(teamId, codebookId), 'evaluations'] as const,
   reconstructionInfo: (teamId: TeamId, codebookId: number, imageId: number) =>
     [...codebookKeys.codebook(teamId, codebookId), 'reconstruction', imageId, 'info'] as const,
+  structure: (teamId: TeamId, codebookId: number) => [...codebookKeys.codebook(teamId, codebookId), 'structure'] as const,
+  structureSteps: (teamId: TeamId, codebookId: number, imageId: number) =>
+    [...codebookKeys.codebook(teamId, codebookId), 'reconstruction', imageId, 'steps'] as const,
   modelJob: (teamId: TeamId, jobId: number) => [...codebookKeys.team(teamId), 'model-job', jobId] as const,
   rounding: (teamId: TeamId, codebookId: number) => [...codebookKeys.codebook(teamId, codebookId), 'firmware-rounding'] as const,
   channel: (teamId: TeamId, codebookId: number, bers: string, seeds: number, resync: number) => [...codebookKeys.codebook(teamId, codebookId), 'channel', bers, seeds, resync] as const,

@@ -23,6 +23,26 @@ export function atlasOrder(codewords: readonly (readonly number[])[], usage: rea
 }
 
 const GAP = 2;
+/** The accent (--color-ember-500) as RGB, for frames drawn into the canvas's pixels. */
+const FRAME_RGB = [0xd8, 0x62, 0x1f] as const;
+
+/** A one-pixel rectangle outline into RGBA pixels (in the gutter around a tile, so no codeword pixel is covered). */
+function frame(px: Uint8ClampedArray, canvasWidth: number, left: number, top: number, width: number, height: number) {
+  const put = (x: number, y: number) => {
+    const p = (y * canvasWidth + x) * 4;
+    px[p] = FRAME_RGB[0];
+    px[p + 1] = FRAME_RGB[1];
+    px[p + 2] = FRAME_RGB[2];
+  };
+  for (let x = left; x < left + width; x += 1) {
+    put(x, top);
+    put(x, top + height - 1);
+  }
+  for (let y = top; y < top + height; y += 1) {
+    put(left, y);
+    put(left + width - 1, y);
+  }
+}
 /** Widest the atlas is drawn before it scrolls; tiles shrink to fit, never below one screen pixel per component. */
 const MAX_WIDTH = 880;
 
@@ -50,6 +70,8 @@ export function CodewordAtlas({
   gain,
   selected,
   onSelect,
+  marked,
+  label,
 }: {
   /** K × d, components ((row·width)+column)·channels+channel. */
   codewords: number[][];
@@ -60,6 +82,10 @@ export function CodewordAtlas({
   gain: number;
   selected: number | null;
   onSelect: (index: number | null) => void;
+  /** Per codeword: framed in the accent colour (a tree level's leaves); absent: nothing framed. */
+  marked?: readonly boolean[];
+  /** What the tiles are, for the canvas's accessible name; default "codewords". */
+  label?: string;
 }) {
   const canvasRef = useRef<HTMLCanvasElement>(null);
   const sequence = useMemo(() => atlasOrder(codewords, usage, order), [codewords, usage, order]);
@@ -86,6 +112,7 @@ export function CodewordAtlas({
       const codeword = codewords[index];
       const left = GAP + (slot % columns) * (tileWidth + GAP);
       const top = GAP + Math.floor(slot / columns) * (tileHeight + GAP);
+      if (marked?.[index]) frame(px, canvasWidth, left - 1, top - 1, tileWidth + 2, tileHeight + 2);
       for (let row = 0; row < height; row += 1) {
         for (let col = 0; col < width; col += 1) {
           const base = (row * width + col) * channels;
@@ -105,7 +132,7 @@ export function CodewordAtlas({
       }
     });
     context.putImageData(image, 0, 0);
-  }, [codewords, geometry, sequence, layout, meanRemoved, gain]);
+  }, [codewords, geometry, sequence, layout, meanRemoved, gain, marked]);
 
   const slotOf = (index: number) => sequence.indexOf(index);
   const selectedSlot = selected === null ? -1 : slotOf(selected);
@@ -151,7 +178,7 @@ export function CodewordAtlas({
         height={layout.canvasHeight}
         tabIndex={0}
         role="img"
-        aria-label={`Atlas of ${codewords.length} codewords, ${geometry.width}×${geometry.height} pixels each, ordered by ${order}. Arrow keys move the selection.`}
+        aria-label={`Atlas of ${codewords.length} ${label ?? 'codewords'}, ${geometry.width}×${geometry.height} pixels each, ordered by ${order}${marked?.some(Boolean) ? ', leaves framed' : ''}. Arrow keys move the selection.`}
         data-testid="codeword-atlas"
         onPointerDown={onPointer}
         onKeyDown={onKey}

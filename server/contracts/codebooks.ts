@@ -97,6 +97,11 @@ export const codebookDetail = codebookSummary.extend({
   indexBits: z.number().int(),
   /** Residual stages' bits, stage 0 first; null for other structures. */
   stages: z.array(z.number().int()).nullable(),
+  /**
+   * Rows whose cells split the training vectors once (a tree's leaves, a residual codebook's first stage), over which
+   * the page sums usage; null when every row is such a cell.
+   */
+  partitionRows: z.array(z.number().int()).nullable(),
   /** Table bytes, operations per block and per pixel, worst-case code length. */
   decoderCost,
 });

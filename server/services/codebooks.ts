@@ -1,7 +1,7 @@
 import type { CodebookDetail, CodebookStructureView, CodebookSummary, ExportTarget } from '../contracts';
 import type { CodebookSummaryRecord, CodebookWithCodewords, Database } from '../db';
 import {
-  codewordChecksum, decoderCost, EngineInputError, fixedRateBits, parseCodebook, serializeCodebook, structureFromInfo, toCodebookDocument, writeNpy, type Codebook, type StructureInfo,
+  codewordChecksum, decoderCost, EngineInputError, fixedRateBits, parseCodebook, partitionRows, serializeCodebook, structureFromInfo, toCodebookDocument, writeNpy, type Codebook, type StructureInfo,
 } from '../engine';
 import { notFound, validationFailed } from '../errors';
 import { recordAudit } from './audit';
@@ -117,12 +117,13 @@ export function createCodebooksService(deps: { db: Database }) {
   }
 
   /** The stored document's structure (absent in revision 1: full search) as the page's index bits, stages and decoder cost. */
-  function structureFigures(c: CodebookWithCodewords): Pick<CodebookDetail, 'indexBits' | 'stages' | 'decoderCost'> {
+  function structureFigures(c: CodebookWithCodewords): Pick<CodebookDetail, 'indexBits' | 'stages' | 'decoderCost' | 'partitionRows'> {
     const structure = structureFromInfo(c.metadata.structure as StructureInfo | undefined);
     const preprocessing = c.meanBits > 0 ? { kind: 'mean-removed' as const, meanBits: c.meanBits } : { kind: 'none' as const };
     return {
       indexBits: fixedRateBits({ size: c.size, structure }),
       stages: structure.kind === 'residual' ? [...structure.bits] : null,
+      partitionRows: partitionRows(structure),
       decoderCost: decoderCost({ size: c.size, dimension: c.dimension, codewords: c.codewords, preprocessing, structure, patch: c.patch }),
     };
   }

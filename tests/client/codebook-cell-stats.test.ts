@@ -11,7 +11,12 @@ describe('codebook cell figures', () => {
   });
 
   it('counts the vectors and the unused cells', () => {
-    expect(usageSummary([3, 0, 5, 0])).toEqual({ total: 8, unused: 2 });
+    expect(usageSummary([3, 0, 5, 0])).toEqual({ total: 8, cells: 4, unused: 2 });
+  });
+
+  it('counts a tree’s vectors once, over its leaves, not at every node they pass', () => {
+    // Root 0 (10 vectors) → nodes 1 (7) and 2 (3); node 1 → leaves 3 (7) and 4 (0); node 2 is a leaf.
+    expect(usageSummary([10, 7, 3, 7, 0], [2, 3, 4])).toEqual({ total: 10, cells: 3, unused: 1 });
   });
 
   it('gives a cell’s share of the vectors in percent, and 0 when there were none', () => {

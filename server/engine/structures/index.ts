@@ -8,4 +8,4 @@ export {
   type ResidualCodes, type ResidualOptions, type ResidualRefinementStep, type ResidualResult, type ResidualSearch, type ResidualStageStat,
 } from './residual';
 export { structureCost, codebookCost, planOf, type StructureCost, type StructurePlan } from './cost';
-export { treeLevels, ancestorsAtLevel, residualStageTables, type TreeLevels, type ResidualStageTable } from './levels';
+export { treeLevels, ancestorsAtLevel, residualStageTables, partitionRows, type TreeLevels, type ResidualStageTable } from './levels';

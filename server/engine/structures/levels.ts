@@ -1,6 +1,6 @@
 // How a structured codebook's table reads level by level (tree) or stage by stage (residual): what the atlas shows and
 // what the viewer's partial reconstructions descend to. Pure arithmetic over the structure; no search.
-import type { ResidualStructure, TreeStructure } from './types';
+import type { CodebookStructure, ResidualStructure, TreeStructure } from './types';
 
 export interface TreeLevels {
   /** nodes: each node's depth (the root is 0). */
@@ -69,4 +69,21 @@ export function residualStageTables(codewords: Float32Array, structure: Residual
     first += count;
   });
   return out;
+}
+
+/**
+ * The table rows whose cells split the training vectors once: a tree's leaves (a node's usage counts every vector that
+ * passes through it, so summing all nodes counts a vector at each level), a residual codebook's first stage (each
+ * stage sees every vector). Null for flat tables, where every row is such a cell.
+ */
+export function partitionRows(structure: CodebookStructure): number[] | null {
+  if (structure.kind === 'tree') {
+    const rows: number[] = [];
+    for (let n = 0; n < structure.children.length / 2; n++) {
+      if (structure.children[2 * n] < 0 && structure.children[2 * n + 1] < 0) rows.push(n);
+    }
+    return rows;
+  }
+  if (structure.kind === 'residual') return Array.from({ length: 2 ** structure.bits[0] }, (_, i) => i);
+  return null;
 }

@@ -27,7 +27,7 @@ import { ChannelCurveView, ReorderAction } from '../../features/codebooks/compon
 import { firmwareZipUrl } from '../../features/codebooks/api/get-channel';
 import { FirmwareRounding } from '../../features/codebooks/components/firmware-rounding';
 import { DecoderCostPanel } from '../../features/codebooks/components/decoder-cost';
-import { cellMse, codewordMean, usagePercent, usageSummary } from '../../features/codebooks/cell-stats';
+import { cellMse, cellsNote, codewordMean, usagePercent, usageSummary } from '../../features/codebooks/cell-stats';
 import { fixedRate, formatBpp, formatBytes, formatDb, formatMse } from '../../features/codebooks/format';
 import { requireTeam } from '../session';
 import { useCurrentTeam } from '../use-team';
@@ -67,7 +67,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
   const meanRemoved = codebook.meanBits > 0;
   const sequence = useMemo(() => atlasOrder(codebook.codewords, codebook.usage, order), [codebook, order]);
   const mse = useMemo(() => cellMse(codebook), [codebook]);
-  const { total: totalUsage, unused } = usageSummary(codebook.usage);
+  const { total: totalUsage, cells, unused } = usageSummary(codebook.usage, codebook.partitionRows);
   const highlight = selected === null ? null : sequence.indexOf(selected);
   const geometry = { width: codebook.patch.width, height: codebook.patch.height, channels: codebook.channels };
 
@@ -92,7 +92,7 @@ function CodebookPage({ teamId, teamName, canEvaluate, codebook }: { teamId: num
           <Stat label="Index bits" value={<span className="num">{codebook.indexBits}</span>} note={`table K = ${codebook.size.toLocaleString('en-GB')}`} />
           <Stat label="Fixed rate" value={<span className="num">{formatBpp(fixedRate(codebook.indexBits, codebook.meanBits, codebook.patch))}</span>} note="(b + mean bits) / pixels per block" />
           <Stat label="Training MSE" value={<span className="num">{formatMse(codebook.distortion)}</span>} note="per component, 0..255 scale" />
-          <Stat label="Unused cells" value={<span className="num">{unused}</span>} note={`of ${codebook.size} on ${totalUsage.toLocaleString('en-GB')} vectors`} />
+          <Stat label="Unused cells" value={<span className="num">{unused}</span>} note={`of ${cells}${cellsNote(codebook)} on ${totalUsage.toLocaleString('en-GB')} vectors`} />
         </dl>
 
         <CodebookReleasePanel teamId={teamId} codebookId={codebook.id} canPropose={canEvaluate} />

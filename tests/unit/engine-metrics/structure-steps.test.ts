@@ -4,7 +4,7 @@ import { encodeImage, reconstruct } from '../../../server/engine/format/codec';
 import type { PixelImage } from '../../../server/engine/io/image';
 import { removeMeans } from '../../../server/engine/io/mean-removal';
 import { stepRangeOf, structureSteps } from '../../../server/engine/metrics/structure-steps';
-import { ancestorsAtLevel, residualStageTables, treeLevels } from '../../../server/engine/structures/levels';
+import { ancestorsAtLevel, partitionRows, residualStageTables, treeLevels } from '../../../server/engine/structures/levels';
 import { encodeResidual, trainResidual } from '../../../server/engine/structures/residual';
 import { trainTree } from '../../../server/engine/structures/tree';
 import type { ResidualStructure, TreeStructure } from '../../../server/engine/structures/types';
@@ -121,6 +121,15 @@ describe('tree levels', () => {
     expect(Array.from(ancestorsAtLevel(tree, 1))).toEqual([0, 1, 2, 2, 2, 2, 2]);
     expect(Array.from(ancestorsAtLevel(tree, 2))).toEqual([0, 1, 2, 3, 4, 3, 3]);
     expect(Array.from(ancestorsAtLevel(tree, 3))).toEqual([0, 1, 2, 3, 4, 5, 6]);
+  });
+
+  it('names the rows whose cells split the vectors once: a tree’s leaves, a residual codebook’s first stage', () => {
+    // The same hand-made tree: nodes 1, 4, 5 and 6 have no children.
+    const children = Int32Array.from([1, 2, -1, -1, 3, 4, 5, 6, -1, -1, -1, -1, -1, -1]);
+    expect(partitionRows({ kind: 'tree', balanced: false, children })).toEqual([1, 4, 5, 6]);
+    // Stages of 2 and 3 bits: the first stage is rows 0..3 of the 4 + 8 row table.
+    expect(partitionRows({ kind: 'residual', bits: [2, 3], search: { kind: 'greedy' } })).toEqual([0, 1, 2, 3]);
+    expect(partitionRows({ kind: 'full' })).toBeNull();
   });
 
   it('splits a balanced tree of depth 3 into levels of 1, 2, 4 and 8 nodes, leaves only at the last', async () => {

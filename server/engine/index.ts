@@ -40,6 +40,7 @@ export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWork
 export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './training';
 export { ShardState, SearchCrew, distancesToNewest, shardLayout, type ShardLayout } from './training';
 export type { CellMember, SeedChoice, SeedStep, ShardAssignment, ShardExecutor, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from './training';
+export type { EcvqPassRequest, EcvqShardPass, EcvqShards, TreeShards } from './training';
 export { EngineInputError, type EngineInputErrorCode } from './input-error';
 export {
   assignEcvq, ecvqStartingCodebook, sweepEcvq, trainEcvq, MAX_ECVQ_SIZE, type EcvqIterationStat, type EcvqOptions, type EcvqResult, type EcvqStartOptions,

@@ -8,3 +8,4 @@ export {
   type ResidualCodes, type ResidualOptions, type ResidualRefinementStep, type ResidualResult, type ResidualSearch, type ResidualStageStat,
 } from './residual';
 export { structureCost, codebookCost, planOf, type StructureCost, type StructurePlan } from './cost';
+export { TreeShardState, openLocalTreeShards } from './tree-shards';

@@ -357,7 +357,8 @@ export interface TrainedTree {
 }
 
 /** The trace a structured codebook records: one entry per step, the last ones kept when the format's cap is reached. */
-function structuredTrace(steps: readonly { size: number; distortion: number }[], tableSize: number, maxIterations: number): IterationStat[] {
+/** A structured codebook's steps (growth, pruning, stages) as its training trace, capped at what the format records (the last ones kept). */
+export function structuredTrace(steps: readonly { size: number; distortion: number }[], tableSize: number, maxIterations: number): IterationStat[] {
   const cap = maxTraceLength(tableIndexBits(tableSize), maxIterations);
   return steps.slice(-cap).map((t) => ({ size: Math.max(1, Math.min(t.size, MAX_SIZE)), iteration: 0, distortion: t.distortion, emptyRepaired: 0, elapsedMs: 0 }));
 }

@@ -1,6 +1,6 @@
 import type { JobProgress } from '../../contracts';
 import {
-  assignEcvq, encodeResidual, encodeTree, MAX_ITERATIONS, parseStages, shardLayout, structureInfo, train, trainEcvq, trainResidual, trainTree,
+  assignEcvq, encodeResidual, encodeTree, greedyTreePlan, MAX_ITERATIONS, parseStages, shardLayout, structureInfo, structuredTrace, train, trainEcvq, trainResidual, trainTree, type TreeOptions,
 } from '../../engine';
 import type { TaskPool } from '../pool';
 import type { ImageMeasurement } from '../../engine';
@@ -179,9 +179,13 @@ async function structuredBooks(
     const fraction = LOADED + ((TRAINED - LOADED) * i) / plan.bits.length;
     const lloyd = { seed: task.seed, epsilon: task.epsilon, maxIterations: task.maxIterations, signal: ctx.signal };
     if (plan.kind === 'tree') {
-      ctx.progress({ phase: 'training', fraction, message: `tree of depth ${b} (${i + 1} of ${plan.bits.length})` });
+      const greedy = plan.growth === 'greedy' ? greedyTreePlan(b) : null;
+      ctx.progress({ phase: 'training', fraction, message: `${greedy ? `greedy tree pruned to ${b} bits` : `tree of depth ${b}`} (${i + 1} of ${plan.bits.length})` });
+      const shape: Pick<TreeOptions, 'growth' | 'prune'> = greedy
+        ? { growth: { kind: 'greedy', leaves: greedy.leaves, rate: greedy.growRate }, prune: { rate: greedy.pruneRate } }
+        : { growth: { kind: 'balanced', depth: b } };
       // Every node's 2-means over the workers' shards when the run's passes are spread (the same tree either way).
-      const r = await trainTree(vectors, d, { growth: { kind: 'balanced', depth: b }, ...lloyd, openShards: openShards ? ({ signal }) => openShards({ maxK: 2, signal }) : undefined });
+      const r = await trainTree(vectors, d, { ...shape, ...lloyd, openShards: openShards ? ({ signal }) => openShards({ maxK: 2, signal }) : undefined });
       const codes = encodeTree(r.codewords, r.structure, vectors, d);
       const cellDistortion = new Float64Array(r.usage.length);
       for (let v = 0; v < codes.leaves.length; v += 1) cellDistortion[codes.leaves[v]] += codes.distances[v];
@@ -189,7 +193,8 @@ async function structuredBooks(
         size: r.usage.length, codewords: r.codewords, usage: r.usage, cellDistortion, distortion: r.treeDistortion,
         // The sum over every node's 2-means, capped at what the codebook format records.
         iterations: Math.min(r.iterations, MAX_ITERATIONS),
-        trace: r.growth.map((g) => ({ size: g.leaves, iteration: 0, distortion: g.distortion, emptyRepaired: 0, elapsedMs: 0 })),
+        // The growth, then the pruning sequence, as the command line records a tree's (one rule for the cap).
+        trace: structuredTrace([...r.growth, ...(r.pruning ?? []).slice(1)].map((g) => ({ size: g.leaves, distortion: g.distortion })), r.usage.length, task.maxIterations),
         structure: structureInfo(r.structure) as TrainedSize['structure'],
       });
       continue;

@@ -1,6 +1,7 @@
 // Data-parallel entropy-constrained training: a λ run's passes spread shard by shard over real worker processes
 // (npm run worker's entry), with a real server process, Redis and MariaDB. The studio computes nothing itself
-// (WORKER_IN_SERVER=false). One worker trains in its own process; two split the shards between them.
+// (WORKER_IN_SERVER=false). One worker trains in its own process; two split the shards between them. A greedy tree
+// run's node splits go over the same wire.
 import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
@@ -56,21 +57,40 @@ async function trained(name: string): Promise<{ runId: number; checksum: string;
   return { runId, checksum: row.checksum, codeLengths: exported.body.structure.codeLengths as number[] };
 }
 
+/** Every codebook checksum of a greedy tree run (b = 3 and 4), by size. */
+async function treeRun(name: string): Promise<string[]> {
+  const res = await call(studio, 'POST', `/api/teams/${studio.teamId}/runs`, {
+    name, trainingSetId: setId, heldOutSetId: setId, ...RUN, lambdas: undefined, bits: { from: 3, to: 4 }, structure: 'tree', growth: 'greedy',
+  });
+  expect(res.status).toBe(201);
+  const done = await waitForRun(studio, res.body.run.id, terminal);
+  expect({ state: done.state, error: done.error }).toEqual({ state: 'succeeded', error: null });
+  const rows = (await studio.server.db.knex('codebooks').where({ run_id: res.body.run.id }).orderBy('size').select('checksum', 'structure')) as { checksum: string; structure: string }[];
+  expect(rows.map((r) => r.structure)).toEqual(['tree', 'tree']);
+  return rows.map((r) => r.checksum);
+}
+
 /** Workers whose log shows they computed shards of some run so far. */
 const hosting = () => workers.filter((w) => w.output().includes('"hosting shards"')).length;
 
 describe('an entropy-constrained run spread over worker processes', () => {
-  it('gives the same codewords and Huffman lengths with 1 and 2 workers, equal to the CLI\u2019s train --lambda on the same images', { timeout: 600_000 }, async () => {
+  it('gives the same codewords and Huffman lengths with 1 and 2 workers, equal to the CLI\u2019s train --lambda on the same images, and the same greedy trees', { timeout: 600_000 }, async () => {
     workers.push(await startWorkerProcess(studio.server));
     const one = await trained('One worker');
+    const treeOne = await treeRun('Greedy tree, one worker');
     expect(hosting()).toBe(0); // one worker trains in its own process
     workers.push(await startWorkerProcess(studio.server));
+    const sessions = () => workers.map((w) => w.output().split('\n').filter((l) => l.includes('"hosting shards"')).length).reduce((a, b) => a + b, 0);
     const two = await trained('Two workers');
     // Both workers hosted shards: the Lloyd passes and the entropy-constrained passes went over the wire.
     expect(hosting()).toBe(2);
-    expect(workers.map((w) => w.output().split('\n').filter((l) => l.includes('"hosting shards"')).length).reduce((a, b) => a + b, 0)).toBeGreaterThanOrEqual(4);
+    expect(sessions()).toBeGreaterThanOrEqual(4);
     expect(two.checksum).toBe(one.checksum);
     expect(two.codeLengths).toEqual(one.codeLengths);
+    // A greedy tree run: its Lloyd-free growth is one session per b, every node's 2-means over the wire.
+    const before = sessions();
+    expect(await treeRun('Greedy tree, two workers')).toEqual(treeOne);
+    expect(sessions() - before).toBeGreaterThanOrEqual(4);
     expect(one.codeLengths.length).toBeLessThan(32);
 
     // The CLI trains on the run's training images in the studio's order (by upload), named so that its sorted folder

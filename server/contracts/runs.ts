@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import {
-  BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, M_BEST, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, runStructureSchema, SEED, STAGES, STRIDE, STRUCTURE_KINDS, VECTOR_CAP,
+  BITS, COLOR_MODES, EPSILON, initMethodSchema, ITERATIONS, LAMBDA, M_BEST, MAX_LAMBDAS, MEAN_BITS, PATCH_SIDE, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, runStructureSchema, SEED, STAGES, STRIDE, STRUCTURE_KINDS, TREE_GROWTHS, VECTOR_CAP,
 } from '../engine/vocabulary';
 import { idParam, pathId } from './common';
 import { job, jobState } from './jobs';
@@ -54,6 +54,11 @@ export const createRunBody = z
      * searched greedily or keeping `mBest` candidates, with `refinementPasses` joint passes.
      */
     structure: runStructureSchema.optional(),
+    /**
+     * A tree's growth (default balanced): balanced to depth b, or greedy — grown best split per bit first past b and
+     * pruned back to a mean path of b bits (the vocabulary's greedyTreePlan).
+     */
+    growth: z.enum(TREE_GROWTHS).optional(),
     stages: int(STAGES.min, STAGES.max).optional(),
     mBest: int(M_BEST.min, M_BEST.max).optional(),
     refinementPasses: int(REFINEMENT_PASSES.min, REFINEMENT_PASSES.max).optional(),
@@ -70,6 +75,7 @@ export const createRunBody = z
     const structure = b.structure ?? 'full';
     const [from, to] = typeof b.bits === 'number' ? [b.bits, b.bits] : [b.bits.from, b.bits.to];
     if (b.lambdas && structure !== 'full') ctx.addIssue({ code: 'custom', path: ['lambdas'], message: `λ values train entropy-constrained full-search codebooks; they do not combine with structure "${structure}"` });
+    if (b.growth !== undefined && structure !== 'tree') ctx.addIssue({ code: 'custom', path: ['growth'], message: 'growth needs structure "tree"' });
     for (const name of ['stages', 'mBest', 'refinementPasses'] as const) {
       if (b[name] !== undefined && structure !== 'residual') ctx.addIssue({ code: 'custom', path: [name], message: `${name} needs structure "residual"` });
     }
@@ -77,7 +83,12 @@ export const createRunBody = z
       ctx.addIssue({ code: 'custom', path: ['bits'], message: `${b.stages ?? RESIDUAL_DEFAULT_STAGES} residual stages need b ≥ ${b.stages ?? RESIDUAL_DEFAULT_STAGES} (one bit a stage at least)` });
     }
     if (structure === 'tree' && to > BITS.max - 1) {
-      ctx.addIssue({ code: 'custom', path: ['bits'], message: `a balanced tree of depth ${to} has ${2 ** (to + 1) - 1} nodes; its table holds ${2 ** BITS.max}: b at most ${BITS.max - 1}` });
+      ctx.addIssue({
+        code: 'custom', path: ['bits'],
+        message: b.growth === 'greedy'
+          ? `a greedy tree of b = ${to} bits grows to ${2 ** (BITS.max - 1)} leaves at most before pruning; its table holds ${2 ** BITS.max}: b at most ${BITS.max - 1}`
+          : `a balanced tree of depth ${to} has ${2 ** (to + 1) - 1} nodes; its table holds ${2 ** BITS.max}: b at most ${BITS.max - 1}`,
+      });
     }
   });
 export type CreateRunBody = z.infer<typeof createRunBody>;
@@ -101,10 +112,10 @@ export const normalizedRunConfig = z.object({
   seed: z.number().int(),
   /** λ values of the run's entropy-constrained codebooks, distinct, in the order given; absent: full search only. */
   lambdas: z.array(z.number()).optional(),
-  /** Absent: full search. A tree per b (balanced to depth b), or residual stages sharing each b. */
+  /** Absent: full search. A tree per b (balanced to depth b, or greedy and pruned; absent growth: balanced), or residual stages sharing each b. */
   structure: z
     .discriminatedUnion('kind', [
-      z.object({ kind: z.literal('tree') }),
+      z.object({ kind: z.literal('tree'), growth: z.enum(TREE_GROWTHS).optional() }),
       z.object({ kind: z.literal('residual'), stages: z.number().int(), mBest: z.number().int().nullable(), refinementPasses: z.number().int() }),
     ])
     .optional(),

@@ -7,6 +7,9 @@ export {
   type BdMethod, type InitMethod, type RunStateName,
   M_BEST, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, STAGES, parseStages, type RunStructure,
   BD_MIN_POINTS, CURVE_STRUCTURE_LABELS, CURVE_STRUCTURES, curveLabel, curveStructureOf, type CurveStructure,
+  GREEDY_TREE_HEADROOM_BITS, greedyTreePlan, TREE_GROWTH_LABELS, TREE_GROWTHS, type TreeGrowthKind,
 } from '../engine/vocabulary';
+/** Longest path of any tree: the bound the run form's summary gives a greedy tree's longest index and encoder cost. */
+export { TREE_MAX_DEPTH } from '../engine/structures/limits';
 // What each structure costs a device (pure arithmetic): the run form's live summary uses the engine's one formula.
 export { structureCost, type StructureCost, type StructurePlan as StructureCostPlan } from '../engine/structures/cost';

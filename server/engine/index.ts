@@ -40,6 +40,7 @@ export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWork
 export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './training';
 export { ShardState, SearchCrew, distancesToNewest, shardLayout, type ShardLayout } from './training';
 export type { CellMember, SeedChoice, SeedStep, ShardAssignment, ShardExecutor, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from './training';
+export type { EcvqPassRequest, EcvqShardPass, EcvqShards, TreeShards } from './training';
 export { EngineInputError, type EngineInputErrorCode } from './input-error';
 export {
   assignEcvq, ecvqStartingCodebook, sweepEcvq, trainEcvq, MAX_ECVQ_SIZE, type EcvqIterationStat, type EcvqOptions, type EcvqResult, type EcvqStartOptions,
@@ -357,7 +358,8 @@ export interface TrainedTree {
 }
 
 /** The trace a structured codebook records: one entry per step, the last ones kept when the format's cap is reached. */
-function structuredTrace(steps: readonly { size: number; distortion: number }[], tableSize: number, maxIterations: number): IterationStat[] {
+/** A structured codebook's steps (growth, pruning, stages) as its training trace, capped at what the format records (the last ones kept). */
+export function structuredTrace(steps: readonly { size: number; distortion: number }[], tableSize: number, maxIterations: number): IterationStat[] {
   const cap = maxTraceLength(tableIndexBits(tableSize), maxIterations);
   return steps.slice(-cap).map((t) => ({ size: Math.max(1, Math.min(t.size, MAX_SIZE)), iteration: 0, distortion: t.distortion, emptyRepaired: 0, elapsedMs: 0 }));
 }

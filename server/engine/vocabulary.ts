@@ -53,6 +53,26 @@ export const TRAINABLE_STRUCTURES: readonly RunStructure[] = ['full', 'tree', 'r
 /** How a tree grows (CLI --growth, the run form): balanced to depth b, or greedily, best split per bit first (Riskin & Gray 1991). */
 export const TREE_GROWTHS = ['balanced', 'greedy'] as const;
 export type TreeGrowthKind = (typeof TREE_GROWTHS)[number];
+/** What each growth is called wherever a person reads it (the run form, the run page). */
+export const TREE_GROWTH_LABELS: Record<TreeGrowthKind, string> = {
+  balanced: 'Balanced to depth b',
+  greedy: 'Greedy, pruned to a mean path of b bits',
+};
+/**
+ * How much further than b bits a run's greedy tree grows before it is pruned back. Pruning along the lower hull
+ * only pays when it has a larger tree to choose from (Riskin & Gray 1991 grow past the target rate, then prune); one
+ * bit doubles the leaves it may reach, as the reference check of tree-structured VQ does.
+ */
+export const GREEDY_TREE_HEADROOM_BITS = 1;
+/**
+ * A run's greedy tree at b bits (the studio's training, the run form's summary): grown best split per bit first to at
+ * most `leaves` leaves or a mean path of `growRate` bits, then pruned by the generalized BFOS algorithm to the largest
+ * subtree on the lower hull whose mean path is at most `pruneRate` = b bits. Its table holds 2·leaves − 1 nodes at
+ * most, within the largest codebook (2^BITS.max) for b ≤ BITS.max − 1, the limit a balanced tree has.
+ */
+export function greedyTreePlan(bits: number): { leaves: number; growRate: number; pruneRate: number } {
+  return { leaves: Math.min(2 ** (bits + GREEDY_TREE_HEADROOM_BITS), 2 ** (BITS.max - 1)), growRate: bits + GREEDY_TREE_HEADROOM_BITS, pruneRate: bits };
+}
 export const runStructureSchema = z.enum(RUN_STRUCTURES, { error: `expected ${RUN_STRUCTURES.map((s) => `"${s}"`).join(', ')}` });
 
 /** How a codebook's table is searched and its indices coded (engine structures/types.ts holds each kind's shape). */

@@ -118,7 +118,7 @@ export function createRunsService(deps: { db: Database; bus: JobEventBus; traini
       maxVectors: body.maxVectors ?? DEFAULTS.maxVectors,
       seed: body.seed ?? DEFAULTS.seed,
       ...(body.lambdas ? { lambdas: [...new Set(body.lambdas)] } : {}),
-      ...(body.structure === 'tree' ? { structure: { kind: 'tree' as const } } : {}),
+      ...(body.structure === 'tree' ? { structure: { kind: 'tree' as const, ...(body.growth === 'greedy' ? { growth: body.growth } : {}) } } : {}),
       ...(body.structure === 'residual'
         ? { structure: { kind: 'residual' as const, stages: body.stages ?? RESIDUAL_DEFAULT_STAGES, mBest: body.mBest ?? null, refinementPasses: body.refinementPasses ?? 0 } }
         : {}),

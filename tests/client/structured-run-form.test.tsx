@@ -50,6 +50,29 @@ describe('the run form\'s structure', () => {
   });
 });
 
+describe('the run form\'s greedy trees', () => {
+  it('sends a greedy growth with a tree, and nothing for the default balanced one', () => {
+    expect(toRunBody({ ...emptyRunForm, structure: 'tree', growth: 'greedy' })).toMatchObject({ structure: 'tree', growth: 'greedy' });
+    expect(toRunBody({ ...emptyRunForm, structure: 'tree', growth: 'balanced' })).not.toHaveProperty('growth');
+    // A growth left chosen while another structure is picked is not sent (the contract refuses it without a tree).
+    expect(toRunBody({ ...emptyRunForm, structure: 'full', growth: 'greedy' })).not.toHaveProperty('growth');
+    const config = { name: 'g', trainingSetId: 1, heldOutSetId: 1, patch: { width: 4, height: 4 }, bits: 8, structure: 'tree', growth: 'greedy' } as CreateRunBody;
+    expect(fromRunConfig(config, 'again')).toMatchObject({ structure: 'tree', growth: 'greedy' });
+    expect(runFormSchema(new Map()).safeParse({ ...emptyRunForm, name: 'x', structure: 'tree', growth: 'greedy', bits: 14 }).error!.issues.find((i) => i.path[0] === 'bits')?.message).toContain('b at most 13');
+  });
+
+  it('bounds a greedy tree\'s cost at b = 8 on 4×4 luma blocks (d = 16), by hand', () => {
+    // Grown to at most 2^(8+1) = 512 leaves (1023 nodes) before pruning; any path at most 20 bits: 2 · 16 · 20 = 640.
+    expect(structureFigures('tree', 8, 2, 1, 16, 'greedy')).toMatchObject({ bounded: true, cost: { tableCodewords: 1023, decoderCodewords: 512, encodeMultiplyAdds: 640, maxIndexBits: 20 } });
+    render(<StructureSummary structure="tree" growth="greedy" bits={8} stages={2} mBest={1} dimension={16} pixelsPerBlock={16} />);
+    const summary = screen.getByLabelText('Structure cost').textContent;
+    // Pruned to a mean path of at most 8 bits: 0.5 bpp, 2 · 16 · 8 = 256 multiply-adds on average.
+    expect(summary).toContain('at most 8 bits per block on average, 0.5000 bpp; a path at most 20 bits');
+    expect(summary).toContain('at most 1\u202f023 codewords (decoder reads at most 512)');
+    expect(summary).toContain('at most 256 multiply-adds per block on average, 640 on the longest path');
+  });
+});
+
 describe('the run page\'s structure row', () => {
   const normalized: RunDetail['normalized'] = {
     trainingImageIds: [1], heldOutImageIds: [2], patch: { width: 4, height: 4 }, color: 'luma', meanBits: 0, bits: { from: 6, to: 8 }, sizes: [64, 128, 256],
@@ -58,6 +81,7 @@ describe('the run page\'s structure row', () => {
   it('names the structure and the residual search the run trained with', () => {
     expect(structureText({ ...normalized })).toBe('Full search');
     expect(structureText({ ...normalized, structure: { kind: 'tree' } })).toBe('Tree-structured, balanced to depth b');
+    expect(structureText({ ...normalized, structure: { kind: 'tree', growth: 'greedy' } })).toBe('Tree-structured, greedy, pruned to a mean path of b bits');
     expect(structureText({ ...normalized, structure: { kind: 'residual', stages: 2, mBest: 8, refinementPasses: 1 } })).toBe(
       'Residual (multistage): 2 stages sharing b, M-best search, M = 8, 1 refinement passes',
     );

@@ -1,3 +1,6 @@
+import { foldStatistics } from './shard-fold';
+import type { EcvqPassRequest, EcvqShardPass } from './types';
+
 /**
  * Kernels of entropy-constrained VQ (training/ecvq.ts wires them): the penalised nearest search and the centroid
  * update. Distances are the engine's exact ones (exact-distance.ts: Σ (x_i − c_i)² in index order, float64), so a
@@ -173,4 +176,68 @@ export function usageEntropy(counts: ArrayLike<number>, total: number): number {
     if (c > 0) h -= (c / total) * Math.log2(c / total);
   }
   return h;
+}
+
+/**
+ * One shard's entropy-constrained pass (the per-shard step of training/ecvq.ts): assignEntropyConstrained over the
+ * shard's vectors, then its counts, float64 centroid sums, per-cell and total squared error and Σ ℓ, each formed from
+ * zero in vector order (the shard rule of shard-fold.ts).
+ * `cells` (n) holds the shard's cells of its previous pass by starting-codebook index, on return this pass's; when
+ * `hinted` each search starts from that cell (speed only: the search's result does not depend on where it starts).
+ * @param vectors the shard's vectors, n × d
+ */
+export function ecvqShardPass(vectors: Float32Array, d: number, request: EcvqPassRequest, cells: Uint32Array, hinted: boolean): EcvqShardPass {
+  const { codewords, k, penalties, lengths, origin } = request;
+  const n = vectors.length / d;
+  const indices = new Uint32Array(n);
+  const errors = new Float64Array(n);
+  if (hinted) {
+    let top = 0;
+    for (let j = 0; j < k; j++) top = Math.max(top, origin[j]);
+    const at = new Int32Array(top + 1).fill(-1);
+    for (let j = 0; j < k; j++) at[origin[j]] = j;
+    // A previous cell that is gone (or from another λ's run) still names a valid starting candidate: cell 0.
+    for (let v = 0; v < n; v++) indices[v] = Math.max(0, cells[v] <= top ? at[cells[v]] : 0);
+  }
+  assignEntropyConstrained(vectors, d, codewords.subarray(0, k * d), penalties, indices, errors, hinted);
+  const counts = new Uint32Array(k);
+  const sums = new Float64Array(k * d);
+  const cellDistortion = new Float64Array(k);
+  let total = 0;
+  let bits = 0;
+  for (let v = 0; v < n; v++) {
+    const j = indices[v];
+    counts[j]++;
+    cellDistortion[j] += errors[v];
+    total += errors[v];
+    bits += lengths[j];
+    const so = j * d;
+    const vo = v * d;
+    for (let i = 0; i < d; i++) sums[so + i] += vectors[vo + i];
+    cells[v] = origin[j];
+  }
+  return { counts, sums, cellDistortion, total, bits };
+}
+
+/** The shards' entropy-constrained passes folded in shard order (shard-fold.ts): usage, per-cell and total error, Σ ℓ. */
+export function foldEcvqPasses(parts: readonly EcvqShardPass[], k: number): { usage: Uint32Array; cellDistortion: Float64Array; total: number; bits: number } {
+  const stats = foldStatistics(parts, k);
+  let bits = 0;
+  for (let s = 0; s < parts.length; s++) bits = s === 0 ? parts[s].bits : bits + parts[s].bits;
+  return { ...stats, bits };
+}
+
+/** One shard's entropy-constrained passes where it is computed: its vectors (n × d) and their last cells (search hints). */
+export class EcvqShardState {
+  private readonly cells: Uint32Array;
+  private hinted = false;
+  constructor(private readonly vectors: Float32Array, private readonly d: number) {
+    this.cells = new Uint32Array(vectors.length / d);
+  }
+
+  pass(request: EcvqPassRequest): EcvqShardPass {
+    const out = ecvqShardPass(this.vectors, this.d, request, this.cells, this.hinted);
+    this.hinted = true;
+    return out;
+  }
 }

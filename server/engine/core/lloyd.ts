@@ -1,13 +1,13 @@
 import { abortError } from './errors';
 import { repairEmptyCells, worstMembers } from './repair-empty-cells';
 import { foldCentroids, foldStatistics } from './shard-fold';
-import type { CellStatistics, IterationStat, PassStats, ShardAssignment, ShardExecutor, TrainedCodebook } from './types';
+import type { CellStatistics, IterationStat, LloydShards, PassStats, ShardAssignment, TrainedCodebook } from './types';
 
 export interface LloydContext {
   d: number;
   n: number;
   /** The training set's shards, computed here or elsewhere; every statistic is folded from them in shard order. */
-  shards: ShardExecutor;
+  shards: LloydShards;
   epsilon: number;
   maxIterations: number;
   signal?: AbortSignal;

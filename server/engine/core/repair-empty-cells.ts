@@ -1,5 +1,5 @@
 import { EngineError } from './errors';
-import type { CellMember, ShardAssignment, ShardExecutor, ShardMove } from './types';
+import type { CellMember, LloydShards, ShardAssignment, ShardMove } from './types';
 
 /**
  * Gives every empty cell one training vector before the centroid update: for each empty
@@ -57,7 +57,7 @@ const FIRST_ASK = 8;
  * so the lower shard wins a tie) is the cell's next. One instance serves one repair step.
  */
 export function worstMembers(
-  executor: ShardExecutor, parts: readonly ShardAssignment[], signal?: AbortSignal,
+  executor: LloydShards, parts: readonly ShardAssignment[], signal?: AbortSignal,
 ): (cell: number) => Promise<CellMember> {
   const queues = new Map<number, { items: CellMember[][]; taken: number[]; asked: number[] }>();
   return async (cell) => {

@@ -10,7 +10,7 @@ import type { CellStatistics, ShardAssignment, ShardSplitSums, ShardSums } from 
  */
 
 /** Usage, per-cell and total error of a partition from its shards' partials (in shard order). */
-export function foldStatistics(parts: readonly ShardAssignment[], k: number): CellStatistics {
+export function foldStatistics(parts: readonly Pick<ShardAssignment, 'counts' | 'cellDistortion' | 'total'>[], k: number): CellStatistics {
   const usage = new Uint32Array(k);
   const cellDistortion = new Float64Array(k);
   let total = 0;

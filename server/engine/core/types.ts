@@ -206,3 +206,66 @@ export interface PassSearch {
   run(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<PassStats>;
   accumulate(codewords: Float32Array, k: number, signal?: AbortSignal): Promise<Uint32Array>;
 }
+
+/**
+ * One pass of entropy-constrained training (training/ecvq.ts) for the shards: each vector goes to the cell minimising
+ * ‖x − c_j‖² + penalties[j]. Per-shard partials follow the shard rule of shard-fold.ts.
+ */
+export interface EcvqPassRequest {
+  /** K × d, row-major. */
+  codewords: Float32Array;
+  k: number;
+  /** K: λ·ℓ_j, squared-error units. */
+  penalties: Float64Array;
+  /** K: ℓ_j in bits, summed per vector into `bits`. */
+  lengths: Float64Array;
+  /**
+   * K: each cell's index in the starting codebook. A shard starts each vector's search from its previous cell when it
+   * still knows it (speed only: the search's result does not depend on where it starts).
+   */
+  origin: Uint32Array;
+}
+
+/** One shard's answer to an EcvqPassRequest, each figure formed from zero in vector order. */
+export interface EcvqShardPass extends ShardSums {
+  /** K: squared error per cell. */
+  cellDistortion: Float64Array;
+  /** Total squared error. */
+  total: number;
+  /** Σ ℓ of the chosen cells, bits. */
+  bits: number;
+}
+
+/** The shards of a training set as entropy-constrained training sees them: in this process or on workers. */
+export interface EcvqShards {
+  readonly count: number;
+  /** Every shard's pass, in shard order. */
+  ecvqPass(request: EcvqPassRequest, signal?: AbortSignal): Promise<EcvqShardPass[]>;
+  close(): Promise<void>;
+}
+
+/**
+ * The shards of a training set as a tree grows on them (structures/tree.ts): every shard keeps which node each of its
+ * vectors has reached. Nodes are named by the grower's node numbers (root 0). A node's 2-means is core's Lloyd
+ * iteration over its vectors in every shard; its partials follow the shard rule of shard-fold.ts.
+ */
+export interface TreeShards {
+  readonly count: number;
+  /** A nearest-of-K pass (exact float64, lowest index on ties) of node's vectors in every shard, in shard order. */
+  nodeAssign(node: number, codewords: Float32Array, k: number, signal?: AbortSignal): Promise<ShardAssignment[]>;
+  /** As ShardExecutor.members, over the node's last pass. */
+  nodeMembers(node: number, cell: number, asks: readonly { shard: number; skip: number; take: number }[], signal?: AbortSignal): Promise<CellMember[][]>;
+  /** As ShardExecutor.move, over the node's last pass. */
+  nodeMove(node: number, moves: readonly ShardMove[], k: number, signal?: AbortSignal): Promise<Map<number, ShardSums>>;
+  /**
+   * The node becomes internal: each of its vectors goes to `left` or `right`, whichever of codewords (2 × d: left,
+   * right) is nearer (exact float64, left on ties) — the partition of the last pass of its 2-means. Returns, per shard
+   * in shard order and per side, up to two distinct vectors that went there (0, 1 or 2 rows of d), from which the
+   * grower knows whether a child can split at all.
+   */
+  commitSplit(node: number, codewords: Float32Array, left: number, right: number, signal?: AbortSignal): Promise<[Float32Array, Float32Array][]>;
+  close(): Promise<void>;
+}
+
+/** What core's Lloyd iteration needs of the shards (runLloyd, worstMembers). */
+export type LloydShards = Pick<ShardExecutor, 'assign' | 'members' | 'move'>;

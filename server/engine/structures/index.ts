@@ -9,3 +9,4 @@ export {
 } from './residual';
 export { structureCost, codebookCost, planOf, type StructureCost, type StructurePlan } from './cost';
 export { treeLevels, ancestorsAtLevel, residualStageTables, partitionRows, type TreeLevels, type ResidualStageTable } from './levels';
+export { TreeShardState, openLocalTreeShards } from './tree-shards';

@@ -6,10 +6,11 @@ import { abortError, EngineError, throwIfAborted } from '../core/errors';
 import { exactDistance } from '../core/exact-distance';
 import { runLloyd } from '../core/lloyd';
 import { createRng } from '../core/rng';
+import type { TreeShards } from '../core/types';
 import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from '../core/validate';
 import { assignSync } from '../training/index';
 import { RUN_DEFAULTS, SEED } from '../vocabulary';
-import { exactShard } from './exact-shard';
+import { nodeShards, openLocalTreeShards, twoDistinct } from './tree-shards';
 import { DEFAULT_TREE_SPLIT_DELTA, TREE_MAX_BALANCED_DEPTH, TREE_MAX_DEPTH, TREE_MAX_LEAVES } from './limits';
 import type { TreeStructure } from './types';
 
@@ -40,6 +41,11 @@ export interface TreeOptions {
   /** Checked between nodes and between a node's iterations; rejects with an AbortError. */
   signal?: AbortSignal;
   onProgress?: (p: { leaves: number; distortion: number }) => void;
+  /**
+   * Opens the training set's shards somewhere else (the job engine's workers); by default every shard is computed in
+   * this process. Either way the tree is the same bits: every node's 2-means folds the shards' partials in shard order.
+   */
+  openShards?: (set: { n: number; d: number; signal?: AbortSignal }) => Promise<TreeShards>;
 }
 
 /** One split of the growth: the tree after it. */
@@ -82,7 +88,7 @@ export interface TreeResult {
 
 interface Split {
   codewords: Float32Array; // 2 × d: left, right
-  members: [Uint32Array, Uint32Array];
+  counts: [number, number];
   errors: [number, number];
   iterations: number;
 }
@@ -91,7 +97,8 @@ interface GrowNode {
   heap: number; // 1-based heap index: root 1, children 2h and 2h + 1
   depth: number;
   codeword: Float32Array; // d
-  members: Uint32Array; // indices into the training set
+  count: number; // training vectors that reach the node (the shards know which)
+  distinct: boolean; // whether they hold two distinct vectors or more
   error: number; // total squared error of the members against the codeword
   left: number; // index into the node list, or -1
   right: number;
@@ -125,48 +132,45 @@ export function splitStart(
 }
 
 /**
- * The 2-means of one node: core's Lloyd iteration (runLloyd) over the node's vectors from c ± δσ·u, with u a random
- * direction of length √d drawn from the node's own generator (seed and heap index), so a node's split does not depend
- * on the order the nodes are visited in. Null when the node holds fewer than two distinct vectors.
+ * The 2-means of node t: core's Lloyd iteration (runLloyd) over the node's vectors in every shard from c ± δσ·u, with
+ * u a random direction of length √d drawn from the node's own generator (seed and heap index), so a node's split does
+ * not depend on the order the nodes are visited in. Null when the node holds fewer than two distinct vectors.
  */
 async function splitNode(
-  vectors: Float32Array, d: number, node: GrowNode, o: Required<Omit<TreeOptions, 'growth' | 'prune' | 'signal' | 'onProgress'>> & { signal?: AbortSignal },
+  shards: TreeShards, t: number, d: number, node: GrowNode, o: Required<Omit<TreeOptions, 'growth' | 'prune' | 'signal' | 'onProgress' | 'openShards'>> & { signal?: AbortSignal },
 ): Promise<Split | null> {
-  const n = node.members.length;
-  if (n < 2) return null;
-  const local = new Float32Array(n * d);
-  for (let v = 0; v < n; v++) local.set(vectors.subarray(node.members[v] * d, node.members[v] * d + d), v * d);
-  if (countDistinctUpTo(local, d, 2) < 2) return null;
-  const start = splitStart(node.codeword, node.error, n, d, o.seed, node.heap, o.splitDelta);
-  const shard = exactShard(local, d);
-  const book = await runLloyd({ d, n, shards: shard, epsilon: o.epsilon, maxIterations: o.maxIterations, signal: o.signal }, start, 2);
-  // runLloyd's last pass is the nearest partition under the final codewords: the partition tree search makes.
-  const left: number[] = [];
-  const right: number[] = [];
-  for (let v = 0; v < n; v++) (shard.indices[v] === 0 ? left : right).push(node.members[v]);
+  if (node.count < 2 || !node.distinct) return null;
+  const start = splitStart(node.codeword, node.error, node.count, d, o.seed, node.heap, o.splitDelta);
+  const book = await runLloyd({ d, n: node.count, shards: nodeShards(shards, t), epsilon: o.epsilon, maxIterations: o.maxIterations, signal: o.signal }, start, 2);
+  // runLloyd's last pass is the nearest partition under the final codewords: the partition tree search makes, and
+  // the one the shards take when the split is committed.
   return {
     codewords: book.codewords,
-    members: [Uint32Array.from(left), Uint32Array.from(right)],
+    counts: [book.usage[0], book.usage[1]],
     errors: [book.cellDistortion[0], book.cellDistortion[1]],
     iterations: book.iterations,
   };
 }
 
-function childrenOf(nodes: GrowNode[], t: number, split: Split, d: number): void {
+/** Node t becomes internal: its vectors go to its two new children in every shard. */
+async function childrenOf(nodes: GrowNode[], shards: TreeShards, t: number, split: Split, d: number, signal?: AbortSignal): Promise<void> {
   const parent = nodes[t];
+  const at = nodes.length;
+  const rows = await shards.commitSplit(t, split.codewords, at, at + 1, signal);
   for (const side of [0, 1] as const) {
     nodes.push({
       heap: parent.heap * 2 + side,
       depth: parent.depth + 1,
       codeword: split.codewords.slice(side * d, side * d + d),
-      members: split.members[side],
+      count: split.counts[side],
+      distinct: twoDistinct(rows.map((r) => r[side]), d),
       error: split.errors[side],
       left: -1,
       right: -1,
     });
   }
-  parent.left = nodes.length - 2;
-  parent.right = nodes.length - 1;
+  parent.left = at;
+  parent.right = at + 1;
 }
 
 /** A split that leaves the node as it is: both children copy its codeword; ties go left, so the right one stays empty. */
@@ -174,7 +178,7 @@ function copySplit(node: GrowNode, d: number): Split {
   const codewords = new Float32Array(2 * d);
   codewords.set(node.codeword, 0);
   codewords.set(node.codeword, d);
-  return { codewords, members: [node.members, new Uint32Array(0)], errors: [node.error, 0], iterations: 0 };
+  return { codewords, counts: [node.count, 0], errors: [node.error, 0], iterations: 0 };
 }
 
 function leavesOf(nodes: GrowNode[]): number[] {
@@ -192,7 +196,7 @@ function measure(nodes: GrowNode[], leaves: readonly number[], n: number, d: num
   let bits = 0;
   let error = 0;
   for (const t of leaves) {
-    bits += nodes[t].members.length * nodes[t].depth;
+    bits += nodes[t].count * nodes[t].depth;
     error += nodes[t].error;
   }
   return { leaves: leaves.length, rate: bits / n, distortion: error / (n * d) };
@@ -227,12 +231,12 @@ function bfosSequence(nodes: readonly GrowNode[], n: number, d: number): { prune
     const node = nodes[t];
     if (node.left < 0) {
       leafError[t] = node.error;
-      leafBits[t] = node.members.length * node.depth;
+      leafBits[t] = node.count * node.depth;
     } else {
       leafError[t] = leafError[node.left] + leafError[node.right];
       leafBits[t] = leafBits[node.left] + leafBits[node.right];
       deltaD[t] = node.error - leafError[t];
-      deltaR[t] = leafBits[t] - node.members.length * node.depth;
+      deltaR[t] = leafBits[t] - node.count * node.depth;
     }
   }
   const first = measure(nodes as GrowNode[], leavesOf(nodes as GrowNode[]), n, d);
@@ -296,6 +300,7 @@ function options(o: TreeOptions) {
     if (g.maxDepth !== undefined) checkInteger('maxDepth', g.maxDepth, 0, TREE_MAX_DEPTH);
   }
   if (o.prune !== undefined) checkNumber('prune.rate', o.prune?.rate, 0, TREE_MAX_DEPTH);
+  if (o.openShards !== undefined && typeof o.openShards !== 'function') throw invalid('openShards must be a function');
   return {
     seed: o.seed === undefined ? RUN_DEFAULTS.seed : checkInteger('seed', o.seed, SEED.min, SEED.max),
     splitDelta: o.splitDelta === undefined ? DEFAULT_TREE_SPLIT_DELTA : checkNumber('splitDelta', o.splitDelta, 0, 1, true),
@@ -321,70 +326,72 @@ export async function trainTree(vectors: Float32Array, d: number, opts: TreeOpti
 
   const root = new Float32Array(d);
   accumulateCentroids(vectors, d, new Uint32Array(n), root, 1);
-  const all = new Uint32Array(n);
-  for (let v = 0; v < n; v++) all[v] = v;
   let rootError = 0;
   for (let v = 0; v < n; v++) rootError += exactDistance(vectors, v * d, root, 0, d);
-  const nodes: GrowNode[] = [{ heap: 1, depth: 0, codeword: root, members: all, error: rootError, left: -1, right: -1 }];
+  const nodes: GrowNode[] = [{ heap: 1, depth: 0, codeword: root, count: n, distinct: countDistinctUpTo(vectors, d, 2) >= 2, error: rootError, left: -1, right: -1 }];
   const growth: TreeGrowthStep[] = [measure(nodes, [0], n, d)];
   let iterations = 0;
   const report = (step = measure(nodes, leavesOf(nodes), n, d)) => {
     growth.push(step);
     opts.onProgress?.({ leaves: step.leaves, distortion: step.distortion });
   };
+  const shards = opts.openShards ? await opts.openShards({ n, d, signal: o.signal }) : openLocalTreeShards(vectors, d);
   const split = async (t: number): Promise<Split | null> => {
     if (nodes[t].split === undefined) {
-      try {
-        nodes[t].split = await splitNode(vectors, d, nodes[t], o);
-      } catch (err) {
-        if (o.signal?.aborted && !(err instanceof EngineError)) throw abortError(o.signal);
-        throw err;
-      }
+      nodes[t].split = await splitNode(shards, t, d, nodes[t], o);
       iterations += nodes[t].split?.iterations ?? 0;
     }
     return nodes[t].split ?? null;
   };
 
-  const g = opts.growth;
-  if (g.kind === 'balanced') {
-    let level = [0];
-    for (let depth = 0; depth < g.depth; depth++) {
-      const next: number[] = [];
-      for (const t of level) {
-        throwIfAborted(o.signal);
-        childrenOf(nodes, t, (await split(t)) ?? copySplit(nodes[t], d), d);
-        next.push(nodes[t].left, nodes[t].right);
+  try {
+    const g = opts.growth;
+    if (g.kind === 'balanced') {
+      let level = [0];
+      for (let depth = 0; depth < g.depth; depth++) {
+        const next: number[] = [];
+        for (const t of level) {
+          throwIfAborted(o.signal);
+          await childrenOf(nodes, shards, t, (await split(t)) ?? copySplit(nodes[t], d), d, o.signal);
+          next.push(nodes[t].left, nodes[t].right);
+        }
+        level = next;
+        report();
       }
-      level = next;
-      report();
+    } else {
+      const maxDepth = g.maxDepth ?? TREE_MAX_DEPTH;
+      const most = g.leaves ?? TREE_MAX_LEAVES;
+      // Splittable leaves by the distortion they save per bit of total path length (splitting adds one bit to every
+      // vector that reaches the leaf), largest first, ties to the earlier node: a total order, so growth is
+      // deterministic. Each figure comes from the node's 2-means, folded from the shards in shard order.
+      const queue = new MaxQueue<{ t: number; gain: number }>((a, b) => a.gain > b.gain || (a.gain === b.gain && a.t < b.t));
+      const offer = async (t: number) => {
+        if (nodes[t].depth >= maxDepth) return;
+        throwIfAborted(o.signal);
+        const s = await split(t);
+        if (s) queue.push({ t, gain: (nodes[t].error - s.errors[0] - s.errors[1]) / nodes[t].count });
+      };
+      await offer(0);
+      let leaves = 1;
+      let bits = 0;
+      let error = rootError;
+      while (leaves < most && (g.rate === undefined || bits / n < g.rate) && queue.size > 0) {
+        const { t } = queue.pop()!;
+        const s = nodes[t].split!;
+        await childrenOf(nodes, shards, t, s, d, o.signal);
+        leaves++;
+        bits += nodes[t].count;
+        error -= nodes[t].error - s.errors[0] - s.errors[1];
+        report({ leaves, rate: bits / n, distortion: error / (n * d) });
+        await offer(nodes[t].left);
+        await offer(nodes[t].right);
+      }
     }
-  } else {
-    const maxDepth = g.maxDepth ?? TREE_MAX_DEPTH;
-    const most = g.leaves ?? TREE_MAX_LEAVES;
-    // Splittable leaves by the distortion they save per bit of total path length (splitting adds one bit to every
-    // vector that reaches the leaf), largest first, ties to the earlier node: a total order, so growth is deterministic.
-    const queue = new MaxQueue<{ t: number; gain: number }>((a, b) => a.gain > b.gain || (a.gain === b.gain && a.t < b.t));
-    const offer = async (t: number) => {
-      if (nodes[t].depth >= maxDepth) return;
-      throwIfAborted(o.signal);
-      const s = await split(t);
-      if (s) queue.push({ t, gain: (nodes[t].error - s.errors[0] - s.errors[1]) / nodes[t].members.length });
-    };
-    await offer(0);
-    let leaves = 1;
-    let bits = 0;
-    let error = rootError;
-    while (leaves < most && (g.rate === undefined || bits / n < g.rate) && queue.size > 0) {
-      const { t } = queue.pop()!;
-      const s = nodes[t].split!;
-      childrenOf(nodes, t, s, d);
-      leaves++;
-      bits += nodes[t].members.length;
-      error -= nodes[t].error - s.errors[0] - s.errors[1];
-      report({ leaves, rate: bits / n, distortion: error / (n * d) });
-      await offer(nodes[t].left);
-      await offer(nodes[t].right);
-    }
+  } catch (err) {
+    if (o.signal?.aborted && !(err instanceof EngineError)) throw abortError(o.signal);
+    throw err;
+  } finally {
+    await shards.close();
   }
 
   let pruning: TreePruneStep[] | undefined;
@@ -472,7 +479,7 @@ function emit(nodes: readonly GrowNode[], d: number): { codewords: Float32Array;
   order.forEach((t, i) => {
     const node = nodes[t];
     codewords.set(node.codeword, i * d);
-    usage[i] = node.members.length;
+    usage[i] = node.count;
     if (node.left >= 0) {
       children[2 * i] = id.get(node.left)!;
       children[2 * i + 1] = id.get(node.right)!;

@@ -1,13 +1,15 @@
 // Entropy-constrained VQ training (P. A. Chou, T. Lookabaugh and R. M. Gray, "Entropy-constrained vector
 // quantization", IEEE Trans. ASSP 37(1), 1989): validation once here, then the kernels of core/entropy-constrained.ts
 // and the prefix code of core/huffman.ts. The model is described in README.md beside this file.
-import { assignEntropyConstrained, cellCentroids, usageEntropy } from '../core/entropy-constrained';
+import { assignEntropyConstrained, foldEcvqPasses, usageEntropy } from '../core/entropy-constrained';
 import { abortError, EngineError, throwIfAborted } from '../core/errors';
 import { codedBits, huffmanCodeLengths, MAX_CODE_LENGTH } from '../core/huffman';
-import type { InitMethod } from '../core/types';
+import { foldCentroids } from '../core/shard-fold';
+import type { EcvqShards, InitMethod } from '../core/types';
 import { checkInteger, checkNumber, checkVectors } from '../core/validate';
 import { RUN_DEFAULTS } from '../vocabulary';
 import { train } from './index';
+import { openLocalEcvqShards } from './local-shards';
 
 /** Largest starting codebook: every surviving cell must get a code of at most MAX_CODE_LENGTH bits. */
 export const MAX_ECVQ_SIZE = 2 ** MAX_CODE_LENGTH;
@@ -28,6 +30,11 @@ export interface EcvqOptions {
   /** Checked between iterations; rejects with an AbortError. */
   signal?: AbortSignal;
   onIteration?: (s: EcvqIterationStat) => void;
+  /**
+   * Opens the training set's shards somewhere else (the job engine's workers); by default every shard is computed in
+   * this process. Either way the codebooks are the same bits: each iteration folds the shards' partials in shard order.
+   */
+  openShards?: (set: { n: number; d: number; signal?: AbortSignal }) => Promise<EcvqShards>;
 }
 
 export interface EcvqIterationStat {
@@ -96,6 +103,7 @@ function checkCommon(vectors: Float32Array, dimension: number, initialCodewords:
   const epsilon = options.epsilon === undefined ? RUN_DEFAULTS.epsilon : checkNumber('epsilon', options.epsilon, 0, 1);
   const maxIterations = options.maxIterations === undefined ? RUN_DEFAULTS.maxIterations : checkInteger('maxIterations', options.maxIterations, 0, 1_000_000);
   if (options.signal !== undefined && !(options.signal instanceof AbortSignal)) throw new EngineError('ENGINE_INVALID_INPUT', 'signal must be an AbortSignal');
+  if (options.openShards !== undefined && typeof options.openShards !== 'function') throw new EngineError('ENGINE_INVALID_INPUT', 'openShards must be a function');
   return { n, d: dimension, k, epsilon, maxIterations, maxCodeLength };
 }
 
@@ -110,7 +118,16 @@ const checkLambda = (lambda: unknown) => checkNumber('lambda', lambda, 0, Number
 export async function trainEcvq(vectors: Float32Array, dimension: number, initialCodewords: Float32Array, options: EcvqOptions): Promise<EcvqResult> {
   const c = checkCommon(vectors, dimension, initialCodewords, options);
   const lambda = checkLambda(options.lambda);
-  return runEcvq(vectors, initialCodewords, c, lambda, options);
+  const shards = await openShards(vectors, c, options);
+  try {
+    return await runEcvq(shards, initialCodewords, c, lambda, options);
+  } finally {
+    await shards.close();
+  }
+}
+
+function openShards(vectors: Float32Array, c: Checked, options: Omit<EcvqOptions, 'lambda'>): Promise<EcvqShards> {
+  return options.openShards ? options.openShards({ n: c.n, d: c.d, signal: options.signal }) : Promise.resolve(openLocalEcvqShards(vectors, c.d));
 }
 
 /**
@@ -124,7 +141,12 @@ export async function sweepEcvq(
   if (!Array.isArray(lambdas) || lambdas.length === 0) throw new EngineError('ENGINE_INVALID_INPUT', 'lambdas must be a non-empty array');
   const checked = lambdas.map(checkLambda);
   const out: EcvqResult[] = [];
-  for (const lambda of checked) out.push(await runEcvq(vectors, initialCodewords, c, lambda, options));
+  const shards = await openShards(vectors, c, options);
+  try {
+    for (const lambda of checked) out.push(await runEcvq(shards, initialCodewords, c, lambda, options));
+  } finally {
+    await shards.close();
+  }
   return out;
 }
 
@@ -204,7 +226,11 @@ interface State {
 
 const yieldTurn = () => new Promise<void>((resolve) => setImmediate(resolve));
 
-async function runEcvq(vectors: Float32Array, initial: Float32Array, c: Checked, lambda: number, options: Omit<EcvqOptions, 'lambda'>): Promise<EcvqResult> {
+/**
+ * The iteration over the shards: each pass is every shard's partial (core ecvqShardPass), folded in shard order, so
+ * the codebook is the same bits wherever the shards are computed.
+ */
+async function runEcvq(shards: EcvqShards, initial: Float32Array, c: Checked, lambda: number, options: Omit<EcvqOptions, 'lambda'>): Promise<EcvqResult> {
   const { n, d, epsilon, maxIterations, maxCodeLength } = c;
   const { signal } = options;
   const trace: EcvqIterationStat[] = [];
@@ -213,9 +239,11 @@ async function runEcvq(vectors: Float32Array, initial: Float32Array, c: Checked,
   let origin = Uint32Array.from({ length: c.k }, (_, j) => j);
   // No probabilities exist before the first partition: equal lengths, which make it a nearest-codeword partition.
   let lengths = new Float64Array(c.k).fill(Math.log2(c.k));
-  const indices = new Uint32Array(n);
-  const errors = new Float64Array(n);
-  const cellOf = new Uint32Array(n); // previous partition, by starting-codebook index (survives compaction)
+  // The previous partition's counts and float64 sums by starting-codebook index. A partition with the same counts and
+  // sums in every cell gives the same update again: a fixed point (the shards need not remember their partition).
+  const seenCounts = new Uint32Array(c.k);
+  const seenSums = new Float64Array(c.k * d);
+  const sums = new Float64Array(c.k * d);
   let prev: State | null = null;
   let stop: EcvqStop;
   let kept: State;
@@ -226,20 +254,22 @@ async function runEcvq(vectors: Float32Array, initial: Float32Array, c: Checked,
       throwIfAborted(signal);
       const k = lengths.length;
       const penalties = lengths.map((l) => lambda * l);
-      assignEntropyConstrained(vectors, d, codewords, penalties, indices, errors, t > 0);
-      const counts = new Uint32Array(k);
-      let squared = 0;
-      let bits = 0;
+      const parts = await shards.ecvqPass({ codewords, k, penalties, lengths, origin }, signal);
+      const { usage: counts, total: squared, bits } = foldEcvqPasses(parts, k);
+      const centroids = new Float32Array(k * d);
+      foldCentroids(parts, k, d, centroids, sums);
       let changed = t === 0;
-      for (let v = 0; v < n; v++) {
-        const j = indices[v];
-        counts[j]++;
-        squared += errors[v];
-        bits += lengths[j];
-        if (cellOf[v] !== origin[j]) {
-          changed = true;
-          cellOf[v] = origin[j];
-        }
+      for (let j = 0; j < k && !changed; j++) {
+        if (counts[j] === 0) continue;
+        const o = origin[j];
+        if (seenCounts[o] !== counts[j]) changed = true;
+        for (let i = 0; i < d && !changed; i++) if (seenSums[o * d + i] !== sums[j * d + i]) changed = true;
+      }
+      seenCounts.fill(0);
+      for (let j = 0; j < k; j++) {
+        if (counts[j] === 0) continue;
+        seenCounts[origin[j]] = counts[j];
+        seenSums.set(sums.subarray(j * d, j * d + d), origin[j] * d);
       }
       let used = 0;
       for (let j = 0; j < k; j++) if (counts[j] > 0) used++;
@@ -274,13 +304,12 @@ async function runEcvq(vectors: Float32Array, initial: Float32Array, c: Checked,
         stop = 'max-iterations';
         break;
       }
-      // Update: drop the cells this partition left empty, move each codeword to its cell's centroid, and price each
-      // cell at −log2 of its probability.
-      const remap = new Uint32Array(k);
+      // Update: drop the cells this partition left empty, move each codeword to its cell's centroid (the shards' sums
+      // folded in shard order), and price each cell at −log2 of its probability.
       const keep: number[] = [];
-      for (let j = 0; j < k; j++) if (counts[j] > 0) remap[j] = keep.push(j) - 1;
-      for (let v = 0; v < n; v++) indices[v] = remap[indices[v]];
-      codewords = cellCentroids(vectors, d, indices, keep.length);
+      for (let j = 0; j < k; j++) if (counts[j] > 0) keep.push(j);
+      codewords = new Float32Array(keep.length * d);
+      keep.forEach((j, at) => codewords.set(centroids.subarray(j * d, j * d + d), at * d));
       origin = Uint32Array.from(keep, (j) => origin[j]);
       lengths = Float64Array.from(keep, (j) => -Math.log2(counts[j] / n));
       prev = state;

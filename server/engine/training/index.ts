@@ -15,6 +15,7 @@ import { INIT, INIT_METHODS, RUN_DEFAULTS, SEED } from '../vocabulary';
 
 export type {
   CellMember, SeedChoice, SeedStep, ShardAssignment, ShardExecutor, ShardMove, ShardSplitSums, ShardSums, SplitRequest,
+  EcvqPassRequest, EcvqShardPass, EcvqShards, TreeShards,
   Assignment, InitMethod, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook,
 } from '../core/types';
 export { createRng, type Rng } from '../core/rng';

@@ -1,6 +1,8 @@
+import { EcvqShardState } from '../core/entropy-constrained';
+import { throwIfAborted } from '../core/errors';
 import { seedSteps } from '../core/init';
-import { shardLayout } from '../core/shard-layout';
-import type { ShardExecutor, ShardSums } from '../core/types';
+import { shardEnd, shardLayout, shardStart } from '../core/shard-layout';
+import type { EcvqShards, ShardExecutor, ShardSums } from '../core/types';
 import { SearchCrew } from '../parallel/nearest-search';
 import { ShardState } from './shard-state';
 
@@ -48,5 +50,26 @@ export async function openLocalShards(
       for (const shard of shards) shard.close();
       crew.close();
     },
+  };
+}
+
+/**
+ * Every shard of a training set in this process for entropy-constrained training, one after another on this thread
+ * (the same shard layout as openLocalShards, so the same partials as the job engine's workers compute).
+ */
+export function openLocalEcvqShards(vectors: Float32Array, d: number): EcvqShards {
+  const layout = shardLayout(vectors.length / d);
+  const shards = Array.from({ length: layout.count }, (_, s) => new EcvqShardState(vectors.subarray(shardStart(layout, s) * d, shardEnd(layout, s) * d), d));
+  return {
+    count: layout.count,
+    async ecvqPass(request, signal) {
+      const out = [];
+      for (const shard of shards) {
+        throwIfAborted(signal);
+        out.push(shard.pass(request));
+      }
+      return out;
+    },
+    async close() {},
   };
 }

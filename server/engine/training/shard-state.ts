@@ -1,6 +1,7 @@
 import { cellStatistics } from '../core/accumulate-centroids';
 import { shardEnd, shardStart, type ShardLayout } from '../core/shard-layout';
-import type { CellMember, ShardAssignment, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../core/types';
+import { EcvqShardState } from '../core/entropy-constrained';
+import type { CellMember, EcvqPassRequest, EcvqShardPass, ShardAssignment, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../core/types';
 import { ShardSeeding } from '../core/init';
 import { shardSplitSums } from '../core/split';
 import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
@@ -13,6 +14,8 @@ import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
 export class ShardState {
   /** k-means++ state while a seeding runs (dropped at the first pass). */
   private seed?: { k: number; seeding: ShardSeeding };
+  /** Entropy-constrained passes' search hints, from the first such pass. */
+  private entropy?: EcvqShardState;
 
   private constructor(
     readonly shard: number,
@@ -81,6 +84,12 @@ export class ShardState {
   /** The sums for splitting the cells asked along their directions, on the last pass's partition (core/split.ts). */
   splitSums(request: SplitRequest): ShardSplitSums {
     return shardSplitSums(this.vectors, this.d, this.search.indices, request);
+  }
+
+  /** An entropy-constrained pass of the shard (core ecvqShardPass): its partial of the iteration. */
+  ecvq(request: EcvqPassRequest): EcvqShardPass {
+    this.entropy ??= new EcvqShardState(this.vectors, this.d);
+    return this.entropy.pass(request);
   }
 
   /** Whether a vector of the whole training set is this shard's. */

@@ -1,12 +1,12 @@
 import type { JobProgress } from '../../contracts';
 import {
-  assignEcvq, encodeResidual, encodeTree, MAX_ITERATIONS, parseStages, shardLayout, structureInfo, train, trainEcvq, trainResidual, trainTree,
+  assignEcvq, encodeResidual, encodeTree, greedyTreePlan, MAX_ITERATIONS, parseStages, shardLayout, structureInfo, structuredTrace, train, trainEcvq, trainResidual, trainTree, type TreeOptions,
 } from '../../engine';
 import type { TaskPool } from '../pool';
 import type { ImageMeasurement } from '../../engine';
 import type { BaselineResultPoint, EvaluateTask, TaskImage } from '../tasks/evaluate.task';
 import type { TrainingVectorsInput } from '../tasks/training-vectors.task';
-import type { ShardSpread } from './shard-coordinator';
+import type { ShardSpread, SpreadShards } from './shard-coordinator';
 import type { TrainingSample } from './shard-wire';
 import type { AnomalyTaskResult, DenoiseTaskResult, ModelTask, TaskCalibration } from '../tasks/model.task';
 import type { ComputeTask, ImageRef, ModelComputeTask, TrainedSize, TrainOutcome, TrainTask } from './tasks';
@@ -101,8 +101,8 @@ async function trainTask(task: TrainTask, ctx: ExecuteContext): Promise<TrainOut
     }
     doneWeight += pass.k;
   }
-  if (task.lambdas && task.lambdas.length > 0) codebooks.push(...(await entropyConstrained(task, task.lambdas, vectors, codebooks, ctx)));
-  if (task.structured) codebooks.push(...(await structuredBooks(task, task.structured, vectors, ctx)));
+  if (task.lambdas && task.lambdas.length > 0) codebooks.push(...(await entropyConstrained(task, task.lambdas, vectors, codebooks, ctx, openShards)));
+  if (task.structured) codebooks.push(...(await structuredBooks(task, task.structured, vectors, ctx, openShards)));
   return { vectorCount, codebooks };
 }
 
@@ -129,16 +129,25 @@ async function modelComputeTask(task: ModelComputeTask, ctx: ExecuteContext): Pr
   });
 }
 
+/** Opens a training's shards on the live workers (absent: every shard is computed here); the same bits either way. */
+type OpenSpread = (set: { maxK: number; signal?: AbortSignal }) => Promise<SpreadShards>;
+
 /**
  * One entropy-constrained codebook per λ (engine training/ecvq.ts), each from the largest full-search codebook of the
- * run. Its per-cell errors are those of the encoder it will be coded with (Huffman lengths), on the training vectors.
+ * run, its passes spread over the workers' shards when the run's Lloyd passes are. Its per-cell errors are those of
+ * the encoder it will be coded with (Huffman lengths), on the training vectors.
  */
-async function entropyConstrained(task: TrainTask, lambdas: number[], vectors: Float32Array, full: TrainedSize[], ctx: ExecuteContext): Promise<TrainedSize[]> {
+async function entropyConstrained(
+  task: TrainTask, lambdas: number[], vectors: Float32Array, full: TrainedSize[], ctx: ExecuteContext, openShards?: OpenSpread,
+): Promise<TrainedSize[]> {
   const start = full.reduce((a, b) => (b.size > a.size ? b : a));
   const out: TrainedSize[] = [];
   for (const [i, lambda] of lambdas.entries()) {
     ctx.progress({ phase: 'training', fraction: TRAINED, message: `entropy-constrained codebook ${i + 1} of ${lambdas.length} (λ = ${lambda})` });
-    const r = await trainEcvq(vectors, task.dimension, start.codewords, { lambda, epsilon: task.epsilon, maxIterations: task.maxIterations, signal: ctx.signal });
+    const r = await trainEcvq(vectors, task.dimension, start.codewords, {
+      lambda, epsilon: task.epsilon, maxIterations: task.maxIterations, signal: ctx.signal,
+      openShards: openShards ? ({ signal }) => openShards({ maxK: start.size, signal }) : undefined,
+    });
     const { indices, errors } = assignEcvq(vectors, task.dimension, r.codewords, r.codeLengths, lambda);
     const cellDistortion = new Float64Array(r.size);
     for (let v = 0; v < indices.length; v += 1) cellDistortion[indices[v]] += errors[v];
@@ -161,15 +170,22 @@ async function entropyConstrained(task: TrainTask, lambdas: number[], vectors: F
  * and per-cell errors are those of the codebook's own search on the training vectors: per node reached for a tree
  * (its leaves hold the errors), per table entry for residual stages (the last stage's entry holds a block's error).
  */
-async function structuredBooks(task: TrainTask, plan: NonNullable<TrainTask['structured']>, vectors: Float32Array, ctx: ExecuteContext): Promise<TrainedSize[]> {
+async function structuredBooks(
+  task: TrainTask, plan: NonNullable<TrainTask['structured']>, vectors: Float32Array, ctx: ExecuteContext, openShards?: OpenSpread,
+): Promise<TrainedSize[]> {
   const d = task.dimension;
   const out: TrainedSize[] = [];
   for (const [i, b] of plan.bits.entries()) {
     const fraction = LOADED + ((TRAINED - LOADED) * i) / plan.bits.length;
     const lloyd = { seed: task.seed, epsilon: task.epsilon, maxIterations: task.maxIterations, signal: ctx.signal };
     if (plan.kind === 'tree') {
-      ctx.progress({ phase: 'training', fraction, message: `tree of depth ${b} (${i + 1} of ${plan.bits.length})` });
-      const r = await trainTree(vectors, d, { growth: { kind: 'balanced', depth: b }, ...lloyd });
+      const greedy = plan.growth === 'greedy' ? greedyTreePlan(b) : null;
+      ctx.progress({ phase: 'training', fraction, message: `${greedy ? `greedy tree pruned to ${b} bits` : `tree of depth ${b}`} (${i + 1} of ${plan.bits.length})` });
+      const shape: Pick<TreeOptions, 'growth' | 'prune'> = greedy
+        ? { growth: { kind: 'greedy', leaves: greedy.leaves, rate: greedy.growRate }, prune: { rate: greedy.pruneRate } }
+        : { growth: { kind: 'balanced', depth: b } };
+      // Every node's 2-means over the workers' shards when the run's passes are spread (the same tree either way).
+      const r = await trainTree(vectors, d, { ...shape, ...lloyd, openShards: openShards ? ({ signal }) => openShards({ maxK: 2, signal }) : undefined });
       const codes = encodeTree(r.codewords, r.structure, vectors, d);
       const cellDistortion = new Float64Array(r.usage.length);
       for (let v = 0; v < codes.leaves.length; v += 1) cellDistortion[codes.leaves[v]] += codes.distances[v];
@@ -177,7 +193,8 @@ async function structuredBooks(task: TrainTask, plan: NonNullable<TrainTask['str
         size: r.usage.length, codewords: r.codewords, usage: r.usage, cellDistortion, distortion: r.treeDistortion,
         // The sum over every node's 2-means, capped at what the codebook format records.
         iterations: Math.min(r.iterations, MAX_ITERATIONS),
-        trace: r.growth.map((g) => ({ size: g.leaves, iteration: 0, distortion: g.distortion, emptyRepaired: 0, elapsedMs: 0 })),
+        // The growth, then the pruning sequence, as the command line records a tree's (one rule for the cap).
+        trace: structuredTrace([...r.growth, ...(r.pruning ?? []).slice(1)].map((g) => ({ size: g.leaves, distortion: g.distortion })), r.usage.length, task.maxIterations),
         structure: structureInfo(r.structure) as TrainedSize['structure'],
       });
       continue;

@@ -1,11 +1,13 @@
 import { randomUUID } from 'node:crypto';
 import { Redis } from 'ioredis';
 import type { Logger } from '../../config';
-import { shardLayout, type CellMember, type SeedChoice, type SeedStep, type ShardAssignment, type ShardExecutor, type ShardSplitSums, type ShardSums } from '../../engine';
+import {
+  shardLayout, type CellMember, type EcvqShardPass, type EcvqShards, type SeedChoice, type SeedStep, type ShardAssignment, type ShardExecutor, type ShardSplitSums, type ShardSums, type TreeShards,
+} from '../../engine';
 import { computeKeys } from './keys';
 import { borrowSample } from './sample-cache';
 import { fromWire, toWire } from './tasks';
-import { sampleKey, type ShardMessage, type ShardOp, type ShardReply, type ShardSession, type ShardValue, type TrainingSample } from './shard-wire';
+import { sampleKey, type ShardMessage, type ShardOp, type ShardReply, type ShardSession, type ShardValue, type TrainingSample, type TreeCommit } from './shard-wire';
 
 export interface ShardSpreadOptions {
   redisUrl: string;
@@ -31,11 +33,15 @@ export interface ShardSpread {
   liveWorkers(): Promise<number>;
   /**
    * A training pass's shards spread over the live workers' shard hosts (see createShardHost). `vectors` is the
-   * coordinator's own draw of the sample, lent to this process's host.
+   * coordinator's own draw of the sample, lent to this process's host. One session serves one training: Lloyd
+   * passes, entropy-constrained passes, or a tree's growth.
    */
-  open(input: { jobId: number; teamId: number; sample: TrainingSample; vectors: Float32Array; maxK: number; signal?: AbortSignal }): Promise<ShardExecutor>;
+  open(input: { jobId: number; teamId: number; sample: TrainingSample; vectors: Float32Array; maxK: number; signal?: AbortSignal }): Promise<SpreadShards>;
   close(): void;
 }
+
+/** The shards of one session, as the Lloyd engine, entropy-constrained training and tree growth ask them. */
+export type SpreadShards = ShardExecutor & EcvqShards & TreeShards;
 
 /**
  * The coordinator's side of data-parallel training. Shards go to the live workers in contiguous groups; each
@@ -91,11 +97,18 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
       for (let s = 0; s < layout.count; s++) owner.push(workers[Math.floor((s * workers.length) / layout.count)]);
       for (const w of new Set(owner)) await grant(w);
 
+      // Tree growth: every split committed so far, the last node pass, and the shards whose host is known to hold
+      // the tree as it stands (a shard given to another host is primed with the splits until it answers).
+      const treeLog: TreeCommit[] = [];
+      let treePass: { seq: number; node: number; k: number; codewords: Float32Array } | undefined;
+      const treeSynced = new Set<number>(Array.from({ length: layout.count }, (_, s) => s));
+
       const send = async (shards: number[], op: ShardOp, m: number) => {
         const byHost = new Map<string, number[]>();
         for (const s of shards) byHost.set(owner[s], [...(byHost.get(owner[s]) ?? []), s]);
         for (const [host, list] of byHost) {
           const message: ShardMessage = { sessionId, seq: m, shards: list, prime: op.op === 'assign' ? undefined : last, op };
+          if (op.op.startsWith('tree') && list.some((s) => !treeSynced.has(s))) message.treePrime = { commits: treeLog, pass: treePass };
           await r.rpush(keys.shardInbox(host), toWire(message));
         }
       };
@@ -114,6 +127,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
         const moved: number[] = [];
         for (let s = 0; s < owner.length; s++) {
           if (!dead.includes(owner[s])) continue;
+          treeSynced.delete(s);
           const load = (w: string) => owner.filter((o) => o === w).length;
           const to = workers.reduce((best, w) => (load(w) < load(best) ? w : best), workers[0]);
           owner[s] = to;
@@ -139,6 +153,7 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
             if (reply.seq !== m || !pending.has(reply.shard)) continue;
             if (reply.error !== undefined) throw new Error(`shard ${reply.shard}: ${reply.error}`);
             pending.delete(reply.shard);
+            if (op.op.startsWith('tree')) treeSynced.add(reply.shard);
             out.set(reply.shard, reply.value!);
           }
           if (Date.now() - checked >= LIVENESS_CHECK_MS) {
@@ -238,6 +253,32 @@ export function createShardSpread(options: ShardSpreadOptions): ShardSpread {
         async splitSums(split, signal) {
           const values = await request(all, { op: 'splitSums', request: split }, signal);
           return all.map((s) => values.get(s) as ShardSplitSums);
+        },
+        async ecvqPass(pass, signal) {
+          const values = await request(all, { op: 'ecvq', request: pass }, signal);
+          return all.map((s) => values.get(s) as EcvqShardPass);
+        },
+        async nodeAssign(node, codewords, k, signal) {
+          const cw = codewords.slice(0, k * input.sample.dimension);
+          const values = await request(all, { op: 'treeAssign', node, k, codewords: cw }, signal);
+          treePass = { seq, node, k, codewords: cw };
+          return all.map((s) => values.get(s) as ShardAssignment);
+        },
+        async nodeMembers(node, cell, asks, signal) {
+          const values = await request(asks.map((a) => a.shard), { op: 'treeMembers', node, cell, asks: [...asks] }, signal);
+          return asks.map((a) => values.get(a.shard) as CellMember[]);
+        },
+        async nodeMove(node, moves, k, signal) {
+          const touched = all.filter((s) => moves.some((mv) => mv.index >= s * layout.size && mv.index < Math.min(n, (s + 1) * layout.size)));
+          const values = await request(touched, { op: 'treeMove', node, k, moves: [...moves] }, signal);
+          return new Map(touched.map((s) => [s, values.get(s) as ShardSums]));
+        },
+        async commitSplit(node, codewords, left, right, signal) {
+          const split: TreeCommit = { node, codewords: codewords.slice(), left, right };
+          const values = await request(all, { op: 'treeCommit', split }, signal);
+          treeLog.push(split);
+          treePass = undefined;
+          return all.map((s) => values.get(s) as [Float32Array, Float32Array]);
         },
         async close() {
           input.signal?.removeEventListener('abort', onAbort);

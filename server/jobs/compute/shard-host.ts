@@ -1,6 +1,6 @@
 import { Redis } from 'ioredis';
 import type { Logger } from '../../config';
-import { SearchCrew, ShardState, distancesToNewest, shardLayout, type CellMember, type ShardLayout } from '../../engine';
+import { SearchCrew, ShardState, TreeShardState, distancesToNewest, shardLayout, type CellMember, type ShardLayout } from '../../engine';
 import { computeKeys } from './keys';
 import { borrowSample } from './sample-cache';
 import { fromWire, toWire } from './tasks';
@@ -30,6 +30,8 @@ interface HostedSession {
   passOf: Map<number, number>;
   controller: AbortController;
   lastUse: number;
+  /** Tree growth: each shard's tree here, the splits applied to it, and the sequence number of its last node pass. */
+  trees: Map<number, { state: TreeShardState; commits: number; passSeq?: number }>;
   /** A k-means++ seeding in progress: its codewords so far (K × d; `known` of them) and the newest one's distances to the earlier. */
   seed?: { k: number; codewords: Float32Array; known: number; fromNewest: Float64Array };
 }
@@ -89,7 +91,7 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
     }
     crew ??= await SearchCrew.open(undefined, controller.signal);
     const hosted: HostedSession = {
-      session, layout: shardLayout(n), vectors, release: borrowed.release, shards: new Map(), passOf: new Map(), controller, lastUse: Date.now(),
+      session, layout: shardLayout(n), vectors, release: borrowed.release, shards: new Map(), passOf: new Map(), trees: new Map(), controller, lastUse: Date.now(),
     };
     sessions.set(sessionId, hosted);
     logger.info({ sessionId, jobId: session.jobId, vectors: n, shards: hosted.layout.count }, 'hosting shards');
@@ -151,6 +153,48 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
     }
   }
 
+  /**
+   * Shard s's tree as the coordinator's splits left it: a fresh one (the root) at first; rebuilt from every split
+   * when the message primes it and this copy has applied another number of them (taken over, or lost and given
+   * back); its node's last pass repeated when primed with one this copy has not made.
+   */
+  function treeOf(hosted: HostedSession, s: number, message: ShardMessage): TreeShardState {
+    const d = hosted.session.sample.dimension;
+    let tree = hosted.trees.get(s);
+    const prime = message.treePrime;
+    if (!tree || (prime && tree.commits !== prime.commits.length)) {
+      tree = { state: TreeShardState.of(hosted.vectors, d, hosted.layout, s), commits: 0 };
+      for (const c of prime?.commits ?? []) tree.state.commit(c.node, c.codewords, c.left, c.right);
+      tree.commits = prime?.commits.length ?? 0;
+      hosted.trees.set(s, tree);
+    }
+    const pass = prime?.pass;
+    if (pass && tree.passSeq !== pass.seq && (message.op.op === 'treeMembers' || message.op.op === 'treeMove')) {
+      tree.state.assign(pass.node, pass.codewords, pass.k);
+      tree.passSeq = pass.seq;
+    }
+    return tree.state;
+  }
+
+  /** A tree op for one shard (engine structures/tree-shards.ts). */
+  function treeValue(hosted: HostedSession, shard: number, message: ShardMessage): ShardValue {
+    const state = treeOf(hosted, shard, message);
+    const { op } = message;
+    if (op.op === 'treeAssign') {
+      hosted.trees.get(shard)!.passSeq = message.seq;
+      return state.assign(op.node, op.codewords, op.k);
+    }
+    if (op.op === 'treeMembers') {
+      const ask = op.asks.find((a) => a.shard === shard)!;
+      return state.members(op.node, op.cell, ask.skip, ask.take);
+    }
+    if (op.op === 'treeMove') return state.move(op.node, op.moves, op.k);
+    if (op.op !== 'treeCommit') throw new Error(`${op.op} is not a tree op`);
+    const rows = state.commit(op.split.node, op.split.codewords, op.split.left, op.split.right);
+    hosted.trees.get(shard)!.commits++;
+    return rows;
+  }
+
   async function answer(message: ShardMessage): Promise<void> {
     const { op } = message;
     if (op.op === 'close') {
@@ -181,6 +225,10 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
     if (op.op === 'assign') hosted.seed = undefined;
     for (const shard of message.shards) {
       try {
+        if (op.op.startsWith('tree')) {
+          await reply({ seq: message.seq, shard, value: treeValue(hosted, shard, message) });
+          continue;
+        }
         const state = await shardOf(hosted, shard, op.op === 'assign' ? undefined : message.prime);
         let value: ShardValue;
         if (op.op === 'assign') {
@@ -189,10 +237,11 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
         }
         else if (op.op === 'move') value = await state.move(op.moves, op.k, signal);
         else if (op.op === 'splitSums') value = state.splitSums(op.request);
-        else {
+        else if (op.op === 'ecvq') value = state.ecvq(op.request);
+        else if (op.op === 'members') {
           const ask = op.asks.find((a) => a.shard === shard)!;
           value = state.members(op.cell, ask.skip, ask.take) satisfies CellMember[];
-        }
+        } else throw new Error(`${op.op} is not a shard op`);
         await reply({ seq: message.seq, shard, value });
       } catch (err) {
         // Cancelled or stopping: the coordinator knows, or will hand the shard to another host.

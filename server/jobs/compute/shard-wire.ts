@@ -1,5 +1,5 @@
 import { createHash } from 'node:crypto';
-import type { CellMember, ShardAssignment, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../../engine';
+import type { CellMember, EcvqPassRequest, EcvqShardPass, ShardAssignment, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from '../../engine';
 import type { ColorMode } from '../../engine';
 import type { ImageRef } from './tasks';
 
@@ -50,7 +50,22 @@ export type ShardOp =
   | { op: 'seed'; k: number; c: number; index?: number; pick?: { shard: number; residual: number } }
   /** The sums an LBG split along principal directions needs (engine core/split.ts), on the last pass's partition. */
   | { op: 'splitSums'; request: SplitRequest }
+  /** An entropy-constrained pass (engine ecvqShardPass). */
+  | { op: 'ecvq'; request: EcvqPassRequest }
+  /** Tree growth (engine structures/tree-shards.ts): a node's 2-means pass, its repair asks and moves, and a committed split. */
+  | { op: 'treeAssign'; node: number; k: number; codewords: Float32Array }
+  | { op: 'treeMembers'; node: number; cell: number; asks: { shard: number; skip: number; take: number }[] }
+  | { op: 'treeMove'; node: number; k: number; moves: ShardMove[] }
+  | { op: 'treeCommit'; split: TreeCommit }
   | { op: 'close' };
+
+/** A split committed to the tree's shards: node's vectors go to left or right by the nearer of codewords (2 × d). */
+export interface TreeCommit {
+  node: number;
+  codewords: Float32Array;
+  left: number;
+  right: number;
+}
 
 export interface ShardMessage {
   sessionId: string;
@@ -64,11 +79,19 @@ export interface ShardMessage {
   prime?: { seq: number; k: number; codewords: Float32Array };
   /** For a seed step sent to a host that may lack earlier codewords: the indices of codewords 0 … c − 1. */
   seedPrime?: number[];
+  /**
+   * For a tree op sent to a host that may not hold the shards' tree as it stands (it took them over): every split
+   * committed so far, to apply to a fresh copy first; and the node's last pass, to repeat before members or moves.
+   */
+  treePrime?: { commits: TreeCommit[]; pass?: { seq: number; node: number; k: number; codewords: Float32Array } };
   op: ShardOp;
 }
 
-/** A pass's partial, a cell's members, a move's sums, a split's sums, or (seed) the shard's D² total. */
-export type ShardValue = ShardAssignment | CellMember[] | ShardSums | ShardSplitSums | number;
+/**
+ * A pass's partial, a cell's members, a move's sums, a split's sums, (seed) the shard's D² total, an
+ * entropy-constrained pass, or (treeCommit) up to two distinct vectors of each side.
+ */
+export type ShardValue = ShardAssignment | CellMember[] | ShardSums | ShardSplitSums | number | EcvqShardPass | [Float32Array, Float32Array];
 
 export interface ShardReply {
   seq: number;

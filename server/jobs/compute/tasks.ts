@@ -1,5 +1,5 @@
 import type { ColorMode, IterationStat, StructureInfo } from '../../engine';
-import type { InitMethod } from '../../engine/vocabulary';
+import type { InitMethod, TreeGrowthKind } from '../../engine/vocabulary';
 import type { ImageMeasurement } from '../../engine';
 import type { BaselineResultPoint, TaskCodebook } from '../tasks/evaluate.task';
 import type { AnomalyTaskResult, DenoiseTaskResult } from '../tasks/model.task';
@@ -43,7 +43,7 @@ export interface TrainTask {
    * Tree or residual codebooks instead of the passes (which are then empty), one per b: a tree balanced to depth b, or
    * `stages` residual stages sharing b bits (vocabulary parseStages), searched keeping `mBest` candidates (null: greedy).
    */
-  structured?: { kind: 'tree'; bits: number[] } | { kind: 'residual'; bits: number[]; stages: number; mBest: number | null; refinementPasses: number };
+  structured?: { kind: 'tree'; bits: number[]; growth?: TreeGrowthKind } | { kind: 'residual'; bits: number[]; stages: number; mBest: number | null; refinementPasses: number };
 }
 
 export interface TrainedSize {

@@ -1,7 +1,7 @@
 import { z } from 'zod';
 import {
-  COLOR_MODES, createRunBody, initMethodSchema, parseLambdaList, RESIDUAL_DEFAULT_STAGES, RUN_DEFAULTS, RUN_STRUCTURES, SETTING_LABELS, type ColorMode, type CreateRunBody, type InitMethod,
-  type RunStructure,
+  COLOR_MODES, createRunBody, initMethodSchema, parseLambdaList, RESIDUAL_DEFAULT_STAGES, RUN_DEFAULTS, RUN_STRUCTURES, SETTING_LABELS, TREE_GROWTHS, type ColorMode, type CreateRunBody, type InitMethod,
+  type RunStructure, type TreeGrowthKind,
 } from '../../../server/contracts';
 import { planRun, type ImageCatalog, type PlanInput } from './run-plan';
 
@@ -32,6 +32,8 @@ export type RunFormValues = {
   lambdas: string;
   /** What the run trains per b: full search, a tree balanced to depth b, or residual stages sharing b. */
   structure: RunStructure;
+  /** Tree: balanced to depth b, or greedy and pruned to a mean path of b bits. */
+  growth: TreeGrowthKind;
   /** Residual: stages S; M of the M-best search (1 is greedy); joint refinement passes. */
   stages: number;
   mBest: number;
@@ -68,6 +70,7 @@ export const emptyRunForm: RunFormValues = {
   seed: RUN_DEFAULTS.seed,
   lambdas: '',
   structure: 'full',
+  growth: 'balanced',
   stages: RESIDUAL_DEFAULT_STAGES,
   mBest: 1,
   refinementPasses: 0,
@@ -96,6 +99,8 @@ export function toRunBody(v: RunFormValues): Record<string, unknown> {
       return parsed && 'values' in parsed ? { lambdas: parsed.values } : {};
     })(),
     ...(v.structure === 'full' ? {} : { structure: v.structure }),
+    // Balanced is the server's default growth: the body leaves it out, as it does M = 1.
+    ...(v.structure === 'tree' && v.growth !== 'balanced' ? { growth: v.growth } : {}),
     ...(v.structure === 'residual'
       ? { stages: v.stages, ...(v.mBest > 1 ? { mBest: v.mBest } : {}), ...(v.refinementPasses > 0 ? { refinementPasses: v.refinementPasses } : {}) }
       : {}),
@@ -130,6 +135,7 @@ export function fromRunConfig(config: CreateRunBody, name: string): RunFormValue
     seed: config.seed ?? RUN_DEFAULTS.seed,
     lambdas: config.lambdas?.join(',') ?? '',
     structure: config.structure ?? 'full',
+    growth: config.growth ?? 'balanced',
     stages: config.stages ?? RESIDUAL_DEFAULT_STAGES,
     mBest: config.mBest ?? 1,
     refinementPasses: config.refinementPasses ?? 0,
@@ -164,6 +170,7 @@ const labels: Record<string, string> = {
   maxVectors: 'Vector cap',
   seed: 'Seed',
   lambdas: 'λ list',
+  growth: 'Growth',
   stages: 'Stages',
   mBest: 'M (M-best search)',
   refinementPasses: 'Refinement passes',
@@ -231,6 +238,7 @@ const formFields = z.object({
   seed: num('the seed'),
   lambdas: z.string(),
   structure: z.enum(RUN_STRUCTURES),
+  growth: z.enum(TREE_GROWTHS),
   stages: num('the stages'),
   mBest: num('M'),
   refinementPasses: num('the refinement passes'),

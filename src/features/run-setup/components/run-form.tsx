@@ -2,7 +2,7 @@ import { zodResolver } from '@hookform/resolvers/zod';
 import { useMemo, useRef, type ReactNode } from 'react';
 import { useForm, type Resolver } from 'react-hook-form';
 import {
-  EPSILON, LAMBDA, M_BEST, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, SETTING_LABELS, STAGES, STRIDE,
+  EPSILON, LAMBDA, M_BEST, MAX_LAMBDAS, INIT_HINTS, INIT_LABELS, INIT_METHODS, REFINEMENT_PASSES, RESIDUAL_DEFAULT_STAGES, RUN_STRUCTURE_LABELS, RUN_STRUCTURES, SETTING_LABELS, STAGES, STRIDE, TREE_GROWTH_LABELS, TREE_GROWTHS,
   type CreateRunBody, type ImageSet, type RunDetail,
 } from '../../../../server/contracts';
 import { isApiError, messageOf } from '../../../lib/api-client';
@@ -191,6 +191,8 @@ export function RunForm({
               // The planner's residual rows are RESIDUAL_DEFAULT_STAGES stages sharing b; mean removal is a full-search row's.
               form.setValue('structure', row.structure === 'tree' || row.structure === 'residual' ? row.structure : 'full', validate);
               if (row.structure === 'residual') form.setValue('stages', RESIDUAL_DEFAULT_STAGES, validate);
+              // The planner's tree rows are balanced trees.
+              if (row.structure === 'tree') form.setValue('growth', 'balanced', validate);
             }}
           />
         </Section>
@@ -268,6 +270,15 @@ export function RunForm({
               </option>
             ))}
           </SelectField>
+          {values.structure === 'tree' && (
+            <SelectField label="Growth" error={errors.growth?.message} {...form.register('growth')}>
+              {TREE_GROWTHS.map((g) => (
+                <option key={g} value={g}>
+                  {TREE_GROWTH_LABELS[g]}
+                </option>
+              ))}
+            </SelectField>
+          )}
           {values.structure === 'residual' && (
             <div className="grid gap-4 sm:grid-cols-3">
               {numberField('stages', 'Stages', `${STAGES.min}..${STAGES.max}, sharing b bits (earlier stages take the extra bit).`)}
@@ -277,6 +288,7 @@ export function RunForm({
           )}
           <StructureSummary
             structure={values.structure}
+            growth={values.growth}
             bits={values.bitsMode === 'single' ? values.bits : values.bitsTo}
             stages={values.stages}
             mBest={values.mBest}

@@ -1,10 +1,10 @@
-import { INIT_LABELS, RUN_STRUCTURE_LABELS, SETTING_LABELS, type RunDetail } from '../../../../server/contracts';
+import { INIT_LABELS, RUN_STRUCTURE_LABELS, SETTING_LABELS, TREE_GROWTH_LABELS, type RunDetail } from '../../../../server/contracts';
 
 /** What the run trains per b, in words: its structure and, for residual stages, their search. */
 export function structureText(n: RunDetail['normalized']): string {
   const s = n.structure;
   if (!s) return n.lambdas ? `${RUN_STRUCTURE_LABELS.full}, and entropy-constrained at λ = ${n.lambdas.join(', ')}` : RUN_STRUCTURE_LABELS.full;
-  if (s.kind === 'tree') return `${RUN_STRUCTURE_LABELS.tree}, balanced to depth b`;
+  if (s.kind === 'tree') return `${RUN_STRUCTURE_LABELS.tree}, ${TREE_GROWTH_LABELS[s.growth ?? 'balanced'].toLowerCase()}`;
   const search = s.mBest === null ? 'greedy search' : `M-best search, M = ${s.mBest}`;
   return `${RUN_STRUCTURE_LABELS.residual}: ${s.stages} stages sharing b, ${search}${s.refinementPasses > 0 ? `, ${s.refinementPasses} refinement passes` : ''}`;
 }

@@ -476,3 +476,338 @@ export function finishRows(
   }
   return redecided;
 }
+
+
+// ===========================================================================================
+// Encoding search: one pass over an image's blocks, nothing kept between passes. Separate
+// from the training kernel above (it shares no function with it), so either can change alone.
+//
+// Every vector x (a block: h rows of wc = w·channels components) is rotated by the
+// orthonormal two-dimensional DCT-II, Q = C_h ⊗ C_w ⊗ I_channels, whose first coefficients
+// hold most of a natural image block's energy (common practice in transform coding); the
+// coefficients are stored in the codebook's order of decreasing variance, DC first. The
+// codewords are rotated likewise (z_j = Q c_j), sorted by their DC coefficient. A rotation
+// keeps distances, so the nearest codeword can be sought among the z_j, and a partial sum over
+// the leading coefficients already bounds most of a distance.
+//
+// Layouts (byte offsets into linear memory):
+//   xo     n × d f32, the block vectors as given (component order of io/patches.ts)
+//   cmat   h × h f32: C_h, row v holding the v-th basis vector
+//   rmat   wc × wcp f32: (C_w ⊗ I_channels) transposed, each row zero-padded to wcp
+//   ord    d i32: for coefficient l (in stored order), its index v·wcp + o in the rotated rows
+//   pad    h × wcp f32, tmp h × wcp f32, rot h × wcp f32, xr max(dp, 8) f32: scratch of one vector
+//   z      k × dp f32: the rotated codewords by sorted position, zero-padded to dp
+//   lead   k f32: each sorted position's leading coefficient (the sort key)
+//   zt     ⌈k/4⌉ groups × 8 × 4 f32: the first 8 coefficients of four positions, lane-wise
+//   ztrest ⌈k/4⌉ × 4 f32: ‖z_j‖ over the coefficients after the first 8, lane-wise
+//   c      k × d f32: the codewords as given, by index (for exact distances)
+//   perm   k i32: the codeword index at each sorted position
+//   cand   k × 8 bytes scratch: (position, float32 distance) of the candidates kept
+//   pend   n × 8 bytes scratch: (vector, index) of the vectors with a single finalist
+//   idx    n u32 output, dist n f64 output (exactDistance's bits)
+//
+// Exactness. The answer is the index of the smallest exact distance D̃ = Σ (x_i − c_i)² (in
+// order, float64), ties to the lowest index; D is the true real distance. Let ŷ and ẑ_j be
+// the stored float32 coefficients and S_j = ‖ŷ − ẑ_j‖² (real). Then
+//   (a) |√S_j − √D_j| ≤ ρ = η·(‖x‖ + max‖c‖): ‖ŷ − Qx‖ ≤ η‖x‖, ‖ẑ_j − Qc_j‖ ≤ η‖c_j‖ and
+//       ‖Q(x − c_j)‖ = √D_j (triangle inequality). η (rotationErrorBound in encode-kernel.ts)
+//       bounds the float32 dot products of the two stages and the rounding of the matrices.
+//   (b) a float32 sum S32 of squared coefficient differences satisfies |S32 − S| ≤ γ·S + A
+//       for its non-negative terms, γ = m·u/(1 − m·u), u = 2^-24, m = dp + 10 roundings per
+//       term at most (difference, square, the additions of any of the orders used here), and
+//       A = 1e-30 for every absolute (subnormal) rounding; a partial sum over some of the
+//       coefficients is at most (1 + γ)·S + A, because every term is ≥ 0.
+//   (c) splitting the coefficients into the first 8 (L) and the rest (T): S = S_L + S_T with
+//       S_T ≥ (‖ŷ_T‖ − ‖ẑ_T‖)² (triangle inequality); the norms are compared in float32 after
+//       shrinking their gap by ε, which covers their rounding. And (ŷ_0 − ẑ_0)² ≤ S.
+// With B32 the smallest S32 seen so far (codeword b), √D_b ≤ U = √((B32 + A)/(1 − γ)) + ρ.
+// A codeword j is dropped only when S_j is proven > R² with R = U·(1 + 1e-9) + ρ: then
+// √D_j > U·(1 + 1e-9) ≥ √D_b·(1 + 1e-9) and, float64 sums of d + 2 roundings being within a
+// relative 1e-13 of D, D̃_j > D̃_b: j is neither the nearest nor tied with it. The tests:
+// the filter S_L + (c)'s term, four codewords at a time, and the partial sums of the full
+// float32 distance (partial distance elimination), each against T32 = (1 + γ)·R² + A; and,
+// to stop the scan, the leading gap (ŷ_0 − ẑ_0)² against R²: the codewords are sorted by ẑ_0,
+// so it only grows along each side, and R only shrinks. The nearest codeword and every
+// codeword tied with it are never dropped; the finalists (S32 ≤ T32 at the end) are compared
+// by exact distance, ties to the lowest index. Vectors whose norms could overflow float32
+// (or are not finite) take an exhaustive exact search.
+// ===========================================================================================
+
+const ENC_A: f64 = 1e-30;
+/** Leading coefficients of the first filter (xr and z rows hold at least this many, zero-padded). */
+const ENC_LEAD = 8;
+
+/** Float32 squared distance of two dp-rows (dp a multiple of 4); stops early above limit. */
+// @ts-ignore: decorator
+@inline
+function encDistance32(x: usize, c: usize, rowBytes: usize, limit: f64): f64 {
+  let a0 = f32x4.splat(0), a1 = f32x4.splat(0), a2 = f32x4.splat(0), a3 = f32x4.splat(0);
+  let o: usize = 0;
+  while (o + 64 <= rowBytes) {
+    const t0 = f32x4.sub(v128.load(x + o), v128.load(c + o));
+    const t1 = f32x4.sub(v128.load(x + o, 16), v128.load(c + o, 16));
+    const t2 = f32x4.sub(v128.load(x + o, 32), v128.load(c + o, 32));
+    const t3 = f32x4.sub(v128.load(x + o, 48), v128.load(c + o, 48));
+    a0 = f32x4.add(a0, f32x4.mul(t0, t0));
+    a1 = f32x4.add(a1, f32x4.mul(t1, t1));
+    a2 = f32x4.add(a2, f32x4.mul(t2, t2));
+    a3 = f32x4.add(a3, f32x4.mul(t3, t3));
+    o += 64;
+    const s = f32x4.add(f32x4.add(a0, a1), f32x4.add(a2, a3));
+    const p = <f64>((f32x4.extract_lane(s, 0) + f32x4.extract_lane(s, 1)) + (f32x4.extract_lane(s, 2) + f32x4.extract_lane(s, 3)));
+    if (p > limit) return p;
+  }
+  while (o < rowBytes) {
+    const t0 = f32x4.sub(v128.load(x + o), v128.load(c + o));
+    a0 = f32x4.add(a0, f32x4.mul(t0, t0));
+    o += 16;
+  }
+  const s = f32x4.add(f32x4.add(a0, a1), f32x4.add(a2, a3));
+  return <f64>((f32x4.extract_lane(s, 0) + f32x4.extract_lane(s, 1)) + (f32x4.extract_lane(s, 2) + f32x4.extract_lane(s, 3)));
+}
+
+/** exactDistance: Σ (x_i − c_i)² over i = 0..d−1 in this order, float64. */
+// @ts-ignore: decorator
+@inline
+function encExact(x: usize, c: usize, d: i32): f64 {
+  let s: f64 = 0;
+  for (let i = 0; i < d; i++) {
+    const t = <f64>load<f32>(x + <usize>i * 4) - <f64>load<f32>(c + <usize>i * 4);
+    s += t * t;
+  }
+  return s;
+}
+
+/** Rotates one vector (xo, d components) into xr (dp coefficients in stored order). */
+// @ts-ignore: decorator
+@inline
+function encRotate(
+  xo: usize, h: i32, wc: i32, wcp: i32, d: i32, dp: i32,
+  cmatPtr: usize, rmatPtr: usize, ordPtr: usize, padPtr: usize, tmpPtr: usize, rotPtr: usize, xr: usize,
+): void {
+  for (let r = 0; r < h; r++) {
+    for (let j = 0; j < wc; j++) store<f32>(padPtr + (<usize>(r * wcp + j)) * 4, load<f32>(xo + (<usize>(r * wc + j)) * 4));
+    for (let j = wc; j < wcp; j++) store<f32>(padPtr + (<usize>(r * wcp + j)) * 4, 0);
+  }
+  // Vertical stage: tmp row v = Σ_r C_h[v][r] · pad row r, four components at a time.
+  for (let v = 0; v < h; v++) {
+    for (let q = 0; q < wcp; q += 4) {
+      let acc = f32x4.splat(0);
+      for (let r = 0; r < h; r++) {
+        acc = f32x4.add(acc, f32x4.mul(v128.load32_splat(cmatPtr + (<usize>(v * h + r)) * 4), v128.load(padPtr + (<usize>(r * wcp + q)) * 4)));
+      }
+      v128.store(tmpPtr + (<usize>(v * wcp + q)) * 4, acc);
+    }
+  }
+  // Horizontal stage: rot row v = (C_w ⊗ I) · tmp row v, four outputs at a time.
+  for (let v = 0; v < h; v++) {
+    const t = tmpPtr + <usize>(v * wcp) * 4;
+    for (let q = 0; q < wcp; q += 4) {
+      let acc = f32x4.splat(0);
+      for (let j = 0; j < wc; j++) {
+        acc = f32x4.add(acc, f32x4.mul(v128.load32_splat(t + <usize>j * 4), v128.load(rmatPtr + (<usize>(j * wcp + q)) * 4)));
+      }
+      v128.store(rotPtr + (<usize>(v * wcp + q)) * 4, acc);
+    }
+  }
+  for (let l = 0; l < d; l++) store<f32>(xr + <usize>l * 4, load<f32>(rotPtr + <usize>load<i32>(ordPtr + <usize>l * 4) * 4));
+  for (let l = d; l < max(dp, ENC_LEAD); l++) store<f32>(xr + <usize>l * 4, 0);
+}
+
+/**
+ * Nearest codeword of n block vectors for encoding (see the section comment for why every
+ * dropped codeword is provably not the answer). Writes idx and dist; returns how many
+ * vectors compared more than one finalist exactly.
+ */
+export function encodeRows(
+  xoPtr: usize, n: i32, d: i32, dp: i32, h: i32, wc: i32, wcp: i32,
+  cmatPtr: usize, rmatPtr: usize, ordPtr: usize, padPtr: usize, tmpPtr: usize, rotPtr: usize, xr: usize,
+  zPtr: usize, leadPtr: usize, ztPtr: usize, ztRestPtr: usize,
+  cPtr: usize, permPtr: usize, k: i32, maxNorm: f64, eta: f64,
+  candPtr: usize, pendPtr: usize, idxPtr: usize, distPtr: usize,
+): i32 {
+  const rowBytes = <usize>dp * 4;
+  const m = <f64>(dp + 10);
+  const gamma = (m * U32) / (1 - m * U32);
+  const groups = (k + 3) >> 2;
+  const groupBytes: usize = ENC_LEAD * 16;
+  let prev = -1;
+  let pending = 0;
+  let multi = 0;
+  for (let v = 0; v < n; v++) {
+    const xo = xoPtr + <usize>v * <usize>d * 4;
+    let ss: f64 = 0;
+    for (let i = 0; i < d; i++) {
+      const t = <f64>load<f32>(xo + <usize>i * 4);
+      ss += t * t;
+    }
+    const xn = Math.sqrt(ss);
+    if (!((xn + maxNorm) * (xn + maxNorm) < 1e30)) {
+      // Exhaustive exact search: overflow-prone or non-finite input.
+      let bd: f64 = Infinity;
+      let bj: i32 = -1;
+      for (let j = 0; j < k; j++) {
+        const dj = encExact(xo, cPtr + <usize>j * <usize>d * 4, d);
+        if (bj < 0 || dj < bd) { bd = dj; bj = j; }
+      }
+      store<u32>(idxPtr + <usize>v * 4, <u32>bj);
+      store<f64>(distPtr + <usize>v * 8, bd);
+      prev = -1;
+      continue;
+    }
+    encRotate(xo, h, wc, wcp, d, dp, cmatPtr, rmatPtr, ordPtr, padPtr, tmpPtr, rotPtr, xr);
+    const y0 = <f64>load<f32>(xr);
+    let rs: f64 = 0;
+    for (let l = ENC_LEAD; l < d; l++) {
+      const t = <f64>load<f32>(xr + <usize>l * 4);
+      rs += t * t;
+    }
+    const rho = eta * (xn + maxNorm) * (1 + 1e-9);
+    // The rest norms are compared in float32: ε covers their float32 rounding (relative u of a
+    // norm at most ‖x‖ or max‖c‖ times 1 + η) and the float64 sums before it.
+    const eps = <f32>(4 * U32 * (xn + maxNorm) + ENC_A);
+    const yrest = f32x4.splat(<f32>Math.sqrt(rs));
+    // First sorted position whose leading coefficient is ≥ the vector's.
+    let lo = 0, hi = k;
+    while (lo < hi) {
+      const mid = (lo + hi) >> 1;
+      if (<f64>load<f32>(leadPtr + <usize>mid * 4) < y0) lo = mid + 1; else hi = mid;
+    }
+    const start = lo < k ? lo : k - 1;
+    // Two first guesses: the previous block's winner (neighbouring blocks are often alike)
+    // and the codeword nearest in the leading coefficient.
+    let best = encDistance32(xr, zPtr + <usize>start * rowBytes, rowBytes, Infinity);
+    let count = 1;
+    store<i32>(candPtr, start);
+    store<f32>(candPtr, <f32>best, 4);
+    if (prev >= 0 && prev != start) {
+      const dj = encDistance32(xr, zPtr + <usize>prev * rowBytes, rowBytes, Infinity);
+      store<i32>(candPtr + 8, prev);
+      store<f32>(candPtr + 8, <f32>dj, 4);
+      count = 2;
+      if (dj < best) best = dj;
+    }
+    let bigR = (Math.sqrt((best + ENC_A) / (1 - gamma)) + rho) * (1 + 1e-9) + rho;
+    let t32 = (1 + gamma) * bigR * bigR + ENC_A;
+    const p0 = prev;
+    let ts = bigR * bigR;
+    let limit = f32x4.splat(<f32>(t32 * (1 + 1e-6)));
+    const l0 = v128.load32_splat(xr), l1 = v128.load32_splat(xr, 4), l2 = v128.load32_splat(xr, 8), l3 = v128.load32_splat(xr, 12);
+    const l4 = v128.load32_splat(xr, 16), l5 = v128.load32_splat(xr, 20), l6 = v128.load32_splat(xr, 24), l7 = v128.load32_splat(xr, 28);
+    // Groups of four positions, outward from the start's group on both sides: the leading
+    // coefficients' partial sum plus the rest-norm term, four candidates per instruction; a
+    // lane under the limit gets its full distance. A side stops once its nearest position's
+    // leading gap alone passes R² (every further group lies further out).
+    let gDown = (start >> 2) - 1;
+    let gUp = start >> 2;
+    while (gDown >= 0 || gUp < groups) {
+      let gi: i32;
+      const gapDown = gDown >= 0 ? y0 - <f64>load<f32>(leadPtr + <usize>((gDown << 2) + 3) * 4) : Infinity;
+      const lastUp = gUp < groups ? min((gUp << 2), k - 1) : 0;
+      const gapUp = gUp < groups ? <f64>load<f32>(leadPtr + <usize>lastUp * 4) - y0 : Infinity;
+      if (gapDown <= gapUp) {
+        if (gapDown > 0 && gapDown * gapDown * (1 - 1e-12) > ts) { gDown = -1; continue; }
+        gi = gDown--;
+      } else {
+        if (gapUp > 0 && gapUp * gapUp * (1 - 1e-12) > ts) { gUp = groups; continue; }
+        gi = gUp++;
+      }
+      const zt = ztPtr + <usize>gi * groupBytes;
+      const t0 = f32x4.sub(l0, v128.load(zt)), t1 = f32x4.sub(l1, v128.load(zt, 16));
+      const t2 = f32x4.sub(l2, v128.load(zt, 32)), t3 = f32x4.sub(l3, v128.load(zt, 48));
+      const t4 = f32x4.sub(l4, v128.load(zt, 64)), t5 = f32x4.sub(l5, v128.load(zt, 80));
+      const t6 = f32x4.sub(l6, v128.load(zt, 96)), t7 = f32x4.sub(l7, v128.load(zt, 112));
+      let acc = f32x4.add(
+        f32x4.add(f32x4.add(f32x4.mul(t0, t0), f32x4.mul(t1, t1)), f32x4.add(f32x4.mul(t2, t2), f32x4.mul(t3, t3))),
+        f32x4.add(f32x4.add(f32x4.mul(t4, t4), f32x4.mul(t5, t5)), f32x4.add(f32x4.mul(t6, t6), f32x4.mul(t7, t7))),
+      );
+      let b = f32x4.sub(f32x4.abs(f32x4.sub(yrest, v128.load(ztRestPtr + <usize>gi * 16))), f32x4.splat(eps));
+      b = f32x4.pmax(b, f32x4.splat(0));
+      acc = f32x4.add(acc, f32x4.mul(b, b));
+      let mask = i32x4.bitmask(f32x4.le(acc, limit));
+      while (mask != 0) {
+        const lane = ctz(mask);
+        mask &= mask - 1;
+        const p = (gi << 2) + lane;
+        if (p == start || p == p0 || p >= k) continue;
+        const dj = encDistance32(xr, zPtr + <usize>p * rowBytes, rowBytes, t32);
+        if (dj > t32) continue;
+        if (dj < best) {
+          best = dj;
+          bigR = (Math.sqrt((best + ENC_A) / (1 - gamma)) + rho) * (1 + 1e-9) + rho;
+          ts = bigR * bigR;
+          t32 = (1 + gamma) * ts + ENC_A;
+          limit = f32x4.splat(<f32>(t32 * (1 + 1e-6)));
+        }
+        store<i32>(candPtr + <usize>count * 8, p);
+        store<f32>(candPtr + <usize>count * 8, <f32>dj, 4);
+        count++;
+      }
+    }
+    // Finalists: the candidates still within T32 of the final B32.
+    let finalists = 0;
+    let only = -1;
+    for (let c = 0; c < count; c++) {
+      if (<f64>load<f32>(candPtr + <usize>c * 8, 4) <= t32) {
+        finalists++;
+        only = load<i32>(candPtr + <usize>c * 8);
+      }
+    }
+    if (finalists == 1) {
+      store<i32>(pendPtr + <usize>pending * 8, v);
+      store<i32>(pendPtr + <usize>pending * 8, load<i32>(permPtr + <usize>only * 4), 4);
+      pending++;
+      prev = only;
+      continue;
+    }
+    multi++;
+    let bd: f64 = Infinity;
+    let bj: i32 = -1;
+    let bp = 0;
+    for (let c = 0; c < count; c++) {
+      if (!(<f64>load<f32>(candPtr + <usize>c * 8, 4) <= t32)) continue;
+      const p = load<i32>(candPtr + <usize>c * 8);
+      const j = load<i32>(permPtr + <usize>p * 4);
+      const dj = encExact(xo, cPtr + <usize>j * <usize>d * 4, d);
+      if (bj < 0 || dj < bd || (dj == bd && j < bj)) { bd = dj; bj = j; bp = p; }
+    }
+    store<u32>(idxPtr + <usize>v * 4, <u32>bj);
+    store<f64>(distPtr + <usize>v * 8, bd);
+    prev = bp;
+  }
+  // Exact distances of the single finalists, four vectors at a time: independent float64
+  // chains, each still summed over i = 0..d−1 in order (exactDistance's bits).
+  const xBytes = <usize>d * 4;
+  for (let q = 0; q < pending; q += 4) {
+    const q1 = min(q + 1, pending - 1), q2 = min(q + 2, pending - 1), q3 = min(q + 3, pending - 1);
+    const v0 = load<i32>(pendPtr + <usize>q * 8), j0 = load<i32>(pendPtr + <usize>q * 8, 4);
+    const v1 = load<i32>(pendPtr + <usize>q1 * 8), j1 = load<i32>(pendPtr + <usize>q1 * 8, 4);
+    const v2 = load<i32>(pendPtr + <usize>q2 * 8), j2 = load<i32>(pendPtr + <usize>q2 * 8, 4);
+    const v3 = load<i32>(pendPtr + <usize>q3 * 8), j3 = load<i32>(pendPtr + <usize>q3 * 8, 4);
+    const x0 = xoPtr + <usize>v0 * xBytes, x1 = xoPtr + <usize>v1 * xBytes;
+    const x2 = xoPtr + <usize>v2 * xBytes, x3 = xoPtr + <usize>v3 * xBytes;
+    const c0 = cPtr + <usize>j0 * xBytes, c1 = cPtr + <usize>j1 * xBytes;
+    const c2 = cPtr + <usize>j2 * xBytes, c3 = cPtr + <usize>j3 * xBytes;
+    let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, s3: f64 = 0;
+    for (let o: usize = 0; o < xBytes; o += 4) {
+      const t0 = <f64>load<f32>(x0 + o) - <f64>load<f32>(c0 + o);
+      const t1 = <f64>load<f32>(x1 + o) - <f64>load<f32>(c1 + o);
+      const t2 = <f64>load<f32>(x2 + o) - <f64>load<f32>(c2 + o);
+      const t3 = <f64>load<f32>(x3 + o) - <f64>load<f32>(c3 + o);
+      s0 += t0 * t0;
+      s1 += t1 * t1;
+      s2 += t2 * t2;
+      s3 += t3 * t3;
+    }
+    // Slots past the end repeat the last vector; writing its values again is harmless.
+    store<u32>(idxPtr + <usize>v0 * 4, <u32>j0);
+    store<u32>(idxPtr + <usize>v1 * 4, <u32>j1);
+    store<u32>(idxPtr + <usize>v2 * 4, <u32>j2);
+    store<u32>(idxPtr + <usize>v3 * 4, <u32>j3);
+    store<f64>(distPtr + <usize>v0 * 8, s0);
+    store<f64>(distPtr + <usize>v1 * 8, s1);
+    store<f64>(distPtr + <usize>v2 * 8, s2);
+    store<f64>(distPtr + <usize>v3 * 8, s3);
+  }
+  return multi;
+}

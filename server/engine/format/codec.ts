@@ -20,6 +20,8 @@ export interface EncodedImage {
 export interface EncodeOptions {
   threads?: number;
   signal?: AbortSignal;
+  /** The calling thread takes part in the search (a command-line process; see parallel/encode-search.ts). */
+  callerThread?: boolean;
 }
 
 /** Checks that an image can be coded with a codebook: same colour handling, and a codebook that has a patch at all. */
@@ -40,13 +42,14 @@ export function checkImageMatchesCodebook(codebook: Codebook, image: PixelImage)
  */
 export async function encodeImage(codebook: Codebook, image: PixelImage, options: EncodeOptions = {}): Promise<EncodedImage & { distances: Float64Array }> {
   const patch = checkImageMatchesCodebook(codebook, image);
-  const tiled = tile(image, patch);
+  // In shared memory, so that the search's workers read the blocks without a copy.
+  const tiled = tile(image, patch, { shared: true });
   if (tiled.dimension !== codebook.dimension) {
     throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', `${image.name}: block vectors have ${tiled.dimension} components, codebook has ${codebook.dimension}`);
   }
   const meanCodes =
     codebook.preprocessing.kind === 'mean-removed' ? removeMeans(tiled.vectors, tiled.dimension, codebook.preprocessing.meanBits) : null;
-  const { indices, distances } = await searchStructure(codebook, tiled.vectors, tiled.dimension, { threads: options.threads, signal: options.signal });
+  const { indices, distances } = await searchStructure(codebook, tiled.vectors, tiled.dimension, { threads: options.threads, signal: options.signal, callerThread: options.callerThread });
   return { width: image.width, height: image.height, blocksX: tiled.blocksX, blocksY: tiled.blocksY, indices, meanCodes, distances };
 }
 

@@ -2,7 +2,7 @@ import { EncodeKernel, type BlockShape } from '../wasm/encode-kernel';
 import { abortError } from '../core/errors';
 import { threadBudget } from './thread-budget';
 import { pool, type KernelWorker } from './worker-pool';
-import type { AssignReply, EncodeJob } from './messages';
+import type { EncodeJob } from './messages';
 
 /** Vectors per claimed chunk: a few milliseconds of work, small enough to balance two to dozens of threads. */
 const ENCODE_CHUNK = 4096;

@@ -3,9 +3,8 @@ import { kernelModule } from './kernel';
 interface EncodeExports {
   memory: WebAssembly.Memory;
   encodeRows(
-    xoPtr: number, n: number, d: number, dp: number, h: number, wc: number, wcp: number,
-    cmatPtr: number, rmatPtr: number, ordPtr: number, padPtr: number, tmpPtr: number, rotPtr: number, xr: number,
-    zPtr: number, leadPtr: number, ztPtr: number, ztRestPtr: number,
+    xoPtr: number, n: number, d: number, dp: number, qtPtr: number, xr: number,
+    csPtr: number, leadPtr: number, ztPtr: number, ztRestPtr: number,
     cPtr: number, permPtr: number, k: number, maxNorm: number, eta: number,
     candPtr: number, pendPtr: number, idxPtr: number, distPtr: number,
   ): number;
@@ -39,16 +38,14 @@ export function dctMatrix(n: number): Float64Array {
 }
 
 /**
- * The bound η of encodeRows (assembly/assign-nearest.ts) on ‖ŷ − Qx‖/‖x‖ for the float32 two-stage rotation: a dot
- * product of n terms errs by at most γ_n·|a|·|b| (N. J. Higham, Accuracy and Stability of Numerical Algorithms,
- * 2nd ed., §3.1), so a stage with `outputs` outputs per input row errs by γ_n·√outputs·‖input‖; the float32 rounding
- * of the matrices adds u·‖C‖_F = u·√n per stage. Inflated by 10 % and twice the matrix term for the second-order
- * products, plus 1e-12 for the float64 arithmetic of the codewords' rotation.
+ * The bound η of encodeRows (assembly/assign-nearest.ts) on ‖ŷ_L − Q_L x‖/‖x‖ for the 8 leading coefficients
+ * computed in float32 as Σ_i x_i·Q_L[:, i]: a dot product of d terms errs by at most γ_d·|a|·|b| (N. J. Higham,
+ * Accuracy and Stability of Numerical Algorithms, 2nd ed., §3.1), that is γ_d·‖x‖ for a unit row, and the float32
+ * rounding of the rows adds at most u·‖x‖ per coefficient; over 8 coefficients √8 times that. Inflated by 10 % and
+ * twice the rounding term, plus 1e-12 for the float64 arithmetic of the codewords' coefficients.
  */
-export function rotationErrorBound(shape: BlockShape): number {
-  const wc = shape.width * shape.channels;
-  const h = shape.height;
-  return 1.1 * (gammaOf(wc) * Math.sqrt(wc) + gammaOf(h) * Math.sqrt(h) + 2 * U32 * (Math.sqrt(wc) + Math.sqrt(h))) + 1e-12;
+export function leadErrorBound(d: number): number {
+  return 1.1 * Math.sqrt(LEAD) * (gammaOf(d) + 2 * U32) + 1e-12;
 }
 
 /**
@@ -62,14 +59,9 @@ export class EncodeKernel {
   private k = 0;
   private d = 0;
   private dp = 0;
-  private h = 0;
-  private wc = 0;
-  private wcp = 0;
   private maxNorm = 0;
   private eta = 0;
-  private readonly ptr = {
-    cmat: 0, rmat: 0, ord: 0, pad: 0, tmp: 0, rot: 0, xr: 0, z: 0, leadv: 0, zt: 0, ztRest: 0, c: 0, perm: 0, cand: 0, xo: 0, pend: 0, idx: 0, dist: 0,
-  };
+  private readonly ptr = { qt: 0, xr: 0, cs: 0, lead: 0, zt: 0, ztRest: 0, c: 0, perm: 0, cand: 0, xo: 0, pend: 0, idx: 0, dist: 0 };
 
   constructor() {
     this.exports = new WebAssembly.Instance(kernelModule(), {}).exports as unknown as EncodeExports;
@@ -79,23 +71,16 @@ export class EncodeKernel {
   setCodebook(codewords: Float32Array, k: number, shape: BlockShape): void {
     const { width: w, height: h, channels: ch } = shape;
     const wc = w * ch;
-    const wcp = align(wc, 4);
     const d = h * wc;
     const dp = align(d, 4);
-    Object.assign(this, { k, d, dp, h, wc, wcp, eta: rotationErrorBound(shape) });
-    const p = this.ptr;
-    p.cmat = 64;
-    p.rmat = align(p.cmat + h * h * 4, 64);
-    p.ord = align(p.rmat + wc * wcp * 4, 64);
-    p.pad = align(p.ord + d * 4, 64);
-    p.tmp = align(p.pad + h * wcp * 4, 64);
-    p.rot = align(p.tmp + h * wcp * 4, 64);
-    p.xr = align(p.rot + h * wcp * 4, 64);
-    p.z = align(p.xr + Math.max(dp, LEAD) * 4, 64);
-    const lead = Math.min(LEAD, d);
     const groups = Math.ceil(k / 4);
-    p.leadv = align(p.z + k * dp * 4, 64);
-    p.zt = align(p.leadv + k * 4, 64);
+    Object.assign(this, { k, d, dp, eta: leadErrorBound(d) });
+    const p = this.ptr;
+    p.qt = 64;
+    p.xr = align(p.qt + d * LEAD * 4, 64);
+    p.cs = align(p.xr + dp * 4, 64);
+    p.lead = align(p.cs + k * dp * 4, 64);
+    p.zt = align(p.lead + k * 4, 64);
     p.ztRest = align(p.zt + groups * LEAD * 16, 64);
     p.c = align(p.ztRest + groups * 16, 64);
     p.perm = align(p.c + k * d * 4, 64);
@@ -109,18 +94,19 @@ export class EncodeKernel {
     if (bytes > have) this.exports.memory.grow(Math.ceil((bytes - have) / PAGE));
     const buf = this.exports.memory.buffer;
 
-    const ch64 = dctMatrix(h);
-    const cw64 = dctMatrix(w);
-    new Float32Array(buf, p.cmat, h * h).set(ch64);
-    // (C_w ⊗ I_channels) transposed: input component j = col·ch + chan feeds output o = u·ch + chan.
-    const rmat = new Float32Array(buf, p.rmat, wc * wcp);
-    rmat.fill(0);
-    for (let col = 0; col < w; col++) {
-      for (let u = 0; u < w; u++) for (let c = 0; c < ch; c++) rmat[(col * ch + c) * wcp + u * ch + c] = cw64[u * w + col];
-    }
-    // Every codeword rotated in float64 (same separable stages), at rotated index v·wcp + o.
-    const rotated = new Float64Array(k * h * wcp);
-    const tmp = new Float64Array(h * wc);
+    // The basis Q = C_h ⊗ C_w ⊗ I_channels: coefficient (v, u, chan) has component (r, col, chan) = C_h[v][r]·C_w[u][col].
+    const chm = dctMatrix(h);
+    const cwm = dctMatrix(w);
+    const basis = (coef: number, i: number) => {
+      const v = Math.floor(coef / wc);
+      const u = Math.floor((coef % wc) / ch);
+      const r = Math.floor(i / wc);
+      const col = Math.floor((i % wc) / ch);
+      return coef % ch === i % ch ? chm[v * h + r] * cwm[u * w + col] : 0;
+    };
+    // Every codeword's coefficients in float64, by the separable stages.
+    const rotated = new Float64Array(k * d);
+    const tmp = new Float64Array(d);
     let maxSq = 0;
     for (let j = 0; j < k; j++) {
       const base = j * d;
@@ -128,53 +114,55 @@ export class EncodeKernel {
       for (let i = 0; i < d; i++) ss += codewords[base + i] * codewords[base + i];
       if (ss > maxSq) maxSq = ss;
       tmp.fill(0);
-      for (let v = 0; v < h; v++) for (let r = 0; r < h; r++) for (let i = 0; i < wc; i++) tmp[v * wc + i] += ch64[v * h + r] * codewords[base + r * wc + i];
+      for (let v = 0; v < h; v++) for (let r = 0; r < h; r++) for (let i = 0; i < wc; i++) tmp[v * wc + i] += chm[v * h + r] * codewords[base + r * wc + i];
       for (let v = 0; v < h; v++) {
         for (let u = 0; u < w; u++) {
           for (let c = 0; c < ch; c++) {
-            let s = 0;
-            for (let col = 0; col < w; col++) s += cw64[u * w + col] * tmp[v * wc + col * ch + c];
-            rotated[j * h * wcp + v * wcp + u * ch + c] = s;
+            let s2 = 0;
+            for (let col = 0; col < w; col++) s2 += cwm[u * w + col] * tmp[v * wc + col * ch + c];
+            rotated[base + v * wc + u * ch + c] = s2;
           }
         }
       }
     }
     this.maxNorm = Math.sqrt(maxSq) * (1 + 1e-12);
-    // Coefficients in order of decreasing variance over the codebook (ties by index), so that partial sums grow fast.
-    const coeffs: number[] = [];
-    for (let v = 0; v < h; v++) for (let o = 0; o < wc; o++) coeffs.push(v * wcp + o);
-    const variance = new Map<number, number>();
-    for (const at of coeffs) {
-      let s = 0;
+    // The leading coefficients: the LEAD of largest variance over the codebook (ties by index), so that their partial
+    // distance bounds most of a distance.
+    const variance = Array.from({ length: d }, (_, coef) => {
+      let s1 = 0;
       let s2 = 0;
       for (let j = 0; j < k; j++) {
-        const t = rotated[j * h * wcp + at];
-        s += t;
+        const t = rotated[j * d + coef];
+        s1 += t;
         s2 += t * t;
       }
-      variance.set(at, s2 / k - (s / k) ** 2);
-    }
-    const ord = coeffs.map((at, i) => ({ at, i, v: variance.get(at)! })).sort((a, b) => b.v - a.v || a.i - b.i).map((e) => e.at);
-    new Int32Array(buf, p.ord, d).set(ord);
-    // Codewords sorted by their leading coefficient (as float32, what the kernel compares), ties by index.
-    const leading = new Float32Array(k);
-    for (let j = 0; j < k; j++) leading[j] = rotated[j * h * wcp + ord[0]];
-    const perm = Uint32Array.from({ length: k }, (_, j) => j).sort((a, b) => leading[a] - leading[b] || a - b);
-    const z = new Float32Array(buf, p.z, k * dp);
-    const leadv = new Float32Array(buf, p.leadv, k);
+      return { coef, v: s2 / k - (s1 / k) ** 2 };
+    });
+    const leading = variance.sort((a, b) => b.v - a.v || a.coef - b.coef).slice(0, Math.min(LEAD, d)).map((e) => e.coef);
+    const isLeading = new Uint8Array(d);
+    for (const coef of leading) isLeading[coef] = 1;
+    // Q_L transposed: row i holds component i of each leading basis vector (zero beyond d's coefficients).
+    const qt = new Float32Array(buf, p.qt, d * LEAD);
+    qt.fill(0);
+    for (let i = 0; i < d; i++) leading.forEach((coef, l) => (qt[i * LEAD + l] = basis(coef, i)));
+    // Codewords sorted by their first leading coefficient (as float32, what the kernel compares), ties by index.
+    const key = Float32Array.from({ length: k }, (_, j) => rotated[j * d + leading[0]]);
+    const perm = Uint32Array.from({ length: k }, (_, j) => j).sort((a, b) => key[a] - key[b] || a - b);
+    const cs = new Float32Array(buf, p.cs, k * dp);
+    const lead = new Float32Array(buf, p.lead, k);
     // Groups of four positions, coefficient-major: group g, coefficient l, lane q & 3.
     const zt = new Float32Array(buf, p.zt, groups * LEAD * 4);
     const ztRest = new Float32Array(buf, p.ztRest, groups * 4);
-    z.fill(0);
+    cs.fill(0);
     zt.fill(0);
     ztRest.fill(0);
     for (let q = 0; q < k; q++) {
       const j = perm[q];
-      for (let l = 0; l < d; l++) z[q * dp + l] = rotated[j * h * wcp + ord[l]];
-      leadv[q] = z[q * dp];
-      for (let l = 0; l < lead; l++) zt[(q >> 2) * LEAD * 4 + l * 4 + (q & 3)] = z[q * dp + l];
+      cs.set(codewords.subarray(j * d, j * d + d), q * dp);
+      lead[q] = key[j];
+      leading.forEach((coef, l) => (zt[(q >> 2) * LEAD * 4 + l * 4 + (q & 3)] = rotated[j * d + coef]));
       let rs = 0;
-      for (let l = lead; l < d; l++) rs += z[q * dp + l] * z[q * dp + l];
+      for (let coef = 0; coef < d; coef++) if (!isLeading[coef]) rs += rotated[j * d + coef] ** 2;
       ztRest[q] = Math.sqrt(rs);
     }
     new Uint32Array(buf, p.perm, k).set(perm);
@@ -188,7 +176,7 @@ export class EncodeKernel {
    */
   encodeRange(vectors: Float32Array, start: number, end: number, outIdx: Uint32Array, outDist: Float64Array): number {
     if (!this.ready) throw new Error('EncodeKernel: setCodebook must be called first');
-    const { d, dp, h, wc, wcp, k, maxNorm, eta, ptr: p } = this;
+    const { d, dp, k, maxNorm, eta, ptr: p } = this;
     const e = this.exports;
     const buf = e.memory.buffer;
     const xo = new Float32Array(buf, p.xo, ENCODE_BATCH * d);
@@ -199,8 +187,8 @@ export class EncodeKernel {
       const n = Math.min(ENCODE_BATCH, end - b);
       xo.set(vectors.subarray(b * d, (b + n) * d));
       multi += e.encodeRows(
-        p.xo, n, d, dp, h, wc, wcp, p.cmat, p.rmat, p.ord, p.pad, p.tmp, p.rot, p.xr,
-        p.z, p.leadv, p.zt, p.ztRest, p.c, p.perm, k, maxNorm, eta, p.cand, p.pend, p.idx, p.dist,
+        p.xo, n, d, dp, p.qt, p.xr, p.cs, p.lead, p.zt, p.ztRest, p.c, p.perm, k, maxNorm, eta,
+        p.cand, p.pend, p.idx, p.dist,
       );
       outIdx.set(idx.subarray(0, n), b);
       outDist.set(dist.subarray(0, n), b);

@@ -482,24 +482,23 @@ export function finishRows(
 // Encoding search: one pass over an image's blocks, nothing kept between passes. Separate
 // from the training kernel above (it shares no function with it), so either can change alone.
 //
-// Every vector x (a block: h rows of wc = w·channels components) is rotated by the
-// orthonormal two-dimensional DCT-II, Q = C_h ⊗ C_w ⊗ I_channels, whose first coefficients
-// hold most of a natural image block's energy (common practice in transform coding); the
-// coefficients are stored in the codebook's order of decreasing variance, DC first. The
-// codewords are rotated likewise (z_j = Q c_j), sorted by their DC coefficient. A rotation
-// keeps distances, so the nearest codeword can be sought among the z_j, and a partial sum over
-// the leading coefficients already bounds most of a distance.
+// The block's basis Q = C_h ⊗ C_w ⊗ I_channels (the orthonormal two-dimensional DCT-II)
+// concentrates a natural image block's energy in a few coefficients (common practice in
+// transform coding). The caller picks the 8 coefficients of largest variance over the codebook
+// (L; the rest T) and sorts the codewords by the first of them. For a vector, ŷ_L = Q_L x is
+// computed (8 dot products), then the codewords are visited outward from the vector's place in
+// that order, four at a time, with a lower bound on the distance from the 8 coefficients and
+// the norm of the rest; those that pass get their float32 distance in the pixel domain, and the
+// few finalists their exact distance.
 //
 // Layouts (byte offsets into linear memory):
 //   xo     n × d f32, the block vectors as given (component order of io/patches.ts)
-//   cmat   h × h f32: C_h, row v holding the v-th basis vector
-//   rmat   wc × wcp f32: (C_w ⊗ I_channels) transposed, each row zero-padded to wcp
-//   ord    d i32: for coefficient l (in stored order), its index v·wcp + o in the rotated rows
-//   pad    h × wcp f32, tmp h × wcp f32, rot h × wcp f32, xr max(dp, 8) f32: scratch of one vector
-//   z      k × dp f32: the rotated codewords by sorted position, zero-padded to dp
-//   lead   k f32: each sorted position's leading coefficient (the sort key)
-//   zt     ⌈k/4⌉ groups × 8 × 4 f32: the first 8 coefficients of four positions, lane-wise
-//   ztrest ⌈k/4⌉ × 4 f32: ‖z_j‖ over the coefficients after the first 8, lane-wise
+//   qt     d × 8 f32: Q_L transposed (row i: component i of the 8 leading basis vectors)
+//   xr     dp f32 scratch: the vector zero-padded to dp
+//   cs     k × dp f32: the codewords by sorted position, zero-padded to dp
+//   lead   k f32: each sorted position's first leading coefficient (the sort key)
+//   zt     ⌈k/4⌉ groups × 8 × 4 f32: the leading coefficients of four positions, lane-wise
+//   ztrest ⌈k/4⌉ × 4 f32: ‖(Q c_j)_T‖, lane-wise
 //   c      k × d f32: the codewords as given, by index (for exact distances)
 //   perm   k i32: the codeword index at each sorted position
 //   cand   k × 8 bytes scratch: (position, float32 distance) of the candidates kept
@@ -507,30 +506,29 @@ export function finishRows(
 //   idx    n u32 output, dist n f64 output (exactDistance's bits)
 //
 // Exactness. The answer is the index of the smallest exact distance D̃ = Σ (x_i − c_i)² (in
-// order, float64), ties to the lowest index; D is the true real distance. Let ŷ and ẑ_j be
-// the stored float32 coefficients and S_j = ‖ŷ − ẑ_j‖² (real). Then
-//   (a) |√S_j − √D_j| ≤ ρ = η·(‖x‖ + max‖c‖): ‖ŷ − Qx‖ ≤ η‖x‖, ‖ẑ_j − Qc_j‖ ≤ η‖c_j‖ and
-//       ‖Q(x − c_j)‖ = √D_j (triangle inequality). η (rotationErrorBound in encode-kernel.ts)
-//       bounds the float32 dot products of the two stages and the rounding of the matrices.
-//   (b) a float32 sum S32 of squared coefficient differences satisfies |S32 − S| ≤ γ·S + A
-//       for its non-negative terms, γ = m·u/(1 − m·u), u = 2^-24, m = dp + 10 roundings per
-//       term at most (difference, square, the additions of any of the orders used here), and
-//       A = 1e-30 for every absolute (subnormal) rounding; a partial sum over some of the
-//       coefficients is at most (1 + γ)·S + A, because every term is ≥ 0.
-//   (c) splitting the coefficients into the first 8 (L) and the rest (T): S = S_L + S_T with
-//       S_T ≥ (‖ŷ_T‖ − ‖ẑ_T‖)² (triangle inequality); the norms are compared in float32 after
-//       shrinking their gap by ε, which covers their rounding. And (ŷ_0 − ẑ_0)² ≤ S.
-// With B32 the smallest S32 seen so far (codeword b), √D_b ≤ U = √((B32 + A)/(1 − γ)) + ρ.
-// A codeword j is dropped only when S_j is proven > R² with R = U·(1 + 1e-9) + ρ: then
-// √D_j > U·(1 + 1e-9) ≥ √D_b·(1 + 1e-9) and, float64 sums of d + 2 roundings being within a
-// relative 1e-13 of D, D̃_j > D̃_b: j is neither the nearest nor tied with it. The tests:
-// the filter S_L + (c)'s term, four codewords at a time, and the partial sums of the full
-// float32 distance (partial distance elimination), each against T32 = (1 + γ)·R² + A; and,
-// to stop the scan, the leading gap (ŷ_0 − ẑ_0)² against R²: the codewords are sorted by ẑ_0,
-// so it only grows along each side, and R only shrinks. The nearest codeword and every
-// codeword tied with it are never dropped; the finalists (S32 ≤ T32 at the end) are compared
-// by exact distance, ties to the lowest index. Vectors whose norms could overflow float32
-// (or are not finite) take an exhaustive exact search.
+// order, float64), ties to the lowest index; D is the true real distance ‖x − c‖².
+//   (a) A float32 sum D32 of squared differences satisfies |D32 − D| ≤ γ·D + A for its
+//       non-negative terms, γ = m·u/(1 − m·u), u = 2^-24, m = dp + 10 roundings per term at
+//       most (difference, square, the additions of any order used here), A = 1e-30 for every
+//       absolute (subnormal) rounding; a partial sum is at most (1 + γ)·D + A (terms ≥ 0).
+//   (b) D = ‖Q(x − c)‖² = D_L + D_T (Q orthonormal). With ŷ_L and ẑ_L the stored leading
+//       coefficients, ‖ŷ_L − Q_L x‖ ≤ η‖x‖ and ‖ẑ_L − Q_L c‖ ≤ η‖c‖ (η: leadErrorBound in
+//       encode-kernel.ts), so √D_L ≥ ‖ŷ_L − ẑ_L‖ − ρ, ρ = η(‖x‖ + max‖c‖) (triangle
+//       inequality); likewise |ŷ_0 − ẑ_0| − ρ ≤ √D.
+//   (c) √D_T ≥ |‖(Qx)_T‖ − ‖(Qc)_T‖| (triangle inequality); ‖(Qx)_T‖² = ‖x‖² − ‖(Qx)_L‖²
+//       (Parseval), which lies within 2.1η‖x‖² (+ float64 rounding) of ‖x‖² − ‖ŷ_L‖², giving an
+//       interval [rlo, rhi] for ‖(Qx)_T‖; the float32 comparison gives away at most ε.
+// With B32 the smallest D32 seen so far (codeword b), D_b ≤ U² = (B32 + A)/(1 − γ). A codeword
+// j is dropped only when D_j is proven > Ts = U²·(1 + 1e-9)²: then D_j > D_b·(1 + 1e-9)² and,
+// float64 sums of d + 2 roundings being within a relative 1e-13 of D, D̃_j > D̃_b: j is neither
+// the nearest nor tied with it. The tests: the group bound (b) + (c) (computed in float32 with
+// P shrunk by its own error first, compared with Ts·(1 + 1e-6), which covers the few roundings
+// of the bound); the partial float32 distance (partial distance elimination) against
+// T32 = (1 + γ)·Ts + A; and, to stop the scan, (|ŷ_0 − ẑ_0| − ρ)² against Ts: the codewords
+// are sorted by ẑ_0, so the gap only grows along each side, and Ts only shrinks. The nearest
+// codeword and every codeword tied with it are never dropped; the finalists (D32 ≤ T32 at
+// the end) are compared by exact distance, ties to the lowest index. Vectors whose norms
+// could overflow float32 (or are not finite) take an exhaustive exact search.
 // ===========================================================================================
 
 const ENC_A: f64 = 1e-30;
@@ -566,6 +564,16 @@ function encDistance32(x: usize, c: usize, rowBytes: usize, limit: f64): f64 {
   return <f64>((f32x4.extract_lane(s, 0) + f32x4.extract_lane(s, 1)) + (f32x4.extract_lane(s, 2) + f32x4.extract_lane(s, 3)));
 }
 
+/** Σ of the squares of four float32 lanes in float64 (in lane 0 of the result). */
+// @ts-ignore: decorator
+@inline
+function encSquares(v: v128): v128 {
+  const lo = f64x2.promote_low_f32x4(v);
+  const hi = f64x2.promote_low_f32x4(v128.shuffle<f32>(v, v, 2, 3, 0, 1));
+  const s = f64x2.add(f64x2.mul(lo, lo), f64x2.mul(hi, hi));
+  return f64x2.add(s, v128.shuffle<f64>(s, s, 1, 0));
+}
+
 /** exactDistance: Σ (x_i − c_i)² over i = 0..d−1 in this order, float64. */
 // @ts-ignore: decorator
 @inline
@@ -578,51 +586,14 @@ function encExact(x: usize, c: usize, d: i32): f64 {
   return s;
 }
 
-/** Rotates one vector (xo, d components) into xr (dp coefficients in stored order). */
-// @ts-ignore: decorator
-@inline
-function encRotate(
-  xo: usize, h: i32, wc: i32, wcp: i32, d: i32, dp: i32,
-  cmatPtr: usize, rmatPtr: usize, ordPtr: usize, padPtr: usize, tmpPtr: usize, rotPtr: usize, xr: usize,
-): void {
-  for (let r = 0; r < h; r++) {
-    for (let j = 0; j < wc; j++) store<f32>(padPtr + (<usize>(r * wcp + j)) * 4, load<f32>(xo + (<usize>(r * wc + j)) * 4));
-    for (let j = wc; j < wcp; j++) store<f32>(padPtr + (<usize>(r * wcp + j)) * 4, 0);
-  }
-  // Vertical stage: tmp row v = Σ_r C_h[v][r] · pad row r, four components at a time.
-  for (let v = 0; v < h; v++) {
-    for (let q = 0; q < wcp; q += 4) {
-      let acc = f32x4.splat(0);
-      for (let r = 0; r < h; r++) {
-        acc = f32x4.add(acc, f32x4.mul(v128.load32_splat(cmatPtr + (<usize>(v * h + r)) * 4), v128.load(padPtr + (<usize>(r * wcp + q)) * 4)));
-      }
-      v128.store(tmpPtr + (<usize>(v * wcp + q)) * 4, acc);
-    }
-  }
-  // Horizontal stage: rot row v = (C_w ⊗ I) · tmp row v, four outputs at a time.
-  for (let v = 0; v < h; v++) {
-    const t = tmpPtr + <usize>(v * wcp) * 4;
-    for (let q = 0; q < wcp; q += 4) {
-      let acc = f32x4.splat(0);
-      for (let j = 0; j < wc; j++) {
-        acc = f32x4.add(acc, f32x4.mul(v128.load32_splat(t + <usize>j * 4), v128.load(rmatPtr + (<usize>(j * wcp + q)) * 4)));
-      }
-      v128.store(rotPtr + (<usize>(v * wcp + q)) * 4, acc);
-    }
-  }
-  for (let l = 0; l < d; l++) store<f32>(xr + <usize>l * 4, load<f32>(rotPtr + <usize>load<i32>(ordPtr + <usize>l * 4) * 4));
-  for (let l = d; l < max(dp, ENC_LEAD); l++) store<f32>(xr + <usize>l * 4, 0);
-}
-
 /**
  * Nearest codeword of n block vectors for encoding (see the section comment for why every
  * dropped codeword is provably not the answer). Writes idx and dist; returns how many
  * vectors compared more than one finalist exactly.
  */
 export function encodeRows(
-  xoPtr: usize, n: i32, d: i32, dp: i32, h: i32, wc: i32, wcp: i32,
-  cmatPtr: usize, rmatPtr: usize, ordPtr: usize, padPtr: usize, tmpPtr: usize, rotPtr: usize, xr: usize,
-  zPtr: usize, leadPtr: usize, ztPtr: usize, ztRestPtr: usize,
+  xoPtr: usize, n: i32, d: i32, dp: i32, qtPtr: usize, xr: usize,
+  csPtr: usize, leadPtr: usize, ztPtr: usize, ztRestPtr: usize,
   cPtr: usize, permPtr: usize, k: i32, maxNorm: f64, eta: f64,
   candPtr: usize, pendPtr: usize, idxPtr: usize, distPtr: usize,
 ): i32 {
@@ -631,16 +602,25 @@ export function encodeRows(
   const gamma = (m * U32) / (1 - m * U32);
   const groups = (k + 3) >> 2;
   const groupBytes: usize = ENC_LEAD * 16;
+  const widen: f64 = (1 + 1e-9) * (1 + 1e-9);
   let prev = -1;
   let pending = 0;
   let multi = 0;
   for (let v = 0; v < n; v++) {
     const xo = xoPtr + <usize>v * <usize>d * 4;
+    // The row zero-padded to dp, the squared norm, and the leading coefficients ŷ_L = Q_L x
+    // (float32, Σ_i x_i · Q_L[:, i], two accumulators of four coefficients).
     let ss: f64 = 0;
+    let ya = f32x4.splat(0), yb = f32x4.splat(0);
     for (let i = 0; i < d; i++) {
-      const t = <f64>load<f32>(xo + <usize>i * 4);
-      ss += t * t;
+      const t = load<f32>(xo + <usize>i * 4);
+      store<f32>(xr + <usize>i * 4, t);
+      ss += <f64>t * <f64>t;
+      const s = f32x4.splat(t);
+      ya = f32x4.add(ya, f32x4.mul(s, v128.load(qtPtr + <usize>i * 32)));
+      yb = f32x4.add(yb, f32x4.mul(s, v128.load(qtPtr + <usize>i * 32, 16)));
     }
+    for (let i = d; i < dp; i++) store<f32>(xr + <usize>i * 4, 0);
     const xn = Math.sqrt(ss);
     if (!((xn + maxNorm) * (xn + maxNorm) < 1e30)) {
       // Exhaustive exact search: overflow-prone or non-finite input.
@@ -655,18 +635,16 @@ export function encodeRows(
       prev = -1;
       continue;
     }
-    encRotate(xo, h, wc, wcp, d, dp, cmatPtr, rmatPtr, ordPtr, padPtr, tmpPtr, rotPtr, xr);
-    const y0 = <f64>load<f32>(xr);
-    let rs: f64 = 0;
-    for (let l = ENC_LEAD; l < d; l++) {
-      const t = <f64>load<f32>(xr + <usize>l * 4);
-      rs += t * t;
-    }
     const rho = eta * (xn + maxNorm) * (1 + 1e-9);
-    // The rest norms are compared in float32: ε covers their float32 rounding (relative u of a
-    // norm at most ‖x‖ or max‖c‖ times 1 + η) and the float64 sums before it.
+    // ‖(Qx)_T‖² = ‖x‖² − ‖(Qx)_L‖² (Parseval); ‖ŷ_L‖ is within ρ_x = η‖x‖ of ‖(Qx)_L‖, so the
+    // square within 2.1η‖x‖², and ss within 1e-13 of ‖x‖²: the rest norm lies in [rlo, rhi].
+    const yl = f64x2.extract_lane(encSquares(ya), 0) + f64x2.extract_lane(encSquares(yb), 0);
+    const slack = (2.1 * eta + 1e-12) * ss * (1 + 1e-9) + ENC_A;
+    const r2 = ss - yl;
+    const rlo = r2 - slack > 0 ? Math.sqrt(r2 - slack) : 0;
+    const rhi = Math.sqrt((r2 > 0 ? r2 : 0) + slack);
     const eps = <f32>(4 * U32 * (xn + maxNorm) + ENC_A);
-    const yrest = f32x4.splat(<f32>Math.sqrt(rs));
+    const y0 = <f64>f32x4.extract_lane(ya, 0);
     // First sorted position whose leading coefficient is ≥ the vector's.
     let lo = 0, hi = k;
     while (lo < hi) {
@@ -674,30 +652,36 @@ export function encodeRows(
       if (<f64>load<f32>(leadPtr + <usize>mid * 4) < y0) lo = mid + 1; else hi = mid;
     }
     const start = lo < k ? lo : k - 1;
-    // Two first guesses: the previous block's winner (neighbouring blocks are often alike)
-    // and the codeword nearest in the leading coefficient.
-    let best = encDistance32(xr, zPtr + <usize>start * rowBytes, rowBytes, Infinity);
+    // Two first guesses: the codeword nearest in the leading coefficient and the previous
+    // block's winner (neighbouring blocks are often alike).
+    let best = encDistance32(xr, csPtr + <usize>start * rowBytes, rowBytes, Infinity);
     let count = 1;
     store<i32>(candPtr, start);
     store<f32>(candPtr, <f32>best, 4);
     if (prev >= 0 && prev != start) {
-      const dj = encDistance32(xr, zPtr + <usize>prev * rowBytes, rowBytes, Infinity);
+      const dj = encDistance32(xr, csPtr + <usize>prev * rowBytes, rowBytes, Infinity);
       store<i32>(candPtr + 8, prev);
       store<f32>(candPtr + 8, <f32>dj, 4);
       count = 2;
       if (dj < best) best = dj;
     }
-    let bigR = (Math.sqrt((best + ENC_A) / (1 - gamma)) + rho) * (1 + 1e-9) + rho;
-    let t32 = (1 + gamma) * bigR * bigR + ENC_A;
+    let ts = (best + ENC_A) / (1 - gamma) * widen;
+    let t32 = (1 + gamma) * ts + ENC_A;
     const p0 = prev;
-    let ts = bigR * bigR;
-    let limit = f32x4.splat(<f32>(t32 * (1 + 1e-6)));
-    const l0 = v128.load32_splat(xr), l1 = v128.load32_splat(xr, 4), l2 = v128.load32_splat(xr, 8), l3 = v128.load32_splat(xr, 12);
-    const l4 = v128.load32_splat(xr, 16), l5 = v128.load32_splat(xr, 20), l6 = v128.load32_splat(xr, 24), l7 = v128.load32_splat(xr, 28);
-    // Groups of four positions, outward from the start's group on both sides: the leading
-    // coefficients' partial sum plus the rest-norm term, four candidates per instruction; a
-    // lane under the limit gets its full distance. A side stops once its nearest position's
-    // leading gap alone passes R² (every further group lies further out).
+    let limit = f32x4.splat(<f32>(ts * (1 + 1e-6)));
+    let limit32 = t32;
+    // Lanes of ŷ_L as splats for the group filter.
+    const s0 = f32x4.splat(f32x4.extract_lane(ya, 0)), s1 = f32x4.splat(f32x4.extract_lane(ya, 1));
+    const s2 = f32x4.splat(f32x4.extract_lane(ya, 2)), s3 = f32x4.splat(f32x4.extract_lane(ya, 3));
+    const s4 = f32x4.splat(f32x4.extract_lane(yb, 0)), s5 = f32x4.splat(f32x4.extract_lane(yb, 1));
+    const s6 = f32x4.splat(f32x4.extract_lane(yb, 2)), s7 = f32x4.splat(f32x4.extract_lane(yb, 3));
+    const shrink = f32x4.splat(<f32>(1 - 4 * gamma));
+    const rhoV = f32x4.splat(<f32>(rho * (1 + 1e-6)));
+    const rloV = f32x4.splat(<f32>rlo), rhiV = f32x4.splat(<f32>rhi), epsV = f32x4.splat(eps);
+    const zero = f32x4.splat(0);
+    // Groups of four positions, outward from the start's group on both sides; a side stops
+    // once its nearest position's leading gap alone exceeds the bound (further groups lie
+    // further out).
     let gDown = (start >> 2) - 1;
     let gUp = start >> 2;
     while (gDown >= 0 || gUp < groups) {
@@ -706,40 +690,45 @@ export function encodeRows(
       const lastUp = gUp < groups ? min((gUp << 2), k - 1) : 0;
       const gapUp = gUp < groups ? <f64>load<f32>(leadPtr + <usize>lastUp * 4) - y0 : Infinity;
       if (gapDown <= gapUp) {
-        if (gapDown > 0 && gapDown * gapDown * (1 - 1e-12) > ts) { gDown = -1; continue; }
+        const g = gapDown - rho;
+        if (g > 0 && g * g * (1 - 1e-12) > ts) { gDown = -1; continue; }
         gi = gDown--;
       } else {
-        if (gapUp > 0 && gapUp * gapUp * (1 - 1e-12) > ts) { gUp = groups; continue; }
+        const g = gapUp - rho;
+        if (g > 0 && g * g * (1 - 1e-12) > ts) { gUp = groups; continue; }
         gi = gUp++;
       }
       const zt = ztPtr + <usize>gi * groupBytes;
-      const t0 = f32x4.sub(l0, v128.load(zt)), t1 = f32x4.sub(l1, v128.load(zt, 16));
-      const t2 = f32x4.sub(l2, v128.load(zt, 32)), t3 = f32x4.sub(l3, v128.load(zt, 48));
-      const t4 = f32x4.sub(l4, v128.load(zt, 64)), t5 = f32x4.sub(l5, v128.load(zt, 80));
-      const t6 = f32x4.sub(l6, v128.load(zt, 96)), t7 = f32x4.sub(l7, v128.load(zt, 112));
-      let acc = f32x4.add(
+      const t0 = f32x4.sub(s0, v128.load(zt)), t1 = f32x4.sub(s1, v128.load(zt, 16));
+      const t2 = f32x4.sub(s2, v128.load(zt, 32)), t3 = f32x4.sub(s3, v128.load(zt, 48));
+      const t4 = f32x4.sub(s4, v128.load(zt, 64)), t5 = f32x4.sub(s5, v128.load(zt, 80));
+      const t6 = f32x4.sub(s6, v128.load(zt, 96)), t7 = f32x4.sub(s7, v128.load(zt, 112));
+      const p = f32x4.add(
         f32x4.add(f32x4.add(f32x4.mul(t0, t0), f32x4.mul(t1, t1)), f32x4.add(f32x4.mul(t2, t2), f32x4.mul(t3, t3))),
         f32x4.add(f32x4.add(f32x4.mul(t4, t4), f32x4.mul(t5, t5)), f32x4.add(f32x4.mul(t6, t6), f32x4.mul(t7, t7))),
       );
-      let b = f32x4.sub(f32x4.abs(f32x4.sub(yrest, v128.load(ztRestPtr + <usize>gi * 16))), f32x4.splat(eps));
-      b = f32x4.pmax(b, f32x4.splat(0));
-      acc = f32x4.add(acc, f32x4.mul(b, b));
-      let mask = i32x4.bitmask(f32x4.le(acc, limit));
+      // (√P − ρ)₊² + (rest gap − ε)₊², P shrunk by its float32 error first.
+      let a = f32x4.pmax(f32x4.sub(f32x4.sqrt(f32x4.mul(p, shrink)), rhoV), zero);
+      const zr = v128.load(ztRestPtr + <usize>gi * 16);
+      let b = f32x4.sub(f32x4.pmax(f32x4.sub(zr, rhiV), f32x4.sub(rloV, zr)), epsV);
+      b = f32x4.pmax(b, zero);
+      const lb = f32x4.add(f32x4.mul(a, a), f32x4.mul(b, b));
+      let mask = i32x4.bitmask(f32x4.le(lb, limit));
       while (mask != 0) {
         const lane = ctz(mask);
         mask &= mask - 1;
-        const p = (gi << 2) + lane;
-        if (p == start || p == p0 || p >= k) continue;
-        const dj = encDistance32(xr, zPtr + <usize>p * rowBytes, rowBytes, t32);
-        if (dj > t32) continue;
+        const q = (gi << 2) + lane;
+        if (q == start || q == p0 || q >= k) continue;
+        const dj = encDistance32(xr, csPtr + <usize>q * rowBytes, rowBytes, limit32);
+        if (dj > limit32) continue;
         if (dj < best) {
           best = dj;
-          bigR = (Math.sqrt((best + ENC_A) / (1 - gamma)) + rho) * (1 + 1e-9) + rho;
-          ts = bigR * bigR;
+          ts = (best + ENC_A) / (1 - gamma) * widen;
           t32 = (1 + gamma) * ts + ENC_A;
-          limit = f32x4.splat(<f32>(t32 * (1 + 1e-6)));
+          limit = f32x4.splat(<f32>(ts * (1 + 1e-6)));
+          limit32 = t32;
         }
-        store<i32>(candPtr + <usize>count * 8, p);
+        store<i32>(candPtr + <usize>count * 8, q);
         store<f32>(candPtr + <usize>count * 8, <f32>dj, 4);
         count++;
       }

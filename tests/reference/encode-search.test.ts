@@ -175,6 +175,14 @@ describe('encoding search on threads', () => {
     expectSame(await encodeNearest(vectors, shape, codewords, 256, options), want);
   });
 
+  it('searches the new codewords after a codebook is changed in place', async () => {
+    const small = uniform(40 * 64, 0, 255, 31);
+    const book = uniform(16 * 64, 0, 255, 32);
+    expectSame(await encodeNearest(small, shape, book, 16), brute(small, 64, book));
+    book.set(uniform(16 * 64, 0, 255, 33));
+    expectSame(await encodeNearest(small, shape, book, 16), brute(small, 64, book));
+  });
+
   it('agrees with float64 brute force on a sample of those vectors', () => {
     const sample = vectors.subarray(0, 500 * 64);
     expectSame(kernelSearch(sample, shape, codewords), brute(sample, 64, codewords));

@@ -16,15 +16,22 @@ const DONE = 2;
 let nextJobId = 1 << 30;
 
 let localKernel: EncodeKernel | undefined;
-let localKey: { codewords: Float32Array; k: number; shape: string } | undefined;
+let localKey: { codewords: Float32Array; shape: string } | undefined;
 
-/** This thread's encoding kernel with the codebook loaded (loaded again only when the codebook or shape changes). */
+/**
+ * This thread's encoding kernel with the codebook loaded; loaded again unless the codewords (compared by value, so a
+ * codebook changed in place is never searched stale) and the shape are those of the last call.
+ */
 function kernelFor(codewords: Float32Array, k: number, shape: BlockShape): EncodeKernel {
   localKernel ??= new EncodeKernel();
   const key = `${shape.width}×${shape.height}×${shape.channels}`;
-  if (localKey?.codewords !== codewords || localKey.k !== k || localKey.shape !== key) {
-    localKernel.setCodebook(codewords, k, shape);
-    localKey = { codewords, k, shape: key };
+  const d = shape.width * shape.height * shape.channels;
+  const current = codewords.subarray(0, k * d);
+  const same = localKey !== undefined && localKey.shape === key && localKey.codewords.length === current.length
+    && localKey.codewords.every((v, i) => Object.is(v, current[i]));
+  if (!same) {
+    localKernel.setCodebook(current, k, shape);
+    localKey = { codewords: current.slice(), shape: key };
   }
   return localKernel;
 }

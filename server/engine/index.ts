@@ -37,6 +37,7 @@ import { ANOMALY_RATE, ANOMALY_SCORES, DENOISE_ESTIMATORS, DENOISE_SIGMA, DENOIS
 // ---- re-exports: what callers need, from one place ----
 export * from './vocabulary';
 export { train, assign, assignSync, createRng, sharedVectors, shutdownEngineWorkers, threadBudget, EngineError } from './training';
+export { prestartEngineWorkers } from './parallel/worker-pool';
 export type { Assignment, IterationStat, TrainOptions, TrainProgress, TrainResult, TrainedCodebook } from './training';
 export { ShardState, SearchCrew, distancesToNewest, shardLayout, type ShardLayout } from './training';
 export type { CellMember, SeedChoice, SeedStep, ShardAssignment, ShardExecutor, ShardMove, ShardSplitSums, ShardSums, SplitRequest } from './training';
@@ -463,9 +464,22 @@ export async function trainResidualCodebook(
 const codingSchema = z.object({
   threads: threadsSchema,
   signal: signalSchema,
+  callerThread: z.boolean().optional(),
   payload: z.enum(PAYLOAD_CHOICES).optional(),
   resyncRows: z.number().int().min(0).max(MAX_RESYNC_ROWS).optional(),
 });
+
+type CodingOptions = { threads?: number; signal?: AbortSignal; callerThread?: boolean } & ContainerOptions;
+
+/**
+ * Codes an image into container bytes, without decoding it again (what a command that writes only the coded file
+ * needs). `callerThread` lets the calling thread search too (a command-line process; see parallel/encode-search.ts).
+ */
+export async function encodeToContainer(codebook: Codebook, image: PixelImage, options: CodingOptions = {}): Promise<{ container: Buffer; encoded: EncodedImage }> {
+  check(codingSchema, options, 'encode');
+  const encoded = await encodeImage(codebook, image, options);
+  return { container: writeContainer(codebook, encoded, { payload: options.payload, resyncRows: options.resyncRows }), encoded };
+}
 
 /**
  * Codes an image: the container bytes, the indices, and the decoder's output (height × width × channels, 8-bit).
@@ -474,11 +488,9 @@ const codingSchema = z.object({
 export async function encode(
   codebook: Codebook,
   image: PixelImage,
-  options: { threads?: number; signal?: AbortSignal } & ContainerOptions = {},
+  options: CodingOptions = {},
 ): Promise<{ container: Buffer; encoded: EncodedImage; reconstruction: Uint8Array }> {
-  check(codingSchema, options, 'encode');
-  const encoded = await encodeImage(codebook, image, options);
-  const container = writeContainer(codebook, encoded, { payload: options.payload, resyncRows: options.resyncRows });
+  const { container, encoded } = await encodeToContainer(codebook, image, options);
   return { container, encoded, reconstruction: reconstruct(codebook, encoded) };
 }
 

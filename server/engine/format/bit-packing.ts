@@ -6,8 +6,31 @@ export function packedLength(count: number, bits: number): number {
   return Math.ceil((count * bits) / 8);
 }
 
+/** Widths up to this take the 32-bit integer paths: fewer than 8 + 16 = 24 pending bits never overflow. */
+const INT_BITS = 16;
+
 export function packBits(values: ArrayLike<number>, bits: number, out: Uint8Array, offset = 0): number {
-  let acc = 0; // pending bits, fewer than 8 + bits ≤ 22 of them, so plain numbers never overflow
+  if (bits === 8) {
+    for (let i = 0; i < values.length; i += 1) out[offset + i] = values[i];
+    return values.length;
+  }
+  if (bits > 0 && bits <= INT_BITS) {
+    let acc = 0;
+    let pending = 0;
+    let pos = offset;
+    for (let i = 0; i < values.length; i += 1) {
+      acc = (acc << bits) | values[i];
+      pending += bits;
+      while (pending >= 8) {
+        pending -= 8;
+        out[pos++] = (acc >>> pending) & 0xff;
+      }
+      acc &= (1 << pending) - 1;
+    }
+    if (pending > 0) out[pos++] = (acc << (8 - pending)) & 0xff;
+    return pos - offset;
+  }
+  let acc = 0; // pending bits, fewer than 8 + bits ≤ 40 of them, so plain numbers never overflow
   let pending = 0;
   let pos = offset;
   for (let i = 0; i < values.length; i += 1) {
@@ -24,6 +47,25 @@ export function packBits(values: ArrayLike<number>, bits: number, out: Uint8Arra
 }
 
 export function unpackBits(bytes: Uint8Array, offset: number, count: number, bits: number, out: Uint32Array | Uint8Array): void {
+  if (bits === 8) {
+    out.set(bytes.subarray(offset, offset + count));
+    return;
+  }
+  if (bits > 0 && bits <= INT_BITS) {
+    let acc = 0;
+    let available = 0;
+    let pos = offset;
+    const mask = (1 << bits) - 1;
+    for (let i = 0; i < count; i += 1) {
+      while (available < bits) {
+        acc = ((acc << 8) | bytes[pos++]) & 0xffffff;
+        available += 8;
+      }
+      available -= bits;
+      out[i] = (acc >>> available) & mask;
+    }
+    return;
+  }
   let acc = 0;
   let available = 0;
   let pos = offset;

@@ -20,6 +20,8 @@ export interface EncodedImage {
 export interface EncodeOptions {
   threads?: number;
   signal?: AbortSignal;
+  /** The calling thread takes part in the search (a command-line process; see parallel/encode-search.ts). */
+  callerThread?: boolean;
 }
 
 /** Checks that an image can be coded with a codebook: same colour handling, and a codebook that has a patch at all. */
@@ -40,13 +42,14 @@ export function checkImageMatchesCodebook(codebook: Codebook, image: PixelImage)
  */
 export async function encodeImage(codebook: Codebook, image: PixelImage, options: EncodeOptions = {}): Promise<EncodedImage & { distances: Float64Array }> {
   const patch = checkImageMatchesCodebook(codebook, image);
-  const tiled = tile(image, patch);
+  // In shared memory, so that the search's workers read the blocks without a copy.
+  const tiled = tile(image, patch, { shared: true });
   if (tiled.dimension !== codebook.dimension) {
     throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', `${image.name}: block vectors have ${tiled.dimension} components, codebook has ${codebook.dimension}`);
   }
   const meanCodes =
     codebook.preprocessing.kind === 'mean-removed' ? removeMeans(tiled.vectors, tiled.dimension, codebook.preprocessing.meanBits) : null;
-  const { indices, distances } = await searchStructure(codebook, tiled.vectors, tiled.dimension, { threads: options.threads, signal: options.signal });
+  const { indices, distances } = await searchStructure(codebook, tiled.vectors, tiled.dimension, { threads: options.threads, signal: options.signal, callerThread: options.callerThread });
   return { width: image.width, height: image.height, blocksX: tiled.blocksX, blocksY: tiled.blocksY, indices, meanCodes, distances };
 }
 
@@ -106,6 +109,12 @@ export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Arr
   checkCodedIndices(codebook, encoded.indices, (message) => {
     throw new EngineInputError('ENGINE_INVALID_ARGUMENT', message);
   });
+  const channels = patch.color === 'rgb' ? 3 : 1;
+  const out = new Uint8Array(encoded.width * encoded.height * channels);
+  if (per === 1 && !encoded.meanCodes) {
+    writeBlocks(out, encoded.width, encoded.height, channels, patch, grid.blocksX, grid.blocksY, codewordTable(codebook), encoded.indices, d);
+    return out;
+  }
   const blockPixels = new Uint8Array(blocks * d);
   const sum = new Float64Array(d);
   for (let b = 0; b < blocks; b += 1) {
@@ -113,10 +122,7 @@ export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Arr
     const dst = b * d;
     if (per === 1) {
       const src = encoded.indices[b] * d;
-      for (let k = 0; k < d; k += 1) {
-        const v = codebook.codewords[src + k] + level;
-        blockPixels[dst + k] = v <= 0 ? 0 : v >= 255 ? 255 : Math.floor(v + 0.5);
-      }
+      for (let k = 0; k < d; k += 1) blockPixels[dst + k] = toPixel(codebook.codewords[src + k] + level);
       continue;
     }
     sum.fill(0);
@@ -124,10 +130,58 @@ export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Arr
       const src = encoded.indices[b * per + s] * d;
       for (let k = 0; k < d; k += 1) sum[k] += codebook.codewords[src + k];
     }
-    for (let k = 0; k < d; k += 1) {
-      const v = sum[k] + level;
-      blockPixels[dst + k] = v <= 0 ? 0 : v >= 255 ? 255 : Math.floor(v + 0.5);
+    for (let k = 0; k < d; k += 1) blockPixels[dst + k] = toPixel(sum[k] + level);
+  }
+  return untile(blockPixels, encoded.width, encoded.height, channels, patch, out);
+}
+
+/** A reconstructed value as a pixel: clamped to 0..255 and rounded half up. */
+function toPixel(v: number): number {
+  return v <= 0 ? 0 : v >= 255 ? 255 : Math.floor(v + 0.5);
+}
+
+/** Every codeword as pixels (K × d bytes, toPixel of each component): the decoder's lookup table without mean codes. */
+function codewordTable(codebook: Codebook): Uint8Array {
+  const table = new Uint8Array(codebook.size * codebook.dimension);
+  for (let i = 0; i < table.length; i += 1) table[i] = toPixel(codebook.codewords[i]);
+  return table;
+}
+
+/**
+ * Writes each block's table row (`table` K × d bytes, indexed by `indices`) into the image, block row by block row,
+ * cropping the padding: what untile does with the blocks' pixels, without building them first. Rows of whole
+ * blocks are copied four bytes at a time when every offset is a multiple of four.
+ */
+function writeBlocks(
+  out: Uint8Array, width: number, height: number, channels: number, patch: { width: number; height: number },
+  blocksX: number, blocksY: number, table: Uint8Array, indices: Uint32Array, d: number,
+): void {
+  const rowLength = patch.width * channels;
+  const stride = width * channels;
+  const fullX = Math.floor(width / patch.width);
+  const words = rowLength % 4 === 0 && stride % 4 === 0 && out.byteOffset % 4 === 0;
+  const out32 = words ? new Uint32Array(out.buffer, out.byteOffset, out.length >> 2) : null;
+  const table32 = words ? new Uint32Array(table.buffer, table.byteOffset, table.length >> 2) : null;
+  const rowWords = rowLength >> 2;
+  for (let by = 0; by < blocksY; by += 1) {
+    const rows = Math.min(patch.height, height - by * patch.height);
+    for (let bx = 0; bx < blocksX; bx += 1) {
+      const src = indices[by * blocksX + bx] * d;
+      const x0 = bx * patch.width * channels;
+      let dst = by * patch.height * stride + x0;
+      if (out32 && table32 && bx < fullX) {
+        let s32 = src >> 2;
+        let d32 = dst >> 2;
+        for (let r = 0; r < rows; r += 1, s32 += rowWords, d32 += stride >> 2) {
+          for (let i = 0; i < rowWords; i += 1) out32[d32 + i] = table32[s32 + i];
+        }
+        continue;
+      }
+      const len = Math.min(rowLength, stride - x0);
+      for (let r = 0; r < rows; r += 1, dst += stride) {
+        const s = src + r * rowLength;
+        for (let i = 0; i < len; i += 1) out[dst + i] = table[s + i];
+      }
     }
   }
-  return untile(blockPixels, encoded.width, encoded.height, patch.color === 'rgb' ? 3 : 1, patch, new Uint8Array(encoded.width * encoded.height * (patch.color === 'rgb' ? 3 : 1)));
 }

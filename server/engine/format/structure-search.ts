@@ -8,6 +8,7 @@
  * `distances` holds one squared error per block: its vector against its reconstruction (for residual, the stage sum).
  */
 import { assign } from '../training';
+import { encodeNearest } from '../parallel/encode-search';
 import { assignEcvq } from '../training/ecvq';
 import { EngineInputError } from '../input-error';
 import { encodeResidual } from '../structures/residual';
@@ -18,6 +19,8 @@ import type { Codebook } from './codebook-schema';
 export interface StructureSearchOptions {
   threads?: number;
   signal?: AbortSignal;
+  /** The calling thread searches too (parallel/encode-search.ts): for a command-line process. */
+  callerThread?: boolean;
 }
 
 export interface StructureSearchResult {
@@ -30,9 +33,17 @@ export interface StructureSearchResult {
  */
 export type StructureSearch = (codebook: Codebook, vectors: Float32Array, dimension: number, options: StructureSearchOptions) => Promise<StructureSearchResult>;
 
-/** Nearest codeword by squared error (exact; ties to the lowest index, as the core guarantees). */
-const fullSearch: StructureSearch = (codebook, vectors, dimension, options) =>
-  assign(vectors, dimension, codebook.codewords, { threads: options.threads, signal: options.signal });
+/**
+ * Nearest codeword by squared error (exact; ties to the lowest index, as the core guarantees): image blocks through
+ * the encoding search, which rejects far codewords exactly in the block's transform domain; raw vectors through the
+ * training search.
+ */
+const fullSearch: StructureSearch = (codebook, vectors, dimension, options) => {
+  const patch = codebook.patch;
+  if (!patch) return assign(vectors, dimension, codebook.codewords, { threads: options.threads, signal: options.signal });
+  const shape = { width: patch.width, height: patch.height, channels: patch.color === 'rgb' ? 3 : 1 };
+  return encodeNearest(vectors, shape, codebook.codewords, codebook.size, options);
+};
 
 /** The cell minimising ‖x − c_j‖² + λ·ℓ_j with ℓ the codebook's Huffman lengths (Chou, Lookabaugh & Gray 1989). */
 const entropyConstrainedSearch: StructureSearch = async (codebook, vectors, dimension, options) => {

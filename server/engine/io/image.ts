@@ -47,6 +47,8 @@ export async function decodeImage(input: Buffer | string, color: ColorMode, name
   let width: number;
   let height: number;
   try {
+    const grey = await decodeGrey(input);
+    if (grey) return fromGrey8(name, grey.width, grey.height, grey.data, color);
     const out = await sharp(input, { failOn: 'error' })
       .removeAlpha()
       .toColourspace('srgb')
@@ -61,6 +63,38 @@ export async function decodeImage(input: Buffer | string, color: ColorMode, name
     throw new EngineInputError('ENGINE_INVALID_IMAGE', `${name}: cannot decode image (${reason})`);
   }
   return fromRgb8(name, width, height, data, color);
+}
+
+/**
+ * An 8-bit grey image without an ICC profile (grey or grey + alpha) decoded to one channel, or null for any other
+ * image. Expanding such a grey to sRGB only repeats the value in R, G and B, so this is the general path's raster
+ * with a third of the bytes and no conversion (tests/unit/engine-io/grey-decode.test.ts compares the two).
+ */
+async function decodeGrey(input: Buffer | string): Promise<{ data: Buffer; width: number; height: number } | null> {
+  const meta = await sharp(input, { failOn: 'error' }).metadata();
+  const channels = meta.hasAlpha ? 2 : 1;
+  if (meta.channels !== channels || meta.depth !== 'uchar' || meta.space !== 'b-w' || meta.icc) return null;
+  const out = await sharp(input, { failOn: 'error' }).removeAlpha().toColourspace('b-w').raw({ depth: 'uchar' }).toBuffer({ resolveWithObject: true });
+  if (out.info.channels !== 1) return null;
+  return { data: out.data, width: out.info.width, height: out.info.height };
+}
+
+/**
+ * Builds a PixelImage from 8-bit grey (height × width): a grey pixel's luma is its own value (luma.ts; checked for
+ * all 256 values by tests/unit/engine-io/grey-decode.test.ts) and its RGB is the value three times.
+ */
+export function fromGrey8(name: string, width: number, height: number, grey: Uint8Array, color: ColorMode): PixelImage {
+  const count = width * height;
+  if (grey.length !== count) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `${name}: expected ${count} grey bytes for ${width}×${height}, got ${grey.length}`);
+  let pixels: Float32Array;
+  if (color === 'rgb') {
+    pixels = new Float32Array(count * 3);
+    for (let i = 0, j = 0; i < count; i += 1, j += 3) pixels[j] = pixels[j + 1] = pixels[j + 2] = grey[i];
+  } else {
+    pixels = new Float32Array(count);
+    pixels.set(grey);
+  }
+  return { name, width, height, color, channels: channelsOf(color), pixels };
 }
 
 /**

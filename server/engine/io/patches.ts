@@ -63,16 +63,31 @@ function readPatch(image: PixelImage, patch: PatchShape, x0: number, y0: number,
 /**
  * Tiles an image into non-overlapping blocks for coding, in raster order of blocks (left to right, top to bottom).
  * Right and bottom edges are padded by edge replication; `untile` crops the padding again.
+ * Blocks that lie wholly inside the image are copied row by row without the edge clamping; `shared` allocates the
+ * vectors in a SharedArrayBuffer (for worker threads to read without a copy).
  * @returns vectors: blocksX·blocksY × d, row-major
  */
-export function tile(image: PixelImage, patch: PatchShape): BlockGrid & { vectors: Float32Array; dimension: number } {
+export function tile(image: PixelImage, patch: PatchShape, options: { shared?: boolean } = {}): BlockGrid & { vectors: Float32Array; dimension: number } {
   const grid = blockGrid(image.width, image.height, patch);
   const dimension = vectorDimension(patch, image.channels);
-  const vectors = new Float32Array(grid.blocksX * grid.blocksY * dimension);
+  const count = grid.blocksX * grid.blocksY * dimension;
+  const vectors = options.shared ? new Float32Array(new SharedArrayBuffer(count * 4)) : new Float32Array(count);
+  const { width, channels, pixels } = image;
+  const rowLength = patch.width * channels;
+  const fullX = Math.floor(image.width / patch.width);
+  const fullY = Math.floor(image.height / patch.height);
   let offset = 0;
   for (let by = 0; by < grid.blocksY; by += 1) {
     for (let bx = 0; bx < grid.blocksX; bx += 1) {
-      readPatch(image, patch, bx * patch.width, by * patch.height, vectors, offset);
+      if (bx < fullX && by < fullY) {
+        let k = offset;
+        for (let row = 0; row < patch.height; row += 1) {
+          const src = ((by * patch.height + row) * width + bx * patch.width) * channels;
+          for (let i = 0; i < rowLength; i += 1) vectors[k++] = pixels[src + i];
+        }
+      } else {
+        readPatch(image, patch, bx * patch.width, by * patch.height, vectors, offset);
+      }
       offset += dimension;
     }
   }
@@ -94,14 +109,17 @@ export function untile<T extends Float32Array | Uint8Array>(
 ): T {
   const { blocksX } = blockGrid(width, height, patch);
   const dimension = vectorDimension(patch, channels);
+  const rowLength = patch.width * channels;
+  // Per image row, each block's row of pixels, cropped at the right edge.
   for (let y = 0; y < height; y += 1) {
     const by = Math.floor(y / patch.height);
     const row = y - by * patch.height;
-    for (let x = 0; x < width; x += 1) {
-      const bx = Math.floor(x / patch.width);
-      const src = (by * blocksX + bx) * dimension + (row * patch.width + (x - bx * patch.width)) * channels;
-      const dst = (y * width + x) * channels;
-      for (let c = 0; c < channels; c += 1) out[dst + c] = vectors[src + c];
+    let dst = y * width * channels;
+    for (let bx = 0; bx < blocksX; bx += 1) {
+      const src = (by * blocksX + bx) * dimension + row * rowLength;
+      const len = Math.min(rowLength, (width - bx * patch.width) * channels);
+      for (let i = 0; i < len; i += 1) out[dst + i] = vectors[src + i];
+      dst += len;
     }
   }
   return out;

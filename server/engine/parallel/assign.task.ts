@@ -4,9 +4,10 @@
 // same whichever worker computes it and however many there are.
 import { parentPort } from 'node:worker_threads';
 import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
+import { EncodeKernel } from '../wasm/encode-kernel';
 import { addRow } from '../core/accumulate-centroids';
 import { seedUpdateRange } from '../core/init';
-import type { AccumulateJob, AssignJob, AssignReply, SeedJob, WorkerJob } from './messages';
+import type { AccumulateJob, AssignJob, AssignReply, EncodeJob, SeedJob, WorkerJob } from './messages';
 
 if (!parentPort) throw new Error('assign.task.ts must run in a worker thread');
 const port = parentPort;
@@ -48,10 +49,35 @@ function seed(job: SeedJob): void {
   }
 }
 
+let encodeKernel: EncodeKernel | undefined;
+
+/** Encoding search over the chunks this worker claims (parallel/encode-search.ts); counts each finished chunk. */
+function encodeChunks(job: EncodeJob): void {
+  const d = job.width * job.height * job.channels;
+  const control = new Int32Array(job.control);
+  const chunks = Math.ceil(job.n / job.chunkSize);
+  // Nothing to load when the caller has already claimed every chunk (a worker that started late).
+  if (Atomics.load(control, 0) >= chunks) return;
+  const vectors = new Float32Array(job.vectors, job.vectorsByteOffset, job.n * d);
+  const indices = new Uint32Array(job.indices, 0, job.n);
+  const distances = new Float64Array(job.distances, 0, job.n);
+  encodeKernel ??= new EncodeKernel();
+  encodeKernel.setCodebook(new Float32Array(job.codewords, 0, job.k * d), job.k, job);
+  for (;;) {
+    if (Atomics.load(control, 1) !== 0) break;
+    const chunk = Atomics.add(control, 0, 1);
+    if (chunk >= chunks) break;
+    const start = chunk * job.chunkSize;
+    encodeKernel.encodeRange(vectors, start, Math.min(job.n, start + job.chunkSize), indices, distances);
+    Atomics.add(control, 2, 1);
+  }
+}
+
 port.on('message', (message: WorkerJob) => {
-  if (message.kind === 'accumulate' || message.kind === 'seed') {
+  if (message.kind === 'accumulate' || message.kind === 'seed' || message.kind === 'encode') {
     try {
       if (message.kind === 'seed') seed(message);
+      else if (message.kind === 'encode') encodeChunks(message);
       else accumulate(message);
       port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0 } satisfies AssignReply);
     } catch (err) {

@@ -1,3 +1,3 @@
 export { ThreadBudget, threadBudget, type ThreadLease } from './thread-budget';
-export { shutdownEngineWorkers, engineWorkerStats } from './worker-pool';
+export { shutdownEngineWorkers, engineWorkerStats, prestartEngineWorkers } from './worker-pool';
 export { NearestSearch, sharedVectors } from './nearest-search';

@@ -51,11 +51,29 @@ export interface SeedJob {
   chunkSize: number;
 }
 
-export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedJob;
+export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedJob | EncodeJob;
 
 export interface AssignReply {
   jobId: number;
   redecided: number;
   searched: number;
   error?: string;
+}
+
+/** Encoding search (parallel/encode-search.ts) over chunks claimed through `control`. */
+export interface EncodeJob {
+  jobId: number;
+  kind: 'encode';
+  vectors: SharedArrayBuffer; // N × d f32 starting at vectorsByteOffset, d = width·height·channels
+  vectorsByteOffset: number;
+  n: number;
+  width: number;
+  height: number;
+  channels: number;
+  codewords: SharedArrayBuffer; // K × d f32, row-major
+  k: number;
+  indices: SharedArrayBuffer; // N u32, written
+  distances: SharedArrayBuffer; // N f64, written
+  control: SharedArrayBuffer; // Int32 [next chunk, cancel flag, chunks finished]
+  chunkSize: number;
 }

@@ -75,6 +75,10 @@ class WorkerPool {
     return out;
   }
 
+  prestart(count: number): void {
+    while (this.workers.length < count) this.workers.push(new KernelWorker());
+  }
+
   give(workers: KernelWorker[]): void {
     for (const w of workers) this.reserved.delete(w);
   }
@@ -102,6 +106,14 @@ class WorkerPool {
 }
 
 export const pool = new WorkerPool();
+
+/**
+ * Starts kernel workers until the pool holds `count` (idle, so they do not keep the process alive). A command-line
+ * process calls this first, so that the threads load their code while it reads its inputs.
+ */
+export function prestartEngineWorkers(count: number): void {
+  pool.prestart(count);
+}
 
 /** Terminates every engine worker; the next engine call starts new ones. */
 export function shutdownEngineWorkers(): Promise<void> {

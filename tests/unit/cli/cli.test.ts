@@ -176,7 +176,7 @@ describe('cellwright eval', () => {
 
 describe('cellwright encode and decode', () => {
   it('decodes to the PNG encode wrote as the reconstruction, pixel for pixel the image eval measured', async () => {
-    const enc = await cli('encode', '--codebook', p('out', 'rgb.json'), '--image', p('held', 'c.png'), '--out', p('out', 'c.cwq'), '--recon', p('out', 'c-recon.png'), '--error-map', p('out', 'c-err.png'), '--json');
+    const enc = await cli('encode', '--codebook', p('out', 'rgb.json'), '--image', p('held', 'c.png'), '--out', p('out', 'c.cwq'), '--recon', p('out', 'c-recon.png'), '--error-map', p('out', 'c-err.png'), '--metrics', '--json');
     expect(enc.stderr).toBe('');
     const dec = await cli('decode', '--codebook', p('out', 'rgb.json'), '--in', p('out', 'c.cwq'), '--out', p('out', 'c.png'));
     expect(dec.stderr).toBe('');

@@ -1,4 +1,4 @@
-import { mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { copyFileSync, mkdirSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import sharp from 'sharp';
@@ -30,6 +30,8 @@ beforeAll(async () => {
   const ramp = Buffer.alloc(40 * 24);
   for (let i = 0; i < ramp.length; i += 1) ramp[i] = (i % 40) * 6;
   await sharp(ramp, { raw: { width: 40, height: 24, channels: 1 } }).png().toFile(p('ramp.png'));
+  mkdirSync(p('ramp-only'));
+  copyFileSync(p('ramp.png'), p('ramp-only/ramp.png'));
 });
 
 afterAll(async () => {
@@ -57,6 +59,20 @@ describe('cellwright encode --payload', () => {
   it('writes a compressed payload for packed', async () => {
     const r = await cli('encode', '--codebook', p('book.json'), '--image', p('ramp.png'), '--out', p('packed.cwq'), '--payload', 'packed', '--json');
     expect(['deflate', 'brotli']).toContain(JSON.parse(r.stdout).coding);
+  });
+
+  it('reports the size alone, and MSE and PSNR only with --metrics (the decoded image\'s, as eval measures them)', async () => {
+    const plain = await cli('encode', '--codebook', p('book.json'), '--image', p('ramp.png'), '--out', p('m.cwq'), '--json');
+    expect(plain.stderr).toBe('');
+    expect(JSON.parse(plain.stdout)).not.toHaveProperty('mse');
+    expect(JSON.parse(plain.stdout)).not.toHaveProperty('psnr');
+    const text = await cli('encode', '--codebook', p('book.json'), '--image', p('ramp.png'), '--out', p('m.cwq'));
+    expect(text.stdout).not.toMatch(/MSE|PSNR/);
+    const measured = await cli('encode', '--codebook', p('book.json'), '--image', p('ramp.png'), '--out', p('m.cwq'), '--metrics', '--json');
+    const evalled = await cli('eval', '--codebook', p('book.json'), '--images', p('ramp-only'), '--json');
+    expect(evalled.stderr).toBe('');
+    expect(JSON.parse(measured.stdout).mse).toBe(JSON.parse(evalled.stdout).mse);
+    expect((await cli('encode', '--codebook', p('book.json'), '--image', p('ramp.png'), '--out', p('m.cwq'), '--metrics')).stdout).toMatch(/MSE [0-9.]+, PSNR /);
   });
 
   it('refuses --resync without --payload raw, and an unknown payload word, before writing anything', async () => {

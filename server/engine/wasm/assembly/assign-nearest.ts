@@ -476,3 +476,327 @@ export function finishRows(
   }
   return redecided;
 }
+
+
+// ===========================================================================================
+// Encoding search: one pass over an image's blocks, nothing kept between passes. Separate
+// from the training kernel above (it shares no function with it), so either can change alone.
+//
+// The block's basis Q = C_h ⊗ C_w ⊗ I_channels (the orthonormal two-dimensional DCT-II)
+// concentrates a natural image block's energy in a few coefficients (common practice in
+// transform coding). The caller picks the 8 coefficients of largest variance over the codebook
+// (L; the rest T) and sorts the codewords by the first of them. For a vector, ŷ_L = Q_L x is
+// computed (8 dot products), then the codewords are visited outward from the vector's place in
+// that order, four at a time, with a lower bound on the distance from the 8 coefficients and
+// the norm of the rest; those that pass get their float32 distance in the pixel domain, and the
+// few finalists their exact distance.
+//
+// Layouts (byte offsets into linear memory):
+//   xo     n × d f32, the block vectors as given (component order of io/patches.ts)
+//   qt     d × 8 f32: Q_L transposed (row i: component i of the 8 leading basis vectors)
+//   xr     dp f32 scratch: the vector zero-padded to dp
+//   cs     k × dp f32: the codewords by sorted position, zero-padded to dp
+//   lead   k f32: each sorted position's first leading coefficient (the sort key)
+//   zt     ⌈k/4⌉ groups × 8 × 4 f32: the leading coefficients of four positions, lane-wise
+//   ztrest ⌈k/4⌉ × 4 f32: ‖(Q c_j)_T‖, lane-wise
+//   c      k × d f32: the codewords as given, by index (for exact distances)
+//   perm   k i32: the codeword index at each sorted position
+//   cand   k × 8 bytes scratch: (position, float32 distance) of the candidates kept
+//   pend   n × 8 bytes scratch: (vector, index) of the vectors with a single finalist
+//   idx    n u32 output, dist n f64 output (exactDistance's bits)
+//
+// Exactness. The answer is the index of the smallest exact distance D̃ = Σ (x_i − c_i)² (in
+// order, float64), ties to the lowest index; D is the true real distance ‖x − c‖².
+//   (a) A float32 sum D32 of squared differences satisfies |D32 − D| ≤ γ·D + A for its
+//       non-negative terms, γ = m·u/(1 − m·u), u = 2^-24, m = dp + 10 roundings per term at
+//       most (difference, square, the additions of any order used here), A = 1e-30 for every
+//       absolute (subnormal) rounding; a partial sum is at most (1 + γ)·D + A (terms ≥ 0).
+//   (b) D = ‖Q(x − c)‖² = D_L + D_T (Q orthonormal). With ŷ_L and ẑ_L the stored leading
+//       coefficients, ‖ŷ_L − Q_L x‖ ≤ η‖x‖ and ‖ẑ_L − Q_L c‖ ≤ η‖c‖ (η: leadErrorBound in
+//       encode-kernel.ts), so √D_L ≥ ‖ŷ_L − ẑ_L‖ − ρ, ρ = η(‖x‖ + max‖c‖) (triangle
+//       inequality); likewise |ŷ_0 − ẑ_0| − ρ ≤ √D.
+//   (c) √D_T ≥ |‖(Qx)_T‖ − ‖(Qc)_T‖| (triangle inequality); ‖(Qx)_T‖² = ‖x‖² − ‖(Qx)_L‖²
+//       (Parseval), which lies within 2.1η‖x‖² (+ float64 rounding) of ‖x‖² − ‖ŷ_L‖², giving an
+//       interval [rlo, rhi] for ‖(Qx)_T‖; the float32 comparison gives away at most ε.
+// With B32 the smallest D32 seen so far (codeword b), D_b ≤ U² = (B32 + A)/(1 − γ). A codeword
+// j is dropped only when D_j is proven > Ts = U²·(1 + 1e-9)²: then D_j > D_b·(1 + 1e-9)² and,
+// float64 sums of d + 2 roundings being within a relative 1e-13 of D, D̃_j > D̃_b: j is neither
+// the nearest nor tied with it. The tests: the group bound (b) + (c) (computed in float32 with
+// P shrunk by its own error first, compared with Ts·(1 + 1e-6), which covers the few roundings
+// of the bound); the partial float32 distance (partial distance elimination) against
+// T32 = (1 + γ)·Ts + A; and, to stop the scan, (|ŷ_0 − ẑ_0| − ρ)² against Ts: the codewords
+// are sorted by ẑ_0, so the gap only grows along each side, and Ts only shrinks. The nearest
+// codeword and every codeword tied with it are never dropped; the finalists (D32 ≤ T32 at
+// the end) are compared by exact distance, ties to the lowest index. Vectors whose norms
+// could overflow float32 (or are not finite) take an exhaustive exact search.
+// ===========================================================================================
+
+const ENC_A: f64 = 1e-30;
+/** Leading coefficients of the first filter (xr and z rows hold at least this many, zero-padded). */
+const ENC_LEAD = 8;
+
+/** Float32 squared distance of two dp-rows (dp a multiple of 4); stops early above limit. */
+// @ts-ignore: decorator
+@inline
+function encDistance32(x: usize, c: usize, rowBytes: usize, limit: f64): f64 {
+  let a0 = f32x4.splat(0), a1 = f32x4.splat(0), a2 = f32x4.splat(0), a3 = f32x4.splat(0);
+  let o: usize = 0;
+  while (o + 64 <= rowBytes) {
+    const t0 = f32x4.sub(v128.load(x + o), v128.load(c + o));
+    const t1 = f32x4.sub(v128.load(x + o, 16), v128.load(c + o, 16));
+    const t2 = f32x4.sub(v128.load(x + o, 32), v128.load(c + o, 32));
+    const t3 = f32x4.sub(v128.load(x + o, 48), v128.load(c + o, 48));
+    a0 = f32x4.add(a0, f32x4.mul(t0, t0));
+    a1 = f32x4.add(a1, f32x4.mul(t1, t1));
+    a2 = f32x4.add(a2, f32x4.mul(t2, t2));
+    a3 = f32x4.add(a3, f32x4.mul(t3, t3));
+    o += 64;
+    const s = f32x4.add(f32x4.add(a0, a1), f32x4.add(a2, a3));
+    const p = <f64>((f32x4.extract_lane(s, 0) + f32x4.extract_lane(s, 1)) + (f32x4.extract_lane(s, 2) + f32x4.extract_lane(s, 3)));
+    if (p > limit) return p;
+  }
+  while (o < rowBytes) {
+    const t0 = f32x4.sub(v128.load(x + o), v128.load(c + o));
+    a0 = f32x4.add(a0, f32x4.mul(t0, t0));
+    o += 16;
+  }
+  const s = f32x4.add(f32x4.add(a0, a1), f32x4.add(a2, a3));
+  return <f64>((f32x4.extract_lane(s, 0) + f32x4.extract_lane(s, 1)) + (f32x4.extract_lane(s, 2) + f32x4.extract_lane(s, 3)));
+}
+
+/** Σ of the squares of four float32 lanes in float64 (in lane 0 of the result). */
+// @ts-ignore: decorator
+@inline
+function encSquares(v: v128): v128 {
+  const lo = f64x2.promote_low_f32x4(v);
+  const hi = f64x2.promote_low_f32x4(v128.shuffle<f32>(v, v, 2, 3, 0, 1));
+  const s = f64x2.add(f64x2.mul(lo, lo), f64x2.mul(hi, hi));
+  return f64x2.add(s, v128.shuffle<f64>(s, s, 1, 0));
+}
+
+/** exactDistance: Σ (x_i − c_i)² over i = 0..d−1 in this order, float64. */
+// @ts-ignore: decorator
+@inline
+function encExact(x: usize, c: usize, d: i32): f64 {
+  let s: f64 = 0;
+  for (let i = 0; i < d; i++) {
+    const t = <f64>load<f32>(x + <usize>i * 4) - <f64>load<f32>(c + <usize>i * 4);
+    s += t * t;
+  }
+  return s;
+}
+
+/**
+ * Nearest codeword of n block vectors for encoding (see the section comment for why every
+ * dropped codeword is provably not the answer). Writes idx and dist; returns how many
+ * vectors compared more than one finalist exactly.
+ */
+export function encodeRows(
+  xoPtr: usize, n: i32, d: i32, dp: i32, qtPtr: usize, xr: usize,
+  csPtr: usize, leadPtr: usize, ztPtr: usize, ztRestPtr: usize,
+  cPtr: usize, permPtr: usize, k: i32, maxNorm: f64, eta: f64,
+  candPtr: usize, pendPtr: usize, idxPtr: usize, distPtr: usize,
+): i32 {
+  const rowBytes = <usize>dp * 4;
+  const m = <f64>(dp + 10);
+  const gamma = (m * U32) / (1 - m * U32);
+  const groups = (k + 3) >> 2;
+  const groupBytes: usize = ENC_LEAD * 16;
+  const widen: f64 = (1 + 1e-9) * (1 + 1e-9);
+  let prev = -1;
+  let pending = 0;
+  let multi = 0;
+  for (let v = 0; v < n; v++) {
+    const xo = xoPtr + <usize>v * <usize>d * 4;
+    // The row zero-padded to dp, the squared norm, and the leading coefficients ŷ_L = Q_L x
+    // (float32, Σ_i x_i · Q_L[:, i], two accumulators of four coefficients).
+    let ss: f64 = 0;
+    let ya = f32x4.splat(0), yb = f32x4.splat(0);
+    for (let i = 0; i < d; i++) {
+      const t = load<f32>(xo + <usize>i * 4);
+      store<f32>(xr + <usize>i * 4, t);
+      ss += <f64>t * <f64>t;
+      const s = f32x4.splat(t);
+      ya = f32x4.add(ya, f32x4.mul(s, v128.load(qtPtr + <usize>i * 32)));
+      yb = f32x4.add(yb, f32x4.mul(s, v128.load(qtPtr + <usize>i * 32, 16)));
+    }
+    for (let i = d; i < dp; i++) store<f32>(xr + <usize>i * 4, 0);
+    const xn = Math.sqrt(ss);
+    if (!((xn + maxNorm) * (xn + maxNorm) < 1e30)) {
+      // Exhaustive exact search: overflow-prone or non-finite input.
+      let bd: f64 = Infinity;
+      let bj: i32 = -1;
+      for (let j = 0; j < k; j++) {
+        const dj = encExact(xo, cPtr + <usize>j * <usize>d * 4, d);
+        if (bj < 0 || dj < bd) { bd = dj; bj = j; }
+      }
+      store<u32>(idxPtr + <usize>v * 4, <u32>bj);
+      store<f64>(distPtr + <usize>v * 8, bd);
+      prev = -1;
+      continue;
+    }
+    const rho = eta * (xn + maxNorm) * (1 + 1e-9);
+    // ‖(Qx)_T‖² = ‖x‖² − ‖(Qx)_L‖² (Parseval); ‖ŷ_L‖ is within ρ_x = η‖x‖ of ‖(Qx)_L‖, so the
+    // square within 2.1η‖x‖², and ss within 1e-13 of ‖x‖²: the rest norm lies in [rlo, rhi].
+    const yl = f64x2.extract_lane(encSquares(ya), 0) + f64x2.extract_lane(encSquares(yb), 0);
+    const slack = (2.1 * eta + 1e-12) * ss * (1 + 1e-9) + ENC_A;
+    const r2 = ss - yl;
+    const rlo = r2 - slack > 0 ? Math.sqrt(r2 - slack) : 0;
+    const rhi = Math.sqrt((r2 > 0 ? r2 : 0) + slack);
+    const eps = <f32>(4 * U32 * (xn + maxNorm) + ENC_A);
+    const y0 = <f64>f32x4.extract_lane(ya, 0);
+    // First sorted position whose leading coefficient is ≥ the vector's.
+    let lo = 0, hi = k;
+    while (lo < hi) {
+      const mid = (lo + hi) >> 1;
+      if (<f64>load<f32>(leadPtr + <usize>mid * 4) < y0) lo = mid + 1; else hi = mid;
+    }
+    const start = lo < k ? lo : k - 1;
+    // Two first guesses: the codeword nearest in the leading coefficient and the previous
+    // block's winner (neighbouring blocks are often alike).
+    let best = encDistance32(xr, csPtr + <usize>start * rowBytes, rowBytes, Infinity);
+    let count = 1;
+    store<i32>(candPtr, start);
+    store<f32>(candPtr, <f32>best, 4);
+    if (prev >= 0 && prev != start) {
+      const dj = encDistance32(xr, csPtr + <usize>prev * rowBytes, rowBytes, Infinity);
+      store<i32>(candPtr + 8, prev);
+      store<f32>(candPtr + 8, <f32>dj, 4);
+      count = 2;
+      if (dj < best) best = dj;
+    }
+    let ts = (best + ENC_A) / (1 - gamma) * widen;
+    let t32 = (1 + gamma) * ts + ENC_A;
+    const p0 = prev;
+    let limit = f32x4.splat(<f32>(ts * (1 + 1e-6)));
+    let limit32 = t32;
+    // Lanes of ŷ_L as splats for the group filter.
+    const s0 = f32x4.splat(f32x4.extract_lane(ya, 0)), s1 = f32x4.splat(f32x4.extract_lane(ya, 1));
+    const s2 = f32x4.splat(f32x4.extract_lane(ya, 2)), s3 = f32x4.splat(f32x4.extract_lane(ya, 3));
+    const s4 = f32x4.splat(f32x4.extract_lane(yb, 0)), s5 = f32x4.splat(f32x4.extract_lane(yb, 1));
+    const s6 = f32x4.splat(f32x4.extract_lane(yb, 2)), s7 = f32x4.splat(f32x4.extract_lane(yb, 3));
+    const shrink = f32x4.splat(<f32>(1 - 4 * gamma));
+    const rhoV = f32x4.splat(<f32>(rho * (1 + 1e-6)));
+    const rloV = f32x4.splat(<f32>rlo), rhiV = f32x4.splat(<f32>rhi), epsV = f32x4.splat(eps);
+    const zero = f32x4.splat(0);
+    // Groups of four positions, outward from the start's group on both sides; a side stops
+    // once its nearest position's leading gap alone exceeds the bound (further groups lie
+    // further out).
+    let gDown = (start >> 2) - 1;
+    let gUp = start >> 2;
+    while (gDown >= 0 || gUp < groups) {
+      let gi: i32;
+      const gapDown = gDown >= 0 ? y0 - <f64>load<f32>(leadPtr + <usize>((gDown << 2) + 3) * 4) : Infinity;
+      const lastUp = gUp < groups ? min((gUp << 2), k - 1) : 0;
+      const gapUp = gUp < groups ? <f64>load<f32>(leadPtr + <usize>lastUp * 4) - y0 : Infinity;
+      if (gapDown <= gapUp) {
+        const g = gapDown - rho;
+        if (g > 0 && g * g * (1 - 1e-12) > ts) { gDown = -1; continue; }
+        gi = gDown--;
+      } else {
+        const g = gapUp - rho;
+        if (g > 0 && g * g * (1 - 1e-12) > ts) { gUp = groups; continue; }
+        gi = gUp++;
+      }
+      const zt = ztPtr + <usize>gi * groupBytes;
+      const t0 = f32x4.sub(s0, v128.load(zt)), t1 = f32x4.sub(s1, v128.load(zt, 16));
+      const t2 = f32x4.sub(s2, v128.load(zt, 32)), t3 = f32x4.sub(s3, v128.load(zt, 48));
+      const t4 = f32x4.sub(s4, v128.load(zt, 64)), t5 = f32x4.sub(s5, v128.load(zt, 80));
+      const t6 = f32x4.sub(s6, v128.load(zt, 96)), t7 = f32x4.sub(s7, v128.load(zt, 112));
+      const p = f32x4.add(
+        f32x4.add(f32x4.add(f32x4.mul(t0, t0), f32x4.mul(t1, t1)), f32x4.add(f32x4.mul(t2, t2), f32x4.mul(t3, t3))),
+        f32x4.add(f32x4.add(f32x4.mul(t4, t4), f32x4.mul(t5, t5)), f32x4.add(f32x4.mul(t6, t6), f32x4.mul(t7, t7))),
+      );
+      // (√P − ρ)₊² + (rest gap − ε)₊², P shrunk by its float32 error first.
+      let a = f32x4.pmax(f32x4.sub(f32x4.sqrt(f32x4.mul(p, shrink)), rhoV), zero);
+      const zr = v128.load(ztRestPtr + <usize>gi * 16);
+      let b = f32x4.sub(f32x4.pmax(f32x4.sub(zr, rhiV), f32x4.sub(rloV, zr)), epsV);
+      b = f32x4.pmax(b, zero);
+      const lb = f32x4.add(f32x4.mul(a, a), f32x4.mul(b, b));
+      let mask = i32x4.bitmask(f32x4.le(lb, limit));
+      while (mask != 0) {
+        const lane = ctz(mask);
+        mask &= mask - 1;
+        const q = (gi << 2) + lane;
+        if (q == start || q == p0 || q >= k) continue;
+        const dj = encDistance32(xr, csPtr + <usize>q * rowBytes, rowBytes, limit32);
+        if (dj > limit32) continue;
+        if (dj < best) {
+          best = dj;
+          ts = (best + ENC_A) / (1 - gamma) * widen;
+          t32 = (1 + gamma) * ts + ENC_A;
+          limit = f32x4.splat(<f32>(ts * (1 + 1e-6)));
+          limit32 = t32;
+        }
+        store<i32>(candPtr + <usize>count * 8, q);
+        store<f32>(candPtr + <usize>count * 8, <f32>dj, 4);
+        count++;
+      }
+    }
+    // Finalists: the candidates still within T32 of the final B32.
+    let finalists = 0;
+    let only = -1;
+    for (let c = 0; c < count; c++) {
+      if (<f64>load<f32>(candPtr + <usize>c * 8, 4) <= t32) {
+        finalists++;
+        only = load<i32>(candPtr + <usize>c * 8);
+      }
+    }
+    if (finalists == 1) {
+      store<i32>(pendPtr + <usize>pending * 8, v);
+      store<i32>(pendPtr + <usize>pending * 8, load<i32>(permPtr + <usize>only * 4), 4);
+      pending++;
+      prev = only;
+      continue;
+    }
+    multi++;
+    let bd: f64 = Infinity;
+    let bj: i32 = -1;
+    let bp = 0;
+    for (let c = 0; c < count; c++) {
+      if (!(<f64>load<f32>(candPtr + <usize>c * 8, 4) <= t32)) continue;
+      const p = load<i32>(candPtr + <usize>c * 8);
+      const j = load<i32>(permPtr + <usize>p * 4);
+      const dj = encExact(xo, cPtr + <usize>j * <usize>d * 4, d);
+      if (bj < 0 || dj < bd || (dj == bd && j < bj)) { bd = dj; bj = j; bp = p; }
+    }
+    store<u32>(idxPtr + <usize>v * 4, <u32>bj);
+    store<f64>(distPtr + <usize>v * 8, bd);
+    prev = bp;
+  }
+  // Exact distances of the single finalists, four vectors at a time: independent float64
+  // chains, each still summed over i = 0..d−1 in order (exactDistance's bits).
+  const xBytes = <usize>d * 4;
+  for (let q = 0; q < pending; q += 4) {
+    const q1 = min(q + 1, pending - 1), q2 = min(q + 2, pending - 1), q3 = min(q + 3, pending - 1);
+    const v0 = load<i32>(pendPtr + <usize>q * 8), j0 = load<i32>(pendPtr + <usize>q * 8, 4);
+    const v1 = load<i32>(pendPtr + <usize>q1 * 8), j1 = load<i32>(pendPtr + <usize>q1 * 8, 4);
+    const v2 = load<i32>(pendPtr + <usize>q2 * 8), j2 = load<i32>(pendPtr + <usize>q2 * 8, 4);
+    const v3 = load<i32>(pendPtr + <usize>q3 * 8), j3 = load<i32>(pendPtr + <usize>q3 * 8, 4);
+    const x0 = xoPtr + <usize>v0 * xBytes, x1 = xoPtr + <usize>v1 * xBytes;
+    const x2 = xoPtr + <usize>v2 * xBytes, x3 = xoPtr + <usize>v3 * xBytes;
+    const c0 = cPtr + <usize>j0 * xBytes, c1 = cPtr + <usize>j1 * xBytes;
+    const c2 = cPtr + <usize>j2 * xBytes, c3 = cPtr + <usize>j3 * xBytes;
+    let s0: f64 = 0, s1: f64 = 0, s2: f64 = 0, s3: f64 = 0;
+    for (let o: usize = 0; o < xBytes; o += 4) {
+      const t0 = <f64>load<f32>(x0 + o) - <f64>load<f32>(c0 + o);
+      const t1 = <f64>load<f32>(x1 + o) - <f64>load<f32>(c1 + o);
+      const t2 = <f64>load<f32>(x2 + o) - <f64>load<f32>(c2 + o);
+      const t3 = <f64>load<f32>(x3 + o) - <f64>load<f32>(c3 + o);
+      s0 += t0 * t0;
+      s1 += t1 * t1;
+      s2 += t2 * t2;
+      s3 += t3 * t3;
+    }
+    // Slots past the end repeat the last vector; writing its values again is harmless.
+    store<u32>(idxPtr + <usize>v0 * 4, <u32>j0);
+    store<u32>(idxPtr + <usize>v1 * 4, <u32>j1);
+    store<u32>(idxPtr + <usize>v2 * 4, <u32>j2);
+    store<u32>(idxPtr + <usize>v3 * 4, <u32>j3);
+    store<f64>(distPtr + <usize>v0 * 8, s0);
+    store<f64>(distPtr + <usize>v1 * 8, s1);
+    store<f64>(distPtr + <usize>v2 * 8, s2);
+    store<f64>(distPtr + <usize>v3 * 8, s3);
+  }
+  return multi;
+}

@@ -14,9 +14,16 @@ import type { IterationStat, TrainedCodebook } from './types';
  */
 
 /** Shift rounds tried per codebook size; a round ends the shifting when it is not kept or finds no pair. */
-export const SHIFT_ROUNDS = 3;
+export const SHIFT_ROUNDS = 4;
 /** At most one shift per this many codewords in one round (at least one), so one Lloyd run tries many moves. */
 export const SHIFT_FRACTION = 8;
+/**
+ * The looser of the two thresholds a round tries (gain above this share of the removal cost). Both estimates are
+ * conservative — the gain is a cut through the codeword, not a 2-means, and the cost assumes one absorbing cell —
+ * so pairs estimated slightly at a loss often pay once Lloyd has moved the neighbours; on the bench's ladders half
+ * the cost kept more moves at most sizes than the full cost did, and the full cost is tried when it is not kept.
+ */
+export const SHIFT_LEAN = 0.5;
 /** Cells whose split gain is measured in one round: this many per shift allowed (the cells of largest error). */
 const CANDIDATES_PER_SHIFT = 8;
 
@@ -82,12 +89,12 @@ export function splitGain(halves: PrincipalHalves, row: number, centre: Float32A
 
 /**
  * The shifts of one round: split candidates by falling gain, removals by rising cost (lowest index on ties), paired
- * greedily while the gain exceeds the cost, at most `max` of them. A cell takes part in at most one shift, and the
+ * greedily while the gain exceeds `weight` times the cost (0: any pair), at most `max` of them. A cell takes part in at most one shift, and the
  * cell that absorbs a removed codeword's vectors is neither removed nor split in the same round (the cost assumes it
  * stays).
  */
 export function chooseShifts(
-  book: TrainedCodebook, d: number, cells: Uint32Array, halves: PrincipalHalves, max: number, anyEstimate = false,
+  book: TrainedCodebook, d: number, cells: Uint32Array, halves: PrincipalHalves, max: number, weight = 1,
 ): Shift[] {
   const k = book.size;
   const { cost, nearest } = removalCosts(book.codewords, d, book.usage);
@@ -104,7 +111,7 @@ export function chooseShifts(
     while (next < k && (busy[removals[next]] || removals[next] === to || busy[nearest[removals[next]]] || nearest[removals[next]] === to)) next++;
     if (next >= k) break;
     const from = removals[next];
-    if (!anyEstimate && !(gain > cost[from])) break;
+    if (!(gain > weight * cost[from])) break;
     shifts.push({ from, to, row, estimate: gain - cost[from] });
     busy[from] = 1;
     busy[to] = 1;
@@ -122,6 +129,60 @@ export function applyShifts(codewords: Float32Array, d: number, shifts: readonly
     out.set(halves.lower.subarray(s.row * d, (s.row + 1) * d), s.from * d);
   }
   return out;
+}
+
+/**
+ * The shift sets a round tries, in order: those whose split gain exceeds SHIFT_LEAN times the removal cost (more
+ * moves), then those whose gain exceeds the cost (the surer ones), each only if it differs from the one before; when
+ * neither finds a pair and a blind shift is allowed, the single best-estimated pair.
+ */
+export function shiftTrials(
+  book: TrainedCodebook, d: number, cells: Uint32Array, halves: PrincipalHalves, max: number, blindAllowed: boolean,
+): Array<{ shifts: Shift[]; blind: boolean }> {
+  const out: Array<{ shifts: Shift[]; blind: boolean }> = [];
+  for (const weight of [SHIFT_LEAN, 1]) {
+    const shifts = chooseShifts(book, d, cells, halves, max, weight);
+    const same = out.length > 0 && JSON.stringify(out[out.length - 1].shifts) === JSON.stringify(shifts);
+    if (shifts.length > 0 && !same) out.push({ shifts, blind: false });
+  }
+  if (out.length === 0 && blindAllowed) {
+    const shifts = chooseShifts(book, d, cells, halves, 1, 0);
+    if (shifts.length > 0) out.push({ shifts, blind: true });
+  }
+  return out;
+}
+
+/**
+ * Trains each shift set from `best` (whose partition the shards hold) in turn and returns the first that ends below
+ * it, as `best` extended by one trace entry; undefined when none does. A rejected trial's shards go back to `best`'s
+ * partition.
+ */
+async function firstKept(
+  ctx: LloydContext, best: TrainedCodebook, trials: Array<{ shifts: Shift[]; blind: boolean }>, halves: PrincipalHalves, left: number,
+): Promise<TrainedCodebook | undefined> {
+  const k = best.size;
+  for (const { shifts, blind } of trials) {
+    throwIfAborted(ctx.signal);
+    const start = applyShifts(best.codewords, ctx.d, shifts, halves);
+    const trial = await runLloyd(
+      { ...ctx, maxIterations: left, onIteration: undefined, progress: undefined }, start, k, blind ? Infinity : best.distortion,
+    );
+    if (trial.iterations > 0 && trial.distortion < best.distortion) {
+      // One trace entry for the round: a blind round's first updates lie above where `best` ended, so its own
+      // entries would make the trace rise; the round's end lies below.
+      const sum = (f: (t: IterationStat) => number) => trial.trace.reduce((a, t) => a + f(t), 0);
+      const entry: IterationStat = {
+        size: k, iteration: best.iterations + trial.iterations, distortion: trial.distortion,
+        emptyRepaired: sum((t) => t.emptyRepaired), elapsedMs: sum((t) => t.elapsedMs),
+        redecided: sum((t) => t.redecided ?? 0), searched: sum((t) => t.searched ?? 0), shifted: 2 * shifts.length,
+      };
+      ctx.onIteration?.(entry);
+      ctx.progress?.(k, entry.iteration, entry.distortion);
+      return { ...trial, iterations: entry.iteration, trace: [...best.trace, entry] };
+    }
+    await ctx.shards.assign(best.codewords, k, ctx.signal);
+  }
+  return undefined;
 }
 
 /**
@@ -160,31 +221,9 @@ export async function shiftCodewords(ctx: LloydContext, book: TrainedCodebook, l
         .sort((a, b) => a - b),
     );
     const halves = await principalHalves(best, d, cells, ctx.shards, ctx.signal);
-    let shifts = chooseShifts(best, d, cells, halves, max);
-    const blind = shifts.length === 0 && blindAllowed;
-    if (blind) shifts = chooseShifts(best, d, cells, halves, 1, true);
-    if (shifts.length === 0) break;
-    const start = applyShifts(best.codewords, d, shifts, halves);
-    const trial = await runLloyd(
-      { ...ctx, maxIterations: left, onIteration: undefined, progress: undefined }, start, k, blind ? Infinity : best.distortion,
-    );
-    if (trial.iterations > 0 && trial.distortion < best.distortion) {
-      // One trace entry for the round: a blind round's first updates lie above where `best` ended, so its own
-      // entries would make the trace rise; the round's end lies below.
-      const sum = (f: (t: IterationStat) => number) => trial.trace.reduce((a, t) => a + f(t), 0);
-      const entry: IterationStat = {
-        size: k, iteration: best.iterations + trial.iterations, distortion: trial.distortion,
-        emptyRepaired: sum((t) => t.emptyRepaired), elapsedMs: sum((t) => t.elapsedMs),
-        redecided: sum((t) => t.redecided ?? 0), searched: sum((t) => t.searched ?? 0), shifted: 2 * shifts.length,
-      };
-      ctx.onIteration?.(entry);
-      ctx.progress?.(k, entry.iteration, entry.distortion);
-      best = { ...trial, iterations: entry.iteration, trace: [...best.trace, entry] };
-      continue;
-    }
-    // Not kept: the shards go back to the kept codebook's partition.
-    await ctx.shards.assign(best.codewords, k, ctx.signal);
-    break;
+    const kept = await firstKept(ctx, best, shiftTrials(best, d, cells, halves, max, blindAllowed), halves, left);
+    if (!kept) break;
+    best = kept;
   }
   return best;
 }

@@ -134,7 +134,7 @@ export function applyShifts(codewords: Float32Array, d: number, shifts: readonly
 /**
  * The shift sets a round tries, in order: those whose split gain exceeds SHIFT_LEAN times the removal cost (more
  * moves), then those whose gain exceeds the cost (the surer ones), each only if it differs from the one before; when
- * neither finds a pair and a blind shift is allowed, the single best-estimated pair.
+ * neither finds a pair and a blind shift is allowed, the BLIND_TRIALS best-estimated pairs, each alone.
  */
 export function shiftTrials(
   book: TrainedCodebook, d: number, cells: Uint32Array, halves: PrincipalHalves, max: number, blindAllowed: boolean,
@@ -146,8 +146,7 @@ export function shiftTrials(
     if (shifts.length > 0 && !same) out.push({ shifts, blind: false });
   }
   if (out.length === 0 && blindAllowed) {
-    const shifts = chooseShifts(book, d, cells, halves, 1, 0);
-    if (shifts.length > 0) out.push({ shifts, blind: true });
+    for (const shift of chooseShifts(book, d, cells, halves, BLIND_TRIALS, 0)) out.push({ shifts: [shift], blind: true });
   }
   return out;
 }
@@ -187,19 +186,21 @@ async function firstKept(
 
 /**
  * Sizes trained blind: a codebook at most this fraction of the ladder's largest size, when no shift is expected to
- * pay, still tries its single best-estimated shift and trains it to convergence. The estimates are conservative (the
+ * pay, still tries its best-estimated pairs (BLIND_TRIALS, one at a time) and trains each to convergence. The estimates are conservative (the
  * split gain is a cut through the codeword, not a 2-means, and the removal cost assumes one absorbing cell), so a
  * shift estimated at a loss often still wins once Lloyd has moved the neighbours; at these sizes a whole Lloyd run
  * costs at most an eighth of the largest size's, and on the bench's ladders such shifts were kept at most sizes.
  */
 export const BLIND_FRACTION = 8;
+/** Pairs a blind round tries one after another (best estimate first) until one is kept. */
+export const BLIND_TRIALS = 2;
 
 /**
  * `book` (the last Lloyd result on ctx.shards, whose last pass is its partition) after up to SHIFT_ROUNDS kept rounds
  * of shifts; `largest` is the ladder's largest size. A round shifts every pair chooseShifts expects to pay (at most
  * one in SHIFT_FRACTION codewords) and trains the shifted codebook with what is left of the size's maximum
  * iterations, stopping after the first update unless that update is already below `book`; a blind round (see
- * BLIND_FRACTION) trains its one shift to convergence. A round is kept only if it ends below the codebook it started
+ * BLIND_FRACTION) trains each of its single shifts to convergence. A round is kept only if it ends below the codebook it started
  * from, and is one entry of the size's trace (IterationStat.shifted), so the trace never rises. On return the shards' last pass is the
  * returned codebook's partition.
  */

@@ -49,10 +49,11 @@ async function repair(ctx: LloydContext, current: Pass, k: number): Promise<numb
  * epsilon 0), or maxIterations updates are done.
  * If an update raises the distortion (float32 rounding of the centroids at convergence
  * can do that by a hair) the previous codebook is kept and the run stops.
+ * With `beat` given, training stops after the first update when that update's distortion is not below it (see shift-cells.ts).
  * Each iteration is one pass of every shard; the statistics and centroids are folded from the shards' partials in
  * shard order (shard-fold.ts), so the result does not depend on where the shards were computed.
  */
-export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: number): Promise<TrainedCodebook> {
+export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: number, beat = Infinity): Promise<TrainedCodebook> {
   const { d, n, signal } = ctx;
   const trace: IterationStat[] = [];
   const scale = n * d;
@@ -73,7 +74,7 @@ export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: nu
   const previous = new Float32Array(k * d);
   const scratch = new Float64Array(k * d);
   let iterations = 0;
-  while (iterations < ctx.maxIterations && distortion > 0) {
+  while (iterations < ctx.maxIterations && distortion > 0 && (iterations === 0 || distortion < beat)) {
     if (signal?.aborted) throw abortError(signal);
     t0 = performance.now();
     const repaired = await repair(ctx, current, k);

@@ -122,13 +122,25 @@ export async function splitAlongPrincipalDirections(
   return out;
 }
 
+/** The halves of the cells asked: row r for cells[r]. */
+export interface PrincipalHalves {
+  /** m × d: the centroid of the side (x − c)·u > 0 (or c + s·u when a side is empty). */
+  upper: Float32Array;
+  /** m × d: the centroid of the other side (or c − s·u). */
+  lower: Float32Array;
+  /** m: vectors on the upper side. */
+  upperCounts: Uint32Array;
+  /** m: vectors of the cell. */
+  counts: Uint32Array;
+}
+
 /**
  * The two halves of each cell asked (ascending), by the principal split's rule (splitAlongPrincipalDirections):
  * `upper` and `lower`, m × d each, row r for cells[r].
  */
 export async function principalHalves(
   book: TrainedCodebook, d: number, cells: Uint32Array, shards: ShardExecutor, signal?: AbortSignal,
-): Promise<{ upper: Float32Array; lower: Float32Array }> {
+): Promise<PrincipalHalves> {
   const m = cells.length;
   const centres = new Float32Array(m * d);
   cells.forEach((j, r) => centres.set(book.codewords.subarray(j * d, (j + 1) * d), r * d));
@@ -165,7 +177,7 @@ export async function principalHalves(
       lowerOut[o + i] = centres[o + i] - s * directions[o + i];
     }
   }
-  return { upper: upperOut, lower: lowerOut };
+  return { upper: upperOut, lower: lowerOut, upperCounts: sums.upperCounts, counts: sums.counts };
 }
 
 /** u ← S u / ‖S u‖ per row; a row whose product is zero (no spread) or not finite keeps its direction. */

@@ -19,6 +19,11 @@ export interface IterationStat {
    * excluded by the bounds.
    */
   searched?: number;
+  /**
+   * Codewords moved by a kept round of shifts (core/shift-cells.ts). Such an entry stands for the whole round: its
+   * iteration counts the round's updates, its distortion is where the round ended, its times and counts are summed.
+   */
+  shifted?: number;
 }
 
 export interface TrainProgress {

@@ -5,6 +5,7 @@ import { EngineError, abortError, throwIfAborted } from '../core/errors';
 import { initRandom, seedOverShards } from '../core/init';
 import { runLloyd, type LloydContext } from '../core/lloyd';
 import { createRng } from '../core/rng';
+import { shiftCodewords } from '../core/shift-cells';
 import { splitAlongPrincipalDirections } from '../core/split';
 import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook } from '../core/types';
 import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from '../core/validate';
@@ -128,7 +129,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
       for (let i = 1; i < sizes.length; i++) {
         throwIfAborted(signal);
         const next = await splitAlongPrincipalDirections(book, d, sizes[i], shards, signal);
-        book = await runLloyd(ctx, next, sizes[i]);
+        book = await shiftCodewords(ctx, await runLloyd(ctx, next, sizes[i]), k);
         codebooks.push(book);
         doneWeight += sizes[i];
       }

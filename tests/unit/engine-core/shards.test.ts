@@ -193,8 +193,9 @@ describe('training over shards', () => {
   });
 
   it('gives the same split-trained ladder bit for bit on one thread, two threads and shards spread over machines', async () => {
-    // Every split asks the shards for its direction and halves' sums (ShardExecutor.splitSums), folded in shard order.
-    const ladder = { k: 16, init: 'split' as const, epsilon: 1e-4, maxIterations: 8 };
+    // Every split asks the shards for its direction and halves' sums (ShardExecutor.splitSums), folded in shard order,
+    // and so does every codeword shift (core/shift-cells.ts), whose choice reads only the folded statistics.
+    const ladder = { k: 16, init: 'split' as const, epsilon: 1e-4, maxIterations: 30 };
     const one = await train(vectors, D, { ...ladder, threads: 1 });
     const two = await train(vectors, D, { ...ladder, threads: 2 });
     const spread = await train(vectors, D, { ...ladder, openShards: async () => spreadShards(vectors, 2, 5) });
@@ -202,6 +203,7 @@ describe('training over shards', () => {
     expect(one.codebooks.map((b) => b.size)).toEqual([1, 2, 4, 8, 16]);
     expect(bytes(two)).toEqual(bytes(one));
     expect(bytes(spread)).toEqual(bytes(one));
+    expect(one.codebooks.some((b) => b.trace.some((t) => t.shifted !== undefined))).toBe(true);
   });
 
   it('equals the plainly written Lloyd iteration with the shard rule for the sums', async () => {

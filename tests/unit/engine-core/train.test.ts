@@ -55,8 +55,9 @@ describe('train', () => {
     const sweep = await train(gaussian(400, 2, 5), 2, { k: 8, init: 'split', epsilon: 0, maxIterations: 1000 });
     for (const book of sweep.codebooks) {
       expect(book.iterations).toBeLessThan(1000);
-      // The last pass is where the distortion stopped dropping: nothing after a zero drop.
-      const own = book.trace.filter((s) => s.size === book.size);
+      // Lloyd's last pass is where the distortion stopped dropping: nothing after a zero drop (a kept round of
+      // codeword shifts, one entry marked `shifted`, may follow and lower it further).
+      const own = book.trace.filter((s) => s.size === book.size && s.shifted === undefined);
       const last = own.at(-1)!;
       const before = own.at(-2);
       if (before) expect(last.distortion).toBeGreaterThanOrEqual(before.distortion);

@@ -1,0 +1,100 @@
+import { afterAll, describe, expect, it } from 'vitest';
+import { runLloyd, type LloydContext } from '../../../server/engine/core/lloyd';
+import { chooseShifts, removalCosts, shiftCodewords, splitGain } from '../../../server/engine/core/shift-cells';
+import type { PrincipalHalves } from '../../../server/engine/core/split';
+import type { TrainedCodebook } from '../../../server/engine/core/types';
+import { openLocalShards } from '../../../server/engine/training/local-shards';
+import { shutdownEngineWorkers } from '../../../server/engine/training/index';
+
+afterAll(() => shutdownEngineWorkers());
+
+/** Total squared error of points (d = 1) about their own mean, written out. */
+const sse = (xs: number[]) => {
+  const mean = xs.reduce((a, b) => a + b, 0) / xs.length;
+  return xs.reduce((a, x) => a + (x - mean) ** 2, 0);
+};
+
+/** A codebook record of the given codewords (d = 1) and usage; only what the shift choice reads. */
+function book(codewords: number[], usage: number[], cellDistortion: number[]): TrainedCodebook {
+  return {
+    size: codewords.length, codewords: Float32Array.from(codewords), usage: Uint32Array.from(usage),
+    cellDistortion: Float64Array.from(cellDistortion), distortion: 0, iterations: 0, trace: [],
+  };
+}
+
+describe('codeword shifts', () => {
+  it('costs a removal as the rise in error of merging the cell into its best neighbour (Ward 1963)', () => {
+    // Cells A = {0, 2} (centroid 1), B = {5, 7} (centroid 6), C = {100}. Written out: merging A and B gives
+    // {0, 2, 5, 7} about 3.5, 29, against 2 + 2 apart: a rise of 25 = (2·2/4)·(6 − 1)².
+    const a = [0, 2];
+    const b = [5, 7];
+    expect(sse([...a, ...b]) - sse(a) - sse(b)).toBe(25);
+    const { cost, nearest } = removalCosts(Float32Array.from([1, 6, 100]), 1, Uint32Array.from([2, 2, 1]));
+    expect(Array.from(nearest)).toEqual([1, 0, 1]);
+    expect(cost[0]).toBe(25);
+    expect(cost[1]).toBe(25);
+    // C into B: {5, 7, 100} about 112/3 against 2 + 0 apart, the smaller of the two merges (into A: 6534).
+    expect(cost[2]).toBeCloseTo(sse([5, 7, 100]) - sse(b), 9);
+    expect(cost[2]).toBeLessThan(sse([0, 2, 100]) - sse(a));
+  });
+
+  it('measures a split’s gain as the fall from the error about the codeword to the halves’ own errors', () => {
+    // Cell {0, 2, 5, 7} with codeword 3.5, cut into {0, 2} and {5, 7}: 29 − (2 + 2) = 25.
+    const halves: PrincipalHalves = {
+      upper: Float32Array.from([6]), lower: Float32Array.from([1]), upperCounts: Uint32Array.from([2]), counts: Uint32Array.from([4]),
+    };
+    expect(splitGain(halves, 0, Float32Array.from([3.5]), 1)).toBe(sse([0, 2, 5, 7]) - sse([0, 2]) - sse([5, 7]));
+    // About another codeword (3) the fall includes the codeword's own offset: Σ(x − 3)² = 9 + 1 + 4 + 16 = 30, so 26.
+    expect(splitGain(halves, 0, Float32Array.from([3]), 1)).toBe(26);
+    // A cell all on one side has no centroid pair: no gain is claimed.
+    const oneSided = { ...halves, upperCounts: Uint32Array.from([4]) };
+    expect(splitGain(oneSided, 0, Float32Array.from([3.5]), 1)).toBe(0);
+  });
+
+  it('pairs the cheapest removal with the largest gain and leaves the absorbing cell alone', () => {
+    // Codewords 0 and 1 share one tight cluster; codeword 2 (at 150) covers two clusters, at 100 and 200.
+    const b = book([-1, 1, 150], [10, 10, 20], [0, 0, 20 * 2500]);
+    const halves: PrincipalHalves = {
+      upper: Float32Array.from([200]), lower: Float32Array.from([100]), upperCounts: Uint32Array.from([10]), counts: Uint32Array.from([20]),
+    };
+    const shifts = chooseShifts(b, 1, Uint32Array.from([2]), halves, 1);
+    // Removing codeword 0 costs (10·10/20)·2² = 20 (ties with codeword 1 go to the lower index); the split gains
+    // 10·50² + 10·50² = 50,000.
+    expect(shifts).toEqual([{ from: 0, to: 2, row: 0, estimate: 50_000 - 20 }]);
+    // Nothing pays when the split gains less than the cheapest removal costs.
+    const small: PrincipalHalves = { ...halves, upper: Float32Array.from([150.5]), lower: Float32Array.from([149.5]) };
+    expect(chooseShifts(b, 1, Uint32Array.from([2]), small, 1)).toEqual([]);
+  });
+
+  it('moves a codeword Lloyd cannot move and reaches the hand-computed optimum of three clusters', async () => {
+    // Points ±1 about 0, 100 and 200 (d = 1), 2,000 of each. The best 3-codebook is {0, 100, 200} with squared
+    // error 1 per point. From −1, 1 and 150 Lloyd is at a fixed point: the first two codewords halve the cluster at
+    // 0 and the third sits at the mean of the other two clusters, squared error 50² ± 2·50 + 1 per point there.
+    const pattern = [-1, 1, 99, 101, 199, 201];
+    const vectors = Float32Array.from({ length: 6 * 2000 }, (_, v) => pattern[v % 6]);
+    const n = vectors.length;
+    const shards = await openLocalShards(vectors, 1, { threads: 1, maxK: 3 });
+    try {
+      const ctx: LloydContext = { d: 1, n, shards, epsilon: 1e-6, maxIterations: 50 };
+      const stuck = await runLloyd(ctx, Float32Array.from([-1, 1, 150]), 3);
+      expect(Array.from(stuck.codewords)).toEqual([-1, 1, 150]);
+      expect(stuck.distortion).toBeCloseTo((2 * 0 + 4 * 2501) / 6, 9);
+      const seen: number[] = [];
+      const shifted = await shiftCodewords({ ...ctx, onIteration: (s) => seen.push(s.shifted ?? 0) }, stuck, 3);
+      expect(Array.from(shifted.codewords).sort((a, b) => a - b)).toEqual([0, 100, 200]);
+      expect(shifted.distortion).toBe(1);
+      // One trace entry for the kept round, below where Lloyd stopped, reported as it is kept.
+      const entry = shifted.trace.at(-1)!;
+      expect(entry.shifted).toBe(2);
+      expect(entry.distortion).toBe(1);
+      expect(seen).toEqual([2]);
+      expect(shifted.iterations).toBe(entry.iteration);
+      expect(shifted.trace.slice(0, stuck.trace.length)).toEqual(stuck.trace);
+      // The shards were left on the kept codebook's partition: another round finds nothing worth moving.
+      const again = await shiftCodewords(ctx, shifted, 3);
+      expect(again).toBe(shifted);
+    } finally {
+      await shards.close();
+    }
+  });
+});

@@ -1,7 +1,10 @@
 import { throwIfAborted } from './errors';
 import { runLloyd, type LloydContext } from './lloyd';
 import { principalHalves, type PrincipalHalves } from './split';
-import type { IterationStat, TrainedCodebook } from './types';
+import type { IterationStat, ShardExecutor, TrainedCodebook } from './types';
+
+/** Shifts need the shards' split sums too, besides the Lloyd passes (a ladder's executor has them; a tree node's view does not). */
+export type ShiftContext = LloydContext & { shards: ShardExecutor };
 
 /*
  * Codeword shifts after Lloyd has converged, in the manner of the enhanced LBG (Patanè & Russo, "The enhanced LBG
@@ -157,7 +160,7 @@ export function shiftTrials(
  * partition.
  */
 async function firstKept(
-  ctx: LloydContext, best: TrainedCodebook, trials: Array<{ shifts: Shift[]; blind: boolean }>, halves: PrincipalHalves, left: number,
+  ctx: ShiftContext, best: TrainedCodebook, trials: Array<{ shifts: Shift[]; blind: boolean }>, halves: PrincipalHalves, left: number,
 ): Promise<TrainedCodebook | undefined> {
   const k = best.size;
   for (const { shifts, blind } of trials) {
@@ -204,7 +207,7 @@ export const BLIND_TRIALS = 2;
  * from, and is one entry of the size's trace (IterationStat.shifted), so the trace never rises. On return the shards' last pass is the
  * returned codebook's partition.
  */
-export async function shiftCodewords(ctx: LloydContext, book: TrainedCodebook, largest: number): Promise<TrainedCodebook> {
+export async function shiftCodewords(ctx: ShiftContext, book: TrainedCodebook, largest: number): Promise<TrainedCodebook> {
   const { d } = ctx;
   const k = book.size;
   if (k < 3) return book;

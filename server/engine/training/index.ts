@@ -3,9 +3,9 @@
 import { accumulateCentroids } from '../core/accumulate-centroids';
 import { EngineError, abortError, throwIfAborted } from '../core/errors';
 import { initRandom, seedOverShards } from '../core/init';
-import { runLloyd, type LloydContext } from '../core/lloyd';
+import { runLloyd } from '../core/lloyd';
 import { createRng } from '../core/rng';
-import { shiftCodewords } from '../core/shift-cells';
+import { shiftCodewords, type ShiftContext } from '../core/shift-cells';
 import { splitAlongPrincipalDirections } from '../core/split';
 import type { Assignment, InitMethod, TrainOptions, TrainResult, TrainedCodebook } from '../core/types';
 import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from '../core/validate';
@@ -104,7 +104,7 @@ export async function train(vectors: Float32Array, dimension: number, options: T
       else start = await seedOverShards(vectors, d, k, rng, shards, signal);
       throwIfAborted(signal);
     }
-    const ctx: LloydContext = {
+    const ctx: ShiftContext = {
       d, n, shards, epsilon, maxIterations, signal,
       onIteration: options.onIteration,
       progress: options.onProgress

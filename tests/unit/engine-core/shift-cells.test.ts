@@ -1,6 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { runLloyd, type LloydContext } from '../../../server/engine/core/lloyd';
-import { chooseShifts, removalCosts, shiftCodewords, splitGain } from '../../../server/engine/core/shift-cells';
+import { runLloyd } from '../../../server/engine/core/lloyd';
+import { chooseShifts, removalCosts, shiftCodewords, splitGain, type ShiftContext } from '../../../server/engine/core/shift-cells';
 import type { PrincipalHalves } from '../../../server/engine/core/split';
 import type { TrainedCodebook } from '../../../server/engine/core/types';
 import { openLocalShards } from '../../../server/engine/training/local-shards';
@@ -75,7 +75,7 @@ describe('codeword shifts', () => {
     const n = vectors.length;
     const shards = await openLocalShards(vectors, 1, { threads: 1, maxK: 3 });
     try {
-      const ctx: LloydContext = { d: 1, n, shards, epsilon: 1e-6, maxIterations: 50 };
+      const ctx: ShiftContext = { d: 1, n, shards, epsilon: 1e-6, maxIterations: 50 };
       const stuck = await runLloyd(ctx, Float32Array.from([-1, 1, 150]), 3);
       expect(Array.from(stuck.codewords)).toEqual([-1, 1, 150]);
       expect(stuck.distortion).toBeCloseTo((2 * 0 + 4 * 2501) / 6, 9);

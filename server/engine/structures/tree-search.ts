@@ -1,6 +1,6 @@
 // Fast exact descent of a tree-structured codebook: one hyperplane test per internal node instead of two distances,
 // deciding exactly as the plain descent (two float64 distances, left on ties) does. See `descend` for the argument.
-import { exactDistance } from '../core/exact-distance';
+import { kernelDescendTree } from '../wasm/tree-kernel';
 import type { TreeStructure } from './types';
 
 /**
@@ -83,59 +83,9 @@ export interface TreeDescent {
  * left when below it, and inside it right exactly when the plain descent goes right (‖x − c_r‖² < ‖x − c_l‖² by
  * exactDistance; left on ties). The same leaf as the plain descent for every vector, in d multiply-adds a level
  * instead of 2·d subtract-multiply-adds; the leaf's distance is exactDistance, the bits the plain descent reports.
+ * The loop runs in the engine's WebAssembly module (float64 SIMD, the same float64 operations: wasm/tree-kernel.ts).
  */
 export function descendTree(plan: TreeSearchPlan, codewords: Float32Array, vectors: Float32Array): TreeDescent {
-  const { d, children, normals, thresholds, radii, slack } = plan;
-  const n = vectors.length / d;
-  const paths = new Uint32Array(n);
-  const lengths = new Uint8Array(n);
-  const leaves = new Uint32Array(n);
-  const distances = new Float64Array(n);
-  const x = new Float64Array(d);
-  let redecided = 0;
-  for (let v = 0; v < n; v++) {
-    const o = v * d;
-    let xx = 0;
-    for (let i = 0; i < d; i++) {
-      const xi = vectors[o + i];
-      x[i] = xi;
-      xx += xi * xi;
-    }
-    const xn = Math.sqrt(xx) * UP;
-    let t = 0;
-    let path = 0;
-    let length = 0;
-    while (children[2 * t] >= 0) {
-      const wo = t * d;
-      let s0 = 0;
-      let s1 = 0;
-      let i = 0;
-      // Two accumulators: the error bound above holds for any summation order (γ_d bounds every order).
-      for (; i + 1 < d; i += 2) {
-        s0 += x[i] * normals[wo + i];
-        s1 += x[i + 1] * normals[wo + i + 1];
-      }
-      if (i < d) s0 += x[i] * normals[wo + i];
-      const m = s0 + s1 - thresholds[t];
-      const reach = xn + radii[t];
-      const margin = slack * reach * reach;
-      let right: boolean;
-      if (m > margin) right = true;
-      else if (m < -margin) right = false;
-      else {
-        redecided++;
-        const l = children[2 * t];
-        const r = children[2 * t + 1];
-        right = exactDistance(vectors, o, codewords, r * d, d) < exactDistance(vectors, o, codewords, l * d, d);
-      }
-      t = children[2 * t + (right ? 1 : 0)];
-      path = path * 2 + (right ? 1 : 0);
-      length++;
-    }
-    paths[v] = path;
-    lengths[v] = length;
-    leaves[v] = t;
-    distances[v] = exactDistance(vectors, o, codewords, t * d, d);
-  }
+  const { leaves, paths, lengths, distances, redecided } = kernelDescendTree({ ...plan, up: UP }, codewords, vectors);
   return { paths, lengths, leaves, distances, redecided };
 }

@@ -44,7 +44,7 @@ const BOUND_SLACK = 1e-12;
 
 let compiled: WebAssembly.Module | undefined;
 
-function kernelModule(): WebAssembly.Module {
+export function kernelModule(): WebAssembly.Module {
   // One compilation per thread; the binary is a few kilobytes.
   compiled ??= new WebAssembly.Module(Buffer.from(nearestKernelBase64, 'base64'));
   return compiled;

@@ -476,3 +476,62 @@ export function finishRows(
   }
   return redecided;
 }
+
+/**
+ * Tree descent (../../structures/tree-search.ts has the error argument): for each of n vectors (x: n × d f32,
+ * row-major), from node 0 while the node has children, m = x·w − θ in float64 (w: nodes × d f64, θ: nodes f64);
+ * right when m > margin, left when m < −margin, margin = slack·(‖x‖·up + radius)²; otherwise right exactly when the
+ * exact float64 distance to the right child's codeword (c: nodes × d f32) is below the left one's, each summed as
+ * Σ (x_i − c_i)² in component order. children: nodes × 2 i32 (−1 for a leaf). Writes per vector the leaf (u32), the
+ * path (u32, first branch most significant), its length (u8) and the leaf's exact distance (f64); xs: d f64 scratch.
+ * Returns the number of nodes decided by the two distances.
+ */
+export function descendTree(
+  xPtr: usize, n: i32, d: i32, cPtr: usize, childPtr: usize, wPtr: usize, thPtr: usize, radPtr: usize, slack: f64, up: f64,
+  xsPtr: usize, leafPtr: usize, pathPtr: usize, lenPtr: usize, distPtr: usize,
+): i32 {
+  let redecided = 0;
+  const d2 = d & ~1;
+  for (let v = 0; v < n; v++) {
+    const xo = xPtr + <usize>(v * d) * 4;
+    let xx: f64 = 0;
+    for (let i = 0; i < d; i++) {
+      const xi = <f64>load<f32>(xo + <usize>i * 4);
+      store<f64>(xsPtr + <usize>i * 8, xi);
+      xx += xi * xi;
+    }
+    const xn = Math.sqrt(xx) * up;
+    let t: i32 = 0;
+    let path: u32 = 0;
+    let length: u32 = 0;
+    let left = load<i32>(childPtr);
+    while (left >= 0) {
+      const right = load<i32>(childPtr + <usize>(2 * t + 1) * 4);
+      const wo = wPtr + <usize>(t * d) * 8;
+      let acc = f64x2.splat(0);
+      let i = 0;
+      for (; i < d2; i += 2) acc = f64x2.add(acc, f64x2.mul(v128.load(xsPtr + <usize>i * 8), v128.load(wo + <usize>i * 8)));
+      let s = f64x2.extract_lane(acc, 0) + f64x2.extract_lane(acc, 1);
+      if (i < d) s += load<f64>(xsPtr + <usize>i * 8) * load<f64>(wo + <usize>i * 8);
+      const m = s - load<f64>(thPtr + <usize>t * 8);
+      const reach = xn + load<f64>(radPtr + <usize>t * 8);
+      const margin = slack * reach * reach;
+      let goRight: bool;
+      if (m > margin) goRight = true;
+      else if (m < -margin) goRight = false;
+      else {
+        redecided++;
+        goRight = exactDistance(xo, cPtr + <usize>(right * d) * 4, d) < exactDistance(xo, cPtr + <usize>(left * d) * 4, d);
+      }
+      t = goRight ? right : left;
+      path = (path << 1) | (goRight ? 1 : 0);
+      length++;
+      left = load<i32>(childPtr + <usize>(2 * t) * 4);
+    }
+    store<u32>(leafPtr + <usize>v * 4, <u32>t);
+    store<u32>(pathPtr + <usize>v * 4, path);
+    store<u8>(lenPtr + <usize>v, <u8>length);
+    store<f64>(distPtr + <usize>v * 8, exactDistance(xo, cPtr + <usize>(t * d) * 4, d));
+  }
+  return redecided;
+}

@@ -1,0 +1,84 @@
+import { kernelModule } from './kernel';
+
+interface TreeExports {
+  memory: WebAssembly.Memory;
+  descendTree(
+    xPtr: number, n: number, d: number, cPtr: number, childPtr: number, wPtr: number, thPtr: number, radPtr: number, slack: number, up: number,
+    xsPtr: number, leafPtr: number, pathPtr: number, lenPtr: number, distPtr: number,
+  ): number;
+}
+
+/** A tree's per-node tests as ../structures/tree-search.ts lays them out (breadth-first, nodes × … each). */
+export interface TreeTests {
+  d: number;
+  children: Int32Array; // nodes × 2
+  normals: Float64Array; // nodes × d
+  thresholds: Float64Array; // nodes
+  radii: Float64Array; // nodes
+  slack: number;
+  /** The upward nudge applied to ‖x‖ so it bounds from above. */
+  up: number;
+}
+
+export interface TreeKernelResult {
+  leaves: Uint32Array;
+  paths: Uint32Array;
+  lengths: Uint8Array;
+  distances: Float64Array;
+  redecided: number;
+}
+
+const PAGE = 65536;
+/** Vectors per call into the module: their rows and outputs stay a few hundred kilobytes. */
+const CHUNK = 4096;
+const align = (n: number, a: number) => Math.ceil(n / a) * a;
+
+// One instance per thread (module state is per worker), made at first use.
+let instance: TreeExports | undefined;
+
+/**
+ * Runs the descent of assembly/assign-nearest.ts `descendTree` over vectors (N × d f32, row-major) with the tree's
+ * tests and codewords (nodes × d f32): the leaves, paths, path lengths and exact leaf distances, chunk by chunk.
+ */
+export function kernelDescendTree(tests: TreeTests, codewords: Float32Array, vectors: Float32Array): TreeKernelResult {
+  instance ??= new WebAssembly.Instance(kernelModule(), {}).exports as unknown as TreeExports;
+  const k = instance;
+  const { d } = tests;
+  const nodes = tests.thresholds.length;
+  const n = vectors.length / d;
+  const chunk = Math.min(CHUNK, Math.max(1, n));
+  const childPtr = 64;
+  const wPtr = align(childPtr + nodes * 8, 64);
+  const thPtr = align(wPtr + nodes * d * 8, 64);
+  const radPtr = align(thPtr + nodes * 8, 64);
+  const cPtr = align(radPtr + nodes * 8, 64);
+  const xsPtr = align(cPtr + nodes * d * 4, 64);
+  const xPtr = align(xsPtr + d * 8, 64);
+  const leafPtr = align(xPtr + chunk * d * 4, 64);
+  const pathPtr = align(leafPtr + chunk * 4, 64);
+  const lenPtr = align(pathPtr + chunk * 4, 64);
+  const distPtr = align(lenPtr + chunk, 64);
+  const end = distPtr + chunk * 8;
+  const have = k.memory.buffer.byteLength;
+  if (end > have) k.memory.grow(Math.ceil((end - have) / PAGE));
+  const buf = k.memory.buffer;
+  new Int32Array(buf, childPtr, nodes * 2).set(tests.children);
+  new Float64Array(buf, wPtr, nodes * d).set(tests.normals);
+  new Float64Array(buf, thPtr, nodes).set(tests.thresholds);
+  new Float64Array(buf, radPtr, nodes).set(tests.radii);
+  new Float32Array(buf, cPtr, nodes * d).set(codewords);
+  const x = new Float32Array(buf, xPtr, chunk * d);
+  const out: TreeKernelResult = {
+    leaves: new Uint32Array(n), paths: new Uint32Array(n), lengths: new Uint8Array(n), distances: new Float64Array(n), redecided: 0,
+  };
+  for (let from = 0; from < n; from += chunk) {
+    const m = Math.min(chunk, n - from);
+    x.set(vectors.subarray(from * d, (from + m) * d));
+    out.redecided += k.descendTree(xPtr, m, d, cPtr, childPtr, wPtr, thPtr, radPtr, tests.slack, tests.up, xsPtr, leafPtr, pathPtr, lenPtr, distPtr);
+    out.leaves.set(new Uint32Array(buf, leafPtr, m), from);
+    out.paths.set(new Uint32Array(buf, pathPtr, m), from);
+    out.lengths.set(new Uint8Array(buf, lenPtr, m), from);
+    out.distances.set(new Float64Array(buf, distPtr, m), from);
+  }
+  return out;
+}

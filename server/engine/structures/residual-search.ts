@@ -1,7 +1,9 @@
 // Fast exact stage search of a residual codebook (greedy and M-best): each candidate codeword is scored by one inner
-// product instead of a subtract-square per component, and only the candidates the rounding could still reorder are
-// scored again the plain way, so the indices are those of the plain search bit for bit. See searchResidualStages.
+// product (float64 SIMD in the engine's WebAssembly module) instead of a subtract-square per component, and only the
+// candidates the rounding could still reorder are scored again the plain way, so the indices are those of the plain
+// search bit for bit. See searchResidualStages.
 import { exactDistance } from '../core/exact-distance';
+import { StageScorer } from '../wasm/structure-kernels';
 
 /** 2^-53, the unit roundoff of float64. */
 const U = 2 ** -53;
@@ -64,10 +66,10 @@ export function searchResidualStages(codewords: Float32Array, bits: readonly num
   let paths = new Uint32Array(m * stages);
   let nextPartial = new Float64Array(m * d);
   let nextPaths = new Uint32Array(m * stages);
-  const rest = new Float64Array(m * d); // r_c = x − p_c, as the plain rule rounds it
-  const restNorm = new Float64Array(m);
+  // r_c = x − p_c as the plain rule rounds it, ‖r_c‖², and the fast scores live in the WebAssembly module's memory.
+  const scorer = new StageScorer(d, codewords, halfNorms, m, widest);
+  const { rest, restNorms: restNorm, scores } = scorer;
   const band = new Float64Array(m); // G_c
-  const scores = new Float64Array(m * widest);
   const uppers = new Float64Array(m); // the M smallest fast score + G_c, ascending
   const bestE = new Float64Array(m);
   const bestC = new Int32Array(m);
@@ -93,20 +95,13 @@ export function searchResidualStages(codewords: Float32Array, bits: readonly num
         restNorm[c] = rr;
         const reach = Math.sqrt(rr) * UP + stageRadius[s];
         band[c] = slack * reach * reach;
+      }
+      // score = ‖r‖² + 2(‖w‖²/2 − r·w) for every candidate and codeword of the stage (inner products two lanes at a time).
+      scorer.score(count, base, k);
+      for (let c = 0; c < count; c++) {
         for (let j = 0; j < k; j++) {
-          const wo = (base + j) * d;
-          let s0 = 0;
-          let s1 = 0;
-          let i = 0;
-          for (; i + 1 < d; i += 2) {
-            s0 += rest[ro + i] * codewords[wo + i];
-            s1 += rest[ro + i + 1] * codewords[wo + i + 1];
-          }
-          if (i < d) s0 += rest[ro + i] * codewords[wo + i];
-          const score = rr + 2 * (halfNorms[base + j] - (s0 + s1));
-          scores[c * k + j] = score;
           // Keep the M smallest upper bounds (sorted insertion; M is small).
-          const up = score + band[c];
+          const up = scores[c * k + j] + band[c];
           if (upperCount === m && !(up < uppers[m - 1])) continue;
           let at = upperCount < m ? upperCount : m - 1;
           while (at > 0 && uppers[at - 1] > up) {

@@ -1,6 +1,6 @@
 // Fast exact descent of a tree-structured codebook: one hyperplane test per internal node instead of two distances,
 // deciding exactly as the plain descent (two float64 distances, left on ties) does. See `descend` for the argument.
-import { kernelDescendTree } from '../wasm/tree-kernel';
+import { kernelDescendTree } from '../wasm/structure-kernels';
 import type { TreeStructure } from './types';
 
 /**
@@ -83,7 +83,7 @@ export interface TreeDescent {
  * left when below it, and inside it right exactly when the plain descent goes right (‖x − c_r‖² < ‖x − c_l‖² by
  * exactDistance; left on ties). The same leaf as the plain descent for every vector, in d multiply-adds a level
  * instead of 2·d subtract-multiply-adds; the leaf's distance is exactDistance, the bits the plain descent reports.
- * The loop runs in the engine's WebAssembly module (float64 SIMD, the same float64 operations: wasm/tree-kernel.ts).
+ * The loop runs in the engine's WebAssembly module (float64 SIMD, the same float64 operations: wasm/structure-kernels.ts).
  */
 export function descendTree(plan: TreeSearchPlan, codewords: Float32Array, vectors: Float32Array): TreeDescent {
   const { leaves, paths, lengths, distances, redecided } = kernelDescendTree({ ...plan, up: UP }, codewords, vectors);

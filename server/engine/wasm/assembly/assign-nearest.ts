@@ -535,3 +535,25 @@ export function descendTree(
   }
   return redecided;
 }
+
+/**
+ * Residual stage scores (../../structures/residual-search.ts has the error argument): for rows r of rest (rows × d
+ * f64) and codewords j of w (k × d f64), out[r·k + j] = rr[r] + 2·(hn[j] − rest_r·w_j), in float64 (the inner product
+ * two lanes at a time, the odd component last).
+ */
+export function scoreStage(restPtr: usize, rows: i32, d: i32, wPtr: usize, k: i32, hnPtr: usize, rrPtr: usize, outPtr: usize): void {
+  const d2 = d & ~1;
+  for (let r = 0; r < rows; r++) {
+    const ro = restPtr + <usize>(r * d) * 8;
+    const rr = load<f64>(rrPtr + <usize>r * 8);
+    for (let j = 0; j < k; j++) {
+      const wo = wPtr + <usize>(j * d) * 8;
+      let acc = f64x2.splat(0);
+      let i = 0;
+      for (; i < d2; i += 2) acc = f64x2.add(acc, f64x2.mul(v128.load(ro + <usize>i * 8), v128.load(wo + <usize>i * 8)));
+      let s = f64x2.extract_lane(acc, 0) + f64x2.extract_lane(acc, 1);
+      if (i < d) s += load<f64>(ro + <usize>i * 8) * load<f64>(wo + <usize>i * 8);
+      store<f64>(outPtr + <usize>(r * k + j) * 8, rr + 2 * (load<f64>(hnPtr + <usize>j * 8) - s));
+    }
+  }
+}

@@ -1,11 +1,12 @@
 import { kernelModule } from './kernel';
 
-interface TreeExports {
+interface KernelExports {
   memory: WebAssembly.Memory;
   descendTree(
     xPtr: number, n: number, d: number, cPtr: number, childPtr: number, wPtr: number, thPtr: number, radPtr: number, slack: number, up: number,
     xsPtr: number, leafPtr: number, pathPtr: number, lenPtr: number, distPtr: number,
   ): number;
+  scoreStage(restPtr: number, rows: number, d: number, wPtr: number, k: number, hnPtr: number, rrPtr: number, outPtr: number): void;
 }
 
 /** A tree's per-node tests as ../structures/tree-search.ts lays them out (breadth-first, nodes × … each). */
@@ -33,16 +34,23 @@ const PAGE = 65536;
 const CHUNK = 4096;
 const align = (n: number, a: number) => Math.ceil(n / a) * a;
 
-// One instance per thread (module state is per worker), made at first use.
-let instance: TreeExports | undefined;
+// One instance per thread (module state is per worker), made at first use. The searches below are synchronous and
+// each lays out the memory from offset 64 afresh, so they share it.
+let instance: KernelExports | undefined;
+const kernel = () => (instance ??= new WebAssembly.Instance(kernelModule(), {}).exports as unknown as KernelExports);
+
+function ensureBytes(k: KernelExports, end: number): ArrayBuffer {
+  const have = k.memory.buffer.byteLength;
+  if (end > have) k.memory.grow(Math.ceil((end - have) / PAGE));
+  return k.memory.buffer;
+}
 
 /**
  * Runs the descent of assembly/assign-nearest.ts `descendTree` over vectors (N × d f32, row-major) with the tree's
  * tests and codewords (nodes × d f32): the leaves, paths, path lengths and exact leaf distances, chunk by chunk.
  */
 export function kernelDescendTree(tests: TreeTests, codewords: Float32Array, vectors: Float32Array): TreeKernelResult {
-  instance ??= new WebAssembly.Instance(kernelModule(), {}).exports as unknown as TreeExports;
-  const k = instance;
+  const k = kernel();
   const { d } = tests;
   const nodes = tests.thresholds.length;
   const n = vectors.length / d;
@@ -58,10 +66,7 @@ export function kernelDescendTree(tests: TreeTests, codewords: Float32Array, vec
   const pathPtr = align(leafPtr + chunk * 4, 64);
   const lenPtr = align(pathPtr + chunk * 4, 64);
   const distPtr = align(lenPtr + chunk, 64);
-  const end = distPtr + chunk * 8;
-  const have = k.memory.buffer.byteLength;
-  if (end > have) k.memory.grow(Math.ceil((end - have) / PAGE));
-  const buf = k.memory.buffer;
+  const buf = ensureBytes(k, distPtr + chunk * 8);
   new Int32Array(buf, childPtr, nodes * 2).set(tests.children);
   new Float64Array(buf, wPtr, nodes * d).set(tests.normals);
   new Float64Array(buf, thPtr, nodes).set(tests.thresholds);
@@ -81,4 +86,41 @@ export function kernelDescendTree(tests: TreeTests, codewords: Float32Array, vec
     out.distances.set(new Float64Array(buf, distPtr, m), from);
   }
   return out;
+}
+
+/**
+ * The scoring step of a residual codebook's stage search in the engine's WebAssembly module: the codewords (total × d,
+ * converted once to float64) and their ‖w‖²/2 stay in the module; `rest` (rows × d), `restNorms` (rows) and `scores`
+ * (rows × the widest stage) are views of its memory that the caller fills and reads, valid until the next search.
+ */
+export class StageScorer {
+  readonly rest: Float64Array;
+  readonly restNorms: Float64Array;
+  readonly scores: Float64Array;
+  private readonly k = kernel();
+  private readonly wPtr: number;
+  private readonly hnPtr: number;
+  private readonly restPtr: number;
+  private readonly rrPtr: number;
+  private readonly outPtr: number;
+
+  constructor(private readonly d: number, codewords: Float32Array, halfNorms: Float64Array, rows: number, widest: number) {
+    const total = halfNorms.length;
+    this.wPtr = 64;
+    this.hnPtr = align(this.wPtr + total * d * 8, 64);
+    this.restPtr = align(this.hnPtr + total * 8, 64);
+    this.rrPtr = align(this.restPtr + rows * d * 8, 64);
+    this.outPtr = align(this.rrPtr + rows * 8, 64);
+    const buf = ensureBytes(this.k, this.outPtr + rows * widest * 8);
+    new Float64Array(buf, this.wPtr, total * d).set(codewords);
+    new Float64Array(buf, this.hnPtr, total).set(halfNorms);
+    this.rest = new Float64Array(buf, this.restPtr, rows * d);
+    this.restNorms = new Float64Array(buf, this.rrPtr, rows);
+    this.scores = new Float64Array(buf, this.outPtr, rows * widest);
+  }
+
+  /** scores[r·size + j] = restNorms[r] + 2·(‖w‖²/2 − rest_r·w) for codewords first..first+size−1 of the table and rows 0..rows−1. */
+  score(rows: number, first: number, size: number): void {
+    this.k.scoreStage(this.restPtr, rows, this.d, this.wPtr + first * this.d * 8, size, this.hnPtr + first * 8, this.rrPtr, this.outPtr);
+  }
 }

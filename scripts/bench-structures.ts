@@ -6,7 +6,8 @@
 //     data/test-images (trained on brick, grass and coffee, judged on gravel and chelsea) and the demo's survey tiles
 //     (server/seed: the training leg and the held-out leg). Each structure's curve is swept as `cellwright sweep` does
 //     and judged on the actual rate; the figures come from the engine's BD code (metrics/bd-table.ts).
-// Run: node --import tsx scripts/bench-structures.ts, or `npm run bench -- --only structures`; `npm run bench` runs it too.
+// Run: node --import tsx scripts/bench-structures.ts [--speed-only | --bd-only] (parts 1–2 or part 3 alone), or
+// `npm run bench -- --only structures`; `npm run bench` runs it too.
 import { existsSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -224,6 +225,7 @@ async function sources(): Promise<Source[]> {
 
 export async function structuresBench(): Promise<void> {
   if (!process.argv.includes('--bd-only')) await speedAtEqualRate();
+  if (process.argv.includes('--speed-only')) return;
   const codecs = await availableBaselineCodecs();
   for (const source of await sources()) await bdTable(source, codecs);
 }

@@ -76,7 +76,9 @@ export function searchResidualStages(codewords: Float32Array, bits: readonly num
   const bestJ = new Int32Array(m);
   const recon = new Float32Array(d);
   let rescored = 0;
-  for (let v = 0; v < n; v++) {
+  // One function per block: it is optimised on its own, so the code around the loop never sends the loop back to the
+  // interpreter (V8 deoptimised the single-function form at every call, which made it several times slower).
+  const encodeBlock = (v: number) => {
     const o = v * d;
     partial.fill(0, 0, d);
     let count = 1;
@@ -154,6 +156,7 @@ export function searchResidualStages(codewords: Float32Array, bits: readonly num
     for (let s = 0; s < stages; s++) indices[s][v] = paths[s];
     for (let i = 0; i < d; i++) recon[i] = partial[i];
     distances[v] = exactDistance(vectors, o, recon, 0, d);
-  }
+  };
+  for (let v = 0; v < n; v++) encodeBlock(v);
   return { indices, distances, rescored };
 }

@@ -68,6 +68,8 @@ export function searchResidualStages(codewords: Float32Array, bits: readonly num
   let nextPaths = new Uint32Array(m * stages);
   // r_c = x − p_c as the plain rule rounds it, ‖r_c‖², and the fast scores live in the WebAssembly module's memory.
   const scorer = new StageScorer(d, codewords, halfNorms, m, widest);
+  // Greedy search runs whole in the module (the same rule, block by block); M-best keeps its bookkeeping here.
+  if (m === 1) return scorer.greedy(vectors, offsets, sizes, stageRadius, slack, UP);
   const { rest, restNorms: restNorm, scores } = scorer;
   const band = new Float64Array(m); // G_c
   const uppers = new Float64Array(m); // the M smallest fast score + G_c, ascending

@@ -7,6 +7,10 @@ interface KernelExports {
     xsPtr: number, leafPtr: number, pathPtr: number, lenPtr: number, distPtr: number,
   ): number;
   scoreStage(restPtr: number, rows: number, d: number, wPtr: number, k: number, hnPtr: number, rrPtr: number, outPtr: number): void;
+  residualGreedy(
+    xPtr: number, n: number, d: number, wPtr: number, hnPtr: number, stages: number, offsetsPtr: number, sizesPtr: number, radPtr: number,
+    slack: number, up: number, restPtr: number, partialPtr: number, scoresPtr: number, reconPtr: number, idxPtr: number, distPtr: number,
+  ): number;
 }
 
 /** A tree's per-node tests as ../structures/tree-search.ts lays them out (breadth-first, nodes × … each). */
@@ -103,6 +107,7 @@ export class StageScorer {
   private readonly restPtr: number;
   private readonly rrPtr: number;
   private readonly outPtr: number;
+  private readonly end: number;
 
   constructor(private readonly d: number, codewords: Float32Array, halfNorms: Float64Array, rows: number, widest: number) {
     const total = halfNorms.length;
@@ -111,7 +116,8 @@ export class StageScorer {
     this.restPtr = align(this.hnPtr + total * 8, 64);
     this.rrPtr = align(this.restPtr + rows * d * 8, 64);
     this.outPtr = align(this.rrPtr + rows * 8, 64);
-    const buf = ensureBytes(this.k, this.outPtr + rows * widest * 8);
+    this.end = align(this.outPtr + rows * widest * 8, 64);
+    const buf = ensureBytes(this.k, this.end);
     new Float64Array(buf, this.wPtr, total * d).set(codewords);
     new Float64Array(buf, this.hnPtr, total).set(halfNorms);
     this.rest = new Float64Array(buf, this.restPtr, rows * d);
@@ -122,5 +128,43 @@ export class StageScorer {
   /** scores[r·size + j] = restNorms[r] + 2·(‖w‖²/2 − rest_r·w) for codewords first..first+size−1 of the table and rows 0..rows−1. */
   score(rows: number, first: number, size: number): void {
     this.k.scoreStage(this.restPtr, rows, this.d, this.wPtr + first * this.d * 8, size, this.hnPtr + first * 8, this.rrPtr, this.outPtr);
+  }
+
+  /**
+   * The whole greedy search (M = 1) in the module, block by block (assembly `residualGreedy`): stage s's codewords start
+   * at table index offsets[s], sizes[s] of them; radii[s] bounds their norms. The views above are overwritten.
+   */
+  greedy(vectors: Float32Array, offsets: readonly number[], sizes: readonly number[], radii: Float64Array, slack: number, up: number) {
+    const { d } = this;
+    const stages = sizes.length;
+    const n = vectors.length / d;
+    const chunk = Math.min(CHUNK, Math.max(1, n));
+    const offsetsPtr = this.end;
+    const sizesPtr = align(offsetsPtr + stages * 4, 64);
+    const radPtr = align(sizesPtr + stages * 4, 64);
+    const partialPtr = align(radPtr + stages * 8, 64);
+    const reconPtr = align(partialPtr + d * 8, 64);
+    const xPtr = align(reconPtr + d * 4, 64);
+    const idxPtr = align(xPtr + chunk * d * 4, 64);
+    const distPtr = align(idxPtr + chunk * stages * 4, 64);
+    const buf = ensureBytes(this.k, distPtr + chunk * 8);
+    new Int32Array(buf, offsetsPtr, stages).set(offsets);
+    new Int32Array(buf, sizesPtr, stages).set(sizes);
+    new Float64Array(buf, radPtr, stages).set(radii);
+    const x = new Float32Array(buf, xPtr, chunk * d);
+    const indices = sizes.map(() => new Uint32Array(n));
+    const distances = new Float64Array(n);
+    let rescored = 0;
+    for (let from = 0; from < n; from += chunk) {
+      const m = Math.min(chunk, n - from);
+      x.set(vectors.subarray(from * d, (from + m) * d));
+      rescored += this.k.residualGreedy(
+        xPtr, m, d, this.wPtr, this.hnPtr, stages, offsetsPtr, sizesPtr, radPtr, slack, up, this.restPtr, partialPtr, this.outPtr, reconPtr, idxPtr, distPtr,
+      );
+      const idx = new Uint32Array(buf, idxPtr, m * stages);
+      for (let v = 0; v < m; v++) for (let t = 0; t < stages; t++) indices[t][from + v] = idx[v * stages + t];
+      distances.set(new Float64Array(buf, distPtr, m), from);
+    }
+    return { indices, distances, rescored };
   }
 }

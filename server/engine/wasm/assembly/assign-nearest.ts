@@ -557,3 +557,72 @@ export function scoreStage(restPtr: usize, rows: i32, d: i32, wPtr: usize, k: i3
     }
   }
 }
+
+/**
+ * Greedy residual search of n vectors (x: n × d f32) through `stages` stages (../../structures/residual-search.ts has
+ * the rule and its error argument; this is its M = 1 case, block by block): per stage, r = x − p (p the float64 sum of
+ * the codewords chosen so far), scores ‖r‖² + 2(hn_j − r·w_j) for the stage's codewords (w: total × d f64, hn: total
+ * f64, stage s at offsets[s], sizes[s] long; i32 each), margin G = slack·(‖r‖·up + rad[s])²; the codewords whose score
+ * less G is not above the smallest score plus G are scored the plain way, Σ ((x_i − p_i) − w_i)² in float64, and the
+ * first lowest wins. Writes the stage indices (n × stages u32, block-major) and exactDistance of x to f32(p) (n f64).
+ * rest, partial: d f64 scratch; scores: the widest stage's f64 scratch; recon: d f32 scratch. Returns the codewords
+ * scored the plain way.
+ */
+export function residualGreedy(
+  xPtr: usize, n: i32, d: i32, wPtr: usize, hnPtr: usize, stages: i32, offsetsPtr: usize, sizesPtr: usize, radPtr: usize,
+  slack: f64, up: f64, restPtr: usize, partialPtr: usize, scoresPtr: usize, reconPtr: usize, idxPtr: usize, distPtr: usize,
+): i32 {
+  let rescored = 0;
+  const d2 = d & ~1;
+  for (let v = 0; v < n; v++) {
+    const xo = xPtr + <usize>(v * d) * 4;
+    for (let i = 0; i < d; i++) store<f64>(partialPtr + <usize>i * 8, 0);
+    for (let s = 0; s < stages; s++) {
+      const base = load<i32>(offsetsPtr + <usize>s * 4);
+      const k = load<i32>(sizesPtr + <usize>s * 4);
+      let rr: f64 = 0;
+      for (let i = 0; i < d; i++) {
+        const r = <f64>load<f32>(xo + <usize>i * 4) - load<f64>(partialPtr + <usize>i * 8);
+        store<f64>(restPtr + <usize>i * 8, r);
+        rr += r * r;
+      }
+      const reach = Math.sqrt(rr) * up + load<f64>(radPtr + <usize>s * 8);
+      const band = slack * reach * reach;
+      let lowest = Infinity;
+      for (let j = 0; j < k; j++) {
+        const wo = wPtr + <usize>((base + j) * d) * 8;
+        let acc = f64x2.splat(0);
+        let i = 0;
+        for (; i < d2; i += 2) acc = f64x2.add(acc, f64x2.mul(v128.load(restPtr + <usize>i * 8), v128.load(wo + <usize>i * 8)));
+        let dot = f64x2.extract_lane(acc, 0) + f64x2.extract_lane(acc, 1);
+        if (i < d) dot += load<f64>(restPtr + <usize>i * 8) * load<f64>(wo + <usize>i * 8);
+        const score = rr + 2 * (load<f64>(hnPtr + <usize>(base + j) * 8) - dot);
+        store<f64>(scoresPtr + <usize>j * 8, score);
+        if (score < lowest) lowest = score;
+      }
+      const limit = lowest + band;
+      let best = 0;
+      let bestE = Infinity;
+      for (let j = 0; j < k; j++) {
+        if (load<f64>(scoresPtr + <usize>j * 8) - band > limit) continue;
+        rescored++;
+        const wo = wPtr + <usize>((base + j) * d) * 8;
+        let e: f64 = 0;
+        for (let i = 0; i < d; i++) {
+          const t = load<f64>(restPtr + <usize>i * 8) - load<f64>(wo + <usize>i * 8);
+          e += t * t;
+        }
+        if (e < bestE) {
+          bestE = e;
+          best = j;
+        }
+      }
+      const wo = wPtr + <usize>((base + best) * d) * 8;
+      for (let i = 0; i < d; i++) store<f64>(partialPtr + <usize>i * 8, load<f64>(partialPtr + <usize>i * 8) + load<f64>(wo + <usize>i * 8));
+      store<u32>(idxPtr + <usize>(v * stages + s) * 4, <u32>best);
+    }
+    for (let i = 0; i < d; i++) store<f32>(reconPtr + <usize>i * 4, <f32>load<f64>(partialPtr + <usize>i * 8));
+    store<f64>(distPtr + <usize>v * 8, exactDistance(xo, reconPtr, d));
+  }
+  return rescored;
+}

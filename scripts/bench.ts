@@ -220,6 +220,13 @@ async function ladders(lumas: Luma[], python: string | undefined, bestSettingByD
 }
 
 async function main() {
+  // `--only structures` runs the structured-codebook part alone (scripts/bench-structures.ts).
+  const only = process.argv.includes('--only') ? process.argv[process.argv.indexOf('--only') + 1] : undefined;
+  if (only !== undefined && only !== 'structures') throw new Error(`--only takes "structures", got "${only}"`);
+  if (only === 'structures') {
+    await structuresBench();
+    return;
+  }
   const images = await loadImages();
   const lumas = images.map((i) => i.luma);
   const python = benchPython();

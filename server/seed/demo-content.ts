@@ -51,7 +51,8 @@ export function demoContentDeps(c: Composition): DemoContentDeps {
   };
 }
 
-async function tilePngs(seed: number, count: number, prefix: string) {
+/** The demo set's tiles as the PNG files the seed uploads (the structures bench reads the same images). */
+export async function tilePngs(seed: number, count: number, prefix: string) {
   const tiles = seabedSet(seed, count, TILE_WIDTH, TILE_HEIGHT);
   return Promise.all(
     tiles.map(async (tile, i) => ({

@@ -2,9 +2,9 @@
 // iteration on what the stages before it left; a block is the sum of one codeword per stage. The model, its
 // assumptions and costs are described in README.md beside this file.
 import { EngineError, throwIfAborted } from '../core/errors';
-import { exactDistance } from '../core/exact-distance';
 import type { InitMethod } from '../core/types';
 import { checkInteger, checkNumber, checkVectors } from '../core/validate';
+import { searchResidualStages } from './residual-search';
 import { train } from '../training/index';
 import { INIT_METHODS, RUN_DEFAULTS, SEED } from '../vocabulary';
 import { M_BEST_MAX, RESIDUAL_MAX_REFINEMENT_PASSES, RESIDUAL_MAX_STAGES, RESIDUAL_STAGE_BITS } from './limits';
@@ -115,71 +115,13 @@ export function checkResidual(codewords: Float32Array, structure: ResidualStruct
 
 /**
  * Encodes vectors (N × d) by M-best search: stage by stage it keeps the M partial sums nearest the vector (float64
- * sums, exact float64 distances; ties to the earlier candidate, then the lower index) and extends each by every
- * codeword of the next stage. M = 1 is greedy search, each stage the nearest codeword to what the stages before left.
- * With two stages M-best is never worse than greedy (greedy's pair is among the candidates of the last stage); with
- * more it usually is not, but a single vector can lose.
+ * sums, float64 distances; ties to the earlier candidate, then the lower index) and extends each by every codeword of
+ * the next stage. M = 1 is greedy search, each stage the nearest codeword to what the stages before left. With two
+ * stages M-best is never worse than greedy (greedy's pair is among the candidates of the last stage); with more it
+ * usually is not, but a single vector can lose. The search itself is residual-search.ts (inner products, exact).
  */
 function searchStages(codewords: Float32Array, bits: readonly number[], d: number, vectors: Float32Array, m: number): ResidualCodes {
-  const n = vectors.length / d;
-  const { offsets, sizes } = layout(bits);
-  const stages = bits.length;
-  const indices = bits.map(() => new Uint32Array(n));
-  const distances = new Float64Array(n);
-  // Candidates: partial sums (M × d), their paths (M × S), their squared distances; and the next stage's.
-  let partial = new Float64Array(m * d);
-  let paths = new Uint32Array(m * stages);
-  let nextPartial = new Float64Array(m * d);
-  let nextPaths = new Uint32Array(m * stages);
-  const bestE = new Float64Array(m);
-  const bestC = new Int32Array(m);
-  const bestJ = new Int32Array(m);
-  const recon = new Float32Array(d);
-  for (let v = 0; v < n; v++) {
-    const o = v * d;
-    partial.fill(0, 0, d);
-    let count = 1;
-    for (let s = 0; s < stages; s++) {
-      let kept = 0;
-      for (let c = 0; c < count; c++) {
-        const po = c * d;
-        for (let j = 0; j < sizes[s]; j++) {
-          const wo = (offsets[s] + j) * d;
-          let e = 0;
-          for (let i = 0; i < d; i++) {
-            const t = vectors[o + i] - partial[po + i] - codewords[wo + i];
-            e += t * t;
-          }
-          if (kept === m && !(e < bestE[m - 1])) continue;
-          // Candidates arrive in (candidate, index) order, so inserting after every equal value breaks ties that way.
-          let at = kept < m ? kept : m - 1;
-          while (at > 0 && bestE[at - 1] > e) {
-            bestE[at] = bestE[at - 1];
-            bestC[at] = bestC[at - 1];
-            bestJ[at] = bestJ[at - 1];
-            at--;
-          }
-          bestE[at] = e;
-          bestC[at] = c;
-          bestJ[at] = j;
-          if (kept < m) kept++;
-        }
-      }
-      for (let r = 0; r < kept; r++) {
-        const c = bestC[r];
-        const wo = (offsets[s] + bestJ[r]) * d;
-        for (let i = 0; i < d; i++) nextPartial[r * d + i] = partial[c * d + i] + codewords[wo + i];
-        for (let t = 0; t < s; t++) nextPaths[r * stages + t] = paths[c * stages + t];
-        nextPaths[r * stages + s] = bestJ[r];
-      }
-      [partial, nextPartial] = [nextPartial, partial];
-      [paths, nextPaths] = [nextPaths, paths];
-      count = kept;
-    }
-    for (let s = 0; s < stages; s++) indices[s][v] = paths[s];
-    for (let i = 0; i < d; i++) recon[i] = partial[i];
-    distances[v] = exactDistance(vectors, o, recon, 0, d);
-  }
+  const { indices, distances } = searchResidualStages(codewords, bits, d, vectors, m);
   return { indices, distances };
 }
 

@@ -11,6 +11,7 @@ import { checkInteger, checkNumber, checkVectors, countDistinctUpTo } from '../c
 import { assignSync } from '../training/index';
 import { RUN_DEFAULTS, SEED } from '../vocabulary';
 import { nodeShards, openLocalTreeShards, twoDistinct } from './tree-shards';
+import { descendTree, treeSearchPlan } from './tree-search';
 import { DEFAULT_TREE_SPLIT_DELTA, TREE_MAX_BALANCED_DEPTH, TREE_MAX_DEPTH, TREE_MAX_LEAVES } from './limits';
 import type { TreeStructure } from './types';
 
@@ -545,48 +546,14 @@ export interface TreeCodes {
 
 /**
  * Encodes vectors (N × d) by descent: at each internal node the nearer of its two children by exact float64 distance
- * (left on ties), 2·d multiply-adds a level. For a balanced tree of depth b the path read as a b-bit number is the
- * leaf's rank among the leaves from left to right.
+ * (left on ties). For a balanced tree of depth b the path read as a b-bit number is the leaf's rank among the leaves
+ * from left to right. The descent itself is tree-search.ts: one hyperplane test a level (d multiply-adds), with the
+ * two distances computed only where rounding could decide otherwise, so every decision is the two distances' one.
  */
 export function encodeTree(codewords: Float32Array, structure: TreeStructure, vectors: Float32Array, d: number): TreeCodes {
   checkTree(codewords, structure, d);
-  const n = checkVectors(vectors, d);
-  const { children } = structure;
-  const paths = new Uint32Array(n);
-  const lengths = new Uint8Array(n);
-  const leaves = new Uint32Array(n);
-  const distances = new Float64Array(n);
-  for (let v = 0; v < n; v++) {
-    const o = v * d;
-    let t = 0;
-    let path = 0;
-    let length = 0;
-    // A root that is a leaf is the only reconstruction not reached through a comparison.
-    let dist = children[0] < 0 ? exactDistance(vectors, o, codewords, 0, d) : 0;
-    while (children[2 * t] >= 0) {
-      const l = children[2 * t];
-      const r = children[2 * t + 1];
-      // Both children's exact distances in one loop, each summed in exactDistance's order (same bits).
-      let dl = 0;
-      let dr = 0;
-      for (let i = 0, lo = l * d, ro = r * d; i < d; i++) {
-        const x = vectors[o + i];
-        const a = x - codewords[lo + i];
-        const b = x - codewords[ro + i];
-        dl += a * a;
-        dr += b * b;
-      }
-      const right = dr < dl;
-      t = right ? r : l;
-      dist = right ? dr : dl;
-      path = path * 2 + (right ? 1 : 0);
-      length++;
-    }
-    paths[v] = path;
-    lengths[v] = length;
-    leaves[v] = t;
-    distances[v] = dist;
-  }
+  checkVectors(vectors, d);
+  const { paths, lengths, leaves, distances } = descendTree(treeSearchPlan(codewords, structure, d), codewords, vectors);
   return { paths, lengths, leaves, distances };
 }
 

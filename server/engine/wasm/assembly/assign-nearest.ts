@@ -800,3 +800,153 @@ export function encodeRows(
   }
   return multi;
 }
+
+/**
+ * Tree descent (../../structures/tree-search.ts has the error argument): for each of n vectors (x: n × d f32,
+ * row-major), from node 0 while the node has children, m = x·w − θ in float64 (w: nodes × d f64, θ: nodes f64);
+ * right when m > margin, left when m < −margin, margin = slack·(‖x‖·up + radius)²; otherwise right exactly when the
+ * exact float64 distance to the right child's codeword (c: nodes × d f32) is below the left one's, each summed as
+ * Σ (x_i − c_i)² in component order. children: nodes × 2 i32 (−1 for a leaf). Writes per vector the leaf (u32), the
+ * path (u32, first branch most significant), its length (u8) and the leaf's exact distance (f64); xs: d f64 scratch.
+ * Returns the number of nodes decided by the two distances.
+ */
+export function descendTree(
+  xPtr: usize, n: i32, d: i32, cPtr: usize, childPtr: usize, wPtr: usize, thPtr: usize, radPtr: usize, slack: f64, up: f64,
+  xsPtr: usize, leafPtr: usize, pathPtr: usize, lenPtr: usize, distPtr: usize,
+): i32 {
+  let redecided = 0;
+  const d2 = d & ~1;
+  for (let v = 0; v < n; v++) {
+    const xo = xPtr + <usize>(v * d) * 4;
+    let xx: f64 = 0;
+    for (let i = 0; i < d; i++) {
+      const xi = <f64>load<f32>(xo + <usize>i * 4);
+      store<f64>(xsPtr + <usize>i * 8, xi);
+      xx += xi * xi;
+    }
+    const xn = Math.sqrt(xx) * up;
+    let t: i32 = 0;
+    let path: u32 = 0;
+    let length: u32 = 0;
+    let left = load<i32>(childPtr);
+    while (left >= 0) {
+      const right = load<i32>(childPtr + <usize>(2 * t + 1) * 4);
+      const wo = wPtr + <usize>(t * d) * 8;
+      let acc = f64x2.splat(0);
+      let i = 0;
+      for (; i < d2; i += 2) acc = f64x2.add(acc, f64x2.mul(v128.load(xsPtr + <usize>i * 8), v128.load(wo + <usize>i * 8)));
+      let s = f64x2.extract_lane(acc, 0) + f64x2.extract_lane(acc, 1);
+      if (i < d) s += load<f64>(xsPtr + <usize>i * 8) * load<f64>(wo + <usize>i * 8);
+      const m = s - load<f64>(thPtr + <usize>t * 8);
+      const reach = xn + load<f64>(radPtr + <usize>t * 8);
+      const margin = slack * reach * reach;
+      let goRight: bool;
+      if (m > margin) goRight = true;
+      else if (m < -margin) goRight = false;
+      else {
+        redecided++;
+        goRight = exactDistance(xo, cPtr + <usize>(right * d) * 4, d) < exactDistance(xo, cPtr + <usize>(left * d) * 4, d);
+      }
+      t = goRight ? right : left;
+      path = (path << 1) | (goRight ? 1 : 0);
+      length++;
+      left = load<i32>(childPtr + <usize>(2 * t) * 4);
+    }
+    store<u32>(leafPtr + <usize>v * 4, <u32>t);
+    store<u32>(pathPtr + <usize>v * 4, path);
+    store<u8>(lenPtr + <usize>v, <u8>length);
+    store<f64>(distPtr + <usize>v * 8, exactDistance(xo, cPtr + <usize>(t * d) * 4, d));
+  }
+  return redecided;
+}
+
+/**
+ * Residual stage scores (../../structures/residual-search.ts has the error argument): for rows r of rest (rows × d
+ * f64) and codewords j of w (k × d f64), out[r·k + j] = rr[r] + 2·(hn[j] − rest_r·w_j), in float64 (the inner product
+ * two lanes at a time, the odd component last).
+ */
+export function scoreStage(restPtr: usize, rows: i32, d: i32, wPtr: usize, k: i32, hnPtr: usize, rrPtr: usize, outPtr: usize): void {
+  const d2 = d & ~1;
+  for (let r = 0; r < rows; r++) {
+    const ro = restPtr + <usize>(r * d) * 8;
+    const rr = load<f64>(rrPtr + <usize>r * 8);
+    for (let j = 0; j < k; j++) {
+      const wo = wPtr + <usize>(j * d) * 8;
+      let acc = f64x2.splat(0);
+      let i = 0;
+      for (; i < d2; i += 2) acc = f64x2.add(acc, f64x2.mul(v128.load(ro + <usize>i * 8), v128.load(wo + <usize>i * 8)));
+      let s = f64x2.extract_lane(acc, 0) + f64x2.extract_lane(acc, 1);
+      if (i < d) s += load<f64>(ro + <usize>i * 8) * load<f64>(wo + <usize>i * 8);
+      store<f64>(outPtr + <usize>(r * k + j) * 8, rr + 2 * (load<f64>(hnPtr + <usize>j * 8) - s));
+    }
+  }
+}
+
+/**
+ * Greedy residual search of n vectors (x: n × d f32) through `stages` stages (../../structures/residual-search.ts has
+ * the rule and its error argument; this is its M = 1 case, block by block): per stage, r = x − p (p the float64 sum of
+ * the codewords chosen so far), scores ‖r‖² + 2(hn_j − r·w_j) for the stage's codewords (w: total × d f64, hn: total
+ * f64, stage s at offsets[s], sizes[s] long; i32 each), margin G = slack·(‖r‖·up + rad[s])²; the codewords whose score
+ * less G is not above the smallest score plus G are scored the plain way, Σ ((x_i − p_i) − w_i)² in float64, and the
+ * first lowest wins. Writes the stage indices (n × stages u32, block-major) and exactDistance of x to f32(p) (n f64).
+ * rest, partial: d f64 scratch; scores: the widest stage's f64 scratch; recon: d f32 scratch. Returns the codewords
+ * scored the plain way.
+ */
+export function residualGreedy(
+  xPtr: usize, n: i32, d: i32, wPtr: usize, hnPtr: usize, stages: i32, offsetsPtr: usize, sizesPtr: usize, radPtr: usize,
+  slack: f64, up: f64, restPtr: usize, partialPtr: usize, scoresPtr: usize, reconPtr: usize, idxPtr: usize, distPtr: usize,
+): i32 {
+  let rescored = 0;
+  const d2 = d & ~1;
+  for (let v = 0; v < n; v++) {
+    const xo = xPtr + <usize>(v * d) * 4;
+    for (let i = 0; i < d; i++) store<f64>(partialPtr + <usize>i * 8, 0);
+    for (let s = 0; s < stages; s++) {
+      const base = load<i32>(offsetsPtr + <usize>s * 4);
+      const k = load<i32>(sizesPtr + <usize>s * 4);
+      let rr: f64 = 0;
+      for (let i = 0; i < d; i++) {
+        const r = <f64>load<f32>(xo + <usize>i * 4) - load<f64>(partialPtr + <usize>i * 8);
+        store<f64>(restPtr + <usize>i * 8, r);
+        rr += r * r;
+      }
+      const reach = Math.sqrt(rr) * up + load<f64>(radPtr + <usize>s * 8);
+      const band = slack * reach * reach;
+      let lowest = Infinity;
+      for (let j = 0; j < k; j++) {
+        const wo = wPtr + <usize>((base + j) * d) * 8;
+        let acc = f64x2.splat(0);
+        let i = 0;
+        for (; i < d2; i += 2) acc = f64x2.add(acc, f64x2.mul(v128.load(restPtr + <usize>i * 8), v128.load(wo + <usize>i * 8)));
+        let dot = f64x2.extract_lane(acc, 0) + f64x2.extract_lane(acc, 1);
+        if (i < d) dot += load<f64>(restPtr + <usize>i * 8) * load<f64>(wo + <usize>i * 8);
+        const score = rr + 2 * (load<f64>(hnPtr + <usize>(base + j) * 8) - dot);
+        store<f64>(scoresPtr + <usize>j * 8, score);
+        if (score < lowest) lowest = score;
+      }
+      const limit = lowest + band;
+      let best = 0;
+      let bestE = Infinity;
+      for (let j = 0; j < k; j++) {
+        if (load<f64>(scoresPtr + <usize>j * 8) - band > limit) continue;
+        rescored++;
+        const wo = wPtr + <usize>((base + j) * d) * 8;
+        let e: f64 = 0;
+        for (let i = 0; i < d; i++) {
+          const t = load<f64>(restPtr + <usize>i * 8) - load<f64>(wo + <usize>i * 8);
+          e += t * t;
+        }
+        if (e < bestE) {
+          bestE = e;
+          best = j;
+        }
+      }
+      const wo = wPtr + <usize>((base + best) * d) * 8;
+      for (let i = 0; i < d; i++) store<f64>(partialPtr + <usize>i * 8, load<f64>(partialPtr + <usize>i * 8) + load<f64>(wo + <usize>i * 8));
+      store<u32>(idxPtr + <usize>(v * stages + s) * 4, <u32>best);
+    }
+    for (let i = 0; i < d; i++) store<f32>(reconPtr + <usize>i * 4, <f32>load<f64>(partialPtr + <usize>i * 8));
+    store<f64>(distPtr + <usize>v * 8, exactDistance(xo, reconPtr, d));
+  }
+  return rescored;
+}

@@ -5,7 +5,7 @@
 import { parentPort } from 'node:worker_threads';
 import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
 import { addRow } from '../core/accumulate-centroids';
-import { seedUpdateRange } from '../core/init';
+import { seedUpdateWithTotal, vectorNormsInto } from '../core/init';
 import type { AccumulateJob, AssignJob, AssignReply, SeedJob, WorkerJob } from './messages';
 
 if (!parentPort) throw new Error('assign.task.ts must run in a worker thread');
@@ -29,8 +29,8 @@ function accumulate(job: AccumulateJob): void {
   }
 }
 
-/** One k-means++ step over the chunks this worker claims; every vector is independent of the others. */
-function seed(job: SeedJob): void {
+/** One k-means++ step over all the vectors; returns their D² total. */
+function seed(job: SeedJob): number {
   const { d, n, k } = job;
   const vectors = new Float32Array(job.vectors, job.vectorsByteOffset, n * d);
   const state = {
@@ -39,21 +39,16 @@ function seed(job: SeedJob): void {
     nearest: new Uint32Array(job.nearest, 0, n),
     fromNewest: new Float64Array(job.fromNewest, 0, k),
   };
-  const control = new Int32Array(job.control);
-  for (;;) {
-    if (Atomics.load(control, 1) !== 0) break;
-    const start = Atomics.add(control, 0, 1) * job.chunkSize;
-    if (start >= n) break;
-    seedUpdateRange(vectors, d, state, job.c, start, Math.min(n, start + job.chunkSize));
-  }
+  const norms = new Float64Array(job.norms, 0, n);
+  if (job.c === 0) vectorNormsInto(vectors, d, norms);
+  return seedUpdateWithTotal(vectors, d, state, norms, job.c);
 }
 
 port.on('message', (message: WorkerJob) => {
   if (message.kind === 'accumulate' || message.kind === 'seed') {
     try {
-      if (message.kind === 'seed') seed(message);
-      else accumulate(message);
-      port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0 } satisfies AssignReply);
+      const total = message.kind === 'seed' ? seed(message) : (accumulate(message), undefined);
+      port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0, total } satisfies AssignReply);
     } catch (err) {
       const error = err instanceof Error ? err.message : String(err);
       port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0, error } satisfies AssignReply);

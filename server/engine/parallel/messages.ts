@@ -32,7 +32,7 @@ export interface AccumulateJob {
   cellEnd: number;
 }
 
-/** One k-means++ step (core/init seedUpdateRange) over chunks of the vectors, claimed through `control`. */
+/** One k-means++ step (core/init seedUpdateWithTotal) over all the vectors, by one worker; the reply carries the D² total. */
 export interface SeedJob {
   jobId: number;
   kind: 'seed';
@@ -41,14 +41,13 @@ export interface SeedJob {
   n: number;
   d: number;
   k: number;
-  /** The newest codeword's index. */
+  /** The newest codeword's index; at 0 the worker also fills `norms`. */
   c: number;
   codewords: SharedArrayBuffer; // K × d f32, read
   minDist: SharedArrayBuffer; // N f64, read and written
   nearest: SharedArrayBuffer; // N u32, read and written
   fromNewest: SharedArrayBuffer; // K f64, read
-  control: SharedArrayBuffer; // Int32 [next chunk, cancel flag]
-  chunkSize: number;
+  norms: SharedArrayBuffer; // N f64: ‖x‖ of each vector, written at step 0, read after
 }
 
 export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedJob;
@@ -57,5 +56,7 @@ export interface AssignReply {
   jobId: number;
   redecided: number;
   searched: number;
+  /** A seed job's D² total (float64, summed in vector order). */
+  total?: number;
   error?: string;
 }

@@ -17,6 +17,7 @@ import { codecFigures } from './bench-codec';
 import { benchPython, blasSettings, faissImports, faissLloyd, kernelName, sklearnLadder, sklearnLloyd, withNpy } from './bench-peers';
 import { structuresBench } from './bench-structures';
 import { channelBench } from './bench-channel';
+import { clientBench } from './bench-client';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const imageDir = path.join(root, 'data', 'test-images');
@@ -283,6 +284,7 @@ async function main() {
   await modelBench();
   await structuresBench();
   await channelBench();
+  await clientBench();
   // Data-parallel Lloyd over worker processes, in processes of its own (a private Redis and shard hosts).
   spawnSync(process.execPath, ['--import', 'tsx', path.join(root, 'scripts', 'bench-shards.ts')], { cwd: root, stdio: 'inherit' });
   console.log('\nnote: the cores are shared with other work on this machine; figures may be noisy.');

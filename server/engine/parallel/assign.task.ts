@@ -45,10 +45,12 @@ function seed(job: SeedJob): number {
 }
 
 port.on('message', (message: WorkerJob) => {
-  if (message.kind === 'accumulate' || message.kind === 'seed') {
+  if (message.kind === 'accumulate' || message.kind === 'seed-batch') {
     try {
-      const total = message.kind === 'seed' ? seed(message) : (accumulate(message), undefined);
-      port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0, total } satisfies AssignReply);
+      const reply: AssignReply = { jobId: message.jobId, redecided: 0, searched: 0 };
+      if (message.kind === 'seed-batch') reply.totals = message.steps.map(seed);
+      else accumulate(message);
+      port.postMessage(reply);
     } catch (err) {
       const error = err instanceof Error ? err.message : String(err);
       port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0, error } satisfies AssignReply);

@@ -32,10 +32,8 @@ export interface AccumulateJob {
   cellEnd: number;
 }
 
-/** One k-means++ step (core/init seedUpdateWithTotal) over all the vectors, by one worker; the reply carries the D² total. */
+/** One k-means++ step (core/init seedUpdateWithTotal) over all of one shard's vectors, by one worker (in a SeedBatchJob). */
 export interface SeedJob {
-  jobId: number;
-  kind: 'seed';
   vectors: SharedArrayBuffer; // N × d f32 starting at vectorsByteOffset
   vectorsByteOffset: number;
   n: number;
@@ -50,13 +48,20 @@ export interface SeedJob {
   norms: SharedArrayBuffer; // N f64: ‖x‖ of each vector, written at step 0, read after
 }
 
-export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedJob;
+/** The k-means++ steps of several shards for one worker, run in order; the reply carries their totals in that order. */
+export interface SeedBatchJob {
+  jobId: number;
+  kind: 'seed-batch';
+  steps: SeedJob[];
+}
+
+export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedBatchJob;
 
 export interface AssignReply {
   jobId: number;
   redecided: number;
   searched: number;
-  /** A seed job's D² total (float64, summed in vector order). */
-  total?: number;
+  /** A seed batch's D² totals (float64, each summed in vector order), one per step. */
+  totals?: number[];
   error?: string;
 }

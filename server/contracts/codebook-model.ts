@@ -176,3 +176,10 @@ export const modelJobResponse = z.object({
   caution: z.string(),
 });
 export type ModelJobView = z.infer<typeof modelJobResponse>;
+
+/**
+ * POST …/anomaly-jobs/find and …/denoise-jobs/find: the newest job the same request queued that has not failed or
+ * been cancelled, or null. Queues nothing, so a page can show a stored result without starting a job.
+ */
+export const modelJobLookupResponse = z.object({ job: modelJobResponse.nullable() });
+export type ModelJobLookup = z.infer<typeof modelJobLookupResponse>;

@@ -229,6 +229,43 @@ describe('denoise job', () => {
   });
 });
 
+describe('finding an earlier job of the same request', () => {
+  const jobCount = async () => Number((await t.db.knex('jobs').whereIn('kind', ['anomaly', 'denoise']).count({ n: '*' }))[0].n);
+
+  it('answers null and queues nothing before the request was made, then the job it queued, with its stored result', async () => {
+    const body = { imageId: heldOutIds[1], sigma: 30, seed: 41, step: 4 };
+    const before = await jobCount();
+    const none = await request(t.app).post(url(`${codebookId}/denoise-jobs/find`)).set(bearer(team.viewer)).send(body);
+    expect(none.status).toBe(200);
+    expect(none.body).toEqual({ job: null });
+    expect(await jobCount()).toBe(before);
+    const done = await runJob('denoise', codebookId, body);
+    expect(done.job.state).toBe('succeeded');
+    const found = await request(t.app).post(url(`${codebookId}/denoise-jobs/find`)).set(bearer(team.viewer)).send(body);
+    expect(found.status).toBe(200);
+    expect(found.body.job.job.id).toBe(done.job.id);
+    expect(found.body.job.result).toEqual(done.result);
+    // Another seed is another request: nothing stored for it.
+    const other = await request(t.app).post(url(`${codebookId}/denoise-jobs/find`)).set(bearer(team.viewer)).send({ ...body, seed: 42 });
+    expect(other.body).toEqual({ job: null });
+    expect(await jobCount()).toBe(before + 1);
+  });
+
+  it('matches an anomaly list by the images the default request ranks, not by another limit', async () => {
+    const body = { rate: 0.001, limit: 3 };
+    const done = await runJob('anomaly', codebookId, body);
+    const found = await request(t.app).post(url(`${codebookId}/anomaly-jobs/find`)).set(bearer(team.viewer)).send(body);
+    expect(found.body.job.job.id).toBe(done.job.id);
+    expect((await request(t.app).post(url(`${codebookId}/anomaly-jobs/find`)).set(bearer(team.viewer)).send({ ...body, limit: 4 })).body).toEqual({ job: null });
+  });
+
+  it('refuses a bad body with 400, another team\'s member with 404 and no session with 401', async () => {
+    expect((await request(t.app).post(url(`${codebookId}/denoise-jobs/find`)).set(bearer(team.viewer)).send({ imageId: heldOutIds[0] })).status).toBe(400);
+    expect((await request(t.app).post(url(`${codebookId}/anomaly-jobs/find`)).set(bearer(outsider)).send({ rate: 0.01 })).status).toBe(404);
+    expect((await request(t.app).post(url(`${codebookId}/anomaly-jobs/find`)).send({ rate: 0.01 })).status).toBe(401);
+  });
+});
+
 describe('a model job\'s life', () => {
   it('cancels a queued job, refuses to cancel it again with 409, and fails a job whose image went away with the reason', async () => {
     const runner = t.composition.jobs.runner;

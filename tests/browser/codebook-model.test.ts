@@ -1,5 +1,6 @@
 // The codebook-model views of a demo codebook in the browser: the anomaly heat map and ranked blocks, and the
-// denoise view with its PSNRs, each with the model's caution; each computed by a job the panel starts and follows.
+// denoise view with its PSNRs, each with the model's caution; each computed by a job started with its Compute
+// button (opening the page starts none) and followed, and shown again from its stored result.
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { MODEL_CAUTION } from '../../server/contracts';
@@ -47,7 +48,9 @@ describe('codebook model views', () => {
     await server?.stop();
   });
 
-  it('shows a viewer the heat map, the ranked blocks and the three denoised views with their PSNR, under the caution', async () => {
+  const modelJobs = async () => (await server.db.knex('jobs').whereIn('kind', ['anomaly', 'denoise']).select('kind', 'state')) as { kind: string; state: string }[];
+
+  it('starts no job when a viewer opens the page, and one per panel when its Compute button is pressed', async () => {
     browser = await launchBrowser();
     const { page } = browser;
     await page.goto(`${server.url}/sign-in`);
@@ -57,6 +60,20 @@ describe('codebook model views', () => {
     await page.waitForURL(/\/teams\/\d+/);
     await page.goto(`${server.url}${codebookPath}`);
 
+    // The map, the ranked list and the denoising each looked for a stored result, found none and offer to compute.
+    const compute = page.getByRole('button', { name: 'Compute', exact: true });
+    await expect.poll(() => compute.count(), { timeout: 30_000 }).toBe(3);
+    expect(await page.getByText('not computed yet').count()).toBe(3);
+    expect(await modelJobs()).toEqual([]);
+
+    await compute.first().click();
+    await expect.poll(async () => (await modelJobs()).length, { timeout: 30_000 }).toBe(1);
+    expect((await modelJobs())[0].kind).toBe('anomaly');
+    // The other two buttons start theirs; each button gives way to its job's progress once pressed.
+    for (let left = 2; left > 0; left -= 1) {
+      await expect.poll(() => compute.count(), { timeout: 30_000 }).toBe(left);
+      await compute.first().click();
+    }
     await expect.poll(() => page.getByTestId('anomaly-flagged').textContent(), { timeout: 30_000 }).toMatch(/^\d+ of \d+ blocks$/);
     await expect.poll(() => tinted(page)).toBeGreaterThan(0);
     await expect.poll(() => page.getByTestId('anomaly-list').locator('li').count(), { timeout: 30_000 }).toBe(12);
@@ -66,9 +83,19 @@ describe('codebook model views', () => {
     expect(await psnrOf(page, 'mean')).toBeGreaterThan(await psnrOf(page, 'noisy'));
     expect(await page.getByText(MODEL_CAUTION).count()).toBe(2);
     // Each panel's figures came from a job that succeeded on the workers: a map, a ranked list and a denoising.
-    const jobs = (await server.db.knex('jobs').whereIn('kind', ['anomaly', 'denoise']).select('kind', 'state')) as { kind: string; state: string }[];
+    const jobs = await modelJobs();
     expect(jobs.filter((j) => j.state === 'succeeded').map((j) => j.kind).sort()).toEqual(['anomaly', 'anomaly', 'denoise']);
     await page.getByTestId('denoise-views').scrollIntoViewIfNeeded();
     await saveScreenshot(page, 'studio-codebook-model');
+  });
+
+  it('shows the stored results when the page is opened again, without starting another job', async () => {
+    const { page } = browser!;
+    await page.reload();
+    await expect.poll(() => page.getByTestId('anomaly-flagged').textContent(), { timeout: 30_000 }).toMatch(/^\d+ of \d+ blocks$/);
+    await expect.poll(() => page.getByTestId('anomaly-list').locator('li').count(), { timeout: 30_000 }).toBe(12);
+    await expect.poll(() => page.getByTestId('denoise-views').getByRole('img').count(), { timeout: 30_000 }).toBe(4);
+    expect(await page.getByRole('button', { name: 'Compute', exact: true }).count()).toBe(0);
+    expect(await modelJobs()).toHaveLength(3);
   });
 });

@@ -111,6 +111,11 @@ export function jobsRepository(db: Executor) {
       const rows = (await db('jobs').where({ team_id: teamId, kind: 'evaluate' }).whereNull('run_id').orderBy('id', 'desc').limit(limit)) as JobRow[];
       return rows.map(toJob);
     },
+    /** A codebook's jobs of one kind, newest first, at most `limit`. */
+    async listForCodebook(codebookId: number, kind: JobKind, limit: number): Promise<JobRecord[]> {
+      const rows = (await db('jobs').where({ codebook_id: codebookId, kind }).orderBy('id', 'desc').limit(limit)) as JobRow[];
+      return rows.map(toJob);
+    },
     async listForRuns(runIds: number[]): Promise<JobRecord[]> {
       if (runIds.length === 0) return [];
       return ((await db('jobs').whereIn('run_id', runIds).orderBy('id')) as JobRow[]).map(toJob);

@@ -50,87 +50,79 @@ export interface SeedState {
 }
 
 /**
- * Brings vectors [start, end) up to date with codeword c, the newest. A vector moves to c
- * when c is strictly nearer. A new codeword at least twice as far from a vector's nearest
- * one as the vector is cannot come closer to it (triangle inequality: ‖x − c'‖ ≥
- * ‖c − c'‖ − ‖x − c‖ ≥ ‖x − c‖), so its distance is not computed. The test is applied with
- * a relative margin far above float64 rounding, so every vector skipped is one whose exact
- * distance would not have replaced its minimum: the result is that of the unpruned rule,
- * bit for bit. Each vector depends only on itself, so any split of the range among
- * threads gives the same state.
+ * Brings a shard's vectors up to date with codeword c, the newest, and returns their D² total, the float64 sum in
+ * vector order that ShardSeeding reports, formed in the same pass. A vector moves to c when c is strictly nearer.
+ * Three tests skip vectors whose D² cannot change, each exact, so the state is that of the unpruned rule, bit for bit:
+ * - a new codeword at least twice as far from a vector's nearest one as the vector is cannot come closer to it
+ *   (triangle inequality: ‖x − c'‖ ≥ ‖c − c'‖ − ‖x − c‖ ≥ ‖x − c‖), applied with PRUNE_FACTOR's margin;
+ * - ‖x − c‖ ≥ |‖x‖ − ‖c‖| (triangle inequality), with NORM_MARGIN for the norms' rounding;
+ * - the distance of the vectors left stops once its partial sum reaches the vector's D²: a float64 sum of
+ *   non-negative terms never decreases, so the whole would not have replaced it.
+ * Each vector depends only on itself and the codewords. `norms` holds ‖x‖ of every vector (vectorNormsInto).
  */
-export function seedUpdateRange(vectors: Float32Array, d: number, state: SeedState, c: number, start: number, end: number): void {
+export function seedUpdateWithTotal(vectors: Float32Array, d: number, state: SeedState, norms: Float64Array, c: number): number {
   const { codewords, minDist, nearest, fromNewest } = state;
+  const n = minDist.length;
   const off = c * d;
-  if (candidates.length < end - start) candidates = new Uint32Array(end - start);
-  const list = candidates;
-  let count = 0;
-  for (let v = start; v < end; v++) {
-    const m = minDist[v];
-    if (m === 0) continue;
-    // ‖c − c'‖² ≥ 4‖x − c‖² (with margin) ⇒ ‖x − c'‖² ≥ ‖x − c‖².
-    if (fromNewest[nearest[v]] > PRUNE_FACTOR * m) continue;
-    list[count++] = v;
+  const normC = Math.sqrt(exactSquaredNorm(codewords, off, d));
+  const whole = d - (d % 4);
+  let total = 0;
+  for (let v = 0; v < n; v++) {
+    let m = minDist[v];
+    if (m !== 0 && !(fromNewest[nearest[v]] > PRUNE_FACTOR * m)) {
+      const nx = norms[v];
+      const gap = Math.abs(nx - normC) - NORM_MARGIN * (nx + normC);
+      if (!(gap > 0 && gap * gap > m * (1 + NORM_MARGIN))) {
+        const base = v * d;
+        let s = 0;
+        let j = 0;
+        for (; j < whole; j += 4) {
+          const t0 = vectors[base + j] - codewords[off + j];
+          const t1 = vectors[base + j + 1] - codewords[off + j + 1];
+          const t2 = vectors[base + j + 2] - codewords[off + j + 2];
+          const t3 = vectors[base + j + 3] - codewords[off + j + 3];
+          s += t0 * t0;
+          s += t1 * t1;
+          s += t2 * t2;
+          s += t3 * t3;
+          if (s >= m) break;
+        }
+        if (j >= whole) {
+          for (; j < d; j++) {
+            const t = vectors[base + j] - codewords[off + j];
+            s += t * t;
+          }
+        }
+        if (s < m) {
+          m = s;
+          minDist[v] = s;
+          nearest[v] = c;
+        }
+      }
+    }
+    total += m;
   }
-  // Four vectors at a time, each summed in its own order exactly as exactDistance sums it: the four
-  // chains of additions overlap in the processor instead of waiting on one another.
-  let i = 0;
-  for (; i + 3 < count; i += 4) {
-    const v0 = list[i];
-    const v1 = list[i + 1];
-    const v2 = list[i + 2];
-    const v3 = list[i + 3];
-    const b0 = v0 * d;
-    const b1 = v1 * d;
-    const b2 = v2 * d;
-    const b3 = v3 * d;
-    let s0 = 0;
-    let s1 = 0;
-    let s2 = 0;
-    let s3 = 0;
-    for (let j = 0; j < d; j++) {
-      const w = codewords[off + j];
-      const t0 = vectors[b0 + j] - w;
-      const t1 = vectors[b1 + j] - w;
-      const t2 = vectors[b2 + j] - w;
-      const t3 = vectors[b3 + j] - w;
-      s0 += t0 * t0;
-      s1 += t1 * t1;
-      s2 += t2 * t2;
-      s3 += t3 * t3;
-    }
-    if (s0 < minDist[v0]) {
-      minDist[v0] = s0;
-      nearest[v0] = c;
-    }
-    if (s1 < minDist[v1]) {
-      minDist[v1] = s1;
-      nearest[v1] = c;
-    }
-    if (s2 < minDist[v2]) {
-      minDist[v2] = s2;
-      nearest[v2] = c;
-    }
-    if (s3 < minDist[v3]) {
-      minDist[v3] = s3;
-      nearest[v3] = c;
-    }
-  }
-  for (; i < count; i++) {
-    const v = list[i];
-    const dist = exactDistance(vectors, v * d, codewords, off, d);
-    if (dist < minDist[v]) {
-      minDist[v] = dist;
-      nearest[v] = c;
-    }
-  }
+  return total;
 }
 
-/** Indices of the vectors a step must measure; one buffer per thread, grown as needed. */
-let candidates = new Uint32Array(4096);
+/** ‖x‖ of every vector (vectors n × d) into out (n), for seedUpdateWithTotal's norm test. */
+export function vectorNormsInto(vectors: Float32Array, d: number, out: Float64Array): void {
+  const n = vectors.length / d;
+  for (let v = 0; v < n; v++) out[v] = Math.sqrt(exactSquaredNorm(vectors, v * d, d));
+}
 
-/** Runs seedUpdateRange over all of a shard's vectors for codeword c, where and however the caller likes. */
-export type SeedUpdater = (c: number) => void | Promise<void>;
+/** Σ x_i² in float64, in index order (each square of a float32 value is exact in float64). */
+function exactSquaredNorm(a: Float32Array, offset: number, d: number): number {
+  let s = 0;
+  for (let i = 0; i < d; i++) s += a[offset + i] * a[offset + i];
+  return s;
+}
+
+/**
+ * Runs seedUpdateWithTotal over all of a shard's vectors for codeword c, where the caller likes, and returns the
+ * shard's D² total it formed.
+ */
+export type SeedUpdater = (c: number) => number | Promise<number>;
 
 /** Squared distances from codeword c to codewords 0 … c − 1 (codewords K × d), into out[0 … c). */
 export function distancesToNewest(codewords: Float32Array, c: number, d: number, out: Float64Array): void {
@@ -146,7 +138,7 @@ export function plainSeedState(n: number, k: number, d: number): SeedState {
  * One shard's part of k-means++ seeding: the D² (squared distance to the nearest codeword chosen so far) of its
  * vectors, whole-set indices [offset, offset + n). It applies the codewords in the order chosen, so a shard opened
  * again elsewhere (its host was lost) reaches the same state by applying them all again, and it reports its total,
- * a float64 sum formed in vector order. `update` runs seedUpdateRange over the shard's vectors (on the calling
+ * a float64 sum formed in vector order. `update` runs seedUpdateWithTotal over the shard's vectors (on the calling
  * thread or on threads sharing `state`); each vector depends only on itself, so where it runs changes nothing.
  */
 export class ShardSeeding {
@@ -168,7 +160,9 @@ export class ShardSeeding {
   static plain(vectors: Float32Array, d: number, k: number, offset: number): ShardSeeding {
     const n = vectors.length / d;
     const state = plainSeedState(n, k, d);
-    return new ShardSeeding(state, (c) => seedUpdateRange(vectors, d, state, c, 0, n), offset, d);
+    const norms = new Float64Array(n);
+    vectorNormsInto(vectors, d, norms);
+    return new ShardSeeding(state, (c) => seedUpdateWithTotal(vectors, d, state, norms, c), offset, d);
   }
 
   /**
@@ -183,19 +177,16 @@ export class ShardSeeding {
       state.minDist.fill(Infinity);
       state.nearest.fill(0);
       this.applied = 0;
+      this.total = 0;
     }
-    if (count === this.applied) return this.total;
     for (let c = this.applied; c < count; c++) {
       state.codewords.set(codewords.subarray(c * d, (c + 1) * d), c * d);
       if (fromNewest && c === count - 1) state.fromNewest.set(fromNewest.subarray(0, c));
       else distancesToNewest(state.codewords, c, d, state.fromNewest);
-      await this.update(c);
+      this.total = await this.update(c);
       this.applied = c + 1;
     }
-    let total = 0;
-    for (let v = 0; v < state.minDist.length; v++) total += state.minDist[v];
-    this.total = total;
-    return total;
+    return this.total;
   }
 
   /**
@@ -311,12 +302,14 @@ export function seedSteps(
       }
       codewords.set(vectors.subarray(index * d, (index + 1) * d), c * d);
       distancesToNewest(codewords, c, d, fromNewest);
-      const totals: number[] = [];
-      for (const shard of shards) {
-        if (signal?.aborted) throw abortError(signal);
-        totals.push(await (await shard.seeding(k)).advance(codewords, c + 1, fromNewest));
-      }
-      return { index, totals };
+      if (signal?.aborted) throw abortError(signal);
+      // Side by side: a shard whose steps run on worker threads waits only for its own (NearestSearch.seeding).
+      // Every shard is awaited, even after a failure, so that none is left writing into its state.
+      const replies = await Promise.allSettled(shards.map(async (shard) => (await shard.seeding(k)).advance(codewords, c + 1, fromNewest)));
+      const failed = replies.find((r) => r.status === 'rejected');
+      if (failed) throw (failed as PromiseRejectedResult).reason;
+      if (signal?.aborted) throw abortError(signal);
+      return { index, totals: replies.map((r) => (r as PromiseFulfilledResult<number>).value) };
     },
   };
 }
@@ -332,3 +325,10 @@ export async function initKmeansPlusPlus(vectors: Float32Array, d: number, k: nu
  * so a margin of 1e-9 leaves every skip exact.
  */
 const PRUNE_FACTOR = 4 * (1 + 1e-9);
+
+/**
+ * Relative slack of the norm test. A norm computed in float64 from float32 components is within about (d + 2)·2⁻⁵³
+ * of ‖x‖ (below 1e-12 for d ≤ 4096), and so is a distance's sum; 1e-9 keeps the bound |‖x‖ − ‖c‖| − slack below the
+ * true distance and its square above the D² it is compared with only when the measured distance would be too.
+ */
+const NORM_MARGIN = 1e-9;

@@ -4,11 +4,11 @@ import { boundTableBytes } from '../parallel/nearest-search';
 /**
  * Bytes per training vector that a training pass holds besides the vectors themselves: the search's indices
  * (uint32) and exact distances (float64), each twice (the workers' shared state and the caller's copy) = 24, and
- * k-means++ seeding's state (float64 distance, uint32 nearest codeword) = 12, which covers the smaller per-vector
- * arrays of the other starts (a uint32 order or partition) as well. Counted from parallel/nearest-search.ts and
- * core/init.ts; `npm run bench` measures the peak against this estimate.
+ * k-means++ seeding's state (float64 distance, uint32 nearest codeword, float64 norm) = 20, which covers the smaller
+ * per-vector arrays of the other starts (a uint32 order or partition) as well. Counted from
+ * parallel/nearest-search.ts and core/init.ts; `npm run bench` measures the peak against this estimate.
  */
-const SEARCH_BYTES_PER_VECTOR = 36;
+const SEARCH_BYTES_PER_VECTOR = 44;
 
 /**
  * Bytes per codebook component (K × d of them) on the training thread: the codewords being trained, the previous

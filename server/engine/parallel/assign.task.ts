@@ -6,7 +6,7 @@ import { parentPort } from 'node:worker_threads';
 import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
 import { EncodeKernel } from '../wasm/encode-kernel';
 import { addRow } from '../core/accumulate-centroids';
-import { seedUpdateRange } from '../core/init';
+import { seedUpdateWithTotal, vectorNormsInto } from '../core/init';
 import type { AccumulateJob, AssignJob, AssignReply, EncodeJob, SeedJob, WorkerJob } from './messages';
 
 if (!parentPort) throw new Error('assign.task.ts must run in a worker thread');
@@ -30,8 +30,8 @@ function accumulate(job: AccumulateJob): void {
   }
 }
 
-/** One k-means++ step over the chunks this worker claims; every vector is independent of the others. */
-function seed(job: SeedJob): void {
+/** One k-means++ step over all the vectors; returns their D² total. */
+function seed(job: SeedJob): number {
   const { d, n, k } = job;
   const vectors = new Float32Array(job.vectors, job.vectorsByteOffset, n * d);
   const state = {
@@ -40,13 +40,9 @@ function seed(job: SeedJob): void {
     nearest: new Uint32Array(job.nearest, 0, n),
     fromNewest: new Float64Array(job.fromNewest, 0, k),
   };
-  const control = new Int32Array(job.control);
-  for (;;) {
-    if (Atomics.load(control, 1) !== 0) break;
-    const start = Atomics.add(control, 0, 1) * job.chunkSize;
-    if (start >= n) break;
-    seedUpdateRange(vectors, d, state, job.c, start, Math.min(n, start + job.chunkSize));
-  }
+  const norms = new Float64Array(job.norms, 0, n);
+  if (job.c === 0) vectorNormsInto(vectors, d, norms);
+  return seedUpdateWithTotal(vectors, d, state, norms, job.c);
 }
 
 let encodeKernel: EncodeKernel | undefined;
@@ -74,12 +70,13 @@ function encodeChunks(job: EncodeJob): void {
 }
 
 port.on('message', (message: WorkerJob) => {
-  if (message.kind === 'accumulate' || message.kind === 'seed' || message.kind === 'encode') {
+  if (message.kind === 'accumulate' || message.kind === 'seed-batch' || message.kind === 'encode') {
     try {
-      if (message.kind === 'seed') seed(message);
+      const reply: AssignReply = { jobId: message.jobId, redecided: 0, searched: 0 };
+      if (message.kind === 'seed-batch') reply.totals = message.steps.map(seed);
       else if (message.kind === 'encode') encodeChunks(message);
       else accumulate(message);
-      port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0 } satisfies AssignReply);
+      port.postMessage(reply);
     } catch (err) {
       const error = err instanceof Error ? err.message : String(err);
       port.postMessage({ jobId: message.jobId, redecided: 0, searched: 0, error } satisfies AssignReply);

@@ -32,31 +32,37 @@ export interface AccumulateJob {
   cellEnd: number;
 }
 
-/** One k-means++ step (core/init seedUpdateRange) over chunks of the vectors, claimed through `control`. */
+/** One k-means++ step (core/init seedUpdateWithTotal) over all of one shard's vectors, by one worker (in a SeedBatchJob). */
 export interface SeedJob {
-  jobId: number;
-  kind: 'seed';
   vectors: SharedArrayBuffer; // N × d f32 starting at vectorsByteOffset
   vectorsByteOffset: number;
   n: number;
   d: number;
   k: number;
-  /** The newest codeword's index. */
+  /** The newest codeword's index; at 0 the worker also fills `norms`. */
   c: number;
   codewords: SharedArrayBuffer; // K × d f32, read
   minDist: SharedArrayBuffer; // N f64, read and written
   nearest: SharedArrayBuffer; // N u32, read and written
   fromNewest: SharedArrayBuffer; // K f64, read
-  control: SharedArrayBuffer; // Int32 [next chunk, cancel flag]
-  chunkSize: number;
+  norms: SharedArrayBuffer; // N f64: ‖x‖ of each vector, written at step 0, read after
 }
 
-export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedJob | EncodeJob;
+/** The k-means++ steps of several shards for one worker, run in order; the reply carries their totals in that order. */
+export interface SeedBatchJob {
+  jobId: number;
+  kind: 'seed-batch';
+  steps: SeedJob[];
+}
+
+export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedBatchJob | EncodeJob;
 
 export interface AssignReply {
   jobId: number;
   redecided: number;
   searched: number;
+  /** A seed batch's D² totals (float64, each summed in vector order), one per step. */
+  totals?: number[];
   error?: string;
 }
 

@@ -24,7 +24,7 @@ export async function openLocalShards(
     crew.close();
     throw err;
   }
-  const seeding = seedSteps(vectors, d, options.maxK, shards.map((shard) => ({ seeding: (k: number) => shard.seeding(k, options.signal) })));
+  const seeding = seedSteps(vectors, d, options.maxK, shards.map((shard) => ({ seeding: (k: number) => shard.seeding(k) })));
   return {
     count: layout.count,
     seed: seeding.seed,

@@ -37,12 +37,13 @@ export class ShardState {
   }
 
   /**
-   * The shard's k-means++ state for K codewords (core/init.ts ShardSeeding): its D² updates run on the crew's
-   * threads over shared memory when the shard is large enough to pay for the hand-off, else on this thread.
+   * The shard's k-means++ state for K codewords (core/init.ts ShardSeeding): its D² updates run on one of the crew's
+   * threads over shared memory when the search has workers (the other shards' on the others, side by side), else on
+   * this thread. Cancellation is checked between steps by whoever drives them.
    */
-  seeding(k: number, signal?: AbortSignal): ShardSeeding {
+  seeding(k: number): ShardSeeding {
     if (this.seed?.k !== k) {
-      const parallel = this.search.seeding(k, signal);
+      const parallel = this.search.seeding(k);
       const seeding = parallel
         ? new ShardSeeding(parallel.state, parallel.update, this.offset, this.d)
         : ShardSeeding.plain(this.vectors, this.d, k, this.offset);

@@ -2,7 +2,7 @@ import type { z } from 'zod';
 import { codebookStructureResponse, structureStepsQuery, structureStepsResponse } from '../../contracts/codebook-structure';
 import {
   bdTableQuery, bdTableResponse, exportCodebookQuery, indexMapQuery,
-  anomalyJobBody, denoiseJobBody, modelJobParams, modelJobResponse, modelJobViewParams,
+  anomalyJobBody, denoiseJobBody, modelJobLookupResponse, modelJobParams, modelJobResponse, modelJobViewParams,
   channelQuery, channelResponse, firmwareQuery, reorderBody, reorderResponse, roundingQuery, roundingResponse,
   acceptedResponse,
   activityQuery,
@@ -248,6 +248,14 @@ const codebookRoutes: RouteDescription[] = [
   {
     method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/denoise-jobs', tag: 'Codebooks', summary: 'Add seeded noise to an image and remove it with the nearest-codeword and posterior-mean estimators (a job)', access: 'member', input: { params: codebookParams, body: denoiseJobBody },
     responses: { 202: json(modelJobResponse, 'The denoise job, queued') },
+  },
+  {
+    method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/anomaly-jobs/find', tag: 'Codebooks', summary: 'The anomaly job the same request queued before (not failed or cancelled), or null; queues nothing', access: 'member', input: { params: codebookParams, body: anomalyJobBody },
+    responses: { 200: json(modelJobLookupResponse, 'The job, or null') },
+  },
+  {
+    method: 'post', path: '/api/teams/:teamId/codebooks/:codebookId/denoise-jobs/find', tag: 'Codebooks', summary: 'The denoise job the same request queued before (not failed or cancelled), or null; queues nothing', access: 'member', input: { params: codebookParams, body: denoiseJobBody },
+    responses: { 200: json(modelJobLookupResponse, 'The job, or null') },
   },
   { method: 'get', path: '/api/teams/:teamId/model-jobs/:jobId', tag: 'Codebooks', summary: 'An anomaly or denoise job: state, progress and, once it has succeeded, its result', access: 'member', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job') } },
   { method: 'post', path: '/api/teams/:teamId/model-jobs/:jobId/cancel', tag: 'Codebooks', summary: 'Cancel an anomaly or denoise job', access: 'engineer', input: { params: modelJobParams }, responses: { 200: json(modelJobResponse, 'The job, cancelled or asked to stop') }, errors: { 409: 'The job has already ended' } },

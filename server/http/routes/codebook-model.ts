@@ -13,6 +13,8 @@ const viewInput = { params: modelJobViewParams };
  * as jobs on the workers (202 with the queued job; follow it at /api/teams/:teamId/model-jobs/:jobId).
  * POST /:codebookId/anomaly-jobs   { imageId } an image's per-block scores, or { setId?, limit? } a set's most unusual blocks
  * POST /:codebookId/denoise-jobs   { imageId, sigma, seed?, step? } seeded noise added and removed by both estimators
+ * POST /:codebookId/anomaly-jobs/find, /:codebookId/denoise-jobs/find   the same bodies: the job such a request queued
+ *                                    before, or null (200); reads only, so a page can show a stored result
  */
 export function codebookModelRouter(d: RouteDeps): Router {
   const r = Router({ mergeParams: true });
@@ -25,6 +27,16 @@ export function codebookModelRouter(d: RouteDeps): Router {
   r.post('/:codebookId/denoise-jobs', d.authenticate, d.requireTeamRole(), validate(denoiseInput), async (req, res) => {
     const { params, body } = validated(req, denoiseInput);
     res.status(202).json(await d.codebookModel.requestDenoise(params.teamId, req.user!.id, params.codebookId, body));
+  });
+
+  r.post('/:codebookId/anomaly-jobs/find', d.authenticate, d.requireTeamRole(), validate(anomalyInput), async (req, res) => {
+    const { params, body } = validated(req, anomalyInput);
+    res.json(await d.codebookModel.findAnomaly(params.teamId, params.codebookId, body));
+  });
+
+  r.post('/:codebookId/denoise-jobs/find', d.authenticate, d.requireTeamRole(), validate(denoiseInput), async (req, res) => {
+    const { params, body } = validated(req, denoiseInput);
+    res.json(await d.codebookModel.findDenoise(params.teamId, params.codebookId, body));
   });
 
   return r;

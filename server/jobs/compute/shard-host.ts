@@ -131,7 +131,6 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
   async function seedStep(hosted: HostedSession, message: ShardMessage, reply: (r: ShardReply) => Promise<void>): Promise<void> {
     const op = message.op as Extract<ShardMessage['op'], { op: 'seed' }>;
     const d = hosted.session.sample.dimension;
-    const signal = hosted.controller.signal;
     if (!hosted.seed || hosted.seed.k !== op.k || op.c === 0) {
       hosted.seed = { k: op.k, codewords: new Float32Array(op.k * d), known: 0, fromNewest: new Float64Array(op.k) };
       logger.info({ sessionId: message.sessionId, jobId: hosted.session.jobId, k: op.k, shards: message.shards }, 'seeding shards');
@@ -140,16 +139,21 @@ export function createShardHost(options: ShardHostOptions): ShardHost {
     const seed = hosted.seed;
     let index = op.index ?? -1;
     if (op.pick) {
-      const chosen = (await shardOf(hosted, op.pick.shard, undefined)).seeding(op.k, signal);
+      const chosen = (await shardOf(hosted, op.pick.shard, undefined)).seeding(op.k);
       await chosen.advance(seed.codewords, op.c);
       index = chosen.pick(op.pick.residual);
       await reply({ seq: message.seq, shard: op.pick.shard, pick: index });
     }
     learnCodeword(hosted, op.c, index);
-    for (const shard of message.shards) {
+    // The shards step side by side on this host's threads; every one is awaited, even after a failure.
+    const totals = await Promise.allSettled(message.shards.map(async (shard) => {
       const state = await shardOf(hosted, shard, undefined);
-      const total = await state.seeding(op.k, signal).advance(seed.codewords, op.c + 1, seed.fromNewest);
-      await reply({ seq: message.seq, shard, value: total });
+      return state.seeding(op.k).advance(seed.codewords, op.c + 1, seed.fromNewest);
+    }));
+    for (const [i, shard] of message.shards.entries()) {
+      const total = totals[i];
+      if (total.status === 'rejected') throw total.reason;
+      await reply({ seq: message.seq, shard, value: total.value });
     }
   }
 

@@ -1,7 +1,7 @@
 // The exported C decoder for every codebook structure (entropy-constrained, balanced and unbalanced tree, residual
 // stages; plain and mean-removed), compiled with the system's gcc (scripts/ensure-gcc.sh installs Debian's when
 // missing) and run on version 3 containers the studio writes: its output must match the engine's decoder byte for byte.
-import { execFileSync, spawnSync } from 'node:child_process';
+import { execFileSync } from 'node:child_process';
 import { crc32 } from 'node:zlib';
 import { mkdirSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -11,23 +11,11 @@ import {
   decode, firmwareBundle, makeCodebook, readContainer, reconstruct, shutdownEngineWorkers, withFixedPointCodewords, writeContainer,
   type Codebook, type ResidualWidth,
 } from '../../../server/engine';
+import { buildDecoder, gcc, lcg, readNetpbm, requireGcc, runDecoder, STRICT } from '../../helpers/c-decoder';
 import type { CodebookStructure } from '../../../server/engine/structures/types';
 import type { EncodedImage } from '../../../server/engine/format/codec';
 
-const STRICT = ['-std=c99', '-Wall', '-Wextra', '-Werror', '-O2'];
-const SANITIZED = ['-std=c99', '-Wall', '-Wextra', '-Werror', '-O1', '-g', '-fno-omit-frame-pointer', '-fsanitize=address,undefined', '-fno-sanitize-recover=all'];
-// Sanitizer reports exit with their own statuses, so they cannot pass for decode_file's own 1.
-const SANITIZER_ENV = { ...process.env, ASAN_OPTIONS: 'exitcode=97:abort_on_error=0', UBSAN_OPTIONS: 'exitcode=98:halt_on_error=1:print_stacktrace=1' };
 const training = { source: 'invented', vectorCount: 1, init: 'random' as const, epsilon: 0, seed: null, iterations: 0, distortion: 0, trace: [] };
-
-/** Linear congruential generator (Numerical Recipes constants): seeded, so every run tests the same values. */
-function lcg(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 2 ** 32;
-  };
-}
 
 /** A balanced binary tree of the given depth, nodes in breadth-first order: node n's children are 2n + 1 and 2n + 2. */
 function balancedChildren(depth: number): Int32Array {
@@ -110,21 +98,6 @@ function encodedFor(book: Codebook, width: number, height: number, seed: number)
   return { width, height, blocksX, blocksY, indices, meanCodes };
 }
 
-/** Reads a binary PGM (P5) or PPM (P6) with maxval 255, as decode_file writes it. */
-function readNetpbm(path: string): { channels: number; width: number; height: number; pixels: Uint8Array } {
-  const data = readFileSync(path);
-  const m = /^P([56])\n(\d+) (\d+)\n255\n/.exec(data.subarray(0, 64).toString('latin1'));
-  if (!m) throw new Error(`${path} is not a binary PGM/PPM`);
-  return { channels: m[1] === '6' ? 3 : 1, width: Number(m[2]), height: Number(m[3]), pixels: new Uint8Array(data.subarray(m[0].length)) };
-}
-
-const runDecoder = (binary: string, input: string, output: string, sanitized: boolean) =>
-  spawnSync(binary, [input, output], { encoding: 'utf8', env: sanitized ? SANITIZER_ENV : process.env });
-
-const gcc = (args: string[], cwd: string): void => {
-  execFileSync('gcc', args, { cwd, stdio: ['ignore', 'ignore', 'pipe'] });
-};
-
 const SIZES: [number, number][] = [[1, 1], [7, 5], [33, 18], [64, 41]];
 
 interface Built {
@@ -141,17 +114,13 @@ const built = new Map<string, Built>();
 
 beforeAll(() => {
   root = mkdtempSync(join(tmpdir(), 'cw-cdec3-'));
-  execFileSync('gcc', ['--version'], { stdio: 'ignore' }); // fails the file at once, with the reason, when gcc is missing
+  requireGcc();
   for (const c of CASES) {
     const book = codebookFor(c);
     const dir = join(root, c.name);
     mkdirSync(dir);
-    const bundle = firmwareBundle(book, { residual: c.residual });
-    for (const f of bundle.files) writeFileSync(join(dir, f.name), f.text);
-    const sources = bundle.files.filter((f) => f.name.endsWith('.c')).map((f) => f.name);
-    gcc([...STRICT, '-o', 'decode_file', ...sources], dir);
-    gcc([...SANITIZED, '-o', 'decode_file_san', ...sources], dir);
-    const fixedBook = withFixedPointCodewords(book, bundle.table);
+    const { strict, sanitized, table } = buildDecoder(book, dir, c.residual);
+    const fixedBook = withFixedPointCodewords(book, table);
     const containers: Built['containers'] = [];
     for (const [i, [width, height]] of SIZES.entries()) {
       const encoded = encodedFor(book, width, height, 31 * i + c.size);
@@ -162,7 +131,7 @@ beforeAll(() => {
         containers.push({ file, bytes, expected: reconstruct(fixedBook, encoded), float: decode(book, bytes).pixels });
       }
     }
-    built.set(c.name, { book, fixedBook, dir, strict: join(dir, 'decode_file'), sanitized: join(dir, 'decode_file_san'), containers });
+    built.set(c.name, { book, fixedBook, dir, strict, sanitized, containers });
   }
 }, 600_000);
 

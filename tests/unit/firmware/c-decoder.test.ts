@@ -9,11 +9,7 @@ import {
   decode, encode, firmwareBundle, fixedPointCost, makeCodebook, parseCodebookJson, readContainer, reconstruct, shutdownEngineWorkers, withFixedPointCodewords,
   type Codebook, type PixelImage, type ResidualWidth,
 } from '../../../server/engine';
-
-const STRICT = ['-std=c99', '-Wall', '-Wextra', '-Werror', '-O2'];
-const SANITIZED = ['-std=c99', '-Wall', '-Wextra', '-Werror', '-O1', '-g', '-fno-omit-frame-pointer', '-fsanitize=address,undefined', '-fno-sanitize-recover=all'];
-// Sanitizer reports exit with their own statuses, so they cannot pass for decode_file's own 1.
-const SANITIZER_ENV = { ...process.env, ASAN_OPTIONS: 'exitcode=97:abort_on_error=0', UBSAN_OPTIONS: 'exitcode=98:halt_on_error=1:print_stacktrace=1' };
+import { buildDecoder, gcc, lcg, readNetpbm, requireGcc, runDecoder, SANITIZED, SANITIZER_ENV, STRICT } from '../../helpers/c-decoder';
 
 let root: string;
 afterAll(async () => {
@@ -22,15 +18,6 @@ afterAll(async () => {
 });
 
 const training = { source: 'invented', vectorCount: 1, init: 'random' as const, epsilon: 0, seed: null, iterations: 0, distortion: 0, trace: [] };
-
-/** Linear congruential generator (Numerical Recipes constants): seeded, so every run tests the same values. */
-function lcg(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 2 ** 32;
-  };
-}
 
 interface Case {
   name: string;
@@ -93,35 +80,15 @@ interface Built {
 
 const built = new Map<string, Built>();
 
-function gcc(args: string[], cwd: string): void {
-  execFileSync('gcc', args, { cwd, stdio: ['ignore', 'ignore', 'pipe'] });
-}
-
-/** Reads a binary PGM (P5) or PPM (P6) with maxval 255, as decode_file writes it. */
-function readNetpbm(path: string): { channels: number; width: number; height: number; pixels: Uint8Array } {
-  const data = readFileSync(path);
-  const m = /^P([56])\n(\d+) (\d+)\n255\n/.exec(data.subarray(0, 64).toString('latin1'));
-  if (!m) throw new Error(`${path} is not a binary PGM/PPM`);
-  return { channels: m[1] === '6' ? 3 : 1, width: Number(m[2]), height: Number(m[3]), pixels: new Uint8Array(data.subarray(m[0].length)) };
-}
-
-function runDecoder(binary: string, input: string, output: string, sanitized: boolean) {
-  return spawnSync(binary, [input, output], { encoding: 'utf8', env: sanitized ? SANITIZER_ENV : process.env });
-}
-
 beforeAll(async () => {
   root = mkdtempSync(join(tmpdir(), 'cw-cdec-'));
-  execFileSync('gcc', ['--version'], { stdio: 'ignore' }); // fails the file at once, with the reason, when gcc is missing
+  requireGcc();
   for (const c of CASES) {
     const book = codebookFor(c);
     const dir = join(root, c.name);
     mkdirSync(dir);
-    const bundle = firmwareBundle(book, { residual: c.residual });
-    for (const f of bundle.files) writeFileSync(join(dir, f.name), f.text);
-    const sources = bundle.files.filter((f) => f.name.endsWith('.c')).map((f) => f.name);
-    gcc([...STRICT, '-o', 'decode_file', ...sources], dir);
-    gcc([...SANITIZED, '-o', 'decode_file_san', ...sources], dir);
-    const fixedBook = withFixedPointCodewords(book, bundle.table);
+    const { strict, sanitized, table } = buildDecoder(book, dir, c.residual);
+    const fixedBook = withFixedPointCodewords(book, table);
     const containers: Built['containers'] = [];
     for (const [i, [width, height]] of SIZES.entries()) {
       const image = imageFor(c.color, width, height, i + 1);
@@ -132,7 +99,7 @@ beforeAll(async () => {
         containers.push({ file, bytes: container, expected: reconstruct(fixedBook, encoded), float: decode(book, container).pixels });
       }
     }
-    built.set(c.name, { book, fixedBook, dir, strict: join(dir, 'decode_file'), sanitized: join(dir, 'decode_file_san'), containers });
+    built.set(c.name, { book, fixedBook, dir, strict, sanitized, containers });
   }
 }, 600_000);
 

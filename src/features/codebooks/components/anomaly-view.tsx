@@ -2,6 +2,7 @@ import { useEffect, useRef, useState } from 'react';
 import { ANOMALY_RATE, type AnomalyMap } from '../../../../server/contracts';
 import { SelectField } from '../../../components/ui/field';
 import { reconstructionImageUrl } from '../api/get-reconstruction';
+import { findAnomalyJob } from '../api/find-model-job';
 import { startAnomalyJob } from '../api/start-model-job';
 import { useModelJob } from '../hooks/use-model-job';
 import { ModelJobStatus } from './model-job-status';
@@ -89,15 +90,17 @@ function BlockTile({ url, image, block }: { url: string; image: { width: number;
 
 /**
  * Anomaly scores of held-out images: the heat map of one image at a false-alarm rate measured on the codebook's
- * training patches, and the most unusual blocks over the run's held-out images. Each is a job on the workers, started
- * when its image or rate is chosen and followed until its result is stored.
+ * training patches, and the most unusual blocks over the run's held-out images. Each is a job on the workers: a stored
+ * result of the same request is shown, else a Compute button starts one, followed until its result is stored.
  */
 export function AnomalyView({ teamId, codebookId, images, trained, canCancel }: { teamId: number; codebookId: number; images: Image[]; trained: boolean; canCancel: boolean }) {
   const [imageId, setImageId] = useState(images[0].imageId);
   const [rate, setRate] = useState<number>(ANOMALY_RATE.default);
   const image = images.find((i) => i.imageId === imageId) ?? images[0];
-  const mapJob = useModelJob(teamId, `anomaly-map:${codebookId}:${image.imageId}:${rate}`, () => startAnomalyJob(teamId, codebookId, { imageId: image.imageId, rate }));
-  const listJob = useModelJob(teamId, `anomaly-list:${codebookId}:${rate}`, () => startAnomalyJob(teamId, codebookId, { rate, limit: LIST_LIMIT }), trained);
+  const mapBody = { imageId: image.imageId, rate };
+  const listBody = { rate, limit: LIST_LIMIT };
+  const mapJob = useModelJob(teamId, `anomaly-map:${codebookId}:${image.imageId}:${rate}`, () => findAnomalyJob(teamId, codebookId, mapBody), () => startAnomalyJob(teamId, codebookId, mapBody));
+  const listJob = useModelJob(teamId, `anomaly-list:${codebookId}:${rate}`, () => findAnomalyJob(teamId, codebookId, listBody), () => startAnomalyJob(teamId, codebookId, listBody), trained);
   const mapData = mapJob.view?.result?.type === 'anomaly-map' ? mapJob.view.result : undefined;
   const listData = listJob.view?.result?.type === 'anomaly-list' ? listJob.view.result : undefined;
   const sizes = new Map(images.map((i) => [i.imageId, i]));

@@ -1,6 +1,7 @@
 import { useState } from 'react';
 import { Button } from '../../../components/ui/button';
 import { SelectField } from '../../../components/ui/field';
+import { findDenoiseJob } from '../api/find-model-job';
 import { startDenoiseJob } from '../api/start-model-job';
 import { formatDb } from '../format';
 import { useModelJob } from '../hooks/use-model-job';
@@ -14,8 +15,8 @@ const PANE_WIDTH = 240;
 
 /**
  * Denoising of a held-out image with seeded synthetic noise: noisy, nearest codeword (hard) and posterior mean side by
- * side, each with its PSNR against the image as the codebook sees it. A job on the workers, started when the image,
- * σ, step or seed is chosen and followed until its images are stored.
+ * side, each with its PSNR against the image as the codebook sees it. A job on the workers: a stored result of the
+ * same request is shown, else a Compute button starts one, followed until its images are stored.
  */
 export function DenoiseView({ teamId, codebookId, images, canCancel }: { teamId: number; codebookId: number; images: Image[]; canCancel: boolean }) {
   const [imageId, setImageId] = useState(images[0].imageId);
@@ -23,7 +24,8 @@ export function DenoiseView({ teamId, codebookId, images, canCancel }: { teamId:
   const [step, setStep] = useState(2);
   const [seed, setSeed] = useState(1);
   const image = images.find((i) => i.imageId === imageId) ?? images[0];
-  const job = useModelJob(teamId, `denoise:${codebookId}:${image.imageId}:${sigma}:${seed}:${step}`, () => startDenoiseJob(teamId, codebookId, { imageId: image.imageId, sigma, seed, step }));
+  const body = { imageId: image.imageId, sigma, seed, step };
+  const job = useModelJob(teamId, `denoise:${codebookId}:${image.imageId}:${sigma}:${seed}:${step}`, () => findDenoiseJob(teamId, codebookId, body), () => startDenoiseJob(teamId, codebookId, body));
   const data = job.view?.result?.type === 'denoise' ? job.view.result : undefined;
   const scale = Math.min(PANE_WIDTH / image.width, 4);
 

@@ -5,20 +5,32 @@ import { messageOf } from '../../../lib/api-client';
 import type { ModelJob } from '../hooks/use-model-job';
 
 /**
- * Where a model job is while it has no result: queued or running with its progress and, for engineers and admins, a
- * Cancel button (a job is shared by every member who asks the same, so stopping it is theirs, as for evaluations),
- * failed with its reason, or cancelled; a Start again button after either.
+ * Where a model job is while it has no result: nothing stored yet, with a Compute button for any member (opening the
+ * page starts nothing); queued or running with its progress and, for engineers and admins, a Cancel button (a job is
+ * shared by every member who asks the same, so stopping it is theirs, as for evaluations); failed with its reason, or
+ * cancelled, with a Start again button.
  */
 export function ModelJobStatus({ job, label, canCancel }: { job: ModelJob; label: string; canCancel: boolean }) {
   const { view, error } = job;
-  if (error) return <ErrorState message={messageOf(error)} onRetry={job.restart} />;
+  if (error) return <ErrorState message={messageOf(error)} onRetry={job.compute} />;
+  if (job.looking) return <p className="text-sm text-ink-600" role="status">{label}: looking for a stored result…</p>;
+  if (job.idle) {
+    return (
+      <div className="flex items-center gap-3 text-sm text-ink-700" role="status">
+        <span>{label}: not computed yet</span>
+        <Button variant="secondary" onClick={job.compute}>
+          Compute
+        </Button>
+      </div>
+    );
+  }
   const state = view?.job.state;
   if (state === 'succeeded') return null;
   if (state === 'cancelled') {
     return (
       <div className="flex items-center gap-3 text-sm text-ink-700" role="status">
         <span>{label}: {RUN_STATE_LABELS.cancelled}</span>
-        <Button variant="secondary" onClick={job.restart}>
+        <Button variant="secondary" onClick={job.compute}>
           Start again
         </Button>
       </div>

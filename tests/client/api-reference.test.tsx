@@ -43,8 +43,11 @@ describe('the API reference page', () => {
     render(<ApiReference doc={doc} />);
     fireEvent.change(screen.getByLabelText('Filter routes'), { target: { value: 'reconstruction' } });
     const shown = screen.getAllByTestId('api-operation');
-    expect(shown).toHaveLength(1);
-    expect(shown[0].textContent).toContain('/reconstruction/{imageId}');
+    // The reconstruction and its steps (tree levels, residual stages): every route whose path names it, and no other.
+    expect(shown).toHaveLength(2);
+    for (const op of shown) expect(op.textContent).toContain('/reconstruction/{imageId}');
+    fireEvent.change(screen.getByLabelText('Filter routes'), { target: { value: 'reconstruction/{imageId}/steps' } });
+    expect(screen.getAllByTestId('api-operation')).toHaveLength(1);
     fireEvent.change(screen.getByLabelText('Filter routes'), { target: { value: 'no such route' } });
     expect(screen.queryAllByTestId('api-operation')).toHaveLength(0);
   });

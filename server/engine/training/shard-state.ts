@@ -5,6 +5,7 @@ import type { CellMember, EcvqPassRequest, EcvqShardPass, ShardAssignment, Shard
 import { ShardSeeding } from '../core/init';
 import { shardSplitSums } from '../core/split';
 import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
+import { SeedKernel } from '../wasm/seed-kernel';
 
 /**
  * One shard of a training set where it is computed: its vectors, a nearest search that keeps its bounds between
@@ -46,10 +47,16 @@ export class ShardState {
       const parallel = this.search.seeding(k);
       const seeding = parallel
         ? new ShardSeeding(parallel.state, parallel.update, this.offset, this.d)
-        : ShardSeeding.plain(this.vectors, this.d, k, this.offset);
+        : this.kernelSeeding(k);
       this.seed = { k, seeding };
     }
     return this.seed.seeding;
+  }
+
+  /** Seeding on this thread, its steps in the WebAssembly kernel (the shard's vectors copied in once). */
+  private kernelSeeding(k: number): ShardSeeding {
+    const kernel = new SeedKernel(this.vectors, this.d, k);
+    return new ShardSeeding(kernel.state, (c) => kernel.step(c), this.offset, this.d);
   }
 
   /** A nearest-codeword pass with codewords K × d: the shard's statistics and centroid sums. */

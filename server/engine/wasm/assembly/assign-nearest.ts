@@ -983,15 +983,17 @@ export function seedStep(
   for (let b = 0; b < n; b += SEED_BLOCK) {
     const e = min(n, b + SEED_BLOCK);
     let count = 0;
-    for (let v = b; v < e; v++) {
-      const m = load<f64>(minPtr + <usize>v * 8);
-      if (m == 0) continue;
-      if (load<f64>(fromPtr + <usize>load<u32>(nearPtr + <usize>v * 4) * 8) > prune * m) continue;
-      const nx = load<f64>(normsPtr + <usize>v * 8);
-      const gap = abs(nx - normC) - margin * (nx + normC);
-      if (gap > 0 && gap * gap > m * margin1) continue;
-      store<u32>(listPtr + <usize>count * 4, v);
-      count++;
+    if (b == 0) {
+      for (let v = b; v < e; v++) count = seedCandidate(v, minPtr, nearPtr, fromPtr, normsPtr, normC, prune, margin, margin1, listPtr, count);
+    } else {
+      // The previous block (full, and final now) goes into the total here: the chain of additions in vector order then
+      // runs alongside this block's tests instead of on its own.
+      const pb = b - SEED_BLOCK;
+      for (let i = 0; i < SEED_BLOCK; i++) {
+        total += load<f64>(minPtr + <usize>(pb + i) * 8);
+        const v = b + i;
+        if (v < e) count = seedCandidate(v, minPtr, nearPtr, fromPtr, normsPtr, normC, prune, margin, margin1, listPtr, count);
+      }
     }
     for (let q = 0; q < count; q += 4) {
       const real = min(4, count - q);
@@ -1055,10 +1057,30 @@ export function seedStep(
       if (real > 2) changed = seedTake(f64x2.extract_lane(sB, 0), m2, v2, cIdx, minPtr, nearPtr, changedPtr, changed);
       if (real > 3) changed = seedTake(f64x2.extract_lane(sB, 1), m3, v3, cIdx, minPtr, nearPtr, changedPtr, changed);
     }
-    for (let v = b; v < e; v++) total += load<f64>(minPtr + <usize>v * 8);
   }
+  // The last block's D², which no later block's tests took in.
+  if (n > 0) for (let v = (n - 1) / SEED_BLOCK * SEED_BLOCK; v < n; v++) total += load<f64>(minPtr + <usize>v * 8);
   store<u32>(countPtr, changed);
   return total;
+}
+
+/**
+ * seedStep's skip tests for vector v, the JS ones (core/init seedUpdateWithTotal) joined without branches: v is written
+ * at the list's end, which grows by one when none of them skips it. Returns the list's length.
+ */
+// @ts-ignore: decorator
+@inline
+function seedCandidate(
+  v: i32, minPtr: usize, nearPtr: usize, fromPtr: usize, normsPtr: usize, normC: f64, prune: f64, margin: f64, margin1: f64,
+  listPtr: usize, count: i32,
+): i32 {
+  const m = load<f64>(minPtr + <usize>v * 8);
+  const far = load<f64>(fromPtr + <usize>load<u32>(nearPtr + <usize>v * 4) * 8) > prune * m;
+  const nx = load<f64>(normsPtr + <usize>v * 8);
+  const gap = abs(nx - normC) - margin * (nx + normC);
+  const skip = <i32>(m == 0) | <i32>far | (<i32>(gap > 0) & <i32>(gap * gap > m * margin1));
+  store<u32>(listPtr + <usize>count * 4, v);
+  return count + (skip ^ 1);
 }
 
 /** seedStep's move of vector v to codeword c when its distance s is strictly below its D² m; returns the changed count. */

@@ -5,7 +5,7 @@ import type { CellMember, EcvqPassRequest, EcvqShardPass, ShardAssignment, Shard
 import { ShardSeeding } from '../core/init';
 import { shardSplitSums } from '../core/split';
 import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
-import { SeedKernel } from '../wasm/seed-kernel';
+import { SEED_KERNEL_MAX_COMPONENTS, SeedKernel } from '../wasm/seed-kernel';
 
 /**
  * One shard of a training set where it is computed: its vectors, a nearest search that keeps its bounds between
@@ -47,7 +47,9 @@ export class ShardState {
       const parallel = this.search.seeding(k);
       const seeding = parallel
         ? new ShardSeeding(parallel.state, parallel.update, this.offset, this.d)
-        : this.kernelSeeding(k);
+        : this.vectors.length <= SEED_KERNEL_MAX_COMPONENTS
+          ? this.kernelSeeding(k)
+          : ShardSeeding.plain(this.vectors, this.d, k, this.offset);
       this.seed = { k, seeding };
     }
     return this.seed.seeding;

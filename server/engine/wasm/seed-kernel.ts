@@ -15,6 +15,14 @@ const SEED_BLOCK = 512;
 const align = (n: number, a: number) => Math.ceil(n / a) * a;
 
 /**
+ * The largest shard (n × d components) seeded in a SeedKernel: the kernel holds a copy of the shard's vectors while
+ * the seeding runs, 4 MiB at most a shard and 32 MiB for the most shards a set has (core/shard-layout MAX_SHARDS), an
+ * amount the training memory estimate's per-vector and codebook terms do not rely on being free. Larger shards seed
+ * with core/init seedUpdateWithTotal over the shared vectors, in place.
+ */
+export const SEED_KERNEL_MAX_COMPONENTS = 1 << 20;
+
+/**
  * One shard's k-means++ state in a WebAssembly instance of its own: the shard's vectors are copied in once, and each
  * step (assembly/assign-nearest.ts seedStep) is core/init seedUpdateWithTotal computed in the kernel, the same D²,
  * nearest indices and total, bit for bit. `state`'s arrays are views of the instance's memory, which is sized once

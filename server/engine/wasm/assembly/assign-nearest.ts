@@ -983,18 +983,24 @@ export function seedStep(
   for (let b = 0; b < n; b += SEED_BLOCK) {
     const e = min(n, b + SEED_BLOCK);
     let count = 0;
-    if (b == 0) {
-      for (let v = b; v < e; v++) count = seedCandidate(v, minPtr, nearPtr, fromPtr, normsPtr, normC, prune, margin, margin1, listPtr, count);
-    } else {
-      // The previous block (full, and final now) goes into the total here: the chain of additions in vector order then
-      // runs alongside this block's tests instead of on its own.
-      const pb = b - SEED_BLOCK;
-      for (let i = 0; i < SEED_BLOCK; i++) {
-        total += load<f64>(minPtr + <usize>(pb + i) * 8);
-        const v = b + i;
-        if (v < e) count = seedCandidate(v, minPtr, nearPtr, fromPtr, normsPtr, normC, prune, margin, margin1, listPtr, count);
+    // The previous block (full, and final now) goes into the total here, in vector order: the chain of additions then
+    // runs alongside this block's tests instead of on its own.
+    const pb = b - SEED_BLOCK;
+    let v = b;
+    for (; v + 1 < e; v += 2) {
+      if (b > 0) {
+        total += load<f64>(minPtr + <usize>(pb + v - b) * 8);
+        total += load<f64>(minPtr + <usize>(pb + v - b + 1) * 8);
       }
+      count = seedCandidates2(v, minPtr, nearPtr, fromPtr, normsPtr, normC, prune, margin, margin1, listPtr, count);
     }
+    if (v < e) {
+      if (b > 0) total += load<f64>(minPtr + <usize>(pb + v - b) * 8);
+      count = seedCandidate(v, minPtr, nearPtr, fromPtr, normsPtr, normC, prune, margin, margin1, listPtr, count);
+      v++;
+    }
+    // A last block shorter than the previous one: the rest of the previous block's D².
+    if (b > 0) for (v = pb + (e - b); v < b; v++) total += load<f64>(minPtr + <usize>v * 8);
     for (let q = 0; q < count; q += 4) {
       const real = min(4, count - q);
       const v0 = load<u32>(listPtr + <usize>q * 4);
@@ -1081,6 +1087,30 @@ function seedCandidate(
   const skip = <i32>(m == 0) | <i32>far | (<i32>(gap > 0) & <i32>(gap * gap > m * margin1));
   store<u32>(listPtr + <usize>count * 4, v);
   return count + (skip ^ 1);
+}
+
+/** seedCandidate for vectors v and v + 1 at once, in f64x2 lanes (the same operations on each). */
+// @ts-ignore: decorator
+@inline
+function seedCandidates2(
+  v: i32, minPtr: usize, nearPtr: usize, fromPtr: usize, normsPtr: usize, normC: f64, prune: f64, margin: f64, margin1: f64,
+  listPtr: usize, count: i32,
+): i32 {
+  const m = v128.load(minPtr + <usize>v * 8);
+  const near = v128.load64_zero(nearPtr + <usize>v * 4);
+  const f0 = load<f64>(fromPtr + <usize>i32x4.extract_lane(near, 0) * 8);
+  const f1 = load<f64>(fromPtr + <usize>i32x4.extract_lane(near, 1) * 8);
+  const far = f64x2.gt(f64x2.replace_lane(f64x2.splat(f0), 1, f1), f64x2.mul(f64x2.splat(prune), m));
+  const nx = v128.load(normsPtr + <usize>v * 8);
+  const nc = f64x2.splat(normC);
+  const gap = f64x2.sub(f64x2.abs(f64x2.sub(nx, nc)), f64x2.mul(f64x2.splat(margin), f64x2.add(nx, nc)));
+  const normFar = v128.and(f64x2.gt(gap, f64x2.splat(0)), f64x2.gt(f64x2.mul(gap, gap), f64x2.mul(m, f64x2.splat(margin1))));
+  const skip = v128.or(v128.or(f64x2.eq(m, f64x2.splat(0)), far), normFar);
+  const bits = i64x2.bitmask(skip);
+  store<u32>(listPtr + <usize>count * 4, v);
+  count += (bits & 1) ^ 1;
+  store<u32>(listPtr + <usize>count * 4, v + 1);
+  return count + ((bits >> 1) ^ 1);
 }
 
 /** seedStep's move of vector v to codeword c when its distance s is strictly below its D² m; returns the changed count. */

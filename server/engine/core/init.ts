@@ -59,6 +59,8 @@ export interface SeedState {
  * - the distance of the vectors left stops once its partial sum reaches the vector's D²: a float64 sum of
  *   non-negative terms never decreases, so the whole would not have replaced it.
  * Each vector depends only on itself and the codewords. `norms` holds ‖x‖ of every vector (vectorNormsInto).
+ * wasm/seed-kernel.ts (assembly/assign-nearest.ts seedStep) computes the same, operation for operation, for the shards
+ * seeded on the calling thread; a change to the rule here is a change there (tests/unit/engine-core/seed-kernel.test.ts).
  */
 export function seedUpdateWithTotal(vectors: Float32Array, d: number, state: SeedState, norms: Float64Array, c: number): number {
   const { codewords, minDist, nearest, fromNewest } = state;

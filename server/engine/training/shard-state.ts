@@ -40,7 +40,8 @@ export class ShardState {
   /**
    * The shard's k-means++ state for K codewords (core/init.ts ShardSeeding): its D² updates run on one of the crew's
    * threads over shared memory when the search has workers (the other shards' on the others, side by side), else on
-   * this thread. Cancellation is checked between steps by whoever drives them.
+   * this thread, in the WebAssembly kernel when the shard is small enough to copy (wasm/seed-kernel.ts). Cancellation
+   * is checked between steps by whoever drives them.
    */
   seeding(k: number): ShardSeeding {
     if (this.seed?.k !== k) {

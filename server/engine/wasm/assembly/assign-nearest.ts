@@ -966,7 +966,9 @@ const SEED_BLOCK: i32 = 512;
  *   reaches the vector's D², as the JS loop does. Four vectors run side by side, one per f64x2 lane, each lane its own
  *   chain of additions in component order; a lane that has reached its D² while another has not keeps adding
  *   non-negative terms, which never lowers a float64 sum, so its `s < m` decision is the JS one.
- * - The total adds the D² in vector order once each block's updates are made.
+ * - The total adds the D² in vector order, each block's once its updates are made (while the next block is tested).
+ * - The skip tests of two vectors run at once in f64x2 lanes, each lane the scalar expressions; no branch decides
+ *   them (a vector is written to the candidate list in any case, and the list grows only when nothing skips it).
  * c64Ptr: scratch d × 16 bytes (each component of c twice, as f64); listPtr: SEED_BLOCK u32 scratch; the vectors whose
  * D² changed are written, in order, to changedPtr (n u32) and their count to countPtr (u32). Returns the total.
  */

@@ -59,12 +59,14 @@ export interface SeedState {
  * - the distance of the vectors left stops once its partial sum reaches the vector's D²: a float64 sum of
  *   non-negative terms never decreases, so the whole would not have replaced it.
  * Each vector depends only on itself and the codewords. `norms` holds ‖x‖ of every vector (vectorNormsInto).
+ * wasm/seed-kernel.ts (assembly/assign-nearest.ts seedStep) computes the same, operation for operation, for the shards
+ * seeded on the calling thread; a change to the rule here is a change there (tests/unit/engine-core/seed-kernel.test.ts).
  */
 export function seedUpdateWithTotal(vectors: Float32Array, d: number, state: SeedState, norms: Float64Array, c: number): number {
   const { codewords, minDist, nearest, fromNewest } = state;
   const n = minDist.length;
   const off = c * d;
-  const normC = Math.sqrt(exactSquaredNorm(codewords, off, d));
+  const normC = codewordNorm(codewords, c, d);
   const whole = d - (d % 4);
   let total = 0;
   for (let v = 0; v < n; v++) {
@@ -109,6 +111,11 @@ export function seedUpdateWithTotal(vectors: Float32Array, d: number, state: See
 export function vectorNormsInto(vectors: Float32Array, d: number, out: Float64Array): void {
   const n = vectors.length / d;
   for (let v = 0; v < n; v++) out[v] = Math.sqrt(exactSquaredNorm(vectors, v * d, d));
+}
+
+/** ‖c‖ of codeword c (codewords K × d), as seedUpdateWithTotal's norm test takes it. */
+export function codewordNorm(codewords: Float32Array, c: number, d: number): number {
+  return Math.sqrt(exactSquaredNorm(codewords, c * d, d));
 }
 
 /** Σ x_i² in float64, in index order (each square of a float32 value is exact in float64). */
@@ -324,11 +331,11 @@ export async function initKmeansPlusPlus(vectors: Float32Array, d: number, k: nu
  * float32 vectors carries a relative error of at most about d·2⁻⁵³ (≈ 1e-14 for d = 768),
  * so a margin of 1e-9 leaves every skip exact.
  */
-const PRUNE_FACTOR = 4 * (1 + 1e-9);
+export const PRUNE_FACTOR = 4 * (1 + 1e-9);
 
 /**
  * Relative slack of the norm test. A norm computed in float64 from float32 components is within about (d + 2)·2⁻⁵³
  * of ‖x‖ (below 1e-12 for d ≤ 4096), and so is a distance's sum; 1e-9 keeps the bound |‖x‖ − ‖c‖| − slack below the
  * true distance and its square above the D² it is compared with only when the measured distance would be too.
  */
-const NORM_MARGIN = 1e-9;
+export const NORM_MARGIN = 1e-9;

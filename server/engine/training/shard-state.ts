@@ -5,6 +5,7 @@ import type { CellMember, EcvqPassRequest, EcvqShardPass, ShardAssignment, Shard
 import { ShardSeeding } from '../core/init';
 import { shardSplitSums } from '../core/split';
 import { NearestSearch, type SearchCrew } from '../parallel/nearest-search';
+import { SEED_KERNEL_MAX_COMPONENTS, SeedKernel } from '../wasm/seed-kernel';
 
 /**
  * One shard of a training set where it is computed: its vectors, a nearest search that keeps its bounds between
@@ -39,17 +40,26 @@ export class ShardState {
   /**
    * The shard's k-means++ state for K codewords (core/init.ts ShardSeeding): its D² updates run on one of the crew's
    * threads over shared memory when the search has workers (the other shards' on the others, side by side), else on
-   * this thread. Cancellation is checked between steps by whoever drives them.
+   * this thread, in the WebAssembly kernel when the shard is small enough to copy (wasm/seed-kernel.ts). Cancellation
+   * is checked between steps by whoever drives them.
    */
   seeding(k: number): ShardSeeding {
     if (this.seed?.k !== k) {
       const parallel = this.search.seeding(k);
       const seeding = parallel
         ? new ShardSeeding(parallel.state, parallel.update, this.offset, this.d)
-        : ShardSeeding.plain(this.vectors, this.d, k, this.offset);
+        : this.vectors.length <= SEED_KERNEL_MAX_COMPONENTS
+          ? this.kernelSeeding(k)
+          : ShardSeeding.plain(this.vectors, this.d, k, this.offset);
       this.seed = { k, seeding };
     }
     return this.seed.seeding;
+  }
+
+  /** Seeding on this thread, its steps in the WebAssembly kernel (the shard's vectors copied in once). */
+  private kernelSeeding(k: number): ShardSeeding {
+    const kernel = new SeedKernel(this.vectors, this.d, k);
+    return new ShardSeeding(kernel.state, (c) => kernel.step(c), this.offset, this.d);
   }
 
   /** A nearest-codeword pass with codewords K × d: the shard's statistics and centroid sums. */

@@ -950,3 +950,178 @@ export function residualGreedy(
   }
   return rescored;
 }
+
+// ---- k-means++ seeding step (../../core/seed-kernel.ts; the rule is core/init seedUpdateWithTotal) ----
+
+/** Vectors tested per round of seedStep: their candidates, D² and rows stay in L1/L2 between its three phases. */
+const SEED_BLOCK: i32 = 512;
+
+/**
+ * One k-means++ step over n vectors x (n × d f32, row-major) for the newest codeword c (d f32 at cPtr, index cIdx):
+ * the same decisions and the same float64 operations in the same order as core/init seedUpdateWithTotal, so the D²
+ * (minPtr, n f64), nearest indices (nearPtr, n u32) and the returned total are its bits exactly.
+ * - The skip tests (triangle through the nearest codeword with fromNewest (fromPtr, f64 by codeword) and `prune`;
+ *   the norm test with norms (normsPtr, n f64), normC and `margin`) are the JS expressions, operand for operand.
+ * - A distance is Σ (f64(x_i) − f64(c_i))² added in component order, stopped at a multiple of 4 components once it
+ *   reaches the vector's D², as the JS loop does. Four vectors run side by side, one per f64x2 lane, each lane its own
+ *   chain of additions in component order; a lane that has reached its D² while another has not keeps adding
+ *   non-negative terms, which never lowers a float64 sum, so its `s < m` decision is the JS one.
+ * - The total adds the D² in vector order, each block's once its updates are made (while the next block is tested).
+ * - The skip tests of two vectors run at once in f64x2 lanes, each lane the scalar expressions; no branch decides
+ *   them (a vector is written to the candidate list in any case, and the list grows only when nothing skips it).
+ * c64Ptr: scratch d × 16 bytes (each component of c twice, as f64); listPtr: SEED_BLOCK u32 scratch; the vectors whose
+ * D² changed are written, in order, to changedPtr (n u32) and their count to countPtr (u32). Returns the total.
+ */
+export function seedStep(
+  xPtr: usize, n: i32, d: i32, cPtr: usize, cIdx: i32, normC: f64, prune: f64, margin: f64,
+  minPtr: usize, nearPtr: usize, fromPtr: usize, normsPtr: usize, c64Ptr: usize, listPtr: usize, changedPtr: usize, countPtr: usize,
+): f64 {
+  for (let i = 0; i < d; i++) v128.store(c64Ptr + <usize>i * 16, f64x2.splat(<f64>load<f32>(cPtr + <usize>i * 4)));
+  const whole = d - (d & 3);
+  const margin1: f64 = 1 + margin;
+  const rowBytes = <usize>d * 4;
+  let total: f64 = 0;
+  let changed = 0;
+  for (let b = 0; b < n; b += SEED_BLOCK) {
+    const e = min(n, b + SEED_BLOCK);
+    let count = 0;
+    // The previous block (full, and final now) goes into the total here, in vector order: the chain of additions then
+    // runs alongside this block's tests instead of on its own.
+    const pb = b - SEED_BLOCK;
+    let v = b;
+    for (; v + 1 < e; v += 2) {
+      if (b > 0) {
+        total += load<f64>(minPtr + <usize>(pb + v - b) * 8);
+        total += load<f64>(minPtr + <usize>(pb + v - b + 1) * 8);
+      }
+      count = seedCandidates2(v, minPtr, nearPtr, fromPtr, normsPtr, normC, prune, margin, margin1, listPtr, count);
+    }
+    if (v < e) {
+      if (b > 0) total += load<f64>(minPtr + <usize>(pb + v - b) * 8);
+      count = seedCandidate(v, minPtr, nearPtr, fromPtr, normsPtr, normC, prune, margin, margin1, listPtr, count);
+      v++;
+    }
+    // A last block shorter than the previous one: the rest of the previous block's D².
+    if (b > 0) for (v = pb + (e - b); v < b; v++) total += load<f64>(minPtr + <usize>v * 8);
+    for (let q = 0; q < count; q += 4) {
+      const real = min(4, count - q);
+      const v0 = load<u32>(listPtr + <usize>q * 4);
+      // Missing lanes read vector v0 against a D² of 0: done from the start, never written back.
+      const v1 = real > 1 ? load<u32>(listPtr + <usize>(q + 1) * 4) : v0;
+      const v2 = real > 2 ? load<u32>(listPtr + <usize>(q + 2) * 4) : v0;
+      const v3 = real > 3 ? load<u32>(listPtr + <usize>(q + 3) * 4) : v0;
+      const m0 = load<f64>(minPtr + <usize>v0 * 8);
+      const m1 = real > 1 ? load<f64>(minPtr + <usize>v1 * 8) : 0;
+      const m2 = real > 2 ? load<f64>(minPtr + <usize>v2 * 8) : 0;
+      const m3 = real > 3 ? load<f64>(minPtr + <usize>v3 * 8) : 0;
+      const mA = f64x2.replace_lane(f64x2.splat(m0), 1, m1);
+      const mB = f64x2.replace_lane(f64x2.splat(m2), 1, m3);
+      const p0 = xPtr + <usize>v0 * rowBytes, p1 = xPtr + <usize>v1 * rowBytes;
+      const p2 = xPtr + <usize>v2 * rowBytes, p3 = xPtr + <usize>v3 * rowBytes;
+      let sA = f64x2.splat(0);
+      let sB = f64x2.splat(0);
+      let j = 0;
+      for (; j < whole; j += 4) {
+        const o = <usize>j * 4;
+        const x0 = v128.load(p0 + o), x1 = v128.load(p1 + o), x2 = v128.load(p2 + o), x3 = v128.load(p3 + o);
+        const cp = c64Ptr + <usize>j * 16;
+        // Component j + t of lanes (v0, v1) and (v2, v3), promoted exactly to f64.
+        let c = v128.load(cp);
+        let tA = f64x2.sub(f64x2.promote_low_f32x4(v128.shuffle<f32>(x0, x1, 0, 4, 0, 4)), c);
+        let tB = f64x2.sub(f64x2.promote_low_f32x4(v128.shuffle<f32>(x2, x3, 0, 4, 0, 4)), c);
+        sA = f64x2.add(sA, f64x2.mul(tA, tA));
+        sB = f64x2.add(sB, f64x2.mul(tB, tB));
+        c = v128.load(cp + 16);
+        tA = f64x2.sub(f64x2.promote_low_f32x4(v128.shuffle<f32>(x0, x1, 1, 5, 1, 5)), c);
+        tB = f64x2.sub(f64x2.promote_low_f32x4(v128.shuffle<f32>(x2, x3, 1, 5, 1, 5)), c);
+        sA = f64x2.add(sA, f64x2.mul(tA, tA));
+        sB = f64x2.add(sB, f64x2.mul(tB, tB));
+        c = v128.load(cp + 32);
+        tA = f64x2.sub(f64x2.promote_low_f32x4(v128.shuffle<f32>(x0, x1, 2, 6, 2, 6)), c);
+        tB = f64x2.sub(f64x2.promote_low_f32x4(v128.shuffle<f32>(x2, x3, 2, 6, 2, 6)), c);
+        sA = f64x2.add(sA, f64x2.mul(tA, tA));
+        sB = f64x2.add(sB, f64x2.mul(tB, tB));
+        c = v128.load(cp + 48);
+        tA = f64x2.sub(f64x2.promote_low_f32x4(v128.shuffle<f32>(x0, x1, 3, 7, 3, 7)), c);
+        tB = f64x2.sub(f64x2.promote_low_f32x4(v128.shuffle<f32>(x2, x3, 3, 7, 3, 7)), c);
+        sA = f64x2.add(sA, f64x2.mul(tA, tA));
+        sB = f64x2.add(sB, f64x2.mul(tB, tB));
+        if (i64x2.all_true(f64x2.ge(sA, mA)) && i64x2.all_true(f64x2.ge(sB, mB))) break;
+      }
+      if (j >= whole) {
+        for (; j < d; j++) {
+          const c = v128.load(c64Ptr + <usize>j * 16);
+          const o = <usize>j * 4;
+          const xA = f64x2.replace_lane(f64x2.splat(<f64>load<f32>(p0 + o)), 1, <f64>load<f32>(p1 + o));
+          const xB = f64x2.replace_lane(f64x2.splat(<f64>load<f32>(p2 + o)), 1, <f64>load<f32>(p3 + o));
+          const tA = f64x2.sub(xA, c);
+          const tB = f64x2.sub(xB, c);
+          sA = f64x2.add(sA, f64x2.mul(tA, tA));
+          sB = f64x2.add(sB, f64x2.mul(tB, tB));
+        }
+      }
+      changed = seedTake(f64x2.extract_lane(sA, 0), m0, v0, cIdx, minPtr, nearPtr, changedPtr, changed);
+      if (real > 1) changed = seedTake(f64x2.extract_lane(sA, 1), m1, v1, cIdx, minPtr, nearPtr, changedPtr, changed);
+      if (real > 2) changed = seedTake(f64x2.extract_lane(sB, 0), m2, v2, cIdx, minPtr, nearPtr, changedPtr, changed);
+      if (real > 3) changed = seedTake(f64x2.extract_lane(sB, 1), m3, v3, cIdx, minPtr, nearPtr, changedPtr, changed);
+    }
+  }
+  // The last block's D², which no later block's tests took in.
+  if (n > 0) for (let v = (n - 1) / SEED_BLOCK * SEED_BLOCK; v < n; v++) total += load<f64>(minPtr + <usize>v * 8);
+  store<u32>(countPtr, changed);
+  return total;
+}
+
+/**
+ * seedStep's skip tests for vector v, the JS ones (core/init seedUpdateWithTotal) joined without branches: v is written
+ * at the list's end, which grows by one when none of them skips it. Returns the list's length.
+ */
+// @ts-ignore: decorator
+@inline
+function seedCandidate(
+  v: i32, minPtr: usize, nearPtr: usize, fromPtr: usize, normsPtr: usize, normC: f64, prune: f64, margin: f64, margin1: f64,
+  listPtr: usize, count: i32,
+): i32 {
+  const m = load<f64>(minPtr + <usize>v * 8);
+  const far = load<f64>(fromPtr + <usize>load<u32>(nearPtr + <usize>v * 4) * 8) > prune * m;
+  const nx = load<f64>(normsPtr + <usize>v * 8);
+  const gap = abs(nx - normC) - margin * (nx + normC);
+  const skip = <i32>(m == 0) | <i32>far | (<i32>(gap > 0) & <i32>(gap * gap > m * margin1));
+  store<u32>(listPtr + <usize>count * 4, v);
+  return count + (skip ^ 1);
+}
+
+/** seedCandidate for vectors v and v + 1 at once, in f64x2 lanes (the same operations on each). */
+// @ts-ignore: decorator
+@inline
+function seedCandidates2(
+  v: i32, minPtr: usize, nearPtr: usize, fromPtr: usize, normsPtr: usize, normC: f64, prune: f64, margin: f64, margin1: f64,
+  listPtr: usize, count: i32,
+): i32 {
+  const m = v128.load(minPtr + <usize>v * 8);
+  const near = v128.load64_zero(nearPtr + <usize>v * 4);
+  const f0 = load<f64>(fromPtr + <usize>i32x4.extract_lane(near, 0) * 8);
+  const f1 = load<f64>(fromPtr + <usize>i32x4.extract_lane(near, 1) * 8);
+  const far = f64x2.gt(f64x2.replace_lane(f64x2.splat(f0), 1, f1), f64x2.mul(f64x2.splat(prune), m));
+  const nx = v128.load(normsPtr + <usize>v * 8);
+  const nc = f64x2.splat(normC);
+  const gap = f64x2.sub(f64x2.abs(f64x2.sub(nx, nc)), f64x2.mul(f64x2.splat(margin), f64x2.add(nx, nc)));
+  const normFar = v128.and(f64x2.gt(gap, f64x2.splat(0)), f64x2.gt(f64x2.mul(gap, gap), f64x2.mul(m, f64x2.splat(margin1))));
+  const skip = v128.or(v128.or(f64x2.eq(m, f64x2.splat(0)), far), normFar);
+  const bits = i64x2.bitmask(skip);
+  store<u32>(listPtr + <usize>count * 4, v);
+  count += (bits & 1) ^ 1;
+  store<u32>(listPtr + <usize>count * 4, v + 1);
+  return count + ((bits >> 1) ^ 1);
+}
+
+/** seedStep's move of vector v to codeword c when its distance s is strictly below its D² m; returns the changed count. */
+// @ts-ignore: decorator
+@inline
+function seedTake(s: f64, m: f64, v: u32, c: i32, minPtr: usize, nearPtr: usize, changedPtr: usize, changed: i32): i32 {
+  if (!(s < m)) return changed;
+  store<f64>(minPtr + <usize>v * 8, s);
+  store<u32>(nearPtr + <usize>v * 4, <u32>c);
+  store<u32>(changedPtr + <usize>changed * 4, v);
+  return changed + 1;
+}

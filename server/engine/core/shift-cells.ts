@@ -163,11 +163,12 @@ async function firstKept(
   ctx: ShiftContext, best: TrainedCodebook, trials: Array<{ shifts: Shift[]; blind: boolean }>, halves: PrincipalHalves, left: number,
 ): Promise<TrainedCodebook | undefined> {
   const k = best.size;
-  for (const { shifts, blind } of trials) {
+  for (const [t, { shifts, blind }] of trials.entries()) {
     throwIfAborted(ctx.signal);
     const start = applyShifts(best.codewords, ctx.d, shifts, halves);
     const trial = await runLloyd(
       { ...ctx, maxIterations: left, onIteration: undefined, progress: undefined }, start, k, blind ? Infinity : best.distortion,
+      (trace) => outOfReach(trace.map((t) => t.distortion), best.distortion),
     );
     if (trial.iterations > 0 && trial.distortion < best.distortion) {
       // One trace entry for the round: a blind round's first updates lie above where `best` ended, so its own
@@ -182,9 +183,36 @@ async function firstKept(
       ctx.progress?.(k, entry.iteration, entry.distortion);
       return { ...trial, iterations: entry.iteration, trace: [...best.trace, entry] };
     }
-    await ctx.shards.assign(best.codewords, k, ctx.signal);
+    // The next trial's first pass assigns afresh, so only the last rejected trial puts `best`'s partition back.
+    if (t === trials.length - 1) await ctx.shards.assign(best.codewords, k, ctx.signal);
   }
   return undefined;
+}
+
+/** Updates of a trial before outOfReach may end it: the first updates after a shift fall far faster than the rest. */
+export const TRIAL_WARMUP = 3;
+/** Margin on outOfReach's extrapolated remaining fall: a trial ends only when twice that fall cannot reach the target. */
+export const TRIAL_REACH = 2;
+
+/**
+ * Whether a shift trial whose distortions so far are `distortions` (index i after i updates; index 0 the shifted
+ * start's) cannot end below `target`: after TRIAL_WARMUP updates, when the last distortion is not below the target
+ * and the last two falls δ_{t−1} > δ_t > 0 shrink at ratio r = δ_t/δ_{t−1}, the falls still to come are taken as the
+ * geometric tail δ_t·r/(1 − r) (a linearly converging sequence; Lloyd's iteration converges linearly near a
+ * fixed point, common practice), and the trial is out of reach when even TRIAL_REACH times that tail leaves it at or above
+ * the target. Falls that do not shrink never end a trial. On the bench's ladders this ended the blind trials that
+ * were not kept after three or four updates instead of a whole run and kept every trial that was kept before.
+ */
+export function outOfReach(distortions: readonly number[], target: number): boolean {
+  const t = distortions.length - 1;
+  if (t < TRIAL_WARMUP) return false;
+  const last = distortions[t];
+  if (!(last >= target)) return false;
+  const fall = distortions[t - 1] - last;
+  const before = distortions[t - 2] - distortions[t - 1];
+  if (!(fall > 0 && before > fall)) return false;
+  const r = fall / before;
+  return last - TRIAL_REACH * fall * (r / (1 - r)) >= target;
 }
 
 /**

@@ -130,4 +130,30 @@ describe('codeword shifts', () => {
       await shards.close();
     }
   });
+
+  it('leaves the shards on the codebook’s own partition when every trial is rejected', async () => {
+    // Points ±1 about 0, 100, 200 and 300 (d = 1), 500 of each, with the codebook at the optimum {0, 100, 200, 300}:
+    // no shift can end below squared error 1 per point, so the blind trials (K = 4 ≤ 64/8) are all rejected.
+    const pattern = [-1, 1, 99, 101, 199, 201, 299, 301];
+    const vectors = Float32Array.from({ length: 8 * 500 }, (_, v) => pattern[v % 8]);
+    const n = vectors.length;
+    const shards = await openLocalShards(vectors, 1, { threads: 1, maxK: 4 });
+    try {
+      const ctx: ShiftContext = { d: 1, n, shards, epsilon: 1e-6, maxIterations: 50 };
+      const optimum = await runLloyd(ctx, Float32Array.from([0, 100, 200, 300]), 4);
+      expect(optimum.distortion).toBe(1);
+      const seen: number[] = [];
+      const after = await shiftCodewords({ ...ctx, onIteration: (s) => seen.push(s.iteration) }, optimum, 64);
+      expect(after).toBe(optimum);
+      expect(seen).toEqual([]);
+      // Each cell's members are again its own cluster's 1,000 points.
+      for (let cell = 0; cell < 4; cell++) {
+        const [members] = await shards.members(cell, [{ shard: 0, skip: 0, take: n }]);
+        expect(members.length).toBe(1000);
+        expect(members.every((m) => Math.abs(vectors[m.index] - 100 * cell) === 1)).toBe(true);
+      }
+    } finally {
+      await shards.close();
+    }
+  });
 });

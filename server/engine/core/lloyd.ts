@@ -49,11 +49,14 @@ async function repair(ctx: LloydContext, current: Pass, k: number): Promise<numb
  * epsilon 0), or maxIterations updates are done.
  * If an update raises the distortion (float32 rounding of the centroids at convergence
  * can do that by a hair) the previous codebook is kept and the run stops.
- * With `beat` given, training stops after the first update when that update's distortion is not below it (see shift-cells.ts).
+ * With `beat` given, training stops after the first update when that update's distortion is not below it (see shift-cells.ts);
+ * with `giveUp` given, it stops after any update for which giveUp(trace so far) holds (shift-cells.ts' outOfReach).
  * Each iteration is one pass of every shard; the statistics and centroids are folded from the shards' partials in
  * shard order (shard-fold.ts), so the result does not depend on where the shards were computed.
  */
-export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: number, beat = Infinity): Promise<TrainedCodebook> {
+export async function runLloyd(
+  ctx: LloydContext, codewords: Float32Array, k: number, beat = Infinity, giveUp?: (trace: readonly IterationStat[]) => boolean,
+): Promise<TrainedCodebook> {
   const { d, n, signal } = ctx;
   const trace: IterationStat[] = [];
   const scale = n * d;
@@ -99,6 +102,7 @@ export async function runLloyd(ctx: LloydContext, codewords: Float32Array, k: nu
     // give the same centroids again. It ends training whatever epsilon is (epsilon 0 would otherwise run every
     // allowed pass); a positive drop below epsilon ends it as before.
     if (!(drop > 0 && drop >= ctx.epsilon)) break;
+    if (giveUp?.(trace)) break;
   }
   return {
     size: k,

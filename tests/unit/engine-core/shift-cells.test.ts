@@ -1,6 +1,6 @@
 import { afterAll, describe, expect, it } from 'vitest';
 import { runLloyd } from '../../../server/engine/core/lloyd';
-import { chooseShifts, removalCosts, shiftCodewords, splitGain, type ShiftContext } from '../../../server/engine/core/shift-cells';
+import { chooseShifts, outOfReach, removalCosts, shiftCodewords, splitGain, TRIAL_REACH, TRIAL_WARMUP, type ShiftContext } from '../../../server/engine/core/shift-cells';
 import type { PrincipalHalves } from '../../../server/engine/core/split';
 import type { TrainedCodebook } from '../../../server/engine/core/types';
 import { openLocalShards } from '../../../server/engine/training/local-shards';
@@ -66,6 +66,39 @@ describe('codeword shifts', () => {
     expect(chooseShifts(b, 1, Uint32Array.from([2]), small, 1)).toEqual([]);
   });
 
+  it('gives up a trial only when twice its geometric tail of falls cannot reach the target', () => {
+    expect([TRIAL_WARMUP, TRIAL_REACH]).toEqual([3, 2]);
+    // 100, 20, 12, 10: falls 8 then 2, r = 1/4, tail 2·(1/4)/(3/4) = 2/3, twice that 4/3: it can reach 10 − 4/3 = 8.667.
+    expect(outOfReach([100, 20, 12, 10], 8.6)).toBe(true);
+    expect(outOfReach([100, 20, 12, 10], 26 / 3)).toBe(true);
+    expect(outOfReach([100, 20, 12, 10], 8.7)).toBe(false);
+    // 100, 20, 12, 10, 9: falls 2 then 1, r = 1/2, tail 1, twice that 2: it can reach 7.
+    expect(outOfReach([100, 20, 12, 10, 9], 7)).toBe(true);
+    expect(outOfReach([100, 20, 12, 10, 9], 6.9)).toBe(true);
+    expect(outOfReach([100, 20, 12, 10, 9], 7.1)).toBe(false);
+    // Too early (two updates), already below the target, or falls that do not shrink: the trial goes on.
+    expect(outOfReach([100, 20, 12], 1)).toBe(false);
+    expect(outOfReach([100, 20, 12, 10], 10.5)).toBe(false);
+    expect(outOfReach([100, 20, 12, 11, 10], 1)).toBe(false);
+    expect(outOfReach([100, 20, 12, 12, 12], 1)).toBe(false);
+  });
+
+  it('stops Lloyd after the update for which giveUp holds', async () => {
+    const pattern = [-1, 1, 99, 101, 199, 201];
+    const vectors = Float32Array.from({ length: 6 * 200 }, (_, v) => pattern[v % 6] + (v % 7) * 0.01);
+    const shards = await openLocalShards(vectors, 1, { threads: 1, maxK: 3 });
+    try {
+      const ctx: ShiftContext = { d: 1, n: vectors.length, shards, epsilon: 0, maxIterations: 50 };
+      const full = await runLloyd(ctx, Float32Array.from([-1, 0, 1]), 3);
+      expect(full.iterations).toBeGreaterThan(2);
+      const cut = await runLloyd(ctx, Float32Array.from([-1, 0, 1]), 3, Infinity, (trace) => trace.length === 3);
+      expect(cut.iterations).toBe(2);
+      expect(cut.trace.map((t) => t.distortion)).toEqual(full.trace.slice(0, 3).map((t) => t.distortion));
+    } finally {
+      await shards.close();
+    }
+  });
+
   it('moves a codeword Lloyd cannot move and reaches the hand-computed optimum of three clusters', async () => {
     // Points ±1 about 0, 100 and 200 (d = 1), 2,000 of each. The best 3-codebook is {0, 100, 200} with squared
     // error 1 per point. From −1, 1 and 150 Lloyd is at a fixed point: the first two codewords halve the cluster at
@@ -93,6 +126,32 @@ describe('codeword shifts', () => {
       // The shards were left on the kept codebook's partition: another round finds nothing worth moving.
       const again = await shiftCodewords(ctx, shifted, 3);
       expect(again).toBe(shifted);
+    } finally {
+      await shards.close();
+    }
+  });
+
+  it('leaves the shards on the codebook’s own partition when every trial is rejected', async () => {
+    // Points ±1 about 0, 100, 200 and 300 (d = 1), 500 of each, with the codebook at the optimum {0, 100, 200, 300}:
+    // no shift can end below squared error 1 per point, so the blind trials (K = 4 ≤ 64/8) are all rejected.
+    const pattern = [-1, 1, 99, 101, 199, 201, 299, 301];
+    const vectors = Float32Array.from({ length: 8 * 500 }, (_, v) => pattern[v % 8]);
+    const n = vectors.length;
+    const shards = await openLocalShards(vectors, 1, { threads: 1, maxK: 4 });
+    try {
+      const ctx: ShiftContext = { d: 1, n, shards, epsilon: 1e-6, maxIterations: 50 };
+      const optimum = await runLloyd(ctx, Float32Array.from([0, 100, 200, 300]), 4);
+      expect(optimum.distortion).toBe(1);
+      const seen: number[] = [];
+      const after = await shiftCodewords({ ...ctx, onIteration: (s) => seen.push(s.iteration) }, optimum, 64);
+      expect(after).toBe(optimum);
+      expect(seen).toEqual([]);
+      // Each cell's members are again its own cluster's 1,000 points.
+      for (let cell = 0; cell < 4; cell++) {
+        const [members] = await shards.members(cell, [{ shard: 0, skip: 0, take: n }]);
+        expect(members.length).toBe(1000);
+        expect(members.every((m) => Math.abs(vectors[m.index] - 100 * cell) === 1)).toBe(true);
+      }
     } finally {
       await shards.close();
     }

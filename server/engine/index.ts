@@ -7,7 +7,7 @@ import { readFile } from 'node:fs/promises';
 import { z } from 'zod';
 import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './training';
 import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
-import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
+import { encodeImage, reconstruct, reconstructOnThreads, type EncodedImage } from './format/codec';
 import { MAX_RESYNC_ROWS, PAYLOAD_CHOICES, readContainer, writeContainer, type ContainerOptions } from './format/container';
 import {
   assignIndices, BER, CHANNEL_SEEDS, DEFAULT_BERS, DEFAULT_REORDER_BER, MAX_BERS, REORDER_MAX_BITS, simulateChannel, type ChannelCurve, type IndexAssignment,
@@ -73,7 +73,7 @@ export {
   type ContainerOptions,
   type PayloadChoice,
 } from './format/container';
-export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
+export { encodeImage, reconstruct, reconstructOnThreads, type EncodedImage } from './format/codec';
 export { rawContainerBytes, rawSetBytes, type RawGeometry, type VariableIndexStream } from './format/raw-size';
 export { fixedRateBits } from './format/index-coding';
 export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
@@ -498,6 +498,18 @@ export async function encode(
 export function decode(codebook: Codebook, bytes: Uint8Array): { width: number; height: number; channels: 1 | 3; pixels: Uint8Array } {
   const encoded = readContainer(codebook, bytes);
   return { width: encoded.width, height: encoded.height, channels: encoded.header.color === 'rgb' ? 3 : 1, pixels: reconstruct(codebook, encoded) };
+}
+
+/**
+ * decode's image, written by this thread and the engine's worker threads together when it is large
+ * (format/codec.ts reconstructOnThreads); `threads` counts this thread (default: the thread budget's total).
+ */
+export async function decodeOnThreads(
+  codebook: Codebook, bytes: Uint8Array, options: { threads?: number; signal?: AbortSignal; callerThread?: boolean } = {},
+): Promise<{ width: number; height: number; channels: 1 | 3; pixels: Uint8Array }> {
+  const encoded = readContainer(codebook, bytes);
+  const pixels = await reconstructOnThreads(codebook, encoded, options);
+  return { width: encoded.width, height: encoded.height, channels: encoded.header.color === 'rgb' ? 3 : 1, pixels };
 }
 
 // ---- firmware export ----

@@ -14,7 +14,7 @@ import {
 } from './channel';
 import { buildFirmwareBundle, measureFixedPointCost, RESIDUAL_WIDTHS, type FirmwareBundle, type FixedPointTable, type RoundingCost } from './firmware';
 import { EngineInputError } from './input-error';
-import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/image';
+import { channelsOf, decodeImage, type CodableImage, type ColorMode, type PixelImage } from './io/image';
 import { removeMeans } from './io/mean-removal';
 import { extractTrainingVectors, streamTrainingVectors, vectorDimension, type TrainingImageSource } from './io/patches';
 import { readNpy, type NpyMatrix } from './io/npy';
@@ -76,7 +76,7 @@ export {
 export { encodeImage, reconstruct, reconstructOnThreads, type EncodedImage } from './format/codec';
 export { rawContainerBytes, rawSetBytes, type RawGeometry, type VariableIndexStream } from './format/raw-size';
 export { fixedRateBits } from './format/index-coding';
-export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
+export { decodeImage, decodeImageForCoding, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type CodableImage, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
 export {
   parsePatchShape, checkPatchShape, tile, untile, extractTrainingVectors, patchPositions, vectorDimension, type PatchShape, type TrainingImageSource,
@@ -475,7 +475,7 @@ type CodingOptions = { threads?: number; signal?: AbortSignal; callerThread?: bo
  * Codes an image into container bytes, without decoding it again (what a command that writes only the coded file
  * needs). `callerThread` lets the calling thread search too (a command-line process; see parallel/encode-search.ts).
  */
-export async function encodeToContainer(codebook: Codebook, image: PixelImage, options: CodingOptions = {}): Promise<{ container: Buffer; encoded: EncodedImage }> {
+export async function encodeToContainer(codebook: Codebook, image: CodableImage, options: CodingOptions = {}): Promise<{ container: Buffer; encoded: EncodedImage }> {
   check(codingSchema, options, 'encode');
   const encoded = await encodeImage(codebook, image, options);
   return { container: writeContainer(codebook, encoded, { payload: options.payload, resyncRows: options.resyncRows }), encoded };

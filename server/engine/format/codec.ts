@@ -1,6 +1,6 @@
 import { EngineInputError } from '../input-error';
 import type { Codebook } from './codebook-schema';
-import type { PixelImage } from '../io/image';
+import type { CodableImage } from '../io/image';
 import { blockGrid, tile } from '../io/patches';
 import { meanLevel, removeMeans } from '../io/mean-removal';
 import { decodeBlockRows, toPixel, type BlockDecodePlan } from '../core/decode-blocks';
@@ -27,7 +27,7 @@ export interface EncodeOptions {
 }
 
 /** Checks that an image can be coded with a codebook: same colour handling, and a codebook that has a patch at all. */
-export function checkImageMatchesCodebook(codebook: Codebook, image: PixelImage): NonNullable<Codebook['patch']> {
+export function checkImageMatchesCodebook(codebook: Codebook, image: CodableImage): NonNullable<Codebook['patch']> {
   const patch = codebook.patch;
   if (!patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook was trained on raw vectors and has no patch geometry, so it cannot code images');
   if (patch.color !== image.color) {
@@ -42,7 +42,7 @@ export function checkImageMatchesCodebook(codebook: Codebook, image: PixelImage)
  * squared error, ties to the lowest index).
  * @returns the coded image plus `distances`, the squared error of each block's (residual) vector to its codeword
  */
-export async function encodeImage(codebook: Codebook, image: PixelImage, options: EncodeOptions = {}): Promise<EncodedImage & { distances: Float64Array }> {
+export async function encodeImage(codebook: Codebook, image: CodableImage, options: EncodeOptions = {}): Promise<EncodedImage & { distances: Float64Array }> {
   const patch = checkImageMatchesCodebook(codebook, image);
   // In shared memory, so that the search's workers read the blocks without a copy.
   const tiled = tile(image, patch, { shared: true });

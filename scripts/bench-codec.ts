@@ -5,7 +5,7 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { decode, decodeOnThreads, encodePng, evaluate, imagesToTrainingVectors, INIT, loadImage, serializeCodebook, trainCodebooks, type Codebook, type PixelImage } from '../server/engine';
+import { decode, decodeOnThreads, threadBudget, encodePng, evaluate, imagesToTrainingVectors, INIT, loadImage, serializeCodebook, trainCodebooks, type Codebook, type PixelImage } from '../server/engine';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const cli = path.join(root, 'scripts', 'cellwright.mjs');
@@ -77,7 +77,12 @@ export async function codecFigures(): Promise<void> {
     // The decoder alone (container parsed, indices unpacked, blocks copied), in this process: on one thread, then
     // on two (this thread and one engine worker writing bands of block rows into one shared image).
     const bytes = readFileSync(coded);
+    // Decoding takes only free threads; the previous run's worker holds its thread until its reply is read.
+    const idle = async () => {
+      while (threadBudget.available < threadBudget.total) await new Promise((resolve) => setTimeout(resolve, 1));
+    };
     const oneThread = decode(book, bytes).pixels;
+    await idle();
     const twoThreads = (await decodeOnThreads(book, bytes, { threads: 2 })).pixels;
     if (Buffer.compare(Buffer.from(oneThread), Buffer.from(twoThreads.buffer, twoThreads.byteOffset, twoThreads.byteLength)) !== 0) {
       throw new Error('two-thread decode differs from the one-thread decode');
@@ -88,6 +93,7 @@ export async function codecFigures(): Promise<void> {
       let t = performance.now();
       decode(book, bytes);
       one.push((performance.now() - t) / 1000);
+      await idle();
       t = performance.now();
       await decodeOnThreads(book, bytes, { threads: 2 });
       two.push((performance.now() - t) / 1000);

@@ -93,7 +93,8 @@ export async function decodeOnThreads(plan: BlockDecodePlan, options: DecodeThre
   const bandRows = Math.max(1, Math.floor(BAND_BYTES / (plan.width * plan.channels * plan.patchHeight)));
   const bands = Math.ceil(plan.blocksY / bandRows);
   const wanted = Math.min(options.threads ?? threadBudget.total, threadBudget.total);
-  if (bytes < MIN_PARALLEL_DECODE_BYTES || bands < 2 || wanted < 2) {
+  // Decoding takes only threads that are free: it never queues behind a training job for a second thread.
+  if (bytes < MIN_PARALLEL_DECODE_BYTES || bands < 2 || wanted < 2 || threadBudget.available === 0) {
     const out = new Uint8Array(bytes);
     decodeBlockRows(plan, 0, plan.blocksY, out);
     return out;

@@ -1,5 +1,5 @@
 import { afterAll, describe, expect, it } from 'vitest';
-import { decode, decodeOnThreads, reconstruct, reconstructOnThreads, shutdownEngineWorkers, writeContainer, type Codebook, type EncodedImage } from '../../../server/engine';
+import { decode, decodeOnThreads, reconstruct, reconstructOnThreads, shutdownEngineWorkers, threadBudget, writeContainer, type Codebook, type EncodedImage } from '../../../server/engine';
 import { meanLevel } from '../../../server/engine/io/mean-removal';
 import { MIN_PARALLEL_DECODE_BYTES } from '../../../server/engine/parallel/decode-rows';
 import type { CodebookStructure } from '../../../server/engine/structures/types';
@@ -11,6 +11,14 @@ import { balancedChildren, combChildren, encodedFor, structureBook, type BookSpe
 // stage order) plus the block's mean level, clamped to 0..255 and rounded half up, the padding cropped.
 
 afterAll(() => shutdownEngineWorkers());
+
+/**
+ * Waits until every thread of the budget is free: decoding uses only free threads, and a worker of the previous
+ * decode may still hold its thread until it replies.
+ */
+async function idleBudget(): Promise<void> {
+  while (threadBudget.available < threadBudget.total) await new Promise((resolve) => setTimeout(resolve, 5));
+}
 
 function perPixel(book: Codebook, enc: EncodedImage): Uint8Array {
   const patch = book.patch!;
@@ -68,9 +76,11 @@ describe('decoding on two threads', () => {
     const one = reconstruct(book, enc);
     expect(firstDifference(one, perPixel(book, enc))).toBe(-1);
     // The workers alone (every band written by a pool thread), then this thread with a worker.
+    await idleBudget();
     const workersOnly = await reconstructOnThreads(book, enc, { threads: 2, callerThread: false });
     expect(workersOnly.buffer).toBeInstanceOf(SharedArrayBuffer);
     expect(firstDifference(workersOnly, one)).toBe(-1);
+    await idleBudget();
     expect(firstDifference(await reconstructOnThreads(book, enc, { threads: 2 }), one)).toBe(-1);
   });
 
@@ -87,6 +97,7 @@ describe('decoding on two threads', () => {
     const enc = encodedFor(book, 2100, 2060, 11);
     const bytes = writeContainer(book, enc);
     const one = decode(book, bytes);
+    await idleBudget();
     const two = await decodeOnThreads(book, bytes, { threads: 2, callerThread: false });
     expect({ ...two, pixels: null }).toEqual({ ...one, pixels: null });
     expect(firstDifference(two.pixels, one.pixels)).toBe(-1);

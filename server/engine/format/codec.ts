@@ -4,7 +4,7 @@ import type { CodableImage } from '../io/image';
 import { blockGrid, tile } from '../io/patches';
 import { meanLevel, removeMeans } from '../io/mean-removal';
 import { decodeBlockRows, toPixel, type BlockDecodePlan } from '../core/decode-blocks';
-import { decodeOnThreads, type DecodeThreadsOptions } from '../parallel/decode-rows';
+import { decodePlanOnThreads, type DecodeThreadsOptions } from '../parallel/decode-rows';
 import { indicesPerBlock, searchStructure } from './structure-search';
 import { stageOffsets } from './structure-check';
 
@@ -138,7 +138,7 @@ export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Arr
  * `threads` counts this thread (default: the thread budget's total); `callerThread: false` leaves the bands to the workers.
  */
 export async function reconstructOnThreads(codebook: Codebook, encoded: EncodedImage, options: DecodeThreadsOptions = {}): Promise<Uint8Array> {
-  return decodeOnThreads(decodePlan(codebook, encoded), options);
+  return decodePlanOnThreads(decodePlan(codebook, encoded), options);
 }
 
 /** Every codeword as pixels (K × d bytes, toPixel of each component): the decoder's lookup table without mean codes. */

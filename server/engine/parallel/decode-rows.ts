@@ -87,7 +87,7 @@ export interface DecodeThreadsOptions {
  * bands too (unless `callerThread` is false) and never waits for a worker that has not started yet; it waits only
  * for bands a worker has claimed.
  */
-export async function decodeOnThreads(plan: BlockDecodePlan, options: DecodeThreadsOptions = {}): Promise<Uint8Array> {
+export async function decodePlanOnThreads(plan: BlockDecodePlan, options: DecodeThreadsOptions = {}): Promise<Uint8Array> {
   const bytes = plan.width * plan.height * plan.channels;
   if (options.signal?.aborted) throw abortError(options.signal);
   const bandRows = Math.max(1, Math.floor(BAND_BYTES / (plan.width * plan.channels * plan.patchHeight)));

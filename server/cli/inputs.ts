@@ -1,8 +1,8 @@
 import { availableParallelism, totalmem } from 'node:os';
 import { basename } from 'node:path';
 import {
-  decodeImage, formatBytes, parseCodebookJson, patchPositions, readImageSize, readNpy, streamImagesToTrainingVectors, trainingMemory,
-  type Codebook, type ColorMode, type NpyMatrix, type PatchShape, type PixelImage, type PreprocessingInfo, type TrainingImageSource,
+  decodeImage, decodeImageForCoding, formatBytes, parseCodebookJson, patchPositions, readImageSize, readNpy, streamImagesToTrainingVectors, trainingMemory,
+  type CodableImage, type Codebook, type ColorMode, type NpyMatrix, type PatchShape, type PixelImage, type PreprocessingInfo, type TrainingImageSource,
 } from '../engine';
 import type { CliContext } from './context';
 import { listImages, readInput } from './files';
@@ -19,6 +19,11 @@ export async function loadVectors(path: string): Promise<NpyMatrix> {
 
 export async function loadImageFile(path: string, color: ColorMode): Promise<PixelImage> {
   return decodeImage(await readInput(path, 'image'), color, path);
+}
+
+/** loadImageFile's image for the encoder: its decoded bytes when they are the pixels (engine decodeImageForCoding). */
+export async function loadImageFileForCoding(path: string, color: ColorMode): Promise<CodableImage> {
+  return decodeImageForCoding(await readInput(path, 'image'), color, path);
 }
 
 /** Decodes every image of a folder; the first that fails stops the command with its name in the message. */

@@ -7,14 +7,14 @@ import { readFile } from 'node:fs/promises';
 import { z } from 'zod';
 import { createRng, DEFAULT_EPSILON, DEFAULT_MAX_ITERATIONS, DEFAULT_SEED, train, type IterationStat, type TrainProgress } from './training';
 import { issuePath, makeCodebook, MAX_BITS, MAX_ITERATIONS, MAX_SIZE, MAX_SOURCE_LENGTH, type Codebook, type PatchInfo, type PreprocessingInfo, type TrainingInfo } from './format/codebook-schema';
-import { encodeImage, reconstruct, type EncodedImage } from './format/codec';
+import { encodeImage, reconstruct, reconstructOnThreads, type EncodedImage } from './format/codec';
 import { MAX_RESYNC_ROWS, PAYLOAD_CHOICES, readContainer, writeContainer, type ContainerOptions } from './format/container';
 import {
   assignIndices, BER, CHANNEL_SEEDS, DEFAULT_BERS, DEFAULT_REORDER_BER, MAX_BERS, REORDER_MAX_BITS, simulateChannel, type ChannelCurve, type IndexAssignment,
 } from './channel';
 import { buildFirmwareBundle, measureFixedPointCost, RESIDUAL_WIDTHS, type FirmwareBundle, type FixedPointTable, type RoundingCost } from './firmware';
 import { EngineInputError } from './input-error';
-import { channelsOf, decodeImage, type ColorMode, type PixelImage } from './io/image';
+import { channelsOf, decodeImage, type CodableImage, type ColorMode, type PixelImage } from './io/image';
 import { removeMeans } from './io/mean-removal';
 import { extractTrainingVectors, streamTrainingVectors, vectorDimension, type TrainingImageSource } from './io/patches';
 import { readNpy, type NpyMatrix } from './io/npy';
@@ -73,10 +73,10 @@ export {
   type ContainerOptions,
   type PayloadChoice,
 } from './format/container';
-export { encodeImage, reconstruct, type EncodedImage } from './format/codec';
+export { encodeImage, reconstruct, reconstructOnThreads, type EncodedImage } from './format/codec';
 export { rawContainerBytes, rawSetBytes, type RawGeometry, type VariableIndexStream } from './format/raw-size';
 export { fixedRateBits } from './format/index-coding';
-export { decodeImage, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type ColorMode, type PixelImage } from './io/image';
+export { decodeImage, decodeImageForCoding, decodedImageBytes, readImageSize, fromRgb8, toUint8, channelsOf, IMAGE_EXTENSIONS, type CodableImage, type ColorMode, type PixelImage } from './io/image';
 export { lumaBt601, lumaPlane, BT601_WEIGHTS } from './io/luma';
 export {
   parsePatchShape, checkPatchShape, tile, untile, extractTrainingVectors, patchPositions, vectorDimension, type PatchShape, type TrainingImageSource,
@@ -475,7 +475,7 @@ type CodingOptions = { threads?: number; signal?: AbortSignal; callerThread?: bo
  * Codes an image into container bytes, without decoding it again (what a command that writes only the coded file
  * needs). `callerThread` lets the calling thread search too (a command-line process; see parallel/encode-search.ts).
  */
-export async function encodeToContainer(codebook: Codebook, image: PixelImage, options: CodingOptions = {}): Promise<{ container: Buffer; encoded: EncodedImage }> {
+export async function encodeToContainer(codebook: Codebook, image: CodableImage, options: CodingOptions = {}): Promise<{ container: Buffer; encoded: EncodedImage }> {
   check(codingSchema, options, 'encode');
   const encoded = await encodeImage(codebook, image, options);
   return { container: writeContainer(codebook, encoded, { payload: options.payload, resyncRows: options.resyncRows }), encoded };
@@ -498,6 +498,18 @@ export async function encode(
 export function decode(codebook: Codebook, bytes: Uint8Array): { width: number; height: number; channels: 1 | 3; pixels: Uint8Array } {
   const encoded = readContainer(codebook, bytes);
   return { width: encoded.width, height: encoded.height, channels: encoded.header.color === 'rgb' ? 3 : 1, pixels: reconstruct(codebook, encoded) };
+}
+
+/**
+ * decode's image, written by this thread and the engine's worker threads together when it is large
+ * (format/codec.ts reconstructOnThreads); `threads` counts this thread (default: the thread budget's total).
+ */
+export async function decodeOnThreads(
+  codebook: Codebook, bytes: Uint8Array, options: { threads?: number; signal?: AbortSignal; callerThread?: boolean } = {},
+): Promise<{ width: number; height: number; channels: 1 | 3; pixels: Uint8Array }> {
+  const encoded = readContainer(codebook, bytes);
+  const pixels = await reconstructOnThreads(codebook, encoded, options);
+  return { width: encoded.width, height: encoded.height, channels: encoded.header.color === 'rgb' ? 3 : 1, pixels };
 }
 
 // ---- firmware export ----

@@ -4,7 +4,7 @@ import { CliUsageError } from '../cli-error';
 import { CliInputError } from '../cli-error';
 import type { CliContext } from '../context';
 import { checkOutputFolder, writeOutputsAtomically } from '../files';
-import { loadCodebook, loadImageFile } from '../inputs';
+import { loadCodebook, loadImageFileForCoding } from '../inputs';
 import { fmt, jsonLine } from '../text-output';
 
 export const ENCODE_HELP = `Usage: cellwright encode --codebook CODEBOOK.json --image IN --out FILE [--payload raw|packed|auto] [--resync N]
@@ -58,7 +58,7 @@ export async function runEncode(argv: string[], ctx: CliContext): Promise<void> 
   prestartEngineWorkers(Math.min(threads ?? threadBudget.total, threadBudget.total) - 1);
   const book = await loadCodebook(codebookPath);
   if (!book.patch) throw new CliInputError(`codebook ${codebookPath} was trained on raw vectors and has no patch geometry, so it cannot code images`);
-  const image = await loadImageFile(imagePath, book.patch.color);
+  const image = await loadImageFileForCoding(imagePath, book.patch.color);
   // This process has nothing else to do meanwhile, so its own thread searches too.
   const { container, encoded } = await encodeToContainer(book, image, { threads, signal: ctx.signal, payload, resyncRows, callerThread: true });
   const metrics = values.metrics === true;

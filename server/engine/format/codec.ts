@@ -1,8 +1,10 @@
 import { EngineInputError } from '../input-error';
 import type { Codebook } from './codebook-schema';
-import type { PixelImage } from '../io/image';
-import { blockGrid, tile, untile } from '../io/patches';
+import type { CodableImage } from '../io/image';
+import { blockGrid, tile } from '../io/patches';
 import { meanLevel, removeMeans } from '../io/mean-removal';
+import { decodeBlockRows, toPixel, type BlockDecodePlan } from '../core/decode-blocks';
+import { decodePlanOnThreads, type DecodeThreadsOptions } from '../parallel/decode-rows';
 import { indicesPerBlock, searchStructure } from './structure-search';
 import { stageOffsets } from './structure-check';
 
@@ -25,7 +27,7 @@ export interface EncodeOptions {
 }
 
 /** Checks that an image can be coded with a codebook: same colour handling, and a codebook that has a patch at all. */
-export function checkImageMatchesCodebook(codebook: Codebook, image: PixelImage): NonNullable<Codebook['patch']> {
+export function checkImageMatchesCodebook(codebook: Codebook, image: CodableImage): NonNullable<Codebook['patch']> {
   const patch = codebook.patch;
   if (!patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook was trained on raw vectors and has no patch geometry, so it cannot code images');
   if (patch.color !== image.color) {
@@ -40,7 +42,7 @@ export function checkImageMatchesCodebook(codebook: Codebook, image: PixelImage)
  * squared error, ties to the lowest index).
  * @returns the coded image plus `distances`, the squared error of each block's (residual) vector to its codeword
  */
-export async function encodeImage(codebook: Codebook, image: PixelImage, options: EncodeOptions = {}): Promise<EncodedImage & { distances: Float64Array }> {
+export async function encodeImage(codebook: Codebook, image: CodableImage, options: EncodeOptions = {}): Promise<EncodedImage & { distances: Float64Array }> {
   const patch = checkImageMatchesCodebook(codebook, image);
   // In shared memory, so that the search's workers read the blocks without a copy.
   const tiled = tile(image, patch, { shared: true });
@@ -89,12 +91,10 @@ export function checkCodedIndices(codebook: Codebook, indices: Uint32Array, fail
 }
 
 /**
- * Decoder: the block's codeword (residual: the sum of its stage codewords, in stage order, in float64) plus the mean
- * level, clamped to 0..255 and rounded half up, blocks written back and the padding cropped. Table lookup for every
- * structure. This is the only function that turns indices into pixels, so eval, encode and decode all see the same image.
- * @returns height × width × channels, 8-bit
+ * Checks a coded image against the codebook and gathers what the decoder's pixel writer needs (core/decode-blocks.ts):
+ * the table of codewords as pixels when each block names one codeword and has no mean code, the mean levels otherwise.
  */
-export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Array {
+function decodePlan(codebook: Codebook, encoded: EncodedImage): BlockDecodePlan {
   const patch = codebook.patch;
   if (!patch) throw new EngineInputError('ENGINE_DIMENSION_MISMATCH', 'this codebook has no patch geometry, so it cannot reconstruct images');
   const grid = blockGrid(encoded.width, encoded.height, patch);
@@ -103,41 +103,42 @@ export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Arr
   if (grid.blocksX !== encoded.blocksX || grid.blocksY !== encoded.blocksY || encoded.indices.length !== blocks * per) {
     throw new EngineInputError('ENGINE_INVALID_ARGUMENT', `coded image has ${encoded.indices.length} indices, its geometry needs ${blocks * per}`);
   }
-  const d = codebook.dimension;
   const bits = codebook.preprocessing.kind === 'mean-removed' ? codebook.preprocessing.meanBits : 0;
   if ((bits > 0) !== (encoded.meanCodes !== null)) throw new EngineInputError('ENGINE_INVALID_ARGUMENT', 'mean codes do not match the codebook preprocessing');
   checkCodedIndices(codebook, encoded.indices, (message) => {
     throw new EngineInputError('ENGINE_INVALID_ARGUMENT', message);
   });
-  const channels = patch.color === 'rgb' ? 3 : 1;
-  const out = new Uint8Array(encoded.width * encoded.height * channels);
-  if (per === 1 && !encoded.meanCodes) {
-    writeBlocks(out, encoded.width, encoded.height, channels, patch, grid.blocksX, grid.blocksY, codewordTable(codebook), encoded.indices, d);
-    return out;
-  }
-  const blockPixels = new Uint8Array(blocks * d);
-  const sum = new Float64Array(d);
-  for (let b = 0; b < blocks; b += 1) {
-    const level = encoded.meanCodes ? meanLevel(encoded.meanCodes[b], bits) : 0;
-    const dst = b * d;
-    if (per === 1) {
-      const src = encoded.indices[b] * d;
-      for (let k = 0; k < d; k += 1) blockPixels[dst + k] = toPixel(codebook.codewords[src + k] + level);
-      continue;
-    }
-    sum.fill(0);
-    for (let s = 0; s < per; s += 1) {
-      const src = encoded.indices[b * per + s] * d;
-      for (let k = 0; k < d; k += 1) sum[k] += codebook.codewords[src + k];
-    }
-    for (let k = 0; k < d; k += 1) blockPixels[dst + k] = toPixel(sum[k] + level);
-  }
-  return untile(blockPixels, encoded.width, encoded.height, channels, patch, out);
+  const lookup = per === 1 && !encoded.meanCodes;
+  return {
+    width: encoded.width, height: encoded.height, channels: patch.color === 'rgb' ? 3 : 1, patchWidth: patch.width, patchHeight: patch.height,
+    blocksX: grid.blocksX, blocksY: grid.blocksY, d: codebook.dimension, per,
+    table: lookup ? codewordTable(codebook) : null,
+    codewords: codebook.codewords, indices: encoded.indices, meanCodes: encoded.meanCodes,
+    levels: encoded.meanCodes ? Float64Array.from({ length: 2 ** bits }, (_, q) => meanLevel(q, bits)) : null,
+  };
 }
 
-/** A reconstructed value as a pixel: clamped to 0..255 and rounded half up. */
-function toPixel(v: number): number {
-  return v <= 0 ? 0 : v >= 255 ? 255 : Math.floor(v + 0.5);
+/**
+ * Decoder: the block's codeword (residual: the sum of its stage codewords, in stage order, in float64) plus the mean
+ * level, clamped to 0..255 and rounded half up, blocks written back and the padding cropped. Table lookup for every
+ * structure. This (with reconstructOnThreads, which writes the same pixels) is the only way indices turn into pixels,
+ * so eval, encode and decode all see the same image.
+ * @returns height × width × channels, 8-bit
+ */
+export function reconstruct(codebook: Codebook, encoded: EncodedImage): Uint8Array {
+  const plan = decodePlan(codebook, encoded);
+  const out = new Uint8Array(plan.width * plan.height * plan.channels);
+  decodeBlockRows(plan, 0, plan.blocksY, out);
+  return out;
+}
+
+/**
+ * reconstruct's image, written by this thread and the engine's worker threads together (bands of block rows into
+ * one shared output; parallel/decode-rows.ts) when the image is large; a small one is decoded on this thread.
+ * `threads` counts this thread (default: the thread budget's total); `callerThread: false` leaves the bands to the workers.
+ */
+export async function reconstructOnThreads(codebook: Codebook, encoded: EncodedImage, options: DecodeThreadsOptions = {}): Promise<Uint8Array> {
+  return decodePlanOnThreads(decodePlan(codebook, encoded), options);
 }
 
 /** Every codeword as pixels (K × d bytes, toPixel of each component): the decoder's lookup table without mean codes. */
@@ -145,43 +146,4 @@ function codewordTable(codebook: Codebook): Uint8Array {
   const table = new Uint8Array(codebook.size * codebook.dimension);
   for (let i = 0; i < table.length; i += 1) table[i] = toPixel(codebook.codewords[i]);
   return table;
-}
-
-/**
- * Writes each block's table row (`table` K × d bytes, indexed by `indices`) into the image, block row by block row,
- * cropping the padding: what untile does with the blocks' pixels, without building them first. Rows of whole
- * blocks are copied four bytes at a time when every offset is a multiple of four.
- */
-function writeBlocks(
-  out: Uint8Array, width: number, height: number, channels: number, patch: { width: number; height: number },
-  blocksX: number, blocksY: number, table: Uint8Array, indices: Uint32Array, d: number,
-): void {
-  const rowLength = patch.width * channels;
-  const stride = width * channels;
-  const fullX = Math.floor(width / patch.width);
-  const words = rowLength % 4 === 0 && stride % 4 === 0 && out.byteOffset % 4 === 0;
-  const out32 = words ? new Uint32Array(out.buffer, out.byteOffset, out.length >> 2) : null;
-  const table32 = words ? new Uint32Array(table.buffer, table.byteOffset, table.length >> 2) : null;
-  const rowWords = rowLength >> 2;
-  for (let by = 0; by < blocksY; by += 1) {
-    const rows = Math.min(patch.height, height - by * patch.height);
-    for (let bx = 0; bx < blocksX; bx += 1) {
-      const src = indices[by * blocksX + bx] * d;
-      const x0 = bx * patch.width * channels;
-      let dst = by * patch.height * stride + x0;
-      if (out32 && table32 && bx < fullX) {
-        let s32 = src >> 2;
-        let d32 = dst >> 2;
-        for (let r = 0; r < rows; r += 1, s32 += rowWords, d32 += stride >> 2) {
-          for (let i = 0; i < rowWords; i += 1) out32[d32 + i] = table32[s32 + i];
-        }
-        continue;
-      }
-      const len = Math.min(rowLength, stride - x0);
-      for (let r = 0; r < rows; r += 1, dst += stride) {
-        const s = src + r * rowLength;
-        for (let i = 0; i < len; i += 1) out[dst + i] = table[s + i];
-      }
-    }
-  }
 }

@@ -25,6 +25,14 @@ export interface PixelImage {
 }
 
 /**
+ * An image as the encoder reads it: a PixelImage, or the same image with its decoded bytes as pixels when every value
+ * is an integer (grey as luma, and rgb), which saves the float copy (tile converts each value once, in one pass).
+ */
+export interface CodableImage extends Omit<PixelImage, 'pixels'> {
+  pixels: Float32Array | Uint8Array;
+}
+
+/**
  * Bytes decodeImage holds at its peak for a width × height image: sharp's 8-bit RGB output (3 bytes a pixel) and,
  * made from it, the float32 pixels (4 bytes a pixel and channel). libvips' own working memory during the decode is
  * not included (it streams most formats and shares sharp's small operation cache).
@@ -43,26 +51,42 @@ export const IMAGE_EXTENSIONS = Object.freeze(['.png', '.jpg', '.jpeg', '.webp',
  * the codec works on the stored raster, exactly as the baselines do.
  */
 export async function decodeImage(input: Buffer | string, color: ColorMode, name = typeof input === 'string' ? input : 'image'): Promise<PixelImage> {
-  let data: Buffer;
-  let width: number;
-  let height: number;
+  const raw = await decodeRaw(input, name);
+  return raw.grey ? fromGrey8(name, raw.width, raw.height, raw.data, color) : fromRgb8(name, raw.width, raw.height, raw.data, color);
+}
+
+/**
+ * decodeImage's image for coding (format/codec.ts encodeImage): the same values, but kept as the decoded bytes when
+ * they are the pixels themselves — a grey image as luma (a grey pixel's luma is its own value, fromGrey8), and any
+ * image as rgb (R, G, B as decoded, fromRgb8; a grey one's value three times) — instead of a float copy of the image.
+ */
+export async function decodeImageForCoding(input: Buffer | string, color: ColorMode, name = typeof input === 'string' ? input : 'image'): Promise<CodableImage> {
+  const raw = await decodeRaw(input, name);
+  const { width, height, data } = raw;
+  const base = { name, width, height, color, channels: channelsOf(color) };
+  if (color === 'luma') return raw.grey ? { ...base, pixels: data } : fromRgb8(name, width, height, data, color);
+  if (!raw.grey) return { ...base, pixels: data };
+  const pixels = new Uint8Array(data.length * 3);
+  for (let i = 0, j = 0; i < data.length; i += 1, j += 3) pixels[j] = pixels[j + 1] = pixels[j + 2] = data[i];
+  return { ...base, pixels };
+}
+
+/** The decoded 8-bit raster: one grey channel (decodeGrey) or sRGB without alpha, three channels interleaved. */
+async function decodeRaw(input: Buffer | string, name: string): Promise<{ grey: boolean; data: Buffer; width: number; height: number }> {
   try {
     const grey = await decodeGrey(input);
-    if (grey) return fromGrey8(name, grey.width, grey.height, grey.data, color);
+    if (grey) return { grey: true, ...grey };
     const out = await sharp(input, { failOn: 'error' })
       .removeAlpha()
       .toColourspace('srgb')
       .raw({ depth: 'uchar' })
       .toBuffer({ resolveWithObject: true });
-    data = out.data;
-    width = out.info.width;
-    height = out.info.height;
     if (out.info.channels !== 3) throw new Error(`unexpected ${out.info.channels} channels after conversion to sRGB`);
+    return { grey: false, data: out.data, width: out.info.width, height: out.info.height };
   } catch (error) {
     const reason = error instanceof Error ? error.message.split('\n')[0] : String(error);
     throw new EngineInputError('ENGINE_INVALID_IMAGE', `${name}: cannot decode image (${reason})`);
   }
-  return fromRgb8(name, width, height, data, color);
 }
 
 /**

@@ -1,5 +1,5 @@
 import { EngineInputError } from '../input-error';
-import type { PixelImage } from './image';
+import type { CodableImage, PixelImage } from './image';
 import { positionsAlong } from '../vocabulary';
 
 /**
@@ -48,7 +48,7 @@ export function blockGrid(width: number, height: number, patch: PatchShape): Blo
 }
 
 /** Copies the patch at (x0, y0) into `out` at `offset`, replicating the last row/column for pixels beyond the edge. */
-function readPatch(image: PixelImage, patch: PatchShape, x0: number, y0: number, out: Float32Array, offset: number): void {
+function readPatch(image: CodableImage, patch: PatchShape, x0: number, y0: number, out: Float32Array, offset: number): void {
   const { width, height, channels, pixels } = image;
   let k = offset;
   for (let row = 0; row < patch.height; row += 1) {
@@ -67,7 +67,7 @@ function readPatch(image: PixelImage, patch: PatchShape, x0: number, y0: number,
  * vectors in a SharedArrayBuffer (for worker threads to read without a copy).
  * @returns vectors: blocksX·blocksY × d, row-major
  */
-export function tile(image: PixelImage, patch: PatchShape, options: { shared?: boolean } = {}): BlockGrid & { vectors: Float32Array; dimension: number } {
+export function tile(image: CodableImage, patch: PatchShape, options: { shared?: boolean } = {}): BlockGrid & { vectors: Float32Array; dimension: number } {
   const grid = blockGrid(image.width, image.height, patch);
   const dimension = vectorDimension(patch, image.channels);
   const count = grid.blocksX * grid.blocksY * dimension;

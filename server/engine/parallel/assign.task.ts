@@ -7,7 +7,8 @@ import { NearestKernel, type Drift, type SearchState } from '../wasm/kernel';
 import { EncodeKernel } from '../wasm/encode-kernel';
 import { addRow } from '../core/accumulate-centroids';
 import { seedUpdateWithTotal, vectorNormsInto } from '../core/init';
-import type { AccumulateJob, AssignJob, AssignReply, EncodeJob, SeedJob, WorkerJob } from './messages';
+import { decodeBands, planOfJob } from './decode-rows';
+import type { AccumulateJob, AssignJob, AssignReply, DecodeJob, EncodeJob, SeedJob, WorkerJob } from './messages';
 
 if (!parentPort) throw new Error('assign.task.ts must run in a worker thread');
 const port = parentPort;
@@ -69,12 +70,19 @@ function encodeChunks(job: EncodeJob): void {
   }
 }
 
+/** Decoding over the bands this worker claims (parallel/decode-rows.ts). */
+function decodeJob(job: DecodeJob): void {
+  const out = new Uint8Array(job.out.buffer, job.out.byteOffset, job.out.length);
+  decodeBands(planOfJob(job), out, new Int32Array(job.control), job.bandRows);
+}
+
 port.on('message', (message: WorkerJob) => {
-  if (message.kind === 'accumulate' || message.kind === 'seed-batch' || message.kind === 'encode') {
+  if (message.kind === 'accumulate' || message.kind === 'seed-batch' || message.kind === 'encode' || message.kind === 'decode') {
     try {
       const reply: AssignReply = { jobId: message.jobId, redecided: 0, searched: 0 };
       if (message.kind === 'seed-batch') reply.totals = message.steps.map(seed);
       else if (message.kind === 'encode') encodeChunks(message);
+      else if (message.kind === 'decode') decodeJob(message);
       else accumulate(message);
       port.postMessage(reply);
     } catch (err) {

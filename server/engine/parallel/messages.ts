@@ -55,7 +55,7 @@ export interface SeedBatchJob {
   steps: SeedJob[];
 }
 
-export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedBatchJob | EncodeJob;
+export type WorkerJob = (AssignJob & { kind?: 'assign' }) | AccumulateJob | SeedBatchJob | EncodeJob | DecodeJob;
 
 export interface AssignReply {
   jobId: number;
@@ -82,4 +82,34 @@ export interface EncodeJob {
   distances: SharedArrayBuffer; // N f64, written
   control: SharedArrayBuffer; // Int32 [next chunk, cancel flag, chunks finished]
   chunkSize: number;
+}
+
+/** A shared array as a worker sees it: its buffer, where it starts, and how many elements it holds. */
+export interface SharedView {
+  buffer: SharedArrayBuffer;
+  byteOffset: number;
+  length: number;
+}
+
+/** Decoding (parallel/decode-rows.ts): bands of block rows claimed through `control`, written into one shared image. */
+export interface DecodeJob {
+  jobId: number;
+  kind: 'decode';
+  width: number;
+  height: number;
+  channels: number;
+  patchWidth: number;
+  patchHeight: number;
+  blocksX: number;
+  blocksY: number;
+  d: number;
+  per: number;
+  table: SharedView | null; // K × d u8, or null when the blocks are computed
+  codewords: SharedView | null; // K × d f32, or null with a table
+  indices: SharedView; // blocks × per u32
+  meanCodes: SharedView | null; // blocks u8
+  levels: SharedView | null; // 2^meanBits f64
+  out: SharedView; // height × width × channels u8, written
+  control: SharedArrayBuffer; // Int32 [next band, cancel flag, bands finished]
+  bandRows: number;
 }

@@ -3,17 +3,11 @@
 import { makeCodebook, type Codebook } from '../../server/engine';
 import type { EncodedImage } from '../../server/engine/format/codec';
 import type { CodebookStructure } from '../../server/engine/structures/types';
+import { lcg } from './c-decoder';
 
 const training = { source: 'invented', vectorCount: 1, init: 'random' as const, epsilon: 0, seed: null, iterations: 0, distortion: 0, trace: [] };
 
-/** Linear congruential generator (Numerical Recipes constants): seeded, so every run uses the same values. */
-export function lcg(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 2 ** 32;
-  };
-}
+export { lcg };
 
 /** A balanced binary tree of the given depth, nodes in breadth-first order: node n's children are 2n + 1 and 2n + 2. */
 export function balancedChildren(depth: number): Int32Array {

@@ -12,29 +12,10 @@ import {
   type Codebook, type ResidualWidth,
 } from '../../../server/engine';
 import { buildDecoder, gcc, lcg, readNetpbm, requireGcc, runDecoder, STRICT } from '../../helpers/c-decoder';
+import { balancedChildren, combChildren, encodedFor } from '../../helpers/structure-books';
 import type { CodebookStructure } from '../../../server/engine/structures/types';
-import type { EncodedImage } from '../../../server/engine/format/codec';
 
 const training = { source: 'invented', vectorCount: 1, init: 'random' as const, epsilon: 0, seed: null, iterations: 0, distortion: 0, trace: [] };
-
-/** A balanced binary tree of the given depth, nodes in breadth-first order: node n's children are 2n + 1 and 2n + 2. */
-function balancedChildren(depth: number): Int32Array {
-  const size = 2 ** (depth + 1) - 1;
-  const children = new Int32Array(2 * size).fill(-1);
-  for (let n = 0; n < 2 ** depth - 1; n += 1) [children[2 * n], children[2 * n + 1]] = [2 * n + 1, 2 * n + 2];
-  return children;
-}
-
-/** A comb of the given depth: every left child but the deepest splits again, every right child is a leaf (breadth-first order). */
-function combChildren(depth: number): Int32Array {
-  const size = 2 * depth + 1;
-  const children = new Int32Array(2 * size).fill(-1);
-  for (let level = 0, n = 0; level < depth; level += 1) {
-    [children[2 * n], children[2 * n + 1]] = [2 * level + 1, 2 * level + 2];
-    n = 2 * level + 1;
-  }
-  return children;
-}
 
 interface Case {
   name: string;
@@ -73,30 +54,6 @@ function codebookFor(c: Case): Codebook {
   return makeCodebook({ size: c.size, dimension: d, patch: { width: c.w, height: c.h, channels, color: c.color }, preprocessing, codewords, usage: new Uint32Array(c.size), training, structure: c.structure });
 }
 
-/** Seeded indices the structure allows: any codeword (entropy-constrained), a leaf (tree), one per stage (residual). */
-function encodedFor(book: Codebook, width: number, height: number, seed: number): EncodedImage {
-  const patch = book.patch!;
-  const blocksX = Math.ceil(width / patch.width);
-  const blocksY = Math.ceil(height / patch.height);
-  const blocks = blocksX * blocksY;
-  const next = lcg(seed);
-  const st = book.structure;
-  let indices: Uint32Array;
-  if (st.kind === 'residual') {
-    indices = new Uint32Array(blocks * st.bits.length);
-    for (let i = 0; i < indices.length; i += 1) {
-      const s = i % st.bits.length;
-      const offset = st.bits.slice(0, s).reduce((a, b) => a + 2 ** b, 0);
-      indices[i] = offset + Math.floor(next() * 2 ** st.bits[s]);
-    }
-  } else {
-    const allowed = st.kind === 'tree' ? Array.from({ length: book.size }, (_, n) => n).filter((n) => st.children[2 * n] === -1) : Array.from({ length: book.size }, (_, n) => n);
-    indices = Uint32Array.from({ length: blocks }, () => allowed[Math.floor(next() * allowed.length)]);
-  }
-  const m = book.preprocessing.kind === 'mean-removed' ? book.preprocessing.meanBits : 0;
-  const meanCodes = m > 0 ? Uint8Array.from({ length: blocks }, () => Math.floor(next() * 2 ** m)) : null;
-  return { width, height, blocksX, blocksY, indices, meanCodes };
-}
 
 const SIZES: [number, number][] = [[1, 1], [7, 5], [33, 18], [64, 41]];
 
